@@ -1,0 +1,675 @@
+//! Cleaning: stockout and reporting adjustments, site filling, imputation
+//! and outlier flagging, each change recorded in the adjustment log.
+
+pub mod impute;
+mod log;
+pub mod outliers;
+pub mod reporting;
+pub mod stockout;
+
+pub use log::{Adjustment, Rule};
+
+use std::collections::HashSet;
+
+use rayon::prelude::*;
+
+use crate::calendar::YearMonth;
+use crate::data::{build_series, Dataset, ProductData, SiteSeries};
+use crate::error::{Error, Result};
+use impute::{impute, usable_profile};
+
+/// Cleaning settings as the user gives them. Check them with
+/// [`CleanSettings::check`] before use.
+///
+/// | setting | default | range |
+/// |---|---|---|
+/// | `max_stockout_days` | 15 | 0–31: months with more stockout days are treated as missing |
+/// | `reporting_floor` | 0.5 | 0–1: months reported below this rate are treated as missing |
+/// | `nonreporting_weight` (k) | 1.0 | 0–1: relative consumption assumed for non-reporting facilities |
+/// | `site_trailing_fill` | 3 | 0–24: months a site may be filled after its last report |
+/// | `outlier_threshold` | 3.5 | > 0: modified z-score above which a month is flagged |
+/// | `replace_outliers` | false | replace flagged months by the robust expected value |
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct CleanSettings {
+    /// Stockout days above which a month is treated as missing.
+    pub max_stockout_days: f64,
+    /// Reporting rate below which a month is treated as missing.
+    pub reporting_floor: f64,
+    /// k in N = N_rep + N_rep × (1/c − 1) × k.
+    pub nonreporting_weight: f64,
+    /// Months after a site's last row that are still filled.
+    pub site_trailing_fill: u32,
+    /// Modified z-score threshold for outliers.
+    pub outlier_threshold: f64,
+    /// Replace flagged outliers (otherwise only flag them).
+    pub replace_outliers: bool,
+}
+
+impl Default for CleanSettings {
+    fn default() -> Self {
+        CleanSettings {
+            max_stockout_days: 15.0,
+            reporting_floor: 0.5,
+            nonreporting_weight: 1.0,
+            site_trailing_fill: 3,
+            outlier_threshold: outliers::DEFAULT_THRESHOLD,
+            replace_outliers: false,
+        }
+    }
+}
+
+/// Settings that passed [`CleanSettings::check`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct CheckedCleanSettings(CleanSettings);
+
+impl CheckedCleanSettings {
+    /// The checked values.
+    pub fn get(&self) -> &CleanSettings {
+        &self.0
+    }
+}
+
+impl CleanSettings {
+    /// Validates every setting; the error names the bad value.
+    pub fn check(self) -> Result<CheckedCleanSettings> {
+        let s = &self;
+        if !(0.0..=31.0).contains(&s.max_stockout_days) {
+            return Err(Error::setting(
+                "max-stockout-days",
+                format!("must be between 0 and 31, got {}", s.max_stockout_days),
+            ));
+        }
+        if !(s.reporting_floor > 0.0 && s.reporting_floor <= 1.0) {
+            return Err(Error::setting(
+                "reporting-floor",
+                format!(
+                    "must be above 0 and at most 1 (a fraction), got {}",
+                    s.reporting_floor
+                ),
+            ));
+        }
+        if !(0.0..=1.0).contains(&s.nonreporting_weight) {
+            return Err(Error::setting(
+                "nonreporting-weight",
+                format!("must be between 0 and 1, got {}", s.nonreporting_weight),
+            ));
+        }
+        if s.site_trailing_fill > 24 {
+            return Err(Error::setting(
+                "site-trailing-fill",
+                format!("must be at most 24 months, got {}", s.site_trailing_fill),
+            ));
+        }
+        if !(s.outlier_threshold.is_finite() && s.outlier_threshold > 0.0) {
+            return Err(Error::setting(
+                "outlier-threshold",
+                format!("must be a positive number, got {}", s.outlier_threshold),
+            ));
+        }
+        Ok(CheckedCleanSettings(self))
+    }
+}
+
+/// Where a cleaned month's value comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum MonthStatus {
+    /// As reported (every site as reported).
+    Reported,
+    /// Reported, then adjusted (stockout, reporting, outlier replacement).
+    Adjusted,
+    /// Some sites reported; the others were filled from their own history.
+    PartlyFilled,
+    /// No trusted report: the whole value is imputed.
+    Imputed,
+}
+
+impl MonthStatus {
+    /// Stable name used in output files.
+    pub fn name(self) -> &'static str {
+        match self {
+            MonthStatus::Reported => "reported",
+            MonthStatus::Adjusted => "adjusted",
+            MonthStatus::PartlyFilled => "partly-filled",
+            MonthStatus::Imputed => "imputed",
+        }
+    }
+}
+
+/// The cleaned monthly series of one product (sites summed).
+#[derive(Debug, Clone, PartialEq)]
+pub struct CleanSeries {
+    /// Product.
+    pub product: String,
+    /// First month.
+    pub start: YearMonth,
+    /// Reported consumption summed over sites; `None` when nothing was reported.
+    pub reported: Vec<Option<f64>>,
+    /// Cleaned consumption, every month filled.
+    pub values: Vec<f64>,
+    /// Provenance of each cleaned month.
+    pub status: Vec<MonthStatus>,
+    /// Share of each cleaned month's value that was filled or imputed (0–1).
+    pub imputed_share: Vec<f64>,
+    /// Months flagged as outliers.
+    pub outlier: Vec<bool>,
+    /// Number of sites (1 for files without sites).
+    pub sites: usize,
+}
+
+impl CleanSeries {
+    /// Month of position `t`.
+    pub fn month(&self, t: usize) -> YearMonth {
+        self.start.plus(t as i64)
+    }
+
+    /// Number of months.
+    pub fn len(&self) -> usize {
+        self.values.len()
+    }
+
+    /// True when the series has no month.
+    pub fn is_empty(&self) -> bool {
+        self.values.is_empty()
+    }
+}
+
+/// How the input rows were accounted for; `used + adjusted + rejected ==
+/// read` always holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+pub struct RowAccount {
+    /// Data rows read.
+    pub read: usize,
+    /// Rows whose value was used as reported (including rows reporting
+    /// nothing, whose month is then filled).
+    pub used: usize,
+    /// Rows whose value cleaning changed, set to missing, or merged.
+    pub adjusted: usize,
+    /// Rows rejected while reading.
+    pub rejected: usize,
+}
+
+impl RowAccount {
+    /// Whether the counts add up.
+    pub fn balances(&self) -> bool {
+        self.used + self.adjusted + self.rejected == self.read
+    }
+}
+
+/// Everything cleaning produced.
+#[derive(Debug, Clone)]
+pub struct Cleaned {
+    /// Cleaned series, one per usable product, ordered by product.
+    pub series: Vec<CleanSeries>,
+    /// The per-product input series the cleaning started from.
+    pub inputs: Vec<ProductData>,
+    /// Every change made, in product, site and month order.
+    pub log: Vec<Adjustment>,
+    /// Warnings about products and sites (not tied to one row).
+    pub warnings: Vec<String>,
+    /// Products with no usable month, with the reason.
+    pub unusable: Vec<(String, String)>,
+    /// Row accounting.
+    pub rows: RowAccount,
+}
+
+/// Cleans every product of a dataset (in parallel).
+pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
+    let inputs = build_series(&data.rows);
+    let results: Vec<ProductResult> = inputs
+        .par_iter()
+        .map(|p| clean_product(p, settings.get()))
+        .collect();
+    let mut series = Vec::new();
+    let mut log = Vec::new();
+    let mut warnings = Vec::new();
+    let mut unusable = Vec::new();
+    for r in results {
+        log.extend(r.log);
+        warnings.extend(r.warnings);
+        match r.series {
+            Ok(s) => series.push(s),
+            Err(reason) => unusable.push((r.product, reason)),
+        }
+    }
+    let changed: HashSet<u64> = log
+        .iter()
+        .filter(|a| a.rule.changes_value())
+        .filter_map(|a| a.line)
+        .chain(data.merged.iter().flat_map(|m| [m.line, m.into_line]))
+        .collect();
+    let accepted_lines: HashSet<u64> = data
+        .rows
+        .iter()
+        .map(|r| r.line)
+        .chain(data.merged.iter().map(|m| m.line))
+        .collect();
+    let adjusted = accepted_lines
+        .iter()
+        .filter(|l| changed.contains(l))
+        .count();
+    let rows = RowAccount {
+        read: data.rows_read,
+        used: accepted_lines.len() - adjusted,
+        adjusted,
+        rejected: data.rejected.len(),
+    };
+    Cleaned {
+        series,
+        inputs,
+        log,
+        warnings,
+        unusable,
+        rows,
+    }
+}
+
+struct ProductResult {
+    product: String,
+    series: std::result::Result<CleanSeries, String>,
+    log: Vec<Adjustment>,
+    warnings: Vec<String>,
+}
+
+/// One site's cleaned values on the product calendar.
+struct SiteClean {
+    /// Cleaned value per product month, `None` outside the site's span.
+    values: Vec<Option<f64>>,
+    /// Whether the value was filled (imputed) rather than reported.
+    filled: Vec<bool>,
+    /// Whether the reported value was adjusted.
+    adjusted: Vec<bool>,
+    /// Whether the month was flagged as an outlier.
+    outlier: Vec<bool>,
+    /// Whether a flagged value was replaced.
+    replaced: Vec<bool>,
+}
+
+fn fmt_q(v: f64) -> String {
+    if v.fract() == 0.0 && v.abs() < 1e15 {
+        format!("{v:.0}")
+    } else {
+        format!("{v:.2}")
+    }
+}
+
+fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
+    let mut log = Vec::new();
+    let mut warnings = Vec::new();
+    let n = p.len();
+    let has_sites = p.sites.iter().any(|x| x.site.is_some());
+    let mut site_cleans = Vec::with_capacity(p.sites.len());
+    for site in &p.sites {
+        match clean_site(p, site, s, &mut log, &mut warnings) {
+            Some(c) => site_cleans.push(c),
+            None => {
+                if has_sites {
+                    warnings.push(format!(
+                        "product '{}', site '{}': no month has a usable quantity; the site is left out",
+                        p.product,
+                        site.site.as_deref().unwrap_or("")
+                    ));
+                }
+            }
+        }
+    }
+    if site_cleans.is_empty() {
+        let reason =
+            "no month has a usable quantity (all empty, or all treated as missing)".to_string();
+        warnings.push(format!("product '{}': {reason}; it is left out", p.product));
+        return ProductResult {
+            product: p.product.clone(),
+            series: Err(reason),
+            log,
+            warnings,
+        };
+    }
+    let mut reported = vec![None; n];
+    for site in &p.sites {
+        let off = p.start.months_until(site.start) as usize;
+        for (k, m) in site.months.iter().enumerate() {
+            if let Some(c) = m.consumed {
+                let slot: &mut Option<f64> = &mut reported[off + k];
+                *slot = Some(slot.unwrap_or(0.0) + c);
+            }
+        }
+    }
+    let mut total: Vec<Option<f64>> = vec![None; n];
+    let mut filled_amount = vec![0.0; n];
+    let mut any_filled = vec![false; n];
+    let mut any_adjusted = vec![false; n];
+    let mut all_filled = vec![true; n];
+    for sc in &site_cleans {
+        for t in 0..n {
+            if let Some(v) = sc.values[t] {
+                total[t] = Some(total[t].unwrap_or(0.0) + v);
+                if sc.filled[t] {
+                    filled_amount[t] += v;
+                    any_filled[t] = true;
+                } else {
+                    all_filled[t] = false;
+                }
+                any_adjusted[t] |= sc.adjusted[t];
+            }
+        }
+    }
+    let status: Vec<MonthStatus> = (0..n)
+        .map(|t| {
+            if total[t].is_none() || all_filled[t] {
+                MonthStatus::Imputed
+            } else if any_filled[t] {
+                MonthStatus::PartlyFilled
+            } else if any_adjusted[t] {
+                MonthStatus::Adjusted
+            } else {
+                MonthStatus::Reported
+            }
+        })
+        .collect();
+    // Months no site covers (gaps between site spans) are imputed on the total.
+    let values = if total.iter().any(Option::is_none) {
+        match impute(&total, p.start) {
+            Some((vals, method)) => {
+                for t in 0..n {
+                    if total[t].is_none() {
+                        filled_amount[t] = vals[t];
+                        log.push(Adjustment {
+                            product: p.product.clone(),
+                            site: None,
+                            month: p.start.plus(t as i64),
+                            line: None,
+                            before: None,
+                            after: Some(vals[t]),
+                            rule: Rule::Imputed,
+                            reason: format!(
+                                "no site covers this month; filled by {}",
+                                method.describe()
+                            ),
+                        });
+                    }
+                }
+                vals
+            }
+            None => unreachable_total(&total),
+        }
+    } else {
+        total.iter().map(|v| v.unwrap_or(0.0)).collect()
+    };
+    let mut imputed_share: Vec<f64> = (0..n)
+        .map(|t| {
+            if values[t] > 0.0 {
+                (filled_amount[t] / values[t]).clamp(0.0, 1.0)
+            } else if status[t] == MonthStatus::Imputed {
+                1.0
+            } else {
+                0.0
+            }
+        })
+        .collect();
+
+    let mut outlier = vec![false; n];
+    for sc in &site_cleans {
+        for t in 0..n {
+            outlier[t] |= sc.outlier[t];
+            if sc.replaced[t] {
+                imputed_share[t] = imputed_share[t].max(0.0);
+            }
+        }
+    }
+    ProductResult {
+        product: p.product.clone(),
+        series: Ok(CleanSeries {
+            product: p.product.clone(),
+            start: p.start,
+            reported,
+            values,
+            status,
+            imputed_share,
+            outlier,
+            sites: p.sites.len(),
+        }),
+        log,
+        warnings,
+    }
+}
+
+/// At least one site has a value, so the total has one: imputation only
+/// fails on an all-missing series. Kept total-free to avoid a panic path.
+fn unreachable_total(total: &[Option<f64>]) -> Vec<f64> {
+    total.iter().map(|v| v.unwrap_or(0.0)).collect()
+}
+
+fn clean_site(
+    p: &ProductData,
+    site: &SiteSeries,
+    s: &CleanSettings,
+    log: &mut Vec<Adjustment>,
+    warnings: &mut Vec<String>,
+) -> Option<SiteClean> {
+    let n = p.len();
+    let off = p.start.months_until(site.start) as usize;
+    // The site is expected from its first row to its last, and for up to
+    // `site_trailing_fill` months after (late reports); after that it is
+    // taken to have stopped.
+    let trailing = site.end().months_until(p.end).max(0) as usize;
+    let fill_after = if site.site.is_some() {
+        trailing.min(s.site_trailing_fill as usize)
+    } else {
+        0
+    };
+    if site.site.is_some() && trailing > fill_after {
+        warnings.push(format!(
+            "product '{}', site '{}': no rows after {} ({} months before the product's last month {}); filled for {} month(s), then treated as no longer supplied",
+            p.product,
+            site.site.as_deref().unwrap_or(""),
+            site.end(),
+            trailing,
+            p.end,
+            fill_after
+        ));
+    }
+    let span = site.months.len() + fill_after;
+    let mut vals: Vec<Option<f64>> = Vec::with_capacity(span);
+    let mut adjusted = vec![false; span];
+    let entry = |month: YearMonth,
+                 line: Option<u64>,
+                 before: Option<f64>,
+                 after: Option<f64>,
+                 rule: Rule,
+                 reason: String| Adjustment {
+        product: p.product.clone(),
+        site: site.site.clone(),
+        month,
+        line,
+        before,
+        after,
+        rule,
+        reason,
+    };
+    for (k, adjusted_k) in adjusted.iter_mut().enumerate() {
+        let month = site.start.plus(k as i64);
+        let Some(obs) = site.months.get(k) else {
+            vals.push(None);
+            continue;
+        };
+        let Some(mut v) = obs.consumed else {
+            vals.push(None);
+            continue;
+        };
+        let days = month.days();
+        let sd = obs.stockout_days.unwrap_or(0.0);
+        if sd > 0.0 {
+            if sd > s.max_stockout_days || sd >= days as f64 {
+                log.push(entry(
+                    month,
+                    obs.line,
+                    Some(v),
+                    None,
+                    Rule::StockoutMissing,
+                    format!(
+                        "out of stock {} of {days} days (limit {}): consumption does not show demand; treated as missing",
+                        fmt_q(sd),
+                        fmt_q(s.max_stockout_days)
+                    ),
+                ));
+                vals.push(None);
+                continue;
+            }
+            if v > 0.0 {
+                if let Some(a) = stockout::adjust_month(v, days, sd) {
+                    log.push(entry(
+                        month,
+                        obs.line,
+                        Some(v),
+                        Some(a),
+                        Rule::StockoutScaled,
+                        format!(
+                            "out of stock {} of {days} days: {} × {days} ÷ {}",
+                            fmt_q(sd),
+                            fmt_q(v),
+                            fmt_q(days as f64 - sd)
+                        ),
+                    ));
+                    v = a;
+                    *adjusted_k = true;
+                }
+            }
+        }
+        if let Some(c) = obs.reporting_rate {
+            if c < s.reporting_floor {
+                log.push(entry(
+                    month,
+                    obs.line,
+                    Some(v),
+                    None,
+                    Rule::ReportingMissing,
+                    format!(
+                        "reporting rate {:.0}% is below the floor {:.0}%: too few reports to trust; treated as missing",
+                        c * 100.0,
+                        s.reporting_floor * 100.0
+                    ),
+                ));
+                vals.push(None);
+                continue;
+            }
+            if c < 1.0 && v > 0.0 {
+                let a = reporting::adjust(v, c, s.nonreporting_weight);
+                let formula = if s.nonreporting_weight == 1.0 {
+                    format!("{} ÷ {:.4}", fmt_q(v), c)
+                } else {
+                    format!(
+                        "{0} + {0} × (1/{1:.4} − 1) × {2}",
+                        fmt_q(v),
+                        c,
+                        s.nonreporting_weight
+                    )
+                };
+                log.push(entry(
+                    month,
+                    obs.line,
+                    Some(v),
+                    Some(a),
+                    Rule::ReportingScaled,
+                    format!("reporting rate {:.1}%: {formula}", c * 100.0),
+                ));
+                v = a;
+                *adjusted_k = true;
+            }
+        }
+        vals.push(Some(v));
+    }
+    // Outliers are judged per series, before filling, so that an entry
+    // error never serves as a neighbour for a filled month.
+    let dense: Vec<f64> = vals.iter().map(|v| v.unwrap_or(0.0)).collect();
+    let trusted: Vec<bool> = vals.iter().map(Option::is_some).collect();
+    let profile = usable_profile(&vals, site.start);
+    let found = outliers::find_outliers(
+        &dense,
+        &trusted,
+        site.start,
+        profile.as_ref(),
+        s.outlier_threshold,
+    );
+    let mut fill_input = vals.clone();
+    for o in &found {
+        fill_input[o.t] = None;
+    }
+    let (filled, method) = impute(&fill_input, site.start)?;
+    let mut out = SiteClean {
+        values: vec![None; n],
+        filled: vec![false; n],
+        adjusted: vec![false; n],
+        outlier: vec![false; n],
+        replaced: vec![false; n],
+    };
+    for o in &found {
+        let k = o.t;
+        let month = site.start.plus(k as i64);
+        let line = site.months.get(k).and_then(|m| m.line);
+        let v = dense[k];
+        let why = format!(
+            "modified z-score {:.1} (limit {:.1}); expected about {} from neighbouring months",
+            o.score,
+            s.outlier_threshold,
+            fmt_q(filled[k])
+        );
+        log.push(entry(
+            month,
+            line,
+            Some(v),
+            Some(v),
+            Rule::OutlierFlagged,
+            format!("{why}; kept (replace only on request)"),
+        ));
+        out.outlier[off + k] = true;
+        if s.replace_outliers {
+            log.push(entry(
+                month,
+                line,
+                Some(v),
+                Some(filled[k]),
+                Rule::OutlierReplaced,
+                format!("{why}; replaced on request"),
+            ));
+            out.replaced[off + k] = true;
+            adjusted[k] = true;
+        }
+    }
+    let rule = if site.site.is_some() {
+        Rule::SiteFilled
+    } else {
+        Rule::Imputed
+    };
+    for k in 0..span {
+        let month = site.start.plus(k as i64);
+        let value = if vals[k].is_none() {
+            let line = site.months.get(k).and_then(|m| m.line);
+            let why = match site.months.get(k) {
+                None => "no row for this month".to_string(),
+                Some(m) if m.line.is_none() => "no row for this month".to_string(),
+                Some(m) if m.consumed.is_none() => "quantity not reported".to_string(),
+                Some(_) => "value treated as missing above".to_string(),
+            };
+            let reason = match &site.site {
+                Some(name) => format!(
+                    "{why}; site '{name}' filled from its own history by {}",
+                    method.describe()
+                ),
+                None => format!("{why}; filled by {}", method.describe()),
+            };
+            log.push(entry(month, line, None, Some(filled[k]), rule, reason));
+            out.filled[off + k] = true;
+            filled[k]
+        } else if out.replaced[off + k] {
+            filled[k]
+        } else {
+            dense[k]
+        };
+        out.values[off + k] = Some(value);
+        out.adjusted[off + k] = adjusted[k];
+    }
+    let _ = &profile;
+    Some(out)
+}
+
+#[cfg(test)]
+mod tests;

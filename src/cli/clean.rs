@@ -1,0 +1,74 @@
+//! `provisio clean DATA --out DIR`: cleaned series and the adjustment log.
+
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+use anyhow::Context;
+use clap::Args;
+
+use super::{load, print_accounting, CleanArgs, ReadArgs};
+use provisio::output;
+
+#[derive(Args, Debug)]
+pub struct CleanCmdArgs {
+    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    data: PathBuf,
+    /// Directory for the outputs (created if needed).
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
+    let (ds, cleaned, bytes) = load(&a.data, &a.read, &a.clean)?;
+    std::fs::create_dir_all(&a.out)
+        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    let profiles = provisio::quality::profile_all(&cleaned);
+    output::write_cleaned(&a.out.join("cleaned.csv"), &cleaned.series)?;
+    output::write_adjustments(&a.out.join("adjustments.csv"), &cleaned.log)?;
+    output::write_rejected(&a.out.join("rejected.csv"), &ds.source, &ds.rejected)?;
+    output::write_quality(&a.out.join("quality.csv"), &profiles)?;
+    let mut by_rule: BTreeMap<String, usize> = BTreeMap::new();
+    for e in &cleaned.log {
+        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
+    }
+    let mut warnings = ds.warnings.clone();
+    warnings.extend(cleaned.warnings.iter().cloned());
+    let manifest = output::CleanManifest {
+        tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        command: "clean".to_string(),
+        input: ds.source.clone(),
+        input_sha256: output::sha256_hex(&bytes),
+        settings: a.clean.settings(),
+        duplicates: format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        rows: cleaned.rows,
+        products: cleaned.series.len(),
+        products_unusable: cleaned.unusable.len(),
+        adjustments_by_rule: by_rule.clone(),
+        warnings,
+    };
+    output::write_clean_manifest(&a.out.join("manifest.json"), &manifest)?;
+    print_accounting(&ds, &cleaned, 10);
+    let months: usize = cleaned.series.iter().map(|s| s.len()).sum();
+    println!(
+        "cleaned {} product(s), {} product-months{}",
+        cleaned.series.len(),
+        months,
+        if cleaned.unusable.is_empty() {
+            String::new()
+        } else {
+            format!("; {} left out (no usable month)", cleaned.unusable.len())
+        }
+    );
+    for (rule, n) in &by_rule {
+        println!("  {rule:<18} {n}");
+    }
+    println!(
+        "wrote cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        a.out.display()
+    );
+    Ok(())
+}

@@ -1,0 +1,103 @@
+//! `provisio inspect DATA`: the data-quality profile.
+
+use std::path::PathBuf;
+
+use clap::Args;
+
+use super::{load, print_accounting, CleanArgs, ReadArgs};
+
+#[derive(Args, Debug)]
+pub struct InspectArgs {
+    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    data: PathBuf,
+    /// Also write the profile as CSV to this file.
+    #[arg(long, value_name = "FILE")]
+    csv: Option<PathBuf>,
+    /// Write rejected rows, with reasons, to this file.
+    #[arg(long, value_name = "FILE")]
+    rejected: Option<PathBuf>,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+fn truncate(s: &str, n: usize) -> String {
+    let clean: String = s
+        .chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect();
+    if clean.chars().count() <= n {
+        clean
+    } else {
+        let mut out: String = clean.chars().take(n - 1).collect();
+        out.push('…');
+        out
+    }
+}
+
+fn pad(s: &str, n: usize) -> String {
+    let len = s.chars().count();
+    if len >= n {
+        s.to_string()
+    } else {
+        format!("{s}{}", " ".repeat(n - len))
+    }
+}
+
+pub fn run(a: InspectArgs) -> anyhow::Result<()> {
+    let (ds, cleaned, _) = load(&a.data, &a.read, &a.clean)?;
+    let profiles = provisio::quality::profile_all(&cleaned);
+    let name_w = profiles
+        .iter()
+        .map(|p| p.product.chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40);
+    println!(
+        "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>5} {:>8}  verdict",
+        pad("product", name_w),
+        "sites",
+        "period",
+        "months",
+        "gaps",
+        "stockout",
+        "rep. rate",
+        "zero",
+        "outliers"
+    );
+    for p in &profiles {
+        let rate = match (p.mean_reporting_rate, p.min_reporting_rate) {
+            (Some(m), Some(lo)) => format!("{:.0}/{:.0}%", m * 100.0, lo * 100.0),
+            _ => "-".to_string(),
+        };
+        println!(
+            "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>4.0}% {:>8}  {}",
+            pad(&truncate(&p.product, name_w), name_w),
+            p.sites,
+            format!("{}..{}", p.first, p.last),
+            format!("{}/{}", p.months_reported, p.months),
+            p.months_missing,
+            p.months_with_stockouts,
+            rate,
+            p.zero_share * 100.0,
+            p.outliers.len(),
+            p.verdict.name()
+        );
+    }
+    println!();
+    for p in &profiles {
+        println!("{}: {}", truncate(&p.product, 60), p.verdict_text());
+    }
+    println!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
+    print_accounting(&ds, &cleaned, 20);
+    if let Some(path) = &a.csv {
+        provisio::output::write_quality(path, &profiles)?;
+        eprintln!("wrote {}", path.display());
+    }
+    if let Some(path) = &a.rejected {
+        provisio::output::write_rejected(path, &ds.source, &ds.rejected)?;
+        eprintln!("wrote {}", path.display());
+    }
+    Ok(())
+}

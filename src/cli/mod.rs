@@ -1,0 +1,178 @@
+//! Command-line definitions and dispatch.
+
+mod clean;
+mod generate;
+mod inspect;
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+
+/// Forecast monthly consumption of public-health commodities from facility
+/// reports, with every adjustment to the data logged.
+#[derive(Parser, Debug)]
+#[command(name = "provisio", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Profile the data quality of each product: gaps, stockouts, reporting, outliers, and a verdict.
+    #[command(
+        after_help = "Example:\n  provisio inspect datasets/demo/consumption.csv --csv quality.csv"
+    )]
+    Inspect(inspect::InspectArgs),
+    /// Clean the data (stockout and reporting adjustments, filling, outlier flags) and write the adjustment log.
+    #[command(
+        after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
+    )]
+    Clean(clean::CleanCmdArgs),
+    /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
+    #[command(
+        after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
+    )]
+    Generate(generate::GenerateArgs),
+}
+
+/// Options shared by every command that reads input data.
+#[derive(Args, Debug, Clone)]
+pub struct ReadArgs {
+    /// What to do with two rows for the same product, month and site.
+    #[arg(long, value_enum, default_value_t = Duplicates::Reject)]
+    duplicates: Duplicates,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum Duplicates {
+    /// Reject them (an exact copy is dropped, the first copy kept).
+    Reject,
+    /// Add their quantities together.
+    Sum,
+}
+
+impl ReadArgs {
+    fn options(&self) -> provisio::data::ReadOptions {
+        provisio::data::ReadOptions {
+            duplicates: match self.duplicates {
+                Duplicates::Reject => provisio::data::DuplicatePolicy::Reject,
+                Duplicates::Sum => provisio::data::DuplicatePolicy::Sum,
+            },
+        }
+    }
+}
+
+/// Cleaning options shared by `inspect` and `clean`.
+#[derive(Args, Debug, Clone)]
+pub struct CleanArgs {
+    /// A month with more stockout days than this is treated as missing.
+    #[arg(long, default_value_t = 15.0, value_name = "DAYS")]
+    max_stockout_days: f64,
+    /// A month reported below this reporting rate (fraction) is treated as missing.
+    #[arg(long, default_value_t = 0.5, value_name = "RATE")]
+    reporting_floor: f64,
+    /// k: how much non-reporting facilities are assumed to consume relative to reporting ones (1 = divide by the rate).
+    #[arg(long, default_value_t = 1.0, value_name = "K")]
+    nonreporting_weight: f64,
+    /// Months a site is still filled after its last report before it counts as stopped.
+    #[arg(long, default_value_t = 3, value_name = "MONTHS")]
+    site_trailing_fill: u32,
+    /// Modified z-score above which a month is flagged as an outlier.
+    #[arg(long, default_value_t = 3.5, value_name = "Z")]
+    outlier_threshold: f64,
+    /// Replace flagged outliers by their robust expected value (default: flag only).
+    #[arg(long)]
+    replace_outliers: bool,
+}
+
+impl CleanArgs {
+    fn settings(&self) -> provisio::clean::CleanSettings {
+        provisio::clean::CleanSettings {
+            max_stockout_days: self.max_stockout_days,
+            reporting_floor: self.reporting_floor,
+            nonreporting_weight: self.nonreporting_weight,
+            site_trailing_fill: self.site_trailing_fill,
+            outlier_threshold: self.outlier_threshold,
+            replace_outliers: self.replace_outliers,
+        }
+    }
+}
+
+/// Exit code for input the tool refuses.
+const EXIT_REFUSED: i32 = 1;
+
+/// Parses arguments and runs the command; returns the exit code.
+pub fn run() -> i32 {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Inspect(a) => inspect::run(a),
+        Command::Clean(a) => clean::run(a),
+        Command::Generate(a) => generate::run(a),
+    };
+    match result {
+        Ok(()) => 0,
+        Err(e) => {
+            eprintln!("error: {e:#}");
+            EXIT_REFUSED
+        }
+    }
+}
+
+/// Reads and cleans an input file, as `inspect` and `clean` both do.
+fn load(
+    data: &PathBuf,
+    read: &ReadArgs,
+    clean: &CleanArgs,
+) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
+    let settings = clean.settings().check()?;
+    let bytes = std::fs::read(data)
+        .map_err(|e| anyhow::anyhow!("{}: cannot read input: {e}", data.display()))?;
+    let ds = provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    let cleaned = provisio::clean::clean(&ds, &settings);
+    Ok((ds, cleaned, bytes))
+}
+
+/// Prints the row accounting line and the reading warnings.
+fn print_accounting(
+    ds: &provisio::data::Dataset,
+    cleaned: &provisio::clean::Cleaned,
+    quiet_rows: usize,
+) {
+    let r = cleaned.rows;
+    eprintln!(
+        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}",
+        r.read,
+        r.used,
+        r.adjusted,
+        r.rejected,
+        if r.balances() {
+            ""
+        } else {
+            "  (DOES NOT ADD UP: please report this)"
+        }
+    );
+    for w in &ds.warnings {
+        eprintln!("warning: {w}");
+    }
+    for rej in ds.rejected.iter().take(quiet_rows) {
+        let col = rej
+            .column
+            .as_deref()
+            .map(|c| format!(": column '{c}'"))
+            .unwrap_or_default();
+        eprintln!("rejected: {}:{}{col}: {}", ds.source, rej.line, rej.reason);
+    }
+    if ds.rejected.len() > quiet_rows {
+        eprintln!("rejected: ... and {} more", ds.rejected.len() - quiet_rows);
+    }
+    for w in cleaned.warnings.iter().take(quiet_rows) {
+        eprintln!("warning: {w}");
+    }
+    if cleaned.warnings.len() > quiet_rows {
+        eprintln!(
+            "warning: ... and {} more",
+            cleaned.warnings.len() - quiet_rows
+        );
+    }
+}

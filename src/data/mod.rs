@@ -1,0 +1,100 @@
+//! Input records: reading the long CSV, validating it, and building one
+//! gap-free monthly series per product (and per site).
+
+mod read;
+mod series;
+
+pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions};
+pub use series::{build_series, MonthObs, ProductData, SiteSeries};
+
+use crate::calendar::YearMonth;
+
+/// One accepted input row, with values parsed and checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct InputRow {
+    /// 1-based line of the row in the input file (where the record starts).
+    pub line: u64,
+    /// Product code or name.
+    pub product: String,
+    /// Site, when the file has a `site` column.
+    pub site: Option<String>,
+    /// Calendar month.
+    pub month: YearMonth,
+    /// Quantity dispensed; `None` = not reported.
+    pub consumed: Option<f64>,
+    /// Days out of stock in the month; `None` = not given.
+    pub stockout_days: Option<f64>,
+    /// Share of expected reports received, as a fraction 0–1; `None` = not given.
+    pub reporting_rate: Option<f64>,
+}
+
+/// An input row that was not used, with the reason.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RejectedRow {
+    /// 1-based line of the row in the input file.
+    pub line: u64,
+    /// Column at fault, if one.
+    pub column: Option<String>,
+    /// The offending value as found.
+    pub value: String,
+    /// What was wrong and what would be valid.
+    pub reason: String,
+    /// The whole row as read, fields joined by the file's delimiter.
+    pub raw: String,
+}
+
+/// A row that was accepted but changed while reading (for example merged
+/// with a duplicate), kept so the row accounting adds up.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MergedRow {
+    /// Line of the row that was merged into another.
+    pub line: u64,
+    /// Line of the row that now carries its quantity.
+    pub into_line: u64,
+}
+
+/// What was read from one input file.
+#[derive(Debug, Clone)]
+pub struct Dataset {
+    /// The file name as given by the user, used in messages.
+    pub source: String,
+    /// Data rows in the file (header excluded, blank lines included).
+    pub rows_read: usize,
+    /// Accepted rows.
+    pub rows: Vec<InputRow>,
+    /// Rejected rows, with reasons.
+    pub rejected: Vec<RejectedRow>,
+    /// Rows folded into another row (duplicates summed on request).
+    pub merged: Vec<MergedRow>,
+    /// Warnings about the file as a whole (not tied to one row).
+    pub warnings: Vec<String>,
+    /// Layout facts found while reading.
+    pub layout: Layout,
+}
+
+/// Facts about the file's layout, recorded for the run manifest.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Layout {
+    /// The delimiter detected.
+    pub delimiter: char,
+    /// Whether a UTF-8 byte-order mark was stripped.
+    pub had_bom: bool,
+    /// Whether a `site` column is present.
+    pub has_site: bool,
+    /// Whether a `stockout_days` column is present.
+    pub has_stockout_days: bool,
+    /// Whether a `reporting_rate` column is present.
+    pub has_reporting_rate: bool,
+    /// Whether plain reporting-rate numbers were read as percentages
+    /// (because some value in the column exceeds 1).
+    pub reporting_rate_as_percent: bool,
+    /// Columns present but not part of the contract (kept in the file, ignored).
+    pub extra_columns: Vec<String>,
+}
+
+impl Dataset {
+    /// Rows accepted (used as they are or merged into another row).
+    pub fn rows_accepted(&self) -> usize {
+        self.rows.len() + self.merged.len()
+    }
+}

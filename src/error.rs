@@ -1,0 +1,75 @@
+//! The one error type of the library.
+
+use std::path::PathBuf;
+
+/// Everything that can go wrong in the library. Messages are lowercase, say
+/// what was wrong and where, and what would be valid.
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// A file could not be opened, read or written.
+    #[error("{path}: {action}: {source}")]
+    Io {
+        /// The file involved.
+        path: PathBuf,
+        /// What was being done ("cannot open", "cannot write", ...).
+        action: &'static str,
+        /// The operating system's error.
+        #[source]
+        source: std::io::Error,
+    },
+    /// The input as a whole cannot be used (empty file, missing column, bad
+    /// encoding, ...). `line` is 1-based; 0 when the problem has no line.
+    #[error("{}", location_message(.file, *.line, .column.as_deref(), .message))]
+    Input {
+        /// Input file as given by the user.
+        file: String,
+        /// 1-based line number, 0 when not tied to a line.
+        line: u64,
+        /// Column name, when the problem is tied to one.
+        column: Option<String>,
+        /// What was wrong and what would be valid.
+        message: String,
+    },
+    /// A setting is out of its valid range.
+    #[error("invalid setting {name}: {message}")]
+    Setting {
+        /// The setting's name as the user writes it.
+        name: &'static str,
+        /// What was wrong and what would be valid.
+        message: String,
+    },
+    /// Writing CSV or JSON output failed.
+    #[error("{path}: cannot write output: {message}")]
+    Output {
+        /// The output file.
+        path: PathBuf,
+        /// What went wrong.
+        message: String,
+    },
+}
+
+fn location_message(file: &str, line: u64, column: Option<&str>, message: &str) -> String {
+    let mut out = file.to_string();
+    if line > 0 {
+        out.push_str(&format!(":{line}"));
+    }
+    if let Some(c) = column {
+        out.push_str(&format!(": column '{c}'"));
+    }
+    out.push_str(": ");
+    out.push_str(message);
+    out
+}
+
+/// Result alias used across the library.
+pub type Result<T> = std::result::Result<T, Error>;
+
+impl Error {
+    /// Shorthand for a setting error.
+    pub fn setting(name: &'static str, message: impl Into<String>) -> Self {
+        Error::Setting {
+            name,
+            message: message.into(),
+        }
+    }
+}

@@ -1,0 +1,184 @@
+//! The CSV and JSON tables written by `inspect` and `clean`.
+
+use std::path::Path;
+
+use super::{fmt_num, fmt_opt, write_atomic};
+use crate::clean::{Adjustment, CleanSeries, CleanSettings, RowAccount};
+use crate::data::RejectedRow;
+use crate::error::Result;
+use crate::quality::QualityProfile;
+
+fn csv_writer(w: &mut dyn std::io::Write) -> csv::Writer<&mut dyn std::io::Write> {
+    csv::WriterBuilder::new().from_writer(w)
+}
+
+fn io_err(e: csv::Error) -> std::io::Error {
+    std::io::Error::other(e)
+}
+
+/// `cleaned.csv`: product, month, reported, cleaned, status, imputed share, outlier.
+pub fn write_cleaned(path: &Path, series: &[CleanSeries]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv_writer(w);
+        c.write_record([
+            "product",
+            "month",
+            "reported",
+            "cleaned",
+            "status",
+            "imputed_share",
+            "outlier",
+        ])
+        .map_err(io_err)?;
+        for s in series {
+            for t in 0..s.len() {
+                c.write_record([
+                    s.product.as_str(),
+                    &s.month(t).to_string(),
+                    &fmt_opt(s.reported[t]),
+                    &fmt_num(s.values[t]),
+                    s.status[t].name(),
+                    &fmt_num(s.imputed_share[t]),
+                    if s.outlier[t] { "yes" } else { "" },
+                ])
+                .map_err(io_err)?;
+            }
+        }
+        c.flush()
+    })
+}
+
+/// `adjustments.csv`: the adjustment log.
+pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv_writer(w);
+        c.write_record([
+            "product", "site", "month", "line", "before", "after", "rule", "reason",
+        ])
+        .map_err(io_err)?;
+        for a in log {
+            c.write_record([
+                a.product.as_str(),
+                a.site.as_deref().unwrap_or(""),
+                &a.month.to_string(),
+                &a.line.map(|l| l.to_string()).unwrap_or_default(),
+                &fmt_opt(a.before),
+                &fmt_opt(a.after),
+                a.rule.name(),
+                a.reason.as_str(),
+            ])
+            .map_err(io_err)?;
+        }
+        c.flush()
+    })
+}
+
+/// `rejected.csv`: rows not used, with the reason and the row as read.
+pub fn write_rejected(path: &Path, source: &str, rejected: &[RejectedRow]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv_writer(w);
+        c.write_record(["file", "line", "column", "value", "reason", "row"])
+            .map_err(io_err)?;
+        for r in rejected {
+            c.write_record([
+                source,
+                &r.line.to_string(),
+                r.column.as_deref().unwrap_or(""),
+                r.value.as_str(),
+                r.reason.as_str(),
+                r.raw.as_str(),
+            ])
+            .map_err(io_err)?;
+        }
+        c.flush()
+    })
+}
+
+fn pct(v: Option<f64>) -> String {
+    v.map(|x| format!("{:.1}", x * 100.0)).unwrap_or_default()
+}
+
+/// `quality.csv`: the data-quality profile per product.
+pub fn write_quality(path: &Path, profiles: &[QualityProfile]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv_writer(w);
+        c.write_record([
+            "product",
+            "sites",
+            "first_month",
+            "last_month",
+            "months",
+            "months_reported",
+            "months_missing",
+            "longest_gap",
+            "months_with_stockouts",
+            "months_stocked_out_too_long",
+            "mean_reporting_rate_pct",
+            "min_reporting_rate_pct",
+            "zero_share_pct",
+            "outlier_months",
+            "months_imputed",
+            "verdict",
+            "reasons",
+        ])
+        .map_err(io_err)?;
+        for p in profiles {
+            c.write_record([
+                p.product.as_str(),
+                &p.sites.to_string(),
+                p.first.as_str(),
+                p.last.as_str(),
+                &p.months.to_string(),
+                &p.months_reported.to_string(),
+                &p.months_missing.to_string(),
+                &p.longest_gap.to_string(),
+                &p.months_with_stockouts.to_string(),
+                &p.months_stocked_out_too_long.to_string(),
+                &pct(p.mean_reporting_rate),
+                &pct(p.min_reporting_rate),
+                &format!("{:.1}", p.zero_share * 100.0),
+                &p.outliers.join(" "),
+                &p.months_imputed.to_string(),
+                p.verdict.name(),
+                &p.reasons.join("; "),
+            ])
+            .map_err(io_err)?;
+        }
+        c.flush()
+    })
+}
+
+/// The run manifest of a `clean` run: enough to reproduce it.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct CleanManifest {
+    /// Tool name and version.
+    pub tool: String,
+    /// Command run.
+    pub command: String,
+    /// Input file as given.
+    pub input: String,
+    /// SHA-256 of the input bytes.
+    pub input_sha256: String,
+    /// Cleaning settings used.
+    pub settings: CleanSettings,
+    /// Duplicate handling used.
+    pub duplicates: String,
+    /// Row accounting.
+    pub rows: RowAccount,
+    /// Products cleaned.
+    pub products: usize,
+    /// Products left out (no usable month).
+    pub products_unusable: usize,
+    /// Adjustment-log entries per rule.
+    pub adjustments_by_rule: std::collections::BTreeMap<String, usize>,
+    /// Warnings raised.
+    pub warnings: Vec<String>,
+}
+
+/// Writes `manifest.json`.
+pub fn write_clean_manifest(path: &Path, manifest: &CleanManifest) -> Result<()> {
+    write_atomic(path, |w| {
+        serde_json::to_writer_pretty(&mut *w, manifest).map_err(std::io::Error::other)?;
+        w.write_all(b"\n")
+    })
+}
