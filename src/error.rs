@@ -38,6 +38,23 @@ pub enum Error {
         /// What was wrong and what would be valid.
         message: String,
     },
+    /// A model cannot apply to a series (too short, zeros for a
+    /// multiplicative form, ...).
+    #[error("model {model} does not apply: {reason}")]
+    NotApplicable {
+        /// Model name.
+        model: String,
+        /// Why not.
+        reason: String,
+    },
+    /// A model failed while fitting or forecasting.
+    #[error("model {model} failed: {message}")]
+    Model {
+        /// Model name.
+        model: String,
+        /// What went wrong.
+        message: String,
+    },
     /// Writing CSV or JSON output failed.
     #[error("{path}: cannot write output: {message}")]
     Output {

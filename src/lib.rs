@@ -24,6 +24,7 @@ pub mod clean;
 pub mod data;
 pub mod error;
 pub mod generate;
+pub mod models;
 pub mod output;
 pub mod quality;
 

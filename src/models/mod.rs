@@ -1,0 +1,240 @@
+//! The candidate forecasting models behind one contract.
+//!
+//! A model spec (unfitted) implements [`Model`]; fitting returns its own
+//! fitted type, and only a fitted model can forecast. The backtest works
+//! with [`AnyModel`], the object-safe form every [`Model`] gets for free.
+//!
+//! Every forecast carries point values and prediction intervals for the
+//! requested levels (e.g. 0.80 and 0.95), clipped at zero: consumption is
+//! never negative.
+
+use crate::error::{Error, Result};
+
+/// Seasonal period of monthly data.
+pub const PERIOD: usize = 12;
+
+/// Default interval levels: 80% and 95%.
+pub const DEFAULT_LEVELS: [f64; 2] = [0.80, 0.95];
+
+/// What a model needs from a series before it can be fitted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Needs {
+    /// Fewest months of history.
+    pub min_months: usize,
+    /// Whether every value must be strictly positive (multiplicative forms).
+    pub positive: bool,
+    /// Whether the model estimates seasonality (needs two full years).
+    pub seasonal: bool,
+}
+
+impl Needs {
+    /// Plain-words statement of the needs, for `provisio models`.
+    pub fn describe(&self) -> String {
+        let mut s = format!("at least {} months", self.min_months);
+        if self.positive {
+            s.push_str(", all values above zero");
+        }
+        s
+    }
+
+    /// Checks a series against the needs; the error says why the model
+    /// cannot apply.
+    pub fn check(&self, model: &str, y: &[f64]) -> Result<()> {
+        if y.len() < self.min_months {
+            return Err(Error::NotApplicable {
+                model: model.to_string(),
+                reason: format!(
+                    "needs at least {} months, the series has {}",
+                    self.min_months,
+                    y.len()
+                ),
+            });
+        }
+        if let Some(bad) = y.iter().position(|v| !v.is_finite()) {
+            return Err(Error::NotApplicable {
+                model: model.to_string(),
+                reason: format!(
+                    "value {} at position {} is not a finite number",
+                    y[bad],
+                    bad + 1
+                ),
+            });
+        }
+        if self.positive {
+            if let Some(bad) = y.iter().position(|&v| v <= 0.0) {
+                return Err(Error::NotApplicable {
+                    model: model.to_string(),
+                    reason: format!(
+                        "multiplicative seasonality needs every month above zero; month {} is {}",
+                        bad + 1,
+                        y[bad]
+                    ),
+                });
+            }
+        }
+        Ok(())
+    }
+}
+
+/// A prediction interval at one level.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Interval {
+    /// Nominal coverage, e.g. 0.80.
+    pub level: f64,
+    /// Lower bound per horizon.
+    pub lower: Vec<f64>,
+    /// Upper bound per horizon.
+    pub upper: Vec<f64>,
+}
+
+/// Point forecasts and prediction intervals for horizons 1..=h.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Forecast {
+    /// Point forecast per horizon.
+    pub point: Vec<f64>,
+    /// One interval per requested level, in the order requested.
+    pub intervals: Vec<Interval>,
+}
+
+impl Forecast {
+    /// Builds a forecast with normal intervals: point ± z × sd for each
+    /// level, where `sd[k]` is the forecast standard deviation at horizon k+1.
+    pub fn normal(point: Vec<f64>, sd: &[f64], levels: &[f64]) -> Result<Self> {
+        let mut intervals = Vec::with_capacity(levels.len());
+        for &level in levels {
+            let z = z_for_level(level)?;
+            let (lower, upper) = point
+                .iter()
+                .zip(sd)
+                .map(|(&p, &s)| (p - z * s, p + z * s))
+                .unzip();
+            intervals.push(Interval {
+                level,
+                lower,
+                upper,
+            });
+        }
+        Ok(Forecast { point, intervals }.clipped())
+    }
+
+    /// Clips every value at zero (consumption is never negative).
+    pub fn clipped(mut self) -> Self {
+        let clip = |v: &mut Vec<f64>| v.iter_mut().for_each(|x| *x = x.max(0.0));
+        clip(&mut self.point);
+        for i in &mut self.intervals {
+            clip(&mut i.lower);
+            clip(&mut i.upper);
+        }
+        self
+    }
+
+    /// The interval at `level`, if it was requested.
+    pub fn interval(&self, level: f64) -> Option<&Interval> {
+        self.intervals
+            .iter()
+            .find(|i| (i.level - level).abs() < 1e-9)
+    }
+}
+
+/// Two-sided standard-normal quantile for a coverage level in (0, 1):
+/// 0.80 → 1.2816, 0.95 → 1.9600.
+pub fn z_for_level(level: f64) -> Result<f64> {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    if !(level > 0.0 && level < 1.0) {
+        return Err(Error::setting(
+            "level",
+            format!("an interval level must be between 0 and 1 (0.8 = 80%), got {level}"),
+        ));
+    }
+    let n = Normal::new(0.0, 1.0).map_err(|e| Error::setting("level", e.to_string()))?;
+    Ok(n.inverse_cdf(0.5 + level / 2.0))
+}
+
+/// A fitted model: it can forecast and describe what it estimated.
+pub trait Fitted: Send {
+    /// Forecasts horizons 1..=`horizon` with intervals at `levels`.
+    fn forecast(&self, horizon: usize, levels: &[f64]) -> Result<Forecast>;
+    /// The estimated parameters, by name (for reports and reference checks).
+    fn params(&self) -> Vec<(String, f64)>;
+    /// In-sample sum of squared one-step errors, when the model has one.
+    fn sse(&self) -> Option<f64> {
+        None
+    }
+}
+
+/// A model specification: unfitted, cheap to copy, fitted per series.
+pub trait Model: Send + Sync {
+    /// What fitting returns.
+    type Fitted: Fitted + 'static;
+    /// Stable short name, e.g. `holt-winters-additive`.
+    fn name(&self) -> String;
+    /// One-line description for `provisio models`.
+    fn description(&self) -> String;
+    /// What the model needs from a series.
+    fn needs(&self) -> Needs;
+    /// Fits to `y` (oldest month first). Fails with
+    /// [`Error::NotApplicable`] when the series does not meet [`Model::needs`].
+    fn fit(&self, y: &[f64]) -> Result<Self::Fitted>;
+}
+
+/// Object-safe form of [`Model`], used to hold a set of candidates.
+pub trait AnyModel: Send + Sync {
+    /// See [`Model::name`].
+    fn name(&self) -> String;
+    /// See [`Model::description`].
+    fn description(&self) -> String;
+    /// See [`Model::needs`].
+    fn needs(&self) -> Needs;
+    /// Fits and boxes the fitted model.
+    fn fit_any(&self, y: &[f64]) -> Result<Box<dyn Fitted>>;
+}
+
+impl<M: Model> AnyModel for M {
+    fn name(&self) -> String {
+        Model::name(self)
+    }
+    fn description(&self) -> String {
+        Model::description(self)
+    }
+    fn needs(&self) -> Needs {
+        Model::needs(self)
+    }
+    fn fit_any(&self, y: &[f64]) -> Result<Box<dyn Fitted>> {
+        Ok(Box::new(self.fit(y)?))
+    }
+}
+
+/// The default candidate set, in the order reports list them.
+pub fn candidates() -> Vec<Box<dyn AnyModel>> {
+    // Each model family registers its specs here.
+    let list: Vec<Box<dyn AnyModel>> = Vec::new();
+    list
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn z_values() {
+        // Standard normal quantiles (common statistical tables): 1.2816, 1.9600.
+        assert!((z_for_level(0.80).unwrap() - 1.281_551_565_5).abs() < 1e-6);
+        assert!((z_for_level(0.95).unwrap() - 1.959_963_985).abs() < 1e-6);
+        assert!(z_for_level(1.0).is_err());
+    }
+
+    #[test]
+    fn needs_check_reasons() {
+        let n = Needs {
+            min_months: 24,
+            positive: true,
+            seasonal: true,
+        };
+        let e = n.check("m", &[1.0; 10]).unwrap_err().to_string();
+        assert!(e.contains("at least 24"), "{e}");
+        let mut y = vec![1.0; 30];
+        y[3] = 0.0;
+        let e = n.check("m", &y).unwrap_err().to_string();
+        assert!(e.contains("above zero"), "{e}");
+    }
+}
