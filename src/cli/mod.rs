@@ -130,6 +130,17 @@ fn load(
         .map_err(|e| anyhow::anyhow!("{}: cannot read input: {e}", data.display()))?;
     let ds = provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
     let cleaned = provisio::clean::clean(&ds, &settings);
+    if cleaned.series.is_empty() {
+        let why = cleaned
+            .unusable
+            .first()
+            .map(|(p, r)| format!("; product '{p}': {r}"))
+            .unwrap_or_default();
+        anyhow::bail!(
+            "{}: no product has a usable month of consumption{why}",
+            data.display()
+        );
+    }
     Ok((ds, cleaned, bytes))
 }
 

@@ -334,7 +334,7 @@ fn parse_row(
             None,
             String::new(),
             format!(
-                "the row has {} fields but the header has {}; check for an unquoted delimiter inside a value",
+                "the row has {} fields but the header has {}; check for an unquoted delimiter inside a value (a thousands separator as in 1,234, or a comma in a name: put the value in quotes)",
                 rec.len(),
                 cols.width
             ),
