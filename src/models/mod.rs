@@ -10,6 +10,9 @@
 
 use crate::error::{Error, Result};
 
+pub mod decomposition;
+pub mod ets;
+
 /// Seasonal period of monthly data.
 pub const PERIOD: usize = 12;
 
@@ -207,7 +210,11 @@ impl<M: Model> AnyModel for M {
 /// The default candidate set, in the order reports list them.
 pub fn candidates() -> Vec<Box<dyn AnyModel>> {
     // Each model family registers its specs here.
-    let list: Vec<Box<dyn AnyModel>> = Vec::new();
+    let mut list: Vec<Box<dyn AnyModel>> = Vec::new();
+    for spec in ets::Ets::all() {
+        list.push(Box::new(spec));
+    }
+    list.push(Box::new(decomposition::MstlEts));
     list
 }
 

@@ -756,6 +756,58 @@ def statsforecast_section(ds):
     return out
 
 
+def mstl_block(y):
+    """statsforecast MSTL(season_length=12) with its default trend forecaster
+    AutoETS(model='ZZN'): decomposition, chosen trend model, forecast."""
+    from statsforecast.models import MSTL
+
+    y = np.asarray(y, dtype=float)
+    rec = {
+        "call": "statsforecast.models.MSTL(season_length=12).forecast(y, h=12, level=[80, 95])",
+        "stl_settings": (
+            "statsforecast.mstl.mstl calls statsmodels.tsa.seasonal.STL(x, period=12, seasonal=11, "
+            "seasonal_deg=0) with every other argument at its statsmodels default: trend=None (smallest odd "
+            "> 1.5*12/(1-1.5/11), i.e. 21), low_pass=None (13), trend_deg=1, low_pass_deg=1, jumps 1, "
+            "robust=False (inner_iter=5, outer_iter=0); one period, so one MSTL iteration"
+        ),
+    }
+    rec.update(sf_forecast(MSTL(season_length=12), y, level=[80, 95]))
+    fitted, w = run_quiet(lambda: MSTL(season_length=12).fit(y))
+    assert not w, w
+    dec = fitted.model_
+    rec["decomposition"] = {
+        "trend": fl(dec["trend"]),
+        "seasonal": fl(dec["seasonal"]),
+        "remainder": fl(dec["remainder"]),
+    }
+    adjusted = (dec["trend"] + dec["remainder"]).to_numpy()
+    rec["seasonally_adjusted_max_abs_diff_vs_y_minus_seasonal"] = float(
+        np.max(np.abs(adjusted - (y - dec["seasonal"].to_numpy())))
+    )
+    mdl = fitted.trend_forecaster.model_
+    par = np.asarray(mdl["par"], dtype=float)
+    rec["trend_model"] = {
+        "method": mdl["method"],
+        "par_alpha_beta_gamma_phi": fl(par[:4]),
+        "par_initial_states": fl(par[4:]),
+        "aicc": float(mdl["aicc"]),
+        "sigma2": float(mdl["sigma2"]),
+    }
+    again = fitted.predict(h=12, level=[80, 95])
+    assert np.allclose(again["mean"], rec["forecast"], rtol=0, atol=1e-9)
+    return rec
+
+
+def mstl_section(ds):
+    return {
+        "library": f"statsforecast {VERSIONS['statsforecast']}, statsmodels {VERSIONS['statsmodels']}",
+        "datasets": {
+            name: {"MSTL": mstl_block(ds[name]["values"])}
+            for name in ["AirPassengers_last60", "AirPassengers", "wineind"]
+        },
+    }
+
+
 def main():
     meta = {
         "generated_by": "tests/reference/generate.py",
@@ -766,6 +818,7 @@ def main():
     write_json("datasets.json", {"meta": meta, "datasets": ds})
     write_json("ets_statsmodels.json", {"meta": meta, **statsmodels_section(ds)})
     write_json("statsforecast.json", {"meta": meta, **statsforecast_section(ds)})
+    write_json("mstl_statsforecast.json", {"meta": meta, **mstl_section(ds)})
     return 0
 
 
