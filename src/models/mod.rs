@@ -10,8 +10,11 @@
 
 use crate::error::{Error, Result};
 
+pub mod baseline;
 pub mod decomposition;
 pub mod ets;
+pub mod intermittent;
+pub mod theta;
 
 /// Seasonal period of monthly data.
 pub const PERIOD: usize = 12;
@@ -211,6 +214,15 @@ impl<M: Model> AnyModel for M {
 pub fn candidates() -> Vec<Box<dyn AnyModel>> {
     // Each model family registers its specs here.
     let mut list: Vec<Box<dyn AnyModel>> = Vec::new();
+    for spec in baseline::MovingAverage::candidates() {
+        list.push(Box::new(spec));
+    }
+    list.push(Box::new(baseline::Naive));
+    list.push(Box::new(baseline::SeasonalNaive));
+    list.push(Box::new(theta::Theta::new()));
+    list.push(Box::new(intermittent::Croston::classic()));
+    list.push(Box::new(intermittent::Croston::sba()));
+    list.push(Box::new(intermittent::Tsb::new()));
     for spec in ets::Ets::all() {
         list.push(Box::new(spec));
     }
