@@ -13,6 +13,7 @@ use crate::error::{Error, Result};
 pub mod baseline;
 pub mod decomposition;
 pub mod ets;
+pub mod holt_winters;
 pub mod intermittent;
 pub mod theta;
 
@@ -223,6 +224,9 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
     list.push(Box::new(intermittent::Croston::classic()));
     list.push(Box::new(intermittent::Croston::sba()));
     list.push(Box::new(intermittent::Tsb::new()));
+    for spec in holt_winters::HoltWinters::all() {
+        list.push(Box::new(spec));
+    }
     for spec in ets::Ets::all() {
         list.push(Box::new(spec));
     }
