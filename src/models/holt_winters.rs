@@ -63,8 +63,9 @@
 //!   Table 8.8): v_h = σ² (1 + Σ_{j=1}^{h−1} c_j²), with
 //!   c_j = α + αβ*(φ + … + φ^j) + γ·[j ≡ 0 mod 12]; point ± z √v_h.
 //! - Multiplicative: additive errors with multiplicative seasonality
-//!   (ETS(A,Ad,M)) have no closed-form forecast variance (Hyndman et al.
-//!   2008, ch. 6, puts them outside classes 1–3), so it is simulated:
+//!   (ETS(A,Ad,M)) have no simple closed-form forecast variance (from
+//!   memory: Hyndman et al. 2008, ch. 6, give exact results for the linear
+//!   and the multiplicative-error classes only), so it is simulated:
 //!   1000 future paths with normal errors of variance σ² and a fixed seed
 //!   (the same fit always gives the same intervals), and
 //!   v_h = σ² + Var(μ_{n+h}) from the spread of the paths' one-step means
