@@ -19,11 +19,13 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod backtest;
 pub mod calendar;
 pub mod clean;
 pub mod data;
 pub mod error;
 pub mod generate;
+pub mod metrics;
 pub mod models;
 pub mod output;
 pub mod quality;

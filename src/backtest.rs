@@ -1,0 +1,481 @@
+//! Rolling-origin evaluation with an expanding window.
+//!
+//! Origins are the last K months that leave at least H months of actuals
+//! after them, one month apart. At each origin every candidate is refitted
+//! on the months up to and including the origin — never later — and
+//! forecasts 1..H months ahead; forecasts are compared with the **cleaned**
+//! series. Months whose cleaned value is mostly imputed can be left out of
+//! scoring, so no model is rewarded for matching our own imputation.
+//!
+//! A combination candidate — the mean of the best three models — is
+//! evaluated honestly: at each origin its members are ranked only on the
+//! errors of earlier origins' forecasts whose target months are already
+//! observed at that origin. At the first origin no such errors exist and a
+//! fixed default trio is used (see [`DEFAULT_COMBINATION`]).
+
+use crate::error::{Error, Result};
+use crate::metrics;
+use crate::models::{AnyModel, Forecast, PERIOD};
+
+/// Name of the combination candidate.
+pub const COMBINATION: &str = "combination";
+
+/// Members of the combination at the first origin, before any error is
+/// known: three standard, robust monthly methods (M3 competition results,
+/// Makridakis & Hibon, IJF 16(4), 2000). Unavailable ones are skipped; if
+/// none is available, the first complete candidates are used.
+pub const DEFAULT_COMBINATION: [&str; 3] = ["ets-auto", "theta", "holt-winters-additive-damped"];
+
+/// Number of members in the combination.
+pub const COMBINATION_SIZE: usize = 3;
+
+/// Backtest settings as given.
+///
+/// | setting | default | range |
+/// |---|---|---|
+/// | `origins` (K) | 12 | 1–60 |
+/// | `horizon` (H) | 12 | 1–36 |
+/// | `exclude_imputed` | true | leave mostly-imputed months out of scoring |
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct BacktestSettings {
+    /// Number of origins K.
+    pub origins: usize,
+    /// Months forecast at each origin, H.
+    pub horizon: usize,
+    /// Leave months whose cleaned value is at least half imputed out of scoring.
+    pub exclude_imputed: bool,
+}
+
+impl Default for BacktestSettings {
+    fn default() -> Self {
+        BacktestSettings {
+            origins: 12,
+            horizon: 12,
+            exclude_imputed: true,
+        }
+    }
+}
+
+/// Settings that passed [`BacktestSettings::check`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct CheckedBacktestSettings(BacktestSettings);
+
+impl CheckedBacktestSettings {
+    /// The checked values.
+    pub fn get(&self) -> &BacktestSettings {
+        &self.0
+    }
+}
+
+impl BacktestSettings {
+    /// Validates the settings; the error names the bad value.
+    pub fn check(self) -> Result<CheckedBacktestSettings> {
+        if !(1..=60).contains(&self.origins) {
+            return Err(Error::setting(
+                "origins",
+                format!("must be 1-60, got {}", self.origins),
+            ));
+        }
+        if !(1..=36).contains(&self.horizon) {
+            return Err(Error::setting(
+                "backtest-horizon",
+                format!("must be 1-36 months, got {}", self.horizon),
+            ));
+        }
+        Ok(CheckedBacktestSettings(self))
+    }
+}
+
+/// Interval levels every backtest forecast carries.
+pub const LEVELS: [f64; 2] = [0.80, 0.95];
+
+/// Positions (index of the last training month) of the origins of a series
+/// of `n` months: the last `k` that leave `h` months after them, oldest
+/// first. Each needs at least `min_train` training months.
+pub fn origins(n: usize, k: usize, h: usize, min_train: usize) -> Vec<usize> {
+    if n < h + 1 {
+        return Vec::new();
+    }
+    let last = n - 1 - h;
+    let first = (last + 1).saturating_sub(k);
+    (first..=last)
+        .filter(|&o| o + 1 >= min_train.max(1))
+        .collect()
+}
+
+/// One backtest forecast compared with its actual.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Point {
+    /// Origin position (last training month).
+    pub origin: usize,
+    /// Months ahead, 1..=H.
+    pub horizon: usize,
+    /// Position of the target month.
+    pub target: usize,
+    /// Cleaned actual.
+    pub actual: f64,
+    /// Point forecast.
+    pub forecast: f64,
+    /// 80% interval.
+    pub lower80: f64,
+    /// 80% interval.
+    pub upper80: f64,
+    /// 95% interval.
+    pub lower95: f64,
+    /// 95% interval.
+    pub upper95: f64,
+    /// MASE scale of the origin's training window (`None` if zero).
+    pub scale: Option<f64>,
+    /// Whether the point counts in scores (false: target mostly imputed).
+    pub scored: bool,
+}
+
+/// How a candidate fared in the backtest.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RunStatus {
+    /// Forecast at every origin.
+    Complete,
+    /// Could not apply to this series (reason given); not scored.
+    NotApplicable(String),
+    /// Failed at some origins (first message given); scored on the rest
+    /// but not eligible for selection.
+    Incomplete {
+        /// Origins that failed.
+        failed: usize,
+        /// First failure message.
+        first: String,
+    },
+}
+
+/// One candidate's backtest.
+#[derive(Debug, Clone)]
+pub struct ModelRun {
+    /// Model name.
+    pub model: String,
+    /// Status.
+    pub status: RunStatus,
+    /// Forecast per origin (same order as [`Backtest::origins`]).
+    pub forecasts: Vec<Option<Forecast>>,
+    /// For the combination: its members at each origin.
+    pub members: Vec<Vec<String>>,
+}
+
+/// Scores over a set of points.
+#[derive(Debug, Clone, Copy, PartialEq, Default, serde::Serialize)]
+pub struct Scores {
+    /// Points scored.
+    pub n: usize,
+    /// MAPE, percent (zero actuals left out).
+    pub mape: Option<f64>,
+    /// Points left out of MAPE for a zero actual.
+    pub zero_actuals: usize,
+    /// Bias, percent of actual volume; positive = over-forecast.
+    pub bias: Option<f64>,
+    /// WAPE, percent.
+    pub wape: Option<f64>,
+    /// MASE (seasonal-naive scale of each training window).
+    pub mase: Option<f64>,
+    /// RMSE.
+    pub rmse: Option<f64>,
+    /// Share of actuals inside the 80% interval, percent.
+    pub coverage80: Option<f64>,
+    /// Share of actuals inside the 95% interval, percent.
+    pub coverage95: Option<f64>,
+}
+
+impl Scores {
+    /// Scores a set of points (only those marked `scored`).
+    pub fn of(points: &[Point]) -> Scores {
+        let p: Vec<&Point> = points.iter().filter(|p| p.scored).collect();
+        let a: Vec<f64> = p.iter().map(|p| p.actual).collect();
+        let f: Vec<f64> = p.iter().map(|p| p.forecast).collect();
+        let (mape, zero_actuals) = metrics::mape(&a, &f);
+        let scaled: Vec<f64> = p
+            .iter()
+            .filter_map(|p| p.scale.map(|s| (p.forecast - p.actual).abs() / s))
+            .collect();
+        let mase = (!scaled.is_empty() && scaled.len() == p.len())
+            .then(|| scaled.iter().sum::<f64>() / scaled.len() as f64);
+        let lo80: Vec<f64> = p.iter().map(|p| p.lower80).collect();
+        let hi80: Vec<f64> = p.iter().map(|p| p.upper80).collect();
+        let lo95: Vec<f64> = p.iter().map(|p| p.lower95).collect();
+        let hi95: Vec<f64> = p.iter().map(|p| p.upper95).collect();
+        Scores {
+            n: p.len(),
+            mape,
+            zero_actuals,
+            bias: metrics::bias(&a, &f),
+            wape: metrics::wape(&a, &f),
+            mase,
+            rmse: metrics::rmse(&a, &f),
+            coverage80: metrics::coverage(&a, &lo80, &hi80),
+            coverage95: metrics::coverage(&a, &lo95, &hi95),
+        }
+    }
+
+    /// The value of one score.
+    pub fn get(&self, score: metrics::Score) -> Option<f64> {
+        match score {
+            metrics::Score::Mape => self.mape,
+            metrics::Score::Wape => self.wape,
+            metrics::Score::Mase => self.mase,
+            metrics::Score::Rmse => self.rmse,
+        }
+    }
+}
+
+/// The backtest of one series.
+#[derive(Debug, Clone)]
+pub struct Backtest {
+    /// Origin positions, oldest first.
+    pub origins: Vec<usize>,
+    /// Months ahead at each origin.
+    pub horizon: usize,
+    /// The series the backtest ran on (cleaned).
+    pub actual: Vec<f64>,
+    /// Which months count in scores.
+    pub scorable: Vec<bool>,
+    /// One run per candidate, in candidate order, then the combination.
+    pub runs: Vec<ModelRun>,
+}
+
+impl Backtest {
+    /// Points of one run (every origin with a forecast, every horizon).
+    pub fn points(&self, run: &ModelRun) -> Vec<Point> {
+        let mut out = Vec::with_capacity(self.origins.len() * self.horizon);
+        for (k, &o) in self.origins.iter().enumerate() {
+            let Some(Some(fc)) = run.forecasts.get(k) else {
+                continue;
+            };
+            let scale = metrics::mase_scale(&self.actual[..=o], PERIOD);
+            let i80 = fc.interval(0.80);
+            let i95 = fc.interval(0.95);
+            for h in 1..=self.horizon {
+                let t = o + h;
+                if t >= self.actual.len() || h > fc.point.len() {
+                    break;
+                }
+                let f = fc.point[h - 1];
+                out.push(Point {
+                    origin: o,
+                    horizon: h,
+                    target: t,
+                    actual: self.actual[t],
+                    forecast: f,
+                    lower80: i80.map_or(f, |i| i.lower[h - 1]),
+                    upper80: i80.map_or(f, |i| i.upper[h - 1]),
+                    lower95: i95.map_or(f, |i| i.lower[h - 1]),
+                    upper95: i95.map_or(f, |i| i.upper[h - 1]),
+                    scale,
+                    scored: self.scorable[t],
+                });
+            }
+        }
+        out
+    }
+
+    /// Overall scores of a run.
+    pub fn scores(&self, run: &ModelRun) -> Scores {
+        Scores::of(&self.points(run))
+    }
+
+    /// Scores of a run per horizon (index 0 = one month ahead).
+    pub fn scores_by_horizon(&self, run: &ModelRun) -> Vec<Scores> {
+        let pts = self.points(run);
+        (1..=self.horizon)
+            .map(|h| {
+                let ph: Vec<Point> = pts.iter().copied().filter(|p| p.horizon == h).collect();
+                Scores::of(&ph)
+            })
+            .collect()
+    }
+
+    /// The run of a model by name.
+    pub fn run(&self, model: &str) -> Option<&ModelRun> {
+        self.runs.iter().find(|r| r.model == model)
+    }
+}
+
+/// Runs the backtest of one series. `scorable[t]` says whether month t may
+/// be scored (the caller marks mostly-imputed months false when
+/// `exclude_imputed` is on). `rank_by` orders combination members.
+pub fn run(
+    y: &[f64],
+    scorable: &[bool],
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedBacktestSettings,
+    rank_by: metrics::Score,
+) -> Backtest {
+    let s = settings.get();
+    let os = origins(y.len(), s.origins, s.horizon, 2);
+    let mut runs: Vec<ModelRun> = Vec::with_capacity(models.len() + 1);
+    for m in models {
+        let name = m.name();
+        let mut forecasts = Vec::with_capacity(os.len());
+        let mut failed = 0;
+        let mut first_err: Option<String> = None;
+        let mut not_applicable: Option<String> = None;
+        for &o in &os {
+            let train = &y[..=o];
+            let result = m
+                .fit_any(train)
+                .and_then(|f| f.forecast(s.horizon, &LEVELS));
+            match result {
+                Ok(fc) => forecasts.push(Some(fc)),
+                Err(Error::NotApplicable { reason, .. })
+                    if forecasts.iter().all(Option::is_none) =>
+                {
+                    // Not applicable at the earliest origin may still apply
+                    // later (more history); record and go on.
+                    not_applicable.get_or_insert(reason);
+                    forecasts.push(None);
+                }
+                Err(e) => {
+                    failed += 1;
+                    first_err.get_or_insert(e.to_string());
+                    forecasts.push(None);
+                }
+            }
+        }
+        let any = forecasts.iter().any(Option::is_some);
+        let status =
+            if !any {
+                RunStatus::NotApplicable(not_applicable.or(first_err).unwrap_or_else(|| {
+                    "the series is too short for any backtest origin".to_string()
+                }))
+            } else if forecasts.iter().all(Option::is_some) {
+                RunStatus::Complete
+            } else {
+                let missing = forecasts.iter().filter(|f| f.is_none()).count();
+                RunStatus::Incomplete {
+                    failed: missing.max(failed),
+                    first: not_applicable
+                        .map(|r| format!("not applicable at the earliest origins: {r}"))
+                        .or(first_err)
+                        .unwrap_or_default(),
+                }
+            };
+        runs.push(ModelRun {
+            model: name,
+            status,
+            forecasts,
+            members: Vec::new(),
+        });
+    }
+    let mut bt = Backtest {
+        origins: os,
+        horizon: s.horizon,
+        actual: y.to_vec(),
+        scorable: scorable.to_vec(),
+        runs,
+    };
+    let combo = combination_run(&bt, rank_by);
+    bt.runs.push(combo);
+    bt
+}
+
+fn combination_run(bt: &Backtest, rank_by: metrics::Score) -> ModelRun {
+    let complete: Vec<usize> = (0..bt.runs.len())
+        .filter(|&i| bt.runs[i].status == RunStatus::Complete)
+        .collect();
+    let points: Vec<Vec<Point>> = bt.runs.iter().map(|r| bt.points(r)).collect();
+    let mut forecasts = Vec::with_capacity(bt.origins.len());
+    let mut members_at = Vec::with_capacity(bt.origins.len());
+    for (k, &o) in bt.origins.iter().enumerate() {
+        // Errors known at origin o: earlier origins, targets up to o.
+        let mut ranked: Vec<(f64, usize)> = complete
+            .iter()
+            .filter_map(|&i| {
+                let known: Vec<Point> = points[i]
+                    .iter()
+                    .copied()
+                    .filter(|p| p.origin < o && p.target <= o)
+                    .collect();
+                let sc = Scores::of(&known);
+                let v = sc.get(rank_by).or(sc.wape)?;
+                Some((v, i))
+            })
+            .collect();
+        let members: Vec<usize> = if ranked.is_empty() {
+            let defaults: Vec<usize> = DEFAULT_COMBINATION
+                .iter()
+                .filter_map(|name| {
+                    complete
+                        .iter()
+                        .copied()
+                        .find(|&i| bt.runs[i].model == *name)
+                })
+                .collect();
+            if defaults.is_empty() {
+                complete.iter().copied().take(COMBINATION_SIZE).collect()
+            } else {
+                defaults
+            }
+        } else {
+            ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+            ranked
+                .iter()
+                .take(COMBINATION_SIZE)
+                .map(|&(_, i)| i)
+                .collect()
+        };
+        let fcs: Vec<&Forecast> = members
+            .iter()
+            .filter_map(|&i| bt.runs[i].forecasts.get(k).and_then(Option::as_ref))
+            .collect();
+        members_at.push(members.iter().map(|&i| bt.runs[i].model.clone()).collect());
+        forecasts.push(mean_forecast(&fcs));
+    }
+    let status = if bt.origins.is_empty() {
+        RunStatus::NotApplicable("the series is too short for any backtest origin".to_string())
+    } else if forecasts.iter().all(Option::is_some) {
+        RunStatus::Complete
+    } else if forecasts.iter().any(Option::is_some) {
+        RunStatus::Incomplete {
+            failed: forecasts.iter().filter(|f| f.is_none()).count(),
+            first: "no member model available at some origins".to_string(),
+        }
+    } else {
+        RunStatus::NotApplicable("no complete candidate to combine".to_string())
+    };
+    ModelRun {
+        model: COMBINATION.to_string(),
+        status,
+        forecasts,
+        members: members_at,
+    }
+}
+
+/// Mean of several forecasts: points and interval bounds averaged
+/// (a simple, common way to combine intervals; it tends to be slightly
+/// conservative). `None` when given none.
+pub fn mean_forecast(fcs: &[&Forecast]) -> Option<Forecast> {
+    let first = fcs.first()?;
+    let h = fcs.iter().map(|f| f.point.len()).min()?;
+    let n = fcs.len() as f64;
+    let avg = |get: &dyn Fn(&Forecast) -> Option<&[f64]>| -> Option<Vec<f64>> {
+        let mut out = vec![0.0; h];
+        for f in fcs {
+            let v = get(f)?;
+            for (o, x) in out.iter_mut().zip(v) {
+                *o += x / n;
+            }
+        }
+        Some(out)
+    };
+    let point = avg(&|f| Some(&f.point[..]))?;
+    let mut intervals = Vec::with_capacity(first.intervals.len());
+    for i in &first.intervals {
+        let lower = avg(&|f| f.interval(i.level).map(|x| &x.lower[..]))?;
+        let upper = avg(&|f| f.interval(i.level).map(|x| &x.upper[..]))?;
+        intervals.push(crate::models::Interval {
+            level: i.level,
+            lower,
+            upper,
+        });
+    }
+    Some(Forecast { point, intervals }.clipped())
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,170 @@
+use super::*;
+use crate::models::{Fitted, Model, Needs};
+use proptest::prelude::*;
+use std::sync::{Arc, Mutex};
+
+/// A model that forecasts the last value and records every training window
+/// it is given.
+#[derive(Clone, Default)]
+struct Spy {
+    seen: Arc<Mutex<Vec<Vec<f64>>>>,
+}
+
+struct SpyFit(f64);
+
+impl Fitted for SpyFit {
+    fn forecast(&self, h: usize, levels: &[f64]) -> Result<Forecast> {
+        Forecast::normal(vec![self.0; h], &vec![1.0; h], levels)
+    }
+    fn params(&self) -> Vec<(String, f64)> {
+        Vec::new()
+    }
+}
+
+impl Model for Spy {
+    type Fitted = SpyFit;
+    fn name(&self) -> String {
+        "spy".into()
+    }
+    fn description(&self) -> String {
+        "test model".into()
+    }
+    fn needs(&self) -> Needs {
+        Needs {
+            min_months: 1,
+            positive: false,
+            seasonal: false,
+        }
+    }
+    fn fit(&self, y: &[f64]) -> Result<SpyFit> {
+        self.seen.lock().unwrap().push(y.to_vec());
+        Ok(SpyFit(*y.last().unwrap_or(&0.0)))
+    }
+}
+
+fn checked(k: usize, h: usize) -> CheckedBacktestSettings {
+    BacktestSettings {
+        origins: k,
+        horizon: h,
+        exclude_imputed: true,
+    }
+    .check()
+    .unwrap()
+}
+
+#[test]
+fn origins_are_the_last_k_leaving_h_months() {
+    // 36 months, H = 12, K = 12: training ends at positions 12..=23.
+    assert_eq!(origins(36, 12, 12, 2), (12..=23).collect::<Vec<_>>());
+    // Short series: fewer origins, never one without H months after it.
+    assert_eq!(origins(15, 12, 12, 2), vec![1, 2]);
+    assert!(origins(12, 12, 12, 2).is_empty());
+}
+
+#[test]
+fn naive_backtest_scores_by_hand() {
+    let y: Vec<f64> = (1..=6).map(|v| v as f64 * 10.0).collect(); // 10..60
+    let spy = Spy::default();
+    let models: Vec<Box<dyn AnyModel>> = vec![Box::new(spy.clone())];
+    let bt = run(
+        &y,
+        &[true; 6],
+        &models,
+        &checked(2, 2),
+        metrics::Score::Mape,
+    );
+    assert_eq!(bt.origins, vec![2, 3]);
+    // Origin 2 (train 10,20,30): forecasts 30,30 for 40,50; origin 3: 40,40 for 50,60.
+    let pts = bt.points(&bt.runs[0]);
+    let pairs: Vec<(f64, f64)> = pts.iter().map(|p| (p.actual, p.forecast)).collect();
+    assert_eq!(
+        pairs,
+        vec![(40.0, 30.0), (50.0, 30.0), (50.0, 40.0), (60.0, 40.0)]
+    );
+    let s = bt.scores(&bt.runs[0]);
+    let mape = 100.0 * (10.0 / 40.0 + 20.0 / 50.0 + 10.0 / 50.0 + 20.0 / 60.0) / 4.0;
+    assert!((s.mape.unwrap() - mape).abs() < 1e-9);
+    assert!((s.bias.unwrap() - 100.0 * (-60.0) / 200.0).abs() < 1e-9);
+    let by_h = bt.scores_by_horizon(&bt.runs[0]);
+    assert_eq!(by_h[0].n, 2);
+}
+
+#[test]
+fn unscorable_months_are_left_out() {
+    let y = vec![10.0, 20.0, 30.0, 40.0, 50.0];
+    let mut scorable = vec![true; 5];
+    scorable[4] = false;
+    let models: Vec<Box<dyn AnyModel>> = vec![Box::new(Spy::default())];
+    let bt = run(&y, &scorable, &models, &checked(2, 1), metrics::Score::Mape);
+    assert_eq!(bt.scores(&bt.runs[0]).n, 1);
+}
+
+#[test]
+fn combination_of_one_model_equals_it() {
+    let y: Vec<f64> = (0..30).map(|t| 100.0 + (t % 7) as f64).collect();
+    let models: Vec<Box<dyn AnyModel>> = vec![Box::new(Spy::default())];
+    let bt = run(
+        &y,
+        &[true; 30],
+        &models,
+        &checked(6, 3),
+        metrics::Score::Mape,
+    );
+    let combo = bt.run(COMBINATION).unwrap();
+    assert_eq!(
+        combo.status,
+        RunStatus::Complete,
+        "{:?} {:?}",
+        combo.members,
+        combo
+            .forecasts
+            .iter()
+            .map(Option::is_some)
+            .collect::<Vec<_>>()
+    );
+    // After the first origin the only complete model is the sole member.
+    for k in 1..bt.origins.len() {
+        assert_eq!(combo.members[k], vec!["spy".to_string()]);
+        assert_eq!(combo.forecasts[k], bt.runs[0].forecasts[k]);
+    }
+}
+
+#[test]
+fn settings_errors_name_the_value() {
+    let e = BacktestSettings {
+        origins: 0,
+        ..Default::default()
+    }
+    .check()
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("origins") && e.contains("got 0"), "{e}");
+}
+
+proptest! {
+    /// No origin's fit sees any month after the origin: the spy records
+    /// every training window, which must be exactly y[..=origin].
+    #[test]
+    fn no_origin_sees_later_months(
+        y in prop::collection::vec(0.0..1000.0f64, 3..60),
+        k in 1..15usize,
+        h in 1..13usize,
+    ) {
+        let spy = Spy::default();
+        let models: Vec<Box<dyn AnyModel>> = vec![Box::new(spy.clone())];
+        let bt = run(&y, &vec![true; y.len()], &models, &checked(k, h), metrics::Score::Mape);
+        let seen = spy.seen.lock().unwrap().clone();
+        prop_assert_eq!(seen.len(), bt.origins.len());
+        for (window, &o) in seen.iter().zip(&bt.origins) {
+            prop_assert_eq!(&window[..], &y[..=o]);
+            prop_assert!(o + h < y.len());
+        }
+        // Changing a month after an origin never changes that origin's forecast.
+        if let Some(&o) = bt.origins.first() {
+            let mut y2 = y.clone();
+            for v in &mut y2[o + 1..] { *v += 500.0; }
+            let bt2 = run(&y2, &vec![true; y.len()], &models, &checked(k, h), metrics::Score::Mape);
+            prop_assert_eq!(&bt.runs[0].forecasts[0], &bt2.runs[0].forecasts[0]);
+        }
+    }
+}
