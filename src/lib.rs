@@ -28,6 +28,9 @@ pub mod generate;
 pub mod metrics;
 pub mod models;
 pub mod output;
+pub mod pipeline;
+pub mod project;
 pub mod quality;
+pub mod select;
 
 pub use error::{Error, Result};

@@ -1,8 +1,10 @@
 //! Command-line definitions and dispatch.
 
 mod clean;
+mod forecast;
 mod generate;
 mod inspect;
+mod models;
 
 use std::path::PathBuf;
 
@@ -19,6 +21,16 @@ pub struct Cli {
 
 #[derive(Subcommand, Debug)]
 enum Command {
+    /// The main job: inspect, clean, backtest every model, select per product, and project with 80%/95% ranges.
+    #[command(
+        after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --out demo-output --horizon 24"
+    )]
+    Forecast(forecast::ForecastArgs),
+    /// Run only the rolling-origin evaluation of every model, for comparing models.
+    #[command(
+        after_help = "Example:\n  provisio backtest datasets/demo/consumption.csv --origins 12 --backtest-horizon 12"
+    )]
+    Backtest(forecast::BacktestArgs),
     /// Profile the data quality of each product: gaps, stockouts, reporting, outliers, and a verdict.
     #[command(
         after_help = "Example:\n  provisio inspect datasets/demo/consumption.csv --csv quality.csv"
@@ -34,6 +46,9 @@ enum Command {
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
     )]
     Generate(generate::GenerateArgs),
+    /// List the candidate forecasting models: name, what each needs from a series, and what it is.
+    #[command(after_help = "Example:\n  provisio models --csv models.csv")]
+    Models(models::ModelsArgs),
 }
 
 /// Options shared by every command that reads input data.
@@ -106,9 +121,12 @@ const EXIT_REFUSED: i32 = 1;
 pub fn run() -> i32 {
     let cli = Cli::parse();
     let result = match cli.command {
+        Command::Forecast(a) => forecast::run_forecast(a),
+        Command::Backtest(a) => forecast::run_backtest(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
         Command::Generate(a) => generate::run(a),
+        Command::Models(a) => models::run(a),
     };
     match result {
         Ok(()) => 0,

@@ -1,7 +1,10 @@
 //! Output files: every file is written to a temporary file in the target
 //! directory and renamed into place, so a reader never sees half a file.
 
+mod forecast;
 mod tables;
+
+pub use forecast::{write_backtest, write_forecast, write_json, write_scores, write_selection};
 
 pub use tables::{
     write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,

@@ -1,0 +1,354 @@
+//! `provisio forecast DATA --out DIR` (the main job) and `provisio backtest DATA`.
+
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::time::Instant;
+
+use anyhow::Context;
+use clap::{Args, ValueEnum};
+
+use super::{load, print_accounting, CleanArgs, ReadArgs};
+use provisio::backtest::BacktestSettings;
+use provisio::metrics::Score;
+use provisio::output;
+use provisio::pipeline::{forecast_all, ForecastSettings, ProductForecast};
+use provisio::select::SelectSettings;
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum ScoreArg {
+    Mape,
+    Wape,
+    Mase,
+    Rmse,
+}
+
+/// Options of the evaluation, shared by `forecast` and `backtest`.
+#[derive(Args, Debug, Clone)]
+pub struct EvalArgs {
+    /// Number of rolling backtest origins (K).
+    #[arg(long, default_value_t = 12, value_name = "K")]
+    origins: usize,
+    /// Months forecast at each backtest origin (H).
+    #[arg(long, default_value_t = 12, value_name = "H")]
+    backtest_horizon: usize,
+    /// Score models also on months that are mostly imputed (default: leave them out).
+    #[arg(long)]
+    score_imputed: bool,
+    /// Score to choose models by (falls back to WAPE when over a third of months are zero).
+    #[arg(long, value_enum, default_value_t = ScoreArg::Mape)]
+    select_by: ScoreArg,
+    /// Relative gap to the best score counted as a near-tie (then the simpler model or the combination wins).
+    #[arg(long, default_value_t = 0.02, value_name = "SHARE")]
+    tie_margin: f64,
+    /// CSV of pinned models: columns product, model.
+    #[arg(long, value_name = "FILE")]
+    pin: Option<PathBuf>,
+}
+
+#[derive(Args, Debug)]
+pub struct ForecastArgs {
+    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    data: PathBuf,
+    /// Directory for the outputs (created if needed).
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    /// Months to project (1-60).
+    #[arg(long, default_value_t = 24, value_name = "MONTHS")]
+    horizon: usize,
+    #[command(flatten)]
+    eval: EvalArgs,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+#[derive(Args, Debug)]
+pub struct BacktestArgs {
+    /// Input CSV (long format).
+    data: PathBuf,
+    /// Also write scores.csv and backtest.csv to this directory.
+    #[arg(long, value_name = "DIR")]
+    out: Option<PathBuf>,
+    #[command(flatten)]
+    eval: EvalArgs,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
+    ForecastSettings {
+        backtest: BacktestSettings {
+            origins: eval.origins,
+            horizon: eval.backtest_horizon,
+            exclude_imputed: !eval.score_imputed,
+        },
+        select: SelectSettings {
+            score: match eval.select_by {
+                ScoreArg::Mape => Score::Mape,
+                ScoreArg::Wape => Score::Wape,
+                ScoreArg::Mase => Score::Mase,
+                ScoreArg::Rmse => Score::Rmse,
+            },
+            tie_margin: eval.tie_margin,
+        },
+        horizon,
+    }
+}
+
+fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
+    let mut r = csv::ReaderBuilder::new()
+        .flexible(true)
+        .from_path(path)
+        .with_context(|| format!("{}: cannot read the pin file", path.display()))?;
+    let headers: Vec<String> = r
+        .headers()
+        .with_context(|| format!("{}: cannot read the header", path.display()))?
+        .iter()
+        .map(|h| h.trim().to_lowercase())
+        .collect();
+    let col = |name: &str| {
+        headers.iter().position(|h| h == name).ok_or_else(|| {
+            anyhow::anyhow!(
+                "{}:1: missing column '{name}'; the pin file needs columns product, model",
+                path.display()
+            )
+        })
+    };
+    let (pc, mc) = (col("product")?, col("model")?);
+    let names: Vec<String> = provisio::models::candidates()
+        .iter()
+        .map(|m| m.name())
+        .collect();
+    let mut pins = HashMap::new();
+    for rec in r.records() {
+        let rec = rec.with_context(|| format!("{}: cannot read a row", path.display()))?;
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        let product = rec.get(pc).unwrap_or("").trim().to_string();
+        let model = rec.get(mc).unwrap_or("").trim().to_string();
+        if model != provisio::backtest::COMBINATION && !names.contains(&model) {
+            anyhow::bail!(
+                "{}:{line}: column 'model': '{model}' is not a candidate model; valid: {}, combination",
+                path.display(),
+                names.join(", ")
+            );
+        }
+        pins.insert(product, model);
+    }
+    Ok(pins)
+}
+
+/// What an evaluation run produced: data, cleaning, input bytes, results,
+/// the settings used and the seconds taken.
+type EvalRun = (
+    provisio::data::Dataset,
+    provisio::clean::Cleaned,
+    Vec<u8>,
+    Vec<ProductForecast>,
+    ForecastSettings,
+    f64,
+);
+
+fn run_eval(
+    data: &PathBuf,
+    read: &ReadArgs,
+    clean: &CleanArgs,
+    eval: &EvalArgs,
+    horizon: usize,
+) -> anyhow::Result<EvalRun> {
+    let t0 = Instant::now();
+    let fs = settings(eval, horizon);
+    let checked = fs.clone().check()?;
+    let pins = match &eval.pin {
+        Some(p) => read_pins(p)?,
+        None => HashMap::new(),
+    };
+    let (ds, cleaned, bytes) = load(data, read, clean)?;
+    for p in pins.keys() {
+        if !cleaned.series.iter().any(|s| &s.product == p) {
+            eprintln!("warning: pinned product '{p}' is not in the data");
+        }
+    }
+    let total = cleaned.series.len();
+    let done = AtomicUsize::new(0);
+    let show = total >= 50 && std::io::IsTerminal::is_terminal(&std::io::stderr());
+    let progress = || {
+        let d = done.fetch_add(1, Ordering::Relaxed) + 1;
+        if show && (d % 25 == 0 || d == total) {
+            eprint!("\rforecasting: {d}/{total} products");
+            if d == total {
+                eprintln!();
+            }
+        }
+    };
+    let results = forecast_all(&cleaned.series, &checked, &pins, &progress);
+    Ok((ds, cleaned, bytes, results, fs, t0.elapsed().as_secs_f64()))
+}
+
+fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
+    let w = results
+        .iter()
+        .map(|r| r.product.chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40);
+    let cut = |s: &str| -> String {
+        let s: String = s
+            .chars()
+            .map(|c| if c.is_control() { ' ' } else { c })
+            .collect();
+        if s.chars().count() > w {
+            let mut t: String = s.chars().take(w - 1).collect();
+            t.push('…');
+            t
+        } else {
+            format!("{s}{}", " ".repeat(w - s.chars().count()))
+        }
+    };
+    println!(
+        "{}  {:<34} {:>8} {:>8} {:>10}{}",
+        cut("product"),
+        "chosen model",
+        "score",
+        "bias",
+        "runner-up",
+        if horizon_shown {
+            "    next 12 months"
+        } else {
+            ""
+        }
+    );
+    for r in results {
+        let s = &r.selection;
+        let sc = s.chosen_scores.as_ref().and_then(|x| x.get(s.score));
+        let score = sc
+            .map(|v| format!("{} {v:.1}", s.score.name()))
+            .unwrap_or_else(|| "-".into());
+        let bias = s
+            .chosen_scores
+            .as_ref()
+            .and_then(|x| x.bias)
+            .map(|b| format!("{b:+.1}%"))
+            .unwrap_or_else(|| "-".into());
+        let margin = s
+            .margin_pct
+            .map(|m| format!("{:+.1}%", m.max(0.0)))
+            .unwrap_or_else(|| "-".into());
+        let next = r
+            .projection
+            .as_ref()
+            .and_then(|p| p.totals.first())
+            .map(|t| format!("{t:>18.0}"))
+            .unwrap_or_else(|| format!("{:>18}", "-"));
+        let mut chosen = s.chosen.clone();
+        if s.pinned {
+            chosen.push_str(" (pinned)");
+        }
+        if !s.backtested {
+            chosen.push_str(" (not backtested)");
+        }
+        println!(
+            "{}  {:<34} {:>8} {:>8} {:>10}{}",
+            cut(&r.product),
+            chosen,
+            score,
+            bias,
+            margin,
+            if horizon_shown { next } else { String::new() }
+        );
+    }
+    println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: its score above the chosen one)");
+    for r in results {
+        for w in &r.warnings {
+            eprintln!("warning: {w}");
+        }
+    }
+}
+
+pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
+    let (ds, cleaned, bytes, results, fs, secs) =
+        run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon)?;
+    std::fs::create_dir_all(&a.out)
+        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    let starts: Vec<_> = cleaned
+        .series
+        .iter()
+        .map(|s| (s.product.clone(), s.start))
+        .collect();
+    let profiles = provisio::quality::profile_all(&cleaned);
+    output::write_forecast(&a.out.join("forecast.csv"), &results)?;
+    output::write_selection(&a.out.join("selection.csv"), &results)?;
+    output::write_scores(&a.out.join("scores.csv"), &results)?;
+    output::write_backtest(&a.out.join("backtest.csv"), &results, &starts)?;
+    output::write_cleaned(&a.out.join("cleaned.csv"), &cleaned.series)?;
+    output::write_adjustments(&a.out.join("adjustments.csv"), &cleaned.log)?;
+    output::write_rejected(&a.out.join("rejected.csv"), &ds.source, &ds.rejected)?;
+    output::write_quality(&a.out.join("quality.csv"), &profiles)?;
+    let mut by_rule: BTreeMap<String, usize> = BTreeMap::new();
+    for e in &cleaned.log {
+        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
+    }
+    let mut warnings = ds.warnings.clone();
+    warnings.extend(cleaned.warnings.iter().cloned());
+    warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
+    let manifest = serde_json::json!({
+        "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        "command": "forecast",
+        "input": ds.source,
+        "input_sha256": output::sha256_hex(&bytes),
+        "clean_settings": a.clean.settings(),
+        "duplicates": format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        "forecast_settings": fs,
+        "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
+        "candidates": provisio::models::candidates().iter().map(|m| m.name()).collect::<Vec<_>>(),
+        "scored_against": "cleaned series",
+        "rows": cleaned.rows,
+        "products": cleaned.series.len(),
+        "products_unusable": cleaned.unusable.len(),
+        "adjustments_by_rule": by_rule,
+        "seconds": secs,
+        "warnings": warnings,
+    });
+    output::write_json(&a.out.join("manifest.json"), &manifest)?;
+    print_accounting(&ds, &cleaned, 10);
+    print_summary(&results, true);
+    println!(
+        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        results.len(),
+        a.horizon,
+        secs,
+        a.out.display()
+    );
+    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    Ok(())
+}
+
+pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
+    let (ds, cleaned, _, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12)?;
+    print_accounting(&ds, &cleaned, 10);
+    print_summary(&results, false);
+    if let Some(out) = &a.out {
+        std::fs::create_dir_all(out)
+            .with_context(|| format!("{}: cannot create output directory", out.display()))?;
+        let starts: Vec<_> = cleaned
+            .series
+            .iter()
+            .map(|s| (s.product.clone(), s.start))
+            .collect();
+        output::write_scores(&out.join("scores.csv"), &results)?;
+        output::write_backtest(&out.join("backtest.csv"), &results, &starts)?;
+        output::write_selection(&out.join("selection.csv"), &results)?;
+        println!(
+            "wrote scores.csv, backtest.csv, selection.csv in {}",
+            out.display()
+        );
+    }
+    println!(
+        "backtest of {} product(s) in {secs:.1} s (scored against the cleaned series)",
+        results.len()
+    );
+    Ok(())
+}

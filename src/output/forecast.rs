@@ -1,0 +1,211 @@
+//! The tables written by `forecast`.
+
+use std::path::Path;
+
+use super::{fmt_num, fmt_opt, write_atomic};
+use crate::backtest::{RunStatus, Scores};
+use crate::error::Result;
+use crate::pipeline::ProductForecast;
+
+fn io_err(e: csv::Error) -> std::io::Error {
+    std::io::Error::other(e)
+}
+
+/// `forecast.csv`: product, month, model, forecast, lower/upper 80, lower/upper 95.
+pub fn write_forecast(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        c.write_record([
+            "product", "month", "model", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
+        ])
+        .map_err(io_err)?;
+        for r in results {
+            let Some(p) = &r.projection else { continue };
+            let i80 = p.forecast.interval(0.80);
+            let i95 = p.forecast.interval(0.95);
+            for (k, v) in p.forecast.point.iter().enumerate() {
+                let b = |i: Option<&crate::models::Interval>, lower: bool| {
+                    i.map(|i| fmt_num(if lower { i.lower[k] } else { i.upper[k] }))
+                        .unwrap_or_default()
+                };
+                c.write_record([
+                    r.product.as_str(),
+                    &p.start.plus(k as i64).to_string(),
+                    p.model.as_str(),
+                    &fmt_num(*v),
+                    &b(i80, true),
+                    &b(i80, false),
+                    &b(i95, true),
+                    &b(i95, false),
+                ])
+                .map_err(io_err)?;
+            }
+        }
+        c.flush()
+    })
+}
+
+fn score_cells(s: Option<&Scores>) -> Vec<String> {
+    match s {
+        None => vec![String::new(); 9],
+        Some(s) => vec![
+            s.n.to_string(),
+            fmt_opt(s.mape),
+            s.zero_actuals.to_string(),
+            fmt_opt(s.bias),
+            fmt_opt(s.wape),
+            fmt_opt(s.mase),
+            fmt_opt(s.rmse),
+            fmt_opt(s.coverage80),
+            fmt_opt(s.coverage95),
+        ],
+    }
+}
+
+const SCORE_HEADER: [&str; 9] = [
+    "points",
+    "mape_pct",
+    "zero_actuals",
+    "bias_pct",
+    "wape_pct",
+    "mase",
+    "rmse",
+    "coverage_80_pct",
+    "coverage_95_pct",
+];
+
+/// `selection.csv`: one row per product with the choice and its evidence.
+pub fn write_selection(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let mut header = vec![
+            "product",
+            "chosen_model",
+            "members",
+            "pinned",
+            "best_model",
+            "selected_by",
+        ];
+        header.extend(SCORE_HEADER);
+        header.extend([
+            "runner_up",
+            "runner_up_score",
+            "margin_pct",
+            "backtested",
+            "amc_last_12",
+            "amc_next_12",
+            "total_months_1_12",
+            "total_months_13_24",
+            "reason",
+        ]);
+        c.write_record(&header).map_err(io_err)?;
+        for r in results {
+            let s = &r.selection;
+            let p = r.projection.as_ref();
+            let mut row = vec![
+                r.product.clone(),
+                s.chosen.clone(),
+                p.map(|p| p.members.join(" ")).unwrap_or_default(),
+                if s.pinned { "yes" } else { "no" }.to_string(),
+                s.best.clone(),
+                s.score.name().to_string(),
+            ];
+            row.extend(score_cells(s.chosen_scores.as_ref()));
+            row.push(
+                s.runner_up
+                    .as_ref()
+                    .map(|r| r.0.clone())
+                    .unwrap_or_default(),
+            );
+            row.push(fmt_opt(s.runner_up.as_ref().map(|r| r.1)));
+            row.push(fmt_opt(s.margin_pct));
+            row.push(if s.backtested { "yes" } else { "no" }.to_string());
+            row.push(fmt_opt(p.map(|p| p.amc_last)));
+            row.push(fmt_opt(p.map(|p| p.amc_next)));
+            row.push(fmt_opt(p.and_then(|p| p.totals.first().copied())));
+            row.push(fmt_opt(p.and_then(|p| p.totals.get(1).copied())));
+            row.push(s.reason.clone());
+            c.write_record(&row).map_err(io_err)?;
+        }
+        c.flush()
+    })
+}
+
+/// `scores.csv`: product × model backtest scores (overall), with status.
+pub fn write_scores(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let mut header = vec!["product", "model", "status"];
+        header.extend(SCORE_HEADER);
+        header.push("note");
+        c.write_record(&header).map_err(io_err)?;
+        for r in results {
+            for run in &r.backtest.runs {
+                let (status, note) = match &run.status {
+                    RunStatus::Complete => ("complete", String::new()),
+                    RunStatus::NotApplicable(why) => ("not applicable", why.clone()),
+                    RunStatus::Incomplete { failed, first } => {
+                        ("incomplete", format!("{failed} origin(s) missing: {first}"))
+                    }
+                };
+                let scores = (!matches!(run.status, RunStatus::NotApplicable(_)))
+                    .then(|| r.backtest.scores(run));
+                let mut row = vec![r.product.clone(), run.model.clone(), status.to_string()];
+                row.extend(score_cells(scores.as_ref()));
+                row.push(note);
+                c.write_record(&row).map_err(io_err)?;
+            }
+        }
+        c.flush()
+    })
+}
+
+/// `backtest.csv`: product, model, origin, horizon, month, actual, forecast,
+/// interval bounds, scored.
+pub fn write_backtest(
+    path: &Path,
+    results: &[ProductForecast],
+    starts: &[(String, crate::calendar::YearMonth)],
+) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        c.write_record([
+            "product", "model", "origin", "horizon", "month", "actual", "forecast", "lower_80",
+            "upper_80", "lower_95", "upper_95", "scored",
+        ])
+        .map_err(io_err)?;
+        for r in results {
+            let Some(start) = starts.iter().find(|s| s.0 == r.product).map(|s| s.1) else {
+                continue;
+            };
+            for run in &r.backtest.runs {
+                for p in r.backtest.points(run) {
+                    c.write_record([
+                        r.product.as_str(),
+                        run.model.as_str(),
+                        &start.plus(p.origin as i64).to_string(),
+                        &p.horizon.to_string(),
+                        &start.plus(p.target as i64).to_string(),
+                        &fmt_num(p.actual),
+                        &fmt_num(p.forecast),
+                        &fmt_num(p.lower80),
+                        &fmt_num(p.upper80),
+                        &fmt_num(p.lower95),
+                        &fmt_num(p.upper95),
+                        if p.scored { "yes" } else { "no" },
+                    ])
+                    .map_err(io_err)?;
+                }
+            }
+        }
+        c.flush()
+    })
+}
+
+/// Writes any serialisable value as pretty JSON.
+pub fn write_json<T: serde::Serialize>(path: &Path, value: &T) -> Result<()> {
+    write_atomic(path, |w| {
+        serde_json::to_writer_pretty(&mut *w, value).map_err(std::io::Error::other)?;
+        w.write_all(b"\n")
+    })
+}

@@ -1,0 +1,194 @@
+//! The main job for one product and for many: backtest every candidate on
+//! the cleaned series, select, and project. Products run in parallel.
+
+use std::collections::HashMap;
+
+use rayon::prelude::*;
+
+use crate::backtest::{
+    self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, COMBINATION,
+    COMBINATION_SIZE,
+};
+use crate::clean::CleanSeries;
+use crate::error::Result;
+use crate::models::{candidates, AnyModel};
+use crate::project::{check_horizon, project, Projection};
+use crate::select::{complexity, select, SelectSettings, Selection};
+
+/// Settings of the whole forecast run.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct ForecastSettings {
+    /// Backtest settings.
+    pub backtest: BacktestSettings,
+    /// Selection settings.
+    pub select: SelectSettings,
+    /// Months projected (1–60).
+    pub horizon: usize,
+}
+
+impl Default for ForecastSettings {
+    fn default() -> Self {
+        ForecastSettings {
+            backtest: BacktestSettings::default(),
+            select: SelectSettings::default(),
+            horizon: 24,
+        }
+    }
+}
+
+/// Checked form of [`ForecastSettings`].
+#[derive(Debug, Clone)]
+pub struct CheckedForecastSettings {
+    backtest: CheckedBacktestSettings,
+    select: SelectSettings,
+    horizon: usize,
+    raw: ForecastSettings,
+}
+
+impl CheckedForecastSettings {
+    /// The settings as given.
+    pub fn get(&self) -> &ForecastSettings {
+        &self.raw
+    }
+}
+
+impl ForecastSettings {
+    /// Validates every setting.
+    pub fn check(self) -> Result<CheckedForecastSettings> {
+        Ok(CheckedForecastSettings {
+            backtest: self.backtest.clone().check()?,
+            select: self.select.clone().check()?,
+            horizon: check_horizon(self.horizon)?,
+            raw: self,
+        })
+    }
+}
+
+/// Everything the main job produced for one product.
+#[derive(Debug, Clone)]
+pub struct ProductForecast {
+    /// Product.
+    pub product: String,
+    /// The backtest.
+    pub backtest: Backtest,
+    /// The choice and its reason.
+    pub selection: Selection,
+    /// The projection (`None` when even the fallback failed; see warnings).
+    pub projection: Option<Projection>,
+    /// Problems met.
+    pub warnings: Vec<String>,
+}
+
+/// Scorable months: with `exclude_imputed`, months at least half imputed
+/// are left out of scoring.
+pub fn scorable(series: &CleanSeries, exclude_imputed: bool) -> Vec<bool> {
+    series
+        .imputed_share
+        .iter()
+        .map(|&s| !exclude_imputed || s < 0.5)
+        .collect()
+}
+
+/// Runs backtest, selection and projection for one cleaned series.
+pub fn forecast_product(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    pinned: Option<&str>,
+) -> ProductForecast {
+    let y = &series.values;
+    let mask = scorable(series, settings.raw.backtest.exclude_imputed);
+    let bt = backtest::run(y, &mask, models, &settings.backtest, settings.select.score);
+    // Simplest applicable model, for series too short to backtest.
+    let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
+    by_simplicity.sort_by_key(|m| complexity(&m.name()));
+    let fallback = by_simplicity
+        .iter()
+        .find(|m| m.needs().check(&m.name(), y).is_ok())
+        .map(|m| m.name())
+        .unwrap_or_else(|| "naive".to_string());
+    let mut warnings = Vec::new();
+    let known = |name: &str| name == COMBINATION || models.iter().any(|m| m.name() == name);
+    let pinned_ok = match pinned {
+        Some(p) if !known(p) => {
+            warnings.push(format!(
+                "product '{}': pinned model '{p}' is not a candidate (see `provisio models`); ignored",
+                series.product
+            ));
+            None
+        }
+        other => other,
+    };
+    let selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    let last = series.month(series.len().saturating_sub(1));
+    let find = |name: &str| models.iter().find(|m| m.name() == name).map(|m| m.as_ref());
+    let chosen_models: Vec<&dyn AnyModel> = if selection.chosen == COMBINATION {
+        // Members for the projection: the best complete models on the full backtest.
+        let mut ranked: Vec<(f64, &str)> = bt
+            .runs
+            .iter()
+            .filter(|r| r.status == RunStatus::Complete && r.model != COMBINATION)
+            .filter_map(|r| {
+                bt.scores(r)
+                    .get(selection.score)
+                    .map(|v| (v, r.model.as_str()))
+            })
+            .collect();
+        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
+        ranked
+            .iter()
+            .take(COMBINATION_SIZE)
+            .filter_map(|(_, n)| find(n))
+            .collect()
+    } else {
+        find(&selection.chosen).into_iter().collect()
+    };
+    let mut projection = project(y, last, &selection.chosen, &chosen_models, settings.horizon);
+    if let Err(e) = &projection {
+        warnings.push(format!(
+            "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
+            series.product, selection.chosen
+        ));
+        projection = match find(&fallback) {
+            Some(m) => project(y, last, &fallback, &[m], settings.horizon),
+            None => projection,
+        };
+    }
+    let projection = match projection {
+        Ok(p) => Some(p),
+        Err(e) => {
+            warnings.push(format!("product '{}': no projection: {e}", series.product));
+            None
+        }
+    };
+    ProductForecast {
+        product: series.product.clone(),
+        backtest: bt,
+        selection,
+        projection,
+        warnings,
+    }
+}
+
+/// Runs the main job on every series in parallel. `pins` maps product to
+/// a pinned model name. `progress` is called once per finished product.
+pub fn forecast_all(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    pins: &HashMap<String, String>,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<ProductForecast> {
+    series
+        .par_iter()
+        .map_init(candidates, |models, s| {
+            let r = forecast_product(
+                s,
+                models,
+                settings,
+                pins.get(&s.product).map(String::as_str),
+            );
+            progress();
+            r
+        })
+        .collect()
+}

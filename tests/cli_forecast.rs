@@ -1,0 +1,104 @@
+//! End-to-end test of the main job on the demo data: every output appears
+//! and is consistent.
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::Path;
+use std::process::Command;
+
+fn read(dir: &Path, name: &str) -> (Vec<String>, Vec<csv::StringRecord>) {
+    let mut r = csv::Reader::from_path(dir.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
+    let h = r.headers().unwrap().iter().map(str::to_string).collect();
+    (h, r.records().map(|x| x.unwrap()).collect())
+}
+
+#[test]
+fn forecast_demo_writes_every_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .args(["forecast", data.to_str().unwrap(), "--out", "out", "--horizon", "18"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    let text = format!("{}{}", String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+    assert!(o.status.success(), "{text}");
+    assert!(text.contains("Decision support only"), "{text}");
+    let out = dir.path().join("out");
+    for f in ["forecast.csv", "selection.csv", "scores.csv", "backtest.csv", "cleaned.csv", "adjustments.csv", "rejected.csv", "quality.csv", "manifest.json"] {
+        assert!(out.join(f).exists(), "{f} missing");
+    }
+
+    let (_, fc) = read(&out, "forecast.csv");
+    assert_eq!(fc.len(), 12 * 18, "12 products × 18 months");
+    for r in &fc {
+        let v: Vec<f64> = (3..8).map(|i| r[i].parse().unwrap()).collect();
+        let (f, l80, u80, l95, u95) = (v[0], v[1], v[2], v[3], v[4]);
+        assert!(l95 <= l80 && l80 <= f && f <= u80 && u80 <= u95, "{r:?}");
+        assert!(l95 >= 0.0, "never negative: {r:?}");
+    }
+    // The first projected month follows the last month of history.
+    assert!(fc.iter().all(|r| &r[1] >= "2026-11"));
+
+    let (h, sel) = read(&out, "selection.csv");
+    assert_eq!(sel.len(), 12);
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let chosen: BTreeMap<String, String> = sel.iter().map(|r| (r[0].to_string(), r[col("chosen_model")].to_string())).collect();
+    // Seasonal products pick a model that can represent seasonality
+    // (the scenario gives them a strong yearly cycle).
+    let seasonal = ["seasonal-naive", "holt-winters-additive", "holt-winters-additive-damped", "holt-winters-multiplicative", "holt-winters-multiplicative-damped", "mstl-ets", "theta", "combination"];
+    for p in ["Artemether-lumefantrine 20/120 mg tablet x24", "Malaria rapid diagnostic test", "Oral rehydration salts sachet"] {
+        assert!(seasonal.contains(&chosen[p].as_str()), "{p}: {}", chosen[p]);
+    }
+    let models: BTreeSet<&String> = chosen.values().collect();
+    assert!(models.len() >= 3, "selection differs across products: {models:?}");
+    for r in &sel {
+        assert!(!r[col("reason")].is_empty());
+        assert_eq!(&r[col("backtested")], "yes");
+    }
+
+    let (_, scores) = read(&out, "scores.csv");
+    let n_models = scores.iter().filter(|r| &r[0] == &sel[0][0]).count();
+    assert!(n_models >= 15, "every candidate scored: {n_models}");
+    let (_, bt) = read(&out, "backtest.csv");
+    // Every origin of every complete model: 12 origins × 12 months.
+    let complete = scores.iter().filter(|r| &r[2] == "complete").count();
+    assert_eq!(bt.len(), complete * 144);
+    for r in bt.iter().take(2000) {
+        assert!(r[4] > r[2], "target month after origin");
+    }
+
+    let m: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(m["command"], "forecast");
+    assert_eq!(m["forecast_settings"]["horizon"], 18);
+    assert_eq!(m["scored_against"], "cleaned series");
+    assert_eq!(m["input_sha256"].as_str().unwrap().len(), 64);
+}
+
+#[test]
+fn pinned_model_is_used_and_reported() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("pins.csv"), "product,model\nMale condom,naive\n").unwrap();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .args(["forecast", data.to_str().unwrap(), "--out", "out", "--pin", "pins.csv"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let (h, sel) = read(&dir.path().join("out"), "selection.csv");
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let row = sel.iter().find(|r| &r[0] == "Male condom").unwrap();
+    assert_eq!(&row[col("chosen_model")], "naive");
+    assert_eq!(&row[col("pinned")], "yes");
+    assert!(row[col("reason")].starts_with("pinned by the user"), "{:?}", row);
+
+    std::fs::write(dir.path().join("bad.csv"), "product,model\nMale condom,magic\n").unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .args(["forecast", data.to_str().unwrap(), "--out", "out2", "--pin", "bad.csv"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(1));
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert!(e.contains("bad.csv:2: column 'model': 'magic' is not a candidate model"), "{e}");
+}
