@@ -16,15 +16,36 @@ fn forecast_demo_writes_every_output() {
     let dir = tempfile::tempdir().unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
     let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(["forecast", data.to_str().unwrap(), "--out", "out", "--horizon", "18"])
+        .args([
+            "forecast",
+            data.to_str().unwrap(),
+            "--out",
+            "out",
+            "--horizon",
+            "18",
+        ])
         .current_dir(dir.path())
         .output()
         .unwrap();
-    let text = format!("{}{}", String::from_utf8_lossy(&o.stdout), String::from_utf8_lossy(&o.stderr));
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
     assert!(o.status.success(), "{text}");
     assert!(text.contains("Decision support only"), "{text}");
     let out = dir.path().join("out");
-    for f in ["forecast.csv", "selection.csv", "scores.csv", "backtest.csv", "cleaned.csv", "adjustments.csv", "rejected.csv", "quality.csv", "manifest.json"] {
+    for f in [
+        "forecast.csv",
+        "selection.csv",
+        "scores.csv",
+        "backtest.csv",
+        "cleaned.csv",
+        "adjustments.csv",
+        "rejected.csv",
+        "quality.csv",
+        "manifest.json",
+    ] {
         assert!(out.join(f).exists(), "{f} missing");
     }
 
@@ -42,15 +63,34 @@ fn forecast_demo_writes_every_output() {
     let (h, sel) = read(&out, "selection.csv");
     assert_eq!(sel.len(), 12);
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
-    let chosen: BTreeMap<String, String> = sel.iter().map(|r| (r[0].to_string(), r[col("chosen_model")].to_string())).collect();
+    let chosen: BTreeMap<String, String> = sel
+        .iter()
+        .map(|r| (r[0].to_string(), r[col("chosen_model")].to_string()))
+        .collect();
     // Seasonal products pick a model that can represent seasonality
     // (the scenario gives them a strong yearly cycle).
-    let seasonal = ["seasonal-naive", "holt-winters-additive", "holt-winters-additive-damped", "holt-winters-multiplicative", "holt-winters-multiplicative-damped", "mstl-ets", "theta", "combination"];
-    for p in ["Artemether-lumefantrine 20/120 mg tablet x24", "Malaria rapid diagnostic test", "Oral rehydration salts sachet"] {
+    let seasonal = [
+        "seasonal-naive",
+        "holt-winters-additive",
+        "holt-winters-additive-damped",
+        "holt-winters-multiplicative",
+        "holt-winters-multiplicative-damped",
+        "mstl-ets",
+        "theta",
+        "combination",
+    ];
+    for p in [
+        "Artemether-lumefantrine 20/120 mg tablet x24",
+        "Malaria rapid diagnostic test",
+        "Oral rehydration salts sachet",
+    ] {
         assert!(seasonal.contains(&chosen[p].as_str()), "{p}: {}", chosen[p]);
     }
     let models: BTreeSet<&String> = chosen.values().collect();
-    assert!(models.len() >= 3, "selection differs across products: {models:?}");
+    assert!(
+        models.len() >= 3,
+        "selection differs across products: {models:?}"
+    );
     for r in &sel {
         assert!(!r[col("reason")].is_empty());
         assert_eq!(&r[col("backtested")], "yes");
@@ -67,7 +107,8 @@ fn forecast_demo_writes_every_output() {
         assert!(r[4] > r[2], "target month after origin");
     }
 
-    let m: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
     assert_eq!(m["command"], "forecast");
     assert_eq!(m["forecast_settings"]["horizon"], 18);
     assert_eq!(m["scored_against"], "cleaned series");
@@ -77,10 +118,21 @@ fn forecast_demo_writes_every_output() {
 #[test]
 fn pinned_model_is_used_and_reported() {
     let dir = tempfile::tempdir().unwrap();
-    std::fs::write(dir.path().join("pins.csv"), "product,model\nMale condom,naive\n").unwrap();
+    std::fs::write(
+        dir.path().join("pins.csv"),
+        "product,model\nMale condom,naive\n",
+    )
+    .unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
     let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(["forecast", data.to_str().unwrap(), "--out", "out", "--pin", "pins.csv"])
+        .args([
+            "forecast",
+            data.to_str().unwrap(),
+            "--out",
+            "out",
+            "--pin",
+            "pins.csv",
+        ])
         .current_dir(dir.path())
         .output()
         .unwrap();
@@ -90,15 +142,33 @@ fn pinned_model_is_used_and_reported() {
     let row = sel.iter().find(|r| &r[0] == "Male condom").unwrap();
     assert_eq!(&row[col("chosen_model")], "naive");
     assert_eq!(&row[col("pinned")], "yes");
-    assert!(row[col("reason")].starts_with("pinned by the user"), "{:?}", row);
+    assert!(
+        row[col("reason")].starts_with("pinned by the user"),
+        "{:?}",
+        row
+    );
 
-    std::fs::write(dir.path().join("bad.csv"), "product,model\nMale condom,magic\n").unwrap();
+    std::fs::write(
+        dir.path().join("bad.csv"),
+        "product,model\nMale condom,magic\n",
+    )
+    .unwrap();
     let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(["forecast", data.to_str().unwrap(), "--out", "out2", "--pin", "bad.csv"])
+        .args([
+            "forecast",
+            data.to_str().unwrap(),
+            "--out",
+            "out2",
+            "--pin",
+            "bad.csv",
+        ])
         .current_dir(dir.path())
         .output()
         .unwrap();
     assert_eq!(o.status.code(), Some(1));
     let e = String::from_utf8_lossy(&o.stderr);
-    assert!(e.contains("bad.csv:2: column 'model': 'magic' is not a candidate model"), "{e}");
+    assert!(
+        e.contains("bad.csv:2: column 'model': 'magic' is not a candidate model"),
+        "{e}"
+    );
 }
