@@ -97,7 +97,7 @@ fn forecast_demo_writes_every_output() {
     }
 
     let (_, scores) = read(&out, "scores.csv");
-    let n_models = scores.iter().filter(|r| &r[0] == &sel[0][0]).count();
+    let n_models = scores.iter().filter(|r| r[0] == sel[0][0]).count();
     assert!(n_models >= 15, "every candidate scored: {n_models}");
     let (_, bt) = read(&out, "backtest.csv");
     // Every origin of every complete model: 12 origins × 12 months.
