@@ -144,7 +144,7 @@ pub fn forecast_product(
         find(&selection.chosen).into_iter().collect()
     };
     let mut projection = project(y, last, &selection.chosen, &chosen_models, settings.horizon);
-    if let Err(e) = &projection {
+    if let (Err(e), true) = (&projection, selection.chosen != fallback) {
         warnings.push(format!(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
             series.product, selection.chosen
@@ -190,5 +190,81 @@ pub fn forecast_all(
             progress();
             r
         })
+        .collect()
+}
+
+/// Out-of-sample check of the whole procedure on one series: the last
+/// `holdout` months are hidden, the backtest and selection run on the rest,
+/// and the selected projection — and every single candidate's — is scored
+/// on the hidden months, which no selection step saw.
+#[derive(Debug, Clone)]
+pub struct HoldoutResult {
+    /// Product.
+    pub product: String,
+    /// Model the procedure selected on the shortened history.
+    pub selected: String,
+    /// Hidden actuals.
+    pub actual: Vec<f64>,
+    /// Selected projection over the hidden months.
+    pub selected_forecast: Vec<f64>,
+    /// Each single candidate's projection (`None` when it did not apply).
+    pub single: Vec<(String, Option<Vec<f64>>)>,
+}
+
+/// Runs [`HoldoutResult`] for one series; `None` when the series is not
+/// longer than `holdout` + 24 months.
+pub fn holdout_check(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+) -> Option<HoldoutResult> {
+    let n = series.len();
+    if n <= holdout + 24 {
+        return None;
+    }
+    let cut = n - holdout;
+    let mut short = series.clone();
+    short.reported.truncate(cut);
+    short.values.truncate(cut);
+    short.status.truncate(cut);
+    short.imputed_share.truncate(cut);
+    short.outlier.truncate(cut);
+    let mut s = settings.clone();
+    s.horizon = holdout;
+    let r = forecast_product(&short, models, &s, None);
+    let selected_forecast = r.projection.map(|p| p.forecast.point)?;
+    let single = models
+        .iter()
+        .map(|m| {
+            let f = m
+                .fit_any(&short.values)
+                .and_then(|f| f.forecast(holdout, &[]))
+                .ok()
+                .map(|f| f.clipped().point);
+            (m.name(), f)
+        })
+        .collect();
+    Some(HoldoutResult {
+        product: series.product.clone(),
+        selected: r.selection.chosen,
+        actual: series.values[cut..].to_vec(),
+        selected_forecast,
+        single,
+    })
+}
+
+/// [`holdout_check`] for many series, in parallel.
+pub fn holdout_all(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+) -> Vec<HoldoutResult> {
+    series
+        .par_iter()
+        .map_init(candidates, |models, s| {
+            holdout_check(s, models, settings, holdout)
+        })
+        .flatten()
         .collect()
 }

@@ -172,3 +172,35 @@ fn pinned_model_is_used_and_reported() {
         "{e}"
     );
 }
+
+#[test]
+fn evaluate_compares_selection_with_every_single_model() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .args([
+            "evaluate",
+            data.to_str().unwrap(),
+            "--holdout",
+            "12",
+            "--csv",
+            "eval.csv",
+        ])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        o.status.success(),
+        "{text}{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert!(
+        text.contains("best single model applied to every product"),
+        "{text}"
+    );
+    let (_, rows) = read(dir.path(), "eval.csv");
+    assert_eq!(&rows[0][0], "selected per product");
+    assert_eq!(&rows[0][1], "12");
+    assert!(rows.len() >= 16, "selection plus every candidate");
+}

@@ -352,3 +352,169 @@ pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
     );
     Ok(())
 }
+
+#[derive(Args, Debug)]
+pub struct EvaluateArgs {
+    /// Input CSV (long format).
+    data: PathBuf,
+    /// Months hidden at the end of each series and forecast out of sample.
+    #[arg(long, default_value_t = 12, value_name = "MONTHS")]
+    holdout: usize,
+    /// Also write the comparison as CSV.
+    #[arg(long, value_name = "FILE")]
+    csv: Option<PathBuf>,
+    #[command(flatten)]
+    eval: EvalArgs,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+/// Accuracy of one method across products on the hidden months.
+struct Tally {
+    name: String,
+    products: usize,
+    mape_sum: f64,
+    mape_n: usize,
+    abs_err: f64,
+    actual: f64,
+    signed: f64,
+}
+
+impl Tally {
+    fn new(name: &str) -> Self {
+        Tally {
+            name: name.to_string(),
+            products: 0,
+            mape_sum: 0.0,
+            mape_n: 0,
+            abs_err: 0.0,
+            actual: 0.0,
+            signed: 0.0,
+        }
+    }
+    fn add(&mut self, a: &[f64], f: &[f64]) {
+        self.products += 1;
+        if let (Some(m), _) = provisio::metrics::mape(a, f) {
+            self.mape_sum += m;
+            self.mape_n += 1;
+        }
+        for (x, y) in a.iter().zip(f) {
+            self.abs_err += (y - x).abs();
+            self.signed += y - x;
+            self.actual += x;
+        }
+    }
+    fn mape(&self) -> Option<f64> {
+        (self.mape_n > 0).then(|| self.mape_sum / self.mape_n as f64)
+    }
+    fn wape(&self) -> Option<f64> {
+        (self.actual > 0.0).then(|| 100.0 * self.abs_err / self.actual)
+    }
+    fn bias(&self) -> Option<f64> {
+        (self.actual > 0.0).then(|| 100.0 * self.signed / self.actual)
+    }
+}
+
+pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
+    if a.holdout == 0 || a.holdout > provisio::project::MAX_HORIZON {
+        anyhow::bail!(
+            "--holdout must be 1-{}, got {}",
+            provisio::project::MAX_HORIZON,
+            a.holdout
+        );
+    }
+    let fs = settings(&a.eval, a.holdout);
+    let checked = fs.check()?;
+    let (ds, cleaned, _) = load(&a.data, &a.read, &a.clean)?;
+    let t0 = Instant::now();
+    let results = provisio::pipeline::holdout_all(&cleaned.series, &checked, a.holdout);
+    print_accounting(&ds, &cleaned, 5);
+    if results.is_empty() {
+        anyhow::bail!(
+            "no product is longer than {} months (holdout + 24), so none can be evaluated",
+            a.holdout + 24
+        );
+    }
+    let mut selected = Tally::new("selected per product");
+    let mut singles: Vec<Tally> = results[0]
+        .single
+        .iter()
+        .map(|(n, _)| Tally::new(n))
+        .collect();
+    for r in &results {
+        selected.add(&r.actual, &r.selected_forecast);
+        for (t, (_, f)) in singles.iter_mut().zip(&r.single) {
+            if let Some(f) = f {
+                t.add(&r.actual, f);
+            }
+        }
+    }
+    let n = results.len();
+    let mut all: Vec<&Tally> = singles.iter().filter(|t| t.products == n).collect();
+    all.sort_by(|x, y| {
+        x.mape()
+            .unwrap_or(f64::MAX)
+            .total_cmp(&y.mape().unwrap_or(f64::MAX))
+    });
+    let fmt = |v: Option<f64>| v.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into());
+    println!(
+        "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
+        a.holdout
+    );
+    println!(
+        "{:<36} {:>9} {:>10} {:>10} {:>9}",
+        "method", "products", "mean MAPE", "WAPE", "bias"
+    );
+    let mut rows = vec![&selected];
+    rows.extend(all.iter().copied());
+    for t in &rows {
+        println!(
+            "{:<36} {:>9} {:>10} {:>10} {:>9}",
+            t.name,
+            t.products,
+            fmt(t.mape()),
+            fmt(t.wape()),
+            fmt(t.bias())
+        );
+    }
+    if let Some(best) = all.first() {
+        println!(
+            "best single model applied to every product: {} (mean MAPE {}); selection: {}",
+            best.name,
+            fmt(best.mape()),
+            fmt(selected.mape())
+        );
+    }
+    println!(
+        "(models that did not apply to every product are left out of this table; {:.1} s)",
+        t0.elapsed().as_secs_f64()
+    );
+    if let Some(path) = &a.csv {
+        output::write_atomic(path, |w| {
+            let mut c = csv::Writer::from_writer(w);
+            let e = std::io::Error::other;
+            c.write_record([
+                "method",
+                "products",
+                "mean_mape_pct",
+                "wape_pct",
+                "bias_pct",
+            ])
+            .map_err(e)?;
+            for t in std::iter::once(&selected).chain(singles.iter()) {
+                c.write_record([
+                    t.name.clone(),
+                    t.products.to_string(),
+                    fmt(t.mape()),
+                    fmt(t.wape()),
+                    fmt(t.bias()),
+                ])
+                .map_err(e)?;
+            }
+            c.flush()
+        })?;
+    }
+    Ok(())
+}

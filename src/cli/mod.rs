@@ -31,6 +31,11 @@ enum Command {
         after_help = "Example:\n  provisio backtest datasets/demo/consumption.csv --origins 12 --backtest-horizon 12"
     )]
     Backtest(forecast::BacktestArgs),
+    /// Check the whole procedure out of sample: hide the last months, select on the rest, score against the hidden months beside every single model.
+    #[command(
+        after_help = "Example:\n  provisio evaluate datasets/demo/consumption.csv --holdout 12"
+    )]
+    Evaluate(forecast::EvaluateArgs),
     /// Profile the data quality of each product: gaps, stockouts, reporting, outliers, and a verdict.
     #[command(
         after_help = "Example:\n  provisio inspect datasets/demo/consumption.csv --csv quality.csv"
@@ -123,6 +128,7 @@ pub fn run() -> i32 {
     let result = match cli.command {
         Command::Forecast(a) => forecast::run_forecast(a),
         Command::Backtest(a) => forecast::run_backtest(a),
+        Command::Evaluate(a) => forecast::run_evaluate(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
         Command::Generate(a) => generate::run(a),
