@@ -15,6 +15,61 @@ use crate::models::{candidates, AnyModel};
 use crate::project::{check_horizon, project, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection};
 
+/// Model name prefixes that compete for intermittent or lumpy demand.
+pub const INTERMITTENT_METHODS: [&str; 4] = ["croston", "tsb", "moving-average", "naive"];
+
+/// Average inter-demand interval above which demand is intermittent
+/// (Syntetos, Boylan & Croston, JORS 56, 2005).
+pub const ADI_CUTOFF: f64 = 1.32;
+
+/// Squared coefficient of variation of demand sizes above which
+/// intermittent demand is lumpy (same source).
+pub const CV2_CUTOFF: f64 = 0.49;
+
+/// Demand pattern by the Syntetos–Boylan–Croston classification.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DemandClass {
+    /// Average interval between non-zero months (months ÷ non-zero months).
+    pub adi: f64,
+    /// Squared coefficient of variation of the non-zero sizes.
+    pub cv2: f64,
+}
+
+impl DemandClass {
+    /// Whether demand is intermittent or lumpy.
+    pub fn is_intermittent(&self) -> bool {
+        self.adi > ADI_CUTOFF
+    }
+
+    /// Plain name: smooth, erratic, intermittent or lumpy.
+    pub fn name(&self) -> &'static str {
+        match (self.adi > ADI_CUTOFF, self.cv2 > CV2_CUTOFF) {
+            (false, false) => "smooth",
+            (false, true) => "erratic",
+            (true, false) => "intermittent",
+            (true, true) => "lumpy",
+        }
+    }
+}
+
+/// Classifies a series' demand pattern.
+pub fn demand_class(y: &[f64]) -> DemandClass {
+    let nz: Vec<f64> = y.iter().copied().filter(|&v| v > 0.0).collect();
+    if nz.is_empty() {
+        return DemandClass {
+            adi: f64::INFINITY,
+            cv2: 0.0,
+        };
+    }
+    let adi = y.len() as f64 / nz.len() as f64;
+    let mean = nz.iter().sum::<f64>() / nz.len() as f64;
+    let var = nz.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / nz.len() as f64;
+    DemandClass {
+        adi,
+        cv2: if mean > 0.0 { var / (mean * mean) } else { 0.0 },
+    }
+}
+
 /// Settings of the whole forecast run.
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ForecastSettings {
@@ -98,6 +153,25 @@ pub fn forecast_product(
 ) -> ProductForecast {
     let y = &series.values;
     let mask = scorable(series, settings.raw.backtest.exclude_imputed);
+    let class = demand_class(y);
+    // Intermittent and lumpy demand is forecast by the methods made for it
+    // (and moving averages, their simplest rival): smooth-demand models
+    // fitted to mostly-zero months chase the zeros.
+    let subset: Vec<Box<dyn AnyModel>>;
+    let models: &[Box<dyn AnyModel>] = if class.is_intermittent() {
+        subset = candidates()
+            .into_iter()
+            .filter(|m| INTERMITTENT_METHODS.iter().any(|p| m.name().starts_with(p)))
+            .filter(|m| models.iter().any(|x| x.name() == m.name()))
+            .collect();
+        if subset.is_empty() {
+            models
+        } else {
+            &subset
+        }
+    } else {
+        models
+    };
     let bt = backtest::run(y, &mask, models, &settings.backtest, settings.select.score);
     // Simplest applicable model, for series too short to backtest.
     let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
@@ -119,7 +193,14 @@ pub fn forecast_product(
         }
         other => other,
     };
-    let selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    let mut selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    if class.is_intermittent() {
+        selection.reason.push_str(&format!(
+            "; demand is {} (mean interval between demands {:.2} months > {ADI_CUTOFF}; Syntetos, Boylan & Croston, JORS 56, 2005), so only intermittent-demand methods and moving averages competed",
+            class.name(),
+            class.adi
+        ));
+    }
     let last = series.month(series.len().saturating_sub(1));
     let find = |name: &str| models.iter().find(|m| m.name() == name).map(|m| m.as_ref());
     let chosen_models: Vec<&dyn AnyModel> = if selection.chosen == COMBINATION {
@@ -267,4 +348,24 @@ pub fn holdout_all(
         })
         .flatten()
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn demand_classes() {
+        // Syntetos, Boylan & Croston (2005) cut-offs: ADI 1.32, CV² 0.49.
+        let smooth = demand_class(&[10.0, 11.0, 9.0, 10.0]);
+        assert_eq!(smooth.name(), "smooth");
+        let inter = demand_class(&[0.0, 5.0, 0.0, 0.0, 5.0, 0.0, 4.0, 0.0]);
+        assert!(inter.is_intermittent());
+        assert_eq!(inter.name(), "intermittent");
+        assert_eq!(
+            demand_class(&[0.0, 1.0, 0.0, 30.0, 0.0, 0.0]).name(),
+            "lumpy"
+        );
+        assert!(demand_class(&[0.0; 5]).is_intermittent());
+    }
 }
