@@ -5,6 +5,14 @@ use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 use std::process::Command;
 
+fn provisio(dir: &Path, args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .unwrap()
+}
+
 fn read(dir: &Path, name: &str) -> (Vec<String>, Vec<csv::StringRecord>) {
     let mut r = csv::Reader::from_path(dir.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
     let h = r.headers().unwrap().iter().map(str::to_string).collect();
@@ -15,18 +23,17 @@ fn read(dir: &Path, name: &str) -> (Vec<String>, Vec<csv::StringRecord>) {
 fn forecast_demo_writes_every_output() {
     let dir = tempfile::tempdir().unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args([
+    let o = provisio(
+        dir.path(),
+        &[
             "forecast",
             data.to_str().unwrap(),
             "--out",
             "out",
             "--horizon",
             "18",
-        ])
-        .current_dir(dir.path())
-        .output()
-        .unwrap();
+        ],
+    );
     let text = format!(
         "{}{}",
         String::from_utf8_lossy(&o.stdout),
@@ -124,18 +131,17 @@ fn pinned_model_is_used_and_reported() {
     )
     .unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args([
+    let o = provisio(
+        dir.path(),
+        &[
             "forecast",
             data.to_str().unwrap(),
             "--out",
             "out",
             "--pin",
             "pins.csv",
-        ])
-        .current_dir(dir.path())
-        .output()
-        .unwrap();
+        ],
+    );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let (h, sel) = read(&dir.path().join("out"), "selection.csv");
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
@@ -153,18 +159,17 @@ fn pinned_model_is_used_and_reported() {
         "product,model\nMale condom,magic\n",
     )
     .unwrap();
-    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args([
+    let o = provisio(
+        dir.path(),
+        &[
             "forecast",
             data.to_str().unwrap(),
             "--out",
             "out2",
             "--pin",
             "bad.csv",
-        ])
-        .current_dir(dir.path())
-        .output()
-        .unwrap();
+        ],
+    );
     assert_eq!(o.status.code(), Some(1));
     let e = String::from_utf8_lossy(&o.stderr);
     assert!(
@@ -177,18 +182,17 @@ fn pinned_model_is_used_and_reported() {
 fn evaluate_compares_selection_with_every_single_model() {
     let dir = tempfile::tempdir().unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args([
+    let o = provisio(
+        dir.path(),
+        &[
             "evaluate",
             data.to_str().unwrap(),
             "--holdout",
             "12",
             "--csv",
             "eval.csv",
-        ])
-        .current_dir(dir.path())
-        .output()
-        .unwrap();
+        ],
+    );
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(
         o.status.success(),

@@ -1,6 +1,5 @@
 //! `provisio clean DATA --out DIR`: cleaned series and the adjustment log.
 
-use std::collections::BTreeMap;
 use std::path::PathBuf;
 
 use anyhow::Context;
@@ -26,17 +25,7 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
     let (ds, cleaned, bytes) = load(&a.data, &a.read, &a.clean)?;
     std::fs::create_dir_all(&a.out)
         .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
-    let profiles = provisio::quality::profile_all(&cleaned);
-    output::write_cleaned(&a.out.join("cleaned.csv"), &cleaned.series)?;
-    output::write_adjustments(&a.out.join("adjustments.csv"), &cleaned.log)?;
-    output::write_rejected(&a.out.join("rejected.csv"), &ds.source, &ds.rejected)?;
-    output::write_quality(&a.out.join("quality.csv"), &profiles)?;
-    let mut by_rule: BTreeMap<String, usize> = BTreeMap::new();
-    for e in &cleaned.log {
-        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
-    }
-    let mut warnings = ds.warnings.clone();
-    warnings.extend(cleaned.warnings.iter().cloned());
+    let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
     let manifest = output::CleanManifest {
         tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),
         command: "clean".to_string(),

@@ -1,6 +1,6 @@
 //! `provisio forecast DATA --out DIR` (the main job) and `provisio backtest DATA`.
 
-use std::collections::{BTreeMap, HashMap};
+use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Instant;
@@ -278,21 +278,11 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         .iter()
         .map(|s| (s.product.clone(), s.start))
         .collect();
-    let profiles = provisio::quality::profile_all(&cleaned);
     output::write_forecast(&a.out.join("forecast.csv"), &results)?;
     output::write_selection(&a.out.join("selection.csv"), &results)?;
     output::write_scores(&a.out.join("scores.csv"), &results)?;
     output::write_backtest(&a.out.join("backtest.csv"), &results, &starts)?;
-    output::write_cleaned(&a.out.join("cleaned.csv"), &cleaned.series)?;
-    output::write_adjustments(&a.out.join("adjustments.csv"), &cleaned.log)?;
-    output::write_rejected(&a.out.join("rejected.csv"), &ds.source, &ds.rejected)?;
-    output::write_quality(&a.out.join("quality.csv"), &profiles)?;
-    let mut by_rule: BTreeMap<String, usize> = BTreeMap::new();
-    for e in &cleaned.log {
-        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
-    }
-    let mut warnings = ds.warnings.clone();
-    warnings.extend(cleaned.warnings.iter().cloned());
+    let (by_rule, mut warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     let manifest = serde_json::json!({
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),

@@ -211,3 +211,25 @@ fn print_accounting(
         );
     }
 }
+
+/// Writes the cleaning outputs shared by `clean` and `forecast`; returns
+/// the adjustment count per rule and every warning so far.
+fn write_clean_outputs(
+    out: &std::path::Path,
+    ds: &provisio::data::Dataset,
+    cleaned: &provisio::clean::Cleaned,
+) -> anyhow::Result<(std::collections::BTreeMap<String, usize>, Vec<String>)> {
+    use provisio::output;
+    let profiles = provisio::quality::profile_all(cleaned);
+    output::write_cleaned(&out.join("cleaned.csv"), &cleaned.series)?;
+    output::write_adjustments(&out.join("adjustments.csv"), &cleaned.log)?;
+    output::write_rejected(&out.join("rejected.csv"), &ds.source, &ds.rejected)?;
+    output::write_quality(&out.join("quality.csv"), &profiles)?;
+    let mut by_rule = std::collections::BTreeMap::new();
+    for e in &cleaned.log {
+        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
+    }
+    let mut warnings = ds.warnings.clone();
+    warnings.extend(cleaned.warnings.iter().cloned());
+    Ok((by_rule, warnings))
+}
