@@ -2,7 +2,6 @@
 
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Instant;
 
 use anyhow::Context;
@@ -173,18 +172,21 @@ fn run_eval(
         }
     }
     let total = cleaned.series.len();
-    let done = AtomicUsize::new(0);
-    let show = total >= 50 && std::io::IsTerminal::is_terminal(&std::io::stderr());
-    let progress = || {
-        let d = done.fetch_add(1, Ordering::Relaxed) + 1;
-        if show && (d % 25 == 0 || d == total) {
-            eprint!("\rforecasting: {d}/{total} products");
-            if d == total {
-                eprintln!();
-            }
-        }
+    // indicatif draws only on a terminal; hidden otherwise (and for tiny runs).
+    let bar = if total >= 50 {
+        indicatif::ProgressBar::new(total as u64)
+    } else {
+        indicatif::ProgressBar::hidden()
     };
+    bar.set_style(
+        indicatif::ProgressStyle::with_template(
+            "forecasting {bar:30} {pos}/{len} products ({eta} left)",
+        )
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    let progress = || bar.inc(1);
     let results = forecast_all(&cleaned.series, &checked, &pins, &progress);
+    bar.finish_and_clear();
     Ok((ds, cleaned, bytes, results, fs, t0.elapsed().as_secs_f64()))
 }
 
