@@ -197,19 +197,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
         .max()
         .unwrap_or(7)
         .clamp(7, 40);
-    let cut = |s: &str| -> String {
-        let s: String = s
-            .chars()
-            .map(|c| if c.is_control() { ' ' } else { c })
-            .collect();
-        if s.chars().count() > w {
-            let mut t: String = s.chars().take(w - 1).collect();
-            t.push('…');
-            t
-        } else {
-            format!("{s}{}", " ".repeat(w - s.chars().count()))
-        }
-    };
+    let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     println!(
         "{}  {:<34} {:>8} {:>8} {:>10}{}",
         cut("product"),

@@ -4,7 +4,7 @@ use std::path::PathBuf;
 
 use clap::Args;
 
-use super::{load, print_accounting, CleanArgs, ReadArgs};
+use super::{load, pad, print_accounting, truncate, CleanArgs, ReadArgs};
 
 #[derive(Args, Debug)]
 pub struct InspectArgs {
@@ -20,29 +20,6 @@ pub struct InspectArgs {
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
-}
-
-fn truncate(s: &str, n: usize) -> String {
-    let clean: String = s
-        .chars()
-        .map(|c| if c.is_control() { ' ' } else { c })
-        .collect();
-    if clean.chars().count() <= n {
-        clean
-    } else {
-        let mut out: String = clean.chars().take(n - 1).collect();
-        out.push('…');
-        out
-    }
-}
-
-fn pad(s: &str, n: usize) -> String {
-    let len = s.chars().count();
-    if len >= n {
-        s.to_string()
-    } else {
-        format!("{s}{}", " ".repeat(n - len))
-    }
 }
 
 pub fn run(a: InspectArgs) -> anyhow::Result<()> {

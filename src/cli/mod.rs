@@ -233,3 +233,25 @@ fn write_clean_outputs(
     warnings.extend(cleaned.warnings.iter().cloned());
     Ok((by_rule, warnings))
 }
+
+/// Text for a terminal table cell: control characters shown as spaces,
+/// cut to `n` characters with an ellipsis.
+fn truncate(s: &str, n: usize) -> String {
+    let clean: String = s
+        .chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect();
+    if clean.chars().count() <= n {
+        clean
+    } else {
+        let mut out: String = clean.chars().take(n.saturating_sub(1)).collect();
+        out.push('…');
+        out
+    }
+}
+
+/// Pads text with spaces to `n` characters.
+fn pad(s: &str, n: usize) -> String {
+    let len = s.chars().count();
+    format!("{s}{}", " ".repeat(n.saturating_sub(len)))
+}
