@@ -15,7 +15,7 @@
 
 use crate::error::{Error, Result};
 use crate::metrics;
-use crate::models::{AnyModel, Forecast, PERIOD};
+use crate::models::{AnyModel, Forecast, WarmStart, PERIOD};
 
 /// Name of the combination candidate.
 pub const COMBINATION: &str = "combination";
@@ -315,10 +315,13 @@ pub fn run(
         let mut failed = 0;
         let mut first_err: Option<String> = None;
         let mut not_applicable: Option<String> = None;
+        // Origins run oldest first, so each fit may start from the previous
+        // origin's optimum; it still sees only the months up to its origin.
+        let mut warm: WarmStart = None;
         for &o in &os {
             let train = &y[..=o];
             let result = m
-                .fit_any(train)
+                .fit_any_warm(train, &mut warm)
                 .and_then(|f| f.forecast(s.horizon, &LEVELS));
             match result {
                 Ok(fc) => forecasts.push(Some(fc)),

@@ -483,6 +483,16 @@ impl Model for HoltWinters {
     fn fit(&self, y: &[f64]) -> Result<HoltWintersFit> {
         self.fit_from(y, None)
     }
+
+    fn fit_warm(&self, y: &[f64], warm: &mut super::WarmStart) -> Result<HoltWintersFit> {
+        let start = warm
+            .as_ref()
+            .and_then(|w| w.downcast_ref::<HwParams>())
+            .copied();
+        let fit = self.fit_from(y, start.as_ref())?;
+        *warm = Some(Box::new(fit.params));
+        Ok(fit)
+    }
 }
 
 /// A fitted Holt-Winters model.

@@ -169,6 +169,11 @@ pub trait Fitted: Send {
     }
 }
 
+/// State a model may carry from one fit to the next on a longer prefix of
+/// the same series (the backtest's next origin): typically the previous
+/// optimum, used as a starting point. Opaque to everyone but the model.
+pub type WarmStart = Option<Box<dyn std::any::Any + Send>>;
+
 /// A model specification: unfitted, cheap to copy, fitted per series.
 pub trait Model: Send + Sync {
     /// What fitting returns.
@@ -182,6 +187,14 @@ pub trait Model: Send + Sync {
     /// Fits to `y` (oldest month first). Fails with
     /// [`Error::NotApplicable`] when the series does not meet [`Model::needs`].
     fn fit(&self, y: &[f64]) -> Result<Self::Fitted>;
+    /// Fits like [`Model::fit`], but may start its optimiser from `warm`
+    /// (left by this model's fit on a shorter prefix of the same series)
+    /// and leaves its own optimum there. The fit sees only `y`; models
+    /// without an optimiser ignore `warm`.
+    fn fit_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<Self::Fitted> {
+        let _ = warm;
+        self.fit(y)
+    }
 }
 
 /// Object-safe form of [`Model`], used to hold a set of candidates.
@@ -194,6 +207,8 @@ pub trait AnyModel: Send + Sync {
     fn needs(&self) -> Needs;
     /// Fits and boxes the fitted model.
     fn fit_any(&self, y: &[f64]) -> Result<Box<dyn Fitted>>;
+    /// See [`Model::fit_warm`].
+    fn fit_any_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<Box<dyn Fitted>>;
 }
 
 impl<M: Model> AnyModel for M {
@@ -208,6 +223,9 @@ impl<M: Model> AnyModel for M {
     }
     fn fit_any(&self, y: &[f64]) -> Result<Box<dyn Fitted>> {
         Ok(Box::new(self.fit(y)?))
+    }
+    fn fit_any_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<Box<dyn Fitted>> {
+        Ok(Box::new(self.fit_warm(y, warm)?))
     }
 }
 
