@@ -6,9 +6,12 @@
 use std::collections::HashMap;
 
 use criterion::{criterion_group, criterion_main, Criterion};
+use provisio::backtest::{self, BacktestSettings};
 use provisio::clean::{clean, CleanSettings};
 use provisio::data::{read_csv_bytes, ReadOptions};
 use provisio::generate::{generate, synthetic_scenario, write_rows};
+use provisio::metrics::Score;
+use provisio::models::candidates;
 use provisio::pipeline::{forecast_all, ForecastSettings};
 
 fn bench(c: &mut Criterion) {
@@ -29,5 +32,32 @@ fn bench(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, bench);
+/// The backtest of one 60-month series by one model: 12 origins, each
+/// refitted (warm-started from the previous origin where the model can).
+fn backtest_per_model(c: &mut Criterion) {
+    let rows = generate(&synthetic_scenario(8, 1, 60, 5));
+    let mut bytes = Vec::new();
+    write_rows(&mut bytes, &rows).unwrap();
+    let ds = read_csv_bytes("bench.csv", &bytes, &ReadOptions::default()).unwrap();
+    let cleaned = clean(&ds, &CleanSettings::default().check().unwrap());
+    // A smooth, positive series, so every candidate applies.
+    let series = cleaned
+        .series
+        .iter()
+        .find(|s| s.values.iter().all(|&v| v > 0.0))
+        .expect("the generated set has a positive series");
+    let mask = vec![true; series.values.len()];
+    let settings = BacktestSettings::default().check().unwrap();
+    let mut g = c.benchmark_group("backtest_12_origins");
+    for model in candidates() {
+        let one = vec![model];
+        let name = one[0].name();
+        g.bench_function(name, |b| {
+            b.iter(|| backtest::run(&series.values, &mask, &one, &settings, Score::Mape))
+        });
+    }
+    g.finish();
+}
+
+criterion_group!(benches, bench, backtest_per_model);
 criterion_main!(benches);
