@@ -6,7 +6,7 @@ use std::collections::HashMap;
 use rayon::prelude::*;
 
 use crate::backtest::{
-    self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, COMBINATION,
+    self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
     COMBINATION_SIZE,
 };
 use crate::clean::CleanSeries;
@@ -70,6 +70,19 @@ pub fn demand_class(y: &[f64]) -> DemandClass {
     }
 }
 
+/// Which models' backtest forecasts are kept for output after selection
+/// (every model's scores are always kept).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum BacktestDetail {
+    /// The chosen model, the runner-up and the combination: the evidence
+    /// for the choice, in bounded memory on thousands of series.
+    #[default]
+    Chosen,
+    /// Every candidate.
+    All,
+}
+
 /// Settings of the whole forecast run.
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ForecastSettings {
@@ -79,6 +92,9 @@ pub struct ForecastSettings {
     pub select: SelectSettings,
     /// Months projected (1–60).
     pub horizon: usize,
+    /// Backtest forecasts kept for output.
+    #[serde(default)]
+    pub backtest_detail: BacktestDetail,
 }
 
 impl Default for ForecastSettings {
@@ -87,8 +103,23 @@ impl Default for ForecastSettings {
             backtest: BacktestSettings::default(),
             select: SelectSettings::default(),
             horizon: 24,
+            backtest_detail: BacktestDetail::default(),
         }
     }
+}
+
+/// One candidate's backtest scores for a product, kept after the
+/// forecasts themselves may have been dropped.
+#[derive(Debug, Clone)]
+pub struct ModelScores {
+    /// Model name.
+    pub model: String,
+    /// How the run went.
+    pub status: RunStatus,
+    /// Scores over all origins and horizons (`None` when not applicable).
+    pub overall: Option<Scores>,
+    /// Scores per horizon, index 0 = one month ahead (empty when not applicable).
+    pub by_horizon: Vec<Scores>,
 }
 
 /// Checked form of [`ForecastSettings`].
@@ -124,8 +155,11 @@ impl ForecastSettings {
 pub struct ProductForecast {
     /// Product.
     pub product: String,
-    /// The backtest.
+    /// The backtest (with [`BacktestDetail::Chosen`], only the chosen model,
+    /// the runner-up and the combination keep their forecasts).
     pub backtest: Backtest,
+    /// Every candidate's scores, in backtest order.
+    pub scores: Vec<ModelScores>,
     /// The choice and its reason.
     pub selection: Selection,
     /// The projection (`None` when even the fallback failed; see warnings).
@@ -242,9 +276,39 @@ pub fn forecast_product(
             None
         }
     };
+    let scores: Vec<ModelScores> = bt
+        .runs
+        .iter()
+        .map(|run| {
+            let applicable = !matches!(run.status, RunStatus::NotApplicable(_));
+            ModelScores {
+                model: run.model.clone(),
+                status: run.status.clone(),
+                overall: applicable.then(|| bt.scores(run)),
+                by_horizon: if applicable {
+                    bt.scores_by_horizon(run)
+                } else {
+                    Vec::new()
+                },
+            }
+        })
+        .collect();
+    let mut bt = bt;
+    if settings.raw.backtest_detail == BacktestDetail::Chosen {
+        let keep = |m: &str| {
+            m == selection.chosen
+                || m == selection.best
+                || m == COMBINATION
+                || selection.runner_up.as_ref().is_some_and(|r| r.0 == m)
+        };
+        for run in bt.runs.iter_mut().filter(|r| !keep(&r.model)) {
+            run.forecasts = Vec::new();
+        }
+    }
     ProductForecast {
         product: series.product.clone(),
         backtest: bt,
+        scores,
         selection,
         projection,
         warnings,
@@ -290,6 +354,8 @@ pub struct HoldoutResult {
     pub selected_forecast: Vec<f64>,
     /// Each single candidate's projection (`None` when it did not apply).
     pub single: Vec<(String, Option<Vec<f64>>)>,
+    /// MASE scale of the shortened history (seasonal-naive in-sample MAE).
+    pub scale: Option<f64>,
 }
 
 /// Runs [`HoldoutResult`] for one series; `None` when the series is not
@@ -332,6 +398,7 @@ pub fn holdout_check(
         actual: series.values[cut..].to_vec(),
         selected_forecast,
         single,
+        scale: crate::metrics::mase_scale(&short.values, crate::models::PERIOD),
     })
 }
 

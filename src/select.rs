@@ -30,7 +30,7 @@ impl Default for SelectSettings {
     fn default() -> Self {
         SelectSettings {
             score: Score::Mape,
-            tie_margin: 0.02,
+            tie_margin: 0.10,
         }
     }
 }

@@ -107,12 +107,31 @@ fn forecast_demo_writes_every_output() {
     let n_models = scores.iter().filter(|r| r[0] == sel[0][0]).count();
     assert!(n_models >= 15, "every candidate scored: {n_models}");
     let (_, bt) = read(&out, "backtest.csv");
-    // Every origin of every complete model: 12 origins × 12 months.
-    let complete = scores.iter().filter(|r| &r[2] == "complete").count();
-    assert_eq!(bt.len(), complete * 144);
+    // By default backtest.csv holds the evidence for each choice: the
+    // chosen model, the runner-up and the combination, each at every
+    // origin (12) and months ahead (12).
+    let runner_col = col("runner_up");
+    for r in &sel {
+        let product = &r[0];
+        let rows_of = |m: &str| bt.iter().filter(|b| &b[0] == product && &b[1] == m).count();
+        assert_eq!(rows_of(&r[col("chosen_model")]), 144, "{product}");
+        if !r[runner_col].is_empty() {
+            assert_eq!(rows_of(&r[runner_col]), 144, "{product} runner-up");
+        }
+        let kept: BTreeSet<&str> = bt
+            .iter()
+            .filter(|b| &b[0] == product)
+            .map(|b| &b[1][..])
+            .collect();
+        assert!(kept.len() <= 4, "{product}: {kept:?}");
+    }
     for r in bt.iter().take(2000) {
         assert!(r[4] > r[2], "target month after origin");
     }
+    // Scores per months ahead: 12 rows for every model that forecast.
+    let (_, by_h) = read(&out, "scores_by_horizon.csv");
+    let forecasting = scores.iter().filter(|r| &r[2] != "not applicable").count();
+    assert_eq!(by_h.len(), forecasting * 12);
 
     let m: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
@@ -207,4 +226,46 @@ fn evaluate_compares_selection_with_every_single_model() {
     assert_eq!(&rows[0][0], "selected per product");
     assert_eq!(&rows[0][1], "12");
     assert!(rows.len() >= 16, "selection plus every candidate");
+}
+
+#[test]
+fn backtest_detail_all_writes_every_complete_model() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    // One product keeps the run short; every origin of every complete model.
+    let text = std::fs::read_to_string(&data).unwrap();
+    let mut lines = text.lines();
+    let header = lines.next().unwrap();
+    let products: BTreeSet<&str> = text
+        .lines()
+        .skip(1)
+        .filter_map(|l| l.split(',').next())
+        .take(1)
+        .collect();
+    let keep: Vec<&str> = lines
+        .filter(|l| products.iter().any(|p| l.starts_with(p)))
+        .collect();
+    std::fs::write(
+        dir.path().join("one.csv"),
+        format!("{header}\n{}\n", keep.join("\n")),
+    )
+    .unwrap();
+    let o = provisio(
+        dir.path(),
+        &[
+            "backtest",
+            "one.csv",
+            "--out",
+            "out",
+            "--backtest-detail",
+            "all",
+        ],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let out = dir.path().join("out");
+    let (_, scores) = read(&out, "scores.csv");
+    let (_, bt) = read(&out, "backtest.csv");
+    let complete = scores.iter().filter(|r| &r[2] == "complete").count();
+    assert!(complete >= 10, "{complete}");
+    assert_eq!(bt.len(), complete * 144);
 }

@@ -22,6 +22,12 @@ enum ScoreArg {
     Rmse,
 }
 
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+enum DetailArg {
+    Chosen,
+    All,
+}
+
 /// Options of the evaluation, shared by `forecast` and `backtest`.
 #[derive(Args, Debug, Clone)]
 pub struct EvalArgs {
@@ -38,8 +44,11 @@ pub struct EvalArgs {
     #[arg(long, value_enum, default_value_t = ScoreArg::Mape)]
     select_by: ScoreArg,
     /// Relative gap to the best score counted as a near-tie (then the simpler model or the combination wins).
-    #[arg(long, default_value_t = 0.02, value_name = "SHARE")]
+    #[arg(long, default_value_t = 0.10, value_name = "SHARE")]
     tie_margin: f64,
+    /// Backtest forecasts written to backtest.csv: `chosen` (chosen model, runner-up, combination) or `all` models.
+    #[arg(long, value_enum, default_value_t = DetailArg::Chosen)]
+    backtest_detail: DetailArg,
     /// CSV of pinned models: columns product, model.
     #[arg(long, value_name = "FILE")]
     pin: Option<PathBuf>,
@@ -95,6 +104,10 @@ fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
             tie_margin: eval.tie_margin,
         },
         horizon,
+        backtest_detail: match eval.backtest_detail {
+            DetailArg::Chosen => provisio::pipeline::BacktestDetail::Chosen,
+            DetailArg::All => provisio::pipeline::BacktestDetail::All,
+        },
     }
 }
 
@@ -271,6 +284,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     output::write_forecast(&a.out.join("forecast.csv"), &results)?;
     output::write_selection(&a.out.join("selection.csv"), &results)?;
     output::write_scores(&a.out.join("scores.csv"), &results)?;
+    output::write_scores_by_horizon(&a.out.join("scores_by_horizon.csv"), &results)?;
     output::write_backtest(&a.out.join("backtest.csv"), &results, &starts)?;
     let (by_rule, mut warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
@@ -296,7 +310,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     println!(
-        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         results.len(),
         a.horizon,
         secs,
@@ -319,10 +333,11 @@ pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
             .map(|s| (s.product.clone(), s.start))
             .collect();
         output::write_scores(&out.join("scores.csv"), &results)?;
+        output::write_scores_by_horizon(&out.join("scores_by_horizon.csv"), &results)?;
         output::write_backtest(&out.join("backtest.csv"), &results, &starts)?;
         output::write_selection(&out.join("selection.csv"), &results)?;
         println!(
-            "wrote scores.csv, backtest.csv, selection.csv in {}",
+            "wrote scores.csv, scores_by_horizon.csv, backtest.csv, selection.csv in {}",
             out.display()
         );
     }
@@ -360,6 +375,9 @@ struct Tally {
     abs_err: f64,
     actual: f64,
     signed: f64,
+    mapes: Vec<f64>,
+    mase_sum: f64,
+    mase_n: usize,
 }
 
 impl Tally {
@@ -372,13 +390,25 @@ impl Tally {
             abs_err: 0.0,
             actual: 0.0,
             signed: 0.0,
+            mapes: Vec::new(),
+            mase_sum: 0.0,
+            mase_n: 0,
         }
     }
-    fn add(&mut self, a: &[f64], f: &[f64]) {
+    /// Adds one product: hidden actuals, forecasts, and the MASE scale of
+    /// its training months.
+    fn add(&mut self, a: &[f64], f: &[f64], scale: Option<f64>) {
         self.products += 1;
         if let (Some(m), _) = provisio::metrics::mape(a, f) {
             self.mape_sum += m;
             self.mape_n += 1;
+            self.mapes.push(m);
+        }
+        if let Some(s) = scale {
+            let mae =
+                a.iter().zip(f).map(|(x, y)| (y - x).abs()).sum::<f64>() / a.len().max(1) as f64;
+            self.mase_sum += mae / s;
+            self.mase_n += 1;
         }
         for (x, y) in a.iter().zip(f) {
             self.abs_err += (y - x).abs();
@@ -388,6 +418,21 @@ impl Tally {
     }
     fn mape(&self) -> Option<f64> {
         (self.mape_n > 0).then(|| self.mape_sum / self.mape_n as f64)
+    }
+    fn median_mape(&self) -> Option<f64> {
+        let mut v = self.mapes.clone();
+        v.sort_by(f64::total_cmp);
+        let n = v.len();
+        (n > 0).then(|| {
+            if n % 2 == 1 {
+                v[n / 2]
+            } else {
+                0.5 * (v[n / 2 - 1] + v[n / 2])
+            }
+        })
+    }
+    fn mase(&self) -> Option<f64> {
+        (self.mase_n > 0).then(|| self.mase_sum / self.mase_n as f64)
     }
     fn wape(&self) -> Option<f64> {
         (self.actual > 0.0).then(|| 100.0 * self.abs_err / self.actual)
@@ -424,10 +469,10 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
         .map(|(n, _)| Tally::new(n))
         .collect();
     for r in &results {
-        selected.add(&r.actual, &r.selected_forecast);
+        selected.add(&r.actual, &r.selected_forecast, r.scale);
         for (t, (_, f)) in singles.iter_mut().zip(&r.single) {
             if let Some(f) = f {
-                t.add(&r.actual, f);
+                t.add(&r.actual, f, r.scale);
             }
         }
     }
@@ -439,22 +484,25 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
             .total_cmp(&y.mape().unwrap_or(f64::MAX))
     });
     let fmt = |v: Option<f64>| v.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into());
+    let fmt3 = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_else(|| "-".into());
     println!(
         "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
         a.holdout
     );
     println!(
-        "{:<36} {:>9} {:>10} {:>10} {:>9}",
-        "method", "products", "mean MAPE", "WAPE", "bias"
+        "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
+        "method", "products", "mean MAPE", "median MAPE", "mean MASE", "WAPE", "bias"
     );
     let mut rows = vec![&selected];
     rows.extend(all.iter().copied());
     for t in &rows {
         println!(
-            "{:<36} {:>9} {:>10} {:>10} {:>9}",
+            "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
             t.name,
             t.products,
             fmt(t.mape()),
+            fmt(t.median_mape()),
+            fmt3(t.mase()),
             fmt(t.wape()),
             fmt(t.bias())
         );
@@ -465,6 +513,18 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
             best.name,
             fmt(best.mape()),
             fmt(selected.mape())
+        );
+    }
+    let best_mase = all
+        .iter()
+        .filter_map(|t| t.mase().map(|m| (m, t)))
+        .min_by(|x, y| x.0.total_cmp(&y.0));
+    if let Some((m, t)) = best_mase {
+        println!(
+            "best single model by mean MASE: {} ({}); selection: {}",
+            t.name,
+            fmt3(Some(m)),
+            fmt3(selected.mase())
         );
     }
     println!(
@@ -479,6 +539,8 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
                 "method",
                 "products",
                 "mean_mape_pct",
+                "median_mape_pct",
+                "mean_mase",
                 "wape_pct",
                 "bias_pct",
             ])
@@ -488,6 +550,8 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
                     t.name.clone(),
                     t.products.to_string(),
                     fmt(t.mape()),
+                    fmt(t.median_mape()),
+                    fmt3(t.mase()),
                     fmt(t.wape()),
                     fmt(t.bias()),
                 ])

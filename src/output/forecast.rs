@@ -140,20 +140,43 @@ pub fn write_scores(path: &Path, results: &[ProductForecast]) -> Result<()> {
         header.push("note");
         c.write_record(&header).map_err(io_err)?;
         for r in results {
-            for run in &r.backtest.runs {
-                let (status, note) = match &run.status {
-                    RunStatus::Complete => ("complete", String::new()),
-                    RunStatus::NotApplicable(why) => ("not applicable", why.clone()),
-                    RunStatus::Incomplete { failed, first } => {
-                        ("incomplete", format!("{failed} origin(s) missing: {first}"))
-                    }
-                };
-                let scores = (!matches!(run.status, RunStatus::NotApplicable(_)))
-                    .then(|| r.backtest.scores(run));
-                let mut row = vec![r.product.clone(), run.model.clone(), status.to_string()];
-                row.extend(score_cells(scores.as_ref()));
+            for ms in &r.scores {
+                let (status, note) = status_note(&ms.status);
+                let mut row = vec![r.product.clone(), ms.model.clone(), status.to_string()];
+                row.extend(score_cells(ms.overall.as_ref()));
                 row.push(note);
                 c.write_record(&row).map_err(io_err)?;
+            }
+        }
+        c.flush()
+    })
+}
+
+fn status_note(status: &RunStatus) -> (&'static str, String) {
+    match status {
+        RunStatus::Complete => ("complete", String::new()),
+        RunStatus::NotApplicable(why) => ("not applicable", why.clone()),
+        RunStatus::Incomplete { failed, first } => {
+            ("incomplete", format!("{failed} origin(s) missing: {first}"))
+        }
+    }
+}
+
+/// `scores_by_horizon.csv`: product × model × months ahead, every score,
+/// for the models that forecast at some origin.
+pub fn write_scores_by_horizon(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let mut header = vec!["product", "model", "horizon"];
+        header.extend(SCORE_HEADER);
+        c.write_record(&header).map_err(io_err)?;
+        for r in results {
+            for ms in &r.scores {
+                for (h, sc) in ms.by_horizon.iter().enumerate() {
+                    let mut row = vec![r.product.clone(), ms.model.clone(), (h + 1).to_string()];
+                    row.extend(score_cells(Some(sc)));
+                    c.write_record(&row).map_err(io_err)?;
+                }
             }
         }
         c.flush()
@@ -174,8 +197,10 @@ pub fn write_backtest(
             "upper_80", "lower_95", "upper_95", "scored",
         ])
         .map_err(io_err)?;
+        let starts: std::collections::HashMap<&str, crate::calendar::YearMonth> =
+            starts.iter().map(|(p, m)| (p.as_str(), *m)).collect();
         for r in results {
-            let Some(start) = starts.iter().find(|s| s.0 == r.product).map(|s| s.1) else {
+            let Some(&start) = starts.get(r.product.as_str()) else {
                 continue;
             };
             for run in &r.backtest.runs {

@@ -4,7 +4,10 @@
 mod forecast;
 mod tables;
 
-pub use forecast::{write_backtest, write_forecast, write_json, write_scores, write_selection};
+pub use forecast::{
+    write_backtest, write_forecast, write_json, write_scores, write_scores_by_horizon,
+    write_selection,
+};
 
 pub use tables::{
     write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,
@@ -64,13 +67,18 @@ pub fn fmt_num(v: f64) -> String {
     if !v.is_finite() {
         return String::new();
     }
-    let s = format!("{v:.4}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" {
-        "0".to_string()
-    } else {
-        s.to_string()
+    // Rounded to 4 decimals, then the shortest text that reads back as the
+    // same number: much faster than fixed-precision formatting, and the
+    // same digits.
+    let r = (v * 1e4).round() / 1e4;
+    if r == 0.0 {
+        return "0".to_string();
     }
+    if r.abs() >= 1e15 {
+        // Beyond exact 4-decimal rounding; plain integer digits.
+        return format!("{r:.0}");
+    }
+    format!("{r}")
 }
 
 /// Formats an optional quantity; empty when missing.
@@ -121,5 +129,9 @@ mod tests {
         assert_eq!(fmt_num(12.5), "12.5");
         assert_eq!(fmt_num(1.0 / 3.0), "0.3333");
         assert_eq!(fmt_num(-0.00001), "0");
+        assert_eq!(fmt_num(123.456_700_000_000_01), "123.4567");
+        assert_eq!(fmt_num(-2.5e-3), "-0.0025");
+        assert_eq!(fmt_num(1234567.891_26), "1234567.8913");
+        assert_eq!(fmt_num(f64::NAN), "");
     }
 }
