@@ -149,10 +149,30 @@ fn load(
     read: &ReadArgs,
     clean: &CleanArgs,
 ) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
+    load_until(data, read, clean, None)
+}
+
+/// [`load`], keeping only rows dated up to `until` when given.
+fn load_until(
+    data: &PathBuf,
+    read: &ReadArgs,
+    clean: &CleanArgs,
+    until: Option<provisio::calendar::YearMonth>,
+) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
     let settings = clean.settings().check()?;
     let bytes = std::fs::read(data)
         .map_err(|e| anyhow::anyhow!("{}: cannot read input: {e}", data.display()))?;
-    let ds = provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    let mut ds =
+        provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    if let Some(last) = until {
+        ds.keep_until(last);
+        if ds.rows.is_empty() {
+            anyhow::bail!(
+                "{}: no accepted row is dated {last} or earlier (--until {last}); the first month in the file is later",
+                data.display()
+            );
+        }
+    }
     let cleaned = provisio::clean::clean(&ds, &settings);
     if cleaned.series.is_empty() {
         let why = cleaned

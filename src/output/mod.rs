@@ -4,7 +4,10 @@
 mod forecast;
 mod tables;
 
-pub use forecast::{write_backtest, write_forecast, write_json, write_scores, write_selection};
+pub use forecast::{
+    write_backtest, write_forecast, write_json, write_scores, write_selection,
+    FORECAST_FORMAT_VERSION,
+};
 
 pub use tables::{
     write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,
