@@ -31,6 +31,7 @@ pub mod output;
 pub mod pipeline;
 pub mod project;
 pub mod quality;
+pub mod review;
 pub mod select;
 
 pub use error::{Error, Result};
