@@ -5,6 +5,7 @@ mod forecast;
 mod generate;
 mod inspect;
 mod models;
+mod review;
 
 use std::path::PathBuf;
 
@@ -46,6 +47,11 @@ enum Command {
         after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
     )]
     Clean(clean::CleanCmdArgs),
+    /// Score past forecasts against the consumption reported since: accuracy, bias, coverage, tracking signal, value added over naive, audit of adjustments; several past directories are compared as vintages.
+    #[command(
+        after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
+    )]
+    Review(review::ReviewArgs),
     /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
     #[command(
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
@@ -131,6 +137,7 @@ pub fn run() -> i32 {
         Command::Evaluate(a) => forecast::run_evaluate(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
+        Command::Review(a) => review::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
     };

@@ -315,6 +315,92 @@ pub struct ProductReview {
     pub period_audit: Audit,
 }
 
+impl ProductReview {
+    /// What a reviewer should look at, in plain words (empty when nothing
+    /// stands out): a tracking signal beyond ±4, an interval covering less
+    /// than nominal beyond chance, no value added over a naive forecast,
+    /// accuracy far from the backtest's promise, heavy adjustment of the
+    /// data, and months left out.
+    pub fn findings(&self, adjustment_limit: f64) -> Vec<String> {
+        let s = &self.scores;
+        let mut out = Vec::new();
+        if s.months == 0 {
+            out.push(format!(
+                "no month could be scored: all {} month(s) with actuals are mostly imputed",
+                self.months.len()
+            ));
+        }
+        if let Some(t) = s.tracking.filter(|t| t.flagged()) {
+            out.push(format!(
+                "tracking signal {:+.1} is beyond ±{}{}: persistent {}",
+                t.value,
+                metrics::TRACKING_SIGNAL_LIMIT,
+                s.tracking_breach
+                    .map(|m| format!(" (from {m})"))
+                    .unwrap_or_default(),
+                if t.value > 0.0 {
+                    "over-forecast"
+                } else {
+                    "under-forecast"
+                }
+            ));
+        }
+        for (label, c, p) in [
+            ("80%", s.coverage80, s.coverage80_p),
+            ("95%", s.coverage95, s.coverage95_p),
+        ] {
+            if let (Some(c), Some(p)) = (c, p) {
+                if p < COVERAGE_TEST_LEVEL {
+                    out.push(format!(
+                        "the {label} range held {c:.0}% of the actuals, short of {label} beyond chance (binomial p = {p:.3})"
+                    ));
+                }
+            }
+        }
+        for (what, fva) in [
+            ("naive (same as the last month)", s.fva_naive()),
+            (
+                "seasonal naive (same month a year before)",
+                s.fva_seasonal_naive(),
+            ),
+        ] {
+            if let Some(v) = fva.filter(|v| *v < 0.0) {
+                out.push(format!(
+                    "did worse than {what} made at the same time, by {:.1} WAPE points",
+                    -v
+                ));
+            }
+        }
+        if let (Some(m), Some(p)) = (s.mape, self.promised.mape) {
+            if m > 2.0 * p && m - p > 5.0 {
+                out.push(format!(
+                    "MAPE {m:.1}% is over twice the {p:.1}% the backtest promised"
+                ));
+            }
+        }
+        for (window, a) in [
+            ("history the forecast was made from", &self.history_audit),
+            ("review months", &self.period_audit),
+        ] {
+            if a.flagged {
+                out.push(format!(
+                    "{window}: {:.1}% of the volume is not as reported (limit {:.0}%): {}",
+                    100.0 * a.share.unwrap_or(0.0),
+                    100.0 * adjustment_limit,
+                    a.responsible()
+                ));
+            }
+        }
+        if s.left_out > 0 && s.months > 0 {
+            out.push(format!(
+                "{} month(s) with mostly imputed actuals left out of scoring",
+                s.left_out
+            ));
+        }
+        out
+    }
+}
+
 /// A product of a past forecast that could not be reviewed, with the reason.
 #[derive(Debug, Clone, PartialEq)]
 pub struct NotReviewed {

@@ -218,3 +218,29 @@ fn settings_are_checked() {
         assert!(e.to_string().contains("adjustment-limit"), "{e}");
     }
 }
+
+#[test]
+fn findings_name_what_stands_out() {
+    // Five months all under-forecast by 20: TS = -5 from the fifth month;
+    // the ±1 band misses every actual.
+    let mut p = past("2024-01", vec![100.0; 12], vec![80.0; 5], 1.0);
+    p.promised.mape = Some(5.0);
+    p.history_reported = vec![Some(70.0); 12];
+    p.history_changes = [("reporting-scaled".to_string(), 360.0)].into();
+    let s = series("2025-01", vec![100.0; 5]);
+    let r = review_product(&p, 0, &s, &[true; 5], &[], &settings()).unwrap();
+    let f = r.findings(0.2).join("\n");
+    assert!(
+        f.contains("tracking signal -5.0 is beyond ±4 (from 2025-05): persistent under-forecast"),
+        "{f}"
+    );
+    assert!(f.contains("the 80% range held 0%"), "{f}");
+    assert!(f.contains("did worse than naive"), "{f}");
+    assert!(f.contains("MAPE 20.0% is over twice the 5.0%"), "{f}");
+    assert!(f.contains("history the forecast was made from: 30.0% of the volume is not as reported (limit 20%): reporting-scaled +30.0%"), "{f}");
+    // A forecast on target has nothing to report.
+    let good = past("2024-01", vec![90.0; 12], vec![100.0, 101.0, 99.0], 5.0);
+    let s = series("2025-01", vec![100.0; 3]);
+    let r = review_product(&good, 0, &s, &[true; 3], &[], &settings()).unwrap();
+    assert!(r.findings(0.2).is_empty(), "{:?}", r.findings(0.2));
+}
