@@ -167,8 +167,7 @@ pub fn read_past(dir: &Path) -> Result<PastForecast> {
             0,
             None,
             format!(
-                "missing ({} of the directory's required files missing: {}); {VALID_DIR}",
-                missing.len(),
+                "missing (the directory lacks: {}); {VALID_DIR}",
                 missing.join(", ")
             ),
         ));
