@@ -5,6 +5,7 @@ mod forecast;
 mod generate;
 mod inspect;
 mod models;
+mod report;
 
 use std::path::PathBuf;
 
@@ -46,6 +47,9 @@ enum Command {
         after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
     )]
     Clean(clean::CleanCmdArgs),
+    /// Rebuild the charts and the one-file HTML report from a forecast's output directory.
+    #[command(after_help = "Example:\n  provisio report demo-output")]
+    Report(report::ReportArgs),
     /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
     #[command(
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
@@ -131,6 +135,7 @@ pub fn run() -> i32 {
         Command::Evaluate(a) => forecast::run_evaluate(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
+        Command::Report(a) => report::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
     };
