@@ -11,6 +11,7 @@
 
 mod overview;
 mod product;
+mod text;
 
 use std::path::Path;
 
@@ -230,12 +231,12 @@ where
 /// Draws onto an RGB bitmap and writes it as a PNG file (atomically).
 fn render_png<F>(path: &Path, what: &str, size: (u32, u32), draw: F) -> Result<()>
 where
-    F: FnOnce(&DrawingArea<BitMapBackend<'_>, plotters::coord::Shift>) -> Drawn,
+    F: FnOnce(&DrawingArea<text::PngCanvas<'_>, plotters::coord::Shift>) -> Drawn,
 {
     register_font()?;
     let mut buf = vec![255u8; size.0 as usize * size.1 as usize * 3];
     {
-        let root = BitMapBackend::with_buffer(&mut buf, size).into_drawing_area();
+        let root = text::PngCanvas(BitMapBackend::with_buffer(&mut buf, size)).into_drawing_area();
         draw(&root).map_err(|message| Error::Chart {
             what: what.to_string(),
             message,
@@ -262,7 +263,6 @@ where
 #[derive(Clone, Copy)]
 enum Glyph {
     Line(RGBColor, u32),
-    Dashed(RGBColor),
     Band(RGBColor, f64),
     Dot(RGBColor),
     Ring(RGBColor),
@@ -278,7 +278,7 @@ fn draw_legend<DB: DrawingBackend>(
     (x0, y0): (i32, i32),
     width: i32,
 ) -> Drawn {
-    let font = (FONT, 13).into_font().color(&palette::INK);
+    let font = (FONT, 16).into_font().color(&palette::INK);
     let (mut x, mut y) = (x0, y0);
     for (glyph, label) in items {
         let (tw, _) = area.estimate_text_size(label, &font).msg()?;
@@ -295,15 +295,6 @@ fn draw_legend<DB: DrawingBackend>(
                     c.stroke_width(wd),
                 ))
                 .msg()?;
-            }
-            Glyph::Dashed(c) => {
-                for k in 0..3 {
-                    area.draw(&PathElement::new(
-                        vec![(x + k * 8, cy), (x + k * 8 + 4, cy)],
-                        c.stroke_width(2),
-                    ))
-                    .msg()?;
-                }
             }
             Glyph::Band(c, a) => {
                 area.draw(&Rectangle::new(

@@ -88,13 +88,13 @@ fn draw<DB: DrawingBackend>(
     head.draw(&Text::new(
         title,
         (16, 10),
-        (FONT, 20).into_font().color(&INK),
+        (FONT, 25).into_font().color(&INK),
     ))
     .msg()?;
     head.draw(&Text::new(
         "MAPE: mean absolute percentage error over every origin and horizon. Bias: total over- or under-forecast, in % of the actual total.",
         (16, 40),
-        (FONT, 13).into_font().color(&MUTED),
+        (FONT, 16).into_font().color(&MUTED),
     ))
     .msg()?;
     draw_legend(
@@ -136,9 +136,10 @@ fn draw<DB: DrawingBackend>(
         .disable_y_mesh()
         .bold_line_style(GRID.stroke_width(1))
         .light_line_style(GRID.mix(0.4))
+        .x_max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 12).into_font().color(&INK))
-        .axis_desc_style((FONT, 13).into_font().color(&MUTED))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_labels(6)
         .x_label_formatter(&|v| format!("{v:.0}%"))
         .y_label_formatter(&|v| {
@@ -150,7 +151,7 @@ fn draw<DB: DrawingBackend>(
         .x_desc("MAPE of the chosen model (%)")
         .draw()
         .msg()?;
-    let label_font = (FONT, 11).into_font().color(&INK);
+    let label_font = (FONT, 14).into_font().color(&INK);
     for (i, r) in rows.iter().enumerate() {
         match r.mape.filter(|v| v.is_finite()) {
             Some(m) => {
@@ -175,7 +176,7 @@ fn draw<DB: DrawingBackend>(
                 left.draw(&Text::new(
                     "no MAPE (not backtested, or zero actuals)",
                     (px - ox + 5, py - oy - 6),
-                    (FONT, 11).into_font().color(&MUTED),
+                    (FONT, 14).into_font().color(&MUTED),
                 ))
                 .msg()?;
             }
@@ -201,9 +202,10 @@ fn draw<DB: DrawingBackend>(
         .disable_y_mesh()
         .bold_line_style(GRID.stroke_width(1))
         .light_line_style(GRID.mix(0.4))
+        .x_max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 12).into_font().color(&INK))
-        .axis_desc_style((FONT, 13).into_font().color(&MUTED))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_labels(5)
         .x_label_formatter(&|v| format!("{v:+.0}%"))
         .x_desc("bias of the chosen model (%)")
@@ -228,7 +230,12 @@ fn draw<DB: DrawingBackend>(
             .msg()?;
         let (px, py) = chart.backend_coord(&(b, y(i)));
         let (ox, oy) = right.get_base_pixel();
-        let text = format!("{b:+.1}%");
+        // "-0.0%" reads as a sign that is not there.
+        let text = if b.abs() < 0.05 {
+            "0.0%".to_string()
+        } else {
+            format!("{b:+.1}%")
+        };
         let (tw, _) = right.estimate_text_size(&text, &label_font).msg()?;
         let tx = if b >= 0.0 {
             px - ox + 5

@@ -170,13 +170,13 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
     head.draw(&Text::new(
         cut(&c.title, 90),
         (16, 10),
-        (FONT, 22).into_font().color(&INK),
+        (FONT, 27).into_font().color(&INK),
     ))
     .msg()?;
     head.draw(&Text::new(
         cut(&c.subtitle, 150),
         (16, 38),
-        (FONT, 13).into_font().color(&MUTED),
+        (FONT, 16).into_font().color(&MUTED),
     ))
     .msg()?;
 
@@ -189,7 +189,7 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
         plot.draw(&Text::new(
             "no data to draw",
             (16, 20),
-            (FONT, 16).into_font().color(&MUTED),
+            (FONT, 19).into_font().color(&MUTED),
         ))
         .msg()?;
         return Ok(());
@@ -228,9 +228,10 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
         .configure_mesh()
         .bold_line_style(GRID.stroke_width(1))
         .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 12).into_font().color(&INK))
-        .axis_desc_style((FONT, 13).into_font().color(&MUTED))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
         .y_label_formatter(&|v| fmt_quantity(*v))
         .y_labels(6)
@@ -373,10 +374,9 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
         plot.draw(&Text::new(
             label,
             (px - ox + 6, py - oy + 4),
-            (FONT, 12).into_font().color(&MUTED),
+            (FONT, 15).into_font().color(&MUTED),
         ))
         .msg()?;
-        items.push((Glyph::Dashed(MUTED), "forecast start".to_string()));
     }
     draw_legend(&head, &items, (16, 62), WIDTH as i32 - 32)
 }
@@ -397,14 +397,14 @@ fn draw_backtest<DB: DrawingBackend>(
             150,
         ),
         (16, 6),
-        (FONT, 15).into_font().color(&INK),
+        (FONT, 19).into_font().color(&INK),
     ))
     .msg()?;
     let Some(first_origin) = bt.paths.iter().map(|p| p.origin).min() else {
         head.draw(&Text::new(
             "no backtest: the series is too short for any origin",
             (16, 30),
-            (FONT, 13).into_font().color(&MUTED),
+            (FONT, 16).into_font().color(&MUTED),
         ))
         .msg()?;
         return Ok(());
@@ -449,9 +449,10 @@ fn draw_backtest<DB: DrawingBackend>(
         .configure_mesh()
         .bold_line_style(GRID.stroke_width(1))
         .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
         .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 12).into_font().color(&INK))
-        .axis_desc_style((FONT, 13).into_font().color(&MUTED))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
         .y_label_formatter(&|v| fmt_quantity(*v))
         .y_labels(5)

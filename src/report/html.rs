@@ -99,7 +99,9 @@ figure.chart figcaption{font-size:13px;color:var(--muted);padding:6px 12px;borde
 details{margin:8px 0}
 summary{cursor:pointer;font-weight:600}
 ul.warn{margin:6px 0;padding-left:20px}
-ul.warn li{color:var(--bad)}
+ul.warn li{list-style:none;position:relative}
+ul.warn li::before{content:"!";position:absolute;left:-20px;top:2px;width:14px;height:14px;border-radius:50%;
+background:var(--care);color:#fff;font-size:10px;font-weight:700;text-align:center;line-height:14px}
 p.note{color:var(--muted);font-size:13.5px}
 footer{max-width:1240px;margin:0 auto;padding:18px 20px 40px;color:var(--muted);font-size:13px;border-top:1px solid var(--line)}
 @media print{nav.jump{display:none}section.product{break-inside:avoid-page}}

@@ -139,7 +139,11 @@ fn pct(v: f64) -> String {
 }
 
 fn signed_pct(v: f64) -> String {
-    format!("{v:+.1}%")
+    if v.abs() < 0.05 {
+        "0.0%".into()
+    } else {
+        format!("{v:+.1}%")
+    }
 }
 
 fn verdict_class(v: Option<&str>) -> &'static str {
