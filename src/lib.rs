@@ -21,6 +21,7 @@
 
 pub mod backtest;
 pub mod calendar;
+pub mod chart;
 pub mod clean;
 pub mod data;
 pub mod error;
@@ -31,6 +32,7 @@ pub mod output;
 pub mod pipeline;
 pub mod project;
 pub mod quality;
+pub mod report;
 pub mod review;
 pub mod select;
 

@@ -304,6 +304,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a.out.join("manifest.json"), &manifest)?;
+    let report = provisio::report::write_report(&a.out)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     println!(
@@ -312,6 +313,10 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         a.horizon,
         secs,
         a.out.display()
+    );
+    println!(
+        "wrote report.html and {} chart files (charts/)",
+        report.charts.len()
     );
     println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())

@@ -5,6 +5,7 @@ mod forecast;
 mod generate;
 mod inspect;
 mod models;
+mod report;
 mod review;
 
 use std::path::PathBuf;
@@ -47,6 +48,9 @@ enum Command {
         after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
     )]
     Clean(clean::CleanCmdArgs),
+    /// Rebuild the charts and the one-file HTML report from a forecast's output directory.
+    #[command(after_help = "Example:\n  provisio report demo-output")]
+    Report(report::ReportArgs),
     /// Score past forecasts against the consumption reported since: accuracy, bias, coverage, tracking signal, value added over naive, audit of adjustments; several past directories are compared as vintages.
     #[command(
         after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
@@ -137,6 +141,7 @@ pub fn run() -> i32 {
         Command::Evaluate(a) => forecast::run_evaluate(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
+        Command::Report(a) => report::run(a),
         Command::Review(a) => review::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
