@@ -97,13 +97,13 @@ fn num(s: &str) -> f64 {
         .unwrap_or_else(|_| panic!("'{s}' is not a number"))
 }
 
-/// Copies a directory's files, leaving out `skip`.
+/// Copies a directory's files (not its subdirectories), leaving out `skip`.
 fn copy_dir(from: &Path, to: &Path, skip: &[&str]) {
     std::fs::create_dir_all(to).unwrap();
     for e in std::fs::read_dir(from).unwrap() {
         let e = e.unwrap();
         let name = e.file_name().to_string_lossy().to_string();
-        if !skip.contains(&name.as_str()) {
+        if e.path().is_file() && !skip.contains(&name.as_str()) {
             std::fs::copy(e.path(), to.join(&name)).unwrap();
         }
     }
@@ -124,9 +124,33 @@ fn review_demo_last_twelve_months() {
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     assert!(out.contains("Decision support only"), "{out}");
-    for f in ["review.csv", "review_months.csv", "review.json"] {
+    for f in [
+        "review.csv",
+        "review_months.csv",
+        "review.json",
+        "review.html",
+    ] {
         assert!(w.path("rev").join(f).exists(), "{f} missing");
     }
+    let charts: Vec<String> = std::fs::read_dir(w.path("rev/charts"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
+    assert_eq!(
+        charts.len(),
+        2 * 12,
+        "a PNG and an SVG per product: {charts:?}"
+    );
+    assert!(charts.iter().all(|c| c.starts_with("review-")));
+    let page = std::fs::read_to_string(w.path("rev/review.html")).unwrap();
+    assert!(page.contains("decision support, not decisions"));
+    assert_eq!(
+        page.matches("<svg").count(),
+        12,
+        "one inline chart per product"
+    );
+    assert!(page.contains("HIV rapid test kit (newly scaled up)"));
+    assert!(page.contains("persistent under-forecast"));
     let rows = w.read_csv("rev/review.csv");
     assert_eq!(rows.len(), 12, "one row per product");
     for r in &rows {
@@ -318,6 +342,23 @@ fn two_vintages_are_compared() {
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(w.path("rev/review.json")).unwrap()).unwrap();
     assert_eq!(json["vintage_comparisons"].as_array().unwrap().len(), 12);
+    let charts = std::fs::read_dir(w.path("rev/charts")).unwrap().count();
+    assert_eq!(charts, 2 * 24, "a chart per product and vintage");
+    let page = std::fs::read_to_string(w.path("rev/review.html")).unwrap();
+    assert!(page.contains("id=\"vintages\""));
+
+    // The same directory twice is refused.
+    let o = w.run(&[
+        "review",
+        a.to_str().unwrap(),
+        a.to_str().unwrap(),
+        "--actuals",
+        &demo(),
+        "--out",
+        "twice",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(text(&o).contains("given twice"), "{}", text(&o));
 }
 
 /// Runs a review of `past` against the demo and returns the refusal text.

@@ -38,7 +38,17 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
     }
     .check()?;
     let mut pasts: Vec<PastForecast> = Vec::new();
-    for dir in &a.past {
+    for (i, dir) in a.past.iter().enumerate() {
+        let same = |p: &PathBuf| match (p.canonicalize(), dir.canonicalize()) {
+            (Ok(x), Ok(y)) => x == y,
+            _ => p == dir,
+        };
+        if a.past[..i].iter().any(same) {
+            anyhow::bail!(
+                "{}: given twice; give each past forecast directory once",
+                dir.display()
+            );
+        }
         pasts.push(review::read_past(dir)?);
     }
     let bytes = std::fs::read(&a.actuals)
@@ -120,14 +130,32 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         &a.out.join("review.json"),
         &output::review_json(&result, limit, run),
     )?;
+    let ordered: Vec<&PastForecast> = result
+        .vintages
+        .iter()
+        .filter_map(|v| pasts.iter().find(|p| p.name == v.name))
+        .collect();
+    let sha = output::sha256_hex(&bytes);
+    let tool = format!("provisio {}", env!("CARGO_PKG_VERSION"));
+    let page = provisio::report::review::ReviewPage {
+        review: &result,
+        pasts: &ordered,
+        adjustment_limit: limit,
+        actuals: &source,
+        actuals_sha256: &sha,
+        tool: &tool,
+        warnings: &warnings,
+    };
+    let written = provisio::report::review::write_review_report(&a.out, &page)?;
     print_summary(&result, limit);
     for w in &warnings {
         eprintln!("warning: {w}");
     }
     println!(
-        "reviewed {} product forecast(s) from {} vintage(s); wrote review.csv, review_months.csv, review.json in {}",
+        "reviewed {} product forecast(s) from {} vintage(s); wrote review.csv, review_months.csv, review.json, review.html and {} chart files (charts/) in {}",
         result.products.len(),
         result.vintages.len(),
+        written.charts.len(),
         a.out.display()
     );
     println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");

@@ -9,6 +9,7 @@
 
 pub mod html;
 mod read;
+pub mod review;
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;

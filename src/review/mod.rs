@@ -35,7 +35,7 @@ pub use past::{read_past, PastForecast, PastManifest, PastProduct, Promised};
 use std::collections::BTreeMap;
 
 use crate::calendar::YearMonth;
-use crate::clean::{Adjustment, CleanSeries, Cleaned};
+use crate::clean::{Adjustment, CleanSeries, Cleaned, MonthStatus};
 use crate::data::{Dataset, ReadOptions};
 use crate::error::{Error, Result};
 use crate::metrics::{self, TrackingSignal};
@@ -124,8 +124,10 @@ pub struct MonthReview {
     pub actual: f64,
     /// Reported actual (sum over sites), `None` when nothing was reported.
     pub reported: Option<f64>,
-    /// Provenance of the cleaned actual (`reported`, `adjusted`, ...).
-    pub status: &'static str,
+    /// Provenance of the cleaned actual.
+    pub status: MonthStatus,
+    /// Whether cleaning flagged the actual as an outlier.
+    pub outlier: bool,
     /// Share of the cleaned actual that was filled or imputed.
     pub imputed_share: f64,
     /// Whether the month counts in the scores.
@@ -642,7 +644,8 @@ pub fn review_product(
             horizon: k + 1,
             actual: series.values[t],
             reported: series.reported[t],
-            status: series.status[t].name(),
+            status: series.status[t],
+            outlier: series.outlier.get(t).copied().unwrap_or(false),
             imputed_share: series.imputed_share[t],
             scored: scorable.get(t).copied().unwrap_or(false),
             forecast: f,

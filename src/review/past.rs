@@ -7,7 +7,7 @@ use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 
 use crate::calendar::YearMonth;
-use crate::clean::CleanSettings;
+use crate::clean::{CleanSettings, MonthStatus};
 use crate::data::DuplicatePolicy;
 use crate::error::{Error, Result};
 use crate::output::FORECAST_FORMAT_VERSION;
@@ -95,6 +95,10 @@ pub struct PastProduct {
     pub history: Vec<f64>,
     /// Reported history (sum over sites; `None` = nothing reported).
     pub history_reported: Vec<Option<f64>>,
+    /// Provenance of each history month.
+    pub history_status: Vec<MonthStatus>,
+    /// History months flagged as outliers.
+    pub history_outlier: Vec<bool>,
     /// Signed change per cleaning rule over the history, from adjustments.csv.
     pub history_changes: BTreeMap<String, f64>,
     /// What the backtest promised.
@@ -180,10 +184,13 @@ pub fn read_past(dir: &Path) -> Result<PastForecast> {
     let mut products = Vec::with_capacity(forecasts.len());
     for (product, f) in forecasts {
         let h = history.remove(&product);
-        let (history_start, history, history_reported) = match h {
-            Some(h) => (h.start, h.cleaned, h.reported),
-            None => (f.start, Vec::new(), Vec::new()),
-        };
+        let h = h.unwrap_or(History {
+            start: f.start,
+            cleaned: Vec::new(),
+            reported: Vec::new(),
+            status: Vec::new(),
+            outlier: Vec::new(),
+        });
         products.push(PastProduct {
             promised: promised.get(&product).cloned().unwrap_or_default(),
             history_changes: changes.remove(&product).unwrap_or_default(),
@@ -194,9 +201,11 @@ pub fn read_past(dir: &Path) -> Result<PastForecast> {
             upper80: f.bounds[1].clone(),
             lower95: f.bounds[2].clone(),
             upper95: f.bounds[3].clone(),
-            history_start,
-            history,
-            history_reported,
+            history_start: h.start,
+            history: h.cleaned,
+            history_reported: h.reported,
+            history_status: h.status,
+            history_outlier: h.outlier,
             product,
         });
     }
@@ -486,10 +495,24 @@ struct History {
     start: YearMonth,
     cleaned: Vec<f64>,
     reported: Vec<Option<f64>>,
+    status: Vec<MonthStatus>,
+    outlier: Vec<bool>,
 }
 
+const STATUSES: [MonthStatus; 4] = [
+    MonthStatus::Reported,
+    MonthStatus::Adjusted,
+    MonthStatus::PartlyFilled,
+    MonthStatus::Imputed,
+];
+
 fn read_cleaned(path: &Path) -> Result<HashMap<String, History>> {
-    let t = Table::open(path, &["product", "month", "reported", "cleaned"])?;
+    let t = Table::open(
+        path,
+        &[
+            "product", "month", "reported", "cleaned", "status", "outlier",
+        ],
+    )?;
     let mut out: HashMap<String, History> = HashMap::new();
     for (line, rec) in &t.records {
         let line = *line;
@@ -497,10 +520,28 @@ fn read_cleaned(path: &Path) -> Result<HashMap<String, History>> {
         let month = t.month(line, rec, "month")?;
         let cleaned = t.required(line, rec, "cleaned")?;
         let reported = t.number(line, rec, "reported")?;
+        let status_name = t.cell(rec, "status");
+        let status = STATUSES
+            .into_iter()
+            .find(|s| s.name() == status_name)
+            .ok_or_else(|| {
+                let valid: Vec<&str> = STATUSES.iter().map(|s| s.name()).collect();
+                input_err(
+                    path,
+                    line,
+                    Some("status"),
+                    format!(
+                        "'{status_name}' is not a month status; valid: {}",
+                        valid.join(", ")
+                    ),
+                )
+            })?;
         let h = out.entry(product.clone()).or_insert_with(|| History {
             start: month,
             cleaned: Vec::new(),
             reported: Vec::new(),
+            status: Vec::new(),
+            outlier: Vec::new(),
         });
         let expected = h.start.plus(h.cleaned.len() as i64);
         if month != expected {
@@ -515,6 +556,8 @@ fn read_cleaned(path: &Path) -> Result<HashMap<String, History>> {
         }
         h.cleaned.push(cleaned);
         h.reported.push(reported);
+        h.status.push(status);
+        h.outlier.push(t.cell(rec, "outlier") == "yes");
     }
     Ok(out)
 }

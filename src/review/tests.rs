@@ -21,6 +21,8 @@ fn past(history_start: &str, history: Vec<f64>, point: Vec<f64>, half80: f64) ->
         point,
         history_start: ym(history_start),
         history_reported: history.iter().map(|&v| Some(v)).collect(),
+        history_status: vec![MonthStatus::Reported; history.len()],
+        history_outlier: vec![false; history.len()],
         history,
         history_changes: BTreeMap::new(),
         promised: Promised::default(),
