@@ -150,7 +150,7 @@ fn review_demo_last_twelve_months() {
         "one inline chart per product"
     );
     assert!(page.contains("HIV rapid test kit (newly scaled up)"));
-    assert!(page.contains("persistent under-forecast"));
+    assert!(page.contains("the errors add up to an under-forecast"));
     let rows = w.read_csv("rev/review.csv");
     assert_eq!(rows.len(), 12, "one row per product");
     for r in &rows {
@@ -221,7 +221,7 @@ fn review_demo_last_twelve_months() {
     }
 
     // The scenario's newly scaled-up HIV test kit grows faster than any
-    // model extrapolates from history: persistently under-forecast.
+    // model extrapolates from history: under-forecast month after month.
     let hiv = rows
         .iter()
         .find(|r| r["product"].starts_with("HIV rapid test kit"))
@@ -229,7 +229,7 @@ fn review_demo_last_twelve_months() {
     assert!(num(&hiv["bias_pct"]) < 0.0, "{hiv:?}");
     assert_eq!(hiv["tracking_flag"], "yes", "{hiv:?}");
     assert!(
-        hiv["findings"].contains("persistent under-forecast"),
+        hiv["findings"].contains("the errors add up to an under-forecast (12 of 12 months under)"),
         "{hiv:?}"
     );
 

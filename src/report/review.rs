@@ -324,7 +324,7 @@ fn reading(b: &mut String, limit: f64) {
 <li><strong>MAPE, WAPE</strong>: average error of the past forecast over the months that now have actuals, per month and weighted by volume.</li>\
 <li><strong>Bias</strong>: Σ(forecast − actual) ÷ Σ actual; above 0 the forecast was too high (over-forecast), below 0 too low.</li>\
 <li><strong>In 80% / 95% range</strong>: share of actuals inside the past forecast's ranges. Well below 80% / 95% means the ranges were too narrow; it is flagged when a binomial test says the shortfall is beyond chance (p &lt; 0.05).</li>\
-<li><strong>Tracking signal</strong>: cumulative error ÷ mean absolute error. It grows when errors keep one sign; beyond ±4 the forecast is persistently off and its model should be looked at again.</li>\
+<li><strong>Tracking signal</strong>: cumulative error ÷ mean absolute error. It grows when errors keep one sign; beyond ±4 the errors add up in one direction and the model should be looked at again (the findings say when one large month carries it).</li>\
 <li><strong>Value added</strong>: the WAPE of a naive forecast (“same as the last month”) and of a seasonal naive one (“same month a year before”), both made at the same time from the same cleaned history, minus the model's WAPE. Below 0 the simple rule would have done better.</li>\
 <li><strong>Not as reported</strong>: share of the cleaned volume that cleaning added or changed (stockout and reporting adjustments, filled months), for the history the forecast was made from and for the review months; flagged above {:.0}%, with the rules responsible.</li></ul>",
         100.0 * limit
@@ -530,7 +530,7 @@ fn product_section(
     );
     let findings = r.findings(page.adjustment_limit);
     if findings.is_empty() {
-        b.push_str("<p class=\"note\">Nothing stands out: no persistent bias, ranges as wide as they claim, better than the simple rules, data adjusted within the limit.</p>\n");
+        b.push_str("<p class=\"note\">Nothing stands out: tracking signal within ±4, ranges not short of their nominal coverage, no worse than the simple rules, data adjusted within the limit.</p>\n");
     } else {
         b.push_str("<ul class=\"warn\">");
         for f in &findings {

@@ -33,6 +33,7 @@ pub mod past;
 pub use past::{read_past, PastForecast, PastManifest, PastProduct, Promised};
 
 use std::collections::BTreeMap;
+use std::fmt::Write as _;
 
 use crate::calendar::YearMonth;
 use crate::clean::{Adjustment, CleanSeries, Cleaned, MonthStatus};
@@ -175,7 +176,8 @@ pub struct ReviewScores {
     pub coverage95_p: Option<f64>,
     /// Tracking signal over the scored months.
     pub tracking: Option<TrackingSignal>,
-    /// First month at which the running tracking signal went beyond ±4.
+    /// Month from which the running tracking signal has stayed beyond ±4
+    /// on the side of the final signal (`None` when the final one is within).
     pub tracking_breach: Option<YearMonth>,
     /// MAPE of the naive forecast, %.
     pub naive_mape: Option<f64>,
@@ -333,19 +335,38 @@ impl ProductReview {
             ));
         }
         if let Some(t) = s.tracking.filter(|t| t.flagged()) {
-            out.push(format!(
-                "tracking signal {:+.1} is beyond ±{}{}: persistent {}",
+            let over = t.value > 0.0;
+            let errors: Vec<(YearMonth, f64)> = self
+                .months
+                .iter()
+                .filter(|m| m.scored)
+                .map(|m| (m.month, m.forecast - m.actual))
+                .collect();
+            let same_side = errors.iter().filter(|e| (e.1 > 0.0) == over).count();
+            let word = if over { "over" } else { "under" };
+            let mut text = format!(
+                "tracking signal {:+.1} is beyond ±{}{}: the errors add up to an {word}-forecast ({same_side} of {} months {word})",
                 t.value,
                 metrics::TRACKING_SIGNAL_LIMIT,
                 s.tracking_breach
-                    .map(|m| format!(" (from {m})"))
+                    .map(|m| format!(" since {m}"))
                     .unwrap_or_default(),
-                if t.value > 0.0 {
-                    "over-forecast"
-                } else {
-                    "under-forecast"
-                }
-            ));
+                errors.len()
+            );
+            // The running-sum signal can be carried by one large error:
+            // say so, so it is not read as a persistent bias.
+            if let Some(big) = errors
+                .iter()
+                .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
+                .filter(|b| b.1.abs() > 0.5 * t.cumulative_error.abs())
+            {
+                let _ = write!(
+                    text,
+                    "; one month carries most of it ({}: error {:+.0})",
+                    big.0, big.1
+                );
+            }
+            out.push(text);
         }
         for (label, c, p) in [
             ("80%", s.coverage80, s.coverage80_p),
@@ -675,11 +696,14 @@ pub fn review_product(
         f_run.push(m.forecast);
         let ts = metrics::tracking_signal(&a_run, &f_run);
         m.tracking_signal = ts.map(|t| t.value);
-        if tracking_breach.is_none() && ts.is_some_and(|t| t.flagged()) {
-            tracking_breach = Some(m.month);
-        }
+        // Start of the current run beyond the limit on one side.
+        tracking_breach = match (ts.filter(|t| t.flagged()), tracking_breach) {
+            (None, _) => None,
+            (Some(t), Some((side, since))) if side == (t.value > 0.0) => Some((side, since)),
+            (Some(t), _) => Some((t.value > 0.0, m.month)),
+        };
     }
-    let scores = score(&months, tracking_breach);
+    let scores = score(&months, tracking_breach.map(|b| b.1));
     let history_audit = Audit::new(
         &past.history,
         &past.history_reported,

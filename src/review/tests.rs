@@ -233,9 +233,10 @@ fn findings_name_what_stands_out() {
     let r = review_product(&p, 0, &s, &[true; 5], &[], &settings()).unwrap();
     let f = r.findings(0.2).join("\n");
     assert!(
-        f.contains("tracking signal -5.0 is beyond ±4 (from 2025-05): persistent under-forecast"),
+        f.contains("tracking signal -5.0 is beyond ±4 since 2025-05: the errors add up to an under-forecast (5 of 5 months under)"),
         "{f}"
     );
+    assert!(!f.contains("one month carries"), "{f}");
     assert!(f.contains("the 80% range held 0%"), "{f}");
     assert!(f.contains("did worse than naive"), "{f}");
     assert!(f.contains("MAPE 20.0% is over twice the 5.0%"), "{f}");
@@ -245,4 +246,26 @@ fn findings_name_what_stands_out() {
     let s = series("2025-01", vec![100.0; 3]);
     let r = review_product(&good, 0, &s, &[true; 3], &[], &settings()).unwrap();
     assert!(r.findings(0.2).is_empty(), "{:?}", r.findings(0.2));
+}
+
+#[test]
+fn tracking_finding_names_a_single_large_error() {
+    // Under by 10 for 11 months (running signal -1, -2, ... beyond -4 from
+    // the fifth month), then over by 400: the final signal is positive and
+    // one month carries it. The breach month is where the final side began.
+    let mut point = vec![90.0; 11];
+    point.push(500.0);
+    let p = past("2024-01", vec![100.0; 12], point, 1.0);
+    let s = series("2025-01", vec![100.0; 12]);
+    let r = review_product(&p, 0, &s, &[true; 12], &[], &settings()).unwrap();
+    let ts = r.scores.tracking.unwrap();
+    // Cumulative 400 - 110 = 290; MAD (110 + 400) / 12 = 42.5.
+    assert!((ts.value - 290.0 / 42.5).abs() < 1e-9);
+    assert_eq!(r.scores.tracking_breach, Some(ym("2025-12")));
+    assert_eq!(r.months[4].tracking_signal, Some(-5.0));
+    let f = r.findings(0.2).join("\n");
+    assert!(
+        f.contains("since 2025-12: the errors add up to an over-forecast (1 of 12 months over); one month carries most of it (2025-12: error +400)"),
+        "{f}"
+    );
 }
