@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 use rayon::prelude::*;
 
 use super::html::{self, escape, Cell, Kind, Table};
-use super::{Written, CAUTION};
+use super::{pct, Written, CAUTION};
 use crate::calendar::YearMonth;
 use crate::chart::{self, HistoryMonth, ProductChart, ProjectedMonth};
 use crate::error::{Error, Result};
@@ -17,10 +17,6 @@ use crate::review::{Audit, PastForecast, ProductReview, Review};
 
 /// Months of history before the forecast origin shown on a review chart.
 pub const HISTORY_SHOWN: usize = 24;
-
-fn pct(v: f64) -> String {
-    format!("{v:.1}%")
-}
 
 fn signed(v: f64) -> String {
     if v.abs() < 0.05 {

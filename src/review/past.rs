@@ -410,6 +410,30 @@ impl Table {
     }
 }
 
+/// Checks that `month` is the next month of a product's rows: the files
+/// hold each product's months consecutively, without gaps.
+fn in_sequence(
+    path: &Path,
+    line: u64,
+    product: &str,
+    month: YearMonth,
+    start: YearMonth,
+    so_far: usize,
+) -> Result<()> {
+    let expected = start.plus(so_far as i64);
+    if month == expected {
+        return Ok(());
+    }
+    Err(input_err(
+        path,
+        line,
+        Some("month"),
+        format!(
+            "product '{product}': month {month} out of sequence; expected {expected} (each product's months run consecutively, without gaps)"
+        ),
+    ))
+}
+
 struct ForecastRows {
     model: String,
     start: YearMonth,
@@ -446,17 +470,7 @@ fn read_forecast(path: &Path) -> Result<BTreeMap<String, ForecastRows>> {
             point: Vec::new(),
             bounds: Default::default(),
         });
-        let expected = entry.start.plus(entry.point.len() as i64);
-        if month != expected {
-            return Err(input_err(
-                path,
-                line,
-                Some("month"),
-                format!(
-                    "product '{product}': month {month} out of sequence; expected {expected} (each product's forecast months run consecutively)"
-                ),
-            ));
-        }
+        in_sequence(path, line, &product, month, entry.start, entry.point.len())?;
         entry.point.push(point);
         for (v, x) in entry.bounds.iter_mut().zip(b) {
             v.push(x);
@@ -543,17 +557,7 @@ fn read_cleaned(path: &Path) -> Result<HashMap<String, History>> {
             status: Vec::new(),
             outlier: Vec::new(),
         });
-        let expected = h.start.plus(h.cleaned.len() as i64);
-        if month != expected {
-            return Err(input_err(
-                path,
-                line,
-                Some("month"),
-                format!(
-                    "product '{product}': month {month} out of sequence; expected {expected} (cleaned series run without gaps)"
-                ),
-            ));
-        }
+        in_sequence(path, line, &product, month, h.start, h.cleaned.len())?;
         h.cleaned.push(cleaned);
         h.reported.push(reported);
         h.status.push(status);
