@@ -327,14 +327,25 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Selection",
         escape(&format!(
-            "lowest {}; near-tie margin {}",
+            "lowest {}; models within {} of the best count as tied",
             fs(&["select", "score"]).to_uppercase(),
             fs(&["select", "tie_margin"])
+                .parse::<f64>()
+                .map(|v| format!("{}%", v * 100.0))
+                .unwrap_or_else(|_| fs(&["select", "tie_margin"]))
         )),
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
     if let Some(cs) = m.get("clean_settings").and_then(|v| v.as_object()) {
-        let list: Vec<String> = cs.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+        // As the command-line options that set them.
+        let list: Vec<String> = cs
+            .iter()
+            .map(|(k, v)| match v {
+                serde_json::Value::Bool(true) => format!("--{}", k.replace('_', "-")),
+                serde_json::Value::Bool(false) => format!("no --{}", k.replace('_', "-")),
+                v => format!("--{} {v}", k.replace('_', "-")),
+            })
+            .collect();
         facts.push(("Cleaning settings", escape(&list.join(", "))));
     }
     let pin = json_str(m, &["pin_file"]);
