@@ -52,8 +52,8 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     if s.pinned {
         subtitle.push_str(", pinned");
     }
-    if let Some(m) = s.mape {
-        let _ = write!(subtitle, " · backtest MAPE {m:.1}%");
+    if let Some((name, v)) = chosen_score(s) {
+        let _ = write!(subtitle, " · backtest {name} {v}");
     }
     if let Some(b) = s.bias {
         let _ = write!(subtitle, " · bias {b:+.1}%");
@@ -132,6 +132,22 @@ pub fn score_bars(run: &ForecastRun) -> Vec<ScoreBar> {
             bias: p.selection.bias,
         })
         .collect()
+}
+
+/// The score the model was chosen by, named and formatted ("MAPE", "4.8%").
+fn chosen_score(s: &Selection) -> Option<(String, String)> {
+    let by = if s.selected_by.is_empty() {
+        "MAPE".to_string()
+    } else {
+        s.selected_by.to_uppercase()
+    };
+    let v = match by.as_str() {
+        "WAPE" => s.wape.map(pct),
+        "MASE" => s.mase.map(|v| format!("{v:.2}")),
+        "RMSE" => s.rmse.map(chart::fmt_quantity),
+        _ => s.mape.map(pct),
+    }?;
+    Some((by, v))
 }
 
 fn pct(v: f64) -> String {
@@ -473,7 +489,10 @@ fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
         },
         "AMC: last 12 → next 12",
     ));
-    b.push_str(&key(s.mape.map(pct).unwrap_or_else(dash), "backtest MAPE"));
+    match chosen_score(s) {
+        Some((name, v)) => b.push_str(&key(v, &format!("backtest {name} (chosen by)"))),
+        None => b.push_str(&key(dash(), "backtest score")),
+    }
     b.push_str(&key(
         s.bias.map(signed_pct).unwrap_or_else(dash),
         "bias (> 0 over-forecast)",

@@ -30,6 +30,8 @@ pub struct Selection {
     pub wape: Option<f64>,
     /// Backtest MASE of the chosen model.
     pub mase: Option<f64>,
+    /// Backtest RMSE of the chosen model, base units.
+    pub rmse: Option<f64>,
     /// Share of actuals inside the 80% range, %.
     pub coverage80: Option<f64>,
     /// Share of actuals inside the 95% range, %.
@@ -342,6 +344,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "total_months_1_12",
         "total_months_13_24",
         "reason",
+        "rmse",
     ];
     let c = sel.cols(names)?;
     let mut products: Vec<ProductResult> = Vec::new();
@@ -369,6 +372,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             total_1_12: n(18)?,
             total_13_24: n(19)?,
             reason: text(rec, c[20]),
+            rmse: n(21)?,
         };
         let product = text(rec, c[0]);
         index.insert(product.clone(), products.len());
