@@ -170,6 +170,39 @@ fn report_renders_in_a_browser_without_errors() {
         console_lines(&stderr)
     );
 
+    // Sorting works: a copy of the report (its script allowed by dropping
+    // the policy) clicks the MAPE heading twice and records the column.
+    let html = std::fs::read_to_string(&page).unwrap();
+    let csp_start = html
+        .find("<meta http-equiv=\"Content-Security-Policy\"")
+        .unwrap();
+    let csp_end = csp_start + html[csp_start..].find('>').unwrap() + 1;
+    let probe = "<script>var t=document.querySelector('table.sortable');\
+var b=t.tHead.rows[0].cells[3].querySelector('button');\
+function col(){return Array.prototype.map.call(t.tBodies[0].rows,function(r){return r.cells[3].getAttribute('data-v')}).join(' ')}\
+b.click();document.body.setAttribute('data-up',col());b.click();document.body.setAttribute('data-down',col());</script></body>";
+    let sorted = format!("{}{}", &html[..csp_start], &html[csp_end..]).replace("</body>", probe);
+    let sort_page = dir.join("sort-probe.html");
+    std::fs::write(&sort_page, sorted).unwrap();
+    let (dom, stderr) = run(&browser, &sort_page, &["--dump-dom".to_string()]);
+    assert!(console_lines(&stderr).is_empty(), "{stderr}");
+    let attr = |name: &str| -> Vec<f64> {
+        let s = dom
+            .find(&format!("{name}=\""))
+            .unwrap_or_else(|| panic!("no {name}: {dom}"))
+            + name.len()
+            + 2;
+        dom[s..s + dom[s..].find('"').unwrap()]
+            .split(' ')
+            .map(|v| v.parse().unwrap())
+            .collect()
+    };
+    let (up, down) = (attr("data-up"), attr("data-down"));
+    assert_eq!(up.len(), 4);
+    assert!(up.windows(2).all(|w| w[0] <= w[1]), "{up:?}");
+    assert!(down.windows(2).all(|w| w[0] >= w[1]), "{down:?}");
+    assert_ne!(up, down);
+
     // A screenshot: no console message, and a painted page.
     let shot = std::env::var_os("PROVISIO_SCREENSHOT")
         .map(PathBuf::from)
