@@ -4,8 +4,9 @@
 //! backtests models, projects consumption with ranges and scores past
 //! forecasts.
 //!
-//! The library computes on plain values; only [`data`] reading and
-//! [`output`] writing touch files, through paths the caller gives.
+//! The library computes on plain values; only [`data`] reading,
+//! [`output`] writing, and the [`chart`] and [`report`] files touch files,
+//! through paths the caller gives.
 //!
 //! ```
 //! use provisio::{clean, data};

@@ -278,11 +278,11 @@ fn draw_legend<DB: DrawingBackend>(
     (x0, y0): (i32, i32),
     width: i32,
 ) -> Drawn {
-    let font = (FONT, 16).into_font().color(&palette::INK);
+    const SIZE: f64 = 16.0;
+    let font = (FONT, SIZE).into_font().color(&palette::INK);
     let (mut x, mut y) = (x0, y0);
     for (glyph, label) in items {
-        let (tw, _) = area.estimate_text_size(label, &font).msg()?;
-        let w = 26 + tw as i32 + 18;
+        let w = 26 + text::measure(label, SIZE) + 18;
         if x > x0 && x + w > x0 + width {
             x = x0;
             y += 20;

@@ -50,6 +50,15 @@ fn width(f: &FontRef<'static>, s: PxScale, text: &str) -> f32 {
     w
 }
 
+/// Width in pixels of `text` drawn at plotters font size `size` with the
+/// embedded font (the same in PNG and SVG charts).
+pub(super) fn measure(text: &str, size: f64) -> i32 {
+    match font() {
+        Some(f) => width(f, scale(f, size), text).ceil() as i32,
+        None => (text.chars().count() as f64 * size * 0.45) as i32,
+    }
+}
+
 /// A bitmap backend with correct text.
 pub(super) struct PngCanvas<'a>(pub BitMapBackend<'a>);
 

@@ -53,8 +53,8 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     if s.pinned {
         subtitle.push_str(", pinned");
     }
-    if let Some(m) = s.mape {
-        let _ = write!(subtitle, " · backtest MAPE {m:.1}%");
+    if let Some((name, v)) = chosen_score(s) {
+        let _ = write!(subtitle, " · backtest {name} {v}");
     }
     if let Some(b) = s.bias {
         let _ = write!(subtitle, " · bias {b:+.1}%");
@@ -133,6 +133,22 @@ pub fn score_bars(run: &ForecastRun) -> Vec<ScoreBar> {
             bias: p.selection.bias,
         })
         .collect()
+}
+
+/// The score the model was chosen by, named and formatted ("MAPE", "4.8%").
+fn chosen_score(s: &Selection) -> Option<(String, String)> {
+    let by = if s.selected_by.is_empty() {
+        "MAPE".to_string()
+    } else {
+        s.selected_by.to_uppercase()
+    };
+    let v = match by.as_str() {
+        "WAPE" => s.wape.map(pct),
+        "MASE" => s.mase.map(|v| format!("{v:.2}")),
+        "RMSE" => s.rmse.map(chart::fmt_quantity),
+        _ => s.mape.map(pct),
+    }?;
+    Some((by, v))
 }
 
 fn pct(v: f64) -> String {
@@ -328,14 +344,25 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Selection",
         escape(&format!(
-            "lowest {}; near-tie margin {}",
+            "lowest {}; models within {} of the best count as tied",
             fs(&["select", "score"]).to_uppercase(),
             fs(&["select", "tie_margin"])
+                .parse::<f64>()
+                .map(|v| format!("{}%", v * 100.0))
+                .unwrap_or_else(|_| fs(&["select", "tie_margin"]))
         )),
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
     if let Some(cs) = m.get("clean_settings").and_then(|v| v.as_object()) {
-        let list: Vec<String> = cs.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+        // As the command-line options that set them.
+        let list: Vec<String> = cs
+            .iter()
+            .map(|(k, v)| match v {
+                serde_json::Value::Bool(true) => format!("--{}", k.replace('_', "-")),
+                serde_json::Value::Bool(false) => format!("no --{}", k.replace('_', "-")),
+                v => format!("--{} {v}", k.replace('_', "-")),
+            })
+            .collect();
         facts.push(("Cleaning settings", escape(&list.join(", "))));
     }
     let pin = json_str(m, &["pin_file"]);
@@ -463,7 +490,10 @@ fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
         },
         "AMC: last 12 → next 12",
     ));
-    b.push_str(&key(s.mape.map(pct).unwrap_or_else(dash), "backtest MAPE"));
+    match chosen_score(s) {
+        Some((name, v)) => b.push_str(&key(v, &format!("backtest {name} (chosen by)"))),
+        None => b.push_str(&key(dash(), "backtest score")),
+    }
     b.push_str(&key(
         s.bias.map(signed_pct).unwrap_or_else(dash),
         "bias (> 0 over-forecast)",

@@ -30,6 +30,8 @@ pub struct Selection {
     pub wape: Option<f64>,
     /// Backtest MASE of the chosen model.
     pub mase: Option<f64>,
+    /// Backtest RMSE of the chosen model, base units.
+    pub rmse: Option<f64>,
     /// Share of actuals inside the 80% range, %.
     pub coverage80: Option<f64>,
     /// Share of actuals inside the 95% range, %.
@@ -157,11 +159,12 @@ pub struct ForecastRun {
     pub rejected_rows: usize,
 }
 
-/// A CSV file with its header, addressed by column name.
+/// A CSV file with its header, addressed by column name; rows are read
+/// one at a time (`backtest.csv` of a large run is hundreds of megabytes).
 struct Table {
     file: String,
     columns: HashMap<String, usize>,
-    rows: Vec<(u64, csv::StringRecord)>,
+    reader: csv::Reader<std::fs::File>,
 }
 
 impl Table {
@@ -177,31 +180,47 @@ impl Table {
             column: None,
             message: format!("cannot read this CSV file: {e}"),
         };
-        let mut r = csv::ReaderBuilder::new()
+        let mut reader = csv::ReaderBuilder::new()
             .flexible(false)
             .from_path(&path)
             .map_err(|e| bad(0, e))?;
-        let columns = r
+        let columns = reader
             .headers()
             .map_err(|e| bad(1, e))?
             .iter()
             .enumerate()
             .map(|(i, h)| (h.trim().to_string(), i))
             .collect();
-        let mut rows = Vec::new();
-        for rec in r.records() {
-            let rec = rec.map_err(|e| {
-                let line = e.position().map(|p| p.line()).unwrap_or(0);
-                bad(line, e)
-            })?;
-            let line = rec.position().map(|p| p.line()).unwrap_or(0);
-            rows.push((line, rec));
-        }
         Ok(Some(Table {
             file,
             columns,
-            rows,
+            reader,
         }))
+    }
+
+    /// Calls `f` with each row and its line number.
+    fn each<F>(&mut self, mut f: F) -> Result<()>
+    where
+        F: FnMut(&Self, u64, &csv::StringRecord) -> Result<()>,
+    {
+        let mut rec = csv::StringRecord::new();
+        loop {
+            match self.reader.read_record(&mut rec) {
+                Ok(true) => {
+                    let line = rec.position().map(|p| p.line()).unwrap_or(0);
+                    f(self, line, &rec)?;
+                }
+                Ok(false) => return Ok(()),
+                Err(e) => {
+                    return Err(Error::Input {
+                        file: self.file.clone(),
+                        line: e.position().map(|p| p.line()).unwrap_or(0),
+                        column: None,
+                        message: format!("cannot read this CSV file: {e}"),
+                    })
+                }
+            }
+        }
     }
 
     fn required(dir: &Path, name: &str) -> Result<Table> {
@@ -302,7 +321,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         })?
     };
 
-    let sel = Table::required(dir, "selection.csv")?;
+    let mut sel = Table::required(dir, "selection.csv")?;
     let names = [
         "product",
         "chosen_model",
@@ -325,12 +344,13 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "total_months_1_12",
         "total_months_13_24",
         "reason",
+        "rmse",
     ];
     let c = sel.cols(names)?;
     let mut products: Vec<ProductResult> = Vec::new();
     let mut index: HashMap<String, usize> = HashMap::new();
-    for (line, rec) in &sel.rows {
-        let n = |k: usize| sel.num(*line, rec, c[k], names[k]);
+    sel.each(|sel, line, rec| {
+        let n = |k: usize| sel.num(line, rec, c[k], names[k]);
         let s = Selection {
             chosen: text(rec, c[1]),
             members: text(rec, c[2]),
@@ -352,6 +372,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             total_1_12: n(18)?,
             total_13_24: n(19)?,
             reason: text(rec, c[20]),
+            rmse: n(21)?,
         };
         let product = text(rec, c[0]);
         index.insert(product.clone(), products.len());
@@ -366,46 +387,49 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             adjustments: Vec::new(),
             warnings: Vec::new(),
         });
-    }
+        Ok(())
+    })?;
 
-    let cl = Table::required(dir, "cleaned.csv")?;
+    let mut cl = Table::required(dir, "cleaned.csv")?;
     let c = cl.cols([
         "product", "month", "reported", "cleaned", "status", "outlier",
     ])?;
-    for (line, rec) in &cl.rows {
+    cl.each(|cl, line, rec| {
         let Some(&i) = index.get(&text(rec, c[0])) else {
-            continue;
+            return Ok(());
         };
         products[i].history.push(HistoryMonth {
-            month: cl.month(*line, rec, c[1], "month")?,
-            reported: cl.num(*line, rec, c[2], "reported")?,
-            cleaned: cl.num(*line, rec, c[3], "cleaned")?,
+            month: cl.month(line, rec, c[1], "month")?,
+            reported: cl.num(line, rec, c[2], "reported")?,
+            cleaned: cl.num(line, rec, c[3], "cleaned")?,
             status: status(rec.get(c[4]).unwrap_or("")),
             outlier: rec.get(c[5]).unwrap_or("") == "yes",
         });
-    }
+        Ok(())
+    })?;
 
-    let fc = Table::required(dir, "forecast.csv")?;
+    let mut fc = Table::required(dir, "forecast.csv")?;
     let names = [
         "product", "month", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
     ];
     let c = fc.cols(names)?;
-    for (line, rec) in &fc.rows {
+    fc.each(|fc, line, rec| {
         let Some(&i) = index.get(&text(rec, c[0])) else {
-            continue;
+            return Ok(());
         };
-        let n = |k: usize| fc.num(*line, rec, c[k], names[k]);
+        let n = |k: usize| fc.num(line, rec, c[k], names[k]);
         let pair = |a: Option<f64>, b: Option<f64>| a.zip(b);
-        let Some(point) = n(2)? else { continue };
+        let Some(point) = n(2)? else { return Ok(()) };
         products[i].projection.push(ProjectedMonth {
-            month: fc.month(*line, rec, c[1], "month")?,
+            month: fc.month(line, rec, c[1], "month")?,
             point,
             range80: pair(n(3)?, n(4)?),
             range95: pair(n(5)?, n(6)?),
         });
-    }
+        Ok(())
+    })?;
 
-    if let Some(q) = Table::read(dir, "quality.csv")? {
+    if let Some(mut q) = Table::read(dir, "quality.csv")? {
         let c = q.cols([
             "product",
             "verdict",
@@ -417,7 +441,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             "months_with_stockouts",
             "mean_reporting_rate_pct",
         ])?;
-        for (_, rec) in &q.rows {
+        q.each(|_, _, rec| {
             if let Some(&i) = index.get(&text(rec, c[0])) {
                 let reasons = text(rec, c[2]);
                 products[i].quality = Some(Quality {
@@ -435,10 +459,11 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
                     mean_reporting_rate: text(rec, c[8]),
                 });
             }
-        }
+            Ok(())
+        })?;
     }
 
-    if let Some(t) = Table::read(dir, "scores.csv")? {
+    if let Some(mut t) = Table::read(dir, "scores.csv")? {
         let names = [
             "product",
             "model",
@@ -454,11 +479,11 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             "note",
         ];
         let c = t.cols(names)?;
-        for (line, rec) in &t.rows {
+        t.each(|t, line, rec| {
             let Some(&i) = index.get(&text(rec, c[0])) else {
-                continue;
+                return Ok(());
             };
-            let n = |k: usize| t.num(*line, rec, c[k], names[k]);
+            let n = |k: usize| t.num(line, rec, c[k], names[k]);
             products[i].scores.push(ScoreRow {
                 model: text(rec, c[1]),
                 status: text(rec, c[2]),
@@ -472,26 +497,28 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
                 coverage95: n(10)?,
                 note: text(rec, c[11]),
             });
-        }
+            Ok(())
+        })?;
     }
 
-    if let Some(t) = Table::read(dir, "backtest.csv")? {
+    if let Some(mut t) = Table::read(dir, "backtest.csv")? {
         let c = t.cols(["product", "model", "origin", "month", "forecast"])?;
         let mut paths: Vec<BTreeMap<YearMonth, Vec<(YearMonth, f64)>>> =
             vec![BTreeMap::new(); products.len()];
-        for (line, rec) in &t.rows {
+        t.each(|t, line, rec| {
             let Some(&i) = index.get(&text(rec, c[0])) else {
-                continue;
+                return Ok(());
             };
             if rec.get(c[1]) != Some(products[i].selection.chosen.as_str()) {
-                continue;
+                return Ok(());
             }
-            let origin = t.month(*line, rec, c[2], "origin")?;
-            let month = t.month(*line, rec, c[3], "month")?;
-            if let Some(f) = t.num(*line, rec, c[4], "forecast")? {
+            let origin = t.month(line, rec, c[2], "origin")?;
+            let month = t.month(line, rec, c[3], "month")?;
+            if let Some(f) = t.num(line, rec, c[4], "forecast")? {
                 paths[i].entry(origin).or_default().push((month, f));
             }
-        }
+            Ok(())
+        })?;
         for (p, by_origin) in products.iter_mut().zip(paths) {
             if by_origin.is_empty() {
                 continue;
@@ -509,30 +536,35 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         }
     }
 
-    if let Some(t) = Table::read(dir, "adjustments.csv")? {
+    if let Some(mut t) = Table::read(dir, "adjustments.csv")? {
         let names = [
             "product", "site", "month", "line", "before", "after", "rule", "reason",
         ];
         let c = t.cols(names)?;
-        for (line, rec) in &t.rows {
+        t.each(|t, line, rec| {
             let Some(&i) = index.get(&text(rec, c[0])) else {
-                continue;
+                return Ok(());
             };
             products[i].adjustments.push(AdjustmentRow {
                 site: text(rec, c[1]),
                 month: text(rec, c[2]),
                 line: text(rec, c[3]),
-                before: t.num(*line, rec, c[4], "before")?,
-                after: t.num(*line, rec, c[5], "after")?,
+                before: t.num(line, rec, c[4], "before")?,
+                after: t.num(line, rec, c[5], "after")?,
                 rule: text(rec, c[6]),
                 reason: text(rec, c[7]),
             });
-        }
+            Ok(())
+        })?;
     }
 
-    let rejected_rows = Table::read(dir, "rejected.csv")?
-        .map(|t| t.rows.len())
-        .unwrap_or(0);
+    let mut rejected_rows = 0;
+    if let Some(mut t) = Table::read(dir, "rejected.csv")? {
+        t.each(|_, _, _| {
+            rejected_rows += 1;
+            Ok(())
+        })?;
+    }
 
     let mut warnings = Vec::new();
     let all: Vec<String> = manifest
