@@ -354,16 +354,7 @@ fn summary(b: &mut String, run: &ForecastRun) {
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
     if let Some(cs) = m.get("clean_settings").and_then(|v| v.as_object()) {
-        // As the command-line options that set them.
-        let list: Vec<String> = cs
-            .iter()
-            .map(|(k, v)| match v {
-                serde_json::Value::Bool(true) => format!("--{}", k.replace('_', "-")),
-                serde_json::Value::Bool(false) => format!("no --{}", k.replace('_', "-")),
-                v => format!("--{} {v}", k.replace('_', "-")),
-            })
-            .collect();
-        facts.push(("Cleaning settings", escape(&list.join(", "))));
+        facts.push(("Cleaning settings", escape(&as_options(cs))));
     }
     let pin = json_str(m, &["pin_file"]);
     if !pin.is_empty() {
@@ -385,6 +376,19 @@ fn summary(b: &mut String, run: &ForecastRun) {
         let _ = write!(b, "<dt>{}</dt><dd>{v}</dd>", escape(k));
     }
     b.push_str("</dl>\n");
+}
+
+/// Settings written as the command-line options that set them.
+fn as_options(settings: &serde_json::Map<String, serde_json::Value>) -> String {
+    settings
+        .iter()
+        .map(|(k, v)| match v {
+            serde_json::Value::Bool(true) => format!("--{}", k.replace('_', "-")),
+            serde_json::Value::Bool(false) => format!("no --{}", k.replace('_', "-")),
+            v => format!("--{} {v}", k.replace('_', "-")),
+        })
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 fn products_table(b: &mut String, run: &ForecastRun, stems: &[String]) {

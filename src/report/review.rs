@@ -278,17 +278,11 @@ fn summary(b: &mut String, page: &ReviewPage<'_>) {
         );
         let cs = serde_json::to_value(&v.manifest.clean_settings)
             .ok()
-            .and_then(|x| x.as_object().cloned())
-            .map(|o| {
-                o.iter()
-                    .map(|(k, v)| format!("{k} = {v}"))
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            })
+            .and_then(|x| x.as_object().map(super::as_options))
             .unwrap_or_default();
         let _ = write!(
             text,
-            "; actuals cleaned with its settings ({}; duplicates: {}){}",
+            "; actuals cleaned with its settings ({}, --duplicates {}){}",
             escape(&cs),
             escape(&v.manifest.duplicates),
             if v.exclude_imputed {
