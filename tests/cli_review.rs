@@ -509,3 +509,45 @@ fn no_overlapping_month_is_refused() {
         "{out}"
     );
 }
+
+#[test]
+fn product_names_are_escaped_on_the_review_page() {
+    let w = Workdir::new();
+    let name = "<script>alert(1)</script> & co";
+    let mut csv = String::from("product,month,consumed\n");
+    for t in 0..36 {
+        csv.push_str(&format!(
+            "\"{name}\",{}-{:02},{}\n",
+            2022 + t / 12,
+            t % 12 + 1,
+            100 + t
+        ));
+    }
+    std::fs::write(w.path("d.csv"), csv).unwrap();
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--until",
+        "2024-06",
+        "--out",
+        "past",
+        "--origins",
+        "2",
+        "--backtest-horizon",
+        "3",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["review", "past", "--actuals", "d.csv", "--out", "rev"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let page = std::fs::read_to_string(w.path("rev/review.html")).unwrap();
+    assert!(!page.contains(name), "raw name on the page");
+    assert!(page.contains("&lt;script&gt;alert(1)&lt;/script&gt; &amp; co"));
+    assert_eq!(
+        page.matches("<script>").count(),
+        1,
+        "only the page's own script"
+    );
+    let rows = w.read_csv("rev/review.csv");
+    assert_eq!(rows[0]["product"], name, "CSV keeps the name as it is");
+    assert_eq!(rows[0]["months_with_actuals"], "6");
+}
