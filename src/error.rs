@@ -55,6 +55,14 @@ pub enum Error {
         /// What went wrong.
         message: String,
     },
+    /// A chart could not be drawn.
+    #[error("cannot draw the chart of {what}: {message}")]
+    Chart {
+        /// Which chart (product name or "overview").
+        what: String,
+        /// What went wrong.
+        message: String,
+    },
     /// Writing CSV or JSON output failed.
     #[error("{path}: cannot write output: {message}")]
     Output {

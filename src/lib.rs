@@ -4,8 +4,9 @@
 //! backtests models, projects consumption with ranges and scores past
 //! forecasts.
 //!
-//! The library computes on plain values; only [`data`] reading and
-//! [`output`] writing touch files, through paths the caller gives.
+//! The library computes on plain values; only [`data`] reading,
+//! [`output`] writing, and the [`chart`] and [`report`] files touch files,
+//! through paths the caller gives.
 //!
 //! ```
 //! use provisio::{clean, data};
@@ -21,6 +22,7 @@
 
 pub mod backtest;
 pub mod calendar;
+pub mod chart;
 pub mod clean;
 pub mod data;
 pub mod error;
@@ -31,6 +33,8 @@ pub mod output;
 pub mod pipeline;
 pub mod project;
 pub mod quality;
+pub mod report;
+pub mod review;
 pub mod select;
 
 pub use error::{Error, Result};

@@ -94,6 +94,61 @@ pub fn coverage(actual: &[f64], lower: &[f64], upper: &[f64]) -> Option<f64> {
     })
 }
 
+/// Limit beyond which a tracking signal is flagged: |TS| > 4 (common
+/// practice for the running-sum signal; value from memory).
+pub const TRACKING_SIGNAL_LIMIT: f64 = 4.0;
+
+/// A tracking signal and its parts.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct TrackingSignal {
+    /// Σ(forecast − actual): positive = over-forecast, as for [`bias`].
+    pub cumulative_error: f64,
+    /// Mean absolute deviation of the errors, mean |forecast − actual|.
+    pub mad: f64,
+    /// cumulative error ÷ MAD.
+    pub value: f64,
+}
+
+impl TrackingSignal {
+    /// Whether the signal is beyond ±[`TRACKING_SIGNAL_LIMIT`].
+    pub fn flagged(&self) -> bool {
+        self.value.abs() > TRACKING_SIGNAL_LIMIT
+    }
+}
+
+/// Tracking signal: cumulative forecast error ÷ mean absolute deviation of
+/// the errors (the monitoring ratio of Trigg, *Operational Research
+/// Quarterly* 15(3), 1964, in its running-sum form). It grows when errors
+/// keep the same sign, i.e. when a forecast is biased. Errors are
+/// forecast − actual, so a positive signal means over-forecasting. `None`
+/// when empty or when every error is zero.
+pub fn tracking_signal(actual: &[f64], forecast: &[f64]) -> Option<TrackingSignal> {
+    let n = actual.len().min(forecast.len());
+    let errors = actual.iter().zip(forecast).map(|(a, f)| f - a);
+    let cumulative_error: f64 = errors.clone().sum();
+    let mad = errors.map(f64::abs).sum::<f64>() / n.max(1) as f64;
+    (n > 0 && mad > 0.0).then(|| TrackingSignal {
+        cumulative_error,
+        mad,
+        value: cumulative_error / mad,
+    })
+}
+
+/// One-sided exact binomial test of interval coverage: the probability of
+/// seeing at most `inside` of `n` actuals inside an interval whose nominal
+/// coverage is `nominal` (0–1). A small value (below 0.05, say) means the
+/// interval covers less than it claims beyond what chance explains (common
+/// practice). `None` when `n` is 0 or `nominal` is not in (0, 1).
+pub fn coverage_p_value(inside: usize, n: usize, nominal: f64) -> Option<f64> {
+    use statrs::distribution::{Binomial, DiscreteCDF};
+    if n == 0 || inside > n || !(nominal > 0.0 && nominal < 1.0) {
+        return None;
+    }
+    Binomial::new(nominal, n as u64)
+        .ok()
+        .map(|b| b.cdf(inside as u64))
+}
+
 /// The scores a model can be selected by.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
@@ -158,6 +213,44 @@ mod tests {
         assert_eq!(mase_scale(&y, 12), Some(12.0));
         assert!((mase(&[10.0], &[16.0], 12.0).unwrap() - 0.5).abs() < 1e-12);
         assert_eq!(mase_scale(&[5.0; 30], 12), None);
+    }
+
+    #[test]
+    fn tracking_signal_worked_example() {
+        // Errors (10, 5, -3, 8): cumulative 20, MAD 26/4 = 6.5, TS 20/6.5 =
+        // 3.08 (definition per Trigg, Operational Research Quarterly 15(3),
+        // 1964; the example is constructed from it).
+        let actual = [100.0; 4];
+        let forecast = [110.0, 105.0, 97.0, 108.0];
+        let ts = tracking_signal(&actual, &forecast).unwrap();
+        assert!((ts.cumulative_error - 20.0).abs() < 1e-12);
+        assert!((ts.mad - 6.5).abs() < 1e-12);
+        assert!((ts.value - 3.0769).abs() < 1e-4);
+        assert!(!ts.flagged());
+        // Every error of one sign gives |TS| = n: flagged from 5 months on.
+        let ts = tracking_signal(&[10.0; 5], &[8.0; 5]).unwrap();
+        assert!((ts.value + 5.0).abs() < 1e-12);
+        assert!(ts.flagged());
+        assert_eq!(tracking_signal(&[1.0], &[1.0]), None);
+        assert_eq!(tracking_signal(&[], &[]), None);
+    }
+
+    #[test]
+    fn coverage_binomial_tail() {
+        // P(X <= 7 | n = 12, p = 0.8) = 1 - P(X >= 8); computed by hand from
+        // the binomial formula: sum over k = 0..7 of C(12,k) 0.8^k 0.2^(12-k).
+        let by_hand: f64 = (0..=7u32)
+            .map(|k| {
+                let c = (1..=k).fold(1.0, |acc, i| acc * (12 - k + i) as f64 / i as f64);
+                c * 0.8f64.powi(k as i32) * 0.2f64.powi(12 - k as i32)
+            })
+            .sum();
+        let p = coverage_p_value(7, 12, 0.8).unwrap();
+        assert!((p - by_hand).abs() < 1e-12, "{p} vs {by_hand}");
+        assert!((0.0725..0.0727).contains(&p), "{p}");
+        assert_eq!(coverage_p_value(12, 12, 0.8), Some(1.0));
+        assert_eq!(coverage_p_value(0, 0, 0.8), None);
+        assert_eq!(coverage_p_value(1, 2, 1.0), None);
     }
 
     #[test]

@@ -139,6 +139,33 @@ fn forecast_demo_writes_every_output() {
     assert_eq!(m["forecast_settings"]["horizon"], 18);
     assert_eq!(m["scored_against"], "cleaned series");
     assert_eq!(m["input_sha256"].as_str().unwrap().len(), 64);
+
+    // The report: every product of the input has its section and its charts.
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    let mut input = csv::Reader::from_path(&data).unwrap();
+    let names: BTreeSet<String> = input.records().map(|r| r.unwrap()[0].to_string()).collect();
+    assert_eq!(names.len(), 12);
+    for p in &names {
+        let stem = provisio::chart::file_stem(p);
+        let at = html
+            .find(&format!("id=\"p-{stem}\""))
+            .unwrap_or_else(|| panic!("no section for {p}"));
+        let end = at + html[at..].find("</section>").unwrap();
+        assert!(
+            html[at..end].contains("<svg"),
+            "{p}: no chart in its section"
+        );
+        for ext in ["png", "svg"] {
+            assert!(
+                out.join("charts").join(format!("{stem}.{ext}")).exists(),
+                "{p}: {ext}"
+            );
+        }
+    }
+    assert!(
+        text.contains("wrote report.html and 26 chart files"),
+        "{text}"
+    );
 }
 
 #[test]

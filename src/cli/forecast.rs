@@ -7,8 +7,9 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 
-use super::{load, print_accounting, CleanArgs, ReadArgs};
+use super::{load, load_until, print_accounting, CleanArgs, ReadArgs};
 use provisio::backtest::BacktestSettings;
+use provisio::calendar::YearMonth;
 use provisio::metrics::Score;
 use provisio::output;
 use provisio::pipeline::{forecast_all, ForecastSettings, ProductForecast};
@@ -64,6 +65,9 @@ pub struct ForecastArgs {
     /// Months to project (1-60).
     #[arg(long, default_value_t = 24, value_name = "MONTHS")]
     horizon: usize,
+    /// Use only rows dated up to this month (YYYY-MM), as if forecasting then; for `review` later.
+    #[arg(long, value_name = "YYYY-MM", value_parser = parse_month)]
+    until: Option<YearMonth>,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -85,6 +89,10 @@ pub struct BacktestArgs {
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
+}
+
+fn parse_month(s: &str) -> Result<YearMonth, String> {
+    YearMonth::parse(s)
 }
 
 fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
@@ -170,6 +178,7 @@ fn run_eval(
     clean: &CleanArgs,
     eval: &EvalArgs,
     horizon: usize,
+    until: Option<YearMonth>,
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
     let fs = settings(eval, horizon);
@@ -178,7 +187,7 @@ fn run_eval(
         Some(p) => read_pins(p)?,
         None => HashMap::new(),
     };
-    let (ds, cleaned, bytes) = load(data, read, clean)?;
+    let (ds, cleaned, bytes) = load_until(data, read, clean, until)?;
     for p in pins.keys() {
         if !cleaned.series.iter().any(|s| &s.product == p) {
             eprintln!("warning: pinned product '{p}' is not in the data");
@@ -273,7 +282,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
 
 pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     let (ds, cleaned, bytes, results, fs, secs) =
-        run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon)?;
+        run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon, a.until)?;
     std::fs::create_dir_all(&a.out)
         .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
     let starts: Vec<_> = cleaned
@@ -290,7 +299,9 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     let manifest = serde_json::json!({
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        "format_version": output::FORECAST_FORMAT_VERSION,
         "command": "forecast",
+        "until": a.until.map(|m| m.to_string()),
         "input": ds.source,
         "input_sha256": output::sha256_hex(&bytes),
         "clean_settings": a.clean.settings(),
@@ -307,6 +318,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a.out.join("manifest.json"), &manifest)?;
+    let report = provisio::report::write_report(&a.out)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     println!(
@@ -316,12 +328,17 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         secs,
         a.out.display()
     );
+    println!(
+        "wrote report.html and {} chart files (charts/)",
+        report.charts.len()
+    );
     println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
 }
 
 pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, _, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12)?;
+    let (ds, cleaned, _, results, _, secs) =
+        run_eval(&a.data, &a.read, &a.clean, &a.eval, 12, None)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
     if let Some(out) = &a.out {

@@ -5,6 +5,8 @@ mod forecast;
 mod generate;
 mod inspect;
 mod models;
+mod report;
+mod review;
 
 use std::path::PathBuf;
 
@@ -46,6 +48,14 @@ enum Command {
         after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
     )]
     Clean(clean::CleanCmdArgs),
+    /// Rebuild the charts and the one-file HTML report from a forecast's output directory.
+    #[command(after_help = "Example:\n  provisio report demo-output")]
+    Report(report::ReportArgs),
+    /// Score past forecasts against the consumption reported since: accuracy, bias, coverage, tracking signal, value added over naive, audit of adjustments; several past directories are compared as vintages.
+    #[command(
+        after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
+    )]
+    Review(review::ReviewArgs),
     /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
     #[command(
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
@@ -131,6 +141,8 @@ pub fn run() -> i32 {
         Command::Evaluate(a) => forecast::run_evaluate(a),
         Command::Inspect(a) => inspect::run(a),
         Command::Clean(a) => clean::run(a),
+        Command::Report(a) => report::run(a),
+        Command::Review(a) => review::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
     };
@@ -149,10 +161,30 @@ fn load(
     read: &ReadArgs,
     clean: &CleanArgs,
 ) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
+    load_until(data, read, clean, None)
+}
+
+/// [`load`], keeping only rows dated up to `until` when given.
+fn load_until(
+    data: &PathBuf,
+    read: &ReadArgs,
+    clean: &CleanArgs,
+    until: Option<provisio::calendar::YearMonth>,
+) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
     let settings = clean.settings().check()?;
     let bytes = std::fs::read(data)
         .map_err(|e| anyhow::anyhow!("{}: cannot read input: {e}", data.display()))?;
-    let ds = provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    let mut ds =
+        provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    if let Some(last) = until {
+        ds.keep_until(last);
+        if ds.rows.is_empty() {
+            anyhow::bail!(
+                "{}: no accepted row is dated {last} or earlier (--until {last}); the first month in the file is later",
+                data.display()
+            );
+        }
+    }
     let cleaned = provisio::clean::clean(&ds, &settings);
     if cleaned.series.is_empty() {
         let why = cleaned

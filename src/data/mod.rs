@@ -97,4 +97,57 @@ impl Dataset {
     pub fn rows_accepted(&self) -> usize {
         self.rows.len() + self.merged.len()
     }
+
+    /// Keeps only accepted rows dated up to `last` (to forecast as if at an
+    /// earlier date). Rows left out are taken out of `rows_read` so the row
+    /// accounting still adds up, and a warning says how many; rejected rows
+    /// stay rejected. Returns the number left out.
+    pub fn keep_until(&mut self, last: YearMonth) -> usize {
+        let late: std::collections::HashSet<u64> = self
+            .rows
+            .iter()
+            .filter(|r| r.month > last)
+            .map(|r| r.line)
+            .collect();
+        if late.is_empty() {
+            return 0;
+        }
+        self.rows.retain(|r| !late.contains(&r.line));
+        let merged_before = self.merged.len();
+        self.merged.retain(|m| !late.contains(&m.into_line));
+        let left_out = late.len() + merged_before - self.merged.len();
+        self.rows_read -= left_out;
+        self.warnings.push(format!(
+            "{left_out} row(s) dated after {last} left out as asked (until {last}); the row accounting covers the other {} row(s)",
+            self.rows_read
+        ));
+        left_out
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn keep_until_drops_later_rows_and_keeps_accounting() {
+        let csv =
+            "product,month,consumed\nA,2024-01,1\nA,2024-02,2\nA,2024-03,3\nA,2024-03,4\nA,bad,5\n";
+        let opts = ReadOptions {
+            duplicates: DuplicatePolicy::Sum,
+        };
+        let mut ds = read_csv_bytes("t.csv", csv.as_bytes(), &opts).unwrap();
+        assert_eq!(ds.rows_read, 5);
+        assert_eq!(ds.merged.len(), 1);
+        let left = ds.keep_until(YearMonth::parse("2024-02").unwrap());
+        // The two March rows (one merged into the other) go; the rejected row stays.
+        assert_eq!(left, 2);
+        assert_eq!(ds.rows_read, 3);
+        assert_eq!(ds.rows.len(), 2);
+        assert!(ds.merged.is_empty());
+        assert_eq!(ds.rejected.len(), 1);
+        assert_eq!(ds.rows_accepted() + ds.rejected.len(), ds.rows_read);
+        assert!(ds.warnings.iter().any(|w| w.contains("until 2024-02")));
+        assert_eq!(ds.keep_until(YearMonth::parse("2024-02").unwrap()), 0);
+    }
 }

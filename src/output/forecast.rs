@@ -7,6 +7,12 @@ use crate::backtest::{RunStatus, Scores};
 use crate::error::Result;
 use crate::pipeline::ProductForecast;
 
+/// Version of the layout of a `forecast` output directory (file names,
+/// columns, manifest keys) as `review` reads it; written into the manifest
+/// as `format_version`. Raise it when a change would make an older
+/// directory be read wrongly.
+pub const FORECAST_FORMAT_VERSION: u32 = 1;
+
 fn io_err(e: csv::Error) -> std::io::Error {
     std::io::Error::other(e)
 }

@@ -2,12 +2,15 @@
 //! directory and renamed into place, so a reader never sees half a file.
 
 mod forecast;
+mod review;
 mod tables;
 
 pub use forecast::{
     write_backtest, write_forecast, write_json, write_scores, write_scores_by_horizon,
-    write_selection,
+    write_selection, FORECAST_FORMAT_VERSION,
 };
+
+pub use review::{review_json, write_review, write_review_months};
 
 pub use tables::{
     write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,

@@ -1,0 +1,502 @@
+//! The chart of one product: its history (reported and cleaned, with the
+//! adjusted, filled and outlier months marked), the projection with its 80%
+//! and 95% ranges, and optionally a backtest panel beneath.
+
+use std::path::Path;
+
+use plotters::coord::Shift;
+use plotters::prelude::*;
+
+use super::palette::*;
+use super::{
+    cut, draw_legend, fmt_quantity, month_label, render_png, render_svg, Drawn, Glyph, KeyAxis,
+    OrMessage, FONT,
+};
+use crate::calendar::YearMonth;
+use crate::clean::MonthStatus;
+use crate::error::Result;
+
+/// One month of history.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HistoryMonth {
+    /// The month.
+    pub month: YearMonth,
+    /// Consumption as reported (summed over sites); `None` when not reported.
+    pub reported: Option<f64>,
+    /// The cleaned (or actual) value; `None` when there is none.
+    pub cleaned: Option<f64>,
+    /// Where the cleaned value comes from.
+    pub status: MonthStatus,
+    /// Flagged as an outlier.
+    pub outlier: bool,
+}
+
+/// One projected month with its ranges.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProjectedMonth {
+    /// The month.
+    pub month: YearMonth,
+    /// Point forecast.
+    pub point: f64,
+    /// 80% range (lower, upper), when known.
+    pub range80: Option<(f64, f64)>,
+    /// 95% range (lower, upper), when known.
+    pub range95: Option<(f64, f64)>,
+}
+
+/// The forecasts one model made from one backtest origin.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BacktestPath {
+    /// The last month the model saw.
+    pub origin: YearMonth,
+    /// (target month, forecast), in month order.
+    pub points: Vec<(YearMonth, f64)>,
+}
+
+/// The backtest panel: a model's forecasts from each origin against what
+/// was then observed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BacktestPanel {
+    /// The model backtested.
+    pub model: String,
+    /// One path per origin.
+    pub paths: Vec<BacktestPath>,
+}
+
+/// Everything the chart of one product shows. Units are base units per
+/// month throughout.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProductChart {
+    /// Title (the product name; cut to fit).
+    pub title: String,
+    /// One line under the title (model, score...).
+    pub subtitle: String,
+    /// Legend label of the history line, e.g. "cleaned consumption".
+    pub history_label: String,
+    /// Legend label of the projection line, e.g. "projection (ets-holt)".
+    pub projection_label: String,
+    /// The history, in month order.
+    pub history: Vec<HistoryMonth>,
+    /// The projection, in month order (may be empty).
+    pub projection: Vec<ProjectedMonth>,
+    /// The backtest panel, when there is one.
+    pub backtest: Option<BacktestPanel>,
+}
+
+const WIDTH: u32 = 1200;
+const TOP_HEIGHT: u32 = 470;
+const BOTTOM_HEIGHT: u32 = 300;
+
+impl ProductChart {
+    /// Size in pixels (width, height).
+    pub fn size(&self) -> (u32, u32) {
+        match self.backtest {
+            Some(_) => (WIDTH, TOP_HEIGHT + BOTTOM_HEIGHT),
+            None => (WIDTH, TOP_HEIGHT),
+        }
+    }
+}
+
+/// Draws the chart as an SVG document.
+pub fn product_svg(chart: &ProductChart) -> Result<String> {
+    render_svg(&chart.title, chart.size(), |root| draw(root, chart))
+}
+
+/// Draws the chart into a PNG file (written atomically).
+pub fn product_png(path: &Path, chart: &ProductChart) -> Result<()> {
+    render_png(path, &chart.title, chart.size(), |root| draw(root, chart))
+}
+
+fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+    root.fill(&WHITE).msg()?;
+    let (top, bottom) = root.split_vertically(TOP_HEIGHT);
+    draw_main(&top, c)?;
+    if let Some(bt) = &c.backtest {
+        draw_backtest(&bottom, c, bt)?;
+    }
+    Ok(())
+}
+
+/// Month axis: x is months after `base`; bold ticks at each January (and
+/// July on short spans), light lines at each quarter.
+fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
+    let span = last - first;
+    let mut bold = Vec::new();
+    let mut light = Vec::new();
+    for t in first..=last {
+        let m = base.plus(t).month();
+        let is_bold = m == 1 || (span <= 36 && m == 7) || (span <= 15 && (m - 1) % 3 == 0);
+        if is_bold {
+            bold.push(t as f64);
+        } else if (m - 1) % 3 == 0 {
+            light.push(t as f64);
+        }
+    }
+    KeyAxis {
+        lo: first as f64 - 0.5,
+        hi: last as f64 + 0.5,
+        bold,
+        light,
+    }
+}
+
+fn nice_top(v: f64) -> f64 {
+    if v.is_finite() && v > 0.0 {
+        v * 1.06
+    } else {
+        1.0
+    }
+}
+
+/// Splits a sequence of optional points into runs without gaps.
+fn runs(points: impl Iterator<Item = (f64, Option<f64>)>) -> Vec<Vec<(f64, f64)>> {
+    let mut out = vec![Vec::new()];
+    for (x, y) in points {
+        match y.filter(|v| v.is_finite()) {
+            Some(v) => out.last_mut().map(|r| r.push((x, v))).unwrap_or(()),
+            None => {
+                if out.last().is_some_and(|r| !r.is_empty()) {
+                    out.push(Vec::new());
+                }
+            }
+        }
+    }
+    out.retain(|r| !r.is_empty());
+    out
+}
+
+fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+    let (head, plot) = area.split_vertically(104);
+    head.draw(&Text::new(
+        cut(&c.title, 90),
+        (16, 10),
+        (FONT, 27).into_font().color(&INK),
+    ))
+    .msg()?;
+    head.draw(&Text::new(
+        cut(&c.subtitle, 150),
+        (16, 38),
+        (FONT, 16).into_font().color(&MUTED),
+    ))
+    .msg()?;
+
+    let base = c
+        .history
+        .first()
+        .map(|h| h.month)
+        .or_else(|| c.projection.first().map(|p| p.month));
+    let Some(base) = base else {
+        plot.draw(&Text::new(
+            "no data to draw",
+            (16, 20),
+            (FONT, 19).into_font().color(&MUTED),
+        ))
+        .msg()?;
+        return Ok(());
+    };
+    let x = |m: YearMonth| base.months_until(m) as f64;
+    let last = c
+        .projection
+        .last()
+        .map(|p| p.month)
+        .into_iter()
+        .chain(c.history.last().map(|h| h.month))
+        .max()
+        .unwrap_or(base);
+    let mut ymax: f64 = 0.0;
+    for h in &c.history {
+        ymax = ymax.max(h.reported.unwrap_or(0.0));
+        ymax = ymax.max(h.cleaned.unwrap_or(0.0));
+    }
+    for p in &c.projection {
+        ymax = ymax.max(p.point);
+        if let Some((_, u)) = p.range95.or(p.range80) {
+            ymax = ymax.max(u);
+        }
+    }
+    let ymax = nice_top(ymax);
+
+    let mut chart = ChartBuilder::on(&plot)
+        .margin_left(12)
+        .margin_right(28)
+        .margin_bottom(8)
+        .x_label_area_size(30)
+        .y_label_area_size(86)
+        .build_cartesian_2d(month_axis(base, 0, base.months_until(last)), 0.0..ymax)
+        .msg()?;
+    chart
+        .configure_mesh()
+        .bold_line_style(GRID.stroke_width(1))
+        .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
+        .axis_style(MUTED.stroke_width(1))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
+        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
+        .y_label_formatter(&|v| fmt_quantity(*v))
+        .y_labels(6)
+        .y_desc("consumption (base units per month)")
+        .draw()
+        .msg()?;
+
+    let mut legend: Vec<(Glyph, String)> = Vec::new();
+
+    // Ranges first, so lines are drawn over them.
+    for (alpha, pick, label) in [
+        (
+            0.16,
+            (|p: &ProjectedMonth| p.range95) as fn(&ProjectedMonth) -> Option<(f64, f64)>,
+            "95% range",
+        ),
+        (0.32, |p: &ProjectedMonth| p.range80, "80% range"),
+    ] {
+        let pts: Vec<(f64, (f64, f64))> = c
+            .projection
+            .iter()
+            .filter_map(|p| pick(p).map(|r| (x(p.month), r)))
+            .collect();
+        if pts.is_empty() {
+            continue;
+        }
+        let mut poly: Vec<(f64, f64)> = pts.iter().map(|(x, (_, u))| (*x, *u)).collect();
+        poly.extend(pts.iter().rev().map(|(x, (l, _))| (*x, *l)));
+        chart
+            .draw_series(std::iter::once(Polygon::new(
+                poly,
+                FORECAST.mix(alpha).filled(),
+            )))
+            .msg()?;
+        legend.push((Glyph::Band(FORECAST, alpha), label.to_string()));
+    }
+    legend.reverse();
+
+    let mut items: Vec<(Glyph, String)> = Vec::new();
+    let reported = runs(c.history.iter().map(|h| (x(h.month), h.reported)));
+    if !reported.is_empty() {
+        for r in reported {
+            chart
+                .draw_series(LineSeries::new(r, REPORTED.stroke_width(1)))
+                .msg()?;
+        }
+        items.push((Glyph::Line(REPORTED, 1), "reported".to_string()));
+    }
+    let cleaned = runs(c.history.iter().map(|h| (x(h.month), h.cleaned)));
+    if !cleaned.is_empty() {
+        for r in cleaned {
+            chart
+                .draw_series(LineSeries::new(r, CLEANED.stroke_width(2)))
+                .msg()?;
+        }
+        items.push((Glyph::Line(CLEANED, 2), c.history_label.clone()));
+    }
+    let marked = |status: MonthStatus| {
+        c.history
+            .iter()
+            .filter(move |h| h.status == status)
+            .filter_map(move |h| h.cleaned.map(|v| (x(h.month), v)))
+    };
+    if marked(MonthStatus::Adjusted).next().is_some() {
+        chart
+            .draw_series(
+                marked(MonthStatus::Adjusted).map(|p| Circle::new(p, 3, ADJUSTED.filled())),
+            )
+            .msg()?;
+        items.push((Glyph::Dot(ADJUSTED), "adjusted month".to_string()));
+    }
+    if marked(MonthStatus::PartlyFilled).next().is_some() {
+        chart
+            .draw_series(
+                marked(MonthStatus::PartlyFilled)
+                    .map(|p| Circle::new(p, 4, FILLED.stroke_width(2))),
+            )
+            .msg()?;
+        items.push((
+            Glyph::Ring(FILLED),
+            "partly filled (some sites)".to_string(),
+        ));
+    }
+    if marked(MonthStatus::Imputed).next().is_some() {
+        chart
+            .draw_series(marked(MonthStatus::Imputed).map(|p| {
+                EmptyElement::at(p) + Rectangle::new([(-4, -4), (4, 4)], FILLED.stroke_width(2))
+            }))
+            .msg()?;
+        items.push((Glyph::Square(FILLED), "imputed month".to_string()));
+    }
+    let outliers: Vec<(f64, f64)> = c
+        .history
+        .iter()
+        .filter(|h| h.outlier)
+        .filter_map(|h| h.cleaned.or(h.reported).map(|v| (x(h.month), v)))
+        .collect();
+    if !outliers.is_empty() {
+        chart
+            .draw_series(
+                outliers
+                    .into_iter()
+                    .map(|p| Cross::new(p, 6, OUTLIER.stroke_width(2))),
+            )
+            .msg()?;
+        items.push((Glyph::Cross(OUTLIER), "outlier flagged".to_string()));
+    }
+
+    if let Some(first) = c.projection.first() {
+        // Join the projection to the last history value, so the eye follows.
+        let mut line: Vec<(f64, f64)> = Vec::new();
+        if let Some((hm, hv)) = c
+            .history
+            .iter()
+            .rev()
+            .find_map(|h| h.cleaned.map(|v| (h.month, v)))
+            .filter(|(m, _)| m.plus(1) == first.month)
+        {
+            line.push((x(hm), hv));
+        }
+        line.extend(c.projection.iter().map(|p| (x(p.month), p.point)));
+        chart
+            .draw_series(LineSeries::new(line, FORECAST.stroke_width(2)))
+            .msg()?;
+        items.push((Glyph::Line(FORECAST, 2), c.projection_label.clone()));
+        items.extend(legend);
+
+        let xs = x(first.month) - 0.5;
+        chart
+            .draw_series(DashedLineSeries::new(
+                vec![(xs, 0.0), (xs, ymax)],
+                6,
+                4,
+                MUTED.stroke_width(1),
+            ))
+            .msg()?;
+        let (px, py) = chart.backend_coord(&(xs, ymax));
+        let (ox, oy) = plot.get_base_pixel();
+        let label = format!("forecast from {}", month_label(first.month));
+        plot.draw(&Text::new(
+            label,
+            (px - ox + 6, py - oy + 4),
+            (FONT, 15).into_font().color(&MUTED),
+        ))
+        .msg()?;
+    }
+    draw_legend(&head, &items, (16, 62), WIDTH as i32 - 32)
+}
+
+fn draw_backtest<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    c: &ProductChart,
+    bt: &BacktestPanel,
+) -> Drawn {
+    let (head, plot) = area.split_vertically(56);
+    head.draw(&Text::new(
+        cut(
+            &format!(
+                "Backtest of {}: what it would have forecast from each of {} past months, against the cleaned series",
+                bt.model,
+                bt.paths.len()
+            ),
+            150,
+        ),
+        (16, 6),
+        (FONT, 19).into_font().color(&INK),
+    ))
+    .msg()?;
+    let Some(first_origin) = bt.paths.iter().map(|p| p.origin).min() else {
+        head.draw(&Text::new(
+            "no backtest: the series is too short for any origin",
+            (16, 30),
+            (FONT, 16).into_font().color(&MUTED),
+        ))
+        .msg()?;
+        return Ok(());
+    };
+    let last_target = bt
+        .paths
+        .iter()
+        .flat_map(|p| p.points.iter().map(|q| q.0))
+        .chain(c.history.last().map(|h| h.month))
+        .max()
+        .unwrap_or(first_origin);
+    let from = first_origin.plus(-6);
+    let actual: Vec<(YearMonth, f64)> = c
+        .history
+        .iter()
+        .filter(|h| h.month >= from && h.month <= last_target)
+        .filter_map(|h| h.cleaned.map(|v| (h.month, v)))
+        .collect();
+    let base = from;
+    let x = |m: YearMonth| base.months_until(m) as f64;
+    let mut ymax: f64 = actual.iter().map(|a| a.1).fold(0.0, f64::max);
+    for p in &bt.paths {
+        for q in &p.points {
+            if q.1.is_finite() {
+                ymax = ymax.max(q.1);
+            }
+        }
+    }
+    let ymax = nice_top(ymax);
+    let mut chart = ChartBuilder::on(&plot)
+        .margin_left(12)
+        .margin_right(28)
+        .margin_bottom(8)
+        .x_label_area_size(30)
+        .y_label_area_size(86)
+        .build_cartesian_2d(
+            month_axis(base, 0, base.months_until(last_target)),
+            0.0..ymax,
+        )
+        .msg()?;
+    chart
+        .configure_mesh()
+        .bold_line_style(GRID.stroke_width(1))
+        .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
+        .axis_style(MUTED.stroke_width(1))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
+        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
+        .y_label_formatter(&|v| fmt_quantity(*v))
+        .y_labels(5)
+        .y_desc("base units per month")
+        .draw()
+        .msg()?;
+    let value_at = |m: YearMonth| actual.iter().find(|a| a.0 == m).map(|a| a.1);
+    for p in &bt.paths {
+        let mut line: Vec<(f64, f64)> = Vec::new();
+        if let Some(v) = value_at(p.origin) {
+            line.push((x(p.origin), v));
+        }
+        line.extend(
+            p.points
+                .iter()
+                .filter(|q| q.1.is_finite())
+                .map(|q| (x(q.0), q.1)),
+        );
+        chart
+            .draw_series(LineSeries::new(line, FORECAST.mix(0.55).stroke_width(1)))
+            .msg()?;
+    }
+    chart
+        .draw_series(LineSeries::new(
+            actual.iter().map(|a| (x(a.0), a.1)),
+            INK.stroke_width(2),
+        ))
+        .msg()?;
+    chart
+        .draw_series(
+            bt.paths
+                .iter()
+                .filter_map(|p| value_at(p.origin).map(|v| (x(p.origin), v)))
+                .map(|p| Circle::new(p, 3, FORECAST.filled())),
+        )
+        .msg()?;
+    let ahead = bt.paths.iter().map(|p| p.points.len()).max().unwrap_or(0);
+    let items = vec![
+        (Glyph::Line(INK, 2), "cleaned series".to_string()),
+        (
+            Glyph::Line(FORECAST, 1),
+            format!("forecast made at one origin (1–{ahead} months ahead)"),
+        ),
+        (Glyph::Dot(FORECAST), "origin".to_string()),
+    ];
+    draw_legend(&head, &items, (16, 32), WIDTH as i32 - 32)
+}

@@ -1,0 +1,253 @@
+//! `provisio review PAST_DIR [PAST_DIR...] --actuals DATA --out DIR`:
+//! score past forecasts against the consumption reported since.
+
+use std::path::PathBuf;
+
+use anyhow::Context;
+use clap::Args;
+
+use super::print_accounting;
+use provisio::clean::Cleaned;
+use provisio::data::Dataset;
+use provisio::output;
+use provisio::review::{self, Actuals, PastForecast, ReviewSettings};
+
+#[derive(Args, Debug)]
+pub struct ReviewArgs {
+    /// Output directories of earlier `forecast` runs (several = vintages to compare).
+    #[arg(required = true, value_name = "PAST_DIR")]
+    past: Vec<PathBuf>,
+    /// The consumption reported since, in the input contract (it may also hold the earlier months).
+    #[arg(long, value_name = "DATA")]
+    actuals: PathBuf,
+    /// Directory for the outputs (created if needed).
+    #[arg(long, value_name = "DIR")]
+    out: PathBuf,
+    /// Share of a product's volume changed by cleaning above which the audit flags it (0.2 = 20%).
+    #[arg(long, default_value_t = review::DEFAULT_ADJUSTMENT_LIMIT, value_name = "SHARE")]
+    adjustment_limit: f64,
+    /// Also score months whose actual is mostly imputed (default: as the past run's backtest did).
+    #[arg(long)]
+    score_imputed: bool,
+}
+
+pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
+    let settings = ReviewSettings {
+        adjustment_limit: a.adjustment_limit,
+        score_imputed: a.score_imputed.then_some(true),
+    }
+    .check()?;
+    let mut pasts: Vec<PastForecast> = Vec::new();
+    for (i, dir) in a.past.iter().enumerate() {
+        let same = |p: &PathBuf| match (p.canonicalize(), dir.canonicalize()) {
+            (Ok(x), Ok(y)) => x == y,
+            _ => p == dir,
+        };
+        if a.past[..i].iter().any(same) {
+            anyhow::bail!(
+                "{}: given twice; give each past forecast directory once",
+                dir.display()
+            );
+        }
+        pasts.push(review::read_past(dir)?);
+    }
+    let bytes = std::fs::read(&a.actuals)
+        .map_err(|e| anyhow::anyhow!("{}: cannot read actuals: {e}", a.actuals.display()))?;
+    let source = a.actuals.display().to_string();
+    // The actuals are cleaned once per distinct set of past settings.
+    let mut cleanings: Vec<(usize, Dataset, Cleaned)> = Vec::new();
+    let mut which = Vec::with_capacity(pasts.len());
+    for (i, p) in pasts.iter().enumerate() {
+        let same = cleanings.iter().position(|(j, _, _)| {
+            let m = &pasts[*j].manifest;
+            m.clean_settings == p.manifest.clean_settings && m.duplicates == p.manifest.duplicates
+        });
+        match same {
+            Some(k) => which.push(k),
+            None => {
+                let (ds, cleaned) = review::clean_actuals(&source, &bytes, &p.manifest)?;
+                which.push(cleanings.len());
+                cleanings.push((i, ds, cleaned));
+            }
+        }
+    }
+    let mut warnings = Vec::new();
+    if cleanings.len() > 1 {
+        warnings.push(format!(
+            "the past runs used {} different sets of cleaning settings; the actuals were cleaned with each run's own, so vintages are compared against slightly different actuals",
+            cleanings.len()
+        ));
+    }
+    let actuals: Vec<Actuals> = which
+        .iter()
+        .map(|&k| Actuals {
+            source: &source,
+            cleaned: &cleanings[k].2,
+        })
+        .collect();
+    let result = review::review_all(&pasts, &actuals, &settings)?;
+    let (_, ds0, cleaned0) = &cleanings[0];
+    print_accounting(ds0, cleaned0, 5);
+    let unforecast: Vec<&str> = cleaned0
+        .series
+        .iter()
+        .map(|s| s.product.as_str())
+        .filter(|p| {
+            !pasts
+                .iter()
+                .any(|v| v.products.iter().any(|q| q.product == *p))
+        })
+        .collect();
+    if !unforecast.is_empty() {
+        warnings.push(format!(
+            "{} product(s) in the actuals are in no past forecast and were not reviewed: {}",
+            unforecast.len(),
+            unforecast.join(", ")
+        ));
+    }
+    for n in &result.not_reviewed {
+        warnings.push(format!(
+            "product '{}' of {} not reviewed: {}",
+            n.product, result.vintages[n.vintage].name, n.reason
+        ));
+    }
+    std::fs::create_dir_all(&a.out)
+        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    let limit = settings.get().adjustment_limit;
+    output::write_review(&a.out.join("review.csv"), &result, limit)?;
+    output::write_review_months(&a.out.join("review_months.csv"), &result)?;
+    let run = serde_json::json!({
+        "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        "command": "review",
+        "actuals": source,
+        "actuals_sha256": output::sha256_hex(&bytes),
+        "past_dirs": a.past.iter().map(|p| p.display().to_string()).collect::<Vec<_>>(),
+        "settings": settings.get(),
+        "rows": cleaned0.rows,
+        "warnings": warnings,
+    });
+    output::write_json(
+        &a.out.join("review.json"),
+        &output::review_json(&result, limit, run),
+    )?;
+    let ordered: Vec<&PastForecast> = result
+        .vintages
+        .iter()
+        .filter_map(|v| pasts.iter().find(|p| p.name == v.name))
+        .collect();
+    let sha = output::sha256_hex(&bytes);
+    let tool = format!("provisio {}", env!("CARGO_PKG_VERSION"));
+    let page = provisio::report::review::ReviewPage {
+        review: &result,
+        pasts: &ordered,
+        adjustment_limit: limit,
+        actuals: &source,
+        actuals_sha256: &sha,
+        tool: &tool,
+        warnings: &warnings,
+    };
+    let written = provisio::report::review::write_review_report(&a.out, &page)?;
+    print_summary(&result, limit);
+    for w in &warnings {
+        eprintln!("warning: {w}");
+    }
+    println!(
+        "reviewed {} product forecast(s) from {} vintage(s); wrote review.csv, review_months.csv, review.json, review.html and {} chart files (charts/) in {}",
+        result.products.len(),
+        result.vintages.len(),
+        written.charts.len(),
+        a.out.display()
+    );
+    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    Ok(())
+}
+
+fn print_summary(r: &review::Review, limit: f64) {
+    let w = r
+        .products
+        .iter()
+        .map(|p| p.product.chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40);
+    let cut = |s: &str| super::pad(&super::truncate(s, w), w);
+    let f = |v: Option<f64>, plus: bool| match v {
+        Some(x) if plus => format!("{x:+.1}"),
+        Some(x) => format!("{x:.1}"),
+        None => "-".into(),
+    };
+    let several = r.vintages.len() > 1;
+    for (i, v) in r.vintages.iter().enumerate() {
+        println!(
+            "vintage {}: {} (forecast {} to {})",
+            i + 1,
+            v.name,
+            v.start,
+            v.end
+        );
+    }
+    println!(
+        "{}  {}{:<22} {:>6} {:>7} {:>7} {:>7} {:>7} {:>7} {:>6} {:>7} {:>7}  flags",
+        cut("product"),
+        if several { "vint " } else { "" },
+        "model",
+        "months",
+        "MAPE%",
+        "bias%",
+        "WAPE%",
+        "in80%",
+        "in95%",
+        "TS",
+        "FVA-nv",
+        "FVA-sn"
+    );
+    for p in &r.products {
+        let s = &p.scores;
+        let mut flags = Vec::new();
+        if s.tracking_flagged() {
+            flags.push("tracking");
+        }
+        if s.coverage80_short() || s.coverage95_short() {
+            flags.push("coverage");
+        }
+        if s.fva_naive().is_some_and(|v| v < 0.0) || s.fva_seasonal_naive().is_some_and(|v| v < 0.0)
+        {
+            flags.push("naive-better");
+        }
+        if p.history_audit.flagged || p.period_audit.flagged {
+            flags.push("adjusted");
+        }
+        let closest = r
+            .comparisons
+            .iter()
+            .find(|c| c.product == p.product)
+            .is_some_and(|c| c.closest == Some(p.vintage));
+        if closest {
+            flags.push("closest");
+        }
+        println!(
+            "{}  {}{:<22} {:>6} {:>7} {:>7} {:>7} {:>7} {:>7} {:>6} {:>7} {:>7}  {}",
+            cut(&p.product),
+            if several {
+                format!("{:<5}", p.vintage + 1)
+            } else {
+                String::new()
+            },
+            super::truncate(&p.model, 22),
+            format!("{}/{}", s.months, p.months.len()),
+            f(s.mape, false),
+            f(s.bias, true),
+            f(s.wape, false),
+            f(s.coverage80, false),
+            f(s.coverage95, false),
+            f(s.tracking.map(|t| t.value), true),
+            f(s.fva_naive(), true),
+            f(s.fva_seasonal_naive(), true),
+            flags.join(" ")
+        );
+    }
+    println!(
+        "(months: scored/with actuals; bias > 0 = over-forecast; TS: tracking signal, flagged beyond ±4; FVA-nv / FVA-sn: WAPE of the naive / seasonal naive forecast made at the same time minus the model's, > 0 = the model added value; adjusted: over {:.0}% of volume not as reported)",
+        100.0 * limit
+    );
+}

@@ -1,0 +1,602 @@
+//! Reading a forecast output directory back (the files `forecast` writes),
+//! so a report can be rebuilt from the files alone.
+
+use std::collections::{BTreeMap, HashMap};
+use std::path::Path;
+
+use crate::calendar::YearMonth;
+use crate::chart::{BacktestPanel, BacktestPath, HistoryMonth, ProjectedMonth};
+use crate::clean::MonthStatus;
+use crate::error::{Error, Result};
+
+/// What `forecast` chose for one product (a row of `selection.csv`).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Selection {
+    /// Chosen model.
+    pub chosen: String,
+    /// Members when the chosen model is the combination.
+    pub members: String,
+    /// Pinned by the user.
+    pub pinned: bool,
+    /// The model the backtest picked (differs from `chosen` when pinned).
+    pub best: String,
+    /// Score used to choose ("MAPE", "WAPE", ...).
+    pub selected_by: String,
+    /// Backtest MAPE of the chosen model, %.
+    pub mape: Option<f64>,
+    /// Backtest bias of the chosen model, % (positive = over-forecast).
+    pub bias: Option<f64>,
+    /// Backtest WAPE of the chosen model, %.
+    pub wape: Option<f64>,
+    /// Backtest MASE of the chosen model.
+    pub mase: Option<f64>,
+    /// Backtest RMSE of the chosen model, base units.
+    pub rmse: Option<f64>,
+    /// Share of actuals inside the 80% range, %.
+    pub coverage80: Option<f64>,
+    /// Share of actuals inside the 95% range, %.
+    pub coverage95: Option<f64>,
+    /// Runner-up model.
+    pub runner_up: String,
+    /// Runner-up's score.
+    pub runner_up_score: Option<f64>,
+    /// How much worse the runner-up is, %.
+    pub margin: Option<f64>,
+    /// Whether any backtest origin existed.
+    pub backtested: bool,
+    /// Average monthly consumption of the last 12 cleaned months.
+    pub amc_last_12: Option<f64>,
+    /// Average monthly consumption of the next 12 projected months.
+    pub amc_next_12: Option<f64>,
+    /// Projected total of months 1–12.
+    pub total_1_12: Option<f64>,
+    /// Projected total of months 13–24.
+    pub total_13_24: Option<f64>,
+    /// Why this model, in plain words.
+    pub reason: String,
+}
+
+/// The data-quality profile of one product (a row of `quality.csv`).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Quality {
+    /// Verdict: "fit", "fit with care" or "not fit".
+    pub verdict: String,
+    /// Reasons for the verdict, in plain words.
+    pub reasons: Vec<String>,
+    /// Sites reporting.
+    pub sites: String,
+    /// Months covered.
+    pub months: String,
+    /// Months with a report.
+    pub months_reported: String,
+    /// Months with no report.
+    pub months_missing: String,
+    /// Months with stockout days.
+    pub months_with_stockouts: String,
+    /// Mean reporting rate, %.
+    pub mean_reporting_rate: String,
+}
+
+/// One candidate's backtest scores (a row of `scores.csv`).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ScoreRow {
+    /// Model name.
+    pub model: String,
+    /// "complete", "not applicable" or "incomplete".
+    pub status: String,
+    /// Forecasts scored.
+    pub points: Option<f64>,
+    /// MAPE, %.
+    pub mape: Option<f64>,
+    /// Bias, %.
+    pub bias: Option<f64>,
+    /// WAPE, %.
+    pub wape: Option<f64>,
+    /// MASE.
+    pub mase: Option<f64>,
+    /// RMSE.
+    pub rmse: Option<f64>,
+    /// Coverage of the 80% range, %.
+    pub coverage80: Option<f64>,
+    /// Coverage of the 95% range, %.
+    pub coverage95: Option<f64>,
+    /// Why not applicable, or what is missing.
+    pub note: String,
+}
+
+/// One entry of the adjustment log (a row of `adjustments.csv`).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AdjustmentRow {
+    /// Site, when the data has sites.
+    pub site: String,
+    /// Month adjusted.
+    pub month: String,
+    /// Input line, when one row is involved.
+    pub line: String,
+    /// Value before.
+    pub before: Option<f64>,
+    /// Value after.
+    pub after: Option<f64>,
+    /// Rule applied.
+    pub rule: String,
+    /// Reason with the numbers used.
+    pub reason: String,
+}
+
+/// Everything the report shows about one product.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProductResult {
+    /// Product name as in the input.
+    pub product: String,
+    /// The choice of model and its evidence.
+    pub selection: Selection,
+    /// Data-quality profile, when `quality.csv` has the product.
+    pub quality: Option<Quality>,
+    /// Reported and cleaned history.
+    pub history: Vec<HistoryMonth>,
+    /// The projection with its ranges.
+    pub projection: Vec<ProjectedMonth>,
+    /// The chosen model's backtest paths, when backtested.
+    pub backtest: Option<BacktestPanel>,
+    /// Every candidate's scores.
+    pub scores: Vec<ScoreRow>,
+    /// The adjustment log entries of this product.
+    pub adjustments: Vec<AdjustmentRow>,
+    /// Warnings that name this product.
+    pub warnings: Vec<String>,
+}
+
+/// A forecast run read back from its output directory.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ForecastRun {
+    /// `manifest.json` as written.
+    pub manifest: serde_json::Value,
+    /// One entry per product, in the order of `selection.csv`.
+    pub products: Vec<ProductResult>,
+    /// Warnings not tied to one product.
+    pub warnings: Vec<String>,
+    /// Rows of `rejected.csv`.
+    pub rejected_rows: usize,
+}
+
+/// A CSV file with its header, addressed by column name; rows are read
+/// one at a time (`backtest.csv` of a large run is hundreds of megabytes).
+struct Table {
+    file: String,
+    columns: HashMap<String, usize>,
+    reader: csv::Reader<std::fs::File>,
+}
+
+impl Table {
+    fn read(dir: &Path, name: &str) -> Result<Option<Table>> {
+        let path = dir.join(name);
+        if !path.exists() {
+            return Ok(None);
+        }
+        let file = path.display().to_string();
+        let bad = |line: u64, e: csv::Error| Error::Input {
+            file: file.clone(),
+            line,
+            column: None,
+            message: format!("cannot read this CSV file: {e}"),
+        };
+        let mut reader = csv::ReaderBuilder::new()
+            .flexible(false)
+            .from_path(&path)
+            .map_err(|e| bad(0, e))?;
+        let columns = reader
+            .headers()
+            .map_err(|e| bad(1, e))?
+            .iter()
+            .enumerate()
+            .map(|(i, h)| (h.trim().to_string(), i))
+            .collect();
+        Ok(Some(Table {
+            file,
+            columns,
+            reader,
+        }))
+    }
+
+    /// Calls `f` with each row and its line number.
+    fn each<F>(&mut self, mut f: F) -> Result<()>
+    where
+        F: FnMut(&Self, u64, &csv::StringRecord) -> Result<()>,
+    {
+        let mut rec = csv::StringRecord::new();
+        loop {
+            match self.reader.read_record(&mut rec) {
+                Ok(true) => {
+                    let line = rec.position().map(|p| p.line()).unwrap_or(0);
+                    f(self, line, &rec)?;
+                }
+                Ok(false) => return Ok(()),
+                Err(e) => {
+                    return Err(Error::Input {
+                        file: self.file.clone(),
+                        line: e.position().map(|p| p.line()).unwrap_or(0),
+                        column: None,
+                        message: format!("cannot read this CSV file: {e}"),
+                    })
+                }
+            }
+        }
+    }
+
+    fn required(dir: &Path, name: &str) -> Result<Table> {
+        Table::read(dir, name)?.ok_or_else(|| Error::Input {
+            file: dir.join(name).display().to_string(),
+            line: 0,
+            column: None,
+            message: "file not found; give the output directory of `provisio forecast`".into(),
+        })
+    }
+
+    /// Column accessor for the named columns; the error names the file.
+    fn cols<const N: usize>(&self, names: [&str; N]) -> Result<[usize; N]> {
+        let mut out = [0; N];
+        for (k, n) in names.iter().enumerate() {
+            out[k] = *self.columns.get(*n).ok_or_else(|| Error::Input {
+                file: self.file.clone(),
+                line: 1,
+                column: Some(n.to_string()),
+                message: format!(
+                    "missing column; this file must have the columns {}",
+                    names.join(", ")
+                ),
+            })?;
+        }
+        Ok(out)
+    }
+
+    fn num(
+        &self,
+        line: u64,
+        rec: &csv::StringRecord,
+        col: usize,
+        name: &str,
+    ) -> Result<Option<f64>> {
+        let v = rec.get(col).unwrap_or("").trim();
+        if v.is_empty() {
+            return Ok(None);
+        }
+        v.parse::<f64>()
+            .ok()
+            .filter(|x| x.is_finite())
+            .map(Some)
+            .ok_or_else(|| Error::Input {
+                file: self.file.clone(),
+                line,
+                column: Some(name.to_string()),
+                message: format!("'{v}' is not a number; expected a plain number or nothing"),
+            })
+    }
+
+    fn month(
+        &self,
+        line: u64,
+        rec: &csv::StringRecord,
+        col: usize,
+        name: &str,
+    ) -> Result<YearMonth> {
+        let v = rec.get(col).unwrap_or("").trim();
+        YearMonth::parse(v).map_err(|why| Error::Input {
+            file: self.file.clone(),
+            line,
+            column: Some(name.to_string()),
+            message: format!("'{v}': {why}"),
+        })
+    }
+}
+
+fn text(rec: &csv::StringRecord, col: usize) -> String {
+    rec.get(col).unwrap_or("").to_string()
+}
+
+fn status(name: &str) -> MonthStatus {
+    match name {
+        "adjusted" => MonthStatus::Adjusted,
+        "partly-filled" => MonthStatus::PartlyFilled,
+        "imputed" => MonthStatus::Imputed,
+        _ => MonthStatus::Reported,
+    }
+}
+
+/// Reads the output directory of a `forecast` run. `selection.csv`,
+/// `forecast.csv`, `cleaned.csv` and `manifest.json` are required; the
+/// others add detail when present.
+pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
+    let manifest_path = dir.join("manifest.json");
+    let manifest: serde_json::Value = {
+        let bytes = std::fs::read(&manifest_path).map_err(|source| Error::Io {
+            path: manifest_path.clone(),
+            action: "cannot read (give the output directory of `provisio forecast`)",
+            source,
+        })?;
+        serde_json::from_slice(&bytes).map_err(|e| Error::Input {
+            file: manifest_path.display().to_string(),
+            line: e.line() as u64,
+            column: None,
+            message: format!("not valid JSON: {e}"),
+        })?
+    };
+
+    let mut sel = Table::required(dir, "selection.csv")?;
+    let names = [
+        "product",
+        "chosen_model",
+        "members",
+        "pinned",
+        "best_model",
+        "selected_by",
+        "mape_pct",
+        "bias_pct",
+        "wape_pct",
+        "mase",
+        "coverage_80_pct",
+        "coverage_95_pct",
+        "runner_up",
+        "runner_up_score",
+        "margin_pct",
+        "backtested",
+        "amc_last_12",
+        "amc_next_12",
+        "total_months_1_12",
+        "total_months_13_24",
+        "reason",
+        "rmse",
+    ];
+    let c = sel.cols(names)?;
+    let mut products: Vec<ProductResult> = Vec::new();
+    let mut index: HashMap<String, usize> = HashMap::new();
+    sel.each(|sel, line, rec| {
+        let n = |k: usize| sel.num(line, rec, c[k], names[k]);
+        let s = Selection {
+            chosen: text(rec, c[1]),
+            members: text(rec, c[2]),
+            pinned: text(rec, c[3]) == "yes",
+            best: text(rec, c[4]),
+            selected_by: text(rec, c[5]),
+            mape: n(6)?,
+            bias: n(7)?,
+            wape: n(8)?,
+            mase: n(9)?,
+            coverage80: n(10)?,
+            coverage95: n(11)?,
+            runner_up: text(rec, c[12]),
+            runner_up_score: n(13)?,
+            margin: n(14)?,
+            backtested: text(rec, c[15]) == "yes",
+            amc_last_12: n(16)?,
+            amc_next_12: n(17)?,
+            total_1_12: n(18)?,
+            total_13_24: n(19)?,
+            reason: text(rec, c[20]),
+            rmse: n(21)?,
+        };
+        let product = text(rec, c[0]);
+        index.insert(product.clone(), products.len());
+        products.push(ProductResult {
+            product,
+            selection: s,
+            quality: None,
+            history: Vec::new(),
+            projection: Vec::new(),
+            backtest: None,
+            scores: Vec::new(),
+            adjustments: Vec::new(),
+            warnings: Vec::new(),
+        });
+        Ok(())
+    })?;
+
+    let mut cl = Table::required(dir, "cleaned.csv")?;
+    let c = cl.cols([
+        "product", "month", "reported", "cleaned", "status", "outlier",
+    ])?;
+    cl.each(|cl, line, rec| {
+        let Some(&i) = index.get(&text(rec, c[0])) else {
+            return Ok(());
+        };
+        products[i].history.push(HistoryMonth {
+            month: cl.month(line, rec, c[1], "month")?,
+            reported: cl.num(line, rec, c[2], "reported")?,
+            cleaned: cl.num(line, rec, c[3], "cleaned")?,
+            status: status(rec.get(c[4]).unwrap_or("")),
+            outlier: rec.get(c[5]).unwrap_or("") == "yes",
+        });
+        Ok(())
+    })?;
+
+    let mut fc = Table::required(dir, "forecast.csv")?;
+    let names = [
+        "product", "month", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
+    ];
+    let c = fc.cols(names)?;
+    fc.each(|fc, line, rec| {
+        let Some(&i) = index.get(&text(rec, c[0])) else {
+            return Ok(());
+        };
+        let n = |k: usize| fc.num(line, rec, c[k], names[k]);
+        let pair = |a: Option<f64>, b: Option<f64>| a.zip(b);
+        let Some(point) = n(2)? else { return Ok(()) };
+        products[i].projection.push(ProjectedMonth {
+            month: fc.month(line, rec, c[1], "month")?,
+            point,
+            range80: pair(n(3)?, n(4)?),
+            range95: pair(n(5)?, n(6)?),
+        });
+        Ok(())
+    })?;
+
+    if let Some(mut q) = Table::read(dir, "quality.csv")? {
+        let c = q.cols([
+            "product",
+            "verdict",
+            "reasons",
+            "sites",
+            "months",
+            "months_reported",
+            "months_missing",
+            "months_with_stockouts",
+            "mean_reporting_rate_pct",
+        ])?;
+        q.each(|_, _, rec| {
+            if let Some(&i) = index.get(&text(rec, c[0])) {
+                let reasons = text(rec, c[2]);
+                products[i].quality = Some(Quality {
+                    verdict: text(rec, c[1]),
+                    reasons: reasons
+                        .split("; ")
+                        .filter(|r| !r.is_empty())
+                        .map(str::to_string)
+                        .collect(),
+                    sites: text(rec, c[3]),
+                    months: text(rec, c[4]),
+                    months_reported: text(rec, c[5]),
+                    months_missing: text(rec, c[6]),
+                    months_with_stockouts: text(rec, c[7]),
+                    mean_reporting_rate: text(rec, c[8]),
+                });
+            }
+            Ok(())
+        })?;
+    }
+
+    if let Some(mut t) = Table::read(dir, "scores.csv")? {
+        let names = [
+            "product",
+            "model",
+            "status",
+            "points",
+            "mape_pct",
+            "bias_pct",
+            "wape_pct",
+            "mase",
+            "rmse",
+            "coverage_80_pct",
+            "coverage_95_pct",
+            "note",
+        ];
+        let c = t.cols(names)?;
+        t.each(|t, line, rec| {
+            let Some(&i) = index.get(&text(rec, c[0])) else {
+                return Ok(());
+            };
+            let n = |k: usize| t.num(line, rec, c[k], names[k]);
+            products[i].scores.push(ScoreRow {
+                model: text(rec, c[1]),
+                status: text(rec, c[2]),
+                points: n(3)?,
+                mape: n(4)?,
+                bias: n(5)?,
+                wape: n(6)?,
+                mase: n(7)?,
+                rmse: n(8)?,
+                coverage80: n(9)?,
+                coverage95: n(10)?,
+                note: text(rec, c[11]),
+            });
+            Ok(())
+        })?;
+    }
+
+    if let Some(mut t) = Table::read(dir, "backtest.csv")? {
+        let c = t.cols(["product", "model", "origin", "month", "forecast"])?;
+        let mut paths: Vec<BTreeMap<YearMonth, Vec<(YearMonth, f64)>>> =
+            vec![BTreeMap::new(); products.len()];
+        t.each(|t, line, rec| {
+            let Some(&i) = index.get(&text(rec, c[0])) else {
+                return Ok(());
+            };
+            if rec.get(c[1]) != Some(products[i].selection.chosen.as_str()) {
+                return Ok(());
+            }
+            let origin = t.month(line, rec, c[2], "origin")?;
+            let month = t.month(line, rec, c[3], "month")?;
+            if let Some(f) = t.num(line, rec, c[4], "forecast")? {
+                paths[i].entry(origin).or_default().push((month, f));
+            }
+            Ok(())
+        })?;
+        for (p, by_origin) in products.iter_mut().zip(paths) {
+            if by_origin.is_empty() {
+                continue;
+            }
+            p.backtest = Some(BacktestPanel {
+                model: p.selection.chosen.clone(),
+                paths: by_origin
+                    .into_iter()
+                    .map(|(origin, mut points)| {
+                        points.sort_by_key(|q| q.0);
+                        BacktestPath { origin, points }
+                    })
+                    .collect(),
+            });
+        }
+    }
+
+    if let Some(mut t) = Table::read(dir, "adjustments.csv")? {
+        let names = [
+            "product", "site", "month", "line", "before", "after", "rule", "reason",
+        ];
+        let c = t.cols(names)?;
+        t.each(|t, line, rec| {
+            let Some(&i) = index.get(&text(rec, c[0])) else {
+                return Ok(());
+            };
+            products[i].adjustments.push(AdjustmentRow {
+                site: text(rec, c[1]),
+                month: text(rec, c[2]),
+                line: text(rec, c[3]),
+                before: t.num(line, rec, c[4], "before")?,
+                after: t.num(line, rec, c[5], "after")?,
+                rule: text(rec, c[6]),
+                reason: text(rec, c[7]),
+            });
+            Ok(())
+        })?;
+    }
+
+    let mut rejected_rows = 0;
+    if let Some(mut t) = Table::read(dir, "rejected.csv")? {
+        t.each(|_, _, _| {
+            rejected_rows += 1;
+            Ok(())
+        })?;
+    }
+
+    let mut warnings = Vec::new();
+    let all: Vec<String> = manifest
+        .get("warnings")
+        .and_then(|w| w.as_array())
+        .map(|a| {
+            a.iter()
+                .filter_map(|v| v.as_str().map(str::to_string))
+                .collect()
+        })
+        .unwrap_or_default();
+    for w in all {
+        // Warnings about one product start "product '<name>': ".
+        let owner = w.strip_prefix("product '").and_then(|rest| {
+            // The longest matching name wins ("A" vs "A': b").
+            products
+                .iter()
+                .enumerate()
+                .filter(|(_, p)| rest.starts_with(&format!("{}': ", p.product)))
+                .max_by_key(|(_, p)| p.product.len())
+                .map(|(i, _)| i)
+        });
+        match owner {
+            Some(i) => products[i].warnings.push(w),
+            None => warnings.push(w),
+        }
+    }
+
+    Ok(ForecastRun {
+        manifest,
+        products,
+        warnings,
+        rejected_rows,
+    })
+}

@@ -1,0 +1,223 @@
+//! The report in a real browser: headless Chromium opens `report.html`
+//! (built from the committed fixture), must run its script with no console
+//! message (errors, blocked loads), and must paint a page that is not blank.
+//!
+//! Needs Debian's `chromium` (`.ci/run` installs it). Without a browser the
+//! test says so and passes, except under CI (`CI` set), where it fails.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+fn browser() -> Option<PathBuf> {
+    if let Some(p) = std::env::var_os("PROVISIO_CHROMIUM") {
+        return Some(PathBuf::from(p));
+    }
+    let path = std::env::var_os("PATH")?;
+    for name in ["chromium", "chromium-browser", "google-chrome"] {
+        for dir in std::env::split_paths(&path) {
+            let p = dir.join(name);
+            if p.is_file() {
+                return Some(p);
+            }
+        }
+    }
+    None
+}
+
+/// Runs the browser on `page` with `extra` flags; returns (stdout, stderr).
+fn run(browser: &Path, page: &Path, extra: &[String]) -> (String, String) {
+    let profile = tempfile::tempdir().unwrap();
+    let out = tempfile::NamedTempFile::new().unwrap();
+    let err = tempfile::NamedTempFile::new().unwrap();
+    let mut child = Command::new(browser)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--enable-logging=stderr",
+            "--v=0",
+        ])
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .args(extra)
+        .arg(format!("file://{}", page.display()))
+        .stdin(Stdio::null())
+        .stdout(out.reopen().unwrap())
+        .stderr(err.reopen().unwrap())
+        .spawn()
+        .unwrap();
+    let start = Instant::now();
+    loop {
+        if child.try_wait().unwrap().is_some() {
+            break;
+        }
+        if start.elapsed() > Duration::from_secs(120) {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("{} did not finish within 120 s", browser.display());
+        }
+        std::thread::sleep(Duration::from_millis(100));
+    }
+    (
+        std::fs::read_to_string(out.path()).unwrap_or_default(),
+        std::fs::read_to_string(err.path()).unwrap_or_default(),
+    )
+}
+
+/// Console messages in Chromium's log: `...:INFO:CONSOLE(12)] "Uncaught ..."`.
+fn console_lines(stderr: &str) -> Vec<&str> {
+    stderr
+        .lines()
+        .filter(|l| l.contains(":CONSOLE") || l.contains("Uncaught"))
+        .collect()
+}
+
+/// Screenshots the page; returns (distinct colours, share of pixels that
+/// differ from the top-left pixel).
+fn screenshot(browser: &Path, page: &Path, shot: &Path) -> (Vec<String>, usize, f64) {
+    let (_, stderr) = run(
+        browser,
+        page,
+        &[
+            format!("--screenshot={}", shot.display()),
+            "--window-size=1280,2000".to_string(),
+            "--hide-scrollbars".to_string(),
+        ],
+    );
+    let console = console_lines(&stderr)
+        .into_iter()
+        .map(str::to_string)
+        .collect();
+    let dec = png::Decoder::new(
+        std::fs::File::open(shot)
+            .unwrap_or_else(|e| panic!("no screenshot {}: {e}\n{stderr}", shot.display())),
+    );
+    let mut reader = dec.read_info().unwrap();
+    let mut buf = vec![0; reader.output_buffer_size()];
+    let info = reader.next_frame(&mut buf).unwrap();
+    let channels = info.color_type.samples();
+    let px: Vec<&[u8]> = buf[..info.buffer_size()].chunks(channels).collect();
+    let bg = px[0];
+    let mut colours = std::collections::HashSet::new();
+    let mut differ = 0usize;
+    for p in &px {
+        colours.insert(p.to_vec());
+        if p[..3] != bg[..3] {
+            differ += 1;
+        }
+    }
+    (console, colours.len(), differ as f64 / px.len() as f64)
+}
+
+#[test]
+fn report_renders_in_a_browser_without_errors() {
+    let Some(browser) = browser() else {
+        if std::env::var_os("CI").is_some() {
+            panic!(
+                "no chromium found under CI; .ci/run must install it (apt-get install chromium)"
+            );
+        }
+        eprintln!("SKIPPED report_renders_in_a_browser_without_errors: no chromium on PATH (install Debian's `chromium`, or set PROVISIO_CHROMIUM)");
+        return;
+    };
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("out");
+    std::fs::create_dir(&dir).unwrap();
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report/forecast-output");
+    for e in std::fs::read_dir(fixture).unwrap() {
+        let e = e.unwrap();
+        std::fs::copy(e.path(), dir.join(e.file_name())).unwrap();
+    }
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .arg("report")
+        .arg(&dir)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let page = dir.join("report.html");
+
+    // The detector must be able to fail: a page with a script error, a
+    // console error and a blocked load is caught.
+    let bad = tmp.path().join("bad.html");
+    std::fs::write(
+        &bad,
+        "<!DOCTYPE html><html><head><meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; script-src 'unsafe-inline'\"></head><body><p>x</p><script>console.error('boom'); notDefined();</script></body></html>",
+    )
+    .unwrap();
+    let (_, stderr) = run(&browser, &bad, &["--dump-dom".to_string()]);
+    let caught = console_lines(&stderr);
+    assert!(
+        caught.iter().any(|l| l.contains("Uncaught ReferenceError")),
+        "the console check sees no error on a broken page; browser log:\n{stderr}"
+    );
+
+    // The script ran (it marks the root element) and product names stay text.
+    let (dom, stderr) = run(&browser, &page, &["--dump-dom".to_string()]);
+    assert!(
+        dom.contains("data-script=\"ran\""),
+        "the report's script did not run; browser log:\n{stderr}"
+    );
+    assert!(dom.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
+    assert_eq!(dom.matches("<script").count(), 1, "only our own script");
+    assert!(
+        console_lines(&stderr).is_empty(),
+        "console messages: {:?}",
+        console_lines(&stderr)
+    );
+
+    // Sorting works: a copy of the report (its script allowed by dropping
+    // the policy) clicks the MAPE heading twice and records the column.
+    let html = std::fs::read_to_string(&page).unwrap();
+    let csp_start = html
+        .find("<meta http-equiv=\"Content-Security-Policy\"")
+        .unwrap();
+    let csp_end = csp_start + html[csp_start..].find('>').unwrap() + 1;
+    let probe = "<script>var t=document.querySelector('table.sortable');\
+var b=t.tHead.rows[0].cells[3].querySelector('button');\
+function col(){return Array.prototype.map.call(t.tBodies[0].rows,function(r){return r.cells[3].getAttribute('data-v')}).join(' ')}\
+b.click();document.body.setAttribute('data-up',col());b.click();document.body.setAttribute('data-down',col());</script></body>";
+    let sorted = format!("{}{}", &html[..csp_start], &html[csp_end..]).replace("</body>", probe);
+    let sort_page = dir.join("sort-probe.html");
+    std::fs::write(&sort_page, sorted).unwrap();
+    let (dom, stderr) = run(&browser, &sort_page, &["--dump-dom".to_string()]);
+    assert!(console_lines(&stderr).is_empty(), "{stderr}");
+    let attr = |name: &str| -> Vec<f64> {
+        let s = dom
+            .find(&format!("{name}=\""))
+            .unwrap_or_else(|| panic!("no {name}: {dom}"))
+            + name.len()
+            + 2;
+        dom[s..s + dom[s..].find('"').unwrap()]
+            .split(' ')
+            .map(|v| v.parse().unwrap())
+            .collect()
+    };
+    let (up, down) = (attr("data-up"), attr("data-down"));
+    assert_eq!(up.len(), 4);
+    assert!(up.windows(2).all(|w| w[0] <= w[1]), "{up:?}");
+    assert!(down.windows(2).all(|w| w[0] >= w[1]), "{down:?}");
+    assert_ne!(up, down);
+
+    // A screenshot: no console message, and a painted page.
+    let shot = std::env::var_os("PROVISIO_SCREENSHOT")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| tmp.path().join("report.png"));
+    let (console, colours, share) = screenshot(&browser, &page, &shot);
+    assert!(console.is_empty(), "console messages: {console:?}");
+    assert!(colours > 50, "only {colours} colours: a blank page?");
+    assert!(share > 0.05, "only {:.1}% of pixels painted", share * 100.0);
+
+    // And the blank check can fail: an empty page is caught.
+    let empty = tmp.path().join("empty.html");
+    std::fs::write(&empty, "<!DOCTYPE html><html><body></body></html>").unwrap();
+    let (_, colours, share) = screenshot(&browser, &empty, &tmp.path().join("empty.png"));
+    assert!(
+        colours <= 50 && share <= 0.05,
+        "an empty page looks painted: {colours} colours, {share}"
+    );
+}
