@@ -607,7 +607,14 @@ fn scores_table(b: &mut String, p: &ProductResult) {
                 Cell::num(r.bias, signed_pct),
                 Cell::num(r.wape, pct),
                 Cell::num(r.mase, |v| format!("{v:.2}")),
-                Cell::num(r.rmse, chart::fmt_quantity),
+                Cell::num(r.rmse, |v| {
+                    // One decimal for small quantities, so the column reads evenly.
+                    if v.abs() < 100.0 {
+                        format!("{v:.1}")
+                    } else {
+                        chart::fmt_quantity(v)
+                    }
+                }),
                 Cell::num(r.coverage80, |v| format!("{v:.0}%")),
                 Cell::num(r.coverage95, |v| format!("{v:.0}%")),
                 Cell::num(r.points, |v| format!("{v:.0}")),
