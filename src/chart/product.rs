@@ -4,6 +4,7 @@
 
 use std::path::Path;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -140,6 +141,41 @@ fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
     }
 }
 
+/// A chart of quantities (0 to `ymax`) over the months `base` to
+/// `base + last`, with its grid and labelled axes drawn.
+fn month_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    base: YearMonth,
+    last: i64,
+    ymax: f64,
+    y_labels: usize,
+    y_desc: &str,
+) -> std::result::Result<ChartContext<'a, DB, Cartesian2d<KeyAxis, RangedCoordf64>>, String> {
+    let mut chart = ChartBuilder::on(area)
+        .margin_left(12)
+        .margin_right(28)
+        .margin_bottom(8)
+        .x_label_area_size(30)
+        .y_label_area_size(86)
+        .build_cartesian_2d(month_axis(base, 0, last), 0.0..ymax)
+        .msg()?;
+    chart
+        .configure_mesh()
+        .bold_line_style(GRID.stroke_width(1))
+        .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
+        .axis_style(MUTED.stroke_width(1))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
+        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
+        .y_label_formatter(&|v| fmt_quantity(*v))
+        .y_labels(y_labels)
+        .y_desc(y_desc)
+        .draw()
+        .msg()?;
+    Ok(chart)
+}
+
 fn nice_top(v: f64) -> f64 {
     if v.is_finite() && v > 0.0 {
         v * 1.06
@@ -216,28 +252,14 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
     }
     let ymax = nice_top(ymax);
 
-    let mut chart = ChartBuilder::on(&plot)
-        .margin_left(12)
-        .margin_right(28)
-        .margin_bottom(8)
-        .x_label_area_size(30)
-        .y_label_area_size(86)
-        .build_cartesian_2d(month_axis(base, 0, base.months_until(last)), 0.0..ymax)
-        .msg()?;
-    chart
-        .configure_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.45).stroke_width(1))
-        .y_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
-        .y_label_formatter(&|v| fmt_quantity(*v))
-        .y_labels(6)
-        .y_desc("consumption (base units per month)")
-        .draw()
-        .msg()?;
+    let mut chart = month_chart(
+        &plot,
+        base,
+        base.months_until(last),
+        ymax,
+        6,
+        "consumption (base units per month)",
+    )?;
 
     let mut legend: Vec<(Glyph, String)> = Vec::new();
 
@@ -434,31 +456,14 @@ fn draw_backtest<DB: DrawingBackend>(
         }
     }
     let ymax = nice_top(ymax);
-    let mut chart = ChartBuilder::on(&plot)
-        .margin_left(12)
-        .margin_right(28)
-        .margin_bottom(8)
-        .x_label_area_size(30)
-        .y_label_area_size(86)
-        .build_cartesian_2d(
-            month_axis(base, 0, base.months_until(last_target)),
-            0.0..ymax,
-        )
-        .msg()?;
-    chart
-        .configure_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.45).stroke_width(1))
-        .y_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
-        .y_label_formatter(&|v| fmt_quantity(*v))
-        .y_labels(5)
-        .y_desc("base units per month")
-        .draw()
-        .msg()?;
+    let mut chart = month_chart(
+        &plot,
+        base,
+        base.months_until(last_target),
+        ymax,
+        5,
+        "base units per month",
+    )?;
     let value_at = |m: YearMonth| actual.iter().find(|a| a.0 == m).map(|a| a.1);
     for p in &bt.paths {
         let mut line: Vec<(f64, f64)> = Vec::new();
