@@ -552,7 +552,7 @@ fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
         }
         b.push_str("</ul>\n");
     }
-    b.push_str("</section>\n");
+    b.push_str("<p class=\"note\"><a href=\"#products\">↑ products table</a></p>\n</section>\n");
 }
 
 fn capitalise(s: &str) -> String {
