@@ -505,3 +505,112 @@ fn draw_backtest<DB: DrawingBackend>(
     ];
     draw_legend(&head, &items, (16, 32), WIDTH as i32 - 32)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn ym(y: i32, m: u32) -> YearMonth {
+        YearMonth::new(y, m).unwrap()
+    }
+
+    fn chart(history: Vec<HistoryMonth>, projection: Vec<ProjectedMonth>) -> ProductChart {
+        ProductChart {
+            title: "Test product".into(),
+            subtitle: String::new(),
+            history_label: "cleaned".into(),
+            projection_label: "projection (naive)".into(),
+            history,
+            projection,
+            backtest: None,
+        }
+    }
+
+    fn month(t: i64, v: Option<f64>, status: MonthStatus) -> HistoryMonth {
+        HistoryMonth {
+            month: ym(2024, 1).plus(t),
+            reported: v,
+            cleaned: v,
+            status,
+            outlier: false,
+        }
+    }
+
+    #[test]
+    fn odd_series_draw_without_error() {
+        // Nothing at all.
+        let svg = product_svg(&chart(vec![], vec![])).unwrap();
+        assert!(svg.contains("no data to draw"));
+        // All zeros, a gap, no projection: no forecast line or start mark.
+        let h: Vec<_> = (0..18)
+            .map(|t| month(t, (t != 5).then_some(0.0), MonthStatus::Reported))
+            .collect();
+        let svg = product_svg(&chart(h.clone(), vec![])).unwrap();
+        assert!(svg.contains("Jan 2025"));
+        assert!(!svg.contains("forecast from"));
+        assert!(!svg.contains("80% range"));
+        // A projection without ranges: the line and start, no range legend.
+        let p = vec![ProjectedMonth {
+            month: ym(2025, 7),
+            point: 3.0,
+            range80: None,
+            range95: None,
+        }];
+        let svg = product_svg(&chart(h, p)).unwrap();
+        assert!(svg.contains("forecast from Jul 2025"));
+        assert!(!svg.contains("95% range"));
+    }
+
+    #[test]
+    fn legend_names_only_the_marks_present() {
+        let h = vec![
+            month(0, Some(5.0), MonthStatus::Reported),
+            month(1, Some(6.0), MonthStatus::Imputed),
+            month(2, Some(7.0), MonthStatus::Adjusted),
+        ];
+        let svg = product_svg(&chart(h, vec![])).unwrap();
+        assert!(svg.contains("imputed month"));
+        assert!(svg.contains("adjusted month"));
+        assert!(!svg.contains("partly filled"));
+        assert!(!svg.contains("outlier flagged"));
+    }
+
+    #[test]
+    fn png_text_comes_from_the_embedded_font() {
+        // The same chart twice gives the same bytes; another title changes
+        // pixels in the title's place only, so text is drawn, and drawn
+        // the same on any machine.
+        let dir = tempfile::tempdir().unwrap();
+        let h: Vec<_> = (0..12)
+            .map(|t| month(t, Some(10.0 + t as f64), MonthStatus::Reported))
+            .collect();
+        let mut c = chart(h, vec![]);
+        let draw = |c: &ProductChart, name: &str| {
+            let p = dir.path().join(name);
+            product_png(&p, c).unwrap();
+            let mut r = png::Decoder::new(std::fs::File::open(&p).unwrap())
+                .read_info()
+                .unwrap();
+            let mut buf = vec![0; r.output_buffer_size()];
+            r.next_frame(&mut buf).unwrap();
+            (std::fs::read(&p).unwrap(), buf)
+        };
+        let (a, pa) = draw(&c, "a.png");
+        let (b, _) = draw(&c, "b.png");
+        assert_eq!(a, b);
+        c.title = "Another product".into();
+        let (_, pc) = draw(&c, "c.png");
+        let changed: Vec<usize> = pa
+            .chunks(3)
+            .zip(pc.chunks(3))
+            .enumerate()
+            .filter(|(_, (x, y))| x != y)
+            .map(|(i, _)| i / WIDTH as usize)
+            .collect();
+        assert!(changed.len() > 100, "title pixels drawn: {}", changed.len());
+        assert!(
+            changed.iter().all(|row| *row < 40),
+            "only the title row changes"
+        );
+    }
+}
