@@ -250,7 +250,7 @@ where
         let mut enc = png::Encoder::new(w, size.0, size.1);
         enc.set_color(png::ColorType::Rgb);
         enc.set_depth(png::BitDepth::Eight);
-        enc.set_compression(png::Compression::Best);
+        enc.set_compression(png::Compression::Default);
         let mut writer = enc.write_header().map_err(std::io::Error::other)?;
         writer
             .write_image_data(&buf)

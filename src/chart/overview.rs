@@ -3,6 +3,7 @@
 
 use std::path::Path;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -70,6 +71,44 @@ fn row_axis(n: usize) -> KeyAxis {
     }
 }
 
+type Label<'f> = &'f dyn Fn(&f64) -> String;
+
+/// Horizontal bars, one row per product, with the grid and axes drawn.
+/// `(left margin, name area width)`; `(x labels, x label format)`.
+fn bar_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    (margin_left, name_area): (u32, u32),
+    x: std::ops::Range<f64>,
+    n: usize,
+    (x_labels, x_format): (usize, Label<'_>),
+    y_format: Label<'_>,
+    x_desc: &str,
+) -> std::result::Result<ChartContext<'a, DB, Cartesian2d<RangedCoordf64, KeyAxis>>, String> {
+    let mut chart = ChartBuilder::on(area)
+        .margin_left(margin_left)
+        .margin_right(if name_area > 0 { 16 } else { 28 })
+        .x_label_area_size(FOOT)
+        .y_label_area_size(name_area)
+        .build_cartesian_2d(x, row_axis(n))
+        .msg()?;
+    chart
+        .configure_mesh()
+        .disable_y_mesh()
+        .bold_line_style(GRID.stroke_width(1))
+        .light_line_style(GRID.mix(0.4))
+        .x_max_light_lines(0)
+        .axis_style(MUTED.stroke_width(1))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
+        .x_labels(x_labels)
+        .x_label_formatter(x_format)
+        .y_label_formatter(y_format)
+        .x_desc(x_desc)
+        .draw()
+        .msg()?;
+    Ok(chart)
+}
+
 fn draw<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     rows: &[&ScoreBar],
@@ -124,33 +163,21 @@ fn draw<DB: DrawingBackend>(
         .fold(0.0, f64::max)
         .max(5.0)
         * 1.18;
-    let mut chart = ChartBuilder::on(&left)
-        .margin_left(12)
-        .margin_right(16)
-        .x_label_area_size(FOOT)
-        .y_label_area_size(310)
-        .build_cartesian_2d(0.0..max_mape, row_axis(n))
-        .msg()?;
-    chart
-        .configure_mesh()
-        .disable_y_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.4))
-        .x_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_labels(6)
-        .x_label_formatter(&|v| format!("{v:.0}%"))
-        .y_label_formatter(&|v| {
-            let i = n as f64 - 0.5 - v;
-            rows.get(i.round().max(0.0) as usize)
-                .map(|r| cut(&r.product, 40))
-                .unwrap_or_default()
-        })
-        .x_desc("MAPE of the chosen model (%)")
-        .draw()
-        .msg()?;
+    let name = |v: &f64| {
+        let i = n as f64 - 0.5 - v;
+        rows.get(i.round().max(0.0) as usize)
+            .map(|r| cut(&r.product, 40))
+            .unwrap_or_default()
+    };
+    let mut chart = bar_chart(
+        &left,
+        (12, 310),
+        0.0..max_mape,
+        n,
+        (6, &|v| format!("{v:.0}%")),
+        &name,
+        "MAPE of the chosen model (%)",
+    )?;
     let label_font = (FONT, 14).into_font().color(&INK);
     for (i, r) in rows.iter().enumerate() {
         match r.mape.filter(|v| v.is_finite()) {
@@ -190,27 +217,15 @@ fn draw<DB: DrawingBackend>(
         .fold(0.0, |a: f64, b| a.max(b.abs()))
         .max(5.0)
         * 1.3;
-    let mut chart = ChartBuilder::on(&right)
-        .margin_left(4)
-        .margin_right(28)
-        .x_label_area_size(FOOT)
-        .y_label_area_size(0)
-        .build_cartesian_2d(-max_bias..max_bias, row_axis(n))
-        .msg()?;
-    chart
-        .configure_mesh()
-        .disable_y_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.4))
-        .x_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_labels(5)
-        .x_label_formatter(&|v| format!("{v:+.0}%"))
-        .x_desc("bias of the chosen model (%)")
-        .draw()
-        .msg()?;
+    let mut chart = bar_chart(
+        &right,
+        (4, 0),
+        -max_bias..max_bias,
+        n,
+        (5, &|v| format!("{v:+.0}%")),
+        &|_| String::new(),
+        "bias of the chosen model (%)",
+    )?;
     chart
         .draw_series(LineSeries::new(
             vec![(0.0, 0.0), (0.0, n.max(1) as f64)],

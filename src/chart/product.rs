@@ -4,6 +4,7 @@
 
 use std::path::Path;
 
+use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
@@ -140,6 +141,41 @@ fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
     }
 }
 
+/// A chart of quantities (0 to `ymax`) over the months `base` to
+/// `base + last`, with its grid and labelled axes drawn.
+fn month_chart<'a, DB: DrawingBackend>(
+    area: &'a DrawingArea<DB, Shift>,
+    base: YearMonth,
+    last: i64,
+    ymax: f64,
+    y_labels: usize,
+    y_desc: &str,
+) -> std::result::Result<ChartContext<'a, DB, Cartesian2d<KeyAxis, RangedCoordf64>>, String> {
+    let mut chart = ChartBuilder::on(area)
+        .margin_left(12)
+        .margin_right(28)
+        .margin_bottom(8)
+        .x_label_area_size(30)
+        .y_label_area_size(86)
+        .build_cartesian_2d(month_axis(base, 0, last), 0.0..ymax)
+        .msg()?;
+    chart
+        .configure_mesh()
+        .bold_line_style(GRID.stroke_width(1))
+        .light_line_style(GRID.mix(0.45).stroke_width(1))
+        .y_max_light_lines(0)
+        .axis_style(MUTED.stroke_width(1))
+        .label_style((FONT, 15).into_font().color(&INK))
+        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
+        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
+        .y_label_formatter(&|v| fmt_quantity(*v))
+        .y_labels(y_labels)
+        .y_desc(y_desc)
+        .draw()
+        .msg()?;
+    Ok(chart)
+}
+
 fn nice_top(v: f64) -> f64 {
     if v.is_finite() && v > 0.0 {
         v * 1.06
@@ -216,28 +252,14 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
     }
     let ymax = nice_top(ymax);
 
-    let mut chart = ChartBuilder::on(&plot)
-        .margin_left(12)
-        .margin_right(28)
-        .margin_bottom(8)
-        .x_label_area_size(30)
-        .y_label_area_size(86)
-        .build_cartesian_2d(month_axis(base, 0, base.months_until(last)), 0.0..ymax)
-        .msg()?;
-    chart
-        .configure_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.45).stroke_width(1))
-        .y_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
-        .y_label_formatter(&|v| fmt_quantity(*v))
-        .y_labels(6)
-        .y_desc("consumption (base units per month)")
-        .draw()
-        .msg()?;
+    let mut chart = month_chart(
+        &plot,
+        base,
+        base.months_until(last),
+        ymax,
+        6,
+        "consumption (base units per month)",
+    )?;
 
     let mut legend: Vec<(Glyph, String)> = Vec::new();
 
@@ -434,31 +456,14 @@ fn draw_backtest<DB: DrawingBackend>(
         }
     }
     let ymax = nice_top(ymax);
-    let mut chart = ChartBuilder::on(&plot)
-        .margin_left(12)
-        .margin_right(28)
-        .margin_bottom(8)
-        .x_label_area_size(30)
-        .y_label_area_size(86)
-        .build_cartesian_2d(
-            month_axis(base, 0, base.months_until(last_target)),
-            0.0..ymax,
-        )
-        .msg()?;
-    chart
-        .configure_mesh()
-        .bold_line_style(GRID.stroke_width(1))
-        .light_line_style(GRID.mix(0.45).stroke_width(1))
-        .y_max_light_lines(0)
-        .axis_style(MUTED.stroke_width(1))
-        .label_style((FONT, 15).into_font().color(&INK))
-        .axis_desc_style((FONT, 16).into_font().color(&MUTED))
-        .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
-        .y_label_formatter(&|v| fmt_quantity(*v))
-        .y_labels(5)
-        .y_desc("base units per month")
-        .draw()
-        .msg()?;
+    let mut chart = month_chart(
+        &plot,
+        base,
+        base.months_until(last_target),
+        ymax,
+        5,
+        "base units per month",
+    )?;
     let value_at = |m: YearMonth| actual.iter().find(|a| a.0 == m).map(|a| a.1);
     for p in &bt.paths {
         let mut line: Vec<(f64, f64)> = Vec::new();
@@ -499,4 +504,113 @@ fn draw_backtest<DB: DrawingBackend>(
         (Glyph::Dot(FORECAST), "origin".to_string()),
     ];
     draw_legend(&head, &items, (16, 32), WIDTH as i32 - 32)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn ym(y: i32, m: u32) -> YearMonth {
+        YearMonth::new(y, m).unwrap()
+    }
+
+    fn chart(history: Vec<HistoryMonth>, projection: Vec<ProjectedMonth>) -> ProductChart {
+        ProductChart {
+            title: "Test product".into(),
+            subtitle: String::new(),
+            history_label: "cleaned".into(),
+            projection_label: "projection (naive)".into(),
+            history,
+            projection,
+            backtest: None,
+        }
+    }
+
+    fn month(t: i64, v: Option<f64>, status: MonthStatus) -> HistoryMonth {
+        HistoryMonth {
+            month: ym(2024, 1).plus(t),
+            reported: v,
+            cleaned: v,
+            status,
+            outlier: false,
+        }
+    }
+
+    #[test]
+    fn odd_series_draw_without_error() {
+        // Nothing at all.
+        let svg = product_svg(&chart(vec![], vec![])).unwrap();
+        assert!(svg.contains("no data to draw"));
+        // All zeros, a gap, no projection: no forecast line or start mark.
+        let h: Vec<_> = (0..18)
+            .map(|t| month(t, (t != 5).then_some(0.0), MonthStatus::Reported))
+            .collect();
+        let svg = product_svg(&chart(h.clone(), vec![])).unwrap();
+        assert!(svg.contains("Jan 2025"));
+        assert!(!svg.contains("forecast from"));
+        assert!(!svg.contains("80% range"));
+        // A projection without ranges: the line and start, no range legend.
+        let p = vec![ProjectedMonth {
+            month: ym(2025, 7),
+            point: 3.0,
+            range80: None,
+            range95: None,
+        }];
+        let svg = product_svg(&chart(h, p)).unwrap();
+        assert!(svg.contains("forecast from Jul 2025"));
+        assert!(!svg.contains("95% range"));
+    }
+
+    #[test]
+    fn legend_names_only_the_marks_present() {
+        let h = vec![
+            month(0, Some(5.0), MonthStatus::Reported),
+            month(1, Some(6.0), MonthStatus::Imputed),
+            month(2, Some(7.0), MonthStatus::Adjusted),
+        ];
+        let svg = product_svg(&chart(h, vec![])).unwrap();
+        assert!(svg.contains("imputed month"));
+        assert!(svg.contains("adjusted month"));
+        assert!(!svg.contains("partly filled"));
+        assert!(!svg.contains("outlier flagged"));
+    }
+
+    #[test]
+    fn png_text_comes_from_the_embedded_font() {
+        // The same chart twice gives the same bytes; another title changes
+        // pixels in the title's place only, so text is drawn, and drawn
+        // the same on any machine.
+        let dir = tempfile::tempdir().unwrap();
+        let h: Vec<_> = (0..12)
+            .map(|t| month(t, Some(10.0 + t as f64), MonthStatus::Reported))
+            .collect();
+        let mut c = chart(h, vec![]);
+        let draw = |c: &ProductChart, name: &str| {
+            let p = dir.path().join(name);
+            product_png(&p, c).unwrap();
+            let mut r = png::Decoder::new(std::fs::File::open(&p).unwrap())
+                .read_info()
+                .unwrap();
+            let mut buf = vec![0; r.output_buffer_size()];
+            r.next_frame(&mut buf).unwrap();
+            (std::fs::read(&p).unwrap(), buf)
+        };
+        let (a, pa) = draw(&c, "a.png");
+        let (b, _) = draw(&c, "b.png");
+        assert_eq!(a, b);
+        c.title = "Another product".into();
+        let (_, pc) = draw(&c, "c.png");
+        let changed: Vec<usize> = pa
+            .chunks(3)
+            .zip(pc.chunks(3))
+            .enumerate()
+            .filter(|(_, (x, y))| x != y)
+            .map(|(i, _)| i / WIDTH as usize)
+            .collect();
+        assert!(changed.len() > 100, "title pixels drawn: {}", changed.len());
+        assert!(
+            changed.iter().all(|row| *row < 40),
+            "only the title row changes"
+        );
+    }
 }

@@ -18,7 +18,8 @@ use std::path::{Path, PathBuf};
 use rayon::prelude::*;
 
 pub use read::{
-    read_output_dir, AdjustmentRow, ForecastRun, ProductResult, Quality, ScoreRow, Selection,
+    read_output_dir, AdjustmentRow, Figures, ForecastRun, ProductResult, Quality, ScoreRow,
+    Selection,
 };
 
 use crate::chart::{self, ProductChart, ScoreBar};
@@ -56,7 +57,7 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     if let Some((name, v)) = chosen_score(s) {
         let _ = write!(subtitle, " · backtest {name} {v}");
     }
-    if let Some(b) = s.bias {
+    if let Some(b) = s.scores.bias {
         let _ = write!(subtitle, " · bias {b:+.1}%");
     }
     if let Some(t) = s.total_1_12 {
@@ -129,8 +130,8 @@ pub fn score_bars(run: &ForecastRun) -> Vec<ScoreBar> {
         .iter()
         .map(|p| ScoreBar {
             product: p.product.clone(),
-            mape: p.selection.mape,
-            bias: p.selection.bias,
+            mape: p.selection.scores.mape,
+            bias: p.selection.scores.bias,
         })
         .collect()
 }
@@ -143,10 +144,10 @@ fn chosen_score(s: &Selection) -> Option<(String, String)> {
         s.selected_by.to_uppercase()
     };
     let v = match by.as_str() {
-        "WAPE" => s.wape.map(pct),
-        "MASE" => s.mase.map(|v| format!("{v:.2}")),
-        "RMSE" => s.rmse.map(chart::fmt_quantity),
-        _ => s.mape.map(pct),
+        "WAPE" => s.scores.wape.map(pct),
+        "MASE" => s.scores.mase.map(|v| format!("{v:.2}")),
+        "RMSE" => s.scores.rmse.map(chart::fmt_quantity),
+        _ => s.scores.mape.map(pct),
     }?;
     Some((by, v))
 }
@@ -428,8 +429,8 @@ fn products_table(b: &mut String, run: &ForecastRun, stems: &[String]) {
                 ),
                 Cell::html(verdict_pill(p.quality.as_ref()), &verdict),
                 Cell::html(model, &s.chosen),
-                Cell::num(s.mape, pct),
-                Cell::num(s.bias, signed_pct),
+                Cell::num(s.scores.mape, pct),
+                Cell::num(s.scores.bias, signed_pct),
                 Cell::num(s.total_1_12, chart::fmt_quantity),
                 Cell::num(s.amc_last_12, chart::fmt_quantity),
                 Cell::num(s.amc_next_12, chart::fmt_quantity),
@@ -499,7 +500,7 @@ fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
         None => b.push_str(&key(dash(), "backtest score")),
     }
     b.push_str(&key(
-        s.bias.map(signed_pct).unwrap_or_else(dash),
+        s.scores.bias.map(signed_pct).unwrap_or_else(dash),
         "bias (> 0 over-forecast)",
     ));
     b.push_str(&key(
@@ -556,7 +557,7 @@ fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
         }
         b.push_str("</ul>\n");
     }
-    b.push_str("</section>\n");
+    b.push_str("<p class=\"note\"><a href=\"#products\">↑ products table</a></p>\n</section>\n");
 }
 
 fn capitalise(s: &str) -> String {
@@ -570,10 +571,10 @@ fn capitalise(s: &str) -> String {
 fn scores_table(b: &mut String, p: &ProductResult) {
     let by = p.selection.selected_by.to_lowercase();
     let pick = |r: &ScoreRow| match by.as_str() {
-        "wape" => r.wape,
-        "mase" => r.mase,
-        "rmse" => r.rmse,
-        _ => r.mape,
+        "wape" => r.scores.wape,
+        "mase" => r.scores.mase,
+        "rmse" => r.scores.rmse,
+        _ => r.scores.mape,
     };
     let mut rows: Vec<&ScoreRow> = p.scores.iter().collect();
     rows.sort_by(|a, b| {
@@ -608,13 +609,20 @@ fn scores_table(b: &mut String, p: &ProductResult) {
             vec![
                 Cell::text(&r.model),
                 Cell::text(&r.status),
-                Cell::num(r.mape, pct),
-                Cell::num(r.bias, signed_pct),
-                Cell::num(r.wape, pct),
-                Cell::num(r.mase, |v| format!("{v:.2}")),
-                Cell::num(r.rmse, chart::fmt_quantity),
-                Cell::num(r.coverage80, |v| format!("{v:.0}%")),
-                Cell::num(r.coverage95, |v| format!("{v:.0}%")),
+                Cell::num(r.scores.mape, pct),
+                Cell::num(r.scores.bias, signed_pct),
+                Cell::num(r.scores.wape, pct),
+                Cell::num(r.scores.mase, |v| format!("{v:.2}")),
+                Cell::num(r.scores.rmse, |v| {
+                    // One decimal for small quantities, so the column reads evenly.
+                    if v.abs() < 100.0 {
+                        format!("{v:.1}")
+                    } else {
+                        chart::fmt_quantity(v)
+                    }
+                }),
+                Cell::num(r.scores.coverage80, |v| format!("{v:.0}%")),
+                Cell::num(r.scores.coverage95, |v| format!("{v:.0}%")),
                 Cell::num(r.points, |v| format!("{v:.0}")),
                 Cell::text(&r.note),
             ],

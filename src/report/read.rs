@@ -9,6 +9,36 @@ use crate::chart::{BacktestPanel, BacktestPath, HistoryMonth, ProjectedMonth};
 use crate::clean::MonthStatus;
 use crate::error::{Error, Result};
 
+/// Backtest scores of one model (columns of `selection.csv` and `scores.csv`).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Figures {
+    /// MAPE, %.
+    pub mape: Option<f64>,
+    /// Bias, % (positive = over-forecast).
+    pub bias: Option<f64>,
+    /// WAPE, %.
+    pub wape: Option<f64>,
+    /// MASE.
+    pub mase: Option<f64>,
+    /// RMSE, base units.
+    pub rmse: Option<f64>,
+    /// Share of actuals inside the 80% range, %.
+    pub coverage80: Option<f64>,
+    /// Share of actuals inside the 95% range, %.
+    pub coverage95: Option<f64>,
+}
+
+/// The score columns, as `forecast` names them.
+const FIGURE_COLUMNS: [&str; 7] = [
+    "mape_pct",
+    "bias_pct",
+    "wape_pct",
+    "mase",
+    "rmse",
+    "coverage_80_pct",
+    "coverage_95_pct",
+];
+
 /// What `forecast` chose for one product (a row of `selection.csv`).
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Selection {
@@ -22,20 +52,8 @@ pub struct Selection {
     pub best: String,
     /// Score used to choose ("MAPE", "WAPE", ...).
     pub selected_by: String,
-    /// Backtest MAPE of the chosen model, %.
-    pub mape: Option<f64>,
-    /// Backtest bias of the chosen model, % (positive = over-forecast).
-    pub bias: Option<f64>,
-    /// Backtest WAPE of the chosen model, %.
-    pub wape: Option<f64>,
-    /// Backtest MASE of the chosen model.
-    pub mase: Option<f64>,
-    /// Backtest RMSE of the chosen model, base units.
-    pub rmse: Option<f64>,
-    /// Share of actuals inside the 80% range, %.
-    pub coverage80: Option<f64>,
-    /// Share of actuals inside the 95% range, %.
-    pub coverage95: Option<f64>,
+    /// Backtest scores of the chosen model.
+    pub scores: Figures,
     /// Runner-up model.
     pub runner_up: String,
     /// Runner-up's score.
@@ -86,20 +104,8 @@ pub struct ScoreRow {
     pub status: String,
     /// Forecasts scored.
     pub points: Option<f64>,
-    /// MAPE, %.
-    pub mape: Option<f64>,
-    /// Bias, %.
-    pub bias: Option<f64>,
-    /// WAPE, %.
-    pub wape: Option<f64>,
-    /// MASE.
-    pub mase: Option<f64>,
-    /// RMSE.
-    pub rmse: Option<f64>,
-    /// Coverage of the 80% range, %.
-    pub coverage80: Option<f64>,
-    /// Coverage of the 95% range, %.
-    pub coverage95: Option<f64>,
+    /// The scores.
+    pub scores: Figures,
     /// Why not applicable, or what is missing.
     pub note: String,
 }
@@ -272,6 +278,20 @@ impl Table {
             })
     }
 
+    /// The score columns of a row (columns from `cols(FIGURE_COLUMNS)`).
+    fn figures(&self, line: u64, rec: &csv::StringRecord, c: [usize; 7]) -> Result<Figures> {
+        let n = |k: usize| self.num(line, rec, c[k], FIGURE_COLUMNS[k]);
+        Ok(Figures {
+            mape: n(0)?,
+            bias: n(1)?,
+            wape: n(2)?,
+            mase: n(3)?,
+            rmse: n(4)?,
+            coverage80: n(5)?,
+            coverage95: n(6)?,
+        })
+    }
+
     fn month(
         &self,
         line: u64,
@@ -329,12 +349,6 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "pinned",
         "best_model",
         "selected_by",
-        "mape_pct",
-        "bias_pct",
-        "wape_pct",
-        "mase",
-        "coverage_80_pct",
-        "coverage_95_pct",
         "runner_up",
         "runner_up_score",
         "margin_pct",
@@ -344,9 +358,9 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "total_months_1_12",
         "total_months_13_24",
         "reason",
-        "rmse",
     ];
     let c = sel.cols(names)?;
+    let f = sel.cols(FIGURE_COLUMNS)?;
     let mut products: Vec<ProductResult> = Vec::new();
     let mut index: HashMap<String, usize> = HashMap::new();
     sel.each(|sel, line, rec| {
@@ -357,22 +371,16 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             pinned: text(rec, c[3]) == "yes",
             best: text(rec, c[4]),
             selected_by: text(rec, c[5]),
-            mape: n(6)?,
-            bias: n(7)?,
-            wape: n(8)?,
-            mase: n(9)?,
-            coverage80: n(10)?,
-            coverage95: n(11)?,
-            runner_up: text(rec, c[12]),
-            runner_up_score: n(13)?,
-            margin: n(14)?,
-            backtested: text(rec, c[15]) == "yes",
-            amc_last_12: n(16)?,
-            amc_next_12: n(17)?,
-            total_1_12: n(18)?,
-            total_13_24: n(19)?,
-            reason: text(rec, c[20]),
-            rmse: n(21)?,
+            scores: sel.figures(line, rec, f)?,
+            runner_up: text(rec, c[6]),
+            runner_up_score: n(7)?,
+            margin: n(8)?,
+            backtested: text(rec, c[9]) == "yes",
+            amc_last_12: n(10)?,
+            amc_next_12: n(11)?,
+            total_1_12: n(12)?,
+            total_13_24: n(13)?,
+            reason: text(rec, c[14]),
         };
         let product = text(rec, c[0]);
         index.insert(product.clone(), products.len());
@@ -464,21 +472,9 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
     }
 
     if let Some(mut t) = Table::read(dir, "scores.csv")? {
-        let names = [
-            "product",
-            "model",
-            "status",
-            "points",
-            "mape_pct",
-            "bias_pct",
-            "wape_pct",
-            "mase",
-            "rmse",
-            "coverage_80_pct",
-            "coverage_95_pct",
-            "note",
-        ];
+        let names = ["product", "model", "status", "points", "note"];
         let c = t.cols(names)?;
+        let f = t.cols(FIGURE_COLUMNS)?;
         t.each(|t, line, rec| {
             let Some(&i) = index.get(&text(rec, c[0])) else {
                 return Ok(());
@@ -488,14 +484,8 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
                 model: text(rec, c[1]),
                 status: text(rec, c[2]),
                 points: n(3)?,
-                mape: n(4)?,
-                bias: n(5)?,
-                wape: n(6)?,
-                mase: n(7)?,
-                rmse: n(8)?,
-                coverage80: n(9)?,
-                coverage95: n(10)?,
-                note: text(rec, c[11]),
+                scores: t.figures(line, rec, f)?,
+                note: text(rec, c[4]),
             });
             Ok(())
         })?;
