@@ -59,7 +59,7 @@
 use augurs::mstl::stlrs;
 
 use super::ets::{Ets, FittedEts};
-use super::{Fitted, Forecast, Model, Needs, PERIOD};
+use super::{Fitted, Forecast, Model, Needs, WarmStart, PERIOD};
 use crate::error::{Error, Result};
 
 const NAME: &str = "mstl-ets";
@@ -109,6 +109,12 @@ impl Model for MstlEts {
     }
 
     fn fit(&self, y: &[f64]) -> Result<FittedMstlEts> {
+        self.fit_warm(y, &mut None)
+    }
+
+    /// The decomposition is redone at every origin; the ETS step starts
+    /// from its optimum at the previous origin (see [`super::ets`]).
+    fn fit_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<FittedMstlEts> {
         self.needs().check(NAME, y)?;
         let (lo, hi) = y
             .iter()
@@ -144,7 +150,7 @@ impl Model for MstlEts {
                 model_error("the seasonal decomposition gave non-finite values".to_string())
             })?;
         let adjusted: Vec<f64> = y.iter().zip(seasonal).map(|(v, s)| v - s).collect();
-        let ets = Ets::auto().fit_named(NAME, &adjusted)?;
+        let ets = Ets::auto().fit_named(NAME, &adjusted, warm)?;
         let mut last_year = [0.0; PERIOD];
         last_year.copy_from_slice(&seasonal[y.len() - PERIOD..]);
         let strength = decomposition
@@ -232,9 +238,12 @@ mod tests {
     ];
 
     #[test]
-    fn same_as_augurs_mstl_model_with_autoets_trend() {
+    fn close_to_augurs_mstl_model_with_autoets_trend() {
         // augurs 0.10's own composition (MSTLModel + AutoETS trend model, in
-        // f32) with the same MSTL settings gives the same forecast.
+        // f32) with the same MSTL settings: the same decomposition, and an
+        // ETS step fitted by a different optimiser (Nelder–Mead, ours
+        // Levenberg–Marquardt) to the same likelihood, so forecasts and
+        // interval bounds agree within 0.5% (seen ≤ 0.02%).
         let theirs = MSTLModel::new(vec![PERIOD], AutoETS::non_seasonal().into_trend_model())
             .mstl_params(MstlEts::mstl_params())
             .fit(&AIR60)
@@ -242,19 +251,15 @@ mod tests {
             .predict(24, 0.95)
             .unwrap();
         let ours = MstlEts.fit(&AIR60).unwrap().forecast(24, &[0.95]).unwrap();
-        for h in 0..24 {
-            let rel = (ours.point[h] / theirs.point[h] - 1.0).abs();
-            assert!(
-                rel < 1e-4,
-                "h={} {} vs {}",
-                h + 1,
-                ours.point[h],
-                theirs.point[h]
-            );
-        }
         let i = theirs.intervals.unwrap();
         for h in 0..24 {
-            assert!((ours.intervals[0].upper[h] / i.upper[h] - 1.0).abs() < 1e-4);
+            for (a, b) in [
+                (ours.point[h], theirs.point[h]),
+                (ours.intervals[0].upper[h], i.upper[h]),
+                (ours.intervals[0].lower[h], i.lower[h]),
+            ] {
+                assert!((a / b - 1.0).abs() < 5e-3, "h={}: {a} vs {b}", h + 1);
+            }
         }
     }
 
