@@ -101,6 +101,22 @@ fn per_model_point_only(c: &mut Criterion) {
     group.finish();
 }
 
+fn mstl_decomposition_alone(c: &mut Criterion) {
+    // The MSTL step of mstl-ets by itself, to separate its cost from the
+    // ETS fit's.
+    use provisio::models::decomposition::MstlEts;
+    let y = series();
+    c.bench_function("mstl_decomposition_60m", |b| {
+        b.iter(|| {
+            black_box(
+                MstlEts::mstl_params()
+                    .fit(black_box(&y), &[12])
+                    .expect("decomposes"),
+            )
+        })
+    });
+}
+
 fn whole_set(c: &mut Criterion) {
     let y = series();
     let models = candidates();
@@ -119,6 +135,7 @@ criterion_group!(
     benches,
     per_model,
     per_model_warm,
+    mstl_decomposition_alone,
     per_model_point_only,
     whole_set
 );

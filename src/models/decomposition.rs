@@ -26,7 +26,12 @@
 //! Terpenning (1990), *J. Official Statistics* 6(1). The decomposition is
 //! the MSTL of `augurs-mstl` 0.10 (its `stlrs` 0.4), run in f64 rather than
 //! the f32 of augurs' `MSTLModel` so that large quantities keep their
-//! digits; the ETS step is augurs' `AutoETS` through [`super::ets::Ets`].
+//! digits; the ETS step is our own `ets-auto` estimator
+//! ([`super::ets::Ets`], the likelihood and candidate set of statsforecast's
+//! `AutoETS`). In the backtest ([`Model::fit_warm`]) the decomposition is
+//! redone at every origin and the ETS search starts from its optimum at the
+//! previous origin; the decomposition then costs more than the ETS fit
+//! (see the README's timings).
 //!
 //! # Parameters
 //!
