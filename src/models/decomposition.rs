@@ -26,7 +26,12 @@
 //! Terpenning (1990), *J. Official Statistics* 6(1). The decomposition is
 //! the MSTL of `augurs-mstl` 0.10 (its `stlrs` 0.4), run in f64 rather than
 //! the f32 of augurs' `MSTLModel` so that large quantities keep their
-//! digits; the ETS step is augurs' `AutoETS` through [`super::ets::Ets`].
+//! digits; the ETS step is our own `ets-auto` estimator
+//! ([`super::ets::Ets`], the likelihood and candidate set of statsforecast's
+//! `AutoETS`). In the backtest ([`Model::fit_warm`]) the decomposition is
+//! redone at every origin and the ETS search starts from its optimum at the
+//! previous origin; the decomposition then costs more than the ETS fit
+//! (see the README's timings).
 //!
 //! # Parameters
 //!
@@ -59,7 +64,7 @@
 use augurs::mstl::stlrs;
 
 use super::ets::{Ets, FittedEts};
-use super::{Fitted, Forecast, Model, Needs, PERIOD};
+use super::{Fitted, Forecast, Model, Needs, WarmStart, PERIOD};
 use crate::error::{Error, Result};
 
 const NAME: &str = "mstl-ets";
@@ -109,6 +114,12 @@ impl Model for MstlEts {
     }
 
     fn fit(&self, y: &[f64]) -> Result<FittedMstlEts> {
+        self.fit_warm(y, &mut None)
+    }
+
+    /// The decomposition is redone at every origin; the ETS step starts
+    /// from its optimum at the previous origin (see [`super::ets`]).
+    fn fit_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<FittedMstlEts> {
         self.needs().check(NAME, y)?;
         let (lo, hi) = y
             .iter()
@@ -144,7 +155,7 @@ impl Model for MstlEts {
                 model_error("the seasonal decomposition gave non-finite values".to_string())
             })?;
         let adjusted: Vec<f64> = y.iter().zip(seasonal).map(|(v, s)| v - s).collect();
-        let ets = Ets::auto().fit_named(NAME, &adjusted)?;
+        let ets = Ets::auto().fit_named(NAME, &adjusted, warm)?;
         let mut last_year = [0.0; PERIOD];
         last_year.copy_from_slice(&seasonal[y.len() - PERIOD..]);
         let strength = decomposition
@@ -232,9 +243,12 @@ mod tests {
     ];
 
     #[test]
-    fn same_as_augurs_mstl_model_with_autoets_trend() {
+    fn close_to_augurs_mstl_model_with_autoets_trend() {
         // augurs 0.10's own composition (MSTLModel + AutoETS trend model, in
-        // f32) with the same MSTL settings gives the same forecast.
+        // f32) with the same MSTL settings: the same decomposition, and an
+        // ETS step fitted by a different optimiser (Nelder–Mead, ours
+        // Levenberg–Marquardt) to the same likelihood, so forecasts and
+        // interval bounds agree within 0.5% (seen ≤ 0.02%).
         let theirs = MSTLModel::new(vec![PERIOD], AutoETS::non_seasonal().into_trend_model())
             .mstl_params(MstlEts::mstl_params())
             .fit(&AIR60)
@@ -242,19 +256,15 @@ mod tests {
             .predict(24, 0.95)
             .unwrap();
         let ours = MstlEts.fit(&AIR60).unwrap().forecast(24, &[0.95]).unwrap();
-        for h in 0..24 {
-            let rel = (ours.point[h] / theirs.point[h] - 1.0).abs();
-            assert!(
-                rel < 1e-4,
-                "h={} {} vs {}",
-                h + 1,
-                ours.point[h],
-                theirs.point[h]
-            );
-        }
         let i = theirs.intervals.unwrap();
         for h in 0..24 {
-            assert!((ours.intervals[0].upper[h] / i.upper[h] - 1.0).abs() < 1e-4);
+            for (a, b) in [
+                (ours.point[h], theirs.point[h]),
+                (ours.intervals[0].upper[h], i.upper[h]),
+                (ours.intervals[0].lower[h], i.lower[h]),
+            ] {
+                assert!((a / b - 1.0).abs() < 5e-3, "h={}: {a} vs {b}", h + 1);
+            }
         }
     }
 
