@@ -74,9 +74,14 @@
 //!   Table 8.8): v_h = σ² (1 + Σ_{j=1}^{h−1} c_j²), with
 //!   c_j = α + αβ*(φ + … + φ^j) + γ·[j ≡ 0 mod 12]; point ± z √v_h.
 //! - Multiplicative: additive errors with multiplicative seasonality
-//!   (ETS(A,Ad,M)) have no simple closed-form forecast variance (from
+//!   (ETS(A,Ad,M)). Within the first year (h ≤ 12) each month's seasonal
+//!   factor is a known final state, so the forecast is linear in the future
+//!   errors and its variance is computed exactly by propagating their
+//!   coefficients through the recursions: v_h = σ² (1 + Σ_i k_{h,i}²). The
+//!   backtest (H = 12) needs nothing more. Beyond a year the seasonal
+//!   factors are themselves random and there is no simple closed form (from
 //!   memory: Hyndman et al. 2008, ch. 6, give exact results for the linear
-//!   and the multiplicative-error classes only), so it is simulated:
+//!   and the multiplicative-error classes only), so months 13 on are simulated:
 //!   1000 future paths with normal errors of variance σ² and a fixed seed
 //!   (the same fit always gives the same intervals), and
 //!   v_h = σ² + Var(μ_{n+h}) from the spread of the paths' one-step means
@@ -428,9 +433,12 @@ impl HoltWinters {
         // tolerance is relative.
         problem.norm = if best > 0.0 { 1.0 / best } else { 1.0 };
         problem.reset_best();
-        let theta = optimise(&problem, theta0);
-
-        let mut p = problem.decode(&theta);
+        let mut p = if self.states == InitialStates::Heuristic {
+            smoothing_lm(&ys, *self, problem.decode(&theta0))
+        } else {
+            let theta = optimise(&problem, theta0);
+            problem.decode(&theta)
+        };
         p.level *= scale;
         p.trend *= scale;
         if self.seasonality == Seasonality::Additive {
@@ -634,6 +642,44 @@ impl HoltWintersFit {
 
     /// Forecast standard deviations of the multiplicative form, from
     /// simulated paths of ETS(A,Ad,M) with a fixed seed.
+    /// Exact forecast standard deviations of the multiplicative form for
+    /// horizons 1..=`horizon` ≤ 12. Within the first seasonal cycle every
+    /// month's seasonal factor c is a known final state (each season is
+    /// re-estimated only once a cycle), so the level and trend — and the
+    /// one-step mean μ = (l + φb)·c — are linear in the future errors:
+    /// l_t = (l + φb) + α ε_t / c_t. Var(y_{n+h}) = σ² (1 + Σ_i k_{h,i}²),
+    /// with k_{h,i} the coefficient of ε_{n+i} in μ_{n+h}, propagated
+    /// through the recursions.
+    fn first_cycle_sd(&self, horizon: usize) -> Vec<f64> {
+        let p = &self.params;
+        let h_max = horizon.min(M);
+        // Coefficients of ε_{n+1..n+h_max} in the current level and trend.
+        let mut dl = [0.0; M];
+        let mut db = [0.0; M];
+        let mut sd = Vec::with_capacity(h_max);
+        for h in 0..h_max {
+            let c = self.seasons[h];
+            let mut v = 0.0;
+            for i in 0..h {
+                let k = c * (dl[i] + p.phi * db[i]);
+                v += k * k;
+            }
+            sd.push((self.sigma2 * (1.0 + v)).sqrt());
+            let inv_c = if c != 0.0 && c.is_finite() {
+                1.0 / c
+            } else {
+                0.0
+            };
+            for i in 0..=h {
+                let base = dl[i] + p.phi * db[i];
+                let nl = base + if i == h { p.alpha * inv_c } else { 0.0 };
+                db[i] = p.beta * (nl - dl[i]) + (1.0 - p.beta) * p.phi * db[i];
+                dl[i] = nl;
+            }
+        }
+        sd
+    }
+
     fn simulated_sd(&self, horizon: usize) -> Vec<f64> {
         let p = &self.params;
         let sigma = self.sigma2.sqrt();
@@ -695,7 +741,10 @@ impl Fitted for HoltWintersFit {
                 if levels.is_empty() {
                     return Forecast::normal(point, &[], levels);
                 }
-                let sd = self.simulated_sd(horizon);
+                let mut sd = self.first_cycle_sd(horizon.min(M));
+                if horizon > M {
+                    sd.extend_from_slice(&self.simulated_sd(horizon)[M..]);
+                }
                 Forecast::normal(point, &sd, levels)
             }
         }
@@ -1368,6 +1417,273 @@ impl Gradient for Whitened<'_, '_> {
     }
 }
 
+/// Levenberg–Marquardt iteration cap for the smoothing parameters.
+const LM_ITERS: usize = 100;
+
+/// Box coordinates of the smoothing parameters: x = (α, β/α, γ/(1 − α), φ),
+/// each in a fixed interval, so β ≤ α and γ ≤ 1 − α hold by construction.
+fn to_box(p: &HwParams) -> [f64; 4] {
+    let xb = if p.alpha > 0.0 { p.beta / p.alpha } else { 0.0 };
+    let xg = if p.alpha < 1.0 {
+        p.gamma / (1.0 - p.alpha)
+    } else {
+        0.0
+    };
+    [p.alpha, xb.clamp(0.0, 1.0), xg.clamp(0.0, 1.0), p.phi]
+}
+
+fn from_box(x: &[f64; 4], states: &HwParams) -> HwParams {
+    HwParams {
+        alpha: x[0],
+        beta: x[0] * x[1],
+        gamma: (1.0 - x[0]) * x[2],
+        phi: x[3],
+        ..*states
+    }
+}
+
+/// SSE of `y` at `p`, with (when `jac`) the gradient `g` = Jᵀe and the
+/// Gauss-Newton matrix `h` = JᵀJ in box coordinates, J = ∂ŷ/∂x, by
+/// forward-mode differentiation of the recursions (the initial states are
+/// fixed). Only the first `d` coordinates are used (3 when φ = 1).
+#[allow(clippy::needless_range_loop)] // small fixed-size matrices read best by index
+fn sse_and_jacobian(
+    y: &[f64],
+    kind: Seasonality,
+    p: &HwParams,
+    d: usize,
+    jac: Option<(&mut [f64; 4], &mut [[f64; 4]; 4])>,
+) -> f64 {
+    let (alpha, beta, gamma, phi) = (p.alpha, p.beta, p.gamma, p.phi);
+    let (mut l, mut b) = (p.level, p.trend);
+    let mut s = p.seasons;
+    let mut sse = 0.0;
+    let Some((g, h)) = jac else {
+        for (t, &yt) in y.iter().enumerate() {
+            let j = t % M;
+            let (yhat, nl, nb, ns) = step(kind, p, l, b, s[j], yt);
+            sse += (yt - yhat) * (yt - yhat);
+            l = nl;
+            b = nb;
+            s[j] = ns;
+        }
+        return sse;
+    };
+    *g = [0.0; 4];
+    *h = [[0.0; 4]; 4];
+    // Derivatives of l, b and the season ring with respect to (α, β, γ, φ).
+    let mut dl = [0.0; 4];
+    let mut db = [0.0; 4];
+    let mut ds = [[0.0; 4]; M];
+    for (t, &yt) in y.iter().enumerate() {
+        let j = t % M;
+        let c = s[j];
+        let dc = ds[j];
+        let base = l + phi * b;
+        let mut dbase = [0.0; 4];
+        for k in 0..4 {
+            dbase[k] = dl[k] + phi * db[k];
+        }
+        dbase[3] += b;
+        let (yhat, nl, ns, mut dyhat, mut dnl, mut dns);
+        match kind {
+            Seasonality::Additive => {
+                yhat = base + c;
+                nl = alpha * (yt - c) + (1.0 - alpha) * base;
+                ns = gamma * (yt - base) + (1.0 - gamma) * c;
+                dyhat = [0.0; 4];
+                dnl = [0.0; 4];
+                dns = [0.0; 4];
+                for k in 0..4 {
+                    dyhat[k] = dbase[k] + dc[k];
+                    dnl[k] = -alpha * dc[k] + (1.0 - alpha) * dbase[k];
+                    dns[k] = -gamma * dbase[k] + (1.0 - gamma) * dc[k];
+                }
+                dnl[0] += (yt - c) - base;
+                dns[2] += (yt - base) - c;
+            }
+            Seasonality::Multiplicative => {
+                yhat = base * c;
+                nl = alpha * (yt / c) + (1.0 - alpha) * base;
+                ns = gamma * (yt / base) + (1.0 - gamma) * c;
+                dyhat = [0.0; 4];
+                dnl = [0.0; 4];
+                dns = [0.0; 4];
+                let (yc2, yb2) = (yt / (c * c), yt / (base * base));
+                for k in 0..4 {
+                    dyhat[k] = dbase[k] * c + base * dc[k];
+                    dnl[k] = -alpha * yc2 * dc[k] + (1.0 - alpha) * dbase[k];
+                    dns[k] = -gamma * yb2 * dbase[k] + (1.0 - gamma) * dc[k];
+                }
+                dnl[0] += yt / c - base;
+                dns[2] += yt / base - c;
+            }
+        }
+        let nb = beta * (nl - l) + (1.0 - beta) * phi * b;
+        let mut dnb = [0.0; 4];
+        for k in 0..4 {
+            dnb[k] = beta * (dnl[k] - dl[k]) + (1.0 - beta) * phi * db[k];
+        }
+        dnb[1] += nl - l - phi * b;
+        dnb[3] += (1.0 - beta) * b;
+        let e = yt - yhat;
+        sse += e * e;
+        // Chain to box coordinates: β = α·x_b, γ = (1 − α)·x_g.
+        let (xb, xg) = (
+            if alpha > 0.0 { beta / alpha } else { 0.0 },
+            if alpha < 1.0 {
+                gamma / (1.0 - alpha)
+            } else {
+                0.0
+            },
+        );
+        let row = [
+            dyhat[0] + xb * dyhat[1] - xg * dyhat[2],
+            alpha * dyhat[1],
+            (1.0 - alpha) * dyhat[2],
+            dyhat[3],
+        ];
+        for a in 0..d {
+            g[a] += e * row[a];
+            for c2 in 0..=a {
+                h[a][c2] += row[a] * row[c2];
+            }
+        }
+        l = nl;
+        b = nb;
+        s[j] = ns;
+        dl = dnl;
+        db = dnb;
+        ds[j] = dns;
+    }
+    for a in 0..d {
+        for c2 in 0..a {
+            h[c2][a] = h[a][c2];
+        }
+    }
+    sse
+}
+
+/// Projected Levenberg–Marquardt over the smoothing parameters with the
+/// initial states held (Marquardt 1963; Nocedal & Wright, *Numerical
+/// Optimization*, 2nd ed., §10.3): Gauss-Newton steps on the SSE, damped
+/// by λ·diag(JᵀJ) when a step does not lower it, each step clipped to the
+/// parameter box. With four unknowns and exact derivatives it converges in
+/// a few iterations from a grid point or the previous origin's optimum.
+/// Returns the best parameters found (never worse than the start).
+#[allow(clippy::needless_range_loop)] // small fixed-size matrices read best by index
+fn smoothing_lm(y: &[f64], spec: HoltWinters, start: HwParams) -> HwParams {
+    let kind = spec.seasonality;
+    let d = if spec.damped { 4 } else { 3 };
+    let lo = [ALPHA_MIN, 0.0, 0.0, if spec.damped { PHI_MIN } else { 1.0 }];
+    let hi = [
+        ALPHA_MAX,
+        1.0,
+        1.0,
+        if spec.damped { spec.phi_max } else { 1.0 },
+    ];
+    let mut x = to_box(&start);
+    for k in 0..4 {
+        x[k] = x[k].clamp(lo[k], hi[k]);
+    }
+    let mut g = [0.0; 4];
+    let mut h = [[0.0; 4]; 4];
+    let mut f = sse_and_jacobian(y, kind, &from_box(&x, &start), d, Some((&mut g, &mut h)));
+    if !f.is_finite() {
+        return start;
+    }
+    let mut lambda = 1e-3;
+    for _ in 0..LM_ITERS {
+        let mut accepted = None;
+        for _attempt in 0..20 {
+            // (H + λ diag H) δ = g (g = Jᵀe is minus half the SSE gradient).
+            // Coordinates on a bound whose descent direction leads out of
+            // the box are held for this step (active set), so the others
+            // move freely instead of the clipped step creeping along it.
+            let mut free = [0usize; 4];
+            let mut nf = 0;
+            for k in 0..d {
+                let out_low = x[k] <= lo[k] && g[k] <= 0.0;
+                let out_high = x[k] >= hi[k] && g[k] >= 0.0;
+                if !(out_low || out_high) {
+                    free[nf] = k;
+                    nf += 1;
+                }
+            }
+            if nf == 0 {
+                break;
+            }
+            let mut a = [[0.0; 4]; 4];
+            let mut rhs = [0.0; 4];
+            for (r, &kr) in free[..nf].iter().enumerate() {
+                for (c, &kc) in free[..nf].iter().enumerate() {
+                    a[r][c] = h[kr][kc];
+                }
+                a[r][r] += lambda * h[kr][kr] + 1e-12 * (1.0 + h[kr][kr]);
+                rhs[r] = g[kr];
+            }
+            let Some(delta) = solve_small(&mut a, &mut rhs, nf) else {
+                lambda *= 10.0;
+                continue;
+            };
+            let mut xn = x;
+            for (r, &k) in free[..nf].iter().enumerate() {
+                xn[k] = (x[k] + delta[r]).clamp(lo[k], hi[k]);
+            }
+            let fx = sse_and_jacobian(y, kind, &from_box(&xn, &start), d, None);
+            if fx.is_finite() && fx < f {
+                accepted = Some((xn, fx));
+                break;
+            }
+            lambda *= 10.0;
+            if lambda > 1e12 {
+                break;
+            }
+        }
+        let Some((xn, fx)) = accepted else { break };
+        let decrease = f - fx;
+        x = xn;
+        lambda = (lambda * 0.2).max(1e-9);
+        f = sse_and_jacobian(y, kind, &from_box(&x, &start), d, Some((&mut g, &mut h)));
+        // A relative SSE change below 1e-8 moves no forecast visibly.
+        if decrease <= 1e-8 * f.max(1e-300) {
+            break;
+        }
+    }
+    from_box(&x, &start)
+}
+
+/// Solves the d×d system `a`·δ = `b` by Gaussian elimination with partial
+/// pivoting; `None` when singular.
+#[allow(clippy::needless_range_loop)] // small fixed-size matrices read best by index
+fn solve_small(a: &mut [[f64; 4]; 4], b: &mut [f64; 4], d: usize) -> Option<[f64; 4]> {
+    for col in 0..d {
+        let piv = (col..d).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
+        let pv = a[piv][col];
+        if pv.abs() <= 1e-300 || !pv.is_finite() {
+            return None;
+        }
+        a.swap(col, piv);
+        b.swap(col, piv);
+        for r in col + 1..d {
+            let m = a[r][col] / a[col][col];
+            for c in col..d {
+                a[r][c] -= m * a[col][c];
+            }
+            b[r] -= m * b[col];
+        }
+    }
+    let mut x = [0.0; 4];
+    for r in (0..d).rev() {
+        let mut v = b[r];
+        for c in r + 1..d {
+            v -= a[r][c] * x[c];
+        }
+        x[r] = v / a[r][r];
+    }
+    x.iter().all(|v| v.is_finite()).then_some(x)
+}
+
 /// L-BFGS rounds, each whitened by the Gauss-Newton Hessian at its start;
 /// returns the best point seen (also when a line search gives up).
 fn optimise(problem: &Problem<'_>, theta0: Vec<f64>) -> Vec<f64> {
@@ -1558,6 +1874,69 @@ mod tests {
                 );
             }
             assert!(iv.upper[23] - iv.lower[23] > iv.upper[0] - iv.lower[0]);
+        }
+    }
+
+    #[test]
+    fn smoothing_jacobian_matches_finite_differences() {
+        // ∂SSE/∂x = −2·Jᵀe; checked by central differences in box coordinates.
+        let y = series(60);
+        for spec in all_specs() {
+            let states = heuristic_states(spec.seasonality, &y);
+            let x0 = [0.3, 0.2, 0.4, if spec.damped { 0.9 } else { 1.0 }];
+            let d = if spec.damped { 4 } else { 3 };
+            let mut g = [0.0; 4];
+            let mut h = [[0.0; 4]; 4];
+            let f0 = sse_and_jacobian(
+                &y,
+                spec.seasonality,
+                &from_box(&x0, &states),
+                d,
+                Some((&mut g, &mut h)),
+            );
+            assert!(f0.is_finite());
+            for k in 0..d {
+                let eps = 1e-6;
+                let (mut xp, mut xm) = (x0, x0);
+                xp[k] += eps;
+                xm[k] -= eps;
+                let fp = sse_and_jacobian(&y, spec.seasonality, &from_box(&xp, &states), d, None);
+                let fm = sse_and_jacobian(&y, spec.seasonality, &from_box(&xm, &states), d, None);
+                let fd = (fp - fm) / (2.0 * eps);
+                let an = -2.0 * g[k];
+                assert!(
+                    (fd - an).abs() <= 1e-4 * an.abs().max(f0 * 1e-3),
+                    "{spec:?} k={k}: fd {fd} vs {an}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn first_year_multiplicative_variance_matches_simulation() {
+        // The exact first-cycle variance against the simulation of the same
+        // model (1000 paths): they agree within Monte Carlo error.
+        for spec in [
+            HoltWinters::multiplicative(),
+            HoltWinters::multiplicative_damped(),
+        ] {
+            let fit = spec.fit(&series(72)).unwrap();
+            let exact = fit.first_cycle_sd(12);
+            let sim = fit.simulated_sd(12);
+            assert!(
+                (exact[0] - sim[0]).abs() < 1e-9 * exact[0],
+                "h=1 is exact in both"
+            );
+            for h in 1..12 {
+                let r = exact[h] / sim[h];
+                assert!(
+                    (0.93..1.07).contains(&r),
+                    "h={}: exact {} sim {}",
+                    h + 1,
+                    exact[h],
+                    sim[h]
+                );
+            }
         }
     }
 
