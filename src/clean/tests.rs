@@ -16,7 +16,7 @@ fn reconciles(ds: &Dataset, c: &Cleaned) {
     let unusable_reported: f64 = ds
         .rows
         .iter()
-        .filter(|r| c.unusable.iter().any(|(p, _)| *p == r.product))
+        .filter(|r| c.unusable.iter().any(|(p, _)| p.as_str() == &*r.product))
         .filter_map(|r| r.consumed)
         .sum();
     let delta: f64 = c.log.iter().map(Adjustment::delta).sum();

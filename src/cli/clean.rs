@@ -22,7 +22,7 @@ pub struct CleanCmdArgs {
 }
 
 pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, bytes) = load(&a.data, &a.read, &a.clean)?;
+    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     std::fs::create_dir_all(&a.out)
         .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
     let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
@@ -30,9 +30,11 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
         tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),
         command: "clean".to_string(),
         input: ds.source.clone(),
-        input_sha256: output::sha256_hex(&bytes),
+        input_sha256: ds.input_sha256.clone(),
         settings: a.clean.settings(),
         duplicates: format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        numbers: a.read.options().numbers.name().to_string(),
+        encoding: a.read.options().encoding.name().to_string(),
         rows: cleaned.rows,
         products: cleaned.series.len(),
         products_unusable: cleaned.unusable.len(),

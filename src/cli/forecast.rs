@@ -140,19 +140,18 @@ fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
     Ok(pins)
 }
 
-/// What an evaluation run produced: data, cleaning, input bytes, results,
-/// the settings used and the seconds taken.
+/// What an evaluation run produced: data, cleaning, results, the settings
+/// used and the seconds taken.
 type EvalRun = (
     provisio::data::Dataset,
     provisio::clean::Cleaned,
-    Vec<u8>,
     Vec<ProductForecast>,
     ForecastSettings,
     f64,
 );
 
 fn run_eval(
-    data: &PathBuf,
+    data: &Path,
     read: &ReadArgs,
     clean: &CleanArgs,
     eval: &EvalArgs,
@@ -165,7 +164,7 @@ fn run_eval(
         Some(p) => read_pins(p)?,
         None => HashMap::new(),
     };
-    let (ds, cleaned, bytes) = load(data, read, clean)?;
+    let (ds, cleaned) = load(data, read, clean)?;
     for p in pins.keys() {
         if !cleaned.series.iter().any(|s| &s.product == p) {
             eprintln!("warning: pinned product '{p}' is not in the data");
@@ -187,7 +186,7 @@ fn run_eval(
     let progress = || bar.inc(1);
     let results = forecast_all(&cleaned.series, &checked, &pins, &progress);
     bar.finish_and_clear();
-    Ok((ds, cleaned, bytes, results, fs, t0.elapsed().as_secs_f64()))
+    Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64()))
 }
 
 fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
@@ -259,7 +258,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
 }
 
 pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, bytes, results, fs, secs) =
+    let (ds, cleaned, results, fs, secs) =
         run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon)?;
     std::fs::create_dir_all(&a.out)
         .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
@@ -278,9 +277,11 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
         "command": "forecast",
         "input": ds.source,
-        "input_sha256": output::sha256_hex(&bytes),
+        "input_sha256": ds.input_sha256,
         "clean_settings": a.clean.settings(),
         "duplicates": format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        "numbers": a.read.options().numbers.name(),
+        "encoding": a.read.options().encoding.name(),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "candidates": provisio::models::candidates().iter().map(|m| m.name()).collect::<Vec<_>>(),
@@ -307,7 +308,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
 }
 
 pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, _, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12)?;
+    let (ds, cleaned, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
     if let Some(out) = &a.out {
@@ -407,7 +408,7 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
     }
     let fs = settings(&a.eval, a.holdout);
     let checked = fs.check()?;
-    let (ds, cleaned, _) = load(&a.data, &a.read, &a.clean)?;
+    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let t0 = Instant::now();
     let results = provisio::pipeline::holdout_all(&cleaned.series, &checked, a.holdout);
     print_accounting(&ds, &cleaned, 5);
