@@ -2,7 +2,6 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use clap::Args;
 
 use super::{load, print_accounting, CleanArgs, ReadArgs};
@@ -15,6 +14,9 @@ pub struct CleanCmdArgs {
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     #[command(flatten)]
     read: ReadArgs,
     #[command(flatten)]
@@ -22,9 +24,9 @@ pub struct CleanCmdArgs {
 }
 
 pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
+    let out = output::OutputDir::check(&a.out, a.overwrite)?;
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
-    std::fs::create_dir_all(&a.out)
-        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    out.prepare()?;
     let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
     let manifest = output::CleanManifest {
         tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),

@@ -52,6 +52,9 @@ pub struct ForecastArgs {
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     /// Months to project (1-60).
     #[arg(long, default_value_t = 24, value_name = "MONTHS")]
     horizon: usize,
@@ -70,6 +73,9 @@ pub struct BacktestArgs {
     /// Also write scores.csv and backtest.csv to this directory.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -258,10 +264,10 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
 }
 
 pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
+    let out = output::OutputDir::check(&a.out, a.overwrite)?;
     let (ds, cleaned, results, fs, secs) =
         run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon)?;
-    std::fs::create_dir_all(&a.out)
-        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    out.prepare()?;
     let starts: Vec<_> = cleaned
         .series
         .iter()
@@ -308,12 +314,15 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
 }
 
 pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
+    let out_dir = match &a.out {
+        Some(out) => Some(output::OutputDir::check(out, a.overwrite)?),
+        None => None,
+    };
     let (ds, cleaned, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
-    if let Some(out) = &a.out {
-        std::fs::create_dir_all(out)
-            .with_context(|| format!("{}: cannot create output directory", out.display()))?;
+    if let (Some(out), Some(dir)) = (&a.out, &out_dir) {
+        dir.prepare()?;
         let starts: Vec<_> = cleaned
             .series
             .iter()
