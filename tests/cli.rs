@@ -233,6 +233,7 @@ const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
     ("bad_number.csv", &[], RowRejected, "bad_number.csv:3: column 'consumed': \"12a\" is not a number; expected a number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported"),
     ("nan.csv", &[], RowRejected, "nan.csv:3: column 'consumed': \"NaN\" is not a number"),
     ("infinity.csv", &[], RowRejected, "infinity.csv:3: column 'consumed': \"inf\" is not a number"),
+    ("huge_quantity.csv", &[], RowRejected, "huge_quantity.csv:3: column 'consumed': consumed 1e300 is over 10^15 units in a month, more than any real quantity (and large enough to break the arithmetic); check the value"),
     ("negative_quantity.csv", &[], RowRejected, "negative_quantity.csv:3: column 'consumed': consumed -40 is negative; expected a quantity of 0 or more"),
     ("decimal_comma.csv", &[], RowRejected, "decimal_comma.csv:2: column 'consumed': \"1234,5\" has a comma (decimal comma or thousands separator); expected a number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported; for a decimal comma use --numbers decimal-comma, for thousands separators --numbers grouped"),
     ("decimal_comma.csv", &["--numbers", "decimal-comma"], Accepted, "rows read: 2 = 2 used as reported + 0 adjusted + 0 rejected"),

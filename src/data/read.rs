@@ -40,6 +40,11 @@ pub struct ReadOptions {
     pub latest_month: Option<YearMonth>,
 }
 
+/// Largest quantity accepted in one row. Far above any real monthly
+/// quantity, and far enough below the largest float that scaling for
+/// stockouts and reporting, and summing, stay finite.
+pub const MAX_QUANTITY: f64 = 1e15;
+
 const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
 const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 
@@ -418,6 +423,13 @@ fn parse_row(
     let consumed_text = field(cols.consumed);
     let consumed = number(consumed_text).map_err(|m| problem("consumed", consumed_text, m))?;
     if let Some(c) = consumed {
+        if c > MAX_QUANTITY {
+            return Err(problem(
+                "consumed",
+                consumed_text,
+                format!("consumed {consumed_text} is over 10^15 units in a month, more than any real quantity (and large enough to break the arithmetic); check the value"),
+            ));
+        }
         if c < 0.0 {
             return Err(problem(
                 "consumed",
