@@ -276,6 +276,27 @@ fn config(quick: u32) -> ProptestConfig {
     }
 }
 
+#[test]
+fn inputs_found_by_fuzzing_now_pass() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/fuzz");
+    let mut n = 0;
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|e| e == "md") {
+            continue;
+        }
+        let data = std::fs::read(&path).unwrap();
+        let Some((&first, bytes)) = data.split_first() else {
+            continue;
+        };
+        if let Err(e) = check(bytes, &options(first)) {
+            panic!("{}: {e}", path.display());
+        }
+        n += 1;
+    }
+    assert!(n >= 1);
+}
+
 proptest! {
     #![proptest_config(config(256))]
 

@@ -239,19 +239,19 @@ pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
         .filter_map(|a| a.line)
         .chain(data.merged.iter().flat_map(|m| [m.line, m.into_line]))
         .collect();
-    let accepted_lines: HashSet<u64> = data
+    // Counted per row, not per distinct line, so the accounting holds
+    // whatever the line numbers are.
+    let accepted = data.rows.len() + data.merged.len();
+    let adjusted = data
         .rows
         .iter()
         .map(|r| r.line)
         .chain(data.merged.iter().map(|m| m.line))
-        .collect();
-    let adjusted = accepted_lines
-        .iter()
         .filter(|l| changed.contains(l))
         .count();
     let rows = RowAccount {
         read: data.rows_read,
-        used: accepted_lines.len() - adjusted,
+        used: accepted - adjusted,
         adjusted,
         rejected: data.rejected.len(),
     };

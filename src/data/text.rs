@@ -161,6 +161,9 @@ pub(crate) struct Records<R> {
     eof: bool,
     /// Line of the next unread byte, 1-based.
     line: u64,
+    /// Whether the last byte consumed was a carriage return (so that a
+    /// following line feed ends the same line).
+    after_cr: bool,
     out: Vec<u8>,
     ends: Vec<usize>,
     text: String,
@@ -184,6 +187,7 @@ impl<R: Read> Records<R> {
             len: 0,
             eof: false,
             line: 1,
+            after_cr: false,
             out: vec![0; 1024],
             ends: vec![0; 32],
             text: String::new(),
@@ -302,11 +306,10 @@ impl<R: Read> Records<R> {
                 return Ok(None);
             }
             match self.buf[self.pos] {
-                b'\n' => {
-                    self.line += 1;
+                b @ (b'\n' | b'\r') => {
+                    self.line += line_breaks(&[b], &mut self.after_cr);
                     self.pos += 1;
                 }
-                b'\r' => self.pos += 1,
                 _ => break,
             }
         }
@@ -321,7 +324,7 @@ impl<R: Read> Records<R> {
             let (res, nin, o, e) =
                 self.core
                     .read_record(input, &mut self.out[nout..], &mut self.ends[nends..]);
-            self.line += input[..nin].iter().filter(|&&b| b == b'\n').count() as u64;
+            self.line += line_breaks(&input[..nin], &mut self.after_cr);
             self.pos += nin;
             nout += o;
             nends += e;
@@ -370,8 +373,7 @@ impl<R: Read> Records<R> {
                     Ok(s) => self.text.push_str(s),
                     Err(e) => {
                         let at = from + e.valid_up_to();
-                        let line =
-                            start + bytes[..at].iter().filter(|&&b| b == b'\n').count() as u64;
+                        let line = start + line_breaks(&bytes[..at], &mut false);
                         return Err(TextError::Input {
                             line,
                             message: format!(
@@ -396,6 +398,29 @@ impl<R: Read> Records<R> {
             ends: &self.text_ends,
         }
     }
+}
+
+/// Counts line ends in `bytes`: LF, CRLF and a lone CR (old Mac files, and
+/// what csv-core also takes as the end of a row) each end one line.
+/// `after_cr` carries whether the previous byte was a CR across calls.
+fn line_breaks(bytes: &[u8], after_cr: &mut bool) -> u64 {
+    let mut n = 0;
+    for &b in bytes {
+        match b {
+            b'\r' => {
+                n += 1;
+                *after_cr = true;
+            }
+            b'\n' => {
+                if !*after_cr {
+                    n += 1;
+                }
+                *after_cr = false;
+            }
+            _ => *after_cr = false,
+        }
+    }
+    n
 }
 
 /// Picks the delimiter that splits the header line into the most fields,
@@ -453,6 +478,10 @@ mod tests {
         assert_eq!(lines(b"h\n\n\na\r\n\r\nb"), vec![1, 4, 6]);
         assert_eq!(lines(b"h\n\"x\ny\",1\nb\n"), vec![1, 2, 4]);
         assert_eq!(lines(b"\n\nh\na"), vec![3, 4]);
+        // A lone CR ends a line too, as it ends a row (found by fuzzing:
+        // two rows on one "line" broke the row accounting).
+        assert_eq!(lines(b"h\ra\rb"), vec![1, 2, 3]);
+        assert_eq!(lines(b"h\r\n\ra\n\rb"), vec![1, 3, 5]);
     }
 
     #[test]
