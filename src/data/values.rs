@@ -183,7 +183,8 @@ fn suggest_month(t: &str) -> Option<YearMonth> {
         .filter(|p| !p.is_empty())
         .collect();
     let (year, month) = match parts.as_slice() {
-        [a] if a.len() == 6 => (num(&a[..4], 4..=4)?, num(&a[4..], 2..=2)?),
+        // `get`, not slicing: a six-byte text may hold multi-byte characters.
+        [a] if a.len() == 6 => (num(a.get(..4)?, 4..=4)?, num(a.get(4..)?, 2..=2)?),
         [a, b] => match (num(a, 4..=4), num(b, 1..=2), num(a, 1..=2), num(b, 4..=4)) {
             (Some(y), Some(m), _, _) => (y, m),
             (_, _, Some(m), Some(y)) => (y, m),
@@ -279,6 +280,10 @@ mod tests {
         }
         for t in [
             "03/04/2024",
+            // Six bytes with a two-byte character at 3..5 (found by fuzzing:
+            // cutting it at byte 4 panicked).
+            "202\u{9b}1",
+            "20é41",
             "Ma-2024",
             "2024/13",
             "1899/12",
