@@ -91,12 +91,25 @@ impl QualityProfile {
 /// `data_end` is the last month in the whole file (for staleness).
 pub fn profile_all(cleaned: &Cleaned) -> Vec<QualityProfile> {
     let data_end = cleaned.inputs.iter().map(|p| p.end).max();
+    // Indexed once: looking each product up by scanning would cost
+    // products × log entries, minutes on a million-row file.
+    let series: std::collections::HashMap<&str, &crate::clean::CleanSeries> = cleaned
+        .series
+        .iter()
+        .map(|s| (s.product.as_str(), s))
+        .collect();
+    let mut log: std::collections::HashMap<&str, Vec<&crate::clean::Adjustment>> =
+        std::collections::HashMap::new();
+    for a in &cleaned.log {
+        log.entry(a.product.as_str()).or_default().push(a);
+    }
     cleaned
         .inputs
         .iter()
         .map(|p| {
-            let series = cleaned.series.iter().find(|s| s.product == p.product);
-            profile_one(p, series, cleaned, data_end)
+            let key = p.product.as_str();
+            let entries = log.get(key).map(Vec::as_slice).unwrap_or_default();
+            profile_one(p, series.get(key).copied(), entries, data_end)
         })
         .collect()
 }
@@ -104,7 +117,7 @@ pub fn profile_all(cleaned: &Cleaned) -> Vec<QualityProfile> {
 fn profile_one(
     p: &crate::data::ProductData,
     series: Option<&crate::clean::CleanSeries>,
-    cleaned: &Cleaned,
+    entries: &[&crate::clean::Adjustment],
     data_end: Option<YearMonth>,
 ) -> QualityProfile {
     let n = p.len();
@@ -174,15 +187,10 @@ fn profile_one(
         run = if r { 0 } else { run + 1 };
         longest_gap = longest_gap.max(run);
     }
-    let entries: Vec<_> = cleaned
-        .log
-        .iter()
-        .filter(|a| a.product == p.product)
-        .collect();
     let month_pos = |m: YearMonth| p.start.months_until(m) as usize;
     let mut too_long = vec![false; n];
     let mut low_rate = vec![false; n];
-    for a in &entries {
+    for a in entries {
         let t = month_pos(a.month);
         if t < n {
             match a.rule {

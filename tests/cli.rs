@@ -195,86 +195,129 @@ fn missing_file_is_refused_not_panicked() {
     );
 }
 
-/// The malformed-input catalogue: each file, whether it is refused, and the
-/// message expected (see tests/data/bad/README.md).
-const BAD: &[(&str, bool, &str)] = &[
-    ("empty.csv", true, "empty.csv: the file is empty; expected a header line naming at least the columns product, month, consumed"),
-    ("header_only.csv", true, "header_only.csv: the file has a header but no data rows"),
-    ("missing_column.csv", true, "missing_column.csv:1: missing required column 'consumed'; the header has: product, month, quantity"),
-    ("duplicate_column.csv", true, "duplicate_column.csv:1: column 'product' appears twice (fields 1 and 4); keep one"),
-    ("not_utf8.csv", true, "not_utf8.csv:3: the file is not UTF-8 text (byte 0xE9 cannot start a UTF-8 character); it is probably a Latin-1 / Windows-1252 export"),
-    ("all_rows_rejected.csv", true, "no usable rows: all 2 data rows were rejected; first problem, line 2: \"abc\" is not a number"),
-    ("nothing_reported.csv", true, "no product has a usable month of consumption; product 'ORS': no month has a usable quantity"),
-    ("bad_number.csv", false, "bad_number.csv:3: column 'consumed': \"12a\" is not a number; expected a plain number such as 1250 or 1250.5"),
-    ("bad_month.csv", false, "bad_month.csv:3: column 'month': month \"Mar-2024\" is not a valid month; expected YYYY-MM (e.g. 2024-03) or YYYY-MM-DD (e.g. 2024-03-01)"),
-    ("negative_quantity.csv", false, "negative_quantity.csv:3: column 'consumed': consumed -40 is negative; expected a quantity of 0 or more"),
-    ("stockout_days_over_month.csv", false, "stockout_days_over_month.csv:3: column 'stockout_days': stockout_days 30 is outside 0-28 (2023-02 has 28 days)"),
-    ("reporting_rate_over_100.csv", false, "reporting_rate_over_100.csv:3: column 'reporting_rate': reporting_rate 120% is outside 0-100%"),
-    ("reporting_rate_negative.csv", false, "reporting_rate_negative.csv:3: column 'reporting_rate': reporting_rate -0.2 is outside 0-100%"),
-    ("duplicate_rows.csv", false, "duplicate_rows.csv:4: duplicate of line 3 (product 'ORS', site 'North', month 2024-02) with different values; both rejected"),
-    ("exact_duplicate_rows.csv", false, "exact_duplicate_rows.csv:4: exact duplicate of line 3 (product 'ORS', month 2024-02); the first copy is used"),
-    ("too_many_fields.csv", false, "too_many_fields.csv:3: the row has 4 fields but the header has 3"),
-    ("thousands_separator.csv", false, "thousands_separator.csv:2: the row has 4 fields but the header has 3"),
-    ("decimal_comma.csv", false, "decimal_comma.csv:2: column 'consumed': \"1234,5\" has a comma (decimal comma or thousands separator)"),
+/// What the tool does with a catalogue file.
+#[derive(Clone, Copy, PartialEq, Debug)]
+enum Outcome {
+    /// The whole file is refused (exit 1, no output).
+    Refused,
+    /// The file is used; at least one row is rejected, with the reason.
+    RowRejected,
+    /// The file is used with no row rejected.
+    Accepted,
+}
+use Outcome::*;
+
+/// The hostile- and malformed-input catalogue: each file, the options it is
+/// read with, the outcome, and the message expected (see
+/// tests/data/bad/README.md). `inspect` and `clean` both run on each.
+const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
+    ("empty.csv", &[], Refused, "empty.csv: the file is empty; expected a header line naming at least the columns product, month, consumed"),
+    ("header_only.csv", &[], Refused, "header_only.csv: the file has a header but no data rows"),
+    ("missing_column.csv", &[], Refused, "missing_column.csv:1: missing required column 'consumed'; the header has: product, month, quantity"),
+    ("duplicate_column.csv", &[], Refused, "duplicate_column.csv:1: column 'product' appears twice (fields 1 and 4); keep one"),
+    ("not_utf8.csv", &[], Refused, "not_utf8.csv:3: the file is not UTF-8 text (byte 0xE9 is not valid UTF-8 here); it is probably a Latin-1 / Windows-1252 export: save it again as \"CSV UTF-8\", or read it with --encoding windows-1252 (or --encoding latin1)"),
+    ("not_utf8.csv", &["--encoding", "windows-1252"], Accepted, "Café sachets: not fit: only 1 month(s) reported"),
+    ("latin1.csv", &[], Refused, "latin1.csv:2: the file is not UTF-8 text (byte 0xE9 is not valid UTF-8 here)"),
+    ("latin1.csv", &["--encoding", "latin1"], Accepted, "Café sachets: not fit: only 2 month(s) reported"),
+    ("utf16.csv", &[], Refused, "utf16.csv: the file is UTF-16 text (it starts with a UTF-16 byte-order mark), as spreadsheets write \"Unicode text\"; save it as \"CSV UTF-8\" instead"),
+    ("zip_not_csv.csv", &[], Refused, "zip_not_csv.csv: the file is a zip archive, probably an .xlsx workbook, not a CSV"),
+    ("all_rows_rejected.csv", &[], Refused, "no usable rows: all 2 data rows were rejected; first problem, line 2: \"abc\" is not a number"),
+    ("nothing_reported.csv", &[], Refused, "no product has a usable month of consumption; product 'ORS': no month has a usable quantity"),
+    ("bom.csv", &[], Accepted, "rows read: 3 = 3 used as reported + 0 adjusted + 0 rejected"),
+    ("semicolon.csv", &[], Accepted, "rows read: 3 = 3 used as reported + 0 adjusted + 0 rejected"),
+    ("tab.csv", &[], Accepted, "rows read: 3 = 3 used as reported + 0 adjusted + 0 rejected"),
+    ("quoted_fields.csv", &[], Accepted, "Zinc 20 mg tablet, blister: not fit: only 1 month(s) reported"),
+    ("extra_columns.csv", &[], Accepted, "warning: extra columns kept in the file but not used: notes, district code"),
+    ("unclosed_quote.csv", &[], RowRejected, "unclosed_quote.csv:3: a quoted value runs over 3 lines (lines 3-5) and holds delimiters: a quote (\") is probably opened and never closed"),
+    ("crlf_blank_lines.csv", &[], RowRejected, "crlf_blank_lines.csv:5: column 'consumed': \"x\" is not a number"),
+    ("bad_number.csv", &[], RowRejected, "bad_number.csv:3: column 'consumed': \"12a\" is not a number; expected a number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported"),
+    ("nan.csv", &[], RowRejected, "nan.csv:3: column 'consumed': \"NaN\" is not a number"),
+    ("infinity.csv", &[], RowRejected, "infinity.csv:3: column 'consumed': \"inf\" is not a number"),
+    ("huge_quantity.csv", &[], RowRejected, "huge_quantity.csv:3: column 'consumed': consumed 1e300 is over 10^15 units in a month, more than any real quantity (and large enough to break the arithmetic); check the value"),
+    ("negative_quantity.csv", &[], RowRejected, "negative_quantity.csv:3: column 'consumed': consumed -40 is negative; expected a quantity of 0 or more"),
+    ("decimal_comma.csv", &[], RowRejected, "decimal_comma.csv:2: column 'consumed': \"1234,5\" has a comma (decimal comma or thousands separator); expected a number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported; for a decimal comma use --numbers decimal-comma, for thousands separators --numbers grouped"),
+    ("decimal_comma.csv", &["--numbers", "decimal-comma"], Accepted, "rows read: 2 = 2 used as reported + 0 adjusted + 0 rejected"),
+    ("decimal_comma_grouped.csv", &[], RowRejected, "decimal_comma_grouped.csv:2: column 'consumed': \"1.234,5\" has a comma"),
+    ("decimal_comma_grouped.csv", &["--numbers", "decimal-comma"], Accepted, "rows read: 2 = 2 used as reported + 0 adjusted + 0 rejected"),
+    ("thousands_separator.csv", &[], RowRejected, "thousands_separator.csv:2: the row has 4 fields but the header has 3; check for an unquoted delimiter inside a value (a thousands separator as in 1,234"),
+    ("thousands_separator_quoted.csv", &[], RowRejected, "thousands_separator_quoted.csv:2: column 'consumed': \"1,234\" has a comma (decimal comma or thousands separator)"),
+    ("thousands_separator_quoted.csv", &["--numbers", "grouped"], Accepted, "rows read: 2 = 2 used as reported + 0 adjusted + 0 rejected"),
+    ("thousands_space.csv", &[], RowRejected, "thousands_space.csv:2: column 'consumed': \"1 234\" has a space inside (thousands separator?); expected a number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported; to read spaces between digit groups use --numbers grouped"),
+    ("thousands_space.csv", &["--numbers", "grouped"], Accepted, "rows read: 2 = 2 used as reported + 0 adjusted + 0 rejected"),
+    ("bad_month.csv", &[], RowRejected, "bad_month.csv:3: column 'month': month \"Mar-2024\" is not a valid month; expected YYYY-MM (e.g. 2024-03) or YYYY-MM-DD (e.g. 2024-03-01); if \"Mar-2024\" means 2024-03, write 2024-03"),
+    ("month_slash.csv", &[], RowRejected, "month_slash.csv:3: column 'month': month \"2024/02\" is not a valid month; expected YYYY-MM (e.g. 2024-03) or YYYY-MM-DD (e.g. 2024-03-01); if \"2024/02\" means 2024-02, write 2024-02"),
+    ("month_mm_yyyy.csv", &[], RowRejected, "month_mm_yyyy.csv:3: column 'month': month \"02/2024\" is not a valid month; expected YYYY-MM (e.g. 2024-03) or YYYY-MM-DD (e.g. 2024-03-01); if \"02/2024\" means 2024-02, write 2024-02"),
+    ("month_day_first.csv", &[], RowRejected, "month_day_first.csv:3: column 'month': month \"03/02/2024\" is not a valid month; expected YYYY-MM (e.g. 2024-03) or YYYY-MM-DD (e.g. 2024-03-01)\n"),
+    ("month_before_1900.csv", &[], RowRejected, "month_before_1900.csv:3: column 'month': month \"1899-12\": year 1899 is outside 1900-2100"),
+    ("month_after_2100.csv", &[], RowRejected, "month_after_2100.csv:3: column 'month': month \"2204-02\": year 2204 is outside 1900-2100"),
+    ("month_in_the_future.csv", &[], RowRejected, "month_in_the_future.csv:3: column 'month': month 2099-02 is after the current month ("),
+    ("stockout_days_over_month.csv", &[], RowRejected, "stockout_days_over_month.csv:3: column 'stockout_days': stockout_days 30 is outside 0-28 (2023-02 has 28 days)"),
+    ("reporting_rate_over_100.csv", &[], RowRejected, "reporting_rate_over_100.csv:3: column 'reporting_rate': reporting_rate 120% is outside 0-100%"),
+    ("reporting_rate_negative.csv", &[], RowRejected, "reporting_rate_negative.csv:3: column 'reporting_rate': reporting_rate -0.2 is outside 0-100%"),
+    ("reporting_rate_zero.csv", &[], RowRejected, "reporting_rate_zero.csv:3: column 'reporting_rate': reporting_rate is 0 but consumed is 120: a month with no reports cannot have consumption; leave consumed empty or correct the rate"),
+    ("duplicate_rows.csv", &[], RowRejected, "duplicate_rows.csv:4: duplicate of line 3 (product 'ORS', site 'North', month 2024-02) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"),
+    ("duplicate_rows.csv", &["--duplicates", "sum"], Accepted, "rows read: 4 = 2 used as reported + 2 adjusted + 0 rejected"),
+    ("exact_duplicate_rows.csv", &[], RowRejected, "exact_duplicate_rows.csv:4: exact duplicate of line 3 (product 'ORS', month 2024-02); the first copy is used"),
+    ("too_many_fields.csv", &[], RowRejected, "too_many_fields.csv:3: the row has 4 fields but the header has 3"),
+    ("single_month_product.csv", &[], Accepted, "Zinc: not fit: only 1 month(s) reported; at least 12 are needed to forecast"),
+    ("all_zeros_product.csv", &[], Accepted, "Condoms: fit with care: 12 months reported: fewer than 24, so seasonality cannot be estimated; intermittent: 100% of reported months are zero"),
+    ("odd_product_names.csv", &[], Accepted, "<script>alert(1)</script>: not fit"),
+    ("long_product_name.csv", &[], Accepted, "rows read: 3 = 3 used as reported + 0 adjusted + 0 rejected"),
 ];
 
 #[test]
-fn malformed_catalogue_gives_the_expected_messages() {
+fn hostile_catalogue_gives_the_expected_messages() {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/bad");
-    let listed: std::collections::BTreeSet<&str> = BAD.iter().map(|b| b.0).collect();
+    let listed: std::collections::BTreeSet<&str> = CATALOGUE.iter().map(|b| b.0).collect();
     for entry in std::fs::read_dir(&dir).unwrap() {
         let name = entry.unwrap().file_name().into_string().unwrap();
         if name.ends_with(".csv") {
             assert!(listed.contains(name.as_str()), "{name} has no expectation");
         }
     }
-    for (file, refused, message) in BAD {
+    let readme = std::fs::read_to_string(dir.join("README.md")).unwrap();
+    for (file, options, outcome, message) in CATALOGUE {
+        assert!(
+            readme.contains(file),
+            "{file} is not described in the README"
+        );
         let w = Workdir::new();
-        let src = std::fs::read(dir.join(file)).unwrap();
-        let path = w.write(file, &src);
+        w.write(file, &std::fs::read(dir.join(file)).unwrap());
         // Run from the temp dir with a bare file name so messages are stable.
-        let _ = path;
         for cmd in ["inspect", "clean"] {
-            let mut args = vec![cmd, file];
+            let mut args = vec![cmd, *file];
             if cmd == "clean" {
                 args.extend(["--out", "o"]);
             }
+            args.extend(options.iter());
             let o = w.run(&args);
             let out = text(&o);
-            assert_ne!(o.status.code(), Some(101), "{cmd} {file} panicked:\n{out}");
-            if *refused {
-                assert_eq!(
-                    o.status.code(),
-                    Some(1),
-                    "{cmd} {file} should be refused:\n{out}"
-                );
-                assert!(
-                    !w.path("o/cleaned.csv").exists(),
-                    "{cmd} {file}: no output on refusal"
-                );
-            } else {
-                assert!(
-                    o.status.success(),
-                    "{cmd} {file} should go on with the row rejected:\n{out}"
-                );
-                let (read, used, adjusted, rejected) = accounting(&out);
-                assert_eq!(used + adjusted + rejected, read, "{cmd} {file}");
-                assert!(rejected >= 1, "{cmd} {file}");
+            let what = format!("{cmd} {file} {options:?}");
+            assert_ne!(o.status.code(), Some(101), "{what} panicked:\n{out}");
+            match outcome {
+                Refused => {
+                    assert_eq!(o.status.code(), Some(1), "{what} should be refused:\n{out}");
+                    assert!(!w.path("o").exists(), "{what}: no output on refusal");
+                }
+                RowRejected | Accepted => {
+                    assert!(o.status.success(), "{what} should go on:\n{out}");
+                    let (read, used, adjusted, rejected) = accounting(&out);
+                    assert_eq!(used + adjusted + rejected, read, "{what}");
+                    assert_eq!(rejected > 0, *outcome == RowRejected, "{what}:\n{out}");
+                    if cmd == "clean" {
+                        // The rejected-rows file lists each rejected row with its reason.
+                        assert_eq!(w.read_csv("o/rejected.csv").len(), rejected, "{what}");
+                    }
+                }
             }
-            let shown = if *refused {
-                out.clone()
-            } else if cmd == "clean" {
-                // The rejected-rows file carries the reason too.
-                let rej = w.read_csv("o/rejected.csv");
-                assert!(!rej.is_empty(), "{file}: rejected.csv lists the row");
-                out.clone()
-            } else {
-                out.clone()
-            };
-            assert!(
-                shown.contains(message),
-                "{cmd} {file}: expected\n  {message}\ngot\n{shown}"
-            );
+            // Verdicts are printed by inspect only; everything else by both.
+            if cmd == "inspect" || !message.contains(": not fit") && !message.contains(": fit") {
+                let shown = format!("{out}\n");
+                assert!(
+                    shown.contains(message),
+                    "{what}: expected\n  {message}\ngot\n{out}"
+                );
+            }
         }
     }
 }

@@ -16,7 +16,7 @@ fn reconciles(ds: &Dataset, c: &Cleaned) {
     let unusable_reported: f64 = ds
         .rows
         .iter()
-        .filter(|r| c.unusable.iter().any(|(p, _)| *p == r.product))
+        .filter(|r| c.unusable.iter().any(|(p, _)| p.as_str() == &*r.product))
         .filter_map(|r| r.consumed)
         .sum();
     let delta: f64 = c.log.iter().map(Adjustment::delta).sum();
@@ -274,4 +274,21 @@ proptest! {
         }
         prop_assert!(twice.log.iter().all(|e| e.rule == Rule::OutlierFlagged));
     }
+}
+
+#[test]
+fn a_site_whose_every_month_is_flagged_is_kept() {
+    // Found by the property tests (tests/hostile_props.rs): nine scattered
+    // months, all flagged as outliers, used to drop the whole site and its
+    // reported consumption. Flags are only flags: the values stay.
+    let text = "product,site,month,consumed\n\
+        P,S,2021-02,71420\nP,S,2021-03,192746\nP,S,2021-07,112072\n\
+        P,S,2021-08,94624\nP,S,2022-01,224873\nP,S,2022-04,346626\n\
+        P,S,2023-02,130414\nP,S,2023-03,248483\nP,S,2023-06,157659\n";
+    let (ds, c) = run(text);
+    assert_eq!(c.series.len(), 1, "{:?}", c.warnings);
+    let s = &c.series[0];
+    assert_eq!(s.values[0], 71420.0);
+    assert_eq!(s.values[28], 157659.0);
+    assert!(c.verify(&ds).is_ok(), "{:?}", c.verify(&ds));
 }

@@ -2,7 +2,6 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use clap::Args;
 
 use super::{load, print_accounting, CleanArgs, ReadArgs};
@@ -15,6 +14,9 @@ pub struct CleanCmdArgs {
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     #[command(flatten)]
     read: ReadArgs,
     #[command(flatten)]
@@ -22,17 +24,19 @@ pub struct CleanCmdArgs {
 }
 
 pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, bytes) = load(&a.data, &a.read, &a.clean)?;
-    std::fs::create_dir_all(&a.out)
-        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    let out = output::OutputDir::check(&a.out, a.overwrite)?;
+    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
+    out.prepare()?;
     let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
     let manifest = output::CleanManifest {
         tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),
         command: "clean".to_string(),
         input: ds.source.clone(),
-        input_sha256: output::sha256_hex(&bytes),
+        input_sha256: ds.input_sha256.clone(),
         settings: a.clean.settings(),
         duplicates: format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        numbers: a.read.options().numbers.name().to_string(),
+        encoding: a.read.options().encoding.name().to_string(),
         rows: cleaned.rows,
         products: cleaned.series.len(),
         products_unusable: cleaned.unusable.len(),

@@ -62,6 +62,9 @@ pub struct ForecastArgs {
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
     out: PathBuf,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     /// Months to project (1-60).
     #[arg(long, default_value_t = 24, value_name = "MONTHS")]
     horizon: usize,
@@ -83,6 +86,9 @@ pub struct BacktestArgs {
     /// Also write scores.csv and backtest.csv to this directory.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
+    /// Write into DIR even if it holds files provisio did not write.
+    #[arg(long)]
+    overwrite: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -161,19 +167,18 @@ fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
     Ok(pins)
 }
 
-/// What an evaluation run produced: data, cleaning, input bytes, results,
-/// the settings used and the seconds taken.
+/// What an evaluation run produced: data, cleaning, results, the settings
+/// used and the seconds taken.
 type EvalRun = (
     provisio::data::Dataset,
     provisio::clean::Cleaned,
-    Vec<u8>,
     Vec<ProductForecast>,
     ForecastSettings,
     f64,
 );
 
 fn run_eval(
-    data: &PathBuf,
+    data: &Path,
     read: &ReadArgs,
     clean: &CleanArgs,
     eval: &EvalArgs,
@@ -187,7 +192,7 @@ fn run_eval(
         Some(p) => read_pins(p)?,
         None => HashMap::new(),
     };
-    let (ds, cleaned, bytes) = load_until(data, read, clean, until)?;
+    let (ds, cleaned) = load_until(data, read, clean, until)?;
     for p in pins.keys() {
         if !cleaned.series.iter().any(|s| &s.product == p) {
             eprintln!("warning: pinned product '{p}' is not in the data");
@@ -209,7 +214,7 @@ fn run_eval(
     let progress = || bar.inc(1);
     let results = forecast_all(&cleaned.series, &checked, &pins, &progress);
     bar.finish_and_clear();
-    Ok((ds, cleaned, bytes, results, fs, t0.elapsed().as_secs_f64()))
+    Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64()))
 }
 
 fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
@@ -281,10 +286,10 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
 }
 
 pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, bytes, results, fs, secs) =
+    let out = output::OutputDir::check(&a.out, a.overwrite)?;
+    let (ds, cleaned, results, fs, secs) =
         run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon, a.until)?;
-    std::fs::create_dir_all(&a.out)
-        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    out.prepare()?;
     let starts: Vec<_> = cleaned
         .series
         .iter()
@@ -303,9 +308,11 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "command": "forecast",
         "until": a.until.map(|m| m.to_string()),
         "input": ds.source,
-        "input_sha256": output::sha256_hex(&bytes),
+        "input_sha256": ds.input_sha256,
         "clean_settings": a.clean.settings(),
         "duplicates": format!("{:?}", a.read.options().duplicates).to_lowercase(),
+        "numbers": a.read.options().numbers.name(),
+        "encoding": a.read.options().encoding.name(),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "candidates": provisio::models::candidates().iter().map(|m| m.name()).collect::<Vec<_>>(),
@@ -337,13 +344,15 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
 }
 
 pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, _, results, _, secs) =
-        run_eval(&a.data, &a.read, &a.clean, &a.eval, 12, None)?;
+    let out_dir = match &a.out {
+        Some(out) => Some(output::OutputDir::check(out, a.overwrite)?),
+        None => None,
+    };
+    let (ds, cleaned, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12, None)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
-    if let Some(out) = &a.out {
-        std::fs::create_dir_all(out)
-            .with_context(|| format!("{}: cannot create output directory", out.display()))?;
+    if let (Some(out), Some(dir)) = (&a.out, &out_dir) {
+        dir.prepare()?;
         let starts: Vec<_> = cleaned
             .series
             .iter()
@@ -469,7 +478,7 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
     }
     let fs = settings(&a.eval, a.holdout);
     let checked = fs.check()?;
-    let (ds, cleaned, _) = load(&a.data, &a.read, &a.clean)?;
+    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let t0 = Instant::now();
     let results = provisio::pipeline::holdout_all(&cleaned.series, &checked, a.holdout);
     print_accounting(&ds, &cleaned, 5);

@@ -23,7 +23,7 @@ pub struct InspectArgs {
 }
 
 pub fn run(a: InspectArgs) -> anyhow::Result<()> {
-    let (ds, cleaned, _) = load(&a.data, &a.read, &a.clean)?;
+    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let profiles = provisio::quality::profile_all(&cleaned);
     let name_w = profiles
         .iter()

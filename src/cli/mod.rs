@@ -8,8 +8,6 @@ mod models;
 mod report;
 mod review;
 
-use std::path::PathBuf;
-
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
 /// Forecast monthly consumption of public-health commodities from facility
@@ -72,6 +70,35 @@ pub struct ReadArgs {
     /// What to do with two rows for the same product, month and site.
     #[arg(long, value_enum, default_value_t = Duplicates::Reject)]
     duplicates: Duplicates,
+    /// How numbers are written in the file.
+    #[arg(long, value_enum, default_value_t = Numbers::Plain)]
+    numbers: Numbers,
+    /// Text encoding of the file.
+    #[arg(long, value_enum, default_value_t = Encoding::Utf8)]
+    encoding: Encoding,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum Numbers {
+    /// 1234 or 1234.5 (no thousands separator).
+    Plain,
+    /// 1,234.5 or 1 234.5 (comma or space between groups of three digits).
+    Grouped,
+    /// 1234,5, 1.234,5 or 1 234,5 (comma as decimal mark).
+    DecimalComma,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum Encoding {
+    /// UTF-8 (a byte-order mark is stripped).
+    #[value(name = "utf-8", alias = "utf8")]
+    Utf8,
+    /// ISO-8859-1.
+    #[value(alias = "iso-8859-1")]
+    Latin1,
+    /// Windows-1252 (Latin-1 with the euro sign, curly quotes and dashes).
+    #[value(name = "windows-1252", alias = "cp1252")]
+    Windows1252,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -89,8 +116,30 @@ impl ReadArgs {
                 Duplicates::Reject => provisio::data::DuplicatePolicy::Reject,
                 Duplicates::Sum => provisio::data::DuplicatePolicy::Sum,
             },
+            numbers: match self.numbers {
+                Numbers::Plain => provisio::data::NumberFormat::Plain,
+                Numbers::Grouped => provisio::data::NumberFormat::Grouped,
+                Numbers::DecimalComma => provisio::data::NumberFormat::DecimalComma,
+            },
+            encoding: match self.encoding {
+                Encoding::Utf8 => provisio::data::Encoding::Utf8,
+                Encoding::Latin1 => provisio::data::Encoding::Latin1,
+                Encoding::Windows1252 => provisio::data::Encoding::Windows1252,
+            },
+            latest_month: current_month(),
         }
     }
+}
+
+/// The current calendar month (UTC): rows for later months are refused.
+fn current_month() -> Option<provisio::calendar::YearMonth> {
+    use chrono::Datelike;
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .ok()?
+        .as_secs();
+    let now = chrono::DateTime::from_timestamp(i64::try_from(secs).ok()?, 0)?;
+    provisio::calendar::YearMonth::new(now.year(), now.month())
 }
 
 /// Cleaning options shared by `inspect` and `clean`.
@@ -157,25 +206,22 @@ pub fn run() -> i32 {
 
 /// Reads and cleans an input file, as `inspect` and `clean` both do.
 fn load(
-    data: &PathBuf,
+    data: &std::path::Path,
     read: &ReadArgs,
     clean: &CleanArgs,
-) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
+) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned)> {
     load_until(data, read, clean, None)
 }
 
 /// [`load`], keeping only rows dated up to `until` when given.
 fn load_until(
-    data: &PathBuf,
+    data: &std::path::Path,
     read: &ReadArgs,
     clean: &CleanArgs,
     until: Option<provisio::calendar::YearMonth>,
-) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned, Vec<u8>)> {
+) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned)> {
     let settings = clean.settings().check()?;
-    let bytes = std::fs::read(data)
-        .map_err(|e| anyhow::anyhow!("{}: cannot read input: {e}", data.display()))?;
-    let mut ds =
-        provisio::data::read_csv_bytes(&data.display().to_string(), &bytes, &read.options())?;
+    let mut ds = provisio::data::read_csv_path(data, &read.options())?;
     if let Some(last) = until {
         ds.keep_until(last);
         if ds.rows.is_empty() {
@@ -197,7 +243,7 @@ fn load_until(
             data.display()
         );
     }
-    Ok((ds, cleaned, bytes))
+    Ok((ds, cleaned))
 }
 
 /// Prints the row accounting line and the reading warnings.

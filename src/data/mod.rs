@@ -3,9 +3,15 @@
 
 mod read;
 mod series;
+mod text;
+mod values;
 
-pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions};
+pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, MAX_QUANTITY};
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
+pub use text::{Encoding, MAX_ROW_BYTES};
+pub use values::{parse_month, parse_number, NumberFormat};
+
+use std::sync::Arc;
 
 use crate::calendar::YearMonth;
 
@@ -14,10 +20,10 @@ use crate::calendar::YearMonth;
 pub struct InputRow {
     /// 1-based line of the row in the input file (where the record starts).
     pub line: u64,
-    /// Product code or name.
-    pub product: String,
-    /// Site, when the file has a `site` column.
-    pub site: Option<String>,
+    /// Product code or name (shared by every row of the product).
+    pub product: Arc<str>,
+    /// Site, when the file has a `site` column (shared by its rows).
+    pub site: Option<Arc<str>>,
     /// Calendar month.
     pub month: YearMonth,
     /// Quantity dispensed; `None` = not reported.
@@ -58,6 +64,8 @@ pub struct MergedRow {
 pub struct Dataset {
     /// The file name as given by the user, used in messages.
     pub source: String,
+    /// SHA-256 of the file's bytes, lowercase hex (for the run manifest).
+    pub input_sha256: String,
     /// Data rows in the file (header excluded, blank lines included).
     pub rows_read: usize,
     /// Accepted rows.
@@ -135,6 +143,7 @@ mod tests {
             "product,month,consumed\nA,2024-01,1\nA,2024-02,2\nA,2024-03,3\nA,2024-03,4\nA,bad,5\n";
         let opts = ReadOptions {
             duplicates: DuplicatePolicy::Sum,
+            ..ReadOptions::default()
         };
         let mut ds = read_csv_bytes("t.csv", csv.as_bytes(), &opts).unwrap();
         assert_eq!(ds.rows_read, 5);

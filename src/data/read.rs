@@ -1,8 +1,15 @@
-//! Reading and validating the long CSV input.
+//! Reading and validating the long CSV input, streaming: one row is
+//! decoded at a time and only its parsed values are kept (product and site
+//! names are shared between rows), so memory grows with the number of rows
+//! but not with the size of the file's text.
 
-use std::collections::HashMap;
-use std::path::Path;
+use std::collections::{BTreeSet, HashMap, HashSet};
+use std::io::Read;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
 
+use super::text::{Encoding, Fields, Hashing, Records, TextError};
+use super::values::{parse_month, parse_number, NumberFormat};
 use super::{Dataset, InputRow, Layout, MergedRow, RejectedRow};
 use crate::calendar::YearMonth;
 use crate::error::{Error, Result};
@@ -24,60 +31,85 @@ pub enum DuplicatePolicy {
 pub struct ReadOptions {
     /// Handling of duplicate product + month (+ site) rows.
     pub duplicates: DuplicatePolicy,
+    /// How numbers are written.
+    pub numbers: NumberFormat,
+    /// Text encoding of the file.
+    pub encoding: Encoding,
+    /// Latest month a row may have (the month the run happens in); rows
+    /// for later months are rejected. `None`: no limit beyond the calendar's.
+    pub latest_month: Option<YearMonth>,
 }
+
+/// Largest quantity accepted in one row. Far above any real monthly
+/// quantity, and far enough below the largest float that scaling for
+/// stockouts and reporting, and summing, stay finite.
+pub const MAX_QUANTITY: f64 = 1e15;
 
 const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
 const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 
-/// Reads an input file from disk. See [`read_csv_bytes`].
+/// Reads an input file from disk, streaming, and hashes it on the way.
+/// See [`read_csv_bytes`] for what is checked.
 pub fn read_csv_path(path: &Path, options: &ReadOptions) -> Result<Dataset> {
-    let bytes = std::fs::read(path).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        action: "cannot read input",
-        source,
-    })?;
-    read_csv_bytes(&path.display().to_string(), &bytes, options)
-}
-
-/// Column positions of the contract's fields in one file.
-struct Columns {
-    product: usize,
-    month: usize,
-    consumed: usize,
-    stockout_days: Option<usize>,
-    reporting_rate: Option<usize>,
-    site: Option<usize>,
-    width: usize,
+    let open = || -> std::io::Result<Box<dyn Read>> { Ok(Box::new(std::fs::File::open(path)?)) };
+    read_from(&path.display().to_string(), path, &open, options)
 }
 
 /// Reads the long CSV contract from bytes. `source` names the file in
 /// messages. Problems with the file as a whole are errors; problems with a
 /// row reject that row (with the reason) and reading goes on.
 pub fn read_csv_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
+    let open = || -> std::io::Result<Box<dyn Read + '_>> { Ok(Box::new(bytes)) };
+    read_from(source, Path::new(source), &open, options)
+}
+
+type Open<'a> = dyn Fn() -> std::io::Result<Box<dyn Read + 'a>> + 'a;
+
+/// Shares one allocation per distinct product or site name.
+#[derive(Default)]
+struct Names(HashSet<Arc<str>>);
+
+impl Names {
+    fn get(&mut self, name: &str) -> Arc<str> {
+        if let Some(n) = self.0.get(name) {
+            return n.clone();
+        }
+        let n: Arc<str> = Arc::from(name);
+        self.0.insert(n.clone());
+        n
+    }
+}
+
+fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) -> Result<Dataset> {
     let input_err = |line: u64, column: Option<&str>, message: String| Error::Input {
         file: source.to_string(),
         line,
         column: column.map(str::to_string),
         message,
     };
-    let (bytes, had_bom) = match bytes.strip_prefix(b"\xEF\xBB\xBF") {
-        Some(rest) => (rest, true),
-        None => (bytes, false),
+    let text_err = |e: TextError| match e {
+        TextError::Io(e) => Error::Io {
+            path: PathBuf::from(path),
+            action: "cannot read input",
+            source: e,
+        },
+        TextError::Input { line, message } => input_err(line, None, message),
     };
-    let text = std::str::from_utf8(bytes).map_err(|e| {
-        let at = e.valid_up_to();
-        let line = 1 + bytes[..at].iter().filter(|&&b| b == b'\n').count() as u64;
-        let byte = bytes.get(at).copied().unwrap_or(0);
-        input_err(
-            line,
-            None,
-            format!(
-                "the file is not UTF-8 text (byte 0x{byte:02X} cannot start a UTF-8 character); \
-                 it is probably a Latin-1 / Windows-1252 export: save it again as \"CSV UTF-8\""
-            ),
-        )
-    })?;
-    if text.trim().is_empty() {
+    let file = open().map_err(|e| text_err(TextError::Io(e)))?;
+    let mut hashing = Hashing::new(file);
+    let mut records = Records::open(&mut hashing, options.encoding).map_err(text_err)?;
+    let delimiter = records.delimiter as char;
+    let had_bom = records.had_bom;
+
+    // The header is the first row that is not all blank.
+    let mut header = None;
+    while let Some(line) = records.next_record().map_err(text_err)? {
+        if records.fields().iter().any(|f| !f.trim().is_empty()) {
+            header = Some(line);
+            break;
+        }
+    }
+    let Some(header_line) = header else {
         return Err(input_err(
             0,
             None,
@@ -86,86 +118,81 @@ pub fn read_csv_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Resu
                 REQUIRED.join(", ")
             ),
         ));
-    }
-    let delimiter = detect_delimiter(text);
-    let mut reader = csv::ReaderBuilder::new()
-        .delimiter(delimiter)
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(text.as_bytes());
-    let mut records = reader.records();
-    let header = match records.next() {
-        Some(Ok(h)) => h,
-        Some(Err(e)) => return Err(input_err(1, None, format!("cannot read the header: {e}"))),
-        None => {
-            return Err(input_err(
-                0,
-                None,
-                "the file has no header line".to_string(),
-            ));
-        }
     };
-    let (columns, extra_columns) = map_header(&header).map_err(|m| input_err(1, None, m))?;
+    let (columns, extra_columns) =
+        map_header(&records.fields(), delimiter).map_err(|m| input_err(header_line, None, m))?;
 
-    // First pass over the raw records: needed to decide, column-wide,
-    // whether plain reporting-rate numbers are fractions or percentages.
-    let mut raw: Vec<(u64, csv::StringRecord)> = Vec::new();
-    for rec in records {
-        match rec {
-            Ok(r) => {
-                let line = r.position().map(|p| p.line()).unwrap_or(0);
-                raw.push((line, r));
-            }
-            Err(e) => {
-                let line = e.position().map(|p| p.line()).unwrap_or(0);
-                return Err(input_err(line, None, format!("cannot read the row: {e}")));
+    let mut names = Names::default();
+    let mut rows: Vec<InputRow> = Vec::new();
+    // Rows whose reporting rate was a plain number (no % sign): read as a
+    // fraction, or as a percentage when any plain value in the column
+    // exceeds 1, which is known only at the end.
+    let mut plain_rate: Vec<usize> = Vec::new();
+    let mut rate_above_one = false;
+    let mut rejected = Vec::new();
+    let mut rows_read = 0usize;
+    while let Some(line) = records.next_record().map_err(text_err)? {
+        rows_read += 1;
+        let fields = records.fields();
+        if let Some(c) = columns.reporting_rate {
+            let v = fields.get(c).unwrap_or("").trim();
+            if !v.ends_with('%')
+                && parse_number(v, options.numbers).is_ok_and(|x| x.is_some_and(|x| x > 1.0))
+            {
+                rate_above_one = true;
             }
         }
-    }
-    let rate_as_percent = columns.reporting_rate.is_some_and(|c| {
-        raw.iter().any(|(_, r)| {
-            r.get(c)
-                .map(str::trim)
-                .filter(|v| !v.ends_with('%'))
-                .and_then(|v| v.parse::<f64>().ok())
-                .is_some_and(|v| v.is_finite() && v > 1.0)
-        })
-    });
-
-    let delim_char = delimiter as char;
-    let mut rows: Vec<InputRow> = Vec::with_capacity(raw.len());
-    let mut rejected = Vec::new();
-    for (line, rec) in &raw {
-        match parse_row(*line, rec, &columns, rate_as_percent) {
-            Ok(row) => rows.push(row),
+        match parse_row(line, &fields, &columns, options, &mut names) {
+            Ok((row, plain)) => {
+                if plain {
+                    plain_rate.push(rows.len());
+                }
+                rows.push(row);
+            }
             Err((column, value, reason)) => rejected.push(RejectedRow {
-                line: *line,
+                line,
                 column,
                 value,
                 reason,
-                raw: rec.iter().collect::<Vec<_>>().join(&delim_char.to_string()),
+                raw: fields.joined(delimiter),
             }),
         }
     }
-    let rows_read = raw.len();
-    let raw_by_line: HashMap<u64, &csv::StringRecord> = raw.iter().map(|(l, r)| (*l, r)).collect();
+    let input_sha256 = hashing.hex();
+    if rate_above_one {
+        for &i in &plain_rate {
+            if let Some(r) = rows[i].reporting_rate.as_mut() {
+                *r /= 100.0;
+            }
+        }
+    }
+    drop(plain_rate);
+    rows.shrink_to_fit();
+
     let mut merged = Vec::new();
-    let rows = resolve_duplicates(
-        rows,
-        options.duplicates,
-        &mut rejected,
-        &mut merged,
-        |line| {
-            raw_by_line
-                .get(&line)
-                .map(|r| r.iter().collect::<Vec<_>>().join(&delim_char.to_string()))
-                .unwrap_or_default()
-        },
-    );
+    let mut rows = resolve_duplicates(rows, options.duplicates, &mut rejected, &mut merged);
+    rows.shrink_to_fit();
+    // Rows rejected as duplicates carry their text, read again from the
+    // file: keeping the text of every row in case it has a duplicate would
+    // cost more memory than the rows themselves.
+    let wanted: BTreeSet<u64> = rejected
+        .iter()
+        .filter(|r| r.raw.is_empty())
+        .map(|r| r.line)
+        .collect();
+    if !wanted.is_empty() {
+        let texts = reread_rows(open, options.encoding, &wanted);
+        for r in rejected.iter_mut().filter(|r| r.raw.is_empty()) {
+            if let Some(t) = texts.get(&r.line) {
+                r.raw = t.clone();
+            }
+        }
+    }
     rejected.sort_by_key(|r| r.line);
+    merged.sort_by_key(|m| m.line);
 
     let mut warnings = Vec::new();
-    if rate_as_percent {
+    if rate_above_one {
         warnings.push(
             "reporting_rate has values above 1, so plain numbers in that column are read as percentages (80 = 80%)"
                 .to_string(),
@@ -177,7 +204,14 @@ pub fn read_csv_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Resu
             extra_columns.join(", ")
         ));
     }
-    if rows.is_empty() && rows_read > 0 {
+    if rows_read == 0 {
+        return Err(input_err(
+            0,
+            None,
+            "the file has a header but no data rows".to_string(),
+        ));
+    }
+    if rows.is_empty() && merged.is_empty() {
         let first = rejected
             .first()
             .map(|r| format!("; first problem, line {}: {}", r.line, r.reason))
@@ -188,57 +222,58 @@ pub fn read_csv_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Resu
             format!("no usable rows: all {rows_read} data rows were rejected{first}"),
         ));
     }
-    if rows_read == 0 {
-        return Err(input_err(
-            0,
-            None,
-            "the file has a header but no data rows".to_string(),
-        ));
-    }
-    let _ = columns.width;
     Ok(Dataset {
         source: source.to_string(),
+        input_sha256,
         rows_read,
         rows,
         rejected,
         merged,
         warnings,
         layout: Layout {
-            delimiter: delim_char,
+            delimiter,
             had_bom,
             has_site: columns.site.is_some(),
             has_stockout_days: columns.stockout_days.is_some(),
             has_reporting_rate: columns.reporting_rate.is_some(),
-            reporting_rate_as_percent: rate_as_percent,
+            reporting_rate_as_percent: rate_above_one,
             extra_columns,
         },
     })
 }
 
-/// Picks the delimiter that splits the header line into the most fields,
-/// ignoring delimiters inside quotes. Comma wins ties.
-fn detect_delimiter(text: &str) -> u8 {
-    let header = text.lines().find(|l| !l.trim().is_empty()).unwrap_or("");
-    let mut counts = [(b',', 0usize), (b';', 0), (b'\t', 0)];
-    let mut in_quotes = false;
-    for b in header.bytes() {
-        if b == b'"' {
-            in_quotes = !in_quotes;
-        } else if !in_quotes {
-            for c in counts.iter_mut() {
-                if c.0 == b {
-                    c.1 += 1;
-                }
-            }
+/// Reads the file again and returns the text of the rows at `lines`.
+fn reread_rows(open: &Open<'_>, encoding: Encoding, lines: &BTreeSet<u64>) -> HashMap<u64, String> {
+    let mut found = HashMap::new();
+    let Ok(file) = open() else {
+        return found;
+    };
+    let Ok(mut records) = Records::open(file, encoding) else {
+        return found;
+    };
+    let delimiter = records.delimiter as char;
+    let last = lines.last().copied().unwrap_or(0);
+    while let Ok(Some(line)) = records.next_record() {
+        if lines.contains(&line) {
+            found.insert(line, records.fields().joined(delimiter));
+        }
+        if line >= last {
+            break;
         }
     }
-    let mut best = counts[0];
-    for c in counts {
-        if c.1 > best.1 {
-            best = c;
-        }
-    }
-    best.0
+    found
+}
+
+/// Column positions of the contract's fields in one file.
+struct Columns {
+    product: usize,
+    month: usize,
+    consumed: usize,
+    stockout_days: Option<usize>,
+    reporting_rate: Option<usize>,
+    site: Option<usize>,
+    width: usize,
+    delimiter: char,
 }
 
 fn normalise_name(name: &str) -> String {
@@ -249,7 +284,10 @@ fn normalise_name(name: &str) -> String {
         .collect()
 }
 
-fn map_header(header: &csv::StringRecord) -> std::result::Result<(Columns, Vec<String>), String> {
+fn map_header(
+    header: &Fields<'_>,
+    delimiter: char,
+) -> std::result::Result<(Columns, Vec<String>), String> {
     let names: Vec<String> = header.iter().map(normalise_name).collect();
     let mut found: HashMap<&str, usize> = HashMap::new();
     let mut extra = Vec::new();
@@ -307,6 +345,7 @@ fn map_header(header: &csv::StringRecord) -> std::result::Result<(Columns, Vec<S
             reporting_rate: found.get("reporting_rate").copied(),
             site: found.get("site").copied(),
             width: names.len(),
+            delimiter,
         },
         extra,
     ))
@@ -319,15 +358,31 @@ fn is_near(candidate: &str, wanted: &str) -> bool {
 
 type RowProblem = (Option<String>, String, String);
 
+/// Parses one data row. Returns the row and whether its reporting rate is
+/// a plain number (no % sign), whose scale is settled after the last row.
 fn parse_row(
     line: u64,
-    rec: &csv::StringRecord,
+    rec: &Fields<'_>,
     cols: &Columns,
-    rate_as_percent: bool,
-) -> std::result::Result<InputRow, RowProblem> {
-    let _ = line;
+    options: &ReadOptions,
+    names: &mut Names,
+) -> std::result::Result<(InputRow, bool), RowProblem> {
     if rec.iter().all(|f| f.trim().is_empty()) {
         return Err((None, String::new(), "the row is empty".to_string()));
+    }
+    // A value running over lines that hold as many delimiters as a whole
+    // row is rows swallowed by a quote that was opened and never closed.
+    let row_like = |l: &str| cols.width > 1 && l.matches(cols.delimiter).count() + 1 >= cols.width;
+    if let Some(f) = rec.iter().find(|f| f.lines().skip(1).any(row_like)) {
+        let n = f.lines().count();
+        return Err((
+            None,
+            String::new(),
+            format!(
+                "a quoted value runs over {n} lines (lines {line}-{}) and holds delimiters: a quote (\") is probably opened and never closed, so those lines were read as one value; close or remove the quote",
+                line + n as u64 - 1
+            ),
+        ));
     }
     if rec.len() > cols.width && rec.iter().skip(cols.width).any(|f| !f.trim().is_empty()) {
         return Err((
@@ -343,6 +398,7 @@ fn parse_row(
     let field = |i: usize| rec.get(i).unwrap_or("").trim();
     let problem =
         |col: &str, value: &str, reason: String| (Some(col.to_string()), value.to_string(), reason);
+    let number = |t: &str| parse_number(t, options.numbers);
 
     let product = field(cols.product);
     if product.is_empty() {
@@ -353,12 +409,27 @@ fn parse_row(
         ));
     }
     let month_text = field(cols.month);
-    let month = YearMonth::parse(month_text).map_err(|m| problem("month", month_text, m))?;
+    let month = parse_month(month_text).map_err(|m| problem("month", month_text, m))?;
+    if let Some(latest) = options.latest_month {
+        if month > latest {
+            return Err(problem(
+                "month",
+                month_text,
+                format!("month {month} is after the current month ({latest}): consumption cannot be reported for a month that has not come yet; check the year"),
+            ));
+        }
+    }
 
     let consumed_text = field(cols.consumed);
-    let consumed =
-        parse_number(consumed_text).map_err(|m| problem("consumed", consumed_text, m))?;
+    let consumed = number(consumed_text).map_err(|m| problem("consumed", consumed_text, m))?;
     if let Some(c) = consumed {
+        if c > MAX_QUANTITY {
+            return Err(problem(
+                "consumed",
+                consumed_text,
+                format!("consumed {consumed_text} is over 10^15 units in a month, more than any real quantity (and large enough to break the arithmetic); check the value"),
+            ));
+        }
         if c < 0.0 {
             return Err(problem(
                 "consumed",
@@ -372,7 +443,7 @@ fn parse_row(
         None => None,
         Some(i) => {
             let t = field(i);
-            let v = parse_number(t).map_err(|m| problem("stockout_days", t, m))?;
+            let v = number(t).map_err(|m| problem("stockout_days", t, m))?;
             if let Some(d) = v {
                 let dim = month.days();
                 if d < 0.0 || d > dim as f64 {
@@ -387,20 +458,28 @@ fn parse_row(
         }
     };
 
+    let mut plain = false;
     let reporting_rate = match cols.reporting_rate {
         None => None,
         Some(i) => {
             let t = field(i);
             let (num, percent) = match t.strip_suffix('%') {
                 Some(n) => (n.trim(), true),
-                None => (t, rate_as_percent),
+                None => (t, false),
             };
-            let v = parse_number(num).map_err(|m| problem("reporting_rate", t, m))?;
+            let v = number(num).map_err(|m| problem("reporting_rate", t, m))?;
             match v {
                 None => None,
                 Some(r) => {
-                    let frac = if percent { r / 100.0 } else { r };
-                    if !(0.0..=1.0).contains(&frac) {
+                    // A plain number may still turn out to be a percentage
+                    // (when another plain value exceeds 1): only 0-100 can
+                    // be valid either way.
+                    let (frac, limit) = if percent {
+                        (r / 100.0, 1.0)
+                    } else {
+                        (r, 100.0)
+                    };
+                    if !(0.0..=limit).contains(&frac) {
                         return Err(problem(
                             "reporting_rate",
                             t,
@@ -414,6 +493,7 @@ fn parse_row(
                             format!("reporting_rate is 0 but consumed is {consumed_text}: a month with no reports cannot have consumption; leave consumed empty or correct the rate"),
                         ));
                     }
+                    plain = !percent;
                     Some(frac)
                 }
             }
@@ -431,62 +511,51 @@ fn parse_row(
                     "site is empty while the file has a site column; name the site, or put all-site totals in a file of their own".into(),
                 ));
             }
-            Some(s.to_string())
+            Some(names.get(s))
         }
     };
 
-    Ok(InputRow {
-        line,
-        product: product.to_string(),
-        site,
-        month,
-        consumed,
-        stockout_days,
-        reporting_rate,
-    })
+    Ok((
+        InputRow {
+            line,
+            product: names.get(product),
+            site,
+            month,
+            consumed,
+            stockout_days,
+            reporting_rate,
+        },
+        plain,
+    ))
 }
 
-/// Parses a plain decimal number; empty is `None`. Refuses infinities, NaN,
-/// decimal commas and thousands separators with a message saying so.
-fn parse_number(text: &str) -> std::result::Result<Option<f64>, String> {
-    let t = text.trim();
-    if t.is_empty() {
-        return Ok(None);
-    }
-    let valid = "expected a plain number such as 1250 or 1250.5 (point as decimal mark, no thousands separator), or empty for not reported";
-    if t.contains(',') {
-        return Err(format!(
-            "\"{t}\" has a comma (decimal comma or thousands separator); {valid}"
-        ));
-    }
-    if t.contains(' ') || t.contains('\u{a0}') {
-        return Err(format!(
-            "\"{t}\" has a space inside (thousands separator?); {valid}"
-        ));
-    }
-    let ok_chars = t
-        .bytes()
-        .all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'-' | b'+' | b'e' | b'E'));
-    match t.parse::<f64>() {
-        Ok(v) if ok_chars && v.is_finite() => Ok(Some(v)),
-        _ => Err(format!("\"{t}\" is not a number; {valid}")),
-    }
+/// Product, site and month of a row. Names are shared (one allocation per
+/// distinct name), so their addresses identify them.
+type Key = (usize, usize, YearMonth);
+
+fn key_of(row: &InputRow) -> Key {
+    (
+        Arc::as_ptr(&row.product) as *const u8 as usize,
+        row.site
+            .as_ref()
+            .map_or(0, |s| Arc::as_ptr(s) as *const u8 as usize),
+        row.month,
+    )
 }
 
-type Key = (String, Option<String>, YearMonth);
-
+/// Settles rows with the same key. Rejected rows get an empty `raw`, filled
+/// in by the caller.
 fn resolve_duplicates(
     rows: Vec<InputRow>,
     policy: DuplicatePolicy,
     rejected: &mut Vec<RejectedRow>,
     merged: &mut Vec<MergedRow>,
-    raw_of: impl Fn(u64) -> String,
 ) -> Vec<InputRow> {
     let mut first_of: HashMap<Key, usize> = HashMap::with_capacity(rows.len());
     let mut keep: Vec<Option<InputRow>> = Vec::with_capacity(rows.len());
     let mut conflicted: Vec<bool> = Vec::with_capacity(rows.len());
     for row in rows {
-        let key = (row.product.clone(), row.site.clone(), row.month);
+        let key = key_of(&row);
         match first_of.get(&key) {
             None => {
                 first_of.insert(key, keep.len());
@@ -510,7 +579,7 @@ fn resolve_duplicates(
                         reason: format!(
                             "exact duplicate of line {first_line} ({what}); the first copy is used"
                         ),
-                        raw: raw_of(row.line),
+                        raw: String::new(),
                     }),
                     DuplicatePolicy::Reject => {
                         conflicted[idx] = true;
@@ -521,7 +590,7 @@ fn resolve_duplicates(
                             reason: format!(
                                 "duplicate of line {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
                             ),
-                            raw: raw_of(row.line),
+                            raw: String::new(),
                         });
                     }
                     DuplicatePolicy::Sum => {
@@ -548,7 +617,7 @@ fn resolve_duplicates(
                                 reason: format!(
                                     "duplicate of line {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
                                 ),
-                                raw: raw_of(row.line),
+                                raw: String::new(),
                             });
                         }
                     }
@@ -566,7 +635,7 @@ fn resolve_duplicates(
                 column: None,
                 value: String::new(),
                 reason: format!("has a duplicate with different values later in the file ({what}); both rejected, the month is treated as missing"),
-                raw: raw_of(row.line),
+                raw: String::new(),
             });
         } else {
             out.push(row);
@@ -663,6 +732,7 @@ mod tests {
             text.as_bytes(),
             &ReadOptions {
                 duplicates: DuplicatePolicy::Sum,
+                ..ReadOptions::default()
             },
         )
         .unwrap();
@@ -695,6 +765,90 @@ mod tests {
     #[test]
     fn quoted_fields_with_delimiters_and_newlines() {
         let d = read("product,month,consumed\n\"Tabs, 10 mg\nbox\",2024-01,5\n").unwrap();
-        assert_eq!(d.rows[0].product, "Tabs, 10 mg\nbox");
+        assert_eq!(&*d.rows[0].product, "Tabs, 10 mg\nbox");
+    }
+
+    #[test]
+    fn duplicate_rows_keep_their_text_as_read() {
+        let d = read("product;month;consumed\nA;2024-01;5\nB;2024-01;1\r\nA;2024-01;7\n").unwrap();
+        let raws: Vec<(u64, &str)> = d
+            .rejected
+            .iter()
+            .map(|r| (r.line, r.raw.as_str()))
+            .collect();
+        assert_eq!(raws, vec![(2, "A;2024-01;5"), (4, "A;2024-01;7")]);
+        assert_eq!(d.rows.len(), 1);
+    }
+
+    #[test]
+    fn hash_is_of_the_file_bytes() {
+        let text = "\u{feff}product,month,consumed\nA,2024-01,5\n";
+        let d = read(text).unwrap();
+        assert_eq!(d.input_sha256, crate::output::sha256_hex(text.as_bytes()));
+    }
+
+    #[test]
+    fn crlf_lines_are_exact_in_rejections() {
+        let d = read("product,month,consumed\r\nA,2024-01,5\r\n\r\nA,2024-02,x\r\n").unwrap();
+        assert_eq!(d.rejected[0].line, 4);
+        assert_eq!(d.rows_read, 2);
+    }
+
+    #[test]
+    fn plain_rates_become_percentages_when_one_exceeds_1() {
+        // The 120 row is rejected, yet it still shows that the column is in
+        // percent, as before reading was streamed.
+        let d = read("product,month,consumed,reporting_rate\nA,2024-01,5,0.9\nA,2024-02,5,120\nA,2024-03,5,90%\n")
+            .unwrap();
+        assert!(d.layout.reporting_rate_as_percent);
+        assert_eq!(d.rejected.len(), 1);
+        assert!((d.rows[0].reporting_rate.unwrap() - 0.009).abs() < 1e-12);
+        assert!((d.rows[1].reporting_rate.unwrap() - 0.9).abs() < 1e-12);
+    }
+
+    #[test]
+    fn future_months_are_rejected_when_a_limit_is_given() {
+        let opts = ReadOptions {
+            latest_month: YearMonth::new(2024, 2),
+            ..ReadOptions::default()
+        };
+        let d = read_csv_bytes(
+            "t.csv",
+            b"product,month,consumed\nA,2024-02,5\nA,2024-03,5\n",
+            &opts,
+        )
+        .unwrap();
+        assert_eq!(d.rows.len(), 1);
+        assert!(d.rejected[0]
+            .reason
+            .contains("after the current month (2024-02)"));
+    }
+
+    #[test]
+    fn decimal_comma_and_latin1_on_request() {
+        let opts = ReadOptions {
+            numbers: NumberFormat::DecimalComma,
+            encoding: Encoding::Latin1,
+            ..ReadOptions::default()
+        };
+        let d = read_csv_bytes(
+            "t.csv",
+            b"product;month;consumed;reporting_rate\nCaf\xE9;2024-01;1.234,5;85,5%\n",
+            &opts,
+        )
+        .unwrap();
+        assert_eq!(&*d.rows[0].product, "Caf\u{e9}");
+        assert_eq!(d.rows[0].consumed, Some(1234.5));
+        assert!((d.rows[0].reporting_rate.unwrap() - 0.855).abs() < 1e-12);
+    }
+
+    #[test]
+    fn names_are_shared_between_rows() {
+        let d = read("product,site,month,consumed\nA,s,2024-01,5\nA,s,2024-02,5\n").unwrap();
+        assert!(Arc::ptr_eq(&d.rows[0].product, &d.rows[1].product));
+        assert!(Arc::ptr_eq(
+            d.rows[0].site.as_ref().unwrap(),
+            d.rows[1].site.as_ref().unwrap()
+        ));
     }
 }

@@ -70,7 +70,7 @@ pub fn build_series(rows: &[InputRow]) -> Vec<ProductData> {
     let mut grouped: BTreeMap<&str, BTreeMap<Option<&str>, Vec<&InputRow>>> = BTreeMap::new();
     for r in rows {
         grouped
-            .entry(r.product.as_str())
+            .entry(&*r.product)
             .or_default()
             .entry(r.site.as_deref())
             .or_default()

@@ -17,13 +17,75 @@ pub use tables::{
     CleanManifest,
 };
 
+use std::fs::{File, OpenOptions};
 use std::io::Write;
-use std::path::Path;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 
 use crate::error::{Error, Result};
 
+/// Prefix and suffix of temporary files: hidden (leading dot), and
+/// recognisable, so that files left by a killed run can be removed.
+const TMP_PREFIX: &str = ".provisio-";
+const TMP_SUFFIX: &str = ".tmp";
+
+/// A temporary file that is removed when dropped, unless it was moved into
+/// place.
+struct TempFile {
+    path: PathBuf,
+    file: Option<File>,
+}
+
+impl TempFile {
+    /// Creates a new, empty temporary file in `dir`. Created like any other
+    /// file (so it gets the usual permissions, after the umask), never
+    /// replacing an existing one.
+    fn create(dir: &Path) -> std::io::Result<Self> {
+        static COUNTER: AtomicU64 = AtomicU64::new(0);
+        let mut tries = 0;
+        loop {
+            let name = format!(
+                "{TMP_PREFIX}{}-{}{TMP_SUFFIX}",
+                std::process::id(),
+                COUNTER.fetch_add(1, Ordering::Relaxed)
+            );
+            let path = dir.join(name);
+            match OpenOptions::new().write(true).create_new(true).open(&path) {
+                Ok(file) => {
+                    return Ok(TempFile {
+                        path,
+                        file: Some(file),
+                    })
+                }
+                Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists && tries < 1000 => {
+                    tries += 1;
+                }
+                Err(e) => return Err(e),
+            }
+        }
+    }
+
+    /// Moves the file to `target` (atomically, in the same directory).
+    fn persist(mut self, target: &Path) -> std::io::Result<()> {
+        drop(self.file.take());
+        std::fs::rename(&self.path, target)?;
+        self.path = PathBuf::new();
+        Ok(())
+    }
+}
+
+impl Drop for TempFile {
+    fn drop(&mut self) {
+        drop(self.file.take());
+        if !self.path.as_os_str().is_empty() {
+            let _ = std::fs::remove_file(&self.path);
+        }
+    }
+}
+
 /// Writes a file atomically: `fill` writes into a temporary file in the same
-/// directory, which is then renamed to `path`.
+/// directory, which is flushed to disk and then renamed to `path`. A reader
+/// (or a run killed half-way) sees the old file or the new one, never a part.
 pub fn write_atomic<F>(path: &Path, fill: F) -> Result<()>
 where
     F: FnOnce(&mut dyn Write) -> std::io::Result<()>,
@@ -39,23 +101,140 @@ where
             source,
         }
     };
-    let mut tmp = tempfile::Builder::new()
-        .prefix(".provisio-")
-        .suffix(".tmp")
-        .tempfile_in(dir)
-        .map_err(io("cannot create a temporary file beside"))?;
-    {
-        let mut w = std::io::BufWriter::new(tmp.as_file_mut());
+    let mut tmp = TempFile::create(dir).map_err(io("cannot create a temporary file beside"))?;
+    if let Some(file) = tmp.file.as_mut() {
+        let mut w = std::io::BufWriter::new(&mut *file);
         fill(&mut w).map_err(io("cannot write"))?;
         w.flush().map_err(io("cannot write"))?;
+        drop(w);
+        file.sync_all().map_err(io("cannot write"))?;
     }
-    tmp.as_file().sync_all().map_err(io("cannot write"))?;
-    tmp.persist(path).map_err(|e| Error::Io {
-        path: path.to_path_buf(),
-        action: "cannot move into place",
-        source: e.error,
-    })?;
+    tmp.persist(path).map_err(io("cannot move into place"))?;
     Ok(())
+}
+
+/// Name of the small file that marks a folder as provisio's output folder.
+pub const OUTPUT_MARKER: &str = ".provisio-output";
+
+/// An output folder that provisio may write into. Check it with
+/// [`OutputDir::check`] before the work starts (so a refusal comes at
+/// once), and [`OutputDir::prepare`] it just before writing.
+#[derive(Debug, Clone)]
+pub struct OutputDir {
+    path: PathBuf,
+}
+
+impl OutputDir {
+    /// Checks, changing nothing, that provisio may write into `path`: it
+    /// does not exist yet, is empty, was written by provisio before (holds
+    /// the marker file, or a `manifest.json` written by provisio), or
+    /// `overwrite` is set. Otherwise the error names a few of the files
+    /// found and the way out.
+    pub fn check(path: &Path, overwrite: bool) -> Result<OutputDir> {
+        let refuse = |message: String| Error::Output {
+            path: path.to_path_buf(),
+            message,
+        };
+        let ok = OutputDir {
+            path: path.to_path_buf(),
+        };
+        let entries = match std::fs::read_dir(path) {
+            Ok(e) => e,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(ok),
+            Err(e) if path.is_file() => {
+                let _ = e;
+                return Err(refuse(
+                    "a file of that name exists; --out needs a folder".to_string(),
+                ));
+            }
+            Err(source) => {
+                return Err(Error::Io {
+                    path: path.to_path_buf(),
+                    action: "cannot open the output folder",
+                    source,
+                })
+            }
+        };
+        let mut found = Vec::new();
+        for entry in entries.flatten() {
+            let name = entry.file_name().to_string_lossy().into_owned();
+            if name == OUTPUT_MARKER {
+                return Ok(ok);
+            }
+            if !is_temp_name(&name) {
+                found.push(name);
+            }
+        }
+        if found.is_empty() || overwrite || written_by_provisio(&path.join("manifest.json")) {
+            return Ok(ok);
+        }
+        found.sort();
+        let shown = if found.len() > 3 {
+            format!("{} and {} more", found[..3].join(", "), found.len() - 3)
+        } else {
+            found.join(", ")
+        };
+        Err(refuse(format!(
+            "the folder is not empty and provisio did not create it (it holds {shown}); \
+             choose a new or empty folder, or add --overwrite to write into it anyway \
+             (provisio's files there are replaced, other files are left alone)"
+        )))
+    }
+
+    /// Creates the folder if needed, marks it as provisio's, and removes
+    /// temporary files left by an interrupted earlier run.
+    pub fn prepare(&self) -> Result<()> {
+        let io = |action: &'static str| {
+            move |source| Error::Io {
+                path: self.path.clone(),
+                action,
+                source,
+            }
+        };
+        std::fs::create_dir_all(&self.path).map_err(io("cannot create the output folder"))?;
+        let entries = std::fs::read_dir(&self.path).map_err(io("cannot open the output folder"))?;
+        for entry in entries.flatten() {
+            let name = entry.file_name().to_string_lossy().into_owned();
+            if is_temp_name(&name) && entry.file_type().is_ok_and(|t| t.is_file()) {
+                let _ = std::fs::remove_file(entry.path());
+            }
+        }
+        let marker = self.path.join(OUTPUT_MARKER);
+        if !marker.exists() {
+            write_atomic(&marker, |w| {
+                w.write_all(
+                    b"This folder holds outputs written by provisio; provisio may replace its own files here.\n",
+                )
+            })?;
+        }
+        Ok(())
+    }
+
+    /// The folder.
+    pub fn path(&self) -> &Path {
+        &self.path
+    }
+
+    /// A file in the folder.
+    pub fn join(&self, name: &str) -> PathBuf {
+        self.path.join(name)
+    }
+}
+
+fn is_temp_name(name: &str) -> bool {
+    name.starts_with(TMP_PREFIX) && name.ends_with(TMP_SUFFIX)
+}
+
+/// Whether `path` is a run manifest written by provisio (outputs written
+/// before folders were marked).
+fn written_by_provisio(path: &Path) -> bool {
+    let small = std::fs::metadata(path).is_ok_and(|m| m.is_file() && m.len() < 1 << 20);
+    small
+        && std::fs::read(path)
+            .ok()
+            .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
+            .and_then(|v| v.get("tool")?.as_str().map(|t| t.starts_with("provisio ")))
+            .unwrap_or(false)
 }
 
 /// SHA-256 of a byte string, lowercase hex.
@@ -115,6 +294,65 @@ mod tests {
         });
         assert!(r.is_err());
         assert_eq!(std::fs::read_to_string(&p).unwrap(), "old\n");
+    }
+
+    #[test]
+    fn temporary_file_is_removed_on_failure_and_gets_usual_permissions() {
+        let dir = tempfile::tempdir().unwrap();
+        let p = dir.path().join("a.csv");
+        let _ = write_atomic(&p, |_| Err(std::io::Error::other("no space")));
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
+        write_atomic(&p, |w| w.write_all(b"x")).unwrap();
+        #[cfg(unix)]
+        {
+            // Same mode as a file created the ordinary way (0666 less the umask),
+            // not the 0600 of a private temporary file.
+            use std::os::unix::fs::PermissionsExt;
+            let plain = dir.path().join("plain");
+            std::fs::write(&plain, b"x").unwrap();
+            let mode = |q: &Path| std::fs::metadata(q).unwrap().permissions().mode() & 0o777;
+            assert_eq!(mode(&p), mode(&plain));
+        }
+    }
+
+    #[test]
+    fn output_folder_rules() {
+        let dir = tempfile::tempdir().unwrap();
+        // New, then empty: fine.
+        let new = dir.path().join("new");
+        OutputDir::check(&new, false).unwrap().prepare().unwrap();
+        assert!(new.join(OUTPUT_MARKER).exists());
+        // Ours (marked), with a temporary file left by a killed run.
+        std::fs::write(new.join("cleaned.csv"), b"old").unwrap();
+        std::fs::write(new.join(".provisio-99-1.tmp"), b"half").unwrap();
+        let d = OutputDir::check(&new, false).unwrap();
+        d.prepare().unwrap();
+        assert!(!new.join(".provisio-99-1.tmp").exists());
+        assert!(new.join("cleaned.csv").exists());
+        // Someone else's folder: refused, named, unless overwrite.
+        let theirs = dir.path().join("theirs");
+        std::fs::create_dir(&theirs).unwrap();
+        for f in ["a.txt", "b.txt", "c.txt", "d.txt"] {
+            std::fs::write(theirs.join(f), b"mine").unwrap();
+        }
+        let e = OutputDir::check(&theirs, false).unwrap_err().to_string();
+        assert!(e.contains("it holds a.txt, b.txt, c.txt and 1 more"), "{e}");
+        assert!(e.contains("--overwrite"), "{e}");
+        OutputDir::check(&theirs, true).unwrap().prepare().unwrap();
+        assert_eq!(std::fs::read(theirs.join("a.txt")).unwrap(), b"mine");
+        OutputDir::check(&theirs, false).unwrap();
+        // A folder of outputs from before folders were marked.
+        let old = dir.path().join("old");
+        std::fs::create_dir(&old).unwrap();
+        std::fs::write(old.join("manifest.json"), br#"{"tool": "provisio 0.1.0"}"#).unwrap();
+        OutputDir::check(&old, false).unwrap();
+        std::fs::write(old.join("manifest.json"), br#"{"tool": "other"}"#).unwrap();
+        assert!(OutputDir::check(&old, false).is_err());
+        // A file where a folder is wanted.
+        let file = dir.path().join("file");
+        std::fs::write(&file, b"x").unwrap();
+        let e = OutputDir::check(&file, true).unwrap_err().to_string();
+        assert!(e.contains("needs a folder"), "{e}");
     }
 
     #[test]

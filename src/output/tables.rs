@@ -163,6 +163,10 @@ pub struct CleanManifest {
     pub settings: CleanSettings,
     /// Duplicate handling used.
     pub duplicates: String,
+    /// Number format the input was read with.
+    pub numbers: String,
+    /// Text encoding the input was read with.
+    pub encoding: String,
     /// Row accounting.
     pub rows: RowAccount,
     /// Products cleaned.

@@ -107,6 +107,7 @@ pub fn clean_actuals(
 ) -> Result<(Dataset, Cleaned)> {
     let options = ReadOptions {
         duplicates: manifest.duplicate_policy(),
+        ..ReadOptions::default()
     };
     let ds = crate::data::read_csv_bytes(source, bytes, &options)?;
     let settings = manifest.clean_settings.clone().check()?;

@@ -1,0 +1,414 @@
+//! End-to-end hardening tests of the real binary: odd product names through
+//! the whole forecast, output folders provisio did not create, runs killed
+//! mid-way, and results that do not depend on the number of threads.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+use std::process::{Command, Output};
+use std::time::{Duration, Instant};
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_provisio"))
+}
+
+fn run(dir: &Path, args: &[&str]) -> Output {
+    bin()
+        .args(args)
+        .current_dir(dir)
+        .output()
+        .expect("run provisio")
+}
+
+fn text(o: &Output) -> String {
+    format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    )
+}
+
+fn records(path: &Path) -> Vec<csv::StringRecord> {
+    let mut r = csv::Reader::from_path(path).expect("open output");
+    r.records().map(|x| x.expect("record")).collect()
+}
+
+/// Every file in a folder (not recursive), name → bytes.
+fn files(dir: &Path) -> BTreeMap<String, Vec<u8>> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap())
+        .filter(|e| e.file_type().unwrap().is_file())
+        .map(|e| {
+            (
+                e.file_name().into_string().unwrap(),
+                std::fs::read(e.path()).unwrap(),
+            )
+        })
+        .collect()
+}
+
+fn is_temp(name: &str) -> bool {
+    name.starts_with(".provisio-") && name.ends_with(".tmp")
+}
+
+#[test]
+fn odd_product_names_flow_through_forecast_unchanged() {
+    let dir = tempfile::tempdir().unwrap();
+    let long = format!("Paracetamol {}", "x".repeat(10_000 - 12));
+    let names: Vec<String> = [
+        "a/b",
+        "../../etc/passwd",
+        "..",
+        "<script>alert(1)</script>",
+        "ORS 💊 sachet",
+        "محلول الإماهة الفموية",
+        "=1+2",
+        "tab\there \"quoted\", comma",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .chain([long])
+    .collect();
+    let mut input = String::from("product,month,consumed\n");
+    for (i, n) in names.iter().enumerate() {
+        let quoted = format!("\"{}\"", n.replace('"', "\"\""));
+        for t in 0..30 {
+            let month = format!("{}-{:02}", 2022 + t / 12, t % 12 + 1);
+            let v = 100 + 10 * i + (t * 7 % 13);
+            input.push_str(&format!("{quoted},{month},{v}\n"));
+        }
+    }
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "out",
+            "--origins",
+            "2",
+            "--horizon",
+            "6",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    // Nothing was written outside the output folder, whatever the names say.
+    let top: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().into_string().unwrap())
+        .collect();
+    assert_eq!(top.len(), 2, "{top:?}");
+    let out = dir.path().join("out");
+    // Only files, and the one charts folder the report writes, which in
+    // turn holds only files (chart names are sanitised).
+    for e in std::fs::read_dir(&out).unwrap() {
+        let e = e.unwrap();
+        if e.file_type().unwrap().is_dir() {
+            assert_eq!(e.file_name(), "charts");
+            assert!(std::fs::read_dir(e.path())
+                .unwrap()
+                .all(|c| c.unwrap().file_type().unwrap().is_file()));
+        }
+    }
+    let mut want = names.clone();
+    want.sort();
+    for file in ["selection.csv", "quality.csv"] {
+        let got: Vec<String> = records(&out.join(file))
+            .iter()
+            .map(|r| r[0].to_string())
+            .collect();
+        assert_eq!(got, want, "{file}: names come back exactly, in order");
+    }
+    let forecast = records(&out.join("forecast.csv"));
+    assert_eq!(forecast.len(), names.len() * 6);
+    for r in &forecast {
+        assert!(names.iter().any(|n| n == &r[0]));
+        let v: Vec<f64> = (3..8).map(|i| r[i].parse().unwrap()).collect();
+        assert!(v.iter().all(|x| x.is_finite() && *x >= 0.0), "{r:?}");
+        // lower_95 <= lower_80 <= forecast <= upper_80 <= upper_95
+        assert!(v[3] <= v[1] + 1e-9 && v[1] <= v[0] + 1e-9, "{r:?}");
+        assert!(v[0] <= v[2] + 1e-9 && v[2] <= v[4] + 1e-9, "{r:?}");
+    }
+    // The terminal summary cuts long names and shows no control characters.
+    let shown = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        !shown.contains(&"x".repeat(100)),
+        "long name is cut on screen"
+    );
+    assert!(!shown.contains('\t'));
+}
+
+#[test]
+fn a_folder_provisio_did_not_create_is_refused_unless_overwrite() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    for t in 0..14 {
+        input.push_str(&format!(
+            "ORS,{}-{:02},{}\n",
+            2023 + t / 12,
+            t % 12 + 1,
+            100 + t
+        ));
+    }
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let cases: [&[&str]; 3] = [
+        &["clean", "in.csv", "--out"],
+        &["forecast", "in.csv", "--origins", "1", "--out"],
+        &["backtest", "in.csv", "--origins", "1", "--out"],
+    ];
+    for (i, case) in cases.iter().enumerate() {
+        let target = format!("theirs{i}");
+        let theirs = dir.path().join(&target);
+        std::fs::create_dir(&theirs).unwrap();
+        std::fs::write(theirs.join("budget.xlsx"), b"not ours").unwrap();
+        let mut args = case.to_vec();
+        args.push(&target);
+        let o = run(dir.path(), &args);
+        assert_eq!(o.status.code(), Some(1), "{args:?}: {}", text(&o));
+        assert!(
+            text(&o).contains(&format!(
+                "{target}: cannot write output: the folder is not empty and provisio did not create it (it holds budget.xlsx); choose a new or empty folder, or add --overwrite"
+            )),
+            "{}",
+            text(&o)
+        );
+        assert_eq!(files(&theirs).len(), 1, "nothing written on refusal");
+        args.push("--overwrite");
+        let o = run(dir.path(), &args);
+        assert!(o.status.success(), "{args:?}: {}", text(&o));
+        assert_eq!(
+            std::fs::read(theirs.join("budget.xlsx")).unwrap(),
+            b"not ours"
+        );
+        assert!(theirs.join(".provisio-output").exists());
+        // Now marked as provisio's: a re-run needs no --overwrite.
+        args.pop();
+        let o = run(dir.path(), &args);
+        assert!(o.status.success(), "{args:?} again: {}", text(&o));
+    }
+    // A fresh folder, and re-running into it, need nothing special.
+    for _ in 0..2 {
+        let o = run(dir.path(), &["clean", "in.csv", "--out", "mine"]);
+        assert!(o.status.success(), "{}", text(&o));
+    }
+}
+
+/// Names, sizes and modification times of the files in a folder.
+fn listing(dir: &Path) -> Vec<(String, u64, Option<std::time::SystemTime>)> {
+    let mut v: Vec<_> = std::fs::read_dir(dir)
+        .map(|d| {
+            d.filter_map(Result::ok)
+                .filter_map(|e| {
+                    let m = e.metadata().ok()?;
+                    Some((
+                        e.file_name().to_string_lossy().into_owned(),
+                        m.len(),
+                        m.modified().ok(),
+                    ))
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    v.sort();
+    v
+}
+
+/// Starts `clean` into `out`, waits until it starts writing there (the
+/// folder's listing changes), waits `delay` more, and kills it. Returns
+/// whether the process was still running when killed.
+fn kill_while_writing(dir: &Path, out: &str, delay: Duration) -> bool {
+    let target = dir.join(out);
+    let before = listing(&target);
+    let mut child = bin()
+        .args(["clean", "in.csv", "--out", out])
+        .current_dir(dir)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let t0 = Instant::now();
+    loop {
+        if child.try_wait().unwrap().is_some() {
+            return false;
+        }
+        if listing(&target) != before || t0.elapsed() > Duration::from_secs(60) {
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(1));
+    }
+    std::thread::sleep(delay);
+    let running = child.try_wait().unwrap().is_none();
+    let _ = child.kill();
+    let _ = child.wait();
+    running
+}
+
+fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for (name, bytes) in files(from) {
+        std::fs::write(to.join(name), bytes).unwrap();
+    }
+}
+
+#[test]
+fn a_killed_run_leaves_whole_files_only() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    // About 10,000 rows: a 1 MB adjustment log, so writing takes a moment.
+    let o = run(
+        d,
+        &[
+            "generate",
+            "--products",
+            "15",
+            "--sites",
+            "20",
+            "--months",
+            "36",
+            "--seed",
+            "5",
+            "--out",
+            "in.csv",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let o = run(d, &["clean", "in.csv", "--out", "reference"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let reference = files(&d.join("reference"));
+    // A previous complete version with different contents.
+    let o = run(
+        d,
+        &[
+            "clean",
+            "in.csv",
+            "--out",
+            "previous",
+            "--max-stockout-days",
+            "5",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let previous = files(&d.join("previous"));
+    assert_ne!(reference["cleaned.csv"], previous["cleaned.csv"]);
+
+    let mut interrupted = 0;
+    let mut partial_states = 0;
+    for (i, ms) in [0u64, 2, 8, 25, 60].iter().enumerate() {
+        for with_previous in [true, false] {
+            let out = format!("run{i}{}", if with_previous { "p" } else { "f" });
+            if with_previous {
+                copy_dir(&d.join("previous"), &d.join(&out));
+            }
+            if kill_while_writing(d, &out, Duration::from_millis(*ms)) {
+                interrupted += 1;
+            }
+            let left = files(&d.join(&out));
+            let mut all_new = true;
+            for (name, bytes) in &left {
+                if is_temp(name) {
+                    // Hidden, and removed by the next run (checked below).
+                    all_new = false;
+                    continue;
+                }
+                let new = reference.get(name) == Some(bytes);
+                let old = with_previous && previous.get(name) == Some(bytes);
+                assert!(
+                    new || old,
+                    "{out}/{name} (killed {ms} ms into writing) is neither the new nor the previous complete file"
+                );
+                all_new &= new;
+            }
+            if left.keys().filter(|n| !is_temp(n)).count() < reference.len() {
+                all_new = false;
+            }
+            if !all_new {
+                partial_states += 1;
+            }
+            // The next run cleans up and completes.
+            let o = run(d, &["clean", "in.csv", "--out", &out]);
+            assert!(o.status.success(), "{}", text(&o));
+            assert_eq!(files(&d.join(&out)), reference, "{out} after a full run");
+        }
+    }
+    eprintln!(
+        "{interrupted} of 10 runs killed while running; {partial_states} left partial states"
+    );
+    // The kills did land while files were being written.
+    assert!(interrupted >= 4, "only {interrupted} runs were interrupted");
+    assert!(
+        partial_states >= 2,
+        "only {partial_states} partial states seen"
+    );
+}
+
+/// Runs `forecast` with `threads` rayon threads; returns its output files,
+/// with the time taken removed from the manifest.
+fn forecast_with_threads(dir: &Path, threads: &str) -> BTreeMap<String, Vec<u8>> {
+    let out = format!("out{threads}");
+    let o = bin()
+        .args([
+            "forecast",
+            "in.csv",
+            "--out",
+            &out,
+            "--origins",
+            "3",
+            "--horizon",
+            "12",
+        ])
+        .env("RAYON_NUM_THREADS", threads)
+        .current_dir(dir)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", text(&o));
+    let mut got = files(&dir.join(&out));
+    let mut manifest: serde_json::Value =
+        serde_json::from_slice(&got["manifest.json"]).expect("manifest is JSON");
+    let seconds = manifest
+        .as_object_mut()
+        .and_then(|m| m.remove("seconds"))
+        .expect("manifest records the seconds");
+    assert!(seconds.as_f64().is_some());
+    got.insert(
+        "manifest.json".into(),
+        serde_json::to_vec(&manifest).unwrap(),
+    );
+    got
+}
+
+#[test]
+fn results_do_not_depend_on_the_number_of_threads() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let o = run(
+        d,
+        &[
+            "generate",
+            "--products",
+            "6",
+            "--sites",
+            "3",
+            "--months",
+            "40",
+            "--seed",
+            "9",
+            "--out",
+            "in.csv",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let one = forecast_with_threads(d, "1");
+    let four = forecast_with_threads(d, "4");
+    assert!(one.len() >= 9, "{:?}", one.keys().collect::<Vec<_>>());
+    assert_eq!(
+        one.keys().collect::<Vec<_>>(),
+        four.keys().collect::<Vec<_>>()
+    );
+    for (name, bytes) in &one {
+        assert!(
+            &four[name] == bytes,
+            "{name} differs between 1 and 4 threads"
+        );
+    }
+}

@@ -1,0 +1,349 @@
+//! Property tests of the whole path from bytes to cleaned series, through
+//! the same entry point as the fuzz target in `fuzz/`
+//! (`clean::read_and_clean`): arbitrary bytes, near-valid files with hostile
+//! edits, and generated files whose correct accounting is known in advance.
+//! Nothing may panic; a refusal must name the file; an accepted file must
+//! keep every promise (`Cleaned::verify`) and match what was generated.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use proptest::prelude::*;
+use provisio::calendar::YearMonth;
+use provisio::clean::{read_and_clean, CleanSettings};
+use provisio::data::{DuplicatePolicy, Encoding, NumberFormat, ReadOptions};
+
+/// Read options chosen by one byte, as the fuzz target chooses them.
+fn options(b: u8) -> ReadOptions {
+    ReadOptions {
+        duplicates: if b & 1 == 0 {
+            DuplicatePolicy::Reject
+        } else {
+            DuplicatePolicy::Sum
+        },
+        numbers: match (b >> 1) % 3 {
+            0 => NumberFormat::Plain,
+            1 => NumberFormat::Grouped,
+            _ => NumberFormat::DecimalComma,
+        },
+        encoding: match (b >> 3) % 3 {
+            0 => Encoding::Utf8,
+            1 => Encoding::Latin1,
+            _ => Encoding::Windows1252,
+        },
+        latest_month: if b & 0x40 == 0 {
+            None
+        } else {
+            YearMonth::new(2024, 6)
+        },
+    }
+}
+
+/// Runs the path; checks that a refusal names the file and an accepted file
+/// keeps its promises, and that the quality profile can be made from it.
+fn check(bytes: &[u8], opts: &ReadOptions) -> Result<(), TestCaseError> {
+    let settings = CleanSettings::default().check().unwrap();
+    match read_and_clean("in.csv", bytes, opts, &settings) {
+        Ok((ds, cleaned)) => {
+            if let Err(e) = cleaned.verify(&ds) {
+                return Err(TestCaseError::fail(e));
+            }
+            let profiles = provisio::quality::profile_all(&cleaned);
+            prop_assert_eq!(profiles.len(), cleaned.inputs.len());
+        }
+        Err(e) => {
+            let m = e.to_string();
+            prop_assert!(m.starts_with("in.csv"), "{}", m);
+        }
+    }
+    Ok(())
+}
+
+/// Pieces that break readers: quotes, delimiters, line ends, byte-order
+/// marks, odd numbers and months, control and direction characters.
+const HOSTILE: &[&str] = &[
+    "\"",
+    ",",
+    ";",
+    "\t",
+    "\n",
+    "\r\n",
+    "\r",
+    "\u{feff}",
+    "NaN",
+    "inf",
+    "-1",
+    "1e308",
+    "1e15",
+    "1e-320",
+    "1,234",
+    "1.234,5",
+    "1 234",
+    "2024/03",
+    "Mar-2024",
+    "1899-12",
+    "2100-12",
+    "1900-01",
+    "9999999999999999999999",
+    "%",
+    "120%",
+    "0",
+    "\0",
+    "\u{202e}",
+    "💊",
+    "é",
+    "20é41",
+    "..",
+    "/",
+    "<script>",
+    "product,month,consumed",
+    "site",
+];
+
+fn base_csv() -> impl Strategy<Value = String> {
+    let row = (
+        0..3usize,
+        0..2usize,
+        0..40i64,
+        0..5000u32,
+        0..32u32,
+        0..=110u32,
+    );
+    prop::collection::vec(row, 1..40).prop_map(|rows| {
+        let mut s = String::from("product,site,month,consumed,stockout_days,reporting_rate\n");
+        for (p, site, t, c, sd, rr) in rows {
+            let m = YearMonth::known(2020, 1).plus(t);
+            s.push_str(&format!("P{p},S{site},{m},{c},{sd},{rr}%\n"));
+        }
+        s
+    })
+}
+
+#[derive(Debug, Clone)]
+enum Edit {
+    Insert(usize),
+    InsertByte(u8),
+    Delete(usize),
+    DuplicateLine,
+}
+
+fn edits() -> impl Strategy<Value = Vec<(f64, Edit)>> {
+    let edit = prop_oneof![
+        (0..HOSTILE.len()).prop_map(Edit::Insert),
+        any::<u8>().prop_map(Edit::InsertByte),
+        (1..20usize).prop_map(Edit::Delete),
+        Just(Edit::DuplicateLine),
+    ];
+    prop::collection::vec((0.0..1.0f64, edit), 1..8)
+}
+
+fn apply(text: &str, edits: &[(f64, Edit)]) -> Vec<u8> {
+    let mut b = text.as_bytes().to_vec();
+    for (at, e) in edits {
+        let i = ((b.len() as f64) * at) as usize;
+        let i = i.min(b.len());
+        match e {
+            Edit::Insert(k) => {
+                b.splice(i..i, HOSTILE[*k].bytes());
+            }
+            Edit::InsertByte(x) => b.insert(i, *x),
+            Edit::Delete(n) => {
+                b.drain(i..(i + n).min(b.len()));
+            }
+            Edit::DuplicateLine => {
+                let start = b[..i]
+                    .iter()
+                    .rposition(|&c| c == b'\n')
+                    .map_or(0, |p| p + 1);
+                let end = b[i..]
+                    .iter()
+                    .position(|&c| c == b'\n')
+                    .map_or(b.len(), |p| i + p + 1);
+                let line = b[start..end].to_vec();
+                b.splice(end..end, line);
+            }
+        }
+    }
+    b
+}
+
+/// Writes `v` (at most one decimal) in a number format, independently of
+/// the reader's code.
+fn write_number(v: f64, f: NumberFormat) -> String {
+    let plain = format!("{v}");
+    let (int, frac) = match plain.split_once('.') {
+        Some((i, d)) => (i.to_string(), Some(d.to_string())),
+        None => (plain.clone(), None),
+    };
+    let group = |sep: &str| {
+        let digits: Vec<char> = int.chars().collect();
+        let mut out = String::new();
+        for (k, c) in digits.iter().enumerate() {
+            if k > 0 && (digits.len() - k) % 3 == 0 {
+                out.push_str(sep);
+            }
+            out.push(*c);
+        }
+        out
+    };
+    match f {
+        NumberFormat::Plain => plain,
+        NumberFormat::Grouped => {
+            let i = group(",");
+            frac.map_or(i.clone(), |d| format!("{i}.{d}"))
+        }
+        NumberFormat::DecimalComma => {
+            let i = group(".");
+            frac.map_or(i.clone(), |d| format!("{i},{d}"))
+        }
+    }
+}
+
+/// A generated file and what reading it must give.
+#[derive(Debug)]
+struct Generated {
+    text: String,
+    format: NumberFormat,
+    rows: usize,
+    bad: usize,
+    /// Reported consumption of the good rows, per product.
+    reported: BTreeMap<String, f64>,
+}
+
+fn generated() -> impl Strategy<Value = Generated> {
+    let keys: Vec<(usize, usize, i64)> = (0..3)
+        .flat_map(|p| (0..2).flat_map(move |s| (0..30).map(move |t| (p, s, t))))
+        .collect();
+    let value = (
+        prop::option::weighted(0.9, (0..2_000_000u32).prop_map(|x| f64::from(x) / 10.0)),
+        prop::option::of(0..31u32),
+        prop::option::of(30..=100u32),
+        prop::sample::select(vec!["", "", "", "", "", "", "x", "NaN", "-5", "2024/03"]),
+    );
+    (
+        prop::sample::subsequence(keys, 1..90),
+        prop::collection::vec(value, 90),
+        0..3usize,
+    )
+        .prop_map(|(keys, values, f)| {
+            let format = [
+                NumberFormat::Plain,
+                NumberFormat::Grouped,
+                NumberFormat::DecimalComma,
+            ][f];
+            let d = if format == NumberFormat::DecimalComma {
+                ";"
+            } else {
+                ","
+            };
+            let mut text =
+                format!("product{d}site{d}month{d}consumed{d}stockout_days{d}reporting_rate\n");
+            let mut reported = BTreeMap::new();
+            let mut bad = 0;
+            for ((p, s, t), (c, sd, rr, spoil)) in keys.iter().zip(values) {
+                let m = YearMonth::known(2021, 1).plus(*t);
+                let sd = sd.map(|x| x.min(m.days()).to_string()).unwrap_or_default();
+                let rr = rr.map(|x| format!("{x}%")).unwrap_or_default();
+                let consumed = if spoil.is_empty() {
+                    *reported.entry(format!("P{p}")).or_insert(0.0) += c.unwrap_or(0.0);
+                    c.map(|v| format!("\"{}\"", write_number(v, format)))
+                        .unwrap_or_default()
+                } else {
+                    bad += 1;
+                    spoil.to_string()
+                };
+                text.push_str(&format!("P{p}{d}S{s}{d}{m}{d}{consumed}{d}{sd}{d}{rr}\n"));
+            }
+            Generated {
+                text,
+                format,
+                rows: keys.len(),
+                bad,
+                reported,
+            }
+        })
+}
+
+/// A few hundred cases in `cargo test` (set PROPTEST_CASES for a longer
+/// search); failures are kept beside this file, to be committed.
+fn config(quick: u32) -> ProptestConfig {
+    ProptestConfig {
+        cases: std::env::var("PROPTEST_CASES")
+            .ok()
+            .and_then(|v| v.parse().ok())
+            .unwrap_or(quick),
+        failure_persistence: Some(Box::new(
+            proptest::test_runner::FileFailurePersistence::WithSource("proptest-regressions"),
+        )),
+        ..ProptestConfig::default()
+    }
+}
+
+#[test]
+fn inputs_found_by_fuzzing_now_pass() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/fuzz");
+    let mut n = 0;
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_some_and(|e| e == "md") {
+            continue;
+        }
+        let data = std::fs::read(&path).unwrap();
+        let Some((&first, bytes)) = data.split_first() else {
+            continue;
+        };
+        if let Err(e) = check(bytes, &options(first)) {
+            panic!("{}: {e}", path.display());
+        }
+        n += 1;
+    }
+    assert!(n >= 1);
+}
+
+proptest! {
+    #![proptest_config(config(256))]
+
+    #[test]
+    fn arbitrary_bytes_never_panic(opt in any::<u8>(), bytes in prop::collection::vec(any::<u8>(), 0..1024)) {
+        check(&bytes, &options(opt))?;
+    }
+
+    #[test]
+    fn near_valid_files_with_hostile_edits_never_panic(opt in any::<u8>(), text in base_csv(), edits in edits()) {
+        check(&apply(&text, &edits), &options(opt))?;
+    }
+}
+
+proptest! {
+    #![proptest_config(config(128))]
+
+    /// Rows read, used, adjusted and rejected, and the cleaned totals,
+    /// against what the generator knows it wrote.
+    #[test]
+    fn generated_files_are_accounted_for(g in generated()) {
+        let opts = ReadOptions { numbers: g.format, ..ReadOptions::default() };
+        let settings = CleanSettings::default().check().unwrap();
+        let result = read_and_clean("in.csv", g.text.as_bytes(), &opts, &settings);
+        if g.bad == g.rows {
+            prop_assert!(result.is_err());
+            return Ok(());
+        }
+        let Ok((ds, cleaned)) = result else {
+            // Only possible when no product has a usable month.
+            prop_assert!(g.reported.values().all(|v| *v == 0.0) || g.reported.is_empty(), "{:?}", g);
+            return Ok(());
+        };
+        let r = cleaned.rows;
+        prop_assert_eq!(r.read, g.rows);
+        prop_assert_eq!(r.rejected, g.bad);
+        prop_assert_eq!(r.used + r.adjusted + r.rejected, r.read);
+        let usable: BTreeSet<&str> = cleaned.series.iter().map(|s| s.product.as_str()).collect();
+        let reported: f64 = g.reported.iter().filter(|(p, _)| usable.contains(p.as_str())).map(|(_, v)| v).sum();
+        let logged: f64 = cleaned.log.iter().filter(|a| usable.contains(a.product.as_str())).map(|a| a.delta()).sum();
+        let total: f64 = cleaned.series.iter().flat_map(|s| s.values.iter()).sum();
+        prop_assert!((total - (reported + logged)).abs() <= 1e-6 * total.abs().max(1.0),
+            "cleaned {} != reported {} + logged {}", total, reported, logged);
+        if let Err(e) = cleaned.verify(&ds) {
+            return Err(TestCaseError::fail(e));
+        }
+    }
+}
