@@ -106,9 +106,11 @@ fn odd_product_names_flow_through_forecast_unchanged() {
         let e = e.unwrap();
         if e.file_type().unwrap().is_dir() {
             assert_eq!(e.file_name(), "charts");
-            assert!(std::fs::read_dir(e.path())
+            assert!(std::fs::read_dir(e.path()).unwrap().all(|c| c
                 .unwrap()
-                .all(|c| c.unwrap().file_type().unwrap().is_file()));
+                .file_type()
+                .unwrap()
+                .is_file()));
         }
     }
     let mut want = names.clone();
