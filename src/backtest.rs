@@ -184,32 +184,47 @@ pub struct Scores {
 }
 
 impl Scores {
-    /// Scores a set of points (only those marked `scored`).
+    /// Scores a set of points (only those marked `scored`). One pass, no
+    /// allocation; the same sums, in the same order, as the functions of
+    /// [`metrics`] (a unit test holds them equal).
     pub fn of(points: &[Point]) -> Scores {
-        let p: Vec<&Point> = points.iter().filter(|p| p.scored).collect();
-        let a: Vec<f64> = p.iter().map(|p| p.actual).collect();
-        let f: Vec<f64> = p.iter().map(|p| p.forecast).collect();
-        let (mape, zero_actuals) = metrics::mape(&a, &f);
-        let scaled: Vec<f64> = p
-            .iter()
-            .filter_map(|p| p.scale.map(|s| (p.forecast - p.actual).abs() / s))
-            .collect();
-        let mase = (!scaled.is_empty() && scaled.len() == p.len())
-            .then(|| scaled.iter().sum::<f64>() / scaled.len() as f64);
-        let lo80: Vec<f64> = p.iter().map(|p| p.lower80).collect();
-        let hi80: Vec<f64> = p.iter().map(|p| p.upper80).collect();
-        let lo95: Vec<f64> = p.iter().map(|p| p.lower95).collect();
-        let hi95: Vec<f64> = p.iter().map(|p| p.upper95).collect();
+        let (mut n, mut zeros, mut mape_n) = (0usize, 0usize, 0usize);
+        let (mut ape, mut total, mut signed, mut abs_total, mut abs_err, mut sq) =
+            (0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
+        let (mut scaled, mut scaled_n) = (0.0, 0usize);
+        let (mut in80, mut in95) = (0usize, 0usize);
+        for p in points.iter().filter(|p| p.scored) {
+            let (a, f) = (p.actual, p.forecast);
+            n += 1;
+            if a == 0.0 {
+                zeros += 1;
+            } else {
+                ape += ((f - a) / a).abs();
+                mape_n += 1;
+            }
+            total += a;
+            signed += f - a;
+            abs_total += a.abs();
+            abs_err += (f - a).abs();
+            sq += (f - a).powi(2);
+            if let Some(s) = p.scale {
+                scaled += (f - a).abs() / s;
+                scaled_n += 1;
+            }
+            in80 += usize::from(a >= p.lower80 && a <= p.upper80);
+            in95 += usize::from(a >= p.lower95 && a <= p.upper95);
+        }
+        let share = |k: usize| (n > 0).then(|| 100.0 * k as f64 / n as f64);
         Scores {
-            n: p.len(),
-            mape,
-            zero_actuals,
-            bias: metrics::bias(&a, &f),
-            wape: metrics::wape(&a, &f),
-            mase,
-            rmse: metrics::rmse(&a, &f),
-            coverage80: metrics::coverage(&a, &lo80, &hi80),
-            coverage95: metrics::coverage(&a, &lo95, &hi95),
+            n,
+            mape: (mape_n > 0).then(|| 100.0 * ape / mape_n as f64),
+            zero_actuals: zeros,
+            bias: (total != 0.0).then(|| 100.0 * signed / total),
+            wape: (abs_total != 0.0).then(|| 100.0 * abs_err / abs_total),
+            mase: (scaled_n > 0 && scaled_n == n).then(|| scaled / scaled_n as f64),
+            rmse: (n > 0).then(|| (sq / n as f64).sqrt()),
+            coverage80: share(in80),
+            coverage95: share(in95),
         }
     }
 

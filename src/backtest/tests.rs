@@ -168,3 +168,51 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn one_pass_scores_equal_the_metric_functions() {
+    // Scores::of must give exactly what the slice functions of `metrics`
+    // give on the scored points (same sums in the same order).
+    let mut pts = Vec::new();
+    for t in 0..40 {
+        let a = if t % 7 == 0 {
+            0.0
+        } else {
+            50.0 + (t * 13 % 17) as f64
+        };
+        let f = 48.0 + (t * 5 % 11) as f64;
+        pts.push(Point {
+            origin: 0,
+            horizon: 1 + t % 12,
+            target: t,
+            actual: a,
+            forecast: f,
+            lower80: f - 5.0,
+            upper80: f + 5.0,
+            lower95: f - 9.0,
+            upper95: f + 9.0,
+            scale: Some(3.0 + (t % 3) as f64),
+            scored: t % 9 != 4,
+        });
+    }
+    let sc = Scores::of(&pts);
+    let used: Vec<&Point> = pts.iter().filter(|p| p.scored).collect();
+    let a: Vec<f64> = used.iter().map(|p| p.actual).collect();
+    let f: Vec<f64> = used.iter().map(|p| p.forecast).collect();
+    let (mape, zeros) = metrics::mape(&a, &f);
+    assert_eq!(sc.n, used.len());
+    assert_eq!(sc.mape, mape);
+    assert_eq!(sc.zero_actuals, zeros);
+    assert_eq!(sc.bias, metrics::bias(&a, &f));
+    assert_eq!(sc.wape, metrics::wape(&a, &f));
+    assert_eq!(sc.rmse, metrics::rmse(&a, &f));
+    let lo: Vec<f64> = used.iter().map(|p| p.lower80).collect();
+    let hi: Vec<f64> = used.iter().map(|p| p.upper80).collect();
+    assert_eq!(sc.coverage80, metrics::coverage(&a, &lo, &hi));
+    let m: f64 = used
+        .iter()
+        .map(|p| (p.forecast - p.actual).abs() / p.scale.unwrap())
+        .sum::<f64>()
+        / used.len() as f64;
+    assert!((sc.mase.unwrap() - m).abs() < 1e-12);
+}
