@@ -252,7 +252,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             .unwrap_or_else(|| "-".into());
         let margin = s
             .margin_pct
-            .map(|m| format!("{:+.1}%", m.max(0.0)))
+            .map(|m| format!("{m:+.1}%"))
             .unwrap_or_else(|| "-".into());
         let next = r
             .projection
@@ -277,7 +277,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             if horizon_shown { next } else { String::new() }
         );
     }
-    println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: its score above the chosen one)");
+    println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: its score above the chosen one; negative when the chosen model won a near-tie)");
     for r in results {
         for w in &r.warnings {
             eprintln!("warning: {w}");
