@@ -67,17 +67,36 @@ type Open<'a> = dyn Fn() -> std::io::Result<Box<dyn Read + 'a>> + 'a;
 
 /// Shares one allocation per distinct product or site name.
 #[derive(Default)]
-struct Names(HashSet<Arc<str>>);
+struct Names {
+    all: HashSet<Arc<str>>,
+    /// The name asked for last: files list many rows of one product or
+    /// site in a row, and comparing with it is cheaper than hashing.
+    last: Option<Arc<str>>,
+}
 
 impl Names {
     fn get(&mut self, name: &str) -> Arc<str> {
-        if let Some(n) = self.0.get(name) {
+        if let Some(n) = self.last.as_ref().filter(|n| ***n == *name) {
             return n.clone();
         }
-        let n: Arc<str> = Arc::from(name);
-        self.0.insert(n.clone());
+        let n = match self.all.get(name) {
+            Some(n) => n.clone(),
+            None => {
+                let n: Arc<str> = Arc::from(name);
+                self.all.insert(n.clone());
+                n
+            }
+        };
+        self.last = Some(n.clone());
         n
     }
+}
+
+/// Product and site names, each shared between the rows that carry them.
+#[derive(Default)]
+struct Interned {
+    products: Names,
+    sites: Names,
 }
 
 fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) -> Result<Dataset> {
@@ -122,7 +141,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
     let (columns, extra_columns) =
         map_header(&records.fields(), delimiter).map_err(|m| input_err(header_line, None, m))?;
 
-    let mut names = Names::default();
+    let mut names = Interned::default();
     let mut rows: Vec<InputRow> = Vec::new();
     // Rows whose reporting rate was a plain number (no % sign): read as a
     // fraction, or as a percentage when any plain value in the column
@@ -365,7 +384,7 @@ fn parse_row(
     rec: &Fields<'_>,
     cols: &Columns,
     options: &ReadOptions,
-    names: &mut Names,
+    names: &mut Interned,
 ) -> std::result::Result<(InputRow, bool), RowProblem> {
     if rec.iter().all(|f| f.trim().is_empty()) {
         return Err((None, String::new(), "the row is empty".to_string()));
@@ -511,14 +530,14 @@ fn parse_row(
                     "site is empty while the file has a site column; name the site, or put all-site totals in a file of their own".into(),
                 ));
             }
-            Some(names.get(s))
+            Some(names.sites.get(s))
         }
     };
 
     Ok((
         InputRow {
             line,
-            product: names.get(product),
+            product: names.products.get(product),
             site,
             month,
             consumed,
