@@ -45,6 +45,36 @@ pub struct ReadOptions {
 /// stockouts and reporting, and summing, stay finite.
 pub const MAX_QUANTITY: f64 = 1e15;
 
+impl ReadOptions {
+    /// Every combination of the options, picked by one byte. The fuzz target
+    /// and the property tests take the first byte of an arbitrary input this
+    /// way, so that random input exercises every reading mode.
+    pub fn from_byte(b: u8) -> Self {
+        ReadOptions {
+            duplicates: if b & 1 == 0 {
+                DuplicatePolicy::Reject
+            } else {
+                DuplicatePolicy::Sum
+            },
+            numbers: match (b >> 1) % 3 {
+                0 => NumberFormat::Plain,
+                1 => NumberFormat::Grouped,
+                _ => NumberFormat::DecimalComma,
+            },
+            encoding: match (b >> 3) % 3 {
+                0 => Encoding::Utf8,
+                1 => Encoding::Latin1,
+                _ => Encoding::Windows1252,
+            },
+            latest_month: if b & 0x40 == 0 {
+                None
+            } else {
+                YearMonth::new(2024, 6)
+            },
+        }
+    }
+}
+
 const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
 const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 
