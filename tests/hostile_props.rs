@@ -10,33 +10,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use proptest::prelude::*;
 use provisio::calendar::YearMonth;
 use provisio::clean::{read_and_clean, CleanSettings};
-use provisio::data::{DuplicatePolicy, Encoding, NumberFormat, ReadOptions};
-
-/// Read options chosen by one byte, as the fuzz target chooses them.
-fn options(b: u8) -> ReadOptions {
-    ReadOptions {
-        duplicates: if b & 1 == 0 {
-            DuplicatePolicy::Reject
-        } else {
-            DuplicatePolicy::Sum
-        },
-        numbers: match (b >> 1) % 3 {
-            0 => NumberFormat::Plain,
-            1 => NumberFormat::Grouped,
-            _ => NumberFormat::DecimalComma,
-        },
-        encoding: match (b >> 3) % 3 {
-            0 => Encoding::Utf8,
-            1 => Encoding::Latin1,
-            _ => Encoding::Windows1252,
-        },
-        latest_month: if b & 0x40 == 0 {
-            None
-        } else {
-            YearMonth::new(2024, 6)
-        },
-    }
-}
+use provisio::data::{NumberFormat, ReadOptions};
 
 /// Runs the path; checks that a refusal names the file and an accepted file
 /// keeps its promises, and that the quality profile can be made from it.
@@ -291,7 +265,7 @@ fn inputs_found_by_fuzzing_now_pass() {
         let Some((&first, bytes)) = data.split_first() else {
             continue;
         };
-        if let Err(e) = check(bytes, &options(first)) {
+        if let Err(e) = check(bytes, &ReadOptions::from_byte(first)) {
             panic!("{}: {e}", path.display());
         }
         n += 1;
@@ -304,12 +278,12 @@ proptest! {
 
     #[test]
     fn arbitrary_bytes_never_panic(opt in any::<u8>(), bytes in prop::collection::vec(any::<u8>(), 0..1024)) {
-        check(&bytes, &options(opt))?;
+        check(&bytes, &ReadOptions::from_byte(opt))?;
     }
 
     #[test]
     fn near_valid_files_with_hostile_edits_never_panic(opt in any::<u8>(), text in base_csv(), edits in edits()) {
-        check(&apply(&text, &edits), &options(opt))?;
+        check(&apply(&text, &edits), &ReadOptions::from_byte(opt))?;
     }
 }
 

@@ -6,41 +6,15 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use provisio::calendar::YearMonth;
 use provisio::clean::{read_and_clean, CleanSettings};
-use provisio::data::{DuplicatePolicy, Encoding, NumberFormat, ReadOptions};
-
-fn options(b: u8) -> ReadOptions {
-    ReadOptions {
-        duplicates: if b & 1 == 0 {
-            DuplicatePolicy::Reject
-        } else {
-            DuplicatePolicy::Sum
-        },
-        numbers: match (b >> 1) % 3 {
-            0 => NumberFormat::Plain,
-            1 => NumberFormat::Grouped,
-            _ => NumberFormat::DecimalComma,
-        },
-        encoding: match (b >> 3) % 3 {
-            0 => Encoding::Utf8,
-            1 => Encoding::Latin1,
-            _ => Encoding::Windows1252,
-        },
-        latest_month: if b & 0x40 == 0 {
-            None
-        } else {
-            YearMonth::new(2024, 6)
-        },
-    }
-}
+use provisio::data::ReadOptions;
 
 fuzz_target!(|data: &[u8]| {
     let Some((&first, bytes)) = data.split_first() else {
         return;
     };
     let settings = CleanSettings::default().check().expect("default settings");
-    match read_and_clean("in.csv", bytes, &options(first), &settings) {
+    match read_and_clean("in.csv", bytes, &ReadOptions::from_byte(first), &settings) {
         Ok((ds, cleaned)) => {
             if let Err(e) = cleaned.verify(&ds) {
                 panic!("{e}");

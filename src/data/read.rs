@@ -45,6 +45,36 @@ pub struct ReadOptions {
 /// stockouts and reporting, and summing, stay finite.
 pub const MAX_QUANTITY: f64 = 1e15;
 
+impl ReadOptions {
+    /// Every combination of the options, picked by one byte. The fuzz target
+    /// and the property tests take the first byte of an arbitrary input this
+    /// way, so that random input exercises every reading mode.
+    pub fn from_byte(b: u8) -> Self {
+        ReadOptions {
+            duplicates: if b & 1 == 0 {
+                DuplicatePolicy::Reject
+            } else {
+                DuplicatePolicy::Sum
+            },
+            numbers: match (b >> 1) % 3 {
+                0 => NumberFormat::Plain,
+                1 => NumberFormat::Grouped,
+                _ => NumberFormat::DecimalComma,
+            },
+            encoding: match (b >> 3) % 3 {
+                0 => Encoding::Utf8,
+                1 => Encoding::Latin1,
+                _ => Encoding::Windows1252,
+            },
+            latest_month: if b & 0x40 == 0 {
+                None
+            } else {
+                YearMonth::new(2024, 6)
+            },
+        }
+    }
+}
+
 const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
 const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 
@@ -67,17 +97,36 @@ type Open<'a> = dyn Fn() -> std::io::Result<Box<dyn Read + 'a>> + 'a;
 
 /// Shares one allocation per distinct product or site name.
 #[derive(Default)]
-struct Names(HashSet<Arc<str>>);
+struct Names {
+    all: HashSet<Arc<str>>,
+    /// The name asked for last: files list many rows of one product or
+    /// site in a row, and comparing with it is cheaper than hashing.
+    last: Option<Arc<str>>,
+}
 
 impl Names {
     fn get(&mut self, name: &str) -> Arc<str> {
-        if let Some(n) = self.0.get(name) {
+        if let Some(n) = self.last.as_ref().filter(|n| ***n == *name) {
             return n.clone();
         }
-        let n: Arc<str> = Arc::from(name);
-        self.0.insert(n.clone());
+        let n = match self.all.get(name) {
+            Some(n) => n.clone(),
+            None => {
+                let n: Arc<str> = Arc::from(name);
+                self.all.insert(n.clone());
+                n
+            }
+        };
+        self.last = Some(n.clone());
         n
     }
+}
+
+/// Product and site names, each shared between the rows that carry them.
+#[derive(Default)]
+struct Interned {
+    products: Names,
+    sites: Names,
 }
 
 fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) -> Result<Dataset> {
@@ -122,7 +171,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
     let (columns, extra_columns) =
         map_header(&records.fields(), delimiter).map_err(|m| input_err(header_line, None, m))?;
 
-    let mut names = Names::default();
+    let mut names = Interned::default();
     let mut rows: Vec<InputRow> = Vec::new();
     // Rows whose reporting rate was a plain number (no % sign): read as a
     // fraction, or as a percentage when any plain value in the column
@@ -172,6 +221,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
     let mut merged = Vec::new();
     let mut rows = resolve_duplicates(rows, options.duplicates, &mut rejected, &mut merged);
     rows.shrink_to_fit();
+    check_span(&rows).map_err(|(line, m)| input_err(line, None, m))?;
     // Rows rejected as duplicates carry their text, read again from the
     // file: keeping the text of every row in case it has a duplicate would
     // cost more memory than the rows themselves.
@@ -240,6 +290,61 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
             extra_columns,
         },
     })
+}
+
+/// Cleaning lays every site of a product on the product's whole calendar,
+/// so its memory grows with sites × months spanned, not with rows. A year
+/// typed wrong (1926 for 2026) in a file with many sites, or a hostile file,
+/// could make that thousands of times the rows; such files are refused
+/// before any of it is allocated.
+pub const MAX_CELLS_PER_ROW: usize = 100;
+/// Site-months always allowed, however few the rows.
+pub const MIN_CELL_LIMIT: usize = 20_000_000;
+
+fn check_span(rows: &[InputRow]) -> std::result::Result<(), (u64, String)> {
+    struct Span {
+        first: (YearMonth, u64),
+        last: YearMonth,
+        sites: HashSet<usize>,
+    }
+    let mut spans: HashMap<usize, Span> = HashMap::new();
+    for r in rows {
+        let (product, site, month) = key_of(r);
+        let s = spans.entry(product).or_insert_with(|| Span {
+            first: (month, r.line),
+            last: month,
+            sites: HashSet::new(),
+        });
+        if month < s.first.0 {
+            s.first = (month, r.line);
+        }
+        s.last = s.last.max(month);
+        s.sites.insert(site);
+    }
+    let cells = |s: &Span| s.sites.len() * (s.first.0.months_until(s.last) as usize + 1);
+    let total: usize = spans.values().map(cells).sum();
+    let limit = MIN_CELL_LIMIT.max(MAX_CELLS_PER_ROW * rows.len());
+    if total <= limit {
+        return Ok(());
+    }
+    let Some((product, worst)) = spans.iter().max_by_key(|(_, s)| cells(s)) else {
+        return Ok(());
+    };
+    let name = rows
+        .iter()
+        .find(|r| Arc::as_ptr(&r.product) as *const u8 as usize == *product)
+        .map(|r| r.product.to_string())
+        .unwrap_or_default();
+    Err((
+        worst.first.1,
+        format!(
+            "the rows span {total} site-months (each site over its product's first to last month), more than {MAX_CELLS_PER_ROW} for each of the {} rows; product '{name}' alone has {} site(s) from {} to {}: a year is probably mistyped (the earliest month is on this line)",
+            rows.len(),
+            worst.sites.len(),
+            worst.first.0,
+            worst.last
+        ),
+    ))
 }
 
 /// Reads the file again and returns the text of the rows at `lines`.
@@ -365,7 +470,7 @@ fn parse_row(
     rec: &Fields<'_>,
     cols: &Columns,
     options: &ReadOptions,
-    names: &mut Names,
+    names: &mut Interned,
 ) -> std::result::Result<(InputRow, bool), RowProblem> {
     if rec.iter().all(|f| f.trim().is_empty()) {
         return Err((None, String::new(), "the row is empty".to_string()));
@@ -511,14 +616,14 @@ fn parse_row(
                     "site is empty while the file has a site column; name the site, or put all-site totals in a file of their own".into(),
                 ));
             }
-            Some(names.get(s))
+            Some(names.sites.get(s))
         }
     };
 
     Ok((
         InputRow {
             line,
-            product: names.get(product),
+            product: names.products.get(product),
             site,
             month,
             consumed,
@@ -850,5 +955,26 @@ mod tests {
             d.rows[0].site.as_ref().unwrap(),
             d.rows[1].site.as_ref().unwrap()
         ));
+    }
+
+    #[test]
+    fn a_mistyped_year_across_many_sites_is_refused_before_cleaning() {
+        // 20,000 sites with a row each; one more row dated 1926 instead of
+        // 2026 would lay every site on 100 years: 24 million site-months.
+        let mut text = String::from("product,site,month,consumed\n");
+        for s in 0..20_000 {
+            text.push_str(&format!("A,s{s},2026-01,1\n"));
+        }
+        assert!(read(&text).is_ok());
+        text.push_str("A,s7,1926-02,1\n");
+        let e = read(&text).unwrap_err().to_string();
+        assert!(
+            e.starts_with("t.csv:20002: the rows span 24000000 site-months"),
+            "{e}"
+        );
+        assert!(
+            e.contains("product 'A' alone has 20000 site(s) from 1926-02 to 2026-01"),
+            "{e}"
+        );
     }
 }

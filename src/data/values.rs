@@ -50,39 +50,45 @@ pub fn parse_number(text: &str, format: NumberFormat) -> Result<Option<f64>, Str
     if t.is_empty() {
         return Ok(None);
     }
-    let valid = format!(
-        "expected a number such as {}, or empty for not reported",
-        format.example()
-    );
+    // Built only for a message: this runs for every number in the file.
+    let valid = || {
+        format!(
+            "expected a number such as {}, or empty for not reported",
+            format.example()
+        )
+    };
     let plain = match format {
         NumberFormat::Plain => {
             if t.contains(',') {
                 return Err(format!(
-                    "\"{t}\" has a comma (decimal comma or thousands separator); {valid}; \
-                     for a decimal comma use --numbers decimal-comma, for thousands separators --numbers grouped"
+                    "\"{t}\" has a comma (decimal comma or thousands separator); {}; \
+                     for a decimal comma use --numbers decimal-comma, for thousands separators --numbers grouped",
+                    valid()
                 ));
             }
             if t.chars().any(is_group_space) {
                 return Err(format!(
-                    "\"{t}\" has a space inside (thousands separator?); {valid}; \
-                     to read spaces between digit groups use --numbers grouped (or decimal-comma)"
+                    "\"{t}\" has a space inside (thousands separator?); {}; \
+                     to read spaces between digit groups use --numbers grouped (or decimal-comma)",
+                    valid()
                 ));
             }
             if t.matches('.').count() > 1 {
                 return Err(format!(
-                    "\"{t}\" has more than one point (points between thousands?); {valid}; \
-                     for 1.234,5 style numbers use --numbers decimal-comma"
+                    "\"{t}\" has more than one point (points between thousands?); {}; \
+                     for 1.234,5 style numbers use --numbers decimal-comma",
+                    valid()
                 ));
             }
             std::borrow::Cow::Borrowed(t)
         }
         NumberFormat::Grouped => std::borrow::Cow::Owned(
             ungroup(t, '.', &[',', ' ', '\u{a0}', '\u{202f}'])
-                .map_err(|why| format!("\"{t}\": {why}; {valid}"))?,
+                .map_err(|why| format!("\"{t}\": {why}; {}", valid()))?,
         ),
         NumberFormat::DecimalComma => std::borrow::Cow::Owned(
             ungroup(t, ',', &['.', ' ', '\u{a0}', '\u{202f}'])
-                .map_err(|why| format!("\"{t}\": {why}; {valid}"))?,
+                .map_err(|why| format!("\"{t}\": {why}; {}", valid()))?,
         ),
     };
     let ok_chars = plain
@@ -90,7 +96,7 @@ pub fn parse_number(text: &str, format: NumberFormat) -> Result<Option<f64>, Str
         .all(|b| b.is_ascii_digit() || matches!(b, b'.' | b'-' | b'+' | b'e' | b'E'));
     match plain.parse::<f64>() {
         Ok(v) if ok_chars && v.is_finite() => Ok(Some(v)),
-        _ => Err(format!("\"{t}\" is not a number; {valid}")),
+        _ => Err(format!("\"{t}\" is not a number; {}", valid())),
     }
 }
 
