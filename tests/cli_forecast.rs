@@ -296,3 +296,40 @@ fn backtest_detail_all_writes_every_complete_model() {
     assert!(complete >= 10, "{complete}");
     assert_eq!(bt.len(), complete * 144);
 }
+
+#[test]
+fn no_report_skips_charts_and_report_only() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    let text = std::fs::read_to_string(&data).unwrap();
+    let mut lines = text.lines();
+    let header = lines.next().unwrap();
+    let first = text
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .next()
+        .unwrap()
+        .to_string();
+    let keep: Vec<&str> = lines.filter(|l| l.starts_with(&first)).collect();
+    std::fs::write(
+        dir.path().join("one.csv"),
+        format!("{header}\n{}\n", keep.join("\n")),
+    )
+    .unwrap();
+    let o = provisio(
+        dir.path(),
+        &["forecast", "one.csv", "--out", "out", "--no-report"],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let out = dir.path().join("out");
+    assert!(out.join("forecast.csv").is_file());
+    assert!(out.join("manifest.json").is_file());
+    assert!(!out.join("report.html").exists());
+    assert!(!out.join("charts").exists());
+    // The report can be built afterwards from the folder alone.
+    let o = provisio(dir.path(), &["report", "out"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(out.join("report.html").is_file());
+}

@@ -71,6 +71,9 @@ pub struct ForecastArgs {
     /// Use only rows dated up to this month (YYYY-MM), as if forecasting then; for `review` later.
     #[arg(long, value_name = "YYYY-MM", value_parser = parse_month)]
     until: Option<YearMonth>,
+    /// Skip the charts and report.html (for thousands of products; `provisio report DIR` builds them later).
+    #[arg(long)]
+    no_report: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -325,7 +328,11 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a.out.join("manifest.json"), &manifest)?;
-    let report = provisio::report::write_report(&a.out)?;
+    let report = if a.no_report {
+        None
+    } else {
+        Some(provisio::report::write_report(&a.out)?)
+    };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     println!(
@@ -335,10 +342,16 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         secs,
         a.out.display()
     );
-    println!(
-        "wrote report.html and {} chart files (charts/)",
-        report.charts.len()
-    );
+    match report {
+        Some(r) => println!(
+            "wrote report.html and {} chart files (charts/)",
+            r.charts.len()
+        ),
+        None => println!(
+            "no charts or report.html (--no-report); `provisio report {}` builds them",
+            a.out.display()
+        ),
+    }
     println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
 }
