@@ -551,3 +551,40 @@ fn product_names_are_escaped_on_the_review_page() {
     assert_eq!(rows[0]["product"], name, "CSV keeps the name as it is");
     assert_eq!(rows[0]["months_with_actuals"], "6");
 }
+
+#[test]
+fn actuals_are_read_with_the_past_runs_number_format() {
+    // A file written with a decimal comma (one invented product, 48 months):
+    // forecast from the first 36 with `--numbers decimal-comma`, then
+    // review against all 48 — the review must read the actuals the same way.
+    let w = Workdir::new();
+    let mut csv = String::from("product;month;consumed\n");
+    for t in 0..48 {
+        let v = 1000.0 + 150.0 * ((t % 12) as f64 / 2.0).sin() + 3.0 * t as f64;
+        csv.push_str(&format!(
+            "Test;{}-{:02};{}\n",
+            2022 + t / 12,
+            t % 12 + 1,
+            format!("{v:.1}").replace('.', ",")
+        ));
+    }
+    std::fs::write(w.path("comma.csv"), csv).unwrap();
+    let o = w.run(&[
+        "forecast",
+        "comma.csv",
+        "--out",
+        "past",
+        "--until",
+        "2024-12",
+        "--numbers",
+        "decimal-comma",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["review", "past", "--actuals", "comma.csv", "--out", "rev"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let rows = w.read_csv("rev/review.csv");
+    assert_eq!(rows.len(), 1);
+    let months: usize = rows[0]["months_with_actuals"].parse().unwrap();
+    assert_eq!(months, 12, "{:?}", rows[0]);
+}

@@ -98,8 +98,8 @@ impl ReviewSettings {
     }
 }
 
-/// Reads and cleans the actuals with a past run's duplicate handling and
-/// cleaning settings.
+/// Reads and cleans the actuals with a past run's read rules (duplicates,
+/// number format, encoding) and cleaning settings.
 pub fn clean_actuals(
     source: &str,
     bytes: &[u8],
@@ -107,6 +107,8 @@ pub fn clean_actuals(
 ) -> Result<(Dataset, Cleaned)> {
     let options = ReadOptions {
         duplicates: manifest.duplicate_policy(),
+        numbers: manifest.number_format(),
+        encoding: manifest.text_encoding(),
         ..ReadOptions::default()
     };
     let ds = crate::data::read_csv_bytes(source, bytes, &options)?;

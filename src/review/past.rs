@@ -40,9 +40,33 @@ pub struct PastManifest {
     pub exclude_imputed: bool,
     /// The `--until` month of the past run, if one was given.
     pub until: Option<String>,
+    /// How the past run read numbers (`--numbers`); `plain` when the
+    /// manifest predates the option.
+    pub numbers: String,
+    /// Text encoding the past run read (`--encoding`); `utf-8` when the
+    /// manifest predates the option.
+    pub encoding: String,
 }
 
 impl PastManifest {
+    /// The number format as the reader takes it.
+    pub fn number_format(&self) -> crate::data::NumberFormat {
+        use crate::data::NumberFormat as N;
+        [N::Plain, N::Grouped, N::DecimalComma]
+            .into_iter()
+            .find(|f| f.name() == self.numbers)
+            .unwrap_or_default()
+    }
+
+    /// The text encoding as the reader takes it.
+    pub fn text_encoding(&self) -> crate::data::Encoding {
+        use crate::data::Encoding as E;
+        [E::Utf8, E::Latin1, E::Windows1252]
+            .into_iter()
+            .find(|e| e.name() == self.encoding)
+            .unwrap_or_default()
+    }
+
     /// The duplicate policy as the reader takes it.
     pub fn duplicate_policy(&self) -> DuplicatePolicy {
         if self.duplicates == "sum" {
@@ -304,7 +328,28 @@ fn read_manifest(path: &Path) -> Result<PastManifest> {
                 "no 'forecast_settings.backtest.exclude_imputed' in the manifest; {rerun}"
             ))
         })?;
+    // Read rules of the past run; manifests written before the options
+    // existed read plain numbers in UTF-8.
+    let optional = |key: &str, default: &str, valid: &[&str]| -> Result<String> {
+        let value = v
+            .get(key)
+            .and_then(|x| x.as_str())
+            .unwrap_or(default)
+            .to_string();
+        if valid.contains(&value.as_str()) {
+            Ok(value)
+        } else {
+            Err(err(format!(
+                "'{key}' is '{value}'; valid: {}",
+                valid.join(", ")
+            )))
+        }
+    };
+    let numbers = optional("numbers", "plain", &["plain", "grouped", "decimal-comma"])?;
+    let encoding = optional("encoding", "utf-8", &["utf-8", "latin1", "windows-1252"])?;
     Ok(PastManifest {
+        numbers,
+        encoding,
         tool: text_field("tool")?,
         format_version: version as u32,
         input: text_field("input")?,
