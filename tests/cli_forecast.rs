@@ -258,25 +258,8 @@ fn evaluate_compares_selection_with_every_single_model() {
 #[test]
 fn backtest_detail_all_writes_every_complete_model() {
     let dir = tempfile::tempdir().unwrap();
-    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
     // One product keeps the run short; every origin of every complete model.
-    let text = std::fs::read_to_string(&data).unwrap();
-    let mut lines = text.lines();
-    let header = lines.next().unwrap();
-    let products: BTreeSet<&str> = text
-        .lines()
-        .skip(1)
-        .filter_map(|l| l.split(',').next())
-        .take(1)
-        .collect();
-    let keep: Vec<&str> = lines
-        .filter(|l| products.iter().any(|p| l.starts_with(p)))
-        .collect();
-    std::fs::write(
-        dir.path().join("one.csv"),
-        format!("{header}\n{}\n", keep.join("\n")),
-    )
-    .unwrap();
+    write_one_demo_product(&dir.path().join("one.csv"));
     let o = provisio(
         dir.path(),
         &[
@@ -300,24 +283,7 @@ fn backtest_detail_all_writes_every_complete_model() {
 #[test]
 fn no_report_skips_charts_and_report_only() {
     let dir = tempfile::tempdir().unwrap();
-    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let text = std::fs::read_to_string(&data).unwrap();
-    let mut lines = text.lines();
-    let header = lines.next().unwrap();
-    let first = text
-        .lines()
-        .nth(1)
-        .unwrap()
-        .split(',')
-        .next()
-        .unwrap()
-        .to_string();
-    let keep: Vec<&str> = lines.filter(|l| l.starts_with(&first)).collect();
-    std::fs::write(
-        dir.path().join("one.csv"),
-        format!("{header}\n{}\n", keep.join("\n")),
-    )
-    .unwrap();
+    write_one_demo_product(&dir.path().join("one.csv"));
     let o = provisio(
         dir.path(),
         &["forecast", "one.csv", "--out", "out", "--no-report"],
@@ -332,4 +298,18 @@ fn no_report_skips_charts_and_report_only() {
     let o = provisio(dir.path(), &["report", "out"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(out.join("report.html").is_file());
+}
+
+/// Writes the demo rows of its first product (an invented scenario) to
+/// `path`: a small input for tests that need one whole series.
+fn write_one_demo_product(path: &Path) {
+    let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
+    let text = std::fs::read_to_string(data).unwrap();
+    let mut lines = text.lines();
+    let header = lines.next().unwrap();
+    let first = text.lines().nth(1).unwrap().split(',').next().unwrap();
+    let keep: Vec<&str> = lines
+        .filter(|l| l.split(',').next() == Some(first))
+        .collect();
+    std::fs::write(path, format!("{header}\n{}\n", keep.join("\n"))).unwrap();
 }
