@@ -329,8 +329,9 @@ fn draw_legend<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Cuts a label to `n` characters with an ellipsis.
-fn cut(s: &str, n: usize) -> String {
+/// Cuts a label to `n` characters with an ellipsis, control characters
+/// shown as spaces (chart labels and terminal table cells).
+pub fn cut(s: &str, n: usize) -> String {
     let clean: String = s
         .chars()
         .map(|c| if c.is_control() { ' ' } else { c })

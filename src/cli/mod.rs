@@ -315,17 +315,7 @@ fn write_clean_outputs(
 /// Text for a terminal table cell: control characters shown as spaces,
 /// cut to `n` characters with an ellipsis.
 fn truncate(s: &str, n: usize) -> String {
-    let clean: String = s
-        .chars()
-        .map(|c| if c.is_control() { ' ' } else { c })
-        .collect();
-    if clean.chars().count() <= n {
-        clean
-    } else {
-        let mut out: String = clean.chars().take(n.saturating_sub(1)).collect();
-        out.push('…');
-        out
-    }
+    provisio::chart::cut(s, n)
 }
 
 /// Pads text with spaces to `n` characters.
