@@ -120,7 +120,7 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &ProductChart) -> 
 
 /// Month axis: x is months after `base`; bold ticks at each January (and
 /// July on short spans), light lines at each quarter.
-fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
+pub(super) fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
     let span = last - first;
     let mut bold = Vec::new();
     let mut light = Vec::new();
@@ -143,7 +143,7 @@ fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
 
 /// A chart of quantities (0 to `ymax`) over the months `base` to
 /// `base + last`, with its grid and labelled axes drawn.
-fn month_chart<'a, DB: DrawingBackend>(
+pub(super) fn month_chart<'a, DB: DrawingBackend>(
     area: &'a DrawingArea<DB, Shift>,
     base: YearMonth,
     last: i64,
@@ -176,7 +176,7 @@ fn month_chart<'a, DB: DrawingBackend>(
     Ok(chart)
 }
 
-fn nice_top(v: f64) -> f64 {
+pub(super) fn nice_top(v: f64) -> f64 {
     if v.is_finite() && v > 0.0 {
         v * 1.06
     } else {

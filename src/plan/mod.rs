@@ -30,10 +30,10 @@
 //! until then, so with a flat forecast this is the max–min quantity
 //! `maximum − (stock on hand + stock on order)` of the Handbook, less the
 //! lead-time consumption; with the maximum set to review period + safety
-//! months it equals the WHO formula `AMC × (lead time + procurement period)
-//! + safety stock − (stock on hand + stock on order)` (WHO, *Operational
-//! Guide for National TB Control Programmes on the Introduction and Use of
-//! FDC Drugs*, 2002, Annex 5).
+//! months it equals the WHO formula
+//! `AMC × (lead time + procurement period) + safety stock − (on hand + on
+//! order)` (WHO, *Operational Guide for National TB Control Programmes on
+//! the Introduction and Use of FDC Drugs*, 2002, Annex 5).
 //!
 //! **Safety stock from the forecast range** ([`Safety::Upper`]): instead of
 //! fixed months, the minimum is the safety stock
@@ -541,4 +541,80 @@ pub fn plan_series(
         ignored_arrivals: ignored,
         skipped_forecast_months: skip,
     })
+}
+
+/// A planned series with what it was planned from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlannedSeries {
+    /// Product.
+    pub product: String,
+    /// Site, when planned per site.
+    pub site: Option<String>,
+    /// Its policy (the stock file row).
+    pub policy: Policy,
+    /// The plan.
+    pub plan: SeriesPlan,
+}
+
+/// An entry of the plan's log: a row or series not used as given.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LogEntry {
+    /// File the row came from (empty for the forecast's own series).
+    pub file: String,
+    /// Line in that file, when a row is involved.
+    pub line: Option<u64>,
+    /// Product.
+    pub product: String,
+    /// Site, when given.
+    pub site: Option<String>,
+    /// What was done: `not planned`, `ignored`, `note`.
+    pub action: &'static str,
+    /// Why, in plain words.
+    pub reason: String,
+}
+
+/// Order totals of one series and calendar year of ordering.
+#[derive(Debug, Clone, PartialEq)]
+pub struct YearTotal {
+    /// Calendar year of the order month; `None` for all years.
+    pub year: Option<i32>,
+    /// Orders.
+    pub orders: usize,
+    /// Quantity, base units.
+    pub quantity: f64,
+    /// Packs.
+    pub packs: u64,
+    /// Cost.
+    pub cost: f64,
+}
+
+/// Totals of a series' orders per calendar year of ordering, then for all years.
+pub fn year_totals(orders: &[Order]) -> Vec<YearTotal> {
+    let mut by_year: std::collections::BTreeMap<i32, YearTotal> = Default::default();
+    let mut all = YearTotal {
+        year: None,
+        orders: 0,
+        quantity: 0.0,
+        packs: 0,
+        cost: 0.0,
+    };
+    for o in orders {
+        let y = o.order_month.year();
+        let t = by_year.entry(y).or_insert(YearTotal {
+            year: Some(y),
+            orders: 0,
+            quantity: 0.0,
+            packs: 0,
+            cost: 0.0,
+        });
+        for t in [t, &mut all] {
+            t.orders += 1;
+            t.quantity += o.quantity;
+            t.packs += o.packs;
+            t.cost += o.cost;
+        }
+    }
+    let mut out: Vec<YearTotal> = by_year.into_values().collect();
+    out.push(all);
+    out
 }

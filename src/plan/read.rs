@@ -354,7 +354,7 @@ pub fn read_stock(file: &str, bytes: &[u8]) -> Result<(Vec<StockRow>, Vec<String
         let line = *line;
         let product = sheet.text(line, row, "product")?;
         let site = sheet.optional_text(row, "site");
-        let nonneg = |x: f64| x >= 0.0 && x <= 1e15;
+        let nonneg = |x: f64| (0.0..=1e15).contains(&x);
         let stock_on_hand = sheet.required_number(
             line,
             row,

@@ -1,0 +1,498 @@
+//! The supply plan section of the report: read back from `plan.csv`,
+//! `orders.csv` and `plan.json` when `provisio plan` has written them into
+//! the forecast's folder, so `provisio report DIR` keeps the section.
+
+use std::collections::BTreeMap;
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use crate::calendar::YearMonth;
+use crate::chart::{self, StockChart, StockMonth};
+use crate::error::{Error, Result};
+use crate::plan::read::SeriesKey;
+
+use super::html::{escape, Cell, Kind, Table};
+
+/// One month of `plan.csv` as read back.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanRow {
+    /// Month.
+    pub month: YearMonth,
+    /// Opening stock.
+    pub opening: f64,
+    /// Forecast consumption.
+    pub consumption: f64,
+    /// Arrivals on order.
+    pub on_order: f64,
+    /// Arrivals of proposed orders.
+    pub planned: f64,
+    /// Closing stock.
+    pub closing: f64,
+    /// Quantity short.
+    pub short: f64,
+    /// AMC.
+    pub amc: f64,
+    /// Months of stock.
+    pub months_of_stock: Option<f64>,
+    /// Minimum months.
+    pub min_months: f64,
+    /// Maximum months.
+    pub max_months: f64,
+    /// Emergency months.
+    pub emergency_months: Option<f64>,
+    /// Flags, space-separated ("ok" when none).
+    pub flag: String,
+}
+
+/// One row of `orders.csv` as read back.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OrderRow {
+    /// Order month.
+    pub order_month: YearMonth,
+    /// Arrival month.
+    pub arrival_month: YearMonth,
+    /// Last month covered.
+    pub covers_to: String,
+    /// Quantity.
+    pub quantity: f64,
+    /// Packs.
+    pub packs: f64,
+    /// Cost.
+    pub cost: f64,
+}
+
+/// A series' plan as read back.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct PlanSeries {
+    /// Months.
+    pub months: Vec<PlanRow>,
+    /// Orders.
+    pub orders: Vec<OrderRow>,
+}
+
+/// The plan files read back.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanRead {
+    /// `plan.json`, when present.
+    pub run: serde_json::Value,
+    /// Per series, in file order of `plan.csv`.
+    pub series: Vec<(SeriesKey, PlanSeries)>,
+}
+
+/// A CSV file's name and its rows (line, column → value).
+type Rows = (String, Vec<(u64, BTreeMap<String, String>)>);
+
+fn csv_rows(path: &Path) -> Result<Option<Rows>> {
+    if !path.exists() {
+        return Ok(None);
+    }
+    let file = path.display().to_string();
+    let bad = |line: u64, e: csv::Error| Error::Input {
+        file: file.clone(),
+        line,
+        column: None,
+        message: format!("cannot read this CSV file: {e}"),
+    };
+    let mut r = csv::Reader::from_path(path).map_err(|e| bad(0, e))?;
+    let header: Vec<String> = r
+        .headers()
+        .map_err(|e| bad(1, e))?
+        .iter()
+        .map(str::to_string)
+        .collect();
+    let mut rows = Vec::new();
+    for rec in r.records() {
+        let rec = rec.map_err(|e| bad(e.position().map(|p| p.line()).unwrap_or(0), e))?;
+        let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        rows.push((
+            line,
+            header
+                .iter()
+                .cloned()
+                .zip(rec.iter().map(str::to_string))
+                .collect(),
+        ));
+    }
+    Ok(Some((file, rows)))
+}
+
+fn field<'a>(
+    file: &str,
+    line: u64,
+    row: &'a BTreeMap<String, String>,
+    col: &str,
+) -> Result<&'a str> {
+    row.get(col)
+        .map(String::as_str)
+        .ok_or_else(|| Error::Input {
+            file: file.to_string(),
+            line,
+            column: Some(col.to_string()),
+            message: "missing column; rewrite the plan with `provisio plan`".into(),
+        })
+}
+
+fn num(file: &str, line: u64, row: &BTreeMap<String, String>, col: &str) -> Result<Option<f64>> {
+    let v = field(file, line, row, col)?.trim();
+    if v.is_empty() {
+        return Ok(None);
+    }
+    v.parse::<f64>()
+        .ok()
+        .filter(|x| x.is_finite())
+        .map(Some)
+        .ok_or_else(|| Error::Input {
+            file: file.to_string(),
+            line,
+            column: Some(col.to_string()),
+            message: format!("'{v}' is not a number"),
+        })
+}
+
+fn month(file: &str, line: u64, row: &BTreeMap<String, String>, col: &str) -> Result<YearMonth> {
+    let v = field(file, line, row, col)?;
+    YearMonth::parse(v).map_err(|m| Error::Input {
+        file: file.to_string(),
+        line,
+        column: Some(col.to_string()),
+        message: m,
+    })
+}
+
+fn key(row: &BTreeMap<String, String>) -> SeriesKey {
+    let site = row.get("site").filter(|s| !s.is_empty()).cloned();
+    (row.get("product").cloned().unwrap_or_default(), site)
+}
+
+/// Reads the plan files of `dir`; `None` when it has no `plan.csv`.
+pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
+    let Some((file, rows)) = csv_rows(&dir.join("plan.csv"))? else {
+        return Ok(None);
+    };
+    let mut series: Vec<(SeriesKey, PlanSeries)> = Vec::new();
+    let mut index: BTreeMap<SeriesKey, usize> = BTreeMap::new();
+    for (line, r) in &rows {
+        let f = &file;
+        let z = |c: &str| num(f, *line, r, c).map(|v| v.unwrap_or(0.0));
+        let row = PlanRow {
+            month: month(f, *line, r, "month")?,
+            opening: z("opening")?,
+            consumption: z("consumption")?,
+            on_order: z("arrivals_on_order")?,
+            planned: z("arrivals_planned")?,
+            closing: z("closing")?,
+            short: z("short")?,
+            amc: z("amc")?,
+            months_of_stock: num(f, *line, r, "months_of_stock")?,
+            min_months: z("min_months")?,
+            max_months: z("max_months")?,
+            emergency_months: num(f, *line, r, "emergency_months")?,
+            flag: field(f, *line, r, "flag")?.to_string(),
+        };
+        let k = key(r);
+        let i = *index.entry(k.clone()).or_insert_with(|| {
+            series.push((k, PlanSeries::default()));
+            series.len() - 1
+        });
+        series[i].1.months.push(row);
+    }
+    if let Some((file, rows)) = csv_rows(&dir.join("orders.csv"))? {
+        for (line, r) in &rows {
+            let f = &file;
+            let Some(&i) = index.get(&key(r)) else {
+                continue;
+            };
+            let z = |c: &str| num(f, *line, r, c).map(|v| v.unwrap_or(0.0));
+            series[i].1.orders.push(OrderRow {
+                order_month: month(f, *line, r, "order_month")?,
+                arrival_month: month(f, *line, r, "arrival_month")?,
+                covers_to: field(f, *line, r, "covers_to")?.to_string(),
+                quantity: z("quantity")?,
+                packs: z("packs")?,
+                cost: z("cost")?,
+            });
+        }
+    }
+    let run = std::fs::read(dir.join("plan.json"))
+        .ok()
+        .and_then(|b| serde_json::from_slice(&b).ok())
+        .unwrap_or(serde_json::Value::Null);
+    Ok(Some(PlanRead { run, series }))
+}
+
+/// Title of a series: the product, and its site.
+pub fn series_title(k: &SeriesKey) -> String {
+    match &k.1 {
+        Some(s) => format!("{} — {s}", k.0),
+        None => k.0.clone(),
+    }
+}
+
+/// File stem of a series' stock chart (`plan-` + the usual product stem).
+pub fn series_stem(k: &SeriesKey) -> String {
+    let name = match &k.1 {
+        Some(s) => format!("{}\u{1f}{s}", k.0),
+        None => k.0.clone(),
+    };
+    format!("plan-{}", chart::file_stem(&name))
+}
+
+/// The stock chart of a series, from its rows.
+pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
+    let first = s.months.first();
+    let count_month = first
+        .map(|m| m.month.plus(-1))
+        .unwrap_or(YearMonth::known(2000, 1));
+    let stock_on_hand = first.map(|m| m.opening).unwrap_or(0.0);
+    let short: f64 = s.months.iter().map(|m| m.short).sum();
+    let total: f64 = s.orders.iter().map(|o| o.quantity).sum();
+    let mut subtitle = format!(
+        "stock on hand {} at the end of {}",
+        chart::fmt_quantity(stock_on_hand),
+        chart::month_label(count_month)
+    );
+    if let Some(m) = first {
+        let _ = write!(
+            subtitle,
+            " · min {} / max {} months of AMC",
+            m.min_months, m.max_months
+        );
+    }
+    let _ = write!(
+        subtitle,
+        " · {} proposed order(s), {} units",
+        s.orders.len(),
+        chart::fmt_quantity(total)
+    );
+    if short > 0.0 {
+        let _ = write!(subtitle, " · short {}", chart::fmt_quantity(short));
+    }
+    StockChart {
+        title: series_title(k),
+        subtitle,
+        stock_on_hand,
+        count_month,
+        months: s
+            .months
+            .iter()
+            .map(|m| StockMonth {
+                month: m.month,
+                closing: m.closing,
+                short: m.short,
+                stockout: m.flag.split(' ').any(|f| f == "stockout"),
+                above_max: m.flag.split(' ').any(|f| f == "above-max"),
+                min_qty: m.min_months * m.amc,
+                max_qty: m.max_months * m.amc,
+                emergency_qty: m.emergency_months.map(|e| e * m.amc),
+                on_order: m.on_order,
+                planned: m.planned,
+                order_placed: s.orders.iter().any(|o| o.order_month == m.month),
+            })
+            .collect(),
+    }
+}
+
+/// Draws every series' stock chart (PNG and SVG) into `charts_dir`;
+/// returns the SVGs (same order as the series) and the files written.
+pub fn draw_charts(plan: &PlanRead, charts_dir: &Path) -> Result<(Vec<String>, Vec<PathBuf>)> {
+    let mut svgs = Vec::new();
+    let mut files = Vec::new();
+    for (k, s) in &plan.series {
+        let c = stock_chart(k, s);
+        let stem = series_stem(k);
+        let svg = chart::stock_svg(&c)?;
+        let svg_path = charts_dir.join(format!("{stem}.svg"));
+        crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
+        let png_path = charts_dir.join(format!("{stem}.png"));
+        chart::stock_png(&png_path, &c)?;
+        files.push(png_path);
+        files.push(svg_path);
+        svgs.push(svg);
+    }
+    Ok((svgs, files))
+}
+
+fn q(v: f64) -> String {
+    chart::fmt_quantity(v)
+}
+
+fn span(months: &[YearMonth]) -> String {
+    match (months.first(), months.last()) {
+        (Some(a), Some(z)) if a == z => a.to_string(),
+        (Some(a), Some(z)) => format!("{a} to {z}"),
+        _ => String::new(),
+    }
+}
+
+/// The HTML of the supply plan section (without its heading).
+pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
+    let mut b = String::new();
+    let j = |path: &[&str]| {
+        let mut cur = &plan.run;
+        for k in path {
+            cur = match cur.get(k) {
+                Some(x) => x,
+                None => return String::new(),
+            };
+        }
+        match cur {
+            serde_json::Value::String(s) => s.clone(),
+            serde_json::Value::Null => String::new(),
+            v => v.to_string(),
+        }
+    };
+    b.push_str("<div class=\"caution\" role=\"note\"><strong>Caution.</strong> Proposed orders are decision support computed from a forecast and a stock file: review quantities, dates and costs with the responsible programme staff before ordering; national guidelines and local regulations take precedence.</div>\n");
+    let facts = [
+        ("Stock file", j(&["stock_file"])),
+        ("Stock file SHA-256", j(&["stock_sha256"])),
+        ("Shipments on order", j(&["on_order_file"])),
+        ("Stock balance", j(&["rules", "balance"])),
+        ("AMC", j(&["rules", "amc"])),
+        ("Ordering rule", j(&["rules", "orders"])),
+        ("Series", j(&["rules", "series"])),
+    ];
+    b.push_str("<dl class=\"facts\">");
+    for (k, v) in facts.iter().filter(|(_, v)| !v.is_empty()) {
+        let _ = write!(b, "<dt>{}</dt><dd>{}</dd>", escape(k), escape(v));
+    }
+    b.push_str("</dl>\n");
+    if let Some(w) = plan.run.get("warnings").and_then(|w| w.as_array()) {
+        if !w.is_empty() {
+            b.push_str("<h3>Warnings about the plan</h3><ul class=\"warn\">");
+            for x in w.iter().filter_map(|x| x.as_str()) {
+                let _ = write!(b, "<li>{}</li>", escape(x));
+            }
+            b.push_str("</ul>\n<p class=\"note\">Each is also a row of plan_log.csv.</p>\n");
+        }
+    }
+    let mut t = Table::new(
+        &[
+            ("product", Kind::Text),
+            ("site", Kind::Text),
+            ("stock on hand", Kind::Num),
+            ("months of stock at start", Kind::Num),
+            ("stockout months", Kind::Text),
+            ("quantity short", Kind::Num),
+            ("months above max", Kind::Num),
+            ("months at expiry risk", Kind::Num),
+            ("orders", Kind::Num),
+            ("quantity ordered", Kind::Num),
+            ("cost", Kind::Num),
+        ],
+        true,
+    );
+    for (k, s) in &plan.series {
+        let has = |f: &'static str| {
+            s.months
+                .iter()
+                .filter(move |m| m.flag.split(' ').any(|x| x == f))
+        };
+        let out: Vec<YearMonth> = has("stockout").map(|m| m.month).collect();
+        let first = s.months.first();
+        let mos0 = first.and_then(|m| (m.amc > 0.0).then(|| m.opening / m.amc));
+        t.row(
+            (!out.is_empty()).then_some("chosen"),
+            vec![
+                Cell::html(
+                    format!("<a href=\"#{}\">{}</a>", series_stem(k), escape(&k.0)),
+                    &k.0,
+                ),
+                Cell::text(k.1.as_deref().unwrap_or("")),
+                Cell::num(first.map(|m| m.opening), q),
+                Cell::num(mos0, |v| format!("{v:.1}")),
+                Cell::text(&if out.is_empty() {
+                    "none".to_string()
+                } else {
+                    format!("{} ({})", out.len(), span(&out))
+                }),
+                Cell::num(Some(s.months.iter().map(|m| m.short).sum()), q),
+                Cell::num(Some(has("above-max").count() as f64), |v| format!("{v:.0}")),
+                Cell::num(Some(has("expiry-risk").count() as f64), |v| {
+                    format!("{v:.0}")
+                }),
+                Cell::num(Some(s.orders.len() as f64), |v| format!("{v:.0}")),
+                Cell::num(Some(s.orders.iter().map(|o| o.quantity).sum()), q),
+                Cell::num(Some(s.orders.iter().map(|o| o.cost).sum()), q),
+            ],
+        );
+    }
+    b.push_str("<p class=\"note\">One row per planned series; rows with a projected stockout are highlighted. Months of stock at start: stock on hand ÷ the AMC of the first projected month.</p>\n");
+    b.push_str(&t.html());
+    for ((k, s), svg) in plan.series.iter().zip(svgs) {
+        let stem = series_stem(k);
+        let _ = writeln!(
+            b,
+            "<section class=\"product\" id=\"{stem}\"><h2>Stock plan: {}</h2>",
+            escape(&series_title(k))
+        );
+        let _ = writeln!(
+            b,
+            "<figure class=\"chart\" role=\"img\" aria-label=\"Stock chart of {}\">{svg}<figcaption>Projected closing stock in base units, the min–max band (min and max months × AMC), arrivals, and projected stockout months. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
+            escape(&series_title(k))
+        );
+        if s.orders.is_empty() {
+            b.push_str("<p class=\"note\">No order proposed over the horizon.</p>\n");
+        } else {
+            let mut o = Table::new(
+                &[
+                    ("order month", Kind::Text),
+                    ("arrival month", Kind::Text),
+                    ("covers to", Kind::Text),
+                    ("quantity", Kind::Num),
+                    ("packs", Kind::Num),
+                    ("cost", Kind::Num),
+                ],
+                false,
+            );
+            for r in &s.orders {
+                o.row(
+                    None,
+                    vec![
+                        Cell::text(&r.order_month.to_string()),
+                        Cell::text(&r.arrival_month.to_string()),
+                        Cell::text(&r.covers_to),
+                        Cell::num(Some(r.quantity), q),
+                        Cell::num(Some(r.packs), |v| format!("{v:.0}")),
+                        Cell::num(Some(r.cost), q),
+                    ],
+                );
+            }
+            b.push_str("<h3>Proposed orders</h3>\n");
+            b.push_str(&o.html());
+        }
+        let mut m = Table::new(
+            &[
+                ("month", Kind::Text),
+                ("opening", Kind::Num),
+                ("consumption", Kind::Num),
+                ("arrivals", Kind::Num),
+                ("closing", Kind::Num),
+                ("short", Kind::Num),
+                ("AMC", Kind::Num),
+                ("months of stock", Kind::Num),
+                ("flag", Kind::Text),
+            ],
+            false,
+        );
+        for r in &s.months {
+            m.row(
+                None,
+                vec![
+                    Cell::text(&r.month.to_string()),
+                    Cell::num(Some(r.opening), q),
+                    Cell::num(Some(r.consumption), q),
+                    Cell::num(Some(r.on_order + r.planned), q),
+                    Cell::num(Some(r.closing), q),
+                    Cell::num(Some(r.short), q),
+                    Cell::num(Some(r.amc), q),
+                    Cell::num(r.months_of_stock, |v| format!("{v:.1}")),
+                    Cell::text(&r.flag),
+                ],
+            );
+        }
+        b.push_str("<details><summary>Month by month</summary>\n");
+        b.push_str(&m.html());
+        b.push_str("</details>\n</section>\n");
+    }
+    b
+}
