@@ -94,29 +94,45 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
             action,
             reason,
         };
-        let fc = match forecast.for_key(&r.product, r.site.as_deref()) {
-            Ok(f) => f,
-            Err(why) => {
-                warnings.push(format!("{stock_name}:{}: {who} not planned: {why}", r.line));
-                log.push(entry("not planned", why));
-                continue;
-            }
-        };
         let arrivals: Vec<(u64, plan::Arrival)> = on_order
             .iter()
             .filter(|o| o.product == r.product && o.site == r.site)
             .map(|o| (o.line, o.arrival))
             .collect();
-        let only: Vec<plan::Arrival> = arrivals.iter().map(|a| a.1).collect();
-        match plan::plan_series(&r.policy, &fc, &only, &settings) {
+        let result = forecast
+            .for_key(&r.product, r.site.as_deref())
+            .and_then(|fc| {
+                let only: Vec<plan::Arrival> = arrivals.iter().map(|a| a.1).collect();
+                plan::plan_series(&r.policy, &fc, &only, &settings)
+                    .map(|p| (fc, p))
+                    .map_err(|e| e.0)
+            });
+        match result {
             Err(why) => {
-                warnings.push(format!(
-                    "{stock_name}:{}: {who} not planned: {}",
-                    r.line, why.0
-                ));
-                log.push(entry("not planned", why.0));
+                warnings.push(format!("{stock_name}:{}: {who} not planned: {why}", r.line));
+                log.push(entry("not planned", why));
+                // Its shipments are not used either: say so, line by line.
+                let name = on_order_name.clone().unwrap_or_default();
+                for (line, arr) in &arrivals {
+                    let reason = format!(
+                        "its stock row ({stock_name} line {}) was not planned, so the shipment is not used",
+                        r.line
+                    );
+                    warnings.push(format!(
+                        "{name}:{line}: shipment of {} for {who} ignored: {reason}",
+                        output::fmt_num(arr.quantity)
+                    ));
+                    log.push(LogEntry {
+                        file: name.clone(),
+                        line: Some(*line),
+                        product: r.product.clone(),
+                        site: r.site.clone(),
+                        action: "ignored",
+                        reason,
+                    });
+                }
             }
-            Ok(p) => {
+            Ok((fc, p)) => {
                 if p.skipped_forecast_months > 0 {
                     let why = format!(
                         "the stock count ({}) is later than the forecast start ({}): the {} forecast month(s) up to the count are not used",
@@ -184,6 +200,9 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         }
     }
     if planned.is_empty() {
+        for w in &warnings {
+            eprintln!("warning: {w}");
+        }
         let first = log
             .iter()
             .find(|e| e.action == "not planned")

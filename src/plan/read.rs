@@ -106,11 +106,16 @@ pub const STOCK_COLUMNS: [(&str, bool, &str); 12] = [
 ];
 
 /// The columns of the on-order file.
-pub const ON_ORDER_COLUMNS: [(&str, bool, &str); 4] = [
+pub const ON_ORDER_COLUMNS: [(&str, bool, &str); 5] = [
     ("product", true, "product as in the stock file"),
     ("site", false, "site, as in the stock file"),
     ("quantity", true, "quantity expected, base units (above 0)"),
     ("arrival_month", true, "expected month of arrival, YYYY-MM"),
+    (
+        "reference",
+        false,
+        "order or shipment reference, for you (not used)",
+    ),
 ];
 
 /// A small delimited table held in memory with its header mapped.
@@ -287,11 +292,17 @@ impl Sheet {
         what: &str,
     ) -> Result<Option<f64>> {
         let v = self.get(row, column);
-        let x = parse_number(v, NumberFormat::Plain).map_err(|m| self.err(line, column, m))?;
+        let x = parse_number(v, NumberFormat::Plain).map_err(|_| {
+            self.err(
+                line,
+                column,
+                format!(
+                    "\"{v}\" is not a plain number; write it like 1250 or 1250.5 (a point as decimal mark, no thousands separator); {what}"
+                ),
+            )
+        })?;
         match x {
-            Some(x) if !ok(x) => {
-                Err(self.err(line, column, format!("{v} is out of range; {what}")))
-            }
+            Some(x) if !ok(x) => Err(self.err(line, column, format!("{v} is not valid; {what}"))),
             x => Ok(x),
         }
     }

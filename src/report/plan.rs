@@ -365,22 +365,23 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
             b.push_str("</ul>\n<p class=\"note\">Each is also a row of plan_log.csv.</p>\n");
         }
     }
-    let mut t = Table::new(
-        &[
-            ("product", Kind::Text),
-            ("site", Kind::Text),
-            ("stock on hand", Kind::Num),
-            ("months of stock at start", Kind::Num),
-            ("stockout months", Kind::Text),
-            ("quantity short", Kind::Num),
-            ("months above max", Kind::Num),
-            ("months at expiry risk", Kind::Num),
-            ("orders", Kind::Num),
-            ("quantity ordered", Kind::Num),
-            ("cost", Kind::Num),
-        ],
-        true,
-    );
+    let sites = plan.series.iter().any(|(k, _)| k.1.is_some());
+    let mut columns = vec![("product", Kind::Text)];
+    if sites {
+        columns.push(("site", Kind::Text));
+    }
+    columns.extend([
+        ("stock on hand", Kind::Num),
+        ("months of stock at start", Kind::Num),
+        ("stockout months", Kind::Text),
+        ("quantity short", Kind::Num),
+        ("months above max", Kind::Num),
+        ("months at expiry risk", Kind::Num),
+        ("orders", Kind::Num),
+        ("quantity ordered", Kind::Num),
+        ("cost", Kind::Num),
+    ]);
+    let mut t = Table::new(&columns, true);
     for (k, s) in &plan.series {
         let has = |f: &'static str| {
             s.months
@@ -390,31 +391,38 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
         let out: Vec<YearMonth> = has("stockout").map(|m| m.month).collect();
         let first = s.months.first();
         let mos0 = first.and_then(|m| (m.amc > 0.0).then(|| m.opening / m.amc));
-        t.row(
-            (!out.is_empty()).then_some("chosen"),
-            vec![
+        let mut cells = vec![Cell::html(
+            format!("<a href=\"#{}\">{}</a>", series_stem(k), escape(&k.0)),
+            &k.0,
+        )];
+        if sites {
+            cells.push(Cell::text(k.1.as_deref().unwrap_or("")));
+        }
+        cells.extend([
+            Cell::num(first.map(|m| m.opening), q),
+            Cell::num(mos0, |v| format!("{v:.1}")),
+            if out.is_empty() {
+                Cell::text("none")
+            } else {
                 Cell::html(
-                    format!("<a href=\"#{}\">{}</a>", series_stem(k), escape(&k.0)),
-                    &k.0,
-                ),
-                Cell::text(k.1.as_deref().unwrap_or("")),
-                Cell::num(first.map(|m| m.opening), q),
-                Cell::num(mos0, |v| format!("{v:.1}")),
-                Cell::text(&if out.is_empty() {
-                    "none".to_string()
-                } else {
-                    format!("{} ({})", out.len(), span(&out))
-                }),
-                Cell::num(Some(s.months.iter().map(|m| m.short).sum()), q),
-                Cell::num(Some(has("above-max").count() as f64), |v| format!("{v:.0}")),
-                Cell::num(Some(has("expiry-risk").count() as f64), |v| {
-                    format!("{v:.0}")
-                }),
-                Cell::num(Some(s.orders.len() as f64), |v| format!("{v:.0}")),
-                Cell::num(Some(s.orders.iter().map(|o| o.quantity).sum()), q),
-                Cell::num(Some(s.orders.iter().map(|o| o.cost).sum()), q),
-            ],
-        );
+                    format!(
+                        "<span class=\"pill bad\">stockout</span> {} month(s): {}",
+                        out.len(),
+                        escape(&span(&out))
+                    ),
+                    &span(&out),
+                )
+            },
+            Cell::num(Some(s.months.iter().map(|m| m.short).sum()), q),
+            Cell::num(Some(has("above-max").count() as f64), |v| format!("{v:.0}")),
+            Cell::num(Some(has("expiry-risk").count() as f64), |v| {
+                format!("{v:.0}")
+            }),
+            Cell::num(Some(s.orders.len() as f64), |v| format!("{v:.0}")),
+            Cell::num(Some(s.orders.iter().map(|o| o.quantity).sum()), q),
+            Cell::num(Some(s.orders.iter().map(|o| o.cost).sum()), q),
+        ]);
+        t.row((!out.is_empty()).then_some("chosen"), cells);
     }
     b.push_str("<p class=\"note\">One row per planned series; rows with a projected stockout are highlighted. Months of stock at start: stock on hand ÷ the AMC of the first projected month.</p>\n");
     b.push_str(&t.html());
