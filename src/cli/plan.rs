@@ -299,7 +299,7 @@ fn print_summary(planned: &[PlannedSeries]) {
         .clamp(7, 40);
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     println!(
-        "{}  {:>9} {:>6}  {:<17} {:>9} {:>5} {:>6} {:>10} {:>12}",
+        "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
         cut("product"),
         "on hand",
         "MOS",
@@ -315,7 +315,7 @@ fn print_summary(planned: &[PlannedSeries]) {
         let out: Vec<_> = s.plan.stockout_months().map(|m| m.month).collect();
         let stockout = match (out.first(), out.last()) {
             (Some(a), Some(z)) if a == z => a.to_string(),
-            (Some(a), Some(z)) => format!("{a}..{z}"),
+            (Some(a), Some(z)) => format!("{} ({a}..{z})", out.len()),
             _ => "none".into(),
         };
         let mos0 = m
@@ -328,7 +328,7 @@ fn print_summary(planned: &[PlannedSeries]) {
             .filter(|x| x.flags.contains(&plan::Flag::AboveMax))
             .count();
         println!(
-            "{}  {:>9} {:>6}  {:<17} {:>9} {:>5} {:>6} {:>10} {:>12}",
+            "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
             cut(&name(s)),
             provisio::chart::fmt_quantity(s.policy.stock_on_hand),
             mos0,

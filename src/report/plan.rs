@@ -267,6 +267,17 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
     if short > 0.0 {
         let _ = write!(subtitle, " · short {}", chart::fmt_quantity(short));
     }
+    let expiry = s
+        .months
+        .iter()
+        .filter(|m| m.flag.split(' ').any(|f| f == "expiry-risk"))
+        .count();
+    if expiry > 0 {
+        let _ = write!(
+            subtitle,
+            " · {expiry} month(s) above shelf life (expiry risk)"
+        );
+    }
     StockChart {
         title: series_title(k),
         subtitle,
