@@ -8,8 +8,8 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::palette::*;
-use super::product::{month_chart, nice_top};
-use super::{cut, draw_legend, render_png, render_svg, Drawn, Glyph, OrMessage, FONT};
+use super::product::{month_chart, nice_top, titled};
+use super::{draw_legend, render_png, render_svg, Drawn, Glyph, OrMessage, FONT};
 use crate::calendar::YearMonth;
 use crate::error::Result;
 
@@ -72,19 +72,7 @@ pub fn stock_png(path: &Path, chart: &StockChart) -> Result<()> {
 
 fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &StockChart) -> Drawn {
     root.fill(&WHITE).msg()?;
-    let (head, plot) = root.split_vertically(104);
-    head.draw(&Text::new(
-        cut(&c.title, 90),
-        (16, 10),
-        (FONT, 27).into_font().color(&INK),
-    ))
-    .msg()?;
-    head.draw(&Text::new(
-        cut(&c.subtitle, 150),
-        (16, 38),
-        (FONT, 16).into_font().color(&MUTED),
-    ))
-    .msg()?;
+    let [head, plot] = titled(root, &c.title, &c.subtitle)?;
     let base = c.count_month;
     let Some(last) = c.months.last().map(|m| m.month) else {
         plot.draw(&Text::new(

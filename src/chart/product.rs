@@ -201,20 +201,31 @@ fn runs(points: impl Iterator<Item = (f64, Option<f64>)>) -> Vec<Vec<(f64, f64)>
     out
 }
 
-fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+/// Splits off the head of a chart (104 pixels) and draws the title and
+/// subtitle in it; returns [head, plot area].
+pub(super) fn titled<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    title: &str,
+    subtitle: &str,
+) -> std::result::Result<[DrawingArea<DB, Shift>; 2], String> {
     let (head, plot) = area.split_vertically(104);
     head.draw(&Text::new(
-        cut(&c.title, 90),
+        cut(title, 90),
         (16, 10),
         (FONT, 27).into_font().color(&INK),
     ))
     .msg()?;
     head.draw(&Text::new(
-        cut(&c.subtitle, 150),
+        cut(subtitle, 150),
         (16, 38),
         (FONT, 16).into_font().color(&MUTED),
     ))
     .msg()?;
+    Ok([head, plot])
+}
+
+fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+    let [head, plot] = titled(area, &c.title, &c.subtitle)?;
 
     let base = c
         .history

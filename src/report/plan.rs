@@ -8,10 +8,11 @@ use std::path::{Path, PathBuf};
 
 use crate::calendar::YearMonth;
 use crate::chart::{self, StockChart, StockMonth};
-use crate::error::{Error, Result};
+use crate::error::Result;
 use crate::plan::read::SeriesKey;
 
-use super::html::{escape, Cell, Kind, Table};
+use super::html::{escape, Cell, Kind, Table as HtmlTable};
+use super::read::{text, Table};
 
 /// One month of `plan.csv` as read back.
 #[derive(Debug, Clone, PartialEq)]
@@ -79,139 +80,88 @@ pub struct PlanRead {
     pub series: Vec<(SeriesKey, PlanSeries)>,
 }
 
-/// A CSV file's name and its rows (line, column → value).
-type Rows = (String, Vec<(u64, BTreeMap<String, String>)>);
-
-fn csv_rows(path: &Path) -> Result<Option<Rows>> {
-    if !path.exists() {
-        return Ok(None);
-    }
-    let file = path.display().to_string();
-    let bad = |line: u64, e: csv::Error| Error::Input {
-        file: file.clone(),
-        line,
-        column: None,
-        message: format!("cannot read this CSV file: {e}"),
-    };
-    let mut r = csv::Reader::from_path(path).map_err(|e| bad(0, e))?;
-    let header: Vec<String> = r
-        .headers()
-        .map_err(|e| bad(1, e))?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let mut rows = Vec::new();
-    for rec in r.records() {
-        let rec = rec.map_err(|e| bad(e.position().map(|p| p.line()).unwrap_or(0), e))?;
-        let line = rec.position().map(|p| p.line()).unwrap_or(0);
-        rows.push((
-            line,
-            header
-                .iter()
-                .cloned()
-                .zip(rec.iter().map(str::to_string))
-                .collect(),
-        ));
-    }
-    Ok(Some((file, rows)))
-}
-
-fn field<'a>(
-    file: &str,
-    line: u64,
-    row: &'a BTreeMap<String, String>,
-    col: &str,
-) -> Result<&'a str> {
-    row.get(col)
-        .map(String::as_str)
-        .ok_or_else(|| Error::Input {
-            file: file.to_string(),
-            line,
-            column: Some(col.to_string()),
-            message: "missing column; rewrite the plan with `provisio plan`".into(),
-        })
-}
-
-fn num(file: &str, line: u64, row: &BTreeMap<String, String>, col: &str) -> Result<Option<f64>> {
-    let v = field(file, line, row, col)?.trim();
-    if v.is_empty() {
-        return Ok(None);
-    }
-    v.parse::<f64>()
-        .ok()
-        .filter(|x| x.is_finite())
-        .map(Some)
-        .ok_or_else(|| Error::Input {
-            file: file.to_string(),
-            line,
-            column: Some(col.to_string()),
-            message: format!("'{v}' is not a number"),
-        })
-}
-
-fn month(file: &str, line: u64, row: &BTreeMap<String, String>, col: &str) -> Result<YearMonth> {
-    let v = field(file, line, row, col)?;
-    YearMonth::parse(v).map_err(|m| Error::Input {
-        file: file.to_string(),
-        line,
-        column: Some(col.to_string()),
-        message: m,
-    })
-}
-
-fn key(row: &BTreeMap<String, String>) -> SeriesKey {
-    let site = row.get("site").filter(|s| !s.is_empty()).cloned();
-    (row.get("product").cloned().unwrap_or_default(), site)
-}
-
 /// Reads the plan files of `dir`; `None` when it has no `plan.csv`.
 pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
-    let Some((file, rows)) = csv_rows(&dir.join("plan.csv"))? else {
+    let Some(mut t) = Table::read(dir, "plan.csv")? else {
         return Ok(None);
     };
+    let names = [
+        "product",
+        "site",
+        "month",
+        "opening",
+        "consumption",
+        "arrivals_on_order",
+        "arrivals_planned",
+        "closing",
+        "short",
+        "amc",
+        "months_of_stock",
+        "min_months",
+        "max_months",
+        "emergency_months",
+        "flag",
+    ];
+    let c = t.cols(names)?;
     let mut series: Vec<(SeriesKey, PlanSeries)> = Vec::new();
     let mut index: BTreeMap<SeriesKey, usize> = BTreeMap::new();
-    for (line, r) in &rows {
-        let f = &file;
-        let z = |c: &str| num(f, *line, r, c).map(|v| v.unwrap_or(0.0));
+    let key = |rec: &csv::StringRecord, p: usize, s: usize| -> SeriesKey {
+        let site = text(rec, s);
+        (text(rec, p), (!site.is_empty()).then_some(site))
+    };
+    t.each(|t, line, rec| {
+        let n = |k: usize| t.num(line, rec, c[k], names[k]);
+        let z = |k: usize| n(k).map(|v| v.unwrap_or(0.0));
         let row = PlanRow {
-            month: month(f, *line, r, "month")?,
-            opening: z("opening")?,
-            consumption: z("consumption")?,
-            on_order: z("arrivals_on_order")?,
-            planned: z("arrivals_planned")?,
-            closing: z("closing")?,
-            short: z("short")?,
-            amc: z("amc")?,
-            months_of_stock: num(f, *line, r, "months_of_stock")?,
-            min_months: z("min_months")?,
-            max_months: z("max_months")?,
-            emergency_months: num(f, *line, r, "emergency_months")?,
-            flag: field(f, *line, r, "flag")?.to_string(),
+            month: t.month(line, rec, c[2], names[2])?,
+            opening: z(3)?,
+            consumption: z(4)?,
+            on_order: z(5)?,
+            planned: z(6)?,
+            closing: z(7)?,
+            short: z(8)?,
+            amc: z(9)?,
+            months_of_stock: n(10)?,
+            min_months: z(11)?,
+            max_months: z(12)?,
+            emergency_months: n(13)?,
+            flag: text(rec, c[14]),
         };
-        let k = key(r);
+        let k = key(rec, c[0], c[1]);
         let i = *index.entry(k.clone()).or_insert_with(|| {
             series.push((k, PlanSeries::default()));
             series.len() - 1
         });
         series[i].1.months.push(row);
-    }
-    if let Some((file, rows)) = csv_rows(&dir.join("orders.csv"))? {
-        for (line, r) in &rows {
-            let f = &file;
-            let Some(&i) = index.get(&key(r)) else {
-                continue;
+        Ok(())
+    })?;
+    if let Some(mut t) = Table::read(dir, "orders.csv")? {
+        let names = [
+            "product",
+            "site",
+            "order_month",
+            "arrival_month",
+            "covers_to",
+            "quantity",
+            "packs",
+            "cost",
+        ];
+        let c = t.cols(names)?;
+        t.each(|t, line, rec| {
+            let Some(&i) = index.get(&key(rec, c[0], c[1])) else {
+                return Ok(());
             };
-            let z = |c: &str| num(f, *line, r, c).map(|v| v.unwrap_or(0.0));
+            let z = |k: usize| t.num(line, rec, c[k], names[k]).map(|v| v.unwrap_or(0.0));
             series[i].1.orders.push(OrderRow {
-                order_month: month(f, *line, r, "order_month")?,
-                arrival_month: month(f, *line, r, "arrival_month")?,
-                covers_to: field(f, *line, r, "covers_to")?.to_string(),
-                quantity: z("quantity")?,
-                packs: z("packs")?,
-                cost: z("cost")?,
+                order_month: t.month(line, rec, c[2], names[2])?,
+                arrival_month: t.month(line, rec, c[3], names[3])?,
+                covers_to: text(rec, c[4]),
+                quantity: z(5)?,
+                packs: z(6)?,
+                cost: z(7)?,
             });
-        }
+            Ok(())
+        })?;
     }
     let run = std::fs::read(dir.join("plan.json"))
         .ok()
@@ -392,7 +342,7 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
         ("quantity ordered", Kind::Num),
         ("cost", Kind::Num),
     ]);
-    let mut t = Table::new(&columns, true);
+    let mut t = HtmlTable::new(&columns, true);
     for (k, s) in &plan.series {
         let has = |f: &'static str| {
             s.months
@@ -452,7 +402,7 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
         if s.orders.is_empty() {
             b.push_str("<p class=\"note\">No order proposed over the horizon.</p>\n");
         } else {
-            let mut o = Table::new(
+            let mut o = HtmlTable::new(
                 &[
                     ("order month", Kind::Text),
                     ("arrival month", Kind::Text),
@@ -479,7 +429,7 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
             b.push_str("<h3>Proposed orders</h3>\n");
             b.push_str(&o.html());
         }
-        let mut m = Table::new(
+        let mut m = HtmlTable::new(
             &[
                 ("month", Kind::Text),
                 ("opening", Kind::Num),
