@@ -250,6 +250,52 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     assert!(o.status.success(), "{}", text(&o));
     let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
     assert!(html.contains("<h2 id=\"plan\">Supply plan</h2>"));
+    assert!(html.contains("Stock plan: Zinc 20 mg"));
+    // A new forecast in the folder makes the plan out of date: the report
+    // says so instead of showing orders computed from the old forecast.
+    let fc = std::fs::read_to_string(w.path("fc/forecast.csv")).unwrap();
+    w.write("fc/forecast.csv", &fc.replacen("9540.5261", "9999", 1));
+    let o = w.run(&["report", "fc"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
+    assert!(html.contains("were made from an earlier forecast.csv"));
+    assert!(!html.contains("Stock plan: Zinc 20 mg"));
+}
+
+#[test]
+fn safety_stock_from_the_upper_bound() {
+    // Flat 1,000 a month with a 95% upper bound of 1,400 (margin 400); lead
+    // time 1, review 2: an order decided at a review covers the two months
+    // after its arrival, so the safety stock is 3 × 400 = 1,200 and the
+    // order-up-to level 2 × 1,000 + 1,200 = 3,200. From 1,500 on hand,
+    // 500 are left when the first order arrives: order 2,700.
+    let w = Workdir::new();
+    w.hand_forecast(&flat_forecast("Test kit", 2027, 12, 1000.0));
+    w.write(
+        "stock.csv",
+        &format!("{HEADER}Test kit,1500,2026-12,1,3,6,2,1,1,,\n"),
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--safety-stock",
+        "upper-95",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let orders = w.read_csv("fc/orders.csv");
+    assert_eq!(orders[0]["rule"], "upper-95");
+    assert_eq!(num(&orders[0], "minimum"), 1200.0);
+    assert_eq!(num(&orders[0], "order_up_to"), 3200.0);
+    assert_eq!(num(&orders[0], "quantity"), 2700.0);
+    let run: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(w.path("fc/plan.json")).unwrap()).unwrap();
+    assert!(run["rules"]["orders"]
+        .as_str()
+        .unwrap()
+        .contains("95% upper bound − point forecast"));
 }
 
 #[test]

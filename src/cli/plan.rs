@@ -239,6 +239,7 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         "forecast_dir": a.dir.display().to_string(),
         "stock_file": stock_name,
         "stock_sha256": output::sha256_hex(&stock_bytes),
+        "forecast_sha256": std::fs::read(a.dir.join("forecast.csv")).ok().map(|b| output::sha256_hex(&b)),
         "on_order_file": on_order_name,
         "on_order_sha256": on_order_sha,
         "settings": {

@@ -78,6 +78,9 @@ pub struct PlanRead {
     pub run: serde_json::Value,
     /// Per series, in file order of `plan.csv`.
     pub series: Vec<(SeriesKey, PlanSeries)>,
+    /// `forecast.csv` has changed since the plan was made (its SHA-256
+    /// differs from the one in `plan.json`): the plan is out of date.
+    pub stale: bool,
 }
 
 /// Reads the plan files of `dir`; `None` when it has no `plan.csv`.
@@ -167,7 +170,13 @@ pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
         .ok()
         .and_then(|b| serde_json::from_slice(&b).ok())
         .unwrap_or(serde_json::Value::Null);
-    Ok(Some(PlanRead { run, series }))
+    let stale = match run.get("forecast_sha256").and_then(|v| v.as_str()) {
+        Some(made_from) => std::fs::read(dir.join("forecast.csv"))
+            .map(|b| crate::output::sha256_hex(&b) != made_from)
+            .unwrap_or(true),
+        None => false,
+    };
+    Ok(Some(PlanRead { run, series, stale }))
 }
 
 /// Title of a series: the product, and its site.
@@ -254,10 +263,14 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
 }
 
 /// Draws every series' stock chart (PNG and SVG) into `charts_dir`;
-/// returns the SVGs (same order as the series) and the files written.
+/// returns the SVGs (same order as the series) and the files written;
+/// none when the plan is out of date.
 pub fn draw_charts(plan: &PlanRead, charts_dir: &Path) -> Result<(Vec<String>, Vec<PathBuf>)> {
     let mut svgs = Vec::new();
     let mut files = Vec::new();
+    if plan.stale {
+        return Ok((svgs, files));
+    }
     for (k, s) in &plan.series {
         let c = stock_chart(k, s);
         let stem = series_stem(k);
@@ -285,9 +298,21 @@ fn span(months: &[YearMonth]) -> String {
     }
 }
 
+/// The note that replaces the section when the forecast has changed since
+/// the plan was made.
+pub const STALE_NOTE: &str = "The plan files in this folder (plan.csv, orders.csv) were made from an earlier forecast.csv: its SHA-256 differs from the one recorded in plan.json. They are not shown; run `provisio plan` again on this folder.";
+
 /// The HTML of the supply plan section (without its heading).
 pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
     let mut b = String::new();
+    if plan.stale {
+        let _ = writeln!(
+            b,
+            "<div class=\"caution\" role=\"note\"><strong>Out of date.</strong> {}</div>",
+            escape(STALE_NOTE)
+        );
+        return b;
+    }
     let j = |path: &[&str]| {
         let mut cur = &plan.run;
         for k in path {
