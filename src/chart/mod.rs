@@ -9,6 +9,7 @@
 //! so any command can draw them: `forecast` and `report` from a forecast's
 //! outputs, a later review from a saved forecast and new actuals.
 
+mod crosscheck;
 mod overview;
 mod product;
 mod text;
@@ -17,6 +18,7 @@ use std::path::Path;
 
 use plotters::prelude::*;
 
+pub use crosscheck::{crosscheck_png, crosscheck_svg, CrossCheckChart, EstimateBar};
 pub use overview::{overview_png, overview_svg, ScoreBar};
 pub use product::{
     product_png, product_svg, BacktestPanel, BacktestPath, HistoryMonth, ProductChart,

@@ -1,6 +1,7 @@
 //! Command-line definitions and dispatch.
 
 mod clean;
+mod crosscheck;
 mod forecast;
 mod generate;
 mod inspect;
@@ -54,6 +55,11 @@ enum Command {
         after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
     )]
     Review(review::ReviewArgs),
+    /// Compare the consumption forecast with what services data and population data imply, per product, with plain-words flags where they diverge.
+    #[command(
+        after_help = "Example:\n  provisio crosscheck demo-output --services datasets/demo/services.csv --population datasets/demo/population.csv"
+    )]
+    Crosscheck(crosscheck::CrossCheckArgs),
     /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
     #[command(
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
@@ -192,6 +198,7 @@ pub fn run() -> i32 {
         Command::Clean(a) => clean::run(a),
         Command::Report(a) => report::run(a),
         Command::Review(a) => review::run(a),
+        Command::Crosscheck(a) => crosscheck::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
     };

@@ -1,6 +1,7 @@
 //! Output files: every file is written to a temporary file in the target
 //! directory and renamed into place, so a reader never sees half a file.
 
+mod crosscheck;
 mod forecast;
 mod review;
 mod tables;
@@ -9,6 +10,8 @@ pub use forecast::{
     write_backtest, write_forecast, write_json, write_scores, write_scores_by_horizon,
     write_selection, FORECAST_FORMAT_VERSION,
 };
+
+pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
 
 pub use review::{review_json, write_review, write_review_months};
 

@@ -7,6 +7,7 @@
 //! file with the charts inline as SVG and its style and script inline, so it
 //! opens offline and can be mailed as it is.
 
+pub mod crosscheck;
 pub mod html;
 mod read;
 pub mod review;
@@ -114,7 +115,22 @@ pub fn write_report(dir: &Path) -> Result<Written> {
         svgs.push(svg);
         charts.extend(files);
     }
-    let page = render(&run, &stems, &svgs, &overview);
+    let mut page = render(&run, &stems, &svgs, &overview);
+    // The cross-check section, when `provisio crosscheck` has run here.
+    if let Some((section, files)) = crosscheck::write_section(dir)? {
+        page = page
+            .replacen(
+                "<a href=\"#caution\">",
+                "<a href=\"#crosscheck\">Cross-check</a><a href=\"#caution\">",
+                1,
+            )
+            .replacen(
+                "<h2 id=\"caution\">",
+                &format!("{section}<h2 id=\"caution\">"),
+                1,
+            );
+        charts.extend(files);
+    }
     let report = dir.join("report.html");
     crate::output::write_atomic(&report, |w| w.write_all(page.as_bytes()))?;
     Ok(Written {
