@@ -240,7 +240,7 @@ fn draw<DB: DrawingBackend>(
             .msg()?;
         let text = match e.ratio {
             Some(r) => format!(
-                "{} · {} · {}",
+                "{} · {} consumption · {}",
                 fmt_quantity(q),
                 crate::crosscheck::fmt_ratio(r),
                 e.flag

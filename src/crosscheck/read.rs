@@ -258,7 +258,7 @@ fn required<T>(v: Option<T>, col: &str, method: &str) -> std::result::Result<T, 
 /// Columns of the services file.
 pub const SERVICES_COLUMNS: [&str; 4] = ["product", "month", "services", "units_per_service"];
 /// Optional columns of the services file.
-pub const SERVICES_OPTIONAL: [&str; 2] = ["site", "allowance"];
+pub const SERVICES_OPTIONAL: [&str; 3] = ["site", "allowance", "reporting_rate"];
 
 /// Reads a services file. Rows with a bad value, or a second row for the
 /// same product, site and month, are rejected with the reason.
@@ -286,6 +286,14 @@ pub fn read_services(path: &Path) -> Result<ServicesData> {
                 problem("units_per_service", "", "units_per_service is empty; expected the product units used per service (e.g. 1 test kit per test)".into())
             })?;
             let allowance = share(&sheet, rec, "allowance", 10.0)?.unwrap_or(0.0);
+            let reporting_rate = share(&sheet, rec, "reporting_rate", 1.0)?;
+            if reporting_rate == Some(0.0) && services.is_some_and(|v| v > 0.0) {
+                return Err(problem(
+                    "reporting_rate",
+                    sheet.get(rec, "reporting_rate"),
+                    "reporting_rate is 0 but services are reported; leave services empty or correct the rate".into(),
+                ));
+            }
             let site = has_site
                 .then(|| sheet.get(rec, "site").to_string())
                 .filter(|s| !s.is_empty());
@@ -297,6 +305,7 @@ pub fn read_services(path: &Path) -> Result<ServicesData> {
                 services,
                 units_per_service: ups,
                 allowance,
+                reporting_rate,
             })
         })();
         match parsed {
@@ -348,6 +357,7 @@ pub fn read_services(path: &Path) -> Result<ServicesData> {
         rows,
         rejected,
         has_site,
+        has_reporting_rate: sheet.columns.contains_key("reporting_rate"),
     })
 }
 

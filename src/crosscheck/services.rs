@@ -6,9 +6,11 @@
 //! quantity = projected services over the period × units_per_service × (1 + allowance)
 //! ```
 //!
-//! The services series are cleaned like consumption (gaps filled, sites
-//! summed, outliers flagged; there are no stockout or reporting-rate
-//! columns). The units per service and allowance are those of the
+//! The services series are cleaned like consumption, with the default
+//! cleaning settings: totals from incomplete reporting scaled up by the
+//! reporting rate when the file gives one, sites summed, gaps filled,
+//! outliers flagged (there is no stockout column: services are not limited
+//! by the product's stock in the same way). The units per service and allowance are those of the
 //! product's latest month in the file (services-weighted over its sites), so
 //! a change of guideline takes effect from the month it is recorded; a
 //! warning says when they changed over the history. Months of the period
@@ -41,6 +43,8 @@ pub struct ServiceRow {
     pub units_per_service: f64,
     /// Share added for repeats and losses (0.1 = 10%).
     pub allowance: f64,
+    /// Share of expected reports received (0–1), when given.
+    pub reporting_rate: Option<f64>,
 }
 
 /// What was read from a services file.
@@ -58,6 +62,8 @@ pub struct ServicesData {
     pub rejected: Vec<RejectedRow>,
     /// Whether the file has a `site` column.
     pub has_site: bool,
+    /// Whether the file has a `reporting_rate` column.
+    pub has_reporting_rate: bool,
 }
 
 /// A product's services estimate.
@@ -231,7 +237,7 @@ fn as_dataset(data: &ServicesData) -> Dataset {
             month: r.month,
             consumed: r.services,
             stockout_days: None,
-            reporting_rate: None,
+            reporting_rate: r.reporting_rate,
         })
         .collect();
     Dataset {
@@ -247,7 +253,7 @@ fn as_dataset(data: &ServicesData) -> Dataset {
             had_bom: false,
             has_site: data.has_site,
             has_stockout_days: false,
-            has_reporting_rate: false,
+            has_reporting_rate: data.has_reporting_rate,
             reporting_rate_as_percent: false,
             extra_columns: Vec::new(),
         },
