@@ -376,7 +376,7 @@ pub fn build(
         };
         let cbasis = match &consumption {
             Some(c) => format!(
-                "sum of the 12 monthly forecasts {period_start} to {period_end}; 80% range of the total between {} to {} (months independent) and {} to {} (sum of the monthly 80% bounds: months moving together)",
+                "sum of the 12 monthly forecasts {period_start} to {period_end}; 80% range of the total: {} to {} if the months' errors were independent, {} to {} as the sum of the monthly 80% bounds (months moving together); the true range lies between the two",
                 crate::chart::fmt_quantity(c.narrow.0),
                 crate::chart::fmt_quantity(c.narrow.1),
                 crate::chart::fmt_quantity(c.wide.0),
