@@ -145,6 +145,36 @@ fn artemether_lumefantrine_worked_check_end_to_end() {
         out.contains("morbidity") && out.contains("2,916,000"),
         "{out}"
     );
+    // A period the forecast covers only in part: no comparison, a warning.
+    let o = w.run(&[
+        "crosscheck",
+        "fc",
+        "--population",
+        "pop.csv",
+        "--no-report",
+        "--start",
+        "2027-06",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(
+        text(&o).contains("covers 7 of the 12 months 2027-06 to 2028-05"),
+        "{}",
+        text(&o)
+    );
+    let m = find(&w.read_csv("fc/crosscheck.csv"), "AL", "morbidity").clone();
+    assert_eq!(
+        (m["flag"].as_str(), m["period_end"].as_str()),
+        ("no-comparison", "2028-05")
+    );
+    let e = text(&w.run(&[
+        "crosscheck",
+        "fc",
+        "--population",
+        "pop.csv",
+        "--start",
+        "June",
+    ]));
+    assert!(e.contains("invalid setting start: 'June'"), "{e}");
     // A threshold of 0.5 makes the same ratio agree.
     let o = w.run(&[
         "crosscheck",

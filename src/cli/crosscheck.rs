@@ -98,6 +98,18 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     if let Some(d) = &sv {
         output::write_crosscheck_services(&dir.join("crosscheck_services.csv"), &cc)?;
         output::write_rejected(&dir.join("crosscheck_rejected.csv"), &d.source, &d.rejected)?;
+    } else {
+        // Files of an earlier cross-check with services would no longer match.
+        for name in ["crosscheck_services.csv", "crosscheck_rejected.csv"] {
+            match std::fs::remove_file(dir.join(name)) {
+                Err(e) if e.kind() != std::io::ErrorKind::NotFound => {
+                    return Err(e).with_context(|| {
+                        format!("{}: cannot remove the earlier {name}", dir.display())
+                    })
+                }
+                _ => {}
+            }
+        }
     }
     let forecast_sha = std::fs::read(dir.join("forecast.csv"))
         .map(|b| output::sha256_hex(&b))

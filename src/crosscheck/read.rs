@@ -36,14 +36,6 @@ struct Sheet {
     sha256: String,
 }
 
-fn normalise(name: &str) -> String {
-    name.trim()
-        .to_lowercase()
-        .chars()
-        .map(|c| if c == ' ' || c == '-' { '_' } else { c })
-        .collect()
-}
-
 fn input_error(file: &str, line: u64, column: Option<&str>, message: String) -> Error {
     Error::Input {
         file: file.to_string(),
@@ -88,7 +80,7 @@ impl Sheet {
             .headers()
             .map_err(|e| input_error(&file, 1, None, format!("cannot read the header: {e}")))?
             .iter()
-            .map(normalise)
+            .map(crate::data::normalise_name)
             .collect();
         if header.iter().all(|h| h.is_empty()) {
             return Err(input_error(
@@ -245,6 +237,19 @@ fn share(
     }
 }
 
+/// The product name of a row; empty is refused.
+fn product<'r>(sheet: &Sheet, rec: &'r csv::StringRecord) -> std::result::Result<&'r str, Problem> {
+    let p = sheet.get(rec, "product");
+    if p.is_empty() {
+        return Err(problem(
+            "product",
+            "",
+            "product is empty; expected a product name as in the forecast".into(),
+        ));
+    }
+    Ok(p)
+}
+
 fn required<T>(v: Option<T>, col: &str, method: &str) -> std::result::Result<T, Problem> {
     v.ok_or_else(|| {
         problem(
@@ -271,14 +276,7 @@ pub fn read_services(path: &Path) -> Result<ServicesData> {
     let mut seen: HashMap<(String, Option<String>, YearMonth), u64> = HashMap::new();
     for (line, rec) in &sheet.records {
         let parsed = (|| -> std::result::Result<ServiceRow, Problem> {
-            let product = sheet.get(rec, "product");
-            if product.is_empty() {
-                return Err(problem(
-                    "product",
-                    "",
-                    "product is empty; expected a product name as in the forecast".into(),
-                ));
-            }
+            let product = product(&sheet, rec)?;
             let m = sheet.get(rec, "month");
             let month = parse_month(m).map_err(|e| problem("month", m, e))?;
             let services = quantity(&sheet, rec, "services")?;
@@ -386,14 +384,7 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow
     let mut groups: HashSet<(String, Method, String)> = HashSet::new();
     for (line, rec) in &sheet.records {
         let parsed = (|| -> std::result::Result<PopulationRow, Problem> {
-            let product = sheet.get(rec, "product");
-            if product.is_empty() {
-                return Err(problem(
-                    "product",
-                    "",
-                    "product is empty; expected a product name as in the forecast".into(),
-                ));
-            }
+            let product = product(&sheet, rec)?;
             let m = sheet.get(rec, "method");
             let method = match Method::parse(m) {
                 Some(x @ (Method::Morbidity | Method::Demographic)) => x,

@@ -286,3 +286,63 @@ pub fn write_section(dir: &Path) -> Result<Option<(String, Vec<PathBuf>)>> {
     }
     Ok(Some((b, files)))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::calendar::YearMonth;
+    use crate::crosscheck::{build, population::PopulationRow, ForecastMonth, Method};
+
+    #[test]
+    fn crosscheck_csv_reads_back_as_written() {
+        let start = YearMonth::new(2027, 1).unwrap();
+        let mut fc = std::collections::BTreeMap::new();
+        fc.insert(
+            "<b>A</b>, 10 mg".to_string(),
+            (0..12)
+                .map(|i| ForecastMonth {
+                    month: start.plus(i),
+                    point: 100.0 + i as f64,
+                    lower80: 80.0,
+                    upper80: 130.0,
+                })
+                .collect::<Vec<_>>(),
+        );
+        let row = PopulationRow {
+            line: 2,
+            product: "<b>A</b>, 10 mg".into(),
+            group: "adults".into(),
+            method: Method::Morbidity,
+            population: 10_000.0,
+            group_share: 1.0,
+            rate: 0.2,
+            care_seeking: 0.5,
+            treated: 1.0,
+            quantity_per_course: 3.0,
+            method_share: 0.0,
+            public_share: 1.0,
+            units_per_user_year: 0.0,
+            units_basis: String::new(),
+            loss_allowance: 0.0,
+        };
+        let cc = build(&fc, start, &[], &[row], 0.25);
+        let dir = tempfile::tempdir().unwrap();
+        crate::output::write_crosscheck(&dir.path().join("crosscheck.csv"), &cc).unwrap();
+        let back = read_crosscheck(dir.path()).unwrap().unwrap();
+        assert_eq!(back.len(), 2);
+        let want = cc.rows[0].consumption.unwrap();
+        let got = back[0].consumption.unwrap();
+        assert!((got.total - want.total).abs() < 1e-3);
+        assert!((got.narrow.0 - want.narrow.0).abs() < 1e-3);
+        assert!((got.wide.1 - want.wide.1).abs() < 1e-3);
+        // 10,000 × 0.2 × 0.5 × 3 = 3,000 against 1,266: above.
+        assert_eq!(back[1].quantity, Some(3000.0));
+        assert_eq!(back[1].flag, "above");
+        assert_eq!(back[1].product, "<b>A</b>, 10 mg");
+        let (html, files) = write_section(dir.path()).unwrap().unwrap();
+        assert_eq!(files.len(), 2);
+        assert!(html.contains("&lt;b&gt;A&lt;/b&gt;, 10 mg"));
+        assert!(!html.contains("<b>A</b>"));
+        assert!(write_section(&dir.path().join("none")).unwrap().is_none());
+    }
+}
