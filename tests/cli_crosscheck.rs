@@ -384,4 +384,12 @@ fn demo_crosscheck_writes_csv_charts_and_report_section() {
     let html = std::fs::read_to_string(w.path("out/report.html")).unwrap();
     assert!(html.contains("id=\"crosscheck\""));
     assert!(!html.contains("forecast.csv has changed"));
+    // A changed forecast.csv (here one blank line more) is pointed out.
+    let mut f = std::fs::read(w.path("out/forecast.csv")).unwrap();
+    f.push(b'\n');
+    std::fs::write(w.path("out/forecast.csv"), f).unwrap();
+    let o = w.run(&["report", "out"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("out/report.html")).unwrap();
+    assert!(html.contains("forecast.csv has changed since this cross-check was made"));
 }

@@ -17,7 +17,7 @@ pub struct CrossCheckArgs {
     /// Output directory of `provisio forecast`; the cross-check files are written into it.
     #[arg(value_name = "FORECAST_DIR")]
     dir: PathBuf,
-    /// Services file: product, month, services, units_per_service (optional: site, allowance).
+    /// Services file: product, month, services, units_per_service (optional: site, allowance, reporting_rate).
     #[arg(long, value_name = "SERVICES")]
     services: Option<PathBuf>,
     /// Population file: one row per product and target group, method morbidity or demographic.
