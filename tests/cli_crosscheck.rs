@@ -252,7 +252,8 @@ fn bad_inputs_are_refused_or_logged() {
     assert_eq!(o.status.code(), Some(1));
     let e = text(&o);
     assert!(
-        e.contains("pop.csv:3: column 'rate'") && e.contains("not a share"),
+        e.contains("pop.csv:3: column 'rate'")
+            && e.contains("not a number; expected a rate from 0 to 10"),
         "{e}"
     );
     assert!(!w.path("fc/crosscheck.csv").exists());

@@ -213,13 +213,15 @@ fn share(
         Some(n) => (n.trim(), true),
         None => (v, false),
     };
-    let valid = if max > 1.0 {
-        format!("a share from 0 to {max} (0.25 or 25%)")
+    let valid = if col == "rate" {
+        format!("a rate from 0 to {max}: episodes per person a year, or a share (0.25 or 25%)")
+    } else if max > 1.0 {
+        format!("a share from 0 to {max} (0.1 or 10%)")
     } else {
         "a share from 0 to 1 (0.25 or 25%)".to_string()
     };
     let n = parse_number(num, NumberFormat::Plain)
-        .map_err(|_| problem(col, v, format!("'{v}' is not a share; expected {valid}")))?;
+        .map_err(|_| problem(col, v, format!("'{v}' is not a number; expected {valid}")))?;
     match n.map(|x| if pct { x / 100.0 } else { x }) {
         Some(x) if !(0.0..=max).contains(&x) => Err(problem(
             col,
@@ -701,4 +703,87 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
         first_month,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn population(text: &str) -> Result<Vec<PopulationRow>> {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("pop.csv");
+        std::fs::write(&path, text).unwrap();
+        read_population(&path, &super::super::cyp::usaid_2021()).map(|r| r.0)
+    }
+
+    #[test]
+    fn population_reads_percentages_semicolons_and_names_problems() {
+        let rows = population(
+            "\u{feff}Product;Method;Population;Rate;Care Seeking;Treated;Quantity-per-course;Loss allowance\n\
+             ORS;morbidity;1000;50%;0.8;90%;2;5%\n",
+        )
+        .unwrap();
+        assert_eq!(rows.len(), 1);
+        assert_eq!(rows[0].rate, 0.5);
+        assert_eq!(rows[0].treated, 0.9);
+        assert_eq!(rows[0].loss_allowance, 0.05);
+        // 1000 × 0.5 × 0.8 × 0.9 × 2 × 1.05 (common-practice arithmetic).
+        assert!((rows[0].quantity() - 756.0).abs() < 1e-9);
+        let e = population("product,method,population,rate\nORS,morbidity,1000,0.5\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains(
+                ":2: column 'care_seeking': care_seeking is required for the morbidity method"
+            ),
+            "{e}"
+        );
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,1000,0.5,1,1,1\nORS,morbidity,1000,0.5,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains(":3: column 'group': a second morbidity row"),
+            "{e}"
+        );
+        let e = population("product,method,population,rate\nORS,stock,1000,0.5\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("expected morbidity or demographic"), "{e}");
+        let e = population("product,method,population,rate,method_share,cyp_method,units_per_user_year\nC,demographic,1000,0.3,0.5,condom,100\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("not both"), "{e}");
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,1000,12,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("a rate from 0 to 10"), "{e}");
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,-5,0.1,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("column 'population'") && e.contains("negative"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn cyp_file_needs_one_factor_per_method() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("cyp.csv");
+        std::fs::write(&path, "method,cyp_per_unit\nring,0.1\nring,0.2\n").unwrap();
+        let e = read_cyp(&path).unwrap_err().to_string();
+        assert!(
+            e.contains(":3: column 'method': 'ring' appears twice"),
+            "{e}"
+        );
+        std::fs::write(&path, "method,units_per_cyp\npatch,0\n").unwrap();
+        assert!(read_cyp(&path)
+            .unwrap_err()
+            .to_string()
+            .contains("must be above 0"));
+        std::fs::write(&path, "method,units_per_cyp\nPatch,13\n").unwrap();
+        let f = read_cyp(&path).unwrap();
+        assert_eq!(f[0].method, "patch");
+        assert!((f[0].units_per_user_year() - 13.0).abs() < 1e-12);
+    }
 }
