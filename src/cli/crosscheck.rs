@@ -63,7 +63,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     };
     let mut warnings = fc.warnings.clone();
     let (estimates, sv_warnings) = match &sv {
-        Some(d) => services::estimate(d, start, &fc.settings)?,
+        Some(d) => services::estimate(d, start, &fc.settings, &fc.clean_settings)?,
         None => (Vec::new(), Vec::new()),
     };
     warnings.extend(sv_warnings);
@@ -128,7 +128,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
             "rows_read": d.rows_read,
             "rows_accepted": d.rows.len(),
             "rows_rejected": d.rejected.len(),
-            "projected_with": "forecast settings of the forecast run (backtest, selection), services cleaned with the default cleaning settings",
+            "projected_with": "the forecast run's backtest, selection and cleaning settings",
         })),
         "population": a.population.as_ref().zip(pop.as_ref()).map(|(p, (rows, sha))| serde_json::json!({
             "file": p.display().to_string(),

@@ -595,6 +595,8 @@ pub struct ForecastInput {
     pub products: BTreeMap<String, Vec<ForecastMonth>>,
     /// The run's forecast settings (defaults when the manifest lacks them).
     pub settings: ForecastSettings,
+    /// The run's cleaning settings (defaults when the manifest lacks them).
+    pub clean_settings: crate::clean::CleanSettings,
     /// The run's manifest.
     pub manifest: serde_json::Value,
     /// First projected month over all products.
@@ -643,6 +645,23 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
                 mpath.display()
             ));
             ForecastSettings::default()
+        }
+    };
+    let clean_settings = match manifest.get("clean_settings") {
+        Some(v) => serde_json::from_value(v.clone()).map_err(|e| {
+            input_error(
+                &mpath.display().to_string(),
+                0,
+                Some("clean_settings"),
+                format!("cannot read the cleaning settings: {e}"),
+            )
+        })?,
+        None => {
+            warnings.push(format!(
+                "{}: no cleaning settings; services are cleaned with the default settings",
+                mpath.display()
+            ));
+            crate::clean::CleanSettings::default()
         }
     };
     let fpath = dir.join("forecast.csv");
@@ -699,6 +718,7 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
     Ok(ForecastInput {
         products,
         settings,
+        clean_settings,
         manifest,
         first_month,
         warnings,

@@ -6,8 +6,8 @@
 //! quantity = projected services over the period × units_per_service × (1 + allowance)
 //! ```
 //!
-//! The services series are cleaned like consumption, with the default
-//! cleaning settings: totals from incomplete reporting scaled up by the
+//! The services series are cleaned like consumption, with the forecast
+//! run's cleaning settings: totals from incomplete reporting scaled up by the
 //! reporting rate when the file gives one, sites summed, gaps filled,
 //! outliers flagged (there is no stockout column: services are not limited
 //! by the product's stock in the same way). The units per service and allowance are those of the
@@ -18,6 +18,8 @@
 
 use std::collections::BTreeMap;
 use std::sync::Arc;
+
+use rayon::prelude::*;
 
 use crate::calendar::YearMonth;
 use crate::clean::{clean, CleanSeries, CleanSettings};
@@ -84,18 +86,19 @@ pub struct ServicesEstimate {
 }
 
 /// Projects every product's services over the 12 months from
-/// `period_start` and converts them to quantities. `settings` are the
-/// forecast run's (the horizon is set here). Returns the estimates and the
-/// warnings met.
+/// `period_start` and converts them to quantities, products in parallel.
+/// `settings` and `clean_settings` are the forecast run's (the horizon is
+/// set here). Returns the estimates and the warnings met.
 pub fn estimate(
     data: &ServicesData,
     period_start: YearMonth,
     settings: &ForecastSettings,
+    clean_settings: &CleanSettings,
 ) -> crate::Result<(Vec<ServicesEstimate>, Vec<String>)> {
     let period_end = period_start.plus(super::PERIOD_MONTHS as i64 - 1);
     let mut warnings = Vec::new();
     let ds = as_dataset(data);
-    let cleaned = clean(&ds, &CleanSettings::default().check()?);
+    let cleaned = clean(&ds, &clean_settings.clone().check()?);
     warnings.extend(cleaned.warnings.iter().map(|w| format!("services: {w}")));
     let units = units_per_product(&data.rows, &mut warnings);
     let mut out = Vec::new();
@@ -109,21 +112,27 @@ pub fn estimate(
             months: Vec::new(),
         });
     }
-    let models = candidates();
-    for s in &cleaned.series {
-        let (upw, upw_text) = units
-            .get(&s.product)
-            .cloned()
-            .unwrap_or((0.0, "no units per service".to_string()));
-        out.push(one(
-            s,
-            period_start,
-            period_end,
-            settings,
-            &models,
-            upw,
-            &upw_text,
-        )?);
+    let projected: Vec<crate::Result<ServicesEstimate>> = cleaned
+        .series
+        .par_iter()
+        .map_init(candidates, |models, s| {
+            let (upw, upw_text) = units
+                .get(&s.product)
+                .cloned()
+                .unwrap_or((0.0, "no units per service".to_string()));
+            one(
+                s,
+                period_start,
+                period_end,
+                settings,
+                models,
+                upw,
+                &upw_text,
+            )
+        })
+        .collect();
+    for p in projected {
+        out.push(p?);
     }
     out.sort_by(|a, b| a.product.cmp(&b.product));
     Ok((out, warnings))
