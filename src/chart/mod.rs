@@ -9,6 +9,7 @@
 //! so any command can draw them: `forecast` and `report` from a forecast's
 //! outputs, a later review from a saved forecast and new actuals.
 
+mod crosscheck;
 mod overview;
 mod plan;
 mod product;
@@ -18,6 +19,7 @@ use std::path::Path;
 
 use plotters::prelude::*;
 
+pub use crosscheck::{crosscheck_png, crosscheck_svg, CrossCheckChart, EstimateBar};
 pub use overview::{overview_png, overview_svg, ScoreBar};
 pub use plan::{stock_png, stock_svg, StockChart, StockMonth};
 pub use product::{

@@ -1,6 +1,7 @@
 //! Command-line definitions and dispatch.
 
 mod clean;
+mod crosscheck;
 mod forecast;
 mod generate;
 mod inspect;
@@ -55,6 +56,11 @@ enum Command {
         after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
     )]
     Review(review::ReviewArgs),
+    /// Compare the consumption forecast with what services data and population data imply, per product, with plain-words flags where they diverge.
+    #[command(
+        after_help = "Example:\n  provisio crosscheck demo-output --services datasets/demo/services.csv --population datasets/demo/population.csv"
+    )]
+    Crosscheck(crosscheck::CrossCheckArgs),
     /// Turn a forecast into a supply plan: month-by-month stock projection, months of stock, stockout and overstock flags, and proposed orders under a max–min rule.
     #[command(
         after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --out demo-output\n  provisio plan demo-output --stock datasets/demo/stock.csv --on-order datasets/demo/on_order.csv"
@@ -198,6 +204,7 @@ pub fn run() -> i32 {
         Command::Clean(a) => clean::run(a),
         Command::Report(a) => report::run(a),
         Command::Review(a) => review::run(a),
+        Command::Crosscheck(a) => crosscheck::run(a),
         Command::Plan(a) => plan::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),

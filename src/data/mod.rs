@@ -6,6 +6,7 @@ mod series;
 mod text;
 mod values;
 
+pub(crate) use read::normalise_name;
 pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, MAX_QUANTITY};
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
 pub use text::{Encoding, MAX_ROW_BYTES};

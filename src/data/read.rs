@@ -381,7 +381,8 @@ struct Columns {
     delimiter: char,
 }
 
-fn normalise_name(name: &str) -> String {
+/// A header name as matched: trimmed, lowercase, spaces and hyphens as underscores.
+pub(crate) fn normalise_name(name: &str) -> String {
     name.trim()
         .to_lowercase()
         .chars()

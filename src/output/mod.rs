@@ -1,6 +1,7 @@
 //! Output files: every file is written to a temporary file in the target
 //! directory and renamed into place, so a reader never sees half a file.
 
+mod crosscheck;
 mod forecast;
 mod plan;
 mod review;
@@ -11,6 +12,7 @@ pub use forecast::{
     write_selection, FORECAST_FORMAT_VERSION,
 };
 
+pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
 pub use plan::{
     write_order_totals, write_orders, write_plan, write_plan_log, ORDER_COLUMNS, PLAN_COLUMNS,
 };

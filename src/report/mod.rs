@@ -7,6 +7,7 @@
 //! file with the charts inline as SVG and its style and script inline, so it
 //! opens offline and can be mailed as it is.
 
+pub mod crosscheck;
 pub mod html;
 pub mod plan;
 mod read;
@@ -116,12 +117,23 @@ pub fn write_report(dir: &Path) -> Result<Written> {
         charts.extend(files);
     }
     let mut sections = Vec::new();
+    // The cross-check section, when `provisio crosscheck` has run here.
+    if let Some((html, files)) = crosscheck::write_section(dir)? {
+        charts.extend(files);
+        sections.push(Section {
+            id: "crosscheck",
+            title: "Cross-check against services and population estimates",
+            nav: "Cross-check",
+            html,
+        });
+    }
     if let Some(p) = plan::read_plan(dir)? {
         let (plan_svgs, files) = plan::draw_charts(&p, &charts_dir)?;
         charts.extend(files);
         sections.push(Section {
             id: "plan",
             title: "Supply plan",
+            nav: "Supply plan",
             html: plan::section(&p, &plan_svgs),
         });
     }
@@ -221,6 +233,8 @@ pub struct Section {
     pub id: &'static str,
     /// Heading.
     pub title: &'static str,
+    /// Short label in the navigation bar.
+    pub nav: &'static str,
     /// Body HTML (text already escaped).
     pub html: String,
 }
@@ -252,7 +266,7 @@ pub fn render_sections(
     );
     b.push_str("<nav class=\"jump\" aria-label=\"sections\"><div class=\"inner\"><a href=\"#summary\">Run summary</a><a href=\"#products\">Products</a><a href=\"#details\">Product details</a>");
     for sec in sections {
-        let _ = write!(b, "<a href=\"#{}\">{}</a>", sec.id, escape(sec.title));
+        let _ = write!(b, "<a href=\"#{}\">{}</a>", sec.id, escape(sec.nav));
     }
     b.push_str("<a href=\"#caution\">Caution</a></div></nav>\n<main>\n");
     let _ = writeln!(

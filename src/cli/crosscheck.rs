@@ -1,0 +1,218 @@
+//! `provisio crosscheck FORECAST_DIR --services FILE --population FILE`:
+//! compare the consumption forecast with what services and population
+//! data imply, and add the comparison to the forecast's report.
+
+use std::path::PathBuf;
+
+use anyhow::Context;
+use clap::Args;
+
+use provisio::calendar::YearMonth;
+use provisio::crosscheck::{self, cyp, read, services, Flag, Method};
+use provisio::output;
+
+#[derive(Args, Debug)]
+#[command(group = clap::ArgGroup::new("inputs").required(true).multiple(true).args(["services", "population"]))]
+pub struct CrossCheckArgs {
+    /// Output directory of `provisio forecast`; the cross-check files are written into it.
+    #[arg(value_name = "FORECAST_DIR")]
+    dir: PathBuf,
+    /// Services file: product, month, services, units_per_service (optional: site, allowance, reporting_rate).
+    #[arg(long, value_name = "SERVICES")]
+    services: Option<PathBuf>,
+    /// Population file: one row per product and target group, method morbidity or demographic.
+    #[arg(long, value_name = "POPULATION")]
+    population: Option<PathBuf>,
+    /// CYP table replacing or adding to the default (USAID, updated August 2021): method, cyp_per_unit or units_per_cyp.
+    #[arg(long, value_name = "FILE")]
+    cyp: Option<PathBuf>,
+    /// Share above or below the consumption forecast beyond which an estimate is flagged (0.25 = ±25%).
+    #[arg(long, default_value_t = crosscheck::DEFAULT_THRESHOLD, value_name = "SHARE")]
+    threshold: f64,
+    /// First month of the 12-month comparison period (default: the first projected month).
+    #[arg(long, value_name = "YYYY-MM")]
+    start: Option<String>,
+    /// Do not rebuild report.html and the charts (`provisio report DIR` does it later).
+    #[arg(long)]
+    no_report: bool,
+}
+
+pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
+    let threshold = crosscheck::check_threshold(a.threshold)?;
+    let fc = read::read_forecast_dir(&a.dir)?;
+    let start = match &a.start {
+        Some(s) => YearMonth::parse(s).map_err(|e| {
+            anyhow::anyhow!(
+                "invalid setting start: '{s}': {e}; write the first month of the period as YYYY-MM"
+            )
+        })?,
+        None => fc.first_month,
+    };
+    let mut table = cyp::usaid_2021();
+    if let Some(p) = &a.cyp {
+        table = table.with_overrides(read::read_cyp(p)?);
+    }
+    // Read every input before any work, so a refusal comes at once.
+    let pop = match &a.population {
+        Some(p) => Some(read::read_population(p, &table)?),
+        None => None,
+    };
+    let sv = match &a.services {
+        Some(p) => Some(read::read_services(p)?),
+        None => None,
+    };
+    let mut warnings = fc.warnings.clone();
+    let (estimates, sv_warnings) = match &sv {
+        Some(d) => services::estimate(d, start, &fc.settings, &fc.clean_settings)?,
+        None => (Vec::new(), Vec::new()),
+    };
+    warnings.extend(sv_warnings);
+    if let Some(d) = &sv {
+        eprintln!(
+            "services rows read: {} = {} accepted + {} rejected",
+            d.rows_read,
+            d.rows.len(),
+            d.rejected.len()
+        );
+        for r in d.rejected.iter().take(5) {
+            let col = r
+                .column
+                .as_deref()
+                .map(|c| format!(": column '{c}'"))
+                .unwrap_or_default();
+            eprintln!("rejected: {}:{}{col}: {}", d.source, r.line, r.reason);
+        }
+        if d.rejected.len() > 5 {
+            eprintln!(
+                "rejected: ... and {} more (crosscheck_rejected.csv)",
+                d.rejected.len() - 5
+            );
+        }
+    }
+    let rows = pop.as_ref().map(|p| p.0.as_slice()).unwrap_or(&[]);
+    let cc = crosscheck::build(&fc.products, start, &estimates, rows, threshold);
+    warnings.extend(cc.warnings.iter().cloned());
+
+    let dir = &a.dir;
+    output::write_crosscheck(&dir.join("crosscheck.csv"), &cc)?;
+    if let Some(d) = &sv {
+        output::write_crosscheck_services(&dir.join("crosscheck_services.csv"), &cc)?;
+        output::write_rejected(&dir.join("crosscheck_rejected.csv"), &d.source, &d.rejected)?;
+    } else {
+        // Files of an earlier cross-check with services would no longer match.
+        for name in ["crosscheck_services.csv", "crosscheck_rejected.csv"] {
+            match std::fs::remove_file(dir.join(name)) {
+                Err(e) if e.kind() != std::io::ErrorKind::NotFound => {
+                    return Err(e).with_context(|| {
+                        format!("{}: cannot remove the earlier {name}", dir.display())
+                    })
+                }
+                _ => {}
+            }
+        }
+    }
+    let forecast_sha = std::fs::read(dir.join("forecast.csv"))
+        .map(|b| output::sha256_hex(&b))
+        .with_context(|| format!("{}: cannot read forecast.csv", dir.display()))?;
+    let json = serde_json::json!({
+        "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        "command": "crosscheck",
+        "forecast_dir": dir.display().to_string(),
+        "forecast_sha256": forecast_sha,
+        "period": {"start": start.to_string(), "end": start.plus(11).to_string(), "months": crosscheck::PERIOD_MONTHS},
+        "threshold": threshold,
+        "annual_range": "the forecast keeps monthly 80% bounds only; the 80% range of the 12-month total is bracketed by the range with months' errors independent (root of the sum of squared monthly half-widths) and the sum of the monthly bounds (months moving together)",
+        "services": sv.as_ref().map(|d| serde_json::json!({
+            "file": d.source,
+            "sha256": d.sha256,
+            "rows_read": d.rows_read,
+            "rows_accepted": d.rows.len(),
+            "rows_rejected": d.rejected.len(),
+            "projected_with": "the forecast run's backtest, selection and cleaning settings",
+        })),
+        "population": a.population.as_ref().zip(pop.as_ref()).map(|(p, (rows, sha))| serde_json::json!({
+            "file": p.display().to_string(),
+            "sha256": sha,
+            "rows": rows.len(),
+        })),
+        "cyp_override": a.cyp.as_ref().map(|p| p.display().to_string()),
+        "cyp_table": table.factors.iter().map(|f| serde_json::json!({
+            "method": f.method, "cyp_per_unit": f.cyp_per_unit, "units_per_user_year": f.units_per_user_year(), "unit": f.unit, "source": f.source,
+        })).collect::<Vec<_>>(),
+        "warnings": warnings,
+    });
+    output::write_json(&dir.join("crosscheck.json"), &json)?;
+
+    print_summary(&cc);
+    for w in &warnings {
+        eprintln!("warning: {w}");
+    }
+    let mut wrote = vec!["crosscheck.csv", "crosscheck.json"];
+    if sv.is_some() {
+        wrote.extend(["crosscheck_services.csv", "crosscheck_rejected.csv"]);
+    }
+    println!(
+        "cross-checked {} product(s) for {} to {}; wrote {} in {}",
+        cc.rows
+            .iter()
+            .filter(|r| r.method == Method::Consumption)
+            .count(),
+        start,
+        start.plus(11),
+        wrote.join(", "),
+        dir.display()
+    );
+    if !a.no_report {
+        let w = provisio::report::write_report(dir)?;
+        println!(
+            "rebuilt {} with the cross-check section, and {} chart files (charts/)",
+            w.report.display(),
+            w.charts.len()
+        );
+    }
+    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    Ok(())
+}
+
+fn print_summary(cc: &crosscheck::CrossCheck) {
+    let w = cc
+        .rows
+        .iter()
+        .map(|r| r.product.chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40);
+    let cut = |s: &str| super::pad(&super::truncate(s, w), w);
+    let q = |v: Option<f64>| v.map(provisio::chart::fmt_quantity).unwrap_or("-".into());
+    println!(
+        "{}  {:<12} {:>14} {:>14} {:>7}  flag",
+        cut("product"),
+        "method",
+        "12 months",
+        "consumption",
+        "ratio"
+    );
+    for r in cc.rows.iter().filter(|r| r.method != Method::Consumption) {
+        let c = r.comparison.as_ref();
+        println!(
+            "{}  {:<12} {:>14} {:>14} {:>7}  {}",
+            cut(&r.product),
+            r.method.name(),
+            q(r.quantity),
+            q(r.consumption.map(|c| c.total)),
+            c.and_then(|c| c.ratio)
+                .map(crosscheck::fmt_ratio)
+                .unwrap_or("-".into()),
+            c.map(|c| c.flag.name()).unwrap_or("not computed")
+        );
+    }
+    for r in &cc.rows {
+        if let Some(c) = r
+            .comparison
+            .as_ref()
+            .filter(|c| matches!(c.flag, Flag::Above | Flag::Below))
+        {
+            println!("{}: {}", super::truncate(&r.product, 60), c.explanation);
+        }
+    }
+}

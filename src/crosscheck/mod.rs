@@ -1,0 +1,436 @@
+//! Cross-checking the consumption forecast against what services data and
+//! population data imply.
+//!
+//! Consumption is the best basis for a forecast, but practitioners compare
+//! it with two other estimates of the same year's need:
+//!
+//! - **services**: the number of services (clients treated, tests
+//!   performed) projected with the same backtest–select–project machinery as
+//!   consumption, times the units used per service, plus a stated allowance
+//!   for repeats and losses ([`services`]);
+//! - **population**: morbidity-based (people × incidence or prevalence ×
+//!   share seeking care × share treated × quantity per course, summed over
+//!   target groups) or demographic, for contraceptives (women of
+//!   reproductive age × contraceptive prevalence × method share × public
+//!   sector share × units per user per year, from couple-years-of-protection
+//!   factors) ([`population`], [`cyp`]).
+//!
+//! Every estimate is an annual quantity for one 12-month period (by default
+//! the first 12 projected months) and is compared with the consumption
+//! forecast's total for the same months ([`AnnualConsumption`]). A ratio
+//! beyond the threshold (default ±25%) gets a flag and a plain-words
+//! explanation ([`compare`]). This module computes on plain values; reading
+//! is in [`read`].
+
+pub mod cyp;
+pub mod population;
+pub mod read;
+pub mod services;
+
+use crate::calendar::YearMonth;
+
+/// Default divergence threshold: an estimate more than 25% above or below
+/// the consumption forecast is flagged (common practice).
+pub const DEFAULT_THRESHOLD: f64 = 0.25;
+
+/// Months in the comparison period.
+pub const PERIOD_MONTHS: usize = 12;
+
+/// The method behind an estimate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Method {
+    /// The consumption forecast itself.
+    Consumption,
+    /// Projected services × units per service.
+    Services,
+    /// Population × incidence/prevalence × care seeking × treatment × course.
+    Morbidity,
+    /// Women of reproductive age × prevalence × method share × units per user.
+    Demographic,
+}
+
+impl Method {
+    /// Name as written in files.
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Consumption => "consumption",
+            Method::Services => "services",
+            Method::Morbidity => "morbidity",
+            Method::Demographic => "demographic",
+        }
+    }
+
+    /// Parses a name as written in files.
+    pub fn parse(s: &str) -> Option<Method> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "consumption" => Some(Method::Consumption),
+            "services" => Some(Method::Services),
+            "morbidity" => Some(Method::Morbidity),
+            "demographic" => Some(Method::Demographic),
+            _ => None,
+        }
+    }
+
+    fn is_population(self) -> bool {
+        matches!(self, Method::Morbidity | Method::Demographic)
+    }
+}
+
+/// One projected month of the consumption forecast: point and 80% bounds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ForecastMonth {
+    /// Month.
+    pub month: YearMonth,
+    /// Point forecast.
+    pub point: f64,
+    /// Lower 80% bound.
+    pub lower80: f64,
+    /// Upper 80% bound.
+    pub upper80: f64,
+}
+
+/// The consumption forecast's total over the comparison period, with two
+/// 80% ranges that bracket the true one.
+///
+/// The forecast keeps monthly 80% bounds only. The range of a 12-month
+/// total depends on how the months' errors are correlated, which the
+/// monthly bounds do not say. With a normal approximation, each month's
+/// half-widths (point − lower, upper − point) are 1.2816 standard
+/// deviations on each side; then
+///
+/// - if the months' errors were **independent**, the total's half-width is
+///   the root of the sum of squared monthly half-widths (`narrow`);
+/// - if they were **perfectly correlated** (every month off in the same
+///   direction, by the same number of standard deviations), it is the plain
+///   sum of the half-widths, i.e. the sum of the monthly bounds (`wide`).
+///
+/// Forecast errors of the models used are positively correlated across
+/// months (a level that is off stays off), so the true 80% range of the
+/// total lies between the two: `narrow` is too optimistic, `wide` a
+/// conservative envelope. Both are given; neither is claimed exact.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AnnualConsumption {
+    /// Sum of the monthly point forecasts.
+    pub total: f64,
+    /// 80% range of the total if months were independent (narrowest).
+    pub narrow: (f64, f64),
+    /// Sum of the monthly 80% bounds (widest: months move together).
+    pub wide: (f64, f64),
+}
+
+impl AnnualConsumption {
+    /// Combines monthly forecasts (the months of the period, in order).
+    pub fn from_months(months: &[ForecastMonth]) -> AnnualConsumption {
+        let total: f64 = months.iter().map(|m| m.point).sum();
+        let lo_sq: f64 = months
+            .iter()
+            .map(|m| (m.point - m.lower80).max(0.0).powi(2))
+            .sum();
+        let hi_sq: f64 = months
+            .iter()
+            .map(|m| (m.upper80 - m.point).max(0.0).powi(2))
+            .sum();
+        let wide_lo: f64 = months.iter().map(|m| m.lower80.min(m.point)).sum();
+        let wide_hi: f64 = months.iter().map(|m| m.upper80.max(m.point)).sum();
+        AnnualConsumption {
+            total,
+            narrow: ((total - lo_sq.sqrt()).max(0.0), total + hi_sq.sqrt()),
+            wide: (wide_lo.max(0.0), wide_hi),
+        }
+    }
+}
+
+/// How an estimate compares with the consumption forecast.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Flag {
+    /// Within the threshold of consumption.
+    Agrees,
+    /// More than the threshold above consumption.
+    Above,
+    /// More than the threshold below consumption.
+    Below,
+    /// No consumption forecast to compare with (product not forecast, or a
+    /// zero forecast).
+    NoComparison,
+}
+
+impl Flag {
+    /// Name as written in files.
+    pub fn name(self) -> &'static str {
+        match self {
+            Flag::Agrees => "agrees",
+            Flag::Above => "above",
+            Flag::Below => "below",
+            Flag::NoComparison => "no-comparison",
+        }
+    }
+}
+
+/// The ratio of an estimate to consumption, its flag, and why.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Comparison {
+    /// Estimate ÷ consumption forecast (`None` without a positive forecast).
+    pub ratio: Option<f64>,
+    /// The flag.
+    pub flag: Flag,
+    /// Plain-words explanation.
+    pub explanation: String,
+}
+
+/// Formats a ratio for people: "2.1×", "0.60×".
+pub fn fmt_ratio(r: f64) -> String {
+    if r >= 10.0 {
+        format!("{r:.0}×")
+    } else if r >= 1.0 {
+        format!("{r:.1}×")
+    } else {
+        format!("{r:.2}×")
+    }
+}
+
+/// Compares an estimate by `method` with the consumption forecast.
+///
+/// Flagged when |ratio − 1| > `threshold` (a ratio exactly at the boundary
+/// agrees). `consumption` is `None` for a product with no consumption
+/// forecast. `outside_wide` adds a note when the estimate lies outside even
+/// the wide 80% range of the consumption total.
+pub fn compare(
+    method: Method,
+    estimate: f64,
+    consumption: Option<&AnnualConsumption>,
+    threshold: f64,
+) -> Comparison {
+    let Some(c) = consumption else {
+        return Comparison {
+            ratio: None,
+            flag: Flag::NoComparison,
+            explanation: format!(
+                "no consumption forecast for this product in the forecast directory; the {} estimate stands alone",
+                method.name()
+            ),
+        };
+    };
+    if c.total <= 0.0 || !c.total.is_finite() {
+        return Comparison {
+            ratio: None,
+            flag: Flag::NoComparison,
+            explanation: format!(
+                "the consumption forecast for the period is zero, so no ratio; the {} estimate stands alone",
+                method.name()
+            ),
+        };
+    }
+    let ratio = estimate / c.total;
+    // Rounded to 1e-9 so that 1.25 computed as 125/100 counts as on the boundary.
+    let gap = ((ratio - 1.0) * 1e9).round() / 1e9;
+    let pct = (threshold * 100.0).round();
+    let outside = if estimate > c.wide.1 || estimate < c.wide.0 {
+        "; it lies outside even the wide 80% range of the consumption forecast"
+    } else {
+        "; it lies within the wide 80% range of the consumption forecast, so part of the gap may be forecast uncertainty"
+    };
+    let name = method.name();
+    let r = fmt_ratio(ratio);
+    let (flag, explanation) = if gap > threshold {
+        let why = if method.is_population() {
+            "possible unmet need or under-reporting of consumption; population-based figures are usually an upper bound, so treat it as one, and check the assumptions behind it (population, rates, shares, quantity per course)"
+        } else {
+            "more services are recorded than the quantities consumed would cover: possible under-reporting of consumption, stockouts limiting what was dispensed, or units per service set too high"
+        };
+        (
+            Flag::Above,
+            format!("{name} estimate is {r} consumption: {why}{outside}"),
+        )
+    } else if gap < -threshold {
+        let why = if method.is_population() {
+            "consumption exceeds what the population assumptions imply: possible over-consumption, wastage or leakage, a data error, or assumptions set too low (population, rates, shares, quantity per course)"
+        } else {
+            "more product is reported consumed than the recorded services need: possible wastage or leakage, use outside the recorded services, services under-recorded, or units per service set too low"
+        };
+        (
+            Flag::Below,
+            format!("{name} estimate is {r} consumption: {why}{outside}"),
+        )
+    } else {
+        (
+            Flag::Agrees,
+            format!("{name} estimate is {r} consumption, within ±{pct}%: the two sources agree"),
+        )
+    };
+    Comparison {
+        ratio: Some(ratio),
+        flag,
+        explanation,
+    }
+}
+
+/// One row of the cross-check: a product's annual estimate by one method.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CrossRow {
+    /// Product.
+    pub product: String,
+    /// Method.
+    pub method: Method,
+    /// First month of the comparison period.
+    pub period_start: YearMonth,
+    /// Last month of the comparison period.
+    pub period_end: YearMonth,
+    /// The annual quantity (`None` when it could not be computed; see `basis`).
+    pub quantity: Option<f64>,
+    /// The consumption forecast over the period, when there is one.
+    pub consumption: Option<AnnualConsumption>,
+    /// The comparison (for the consumption row itself: `None`).
+    pub comparison: Option<Comparison>,
+    /// How the quantity was computed, in words, with the numbers used.
+    pub basis: String,
+}
+
+/// Checks the threshold: a share above 0 and below 10.
+pub fn check_threshold(t: f64) -> crate::Result<f64> {
+    if t.is_finite() && t > 0.0 && t < 10.0 {
+        Ok(t)
+    } else {
+        Err(crate::Error::setting(
+            "threshold",
+            format!("must be a share above 0 and below 10 (0.25 = ±25%), got {t}"),
+        ))
+    }
+}
+
+/// Everything the cross-check produced.
+#[derive(Debug, Clone)]
+pub struct CrossCheck {
+    /// First month of the comparison period.
+    pub period_start: YearMonth,
+    /// Rows: per product, the consumption row then one per method.
+    pub rows: Vec<CrossRow>,
+    /// The services per product and month over the period (observed or projected).
+    pub services_months: Vec<(String, YearMonth, f64, &'static str)>,
+    /// Warnings (products in one source only, short forecasts, ...).
+    pub warnings: Vec<String>,
+}
+
+/// Builds the cross-check from the consumption forecast (projected months
+/// per product), the services estimates and the population rows, for the
+/// 12 months from `period_start`.
+pub fn build(
+    forecast: &std::collections::BTreeMap<String, Vec<ForecastMonth>>,
+    period_start: YearMonth,
+    services: &[services::ServicesEstimate],
+    population: &[population::PopulationRow],
+    threshold: f64,
+) -> CrossCheck {
+    use std::collections::BTreeSet;
+    let period_end = period_start.plus(PERIOD_MONTHS as i64 - 1);
+    let pops = population::estimates(population);
+    let mut warnings = Vec::new();
+    let products: BTreeSet<&str> = services
+        .iter()
+        .map(|s| s.product.as_str())
+        .chain(pops.iter().map(|p| p.product.as_str()))
+        .collect();
+    let mut rows = Vec::new();
+    let mut services_months = Vec::new();
+    for product in products {
+        let row = |method: Method,
+                   quantity: Option<f64>,
+                   consumption: Option<AnnualConsumption>,
+                   basis: String| {
+            let comparison = (method != Method::Consumption)
+                .then(|| quantity.map(|q| compare(method, q, consumption.as_ref(), threshold)))
+                .flatten();
+            CrossRow {
+                product: product.to_string(),
+                method,
+                period_start,
+                period_end,
+                quantity,
+                consumption,
+                comparison,
+                basis,
+            }
+        };
+        let consumption = match forecast.get(product) {
+            None => {
+                warnings.push(format!(
+                    "product '{product}' has services or population figures but no consumption forecast (check the spelling against forecast.csv); its estimates are listed without a comparison"
+                ));
+                None
+            }
+            Some(months) => {
+                let inside: Vec<ForecastMonth> = months
+                    .iter()
+                    .copied()
+                    .filter(|m| m.month >= period_start && m.month <= period_end)
+                    .collect();
+                if inside.len() < PERIOD_MONTHS {
+                    warnings.push(format!(
+                        "product '{product}': the consumption forecast covers {} of the 12 months {period_start} to {period_end}; no comparison (forecast with a longer --horizon, or choose another --start)",
+                        inside.len()
+                    ));
+                    None
+                } else {
+                    Some(AnnualConsumption::from_months(&inside))
+                }
+            }
+        };
+        let cbasis = match &consumption {
+            Some(c) => format!(
+                "sum of the 12 monthly forecasts {period_start} to {period_end}; 80% range of the total: {} to {} if the months' errors were independent, {} to {} as the sum of the monthly 80% bounds (months moving together); the true range lies between the two",
+                crate::chart::fmt_quantity(c.narrow.0),
+                crate::chart::fmt_quantity(c.narrow.1),
+                crate::chart::fmt_quantity(c.wide.0),
+                crate::chart::fmt_quantity(c.wide.1)
+            ),
+            None => "no consumption forecast for the whole period".to_string(),
+        };
+        rows.push(row(
+            Method::Consumption,
+            consumption.map(|c| c.total),
+            consumption,
+            cbasis,
+        ));
+        for s in services.iter().filter(|s| s.product == product) {
+            rows.push(row(
+                Method::Services,
+                s.quantity,
+                consumption,
+                s.basis.clone(),
+            ));
+            for (m, v, how) in &s.months {
+                services_months.push((product.to_string(), *m, *v, *how));
+            }
+        }
+        for p in pops.iter().filter(|p| p.product == product) {
+            rows.push(row(
+                p.method,
+                Some(p.quantity),
+                consumption,
+                p.groups.join("; "),
+            ));
+        }
+    }
+    let flagged = rows
+        .iter()
+        .filter(|r| {
+            r.comparison
+                .as_ref()
+                .is_some_and(|c| matches!(c.flag, Flag::Above | Flag::Below))
+        })
+        .count();
+    if flagged > 0 {
+        warnings.push(format!(
+            "{flagged} estimate(s) differ from the consumption forecast by more than ±{}%: see the explanations in crosscheck.csv",
+            (threshold * 100.0).round()
+        ));
+    }
+    CrossCheck {
+        period_start,
+        rows,
+        services_months,
+        warnings,
+    }
+}
+
+#[cfg(test)]
+mod tests;

@@ -1,0 +1,809 @@
+//! Reading the cross-check inputs: the services file, the population file,
+//! a CYP table to override the default, and the consumption forecast from a
+//! `forecast` output directory.
+//!
+//! Header names are case-insensitive (spaces and hyphens count as
+//! underscores), column order is free, the delimiter (comma, semicolon,
+//! tab) is detected from the header, and a UTF-8 byte-order mark is
+//! stripped. Numbers are plain (`1234.5`); shares are a fraction (`0.25`)
+//! or a percentage with a sign (`25%`).
+//!
+//! A bad row of the **services** file is rejected (logged with file, line,
+//! column, value and reason) and the rest used, as for consumption data. A
+//! bad row of the **population** or **CYP** file refuses the whole file:
+//! these are short hand-made tables where a dropped row (one weight band)
+//! would silently change a total.
+
+use std::collections::{BTreeMap, HashMap, HashSet};
+use std::path::Path;
+
+use super::cyp::{CypFactor, CypTable};
+use super::population::PopulationRow;
+use super::services::{ServiceRow, ServicesData};
+use super::{ForecastMonth, Method};
+use crate::calendar::YearMonth;
+use crate::data::{parse_month, parse_number, NumberFormat, RejectedRow};
+use crate::error::{Error, Result};
+use crate::pipeline::ForecastSettings;
+
+/// A small CSV file read whole, columns addressed by normalised name.
+struct Sheet {
+    file: String,
+    columns: HashMap<String, usize>,
+    header: Vec<String>,
+    records: Vec<(u64, csv::StringRecord)>,
+    delimiter: u8,
+    sha256: String,
+}
+
+fn input_error(file: &str, line: u64, column: Option<&str>, message: String) -> Error {
+    Error::Input {
+        file: file.to_string(),
+        line,
+        column: column.map(str::to_string),
+        message,
+    }
+}
+
+impl Sheet {
+    fn read(path: &Path, what: &str) -> Result<Sheet> {
+        let file = path.display().to_string();
+        let bytes = std::fs::read(path).map_err(|source| Error::Io {
+            path: path.to_path_buf(),
+            action: "cannot read",
+            source,
+        })?;
+        let sha256 = crate::output::sha256_hex(&bytes);
+        let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+        if let Err(e) = std::str::from_utf8(body) {
+            let line = 1 + body[..e.valid_up_to()]
+                .iter()
+                .filter(|&&b| b == b'\n')
+                .count() as u64;
+            return Err(input_error(
+                &file,
+                line,
+                None,
+                format!("not UTF-8 text; save the {what} as CSV UTF-8"),
+            ));
+        }
+        let first = body.split(|&b| b == b'\n').next().unwrap_or_default();
+        let delimiter = [b',', b';', b'\t']
+            .into_iter()
+            .max_by_key(|d| first.iter().filter(|&&b| b == *d).count())
+            .unwrap_or(b',');
+        let mut reader = csv::ReaderBuilder::new()
+            .delimiter(delimiter)
+            .flexible(true)
+            .from_reader(body);
+        let header: Vec<String> = reader
+            .headers()
+            .map_err(|e| input_error(&file, 1, None, format!("cannot read the header: {e}")))?
+            .iter()
+            .map(crate::data::normalise_name)
+            .collect();
+        if header.iter().all(|h| h.is_empty()) {
+            return Err(input_error(
+                &file,
+                1,
+                None,
+                format!("the {what} is empty; expected a header line and one row per line"),
+            ));
+        }
+        let mut columns = HashMap::new();
+        for (i, h) in header.iter().enumerate() {
+            if !h.is_empty() && columns.insert(h.clone(), i).is_some() {
+                return Err(input_error(
+                    &file,
+                    1,
+                    Some(h),
+                    "this column appears twice; keep one".into(),
+                ));
+            }
+        }
+        let mut records = Vec::new();
+        for rec in reader.records() {
+            let rec = rec.map_err(|e| {
+                input_error(
+                    &file,
+                    e.position().map(|p| p.line()).unwrap_or(0),
+                    None,
+                    format!("cannot read this CSV row: {e}"),
+                )
+            })?;
+            let line = rec.position().map(|p| p.line()).unwrap_or(0);
+            if rec.iter().all(|f| f.trim().is_empty()) {
+                continue;
+            }
+            records.push((line, rec));
+        }
+        Ok(Sheet {
+            file,
+            columns,
+            header,
+            records,
+            delimiter,
+            sha256,
+        })
+    }
+
+    fn require(&self, names: &[&str], optional: &[&str]) -> Result<()> {
+        let missing: Vec<&str> = names
+            .iter()
+            .copied()
+            .filter(|n| !self.columns.contains_key(*n))
+            .collect();
+        if missing.is_empty() {
+            return Ok(());
+        }
+        Err(input_error(
+            &self.file,
+            1,
+            None,
+            format!(
+                "missing required column{} {}; the header has: {}; required: {} (optional: {})",
+                if missing.len() > 1 { "s" } else { "" },
+                missing
+                    .iter()
+                    .map(|m| format!("'{m}'"))
+                    .collect::<Vec<_>>()
+                    .join(", "),
+                self.header.join(", "),
+                names.join(", "),
+                optional.join(", ")
+            ),
+        ))
+    }
+
+    fn get<'r>(&self, rec: &'r csv::StringRecord, name: &str) -> &'r str {
+        self.columns
+            .get(name)
+            .and_then(|&i| rec.get(i))
+            .unwrap_or("")
+            .trim()
+    }
+
+    fn raw(&self, rec: &csv::StringRecord) -> String {
+        rec.iter()
+            .collect::<Vec<_>>()
+            .join(&char::from(self.delimiter).to_string())
+    }
+}
+
+/// A problem with one value: column, value, reason.
+type Problem = (String, String, String);
+
+fn problem(column: &str, value: &str, reason: String) -> Problem {
+    (column.to_string(), value.to_string(), reason)
+}
+
+/// A non-negative number (empty → `None`).
+fn quantity(
+    sheet: &Sheet,
+    rec: &csv::StringRecord,
+    col: &str,
+) -> std::result::Result<Option<f64>, Problem> {
+    let v = sheet.get(rec, col);
+    let n = parse_number(v, NumberFormat::Plain).map_err(|m| problem(col, v, m))?;
+    match n {
+        Some(x) if x < 0.0 => Err(problem(
+            col,
+            v,
+            format!("{col} {v} is negative; expected 0 or more"),
+        )),
+        Some(x) if x > crate::data::MAX_QUANTITY => Err(problem(
+            col,
+            v,
+            format!("{col} {v} is over 10^15, more than any real figure; check the value"),
+        )),
+        other => Ok(other),
+    }
+}
+
+/// A share: a fraction, or a percentage with `%` (empty → `None`). Shares
+/// above `max` are refused.
+fn share(
+    sheet: &Sheet,
+    rec: &csv::StringRecord,
+    col: &str,
+    max: f64,
+) -> std::result::Result<Option<f64>, Problem> {
+    let v = sheet.get(rec, col);
+    let (num, pct) = match v.strip_suffix('%') {
+        Some(n) => (n.trim(), true),
+        None => (v, false),
+    };
+    let valid = if col == "rate" {
+        format!("a rate from 0 to {max}: episodes per person a year, or a share (0.25 or 25%)")
+    } else if max > 1.0 {
+        format!("a share from 0 to {max} (0.1 or 10%)")
+    } else {
+        "a share from 0 to 1 (0.25 or 25%)".to_string()
+    };
+    let n = parse_number(num, NumberFormat::Plain)
+        .map_err(|_| problem(col, v, format!("'{v}' is not a number; expected {valid}")))?;
+    match n.map(|x| if pct { x / 100.0 } else { x }) {
+        Some(x) if !(0.0..=max).contains(&x) => Err(problem(
+            col,
+            v,
+            format!(
+                "{col} {v} is out of range; expected {valid}{}",
+                if !pct && x > 1.0 && x <= 100.0 {
+                    " (write a percentage with its % sign)"
+                } else {
+                    ""
+                }
+            ),
+        )),
+        other => Ok(other),
+    }
+}
+
+/// The product name of a row; empty is refused.
+fn product<'r>(sheet: &Sheet, rec: &'r csv::StringRecord) -> std::result::Result<&'r str, Problem> {
+    let p = sheet.get(rec, "product");
+    if p.is_empty() {
+        return Err(problem(
+            "product",
+            "",
+            "product is empty; expected a product name as in the forecast".into(),
+        ));
+    }
+    Ok(p)
+}
+
+fn required<T>(v: Option<T>, col: &str, method: &str) -> std::result::Result<T, Problem> {
+    v.ok_or_else(|| {
+        problem(
+            col,
+            "",
+            format!("{col} is required for the {method} method"),
+        )
+    })
+}
+
+/// Columns of the services file.
+pub const SERVICES_COLUMNS: [&str; 4] = ["product", "month", "services", "units_per_service"];
+/// Optional columns of the services file.
+pub const SERVICES_OPTIONAL: [&str; 3] = ["site", "allowance", "reporting_rate"];
+
+/// Reads a services file. Rows with a bad value, or a second row for the
+/// same product, site and month, are rejected with the reason.
+pub fn read_services(path: &Path) -> Result<ServicesData> {
+    let sheet = Sheet::read(path, "services file")?;
+    sheet.require(&SERVICES_COLUMNS, &SERVICES_OPTIONAL)?;
+    let has_site = sheet.columns.contains_key("site");
+    let mut rows = Vec::new();
+    let mut rejected = Vec::new();
+    let mut seen: HashMap<(String, Option<String>, YearMonth), u64> = HashMap::new();
+    for (line, rec) in &sheet.records {
+        let parsed = (|| -> std::result::Result<ServiceRow, Problem> {
+            let product = product(&sheet, rec)?;
+            let m = sheet.get(rec, "month");
+            let month = parse_month(m).map_err(|e| problem("month", m, e))?;
+            let services = quantity(&sheet, rec, "services")?;
+            let ups = quantity(&sheet, rec, "units_per_service")?.ok_or_else(|| {
+                problem("units_per_service", "", "units_per_service is empty; expected the product units used per service (e.g. 1 test kit per test)".into())
+            })?;
+            let allowance = share(&sheet, rec, "allowance", 10.0)?.unwrap_or(0.0);
+            let reporting_rate = share(&sheet, rec, "reporting_rate", 1.0)?;
+            if reporting_rate == Some(0.0) && services.is_some_and(|v| v > 0.0) {
+                return Err(problem(
+                    "reporting_rate",
+                    sheet.get(rec, "reporting_rate"),
+                    "reporting_rate is 0 but services are reported; leave services empty or correct the rate".into(),
+                ));
+            }
+            let site = has_site
+                .then(|| sheet.get(rec, "site").to_string())
+                .filter(|s| !s.is_empty());
+            Ok(ServiceRow {
+                line: *line,
+                product: product.to_string(),
+                site,
+                month,
+                services,
+                units_per_service: ups,
+                allowance,
+                reporting_rate,
+            })
+        })();
+        match parsed {
+            Ok(r) => {
+                let key = (r.product.clone(), r.site.clone(), r.month);
+                if let Some(first) = seen.get(&key) {
+                    rejected.push(RejectedRow {
+                        line: *line,
+                        column: None,
+                        value: String::new(),
+                        reason: format!(
+                            "a second row for product '{}', {}month {} (first on line {first}); give one row per product, site and month",
+                            r.product,
+                            r.site.as_deref().map(|s| format!("site '{s}', ")).unwrap_or_default(),
+                            r.month
+                        ),
+                        raw: sheet.raw(rec),
+                    });
+                } else {
+                    seen.insert(key, *line);
+                    rows.push(r);
+                }
+            }
+            Err((column, value, reason)) => rejected.push(RejectedRow {
+                line: *line,
+                column: Some(column),
+                value,
+                reason,
+                raw: sheet.raw(rec),
+            }),
+        }
+    }
+    if rows.is_empty() {
+        let why = rejected
+            .first()
+            .map(|r| format!("; line {}: {}", r.line, r.reason))
+            .unwrap_or_default();
+        return Err(input_error(
+            &sheet.file,
+            0,
+            None,
+            format!("no usable row of services{why}"),
+        ));
+    }
+    Ok(ServicesData {
+        source: sheet.file.clone(),
+        sha256: sheet.sha256.clone(),
+        rows_read: sheet.records.len(),
+        rows,
+        rejected,
+        has_site,
+        has_reporting_rate: sheet.columns.contains_key("reporting_rate"),
+    })
+}
+
+/// Required columns of the population file.
+pub const POPULATION_COLUMNS: [&str; 4] = ["product", "method", "population", "rate"];
+/// Optional columns of the population file (some required per method).
+pub const POPULATION_OPTIONAL: [&str; 10] = [
+    "group",
+    "group_share",
+    "care_seeking",
+    "treated",
+    "quantity_per_course",
+    "method_share",
+    "public_share",
+    "cyp_method",
+    "units_per_user_year",
+    "loss_allowance",
+];
+
+/// Reads the population file; the demographic rows' units per user per
+/// year come from `cyp` unless given. Any bad value refuses the file.
+pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow>, String)> {
+    let sheet = Sheet::read(path, "population file")?;
+    sheet.require(&POPULATION_COLUMNS, &POPULATION_OPTIONAL)?;
+    let mut rows = Vec::new();
+    let mut groups: HashSet<(String, Method, String)> = HashSet::new();
+    for (line, rec) in &sheet.records {
+        let parsed = (|| -> std::result::Result<PopulationRow, Problem> {
+            let product = product(&sheet, rec)?;
+            let m = sheet.get(rec, "method");
+            let method = match Method::parse(m) {
+                Some(x @ (Method::Morbidity | Method::Demographic)) => x,
+                _ => {
+                    return Err(problem(
+                        "method",
+                        m,
+                        format!("method '{m}' is not known; expected morbidity or demographic"),
+                    ))
+                }
+            };
+            let name = method.name();
+            let population = required(quantity(&sheet, rec, "population")?, "population", name)?;
+            let rate = required(share(&sheet, rec, "rate", 10.0)?, "rate", name)?;
+            let loss_allowance = share(&sheet, rec, "loss_allowance", 10.0)?.unwrap_or(0.0);
+            let mut row = PopulationRow {
+                line: *line,
+                product: product.to_string(),
+                group: sheet.get(rec, "group").to_string(),
+                method,
+                population,
+                group_share: 1.0,
+                rate,
+                care_seeking: 0.0,
+                treated: 0.0,
+                quantity_per_course: 0.0,
+                method_share: 0.0,
+                public_share: 1.0,
+                units_per_user_year: 0.0,
+                units_basis: String::new(),
+                loss_allowance,
+            };
+            if method == Method::Morbidity {
+                row.group_share = share(&sheet, rec, "group_share", 1.0)?.unwrap_or(1.0);
+                row.care_seeking = required(
+                    share(&sheet, rec, "care_seeking", 1.0)?,
+                    "care_seeking",
+                    name,
+                )?;
+                row.treated = required(share(&sheet, rec, "treated", 1.0)?, "treated", name)?;
+                row.quantity_per_course = required(
+                    quantity(&sheet, rec, "quantity_per_course")?,
+                    "quantity_per_course",
+                    name,
+                )?;
+            } else {
+                if rate > 1.0 {
+                    return Err(problem("rate", sheet.get(rec, "rate"), "the contraceptive prevalence of the demographic method is a share from 0 to 1".into()));
+                }
+                row.method_share = required(
+                    share(&sheet, rec, "method_share", 1.0)?,
+                    "method_share",
+                    name,
+                )?;
+                row.public_share = share(&sheet, rec, "public_share", 1.0)?.unwrap_or(1.0);
+                let given = quantity(&sheet, rec, "units_per_user_year")?;
+                let key = sheet.get(rec, "cyp_method");
+                match (given, key.is_empty()) {
+                    (Some(u), true) => {
+                        row.units_per_user_year = u;
+                        row.units_basis = "given in the file".into();
+                    }
+                    (Some(_), false) => {
+                        return Err(problem(
+                            "units_per_user_year",
+                            sheet.get(rec, "units_per_user_year"),
+                            "give either units_per_user_year or cyp_method, not both".into(),
+                        ))
+                    }
+                    (None, _) => {
+                        let f = cyp.get(key).ok_or_else(|| {
+                            problem(
+                                "cyp_method",
+                                key,
+                                format!(
+                                    "{}; expected one of: {} (or give units_per_user_year)",
+                                    if key.is_empty() {
+                                        "cyp_method is empty".to_string()
+                                    } else {
+                                        format!("'{key}' is not in the CYP table")
+                                    },
+                                    cyp.keys()
+                                ),
+                            )
+                        })?;
+                        row.units_per_user_year = f.units_per_user_year();
+                        row.units_basis = format!(
+                            "1 / {} CYP per {}, {}",
+                            crate::output::fmt_num(f.cyp_per_unit),
+                            f.unit,
+                            f.source
+                        );
+                    }
+                }
+            }
+            Ok(row)
+        })();
+        let row = parsed.map_err(|(column, _value, reason)| {
+            input_error(&sheet.file, *line, Some(&column), reason)
+        })?;
+        if !groups.insert((row.product.clone(), row.method, row.group.clone())) {
+            return Err(input_error(
+                &sheet.file,
+                *line,
+                Some("group"),
+                format!(
+                    "a second {} row for product '{}' and group '{}'; give each target group once (name groups apart in the group column)",
+                    row.method.name(),
+                    row.product,
+                    row.group
+                ),
+            ));
+        }
+        rows.push(row);
+    }
+    if rows.is_empty() {
+        return Err(input_error(
+            &sheet.file,
+            0,
+            None,
+            "no row; expected one row per product and target group".into(),
+        ));
+    }
+    Ok((rows, sheet.sha256))
+}
+
+/// Reads a CYP table (`method`, `cyp_per_unit` or `units_per_cyp`, and
+/// optional `unit`, `source`). Any bad value refuses the file.
+pub fn read_cyp(path: &Path) -> Result<Vec<CypFactor>> {
+    let sheet = Sheet::read(path, "CYP table")?;
+    sheet.require(
+        &["method"],
+        &["cyp_per_unit", "units_per_cyp", "unit", "source"],
+    )?;
+    let has = |c: &str| sheet.columns.contains_key(c);
+    if !has("cyp_per_unit") && !has("units_per_cyp") {
+        return Err(input_error(
+            &sheet.file,
+            1,
+            None,
+            "expected a column cyp_per_unit (e.g. 2.5 for a 3-year implant) or units_per_cyp (e.g. 120 for condoms)".into(),
+        ));
+    }
+    let mut out: Vec<CypFactor> = Vec::new();
+    for (line, rec) in &sheet.records {
+        let err = |col: &str, m: String| input_error(&sheet.file, *line, Some(col), m);
+        let method = sheet.get(rec, "method").to_ascii_lowercase();
+        if method.is_empty() {
+            return Err(err(
+                "method",
+                "method is empty; expected a method key such as condom".into(),
+            ));
+        }
+        let num = |col: &str| -> Result<Option<f64>> {
+            let v = sheet.get(rec, col);
+            let n = parse_number(v, NumberFormat::Plain).map_err(|m| err(col, m))?;
+            match n {
+                Some(x) if x <= 0.0 => Err(err(col, format!("{v} must be above 0"))),
+                o => Ok(o),
+            }
+        };
+        let cyp = match (num("cyp_per_unit")?, num("units_per_cyp")?) {
+            (Some(c), None) => c,
+            (None, Some(u)) => 1.0 / u,
+            (Some(_), Some(_)) => {
+                return Err(err(
+                    "units_per_cyp",
+                    "give cyp_per_unit or units_per_cyp, not both".into(),
+                ))
+            }
+            (None, None) => {
+                return Err(err(
+                    "cyp_per_unit",
+                    "empty; give cyp_per_unit or units_per_cyp".into(),
+                ))
+            }
+        };
+        if out.iter().any(|f| f.method == method) {
+            return Err(err(
+                "method",
+                format!("'{method}' appears twice; give each method once"),
+            ));
+        }
+        let source = sheet.get(rec, "source");
+        out.push(CypFactor {
+            method,
+            cyp_per_unit: cyp,
+            unit: match sheet.get(rec, "unit") {
+                "" => "unit".to_string(),
+                u => u.to_string(),
+            },
+            source: if source.is_empty() {
+                sheet.file.clone()
+            } else {
+                source.to_string()
+            },
+        });
+    }
+    Ok(out)
+}
+
+/// The consumption forecast read from a `forecast` output directory.
+#[derive(Debug, Clone)]
+pub struct ForecastInput {
+    /// Projected months per product, in month order.
+    pub products: BTreeMap<String, Vec<ForecastMonth>>,
+    /// The run's forecast settings (defaults when the manifest lacks them).
+    pub settings: ForecastSettings,
+    /// The run's cleaning settings (defaults when the manifest lacks them).
+    pub clean_settings: crate::clean::CleanSettings,
+    /// The run's manifest.
+    pub manifest: serde_json::Value,
+    /// First projected month over all products.
+    pub first_month: YearMonth,
+    /// Problems met.
+    pub warnings: Vec<String>,
+}
+
+/// Reads `forecast.csv` and `manifest.json` from a forecast output directory.
+pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
+    if !dir.is_dir() {
+        return Err(input_error(
+            &dir.display().to_string(),
+            0,
+            None,
+            "not a directory; give the output directory of `provisio forecast`".into(),
+        ));
+    }
+    let mpath = dir.join("manifest.json");
+    let mtext = std::fs::read_to_string(&mpath).map_err(|source| Error::Io {
+        path: mpath.clone(),
+        action: "cannot read (give the output directory of `provisio forecast`)",
+        source,
+    })?;
+    let manifest: serde_json::Value = serde_json::from_str(&mtext).map_err(|e| {
+        input_error(
+            &mpath.display().to_string(),
+            e.line() as u64,
+            None,
+            format!("not valid JSON: {e}"),
+        )
+    })?;
+    let mut warnings = Vec::new();
+    let settings = match manifest.get("forecast_settings") {
+        Some(v) => serde_json::from_value(v.clone()).map_err(|e| {
+            input_error(
+                &mpath.display().to_string(),
+                0,
+                Some("forecast_settings"),
+                format!("cannot read the forecast settings: {e}"),
+            )
+        })?,
+        None => {
+            warnings.push(format!(
+                "{}: no forecast settings (not written by `forecast`?); services are projected with the default settings",
+                mpath.display()
+            ));
+            ForecastSettings::default()
+        }
+    };
+    let clean_settings = match manifest.get("clean_settings") {
+        Some(v) => serde_json::from_value(v.clone()).map_err(|e| {
+            input_error(
+                &mpath.display().to_string(),
+                0,
+                Some("clean_settings"),
+                format!("cannot read the cleaning settings: {e}"),
+            )
+        })?,
+        None => {
+            warnings.push(format!(
+                "{}: no cleaning settings; services are cleaned with the default settings",
+                mpath.display()
+            ));
+            crate::clean::CleanSettings::default()
+        }
+    };
+    let fpath = dir.join("forecast.csv");
+    if !fpath.exists() {
+        return Err(input_error(
+            &fpath.display().to_string(),
+            0,
+            None,
+            "file not found; give the output directory of `provisio forecast`".into(),
+        ));
+    }
+    let sheet = Sheet::read(&fpath, "forecast file")?;
+    sheet.require(
+        &["product", "month", "forecast", "lower_80", "upper_80"],
+        &[],
+    )?;
+    let mut products: BTreeMap<String, Vec<ForecastMonth>> = BTreeMap::new();
+    for (line, rec) in &sheet.records {
+        let err = |col: &str, m: String| input_error(&sheet.file, *line, Some(col), m);
+        let num = |col: &str| -> Result<f64> {
+            let v = sheet.get(rec, col);
+            v.parse::<f64>()
+                .ok()
+                .filter(|x| x.is_finite())
+                .ok_or_else(|| err(col, format!("'{v}' is not a number")))
+        };
+        let m = sheet.get(rec, "month");
+        let month = YearMonth::parse(m).map_err(|e| err("month", format!("'{m}': {e}")))?;
+        products
+            .entry(sheet.get(rec, "product").to_string())
+            .or_default()
+            .push(ForecastMonth {
+                month,
+                point: num("forecast")?,
+                lower80: num("lower_80")?,
+                upper80: num("upper_80")?,
+            });
+    }
+    for v in products.values_mut() {
+        v.sort_by_key(|m| m.month);
+    }
+    let first_month = products
+        .values()
+        .filter_map(|v| v.first().map(|m| m.month))
+        .min()
+        .ok_or_else(|| {
+            input_error(
+                &sheet.file,
+                0,
+                None,
+                "no projected month; the forecast run projected nothing".into(),
+            )
+        })?;
+    Ok(ForecastInput {
+        products,
+        settings,
+        clean_settings,
+        manifest,
+        first_month,
+        warnings,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn population(text: &str) -> Result<Vec<PopulationRow>> {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("pop.csv");
+        std::fs::write(&path, text).unwrap();
+        read_population(&path, &super::super::cyp::usaid_2021()).map(|r| r.0)
+    }
+
+    #[test]
+    fn population_reads_percentages_semicolons_and_names_problems() {
+        let rows = population(
+            "\u{feff}Product;Method;Population;Rate;Care Seeking;Treated;Quantity-per-course;Loss allowance\n\
+             ORS;morbidity;1000;50%;0.8;90%;2;5%\n",
+        )
+        .unwrap();
+        assert_eq!(rows.len(), 1);
+        assert_eq!(rows[0].rate, 0.5);
+        assert_eq!(rows[0].treated, 0.9);
+        assert_eq!(rows[0].loss_allowance, 0.05);
+        // 1000 × 0.5 × 0.8 × 0.9 × 2 × 1.05 (common-practice arithmetic).
+        assert!((rows[0].quantity() - 756.0).abs() < 1e-9);
+        let e = population("product,method,population,rate\nORS,morbidity,1000,0.5\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains(
+                ":2: column 'care_seeking': care_seeking is required for the morbidity method"
+            ),
+            "{e}"
+        );
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,1000,0.5,1,1,1\nORS,morbidity,1000,0.5,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains(":3: column 'group': a second morbidity row"),
+            "{e}"
+        );
+        let e = population("product,method,population,rate\nORS,stock,1000,0.5\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("expected morbidity or demographic"), "{e}");
+        let e = population("product,method,population,rate,method_share,cyp_method,units_per_user_year\nC,demographic,1000,0.3,0.5,condom,100\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("not both"), "{e}");
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,1000,12,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("a rate from 0 to 10"), "{e}");
+        let e = population("product,method,population,rate,care_seeking,treated,quantity_per_course\nORS,morbidity,-5,0.1,1,1,1\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("column 'population'") && e.contains("negative"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn cyp_file_needs_one_factor_per_method() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("cyp.csv");
+        std::fs::write(&path, "method,cyp_per_unit\nring,0.1\nring,0.2\n").unwrap();
+        let e = read_cyp(&path).unwrap_err().to_string();
+        assert!(
+            e.contains(":3: column 'method': 'ring' appears twice"),
+            "{e}"
+        );
+        std::fs::write(&path, "method,units_per_cyp\npatch,0\n").unwrap();
+        assert!(read_cyp(&path)
+            .unwrap_err()
+            .to_string()
+            .contains("must be above 0"));
+        std::fs::write(&path, "method,units_per_cyp\nPatch,13\n").unwrap();
+        let f = read_cyp(&path).unwrap();
+        assert_eq!(f[0].method, "patch");
+        assert!((f[0].units_per_user_year() - 13.0).abs() < 1e-12);
+    }
+}
