@@ -24,6 +24,7 @@ pub mod backtest;
 pub mod calendar;
 pub mod chart;
 pub mod clean;
+pub mod config;
 pub mod data;
 pub mod error;
 pub mod generate;

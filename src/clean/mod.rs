@@ -9,7 +9,7 @@ pub mod stockout;
 
 pub use log::{Adjustment, Rule};
 
-use std::collections::HashSet;
+use std::collections::{BTreeMap, HashSet};
 
 use rayon::prelude::*;
 
@@ -29,6 +29,7 @@ use impute::{impute, usable_profile};
 /// | `site_trailing_fill` | 3 | 0–24: months a site may be filled after its last report |
 /// | `outlier_threshold` | 3.5 | > 0: modified z-score above which a month is flagged |
 /// | `replace_outliers` | false | replace flagged months by the robust expected value |
+/// | `stockout_days_by_product` | none | 0–31 per product: its own `max_stockout_days` |
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct CleanSettings {
     /// Stockout days above which a month is treated as missing.
@@ -43,6 +44,10 @@ pub struct CleanSettings {
     pub outlier_threshold: f64,
     /// Replace flagged outliers (otherwise only flag them).
     pub replace_outliers: bool,
+    /// Products with their own stockout threshold (days), replacing
+    /// `max_stockout_days` for that product.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub stockout_days_by_product: BTreeMap<String, f64>,
 }
 
 impl Default for CleanSettings {
@@ -54,6 +59,7 @@ impl Default for CleanSettings {
             site_trailing_fill: 3,
             outlier_threshold: outliers::DEFAULT_THRESHOLD,
             replace_outliers: false,
+            stockout_days_by_product: BTreeMap::new(),
         }
     }
 }
@@ -70,6 +76,19 @@ impl CheckedCleanSettings {
 }
 
 impl CleanSettings {
+    /// A copy without the per-product thresholds (cheap to make per product).
+    fn clone_without_products(&self) -> CleanSettings {
+        CleanSettings {
+            max_stockout_days: self.max_stockout_days,
+            reporting_floor: self.reporting_floor,
+            nonreporting_weight: self.nonreporting_weight,
+            site_trailing_fill: self.site_trailing_fill,
+            outlier_threshold: self.outlier_threshold,
+            replace_outliers: self.replace_outliers,
+            stockout_days_by_product: BTreeMap::new(),
+        }
+    }
+
     /// Validates every setting; the error names the bad value.
     pub fn check(self) -> Result<CheckedCleanSettings> {
         let s = &self;
@@ -105,6 +124,14 @@ impl CleanSettings {
                 "outlier-threshold",
                 format!("must be a positive number, got {}", s.outlier_threshold),
             ));
+        }
+        for (product, &d) in &s.stockout_days_by_product {
+            if !(0.0..=31.0).contains(&d) {
+                return Err(Error::setting(
+                    "max-stockout-days",
+                    format!("of product '{product}' must be between 0 and 31, got {d}"),
+                ));
+            }
         }
         Ok(CheckedCleanSettings(self))
     }
@@ -354,6 +381,18 @@ fn fmt_q(v: f64) -> String {
 }
 
 fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
+    // A product's own stockout threshold replaces the run's.
+    let own;
+    let s = match s.stockout_days_by_product.get(&p.product) {
+        Some(&d) => {
+            own = CleanSettings {
+                max_stockout_days: d,
+                ..s.clone_without_products()
+            };
+            &own
+        }
+        None => s,
+    };
     let mut log = Vec::new();
     let mut warnings = Vec::new();
     let n = p.len();

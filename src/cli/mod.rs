@@ -174,6 +174,7 @@ impl CleanArgs {
             site_trailing_fill: self.site_trailing_fill,
             outlier_threshold: self.outlier_threshold,
             replace_outliers: self.replace_outliers,
+            stockout_days_by_product: Default::default(),
         }
     }
 }
