@@ -46,7 +46,7 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
     output::write_clean_manifest(&a.out.join("manifest.json"), &manifest)?;
     print_accounting(&ds, &cleaned, 10);
     let months: usize = cleaned.series.iter().map(|s| s.len()).sum();
-    println!(
+    super::say!(
         "cleaned {} product(s), {} product-months{}",
         cleaned.series.len(),
         months,
@@ -57,9 +57,9 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
         }
     );
     for (rule, n) in &by_rule {
-        println!("  {rule:<18} {n}");
+        super::say!("  {rule:<18} {n}");
     }
-    println!(
+    super::say!(
         "wrote cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         a.out.display()
     );

@@ -37,7 +37,7 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
     };
     let rows = provisio::generate::generate(&sc);
     provisio::output::write_atomic(&a.out, |w| provisio::generate::write_rows(w, &rows))?;
-    eprintln!(
+    super::note!(
         "wrote {} rows ({} products x {} sites x {} months, invented data) to {}",
         rows.len(),
         sc.products.len(),

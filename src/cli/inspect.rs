@@ -31,7 +31,7 @@ pub fn run(a: InspectArgs) -> anyhow::Result<()> {
         .max()
         .unwrap_or(7)
         .clamp(7, 40);
-    println!(
+    super::say!(
         "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>5} {:>8}  verdict",
         pad("product", name_w),
         "sites",
@@ -48,7 +48,7 @@ pub fn run(a: InspectArgs) -> anyhow::Result<()> {
             (Some(m), Some(lo)) => format!("{:.0}/{:.0}%", m * 100.0, lo * 100.0),
             _ => "-".to_string(),
         };
-        println!(
+        super::say!(
             "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>4.0}% {:>8}  {}",
             pad(&truncate(&p.product, name_w), name_w),
             p.sites,
@@ -62,19 +62,19 @@ pub fn run(a: InspectArgs) -> anyhow::Result<()> {
             p.verdict.name()
         );
     }
-    println!();
+    super::say!();
     for p in &profiles {
-        println!("{}: {}", truncate(&p.product, 60), p.verdict_text());
+        super::say!("{}: {}", truncate(&p.product, 60), p.verdict_text());
     }
-    println!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
+    super::say!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
     print_accounting(&ds, &cleaned, 20);
     if let Some(path) = &a.csv {
         provisio::output::write_quality(path, &profiles)?;
-        eprintln!("wrote {}", path.display());
+        super::note!("wrote {}", path.display());
     }
     if let Some(path) = &a.rejected {
         provisio::output::write_rejected(path, &ds.source, &ds.rejected)?;
-        eprintln!("wrote {}", path.display());
+        super::note!("wrote {}", path.display());
     }
     Ok(())
 }

@@ -13,7 +13,7 @@ pub struct ReportArgs {
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     let w = provisio::report::write_report(&a.dir)?;
-    println!(
+    super::say!(
         "wrote {} and {} chart files ({} products) in {}",
         w.report.display(),
         w.charts.len(),

@@ -6,8 +6,8 @@ mod review;
 mod tables;
 
 pub use forecast::{
-    write_backtest, write_forecast, write_json, write_scores, write_scores_by_horizon,
-    write_selection, FORECAST_FORMAT_VERSION,
+    write_backtest, write_forecast, write_forecast_units, write_json, write_scores,
+    write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
 };
 
 pub use review::{review_json, write_review, write_review_months};
