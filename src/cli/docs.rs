@@ -47,7 +47,11 @@ pub fn man(a: ManArgs) -> anyhow::Result<()> {
         provisio::output::write_atomic(&path, |w| clap_mangen::Man::new(page).render(w))?;
         written.push(path.display().to_string());
     }
-    super::note!("wrote {} manual pages in {}", written.len(), a.out.display());
+    super::note!(
+        "wrote {} manual pages in {}",
+        written.len(),
+        a.out.display()
+    );
     super::json_summary(|| serde_json::json!({ "command": "man", "files": written }));
     Ok(())
 }

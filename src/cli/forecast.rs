@@ -7,13 +7,15 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 
-use super::{enum_value, load_until, note, print_accounting, say, warn, CleanArgs, Given, ReadArgs};
-use provisio::config::RunConfig;
-use provisio::pipeline::ProductOptions;
+use super::{
+    enum_value, load_until, note, print_accounting, say, warn, CleanArgs, Given, ReadArgs,
+};
 use provisio::backtest::BacktestSettings;
 use provisio::calendar::YearMonth;
+use provisio::config::RunConfig;
 use provisio::metrics::Score;
 use provisio::output;
+use provisio::pipeline::ProductOptions;
 use provisio::pipeline::{forecast_all_with, ForecastSettings, ProductForecast};
 use provisio::select::SelectSettings;
 
@@ -255,9 +257,15 @@ pub fn check_config_names() {
             .map(|p| p.get_name().to_string())
             .collect()
     };
-    let scores = ScoreArg::value_variants().iter().map(|x| x.to_possible_value()).collect();
+    let scores = ScoreArg::value_variants()
+        .iter()
+        .map(|x| x.to_possible_value())
+        .collect();
     assert_eq!(names(scores), provisio::config::SCORES);
-    let details = DetailArg::value_variants().iter().map(|x| x.to_possible_value()).collect();
+    let details = DetailArg::value_variants()
+        .iter()
+        .map(|x| x.to_possible_value())
+        .collect();
     assert_eq!(names(details), provisio::config::DETAILS);
 }
 
@@ -522,7 +530,9 @@ fn apply_forecast_config(
         a.data = Some(c.resolve(v));
     }
     if let (Some(v), false) = (&cfg.input.until, given.cli("until")) {
-        a.until = Some(YearMonth::parse(v).map_err(|e| anyhow::anyhow!("{}: until: {e}", c.path.display()))?);
+        a.until = Some(
+            YearMonth::parse(v).map_err(|e| anyhow::anyhow!("{}: until: {e}", c.path.display()))?,
+        );
     }
     if let (Some(v), false) = (cfg.projection.horizon, given.cli("horizon")) {
         a.horizon = v;
@@ -574,12 +584,20 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         settings(&a.eval, a.horizon).check()?;
         let text = cfg.to_toml();
         output::write_atomic(path, |w| w.write_all(text.as_bytes()))?;
-        note!("wrote the configuration to {}; run it with `provisio forecast --config {}`", path.display(), path.display());
-        super::json_summary(|| serde_json::json!({ "command": "forecast", "config_written": path.display().to_string() }));
+        note!(
+            "wrote the configuration to {}; run it with `provisio forecast --config {}`",
+            path.display(),
+            path.display()
+        );
+        super::json_summary(
+            || serde_json::json!({ "command": "forecast", "config_written": path.display().to_string() }),
+        );
         return Ok(());
     }
     let data = a.data.clone().ok_or_else(|| {
-        anyhow::anyhow!("no input file: give DATA, or set data in the [input] section of a --config file")
+        anyhow::anyhow!(
+            "no input file: give DATA, or set data in the [input] section of a --config file"
+        )
     })?;
     let out_path = a.out.clone().ok_or_else(|| {
         anyhow::anyhow!("no output folder: give --out DIR, or set out in the [output] section of a --config file")
@@ -920,7 +938,13 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     );
     say!(
         "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
-        "method", "products", "mean MAPE", "median MAPE", "mean MASE", "WAPE", "bias"
+        "method",
+        "products",
+        "mean MAPE",
+        "median MAPE",
+        "mean MASE",
+        "WAPE",
+        "bias"
     );
     let mut rows = vec![&selected];
     rows.extend(all.iter().copied());

@@ -91,12 +91,17 @@ pub(crate) use {note, say};
 /// Whether to colour a stream: only a terminal, and never when `NO_COLOR`
 /// is set to anything non-empty (no-color.org).
 fn colour_allowed(is_terminal: bool, no_color: Option<std::ffi::OsString>) -> bool {
-    is_terminal && no_color.is_none_or(|v| v.is_empty())
+    is_terminal && no_color.map_or(true, |v| v.is_empty())
 }
 
 fn stderr_colour() -> bool {
     static C: OnceLock<bool> = OnceLock::new();
-    *C.get_or_init(|| colour_allowed(std::io::stderr().is_terminal(), std::env::var_os("NO_COLOR")))
+    *C.get_or_init(|| {
+        colour_allowed(
+            std::io::stderr().is_terminal(),
+            std::env::var_os("NO_COLOR"),
+        )
+    })
 }
 
 /// A message prefix such as `warning:`, bold and coloured when allowed
@@ -163,9 +168,7 @@ enum Command {
     )]
     Completions(docs::CompletionsArgs),
     /// Write the manual pages (provisio.1 and one per command) to a folder.
-    #[command(
-        after_help = "Example:\n  provisio man --out man/ && man man/provisio-forecast.1"
-    )]
+    #[command(after_help = "Example:\n  provisio man --out man/ && man man/provisio-forecast.1")]
     Man(docs::ManArgs),
 }
 
@@ -217,7 +220,11 @@ enum Duplicates {
 impl ReadArgs {
     /// Takes the `[input]` values of the configuration for options not
     /// given on the command line.
-    fn apply_config(&mut self, c: &provisio::config::InputSection, given: &Given) -> anyhow::Result<()> {
+    fn apply_config(
+        &mut self,
+        c: &provisio::config::InputSection,
+        given: &Given,
+    ) -> anyhow::Result<()> {
         if let (Some(v), false) = (&c.duplicates, given.cli("duplicates")) {
             self.duplicates = enum_value(v)?;
         }
@@ -305,12 +312,36 @@ impl CleanArgs {
                 *field = v;
             }
         }
-        set(&mut self.max_stockout_days, c.max_stockout_days, given.cli("max_stockout_days"));
-        set(&mut self.reporting_floor, c.reporting_floor, given.cli("reporting_floor"));
-        set(&mut self.nonreporting_weight, c.nonreporting_weight, given.cli("nonreporting_weight"));
-        set(&mut self.site_trailing_fill, c.site_trailing_fill, given.cli("site_trailing_fill"));
-        set(&mut self.outlier_threshold, c.outlier_threshold, given.cli("outlier_threshold"));
-        set(&mut self.replace_outliers, c.replace_outliers, given.cli("replace_outliers"));
+        set(
+            &mut self.max_stockout_days,
+            c.max_stockout_days,
+            given.cli("max_stockout_days"),
+        );
+        set(
+            &mut self.reporting_floor,
+            c.reporting_floor,
+            given.cli("reporting_floor"),
+        );
+        set(
+            &mut self.nonreporting_weight,
+            c.nonreporting_weight,
+            given.cli("nonreporting_weight"),
+        );
+        set(
+            &mut self.site_trailing_fill,
+            c.site_trailing_fill,
+            given.cli("site_trailing_fill"),
+        );
+        set(
+            &mut self.outlier_threshold,
+            c.outlier_threshold,
+            given.cli("outlier_threshold"),
+        );
+        set(
+            &mut self.replace_outliers,
+            c.replace_outliers,
+            given.cli("replace_outliers"),
+        );
     }
 
     /// Takes each product's own stockout threshold from the configuration.
@@ -362,7 +393,10 @@ pub fn run() -> i32 {
         quiet: cli.quiet,
         json: cli.json,
     });
-    let sub = matches.subcommand().map(|(_, m)| m.clone()).unwrap_or_default();
+    let sub = matches
+        .subcommand()
+        .map(|(_, m)| m.clone())
+        .unwrap_or_default();
     let given = Given(&sub);
     let result = match cli.command {
         Command::Forecast(a) => forecast::run_forecast(a, &given),
@@ -553,22 +587,33 @@ mod tests {
         let names = |v: &[clap::builder::PossibleValue]| -> Vec<String> {
             v.iter().map(|p| p.get_name().to_string()).collect()
         };
-        let pv = |all: &[Numbers]| all.iter().filter_map(|x| x.to_possible_value()).collect::<Vec<_>>();
+        let pv = |all: &[Numbers]| {
+            all.iter()
+                .filter_map(|x| x.to_possible_value())
+                .collect::<Vec<_>>()
+        };
         assert_eq!(names(&pv(Numbers::value_variants())), c::NUMBERS);
-        let e: Vec<_> = Encoding::value_variants().iter().filter_map(|x| x.to_possible_value()).collect();
+        let e: Vec<_> = Encoding::value_variants()
+            .iter()
+            .filter_map(|x| x.to_possible_value())
+            .collect();
         assert_eq!(names(&e), c::ENCODINGS);
-        let d: Vec<_> = Duplicates::value_variants().iter().filter_map(|x| x.to_possible_value()).collect();
+        let d: Vec<_> = Duplicates::value_variants()
+            .iter()
+            .filter_map(|x| x.to_possible_value())
+            .collect();
         assert_eq!(names(&d), c::DUPLICATES);
         forecast::check_config_names();
         // Every run key is an option of `forecast` (same name, `-` for `_`).
         let cmd = Cli::command();
         let fc = cmd.find_subcommand("forecast").unwrap();
         for k in c::KEYS {
-            let id = match k.key {
-                "data" => "data",
-                other => other,
-            };
-            assert!(fc.get_arguments().any(|a| a.get_id() == id), "forecast has no option for {}", k.key);
+            let id = k.key;
+            assert!(
+                fc.get_arguments().any(|a| a.get_id() == id),
+                "forecast has no option for {}",
+                k.key
+            );
         }
     }
 
@@ -576,10 +621,21 @@ mod tests {
     fn every_command_has_examples_in_its_help() {
         let mut cmd = Cli::command();
         cmd.build();
-        for sub in cmd.get_subcommands() {
-            let help = sub.get_after_help().map(|h| h.to_string()).unwrap_or_default();
-            assert!(help.starts_with("Example"), "{} has no examples", sub.get_name());
-            assert!(help.contains(&format!("provisio {}", sub.get_name())) || sub.get_name() == "help", "{}", sub.get_name());
+        for sub in cmd.get_subcommands().filter(|s| s.get_name() != "help") {
+            let help = sub
+                .get_after_help()
+                .map(|h| h.to_string())
+                .unwrap_or_default();
+            assert!(
+                help.starts_with("Example"),
+                "{} has no examples",
+                sub.get_name()
+            );
+            assert!(
+                help.contains(&format!("provisio {}", sub.get_name())),
+                "{}",
+                sub.get_name()
+            );
         }
     }
 }

@@ -45,7 +45,9 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
     for r in &rows {
         super::say!(
             "{:<name_w$}  {:<needs_w$}  {}",
-            r.name, r.needs, r.description
+            r.name,
+            r.needs,
+            r.description
         );
     }
     super::note!("{} candidate models", rows.len());

@@ -44,8 +44,17 @@ pub fn write_forecast_units(
     write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
         c.write_record([
-            "product", "month", "model", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
-            "units", "pack_size", "packs",
+            "product",
+            "month",
+            "model",
+            "forecast",
+            "lower_80",
+            "upper_80",
+            "lower_95",
+            "upper_95",
+            "units",
+            "pack_size",
+            "packs",
         ])
         .map_err(io_err)?;
         for r in results {
@@ -60,10 +69,7 @@ pub fn write_forecast_units(
                     i.map(|i| fmt_num(if lower { i.lower[k] } else { i.upper[k] }))
                         .unwrap_or_default()
                 };
-                let packs = u
-                    .pack_size
-                    .map(|s| fmt_num(v / s))
-                    .unwrap_or_default();
+                let packs = u.pack_size.map(|s| fmt_num(v / s)).unwrap_or_default();
                 c.write_record([
                     r.product.as_str(),
                     &p.start.plus(k as i64).to_string(),
