@@ -246,6 +246,15 @@ pub struct RunConfig {
     pub products: BTreeMap<String, ProductConfig>,
 }
 
+/// Serde's Rust type names in plain words.
+fn plain_types(message: &str) -> String {
+    message
+        .replace("expected f64", "expected a number such as 15 or 0.5")
+        .replace("expected usize", "expected a whole number (0 or more)")
+        .replace("expected u32", "expected a whole number (0 or more)")
+        .replace("expected a boolean", "expected true or false")
+}
+
 /// Line and column (1-based, in characters) of a byte offset.
 fn line_col(text: &str, offset: usize) -> (u64, u64) {
     let mut off = offset.min(text.len());
@@ -401,7 +410,12 @@ impl RunConfig {
     /// valid (for an unknown key, the nearest valid one).
     pub fn parse(file: &str, text: &str) -> Result<RunConfig> {
         let de_err = |e: toml::de::Error| {
-            config_error(file, text, e.span(), e.message().trim().replace('\n', " "))
+            config_error(
+                file,
+                text,
+                e.span(),
+                plain_types(e.message().trim()).replace('\n', " "),
+            )
         };
         let doc = DeTable::parse(text).map_err(de_err)?;
         check_keys(file, text, doc.get_ref())?;
@@ -600,7 +614,7 @@ impl RunConfig {
             out.push_str(&format!("\n[{section}]\n"));
             for d in KEYS.iter().filter(|d| d.section == section) {
                 out.push_str(&format!(
-                    "# {} ({}; default {}; valid: {})\n",
+                    "# {}\n#   {}; default {}; valid: {}\n",
                     d.meaning, d.kind, d.default, d.range
                 ));
                 match get(section, d.key) {

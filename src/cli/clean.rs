@@ -45,6 +45,25 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
     };
     output::write_clean_manifest(&a.out.join("manifest.json"), &manifest)?;
     print_accounting(&ds, &cleaned, 10);
+    super::json_summary(|| {
+        let files = [
+            "cleaned.csv",
+            "adjustments.csv",
+            "rejected.csv",
+            "quality.csv",
+            "manifest.json",
+        ];
+        serde_json::json!({
+            "command": "clean",
+            "input": ds.source,
+            "out": a.out.display().to_string(),
+            "rows": cleaned.rows,
+            "products": cleaned.series.len(),
+            "products_unusable": cleaned.unusable.len(),
+            "adjustments_by_rule": by_rule,
+            "files": files.iter().map(|f| a.out.join(f).display().to_string()).collect::<Vec<_>>(),
+        })
+    });
     let months: usize = cleaned.series.iter().map(|s| s.len()).sum();
     super::say!(
         "cleaned {} product(s), {} product-months{}",

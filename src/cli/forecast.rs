@@ -179,16 +179,39 @@ impl LoadedConfig {
     }
 }
 
-/// A path as written into a configuration file in `dir`: relative to it
-/// when inside it, otherwise absolute.
+/// A path as written into a configuration file in `dir`: relative to that
+/// folder (with `..` as needed), absolute when they share no root.
 fn path_for_config(p: &Path, dir: &Path) -> String {
+    use std::path::Component;
     let abs = |x: &Path| std::path::absolute(x).unwrap_or_else(|_| x.to_path_buf());
-    let (p, d) = (abs(p), abs(dir));
-    p.strip_prefix(&d)
-        .map(|r| r.to_path_buf())
-        .unwrap_or(p)
-        .display()
-        .to_string()
+    // Lexical: `a/./b` and `a/../b` folded so the common prefix is found.
+    fn norm(x: &Path) -> Vec<Component<'_>> {
+        let mut v: Vec<Component> = Vec::new();
+        for c in x.components() {
+            match c {
+                Component::CurDir => {}
+                Component::ParentDir if matches!(v.last(), Some(Component::Normal(_))) => {
+                    v.pop();
+                }
+                other => v.push(other),
+            }
+        }
+        v
+    }
+    let (pa, da) = (abs(p), abs(dir));
+    let (pc, dc) = (norm(&pa), norm(&da));
+    let common = pc.iter().zip(&dc).take_while(|(a, b)| a == b).count();
+    if common == 0 {
+        return pa.display().to_string();
+    }
+    let mut rel = PathBuf::new();
+    for _ in common..dc.len() {
+        rel.push("..");
+    }
+    for c in &pc[common..] {
+        rel.push(c.as_os_str());
+    }
+    rel.display().to_string()
 }
 
 /// Applies a configuration to the options shared by every evaluating
@@ -583,6 +606,10 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         cfg.clean_settings(a.clean.settings()).check()?;
         settings(&a.eval, a.horizon).check()?;
         let text = cfg.to_toml();
+        if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
+            std::fs::create_dir_all(parent)
+                .with_context(|| format!("{}: cannot create the folder", parent.display()))?;
+        }
         output::write_atomic(path, |w| w.write_all(text.as_bytes()))?;
         note!(
             "wrote the configuration to {}; run it with `provisio forecast --config {}`",
@@ -595,12 +622,16 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         return Ok(());
     }
     let data = a.data.clone().ok_or_else(|| {
-        anyhow::anyhow!(
-            "no input file: give DATA, or set data in the [input] section of a --config file"
+        super::usage_error(
+            "forecast",
+            "no input file: give DATA, or set data in the [input] section of a --config file",
         )
     })?;
     let out_path = a.out.clone().ok_or_else(|| {
-        anyhow::anyhow!("no output folder: give --out DIR, or set out in the [output] section of a --config file")
+        super::usage_error(
+            "forecast",
+            "no output folder: give --out DIR, or set out in the [output] section of a --config file",
+        )
     })?;
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
     let (ds, cleaned, results, fs, secs) = run_eval(

@@ -25,6 +25,23 @@ pub struct InspectArgs {
 pub fn run(a: InspectArgs) -> anyhow::Result<()> {
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let profiles = provisio::quality::profile_all(&cleaned);
+    super::json_summary(|| {
+        let products: Vec<serde_json::Value> = profiles
+            .iter()
+            .map(|p| {
+                let mut v = serde_json::to_value(p).unwrap_or_default();
+                v["verdict_text"] = serde_json::Value::from(p.verdict_text());
+                v
+            })
+            .collect();
+        serde_json::json!({
+            "command": "inspect",
+            "input": ds.source,
+            "rows": cleaned.rows,
+            "products": products,
+            "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
+        })
+    });
     let name_w = profiles
         .iter()
         .map(|p| p.product.chars().count())

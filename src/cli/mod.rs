@@ -413,11 +413,27 @@ pub fn run() -> i32 {
     };
     match result {
         Ok(()) => 0,
+        Err(e) if e.downcast_ref::<clap::Error>().is_some() => {
+            let code = e.downcast_ref::<clap::Error>().map_or(2, |c| c.exit_code());
+            if let Some(c) = e.downcast_ref::<clap::Error>() {
+                let _ = c.print();
+            }
+            code
+        }
         Err(e) => {
             eprintln!("{} {e:#}", prefix("error", 31));
             EXIT_REFUSED
         }
     }
+}
+
+/// A usage error of a command found after parsing (exit code 2, like
+/// clap's own).
+fn usage_error(command: &str, message: &str) -> anyhow::Error {
+    let mut cmd = Cli::command();
+    cmd.build();
+    let mut sub = cmd.find_subcommand(command).cloned().unwrap_or(cmd);
+    anyhow::Error::new(sub.error(clap::error::ErrorKind::MissingRequiredArgument, message))
 }
 
 /// Which options the user gave on the command line (they override the

@@ -51,6 +51,13 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
         );
     }
     super::note!("{} candidate models", rows.len());
+    super::json_summary(|| {
+        let models: Vec<serde_json::Value> = rows
+            .iter()
+            .map(|r| serde_json::json!({"name": r.name, "needs": r.needs, "description": r.description}))
+            .collect();
+        serde_json::json!({ "command": "models", "models": models })
+    });
     if let Some(path) = &a.csv {
         provisio::output::write_atomic(path, |w| {
             let mut c = csv::Writer::from_writer(w);

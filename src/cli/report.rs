@@ -13,6 +13,14 @@ pub struct ReportArgs {
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     let w = provisio::report::write_report(&a.dir)?;
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "report",
+            "report": w.report.display().to_string(),
+            "charts": w.charts.len(),
+            "products": w.products,
+        })
+    });
     super::say!(
         "wrote {} and {} chart files ({} products) in {}",
         w.report.display(),

@@ -148,6 +148,41 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
     };
     let written = provisio::report::review::write_review_report(&a.out, &page)?;
     print_summary(&result, limit);
+    super::json_summary(|| {
+        let products: Vec<serde_json::Value> = result
+            .products
+            .iter()
+            .map(|p| {
+                let s = &p.scores;
+                serde_json::json!({
+                    "product": p.product,
+                    "vintage": result.vintages.get(p.vintage).map(|v| v.name.clone()),
+                    "model": p.model,
+                    "months_scored": s.months,
+                    "mape_pct": s.mape,
+                    "bias_pct": s.bias,
+                    "wape_pct": s.wape,
+                    "coverage_80_pct": s.coverage80,
+                    "coverage_95_pct": s.coverage95,
+                    "tracking_signal": s.tracking.map(|t| t.value),
+                    "tracking_flagged": s.tracking_flagged(),
+                })
+            })
+            .collect();
+        let files = [
+            "review.csv",
+            "review_months.csv",
+            "review.json",
+            "review.html",
+        ];
+        serde_json::json!({
+            "command": "review",
+            "out": a.out.display().to_string(),
+            "products": products,
+            "files": files.iter().map(|f| a.out.join(f).display().to_string()).collect::<Vec<_>>(),
+            "warnings": warnings,
+        })
+    });
     for w in &warnings {
         super::warn(w);
     }
