@@ -184,6 +184,23 @@ pub struct CleanSeries {
 }
 
 impl CleanSeries {
+    /// A series whose every month was reported as it stands and needs no
+    /// cleaning: for forecasting monthly values from Rust code (see
+    /// `examples/forecast_one_series.rs`).
+    pub fn observed(product: &str, start: YearMonth, values: Vec<f64>) -> CleanSeries {
+        let n = values.len();
+        CleanSeries {
+            product: product.to_string(),
+            start,
+            reported: values.iter().map(|&v| Some(v)).collect(),
+            values,
+            status: vec![MonthStatus::Reported; n],
+            imputed_share: vec![0.0; n],
+            outlier: vec![false; n],
+            sites: 1,
+        }
+    }
+
     /// Month of position `t`.
     pub fn month(&self, t: usize) -> YearMonth {
         self.start.plus(t as i64)
