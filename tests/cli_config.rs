@@ -485,3 +485,47 @@ fn every_help_has_examples() {
         assert!(h.contains(&format!("provisio {c}")), "{c}");
     }
 }
+
+fn repo(rel: &str) -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join(rel)
+}
+
+#[test]
+fn every_key_is_documented_in_its_section() {
+    let doc = std::fs::read_to_string(repo("docs/configuration.md")).unwrap();
+    let section_of = |heading: &str| -> String {
+        let start = doc
+            .find(&format!("### `[{heading}]`"))
+            .unwrap_or_else(|| panic!("no section {heading}"));
+        let rest = &doc[start + 4..];
+        rest[..rest.find("\n### ").unwrap_or(rest.len())].to_string()
+    };
+    for k in provisio::config::KEYS {
+        let sec = section_of(k.section);
+        let row = sec
+            .lines()
+            .find(|l| l.starts_with(&format!("| `{}` |", k.key)))
+            .unwrap_or_else(|| panic!("{}.{} is not documented", k.section, k.key));
+        assert!(row.matches('|').count() >= 6, "{row}");
+    }
+    let sec = section_of("products.\"NAME\"");
+    for k in provisio::config::PRODUCT_KEYS {
+        assert!(sec.contains(&format!("| `{}` |", k.key)), "{}", k.key);
+    }
+}
+
+#[test]
+fn demo_configuration_is_valid_and_names_demo_products() {
+    let text = std::fs::read_to_string(repo("datasets/demo/run.toml")).unwrap();
+    let cfg = provisio::config::RunConfig::parse("run.toml", &text).unwrap();
+    let data = std::fs::read_to_string(repo("datasets/demo/consumption.csv")).unwrap();
+    for p in cfg.products.keys() {
+        assert!(data.contains(&format!("\n{p},")), "{p} is not a demo product");
+    }
+    // The example in docs/configuration.md is this file (comments aside).
+    let doc = std::fs::read_to_string(repo("docs/configuration.md")).unwrap();
+    let start = doc.find("```toml\n").unwrap() + 8;
+    let example = &doc[start..start + doc[start..].find("```").unwrap()];
+    let shown = provisio::config::RunConfig::parse("doc", example).unwrap();
+    assert_eq!(shown, cfg);
+}
