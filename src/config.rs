@@ -807,4 +807,33 @@ mod tests {
         assert_eq!(o["ORS \"low\" sachet"].min_months, Some(30));
         assert_eq!(o["Zinc"], ProductOptions::default());
     }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(300))]
+        /// Any text, and any cut or byte flip of a valid file, gives a
+        /// configuration or an error, never a panic; errors are located.
+        #[test]
+        fn hostile_text_never_panics(
+            text in "\\PC{0,200}",
+            cut in 0usize..2000,
+            flip in 0usize..2000,
+            byte in proptest::prelude::any::<u8>(),
+        ) {
+            let _ = RunConfig::parse("r.toml", &text);
+            let valid = full().to_toml();
+            let mut cut_at = cut.min(valid.len());
+            while !valid.is_char_boundary(cut_at) {
+                cut_at -= 1;
+            }
+            let _ = RunConfig::parse("r.toml", &valid[..cut_at]);
+            let mut bytes = valid.into_bytes();
+            let i = flip % bytes.len();
+            bytes[i] = byte;
+            if let Ok(t) = std::str::from_utf8(&bytes) {
+                if let Err(e) = RunConfig::parse("r.toml", t) {
+                    proptest::prop_assert!(e.to_string().starts_with("r.toml"), "{}", e);
+                }
+            }
+        }
+    }
 }

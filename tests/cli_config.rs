@@ -520,7 +520,10 @@ fn demo_configuration_is_valid_and_names_demo_products() {
     let cfg = provisio::config::RunConfig::parse("run.toml", &text).unwrap();
     let data = std::fs::read_to_string(repo("datasets/demo/consumption.csv")).unwrap();
     for p in cfg.products.keys() {
-        assert!(data.contains(&format!("\n{p},")), "{p} is not a demo product");
+        assert!(
+            data.contains(&format!("\n{p},")),
+            "{p} is not a demo product"
+        );
     }
     // The example in docs/configuration.md is this file (comments aside).
     let doc = std::fs::read_to_string(repo("docs/configuration.md")).unwrap();

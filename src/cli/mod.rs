@@ -631,6 +631,17 @@ mod tests {
                 k.key
             );
         }
+        // And every option of `forecast` is a key: a new option needs its
+        // key in provisio::config (KEYS, the section struct, docs) and a
+        // line in apply_config / to_config.
+        let not_keys = ["config", "write_config", "quiet", "json", "help", "version"];
+        for a in fc.get_arguments() {
+            let id = a.get_id().as_str();
+            assert!(
+                not_keys.contains(&id) || c::KEYS.iter().any(|k| k.key == id),
+                "option --{id} of forecast has no configuration key"
+            );
+        }
     }
 
     #[test]
