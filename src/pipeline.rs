@@ -546,16 +546,7 @@ mod tests {
                 200.0 + season + ((t * 7) % 5) as f64
             })
             .collect();
-        CleanSeries {
-            product: "P".into(),
-            start: crate::calendar::YearMonth::known(2020, 1),
-            reported: values.iter().map(|&v| Some(v)).collect(),
-            status: vec![crate::clean::MonthStatus::Reported; n],
-            imputed_share: vec![0.0; n],
-            outlier: vec![false; n],
-            sites: 1,
-            values,
-        }
+        CleanSeries::observed("P", crate::calendar::YearMonth::known(2020, 1), values)
     }
 
     fn run(series: &CleanSeries, opts: &ProductOptions) -> ProductForecast {

@@ -76,19 +76,6 @@ impl CheckedCleanSettings {
 }
 
 impl CleanSettings {
-    /// A copy without the per-product thresholds (cheap to make per product).
-    fn clone_without_products(&self) -> CleanSettings {
-        CleanSettings {
-            max_stockout_days: self.max_stockout_days,
-            reporting_floor: self.reporting_floor,
-            nonreporting_weight: self.nonreporting_weight,
-            site_trailing_fill: self.site_trailing_fill,
-            outlier_threshold: self.outlier_threshold,
-            replace_outliers: self.replace_outliers,
-            stockout_days_by_product: BTreeMap::new(),
-        }
-    }
-
     /// Validates every setting; the error names the bad value.
     pub fn check(self) -> Result<CheckedCleanSettings> {
         let s = &self;
@@ -404,7 +391,8 @@ fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
         Some(&d) => {
             own = CleanSettings {
                 max_stockout_days: d,
-                ..s.clone_without_products()
+                stockout_days_by_product: BTreeMap::new(),
+                ..s.clone()
             };
             &own
         }
