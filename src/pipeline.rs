@@ -227,6 +227,10 @@ pub fn forecast_product_with(
     opts: &ProductOptions,
 ) -> ProductForecast {
     let pinned = opts.model.as_deref();
+    // Every model the caller offered: a pinned model is used even when the
+    // demand pattern or the product's `seasonal` setting kept it out of the
+    // competition (the pin is the user's explicit choice).
+    let offered = models;
     let y = &series.values;
     let mask = scorable(series, settings.raw.backtest.exclude_imputed);
     let class = demand_class(y);
@@ -294,7 +298,7 @@ pub fn forecast_product_with(
         .find(|m| m.needs().check(&m.name(), y).is_ok())
         .map(|m| m.name())
         .unwrap_or_else(|| "naive".to_string());
-    let known = |name: &str| name == COMBINATION || models.iter().any(|m| m.name() == name);
+    let known = |name: &str| name == COMBINATION || offered.iter().any(|m| m.name() == name);
     let pinned_ok = match pinned {
         Some(p) if !known(p) => {
             warnings.push(format!(
@@ -306,6 +310,13 @@ pub fn forecast_product_with(
         other => other,
     };
     let mut selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    if let Some(p) =
+        pinned_ok.filter(|p| *p != COMBINATION && !models.iter().any(|m| m.name() == *p))
+    {
+        selection.reason.push_str(&format!(
+            "; the pinned model {p} did not compete for this product, so it has no backtest score"
+        ));
+    }
     if let Some(m) = too_short {
         selection.reason = format!(
             "not backtested: {} months of cleaned history, fewer than min_months = {m} set for this product; the simplest applicable model is used",
@@ -321,7 +332,12 @@ pub fn forecast_product_with(
         ));
     }
     let last = series.month(series.len().saturating_sub(1));
-    let find = |name: &str| models.iter().find(|m| m.name() == name).map(|m| m.as_ref());
+    let find = |name: &str| {
+        offered
+            .iter()
+            .find(|m| m.name() == name)
+            .map(|m| m.as_ref())
+    };
     let chosen_models: Vec<&dyn AnyModel> = if selection.chosen == COMBINATION {
         // Members for the projection: the best complete models on the full backtest.
         let mut ranked: Vec<(f64, &str)> = bt
@@ -664,5 +680,26 @@ mod tests {
             pinned.projection.as_ref().map(|p| p.model.as_str()),
             Some("naive")
         );
+        // A pinned seasonal model on a product set not seasonal is still used.
+        let both = run(
+            &s,
+            &ProductOptions {
+                seasonal: Some(false),
+                model: Some("holt-winters-additive".into()),
+                ..ProductOptions::default()
+            },
+        );
+        assert_eq!(
+            both.projection.as_ref().map(|p| p.model.as_str()),
+            Some("holt-winters-additive"),
+            "{:?}",
+            both.warnings
+        );
+        assert!(
+            both.selection.reason.contains("did not compete"),
+            "{}",
+            both.selection.reason
+        );
+        assert!(both.warnings.is_empty(), "{:?}", both.warnings);
     }
 }
