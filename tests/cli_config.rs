@@ -532,3 +532,45 @@ fn demo_configuration_is_valid_and_names_demo_products() {
     let shown = provisio::config::RunConfig::parse("doc", example).unwrap();
     assert_eq!(shown, cfg);
 }
+
+#[test]
+fn clean_and_inspect_take_the_cleaning_settings() {
+    let w = Workdir::new();
+    w.write(
+        "run.toml",
+        "[cleaning]\nmax_stockout_days = 12\n[products.\"Beta\"]\nmax_stockout_days = 8\n",
+    );
+    let o = w.run(&["clean", "data.csv", "--config", "run.toml", "--out", "c"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let m = w.manifest("c");
+    assert_eq!(m["settings"]["max_stockout_days"], 12.0);
+    assert_eq!(m["settings"]["stockout_days_by_product"]["Beta"], 8.0);
+    assert_eq!(m["config_file"], "run.toml");
+    let (_, adj) = w.csv("c/adjustments.csv");
+    let missing = adj
+        .iter()
+        .filter(|r| r.iter().any(|c| c == "stockout-missing"))
+        .count();
+    assert_eq!(missing, 3, "Beta's 10-day stockouts exceed its 8-day limit");
+    // The command line wins over the file; Beta keeps its own limit.
+    let o = w.run(&[
+        "clean",
+        "data.csv",
+        "--config",
+        "run.toml",
+        "--out",
+        "c2",
+        "--max-stockout-days",
+        "9",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let m = w.manifest("c2");
+    assert_eq!(m["settings"]["max_stockout_days"], 9.0);
+    assert_eq!(m["settings"]["stockout_days_by_product"]["Beta"], 8.0);
+    let o = w.run(&["inspect", "data.csv", "--config", "run.toml", "--json"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let beta = &v["products"][1];
+    assert_eq!(beta["product"], "Beta");
+    assert_eq!(beta["months_with_stockouts"], 3, "{beta}");
+}

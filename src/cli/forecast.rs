@@ -119,7 +119,7 @@ fn parse_month(s: &str) -> Result<YearMonth, String> {
 
 /// A configuration file as loaded: its settings, its folder (relative
 /// paths in it start there), the path as given and its SHA-256.
-pub struct LoadedConfig {
+pub(super) struct LoadedConfig {
     cfg: RunConfig,
     dir: PathBuf,
     path: PathBuf,
@@ -127,6 +127,20 @@ pub struct LoadedConfig {
 }
 
 impl LoadedConfig {
+    /// Applies the `[input]` reading options, `[cleaning]` and the
+    /// products' stockout thresholds (what `inspect` and `clean` use).
+    pub(super) fn apply_cleaning(
+        &self,
+        given: &Given,
+        read: &mut ReadArgs,
+        clean: &mut CleanArgs,
+    ) -> anyhow::Result<()> {
+        read.apply_config(&self.cfg.input, given)?;
+        clean.apply_config(&self.cfg.cleaning, given);
+        clean.apply_products(&self.cfg);
+        Ok(())
+    }
+
     fn load(path: &Path) -> anyhow::Result<LoadedConfig> {
         let bytes = std::fs::read(path)
             .with_context(|| format!("{}: cannot read the configuration file", path.display()))?;
@@ -156,7 +170,7 @@ impl LoadedConfig {
         })
     }
 
-    fn load_opt(path: Option<&PathBuf>) -> anyhow::Result<Option<LoadedConfig>> {
+    pub(super) fn load_opt(path: Option<&PathBuf>) -> anyhow::Result<Option<LoadedConfig>> {
         path.map(|p| LoadedConfig::load(p)).transpose()
     }
 
@@ -171,7 +185,7 @@ impl LoadedConfig {
     }
 
     /// Manifest entries: the file and its hash.
-    fn manifest(c: Option<&LoadedConfig>) -> (Option<String>, Option<String>) {
+    pub(super) fn manifest(c: Option<&LoadedConfig>) -> (Option<String>, Option<String>) {
         match c {
             Some(c) => (Some(c.path.display().to_string()), Some(c.sha256.clone())),
             None => (None, None),
@@ -223,9 +237,7 @@ fn apply_shared(
     clean: &mut CleanArgs,
     eval: &mut EvalArgs,
 ) -> anyhow::Result<()> {
-    read.apply_config(&c.cfg.input, given)?;
-    clean.apply_config(&c.cfg.cleaning, given);
-    clean.apply_products(&c.cfg);
+    c.apply_cleaning(given, read, clean)?;
     eval.apply_config(c, given)
 }
 

@@ -16,13 +16,20 @@ pub struct InspectArgs {
     /// Write rejected rows, with reasons, to this file.
     #[arg(long, value_name = "FILE")]
     rejected: Option<PathBuf>,
+    /// Run configuration file (TOML): its [input] reading options, [cleaning] and the products' stockout thresholds apply; options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<std::path::PathBuf>,
     #[command(flatten)]
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
 }
 
-pub fn run(a: InspectArgs) -> anyhow::Result<()> {
+pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
+    let config = super::forecast::LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        c.apply_cleaning(given, &mut a.read, &mut a.clean)?;
+    }
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let profiles = provisio::quality::profile_all(&cleaned);
     super::json_summary(|| {
