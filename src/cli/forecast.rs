@@ -215,7 +215,12 @@ fn path_for_config(p: &Path, dir: &Path) -> String {
     let (pa, da) = (abs(p), abs(dir));
     let (pc, dc) = (norm(&pa), norm(&da));
     let common = pc.iter().zip(&dc).take_while(|(a, b)| a == b).count();
-    if common == 0 {
+    // Sharing only the root (or drive): an absolute path reads better than
+    // a climb to the root.
+    let named = pc[..common]
+        .iter()
+        .any(|c| matches!(c, Component::Normal(_)));
+    if !named {
         return pa.display().to_string();
     }
     let mut rel = PathBuf::new();
