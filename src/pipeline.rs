@@ -485,6 +485,24 @@ pub fn holdout_check(
     settings: &CheckedForecastSettings,
     holdout: usize,
 ) -> Option<HoldoutResult> {
+    holdout_check_with(
+        series,
+        models,
+        settings,
+        holdout,
+        &ProductOptions::default(),
+    )
+}
+
+/// [`holdout_check`] with the product's own options applied to the
+/// selection on the shortened history.
+pub fn holdout_check_with(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    opts: &ProductOptions,
+) -> Option<HoldoutResult> {
     let n = series.len();
     if n <= holdout + 24 {
         return None;
@@ -498,7 +516,7 @@ pub fn holdout_check(
     short.outlier.truncate(cut);
     let mut s = settings.clone();
     s.horizon = holdout;
-    let r = forecast_product(&short, models, &s, None);
+    let r = forecast_product_with(&short, models, &s, opts);
     let selected_forecast = r.projection.map(|p| p.forecast.point)?;
     let single = models
         .iter()
@@ -527,10 +545,22 @@ pub fn holdout_all(
     settings: &CheckedForecastSettings,
     holdout: usize,
 ) -> Vec<HoldoutResult> {
+    holdout_all_with(series, settings, holdout, &HashMap::new())
+}
+
+/// [`holdout_all`] with each product's own options.
+pub fn holdout_all_with(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    options: &HashMap<String, ProductOptions>,
+) -> Vec<HoldoutResult> {
+    let none = ProductOptions::default();
     series
         .par_iter()
         .map_init(candidates, |models, s| {
-            holdout_check(s, models, settings, holdout)
+            let o = options.get(&s.product).unwrap_or(&none);
+            holdout_check_with(s, models, settings, holdout, o)
         })
         .flatten()
         .collect()

@@ -949,7 +949,13 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     let checked = fs.check()?;
     let (ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
     let t0 = Instant::now();
-    let results = provisio::pipeline::holdout_all(&cleaned.series, &checked, a.holdout);
+    let pins = match &a.eval.pin {
+        Some(p) => read_pins(p)?,
+        None => HashMap::new(),
+    };
+    let options = product_options(config.as_ref(), pins, given.cli("pin"));
+    let results =
+        provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
     print_accounting(&ds, &cleaned, 5);
     if results.is_empty() {
         anyhow::bail!(
