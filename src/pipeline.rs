@@ -732,4 +732,20 @@ mod tests {
         );
         assert!(both.warnings.is_empty(), "{:?}", both.warnings);
     }
+
+    #[test]
+    fn holdout_check_applies_product_options() {
+        let s = seasonal_series(60);
+        let settings = ForecastSettings::default().check().unwrap();
+        let opts = ProductOptions {
+            model: Some("naive".into()),
+            ..ProductOptions::default()
+        };
+        let r = holdout_check_with(&s, &candidates(), &settings, 12, &opts).unwrap();
+        assert_eq!(r.selected, "naive");
+        // Naive repeats the last month of the shortened history.
+        assert!(r.selected_forecast.iter().all(|&f| f == s.values[47]));
+        let free = holdout_check(&s, &candidates(), &settings, 12).unwrap();
+        assert_ne!(free.selected, "naive");
+    }
 }
