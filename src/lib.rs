@@ -61,6 +61,7 @@ pub mod metrics;
 pub mod models;
 pub mod output;
 pub mod pipeline;
+pub mod plan;
 pub mod project;
 pub mod quality;
 pub mod report;

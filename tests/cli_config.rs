@@ -403,7 +403,7 @@ fn exit_codes_are_0_1_and_2() {
 fn completions_and_man_pages_name_every_command() {
     let w = Workdir::new();
     let commands = [
-        "forecast", "backtest", "evaluate", "inspect", "clean", "review", "report",
+        "forecast", "backtest", "evaluate", "inspect", "clean", "review", "report", "plan",
     ];
     for shell in ["bash", "zsh", "fish", "powershell", "elvish"] {
         let o = w.run(&["completions", shell]);
@@ -477,6 +477,7 @@ fn every_help_has_examples() {
         "models",
         "completions",
         "man",
+        "plan",
     ] {
         let o = w.run(&[c, "--help"]);
         assert!(o.status.success());

@@ -10,6 +10,7 @@
 //! outputs, a later review from a saved forecast and new actuals.
 
 mod overview;
+mod plan;
 mod product;
 mod text;
 
@@ -18,6 +19,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 pub use overview::{overview_png, overview_svg, ScoreBar};
+pub use plan::{stock_png, stock_svg, StockChart, StockMonth};
 pub use product::{
     product_png, product_svg, BacktestPanel, BacktestPath, HistoryMonth, ProductChart,
     ProjectedMonth,

@@ -120,7 +120,7 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &ProductChart) -> 
 
 /// Month axis: x is months after `base`; bold ticks at each January (and
 /// July on short spans), light lines at each quarter.
-fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
+pub(super) fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
     let span = last - first;
     let mut bold = Vec::new();
     let mut light = Vec::new();
@@ -143,7 +143,7 @@ fn month_axis(base: YearMonth, first: i64, last: i64) -> KeyAxis {
 
 /// A chart of quantities (0 to `ymax`) over the months `base` to
 /// `base + last`, with its grid and labelled axes drawn.
-fn month_chart<'a, DB: DrawingBackend>(
+pub(super) fn month_chart<'a, DB: DrawingBackend>(
     area: &'a DrawingArea<DB, Shift>,
     base: YearMonth,
     last: i64,
@@ -176,7 +176,7 @@ fn month_chart<'a, DB: DrawingBackend>(
     Ok(chart)
 }
 
-fn nice_top(v: f64) -> f64 {
+pub(super) fn nice_top(v: f64) -> f64 {
     if v.is_finite() && v > 0.0 {
         v * 1.06
     } else {
@@ -201,20 +201,31 @@ fn runs(points: impl Iterator<Item = (f64, Option<f64>)>) -> Vec<Vec<(f64, f64)>
     out
 }
 
-fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+/// Splits off the head of a chart (104 pixels) and draws the title and
+/// subtitle in it; returns [head, plot area].
+pub(super) fn titled<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    title: &str,
+    subtitle: &str,
+) -> std::result::Result<[DrawingArea<DB, Shift>; 2], String> {
     let (head, plot) = area.split_vertically(104);
     head.draw(&Text::new(
-        cut(&c.title, 90),
+        cut(title, 90),
         (16, 10),
         (FONT, 27).into_font().color(&INK),
     ))
     .msg()?;
     head.draw(&Text::new(
-        cut(&c.subtitle, 150),
+        cut(subtitle, 150),
         (16, 38),
         (FONT, 16).into_font().color(&MUTED),
     ))
     .msg()?;
+    Ok([head, plot])
+}
+
+fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart) -> Drawn {
+    let [head, plot] = titled(area, &c.title, &c.subtitle)?;
 
     let base = c
         .history

@@ -6,6 +6,7 @@ mod forecast;
 mod generate;
 mod inspect;
 mod models;
+mod plan;
 mod report;
 mod review;
 
@@ -154,6 +155,11 @@ enum Command {
         after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --until 2025-10 --out past\n  provisio review past --actuals datasets/demo/consumption.csv --out review"
     )]
     Review(review::ReviewArgs),
+    /// Turn a forecast into a supply plan: month-by-month stock projection, months of stock, stockout and overstock flags, and proposed orders under a max–min rule.
+    #[command(
+        after_help = "Example:\n  provisio forecast datasets/demo/consumption.csv --out demo-output\n  provisio plan demo-output --stock datasets/demo/stock.csv --on-order datasets/demo/on_order.csv"
+    )]
+    Plan(plan::PlanArgs),
     /// Write an invented dataset: the demo scenario, or a synthetic set of any size for benchmarks.
     #[command(
         after_help = "Examples:\n  provisio generate --demo --out datasets/demo/consumption.csv\n  provisio generate --products 1000 --sites 5 --months 60 --out big.csv"
@@ -406,6 +412,7 @@ pub fn run() -> i32 {
         Command::Clean(a) => clean::run(a, &given),
         Command::Report(a) => report::run(a),
         Command::Review(a) => review::run(a),
+        Command::Plan(a) => plan::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
         Command::Completions(a) => docs::completions(a),

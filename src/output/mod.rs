@@ -2,12 +2,17 @@
 //! directory and renamed into place, so a reader never sees half a file.
 
 mod forecast;
+mod plan;
 mod review;
 mod tables;
 
 pub use forecast::{
     write_backtest, write_forecast, write_forecast_units, write_json, write_scores,
     write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
+};
+
+pub use plan::{
+    write_order_totals, write_orders, write_plan, write_plan_log, ORDER_COLUMNS, PLAN_COLUMNS,
 };
 
 pub use review::{review_json, write_review, write_review_months};

@@ -8,6 +8,7 @@
 //! opens offline and can be mailed as it is.
 
 pub mod html;
+pub mod plan;
 mod read;
 pub mod review;
 
@@ -114,7 +115,17 @@ pub fn write_report(dir: &Path) -> Result<Written> {
         svgs.push(svg);
         charts.extend(files);
     }
-    let page = render(&run, &stems, &svgs, &overview);
+    let mut sections = Vec::new();
+    if let Some(p) = plan::read_plan(dir)? {
+        let (plan_svgs, files) = plan::draw_charts(&p, &charts_dir)?;
+        charts.extend(files);
+        sections.push(Section {
+            id: "plan",
+            title: "Supply plan",
+            html: plan::section(&p, &plan_svgs),
+        });
+    }
+    let page = render_sections(&run, &stems, &svgs, &overview, &sections);
     let report = dir.join("report.html");
     crate::output::write_atomic(&report, |w| w.write_all(page.as_bytes()))?;
     Ok(Written {
@@ -202,9 +213,32 @@ fn json_str(v: &serde_json::Value, path: &[&str]) -> String {
     }
 }
 
+/// A section added to the report after the product details (e.g. the
+/// supply plan), with its own link in the jump bar.
+#[derive(Debug, Clone)]
+pub struct Section {
+    /// Anchor id.
+    pub id: &'static str,
+    /// Heading.
+    pub title: &'static str,
+    /// Body HTML (text already escaped).
+    pub html: String,
+}
+
 /// Builds `report.html` from a run, the charts' file stems, each product's
 /// chart SVG (same order as the products) and the overview SVG.
 pub fn render(run: &ForecastRun, stems: &[String], svgs: &[String], overview: &str) -> String {
+    render_sections(run, stems, svgs, overview, &[])
+}
+
+/// [`render`] with extra sections after the product details.
+pub fn render_sections(
+    run: &ForecastRun,
+    stems: &[String],
+    svgs: &[String],
+    overview: &str,
+    sections: &[Section],
+) -> String {
     let m = &run.manifest;
     let mut b = String::new();
     let input = json_str(m, &["input"]);
@@ -216,7 +250,11 @@ pub fn render(run: &ForecastRun, stems: &[String], svgs: &[String], overview: &s
         escape(&input),
         escape(&json_str(m, &["tool"]))
     );
-    b.push_str("<nav class=\"jump\" aria-label=\"sections\"><div class=\"inner\"><a href=\"#summary\">Run summary</a><a href=\"#products\">Products</a><a href=\"#details\">Product details</a><a href=\"#caution\">Caution</a></div></nav>\n<main>\n");
+    b.push_str("<nav class=\"jump\" aria-label=\"sections\"><div class=\"inner\"><a href=\"#summary\">Run summary</a><a href=\"#products\">Products</a><a href=\"#details\">Product details</a>");
+    for sec in sections {
+        let _ = write!(b, "<a href=\"#{}\">{}</a>", sec.id, escape(sec.title));
+    }
+    b.push_str("<a href=\"#caution\">Caution</a></div></nav>\n<main>\n");
     let _ = writeln!(
         b,
         "<div class=\"caution\" role=\"note\"><strong>Caution.</strong> {}</div>",
@@ -240,6 +278,15 @@ pub fn render(run: &ForecastRun, stems: &[String], svgs: &[String], overview: &s
     b.push_str("<h2 id=\"details\">Product details</h2>\n");
     for ((p, stem), svg) in run.products.iter().zip(stems).zip(svgs) {
         product_section(&mut b, p, stem, svg);
+    }
+    for sec in sections {
+        let _ = writeln!(
+            b,
+            "<h2 id=\"{}\">{}</h2>\n{}",
+            sec.id,
+            escape(sec.title),
+            sec.html
+        );
     }
     let _ = write!(
         b,

@@ -167,14 +167,14 @@ pub struct ForecastRun {
 
 /// A CSV file with its header, addressed by column name; rows are read
 /// one at a time (`backtest.csv` of a large run is hundreds of megabytes).
-struct Table {
+pub(super) struct Table {
     file: String,
     columns: HashMap<String, usize>,
     reader: csv::Reader<std::fs::File>,
 }
 
 impl Table {
-    fn read(dir: &Path, name: &str) -> Result<Option<Table>> {
+    pub(super) fn read(dir: &Path, name: &str) -> Result<Option<Table>> {
         let path = dir.join(name);
         if !path.exists() {
             return Ok(None);
@@ -205,7 +205,7 @@ impl Table {
     }
 
     /// Calls `f` with each row and its line number.
-    fn each<F>(&mut self, mut f: F) -> Result<()>
+    pub(super) fn each<F>(&mut self, mut f: F) -> Result<()>
     where
         F: FnMut(&Self, u64, &csv::StringRecord) -> Result<()>,
     {
@@ -239,7 +239,7 @@ impl Table {
     }
 
     /// Column accessor for the named columns; the error names the file.
-    fn cols<const N: usize>(&self, names: [&str; N]) -> Result<[usize; N]> {
+    pub(super) fn cols<const N: usize>(&self, names: [&str; N]) -> Result<[usize; N]> {
         let mut out = [0; N];
         for (k, n) in names.iter().enumerate() {
             out[k] = *self.columns.get(*n).ok_or_else(|| Error::Input {
@@ -255,7 +255,7 @@ impl Table {
         Ok(out)
     }
 
-    fn num(
+    pub(super) fn num(
         &self,
         line: u64,
         rec: &csv::StringRecord,
@@ -292,7 +292,7 @@ impl Table {
         })
     }
 
-    fn month(
+    pub(super) fn month(
         &self,
         line: u64,
         rec: &csv::StringRecord,
@@ -309,7 +309,7 @@ impl Table {
     }
 }
 
-fn text(rec: &csv::StringRecord, col: usize) -> String {
+pub(super) fn text(rec: &csv::StringRecord, col: usize) -> String {
     rec.get(col).unwrap_or("").to_string()
 }
 

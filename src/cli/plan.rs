@@ -1,0 +1,363 @@
+//! `provisio plan FORECAST_DIR --stock STOCK [--on-order FILE]`: project
+//! stock month by month from a forecast and propose orders.
+
+use std::collections::HashSet;
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+
+use provisio::output;
+use provisio::plan::{self, read, Level, LogEntry, PlanSettings, PlannedSeries, Safety};
+
+#[derive(Args, Debug)]
+pub struct PlanArgs {
+    /// Output directory of `provisio forecast`; the plan is written into it.
+    #[arg(value_name = "FORECAST_DIR")]
+    dir: PathBuf,
+    /// Stock file (CSV): one row per product (or product and site) with stock on hand, its month, lead time, min/max months, review period, pack size, unit cost.
+    #[arg(long, value_name = "STOCK")]
+    stock: PathBuf,
+    /// Shipments on order (CSV): product, site (optional), quantity, arrival_month.
+    #[arg(long, value_name = "FILE")]
+    on_order: Option<PathBuf>,
+    /// Months of forecast averaged into the AMC (from the month after each month-end on).
+    #[arg(long, default_value_t = plan::DEFAULT_AMC_MONTHS, value_name = "MONTHS")]
+    amc_months: usize,
+    /// How the ordering minimum and maximum are set: fixed months from the stock file, or a safety stock from the forecast's upper 80% / 95% bound.
+    #[arg(long, value_enum, default_value_t = SafetyArg::Months)]
+    safety_stock: SafetyArg,
+    /// Write the plan files and stock charts only; do not rebuild report.html.
+    #[arg(long)]
+    no_report: bool,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum SafetyArg {
+    /// min_months and max_months of the stock file, times the AMC.
+    Months,
+    /// Safety stock from the upper bound of the 80% range.
+    #[value(name = "upper-80")]
+    Upper80,
+    /// Safety stock from the upper bound of the 95% range.
+    #[value(name = "upper-95")]
+    Upper95,
+}
+
+fn where_(product: &str, site: Option<&str>) -> String {
+    match site {
+        Some(s) => format!("product '{product}' at site '{s}'"),
+        None => format!("product '{product}'"),
+    }
+}
+
+pub fn run(a: PlanArgs) -> anyhow::Result<()> {
+    let settings = PlanSettings {
+        amc_months: a.amc_months,
+        safety: match a.safety_stock {
+            SafetyArg::Months => Safety::Months,
+            SafetyArg::Upper80 => Safety::Upper(Level::P80),
+            SafetyArg::Upper95 => Safety::Upper(Level::P95),
+        },
+    }
+    .check()?;
+    let out = output::OutputDir::check(&a.dir, false)?;
+    let forecast = read::read_forecast(&a.dir)?;
+    let stock_name = a.stock.display().to_string();
+    let stock_bytes = std::fs::read(&a.stock)
+        .map_err(|e| anyhow::anyhow!("{stock_name}: cannot read the stock file: {e}"))?;
+    let (stock, mut warnings) = read::read_stock(&stock_name, &stock_bytes)?;
+    let mut on_order = Vec::new();
+    let mut on_order_sha = None;
+    let on_order_name = a.on_order.as_ref().map(|p| p.display().to_string());
+    if let (Some(path), Some(name)) = (&a.on_order, &on_order_name) {
+        let bytes = std::fs::read(path)
+            .map_err(|e| anyhow::anyhow!("{name}: cannot read the on-order file: {e}"))?;
+        let (rows, w) = read::read_on_order(name, &bytes)?;
+        warnings.extend(w);
+        on_order = rows;
+        on_order_sha = Some(output::sha256_hex(&bytes));
+    }
+
+    let mut log: Vec<LogEntry> = Vec::new();
+    let mut planned: Vec<PlannedSeries> = Vec::new();
+    let stock_keys: HashSet<(String, Option<String>)> = stock
+        .iter()
+        .map(|r| (r.product.clone(), r.site.clone()))
+        .collect();
+    for r in &stock {
+        let who = where_(&r.product, r.site.as_deref());
+        let entry = |action: &'static str, reason: String| LogEntry {
+            file: stock_name.clone(),
+            line: Some(r.line),
+            product: r.product.clone(),
+            site: r.site.clone(),
+            action,
+            reason,
+        };
+        let arrivals: Vec<(u64, plan::Arrival)> = on_order
+            .iter()
+            .filter(|o| o.product == r.product && o.site == r.site)
+            .map(|o| (o.line, o.arrival))
+            .collect();
+        let result = forecast
+            .for_key(&r.product, r.site.as_deref())
+            .and_then(|fc| {
+                let only: Vec<plan::Arrival> = arrivals.iter().map(|a| a.1).collect();
+                plan::plan_series(&r.policy, &fc, &only, &settings)
+                    .map(|p| (fc, p))
+                    .map_err(|e| e.0)
+            });
+        match result {
+            Err(why) => {
+                warnings.push(format!("{stock_name}:{}: {who} not planned: {why}", r.line));
+                log.push(entry("not planned", why));
+                // Its shipments are not used either: say so, line by line.
+                let name = on_order_name.clone().unwrap_or_default();
+                for (line, arr) in &arrivals {
+                    let reason = format!(
+                        "its stock row ({stock_name} line {}) was not planned, so the shipment is not used",
+                        r.line
+                    );
+                    warnings.push(format!(
+                        "{name}:{line}: shipment of {} for {who} ignored: {reason}",
+                        output::fmt_num(arr.quantity)
+                    ));
+                    log.push(LogEntry {
+                        file: name.clone(),
+                        line: Some(*line),
+                        product: r.product.clone(),
+                        site: r.site.clone(),
+                        action: "ignored",
+                        reason,
+                    });
+                }
+            }
+            Ok((fc, p)) => {
+                if p.skipped_forecast_months > 0 {
+                    let why = format!(
+                        "the stock count ({}) is later than the forecast start ({}): the {} forecast month(s) up to the count are not used",
+                        r.policy.stock_date, fc.start, p.skipped_forecast_months
+                    );
+                    warnings.push(format!("{stock_name}:{}: {who}: {why}", r.line));
+                    log.push(entry("note", why));
+                }
+                for (arr, why) in &p.ignored_arrivals {
+                    let line = arrivals.iter().find(|x| x.1 == *arr).map(|x| x.0);
+                    let name = on_order_name.clone().unwrap_or_default();
+                    warnings.push(format!(
+                        "{name}:{}: shipment of {} for {who} ignored: {why}",
+                        line.unwrap_or(0),
+                        output::fmt_num(arr.quantity)
+                    ));
+                    log.push(LogEntry {
+                        file: name,
+                        line,
+                        product: r.product.clone(),
+                        site: r.site.clone(),
+                        action: "ignored",
+                        reason: why.clone(),
+                    });
+                }
+                planned.push(PlannedSeries {
+                    product: r.product.clone(),
+                    site: r.site.clone(),
+                    policy: r.policy.clone(),
+                    plan: p,
+                });
+            }
+        }
+    }
+    for o in &on_order {
+        if !stock_keys.contains(&(o.product.clone(), o.site.clone())) {
+            let name = on_order_name.clone().unwrap_or_default();
+            let why = format!(
+                "no row of the stock file for {}; the shipment is not used",
+                where_(&o.product, o.site.as_deref())
+            );
+            warnings.push(format!("{name}:{}: {why}", o.line));
+            log.push(LogEntry {
+                file: name,
+                line: Some(o.line),
+                product: o.product.clone(),
+                site: o.site.clone(),
+                action: "ignored",
+                reason: why,
+            });
+        }
+    }
+    for p in &forecast.products {
+        if !stock.iter().any(|r| &r.product == p) {
+            let why = "in the forecast but not in the stock file: not planned".to_string();
+            warnings.push(format!("product '{p}': {why}"));
+            log.push(LogEntry {
+                file: a.dir.join("forecast.csv").display().to_string(),
+                line: None,
+                product: p.clone(),
+                site: None,
+                action: "not planned",
+                reason: why,
+            });
+        }
+    }
+    if planned.is_empty() {
+        for w in &warnings {
+            super::warn(w);
+        }
+        let first = log
+            .iter()
+            .find(|e| e.action == "not planned")
+            .map(|e| format!("; {}: {}", where_(&e.product, e.site.as_deref()), e.reason))
+            .unwrap_or_default();
+        anyhow::bail!(
+            "{stock_name}: no row could be planned against the forecast in {}{first}",
+            a.dir.display()
+        );
+    }
+
+    out.prepare()?;
+    let rule = settings.get().safety.rule();
+    output::write_plan(&out.join("plan.csv"), &planned)?;
+    output::write_orders(
+        &out.join("orders.csv"),
+        &planned,
+        settings.get().safety.name(),
+    )?;
+    output::write_order_totals(&out.join("order_totals.csv"), &planned)?;
+    output::write_plan_log(&out.join("plan_log.csv"), &log)?;
+    let amc_rule = format!(
+        "AMC at the end of a month = mean forecast consumption of the next {} month(s) (near the end of the horizon, the last {} forecast months); plan.csv names the months (amc_from, amc_to); months of stock = closing stock ÷ AMC",
+        settings.get().amc_months, settings.get().amc_months
+    );
+    let series_rule = if forecast.per_site {
+        "the forecast is per site: a stock row with a site is planned against that site's forecast; a row without a site against the sum of the product's sites (upper bounds summed)"
+    } else {
+        "the forecast is per product (sites summed): one plan per product; stock rows must leave site empty"
+    };
+    let run = serde_json::json!({
+        "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
+        "command": "plan",
+        "forecast_dir": a.dir.display().to_string(),
+        "stock_file": stock_name,
+        "stock_sha256": output::sha256_hex(&stock_bytes),
+        "forecast_sha256": std::fs::read(a.dir.join("forecast.csv")).ok().map(|b| output::sha256_hex(&b)),
+        "on_order_file": on_order_name,
+        "on_order_sha256": on_order_sha,
+        "settings": {
+            "amc_months": settings.get().amc_months,
+            "safety_stock": settings.get().safety.name(),
+        },
+        "rules": {
+            "balance": "stock on hand is counted at the end of stock_date; each month closing = max(0, opening + arrivals − consumption), the rest is the quantity short; arrivals are available for the whole month they arrive in",
+            "amc": amc_rule,
+            "orders": format!("reviews every review_period_months from the first projected month; an order placed at a review arrives lead_time_months later and covers one review period; {rule}; rounded up to whole packs; cost = quantity × unit_cost"),
+            "series": series_rule,
+        },
+        "series_planned": planned.len(),
+        "log_entries": log.len(),
+        "warnings": warnings,
+    });
+    output::write_json(&out.join("plan.json"), &run)?;
+    let charts = if a.no_report {
+        let charts_dir = a.dir.join("charts");
+        std::fs::create_dir_all(&charts_dir)
+            .map_err(|e| anyhow::anyhow!("{}: cannot create: {e}", charts_dir.display()))?;
+        match provisio::report::plan::read_plan(&a.dir)? {
+            Some(p) => provisio::report::plan::draw_charts(&p, &charts_dir)?
+                .1
+                .len(),
+            None => 0,
+        }
+    } else {
+        provisio::report::write_report(&a.dir)?;
+        planned.len() * 2
+    };
+    print_summary(&planned);
+    super::json_summary(|| {
+        let files = [
+            "plan.csv",
+            "orders.csv",
+            "order_totals.csv",
+            "plan_log.csv",
+            "plan.json",
+        ];
+        serde_json::json!({
+            "command": "plan",
+            "dir": a.dir.display().to_string(),
+            "series_planned": planned.len(),
+            "series": planned.iter().map(|s| serde_json::json!({"product": s.product, "site": s.site})).collect::<Vec<_>>(),
+            "log_entries": log.len(),
+            "files": files.iter().map(|f| out.join(f).display().to_string()).collect::<Vec<_>>(),
+            "warnings": warnings,
+        })
+    });
+    for w in &warnings {
+        super::warn(w);
+    }
+    super::say!(
+        "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){} in {}",
+        planned.len(),
+        log.len(),
+        charts,
+        if a.no_report { "" } else { ", and rebuilt report.html" },
+        a.dir.display()
+    );
+    super::say!("Decision support only: review proposed orders with the responsible programme staff; national guidelines and local regulations take precedence.");
+    Ok(())
+}
+
+fn print_summary(planned: &[PlannedSeries]) {
+    let name = |s: &PlannedSeries| match &s.site {
+        Some(site) => format!("{} @ {site}", s.product),
+        None => s.product.clone(),
+    };
+    let w = planned
+        .iter()
+        .map(|s| name(s).chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40);
+    let cut = |s: &str| super::pad(&super::truncate(s, w), w);
+    super::say!(
+        "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
+        cut("product"),
+        "on hand",
+        "MOS",
+        "stockout",
+        "short",
+        ">max",
+        "orders",
+        "quantity",
+        "cost"
+    );
+    for s in planned {
+        let m = &s.plan.months;
+        let out: Vec<_> = s.plan.stockout_months().map(|m| m.month).collect();
+        let stockout = match (out.first(), out.last()) {
+            (Some(a), Some(z)) if a == z => a.to_string(),
+            (Some(a), Some(z)) => format!("{} ({a}..{z})", out.len()),
+            _ => "none".into(),
+        };
+        let mos0 = m
+            .first()
+            .and_then(|f| plan::months_of_stock(f.opening, f.amc))
+            .map(|v| format!("{v:.1}"))
+            .unwrap_or_else(|| "-".into());
+        let above = m
+            .iter()
+            .filter(|x| x.flags.contains(&plan::Flag::AboveMax))
+            .count();
+        super::say!(
+            "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
+            cut(&name(s)),
+            provisio::chart::fmt_quantity(s.policy.stock_on_hand),
+            mos0,
+            stockout,
+            provisio::chart::fmt_quantity(m.iter().map(|x| x.short).sum()),
+            above,
+            s.plan.orders.len(),
+            provisio::chart::fmt_quantity(s.plan.orders.iter().map(|o| o.quantity).sum()),
+            provisio::chart::fmt_quantity(s.plan.orders.iter().map(|o| o.cost).sum()),
+        );
+    }
+    super::say!("(MOS: months of stock at the start = stock on hand ÷ AMC of the first projected month; stockout: months with projected stock at zero; short: quantity not covered; >max: months above the maximum)");
+}

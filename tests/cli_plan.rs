@@ -1,0 +1,447 @@
+//! End-to-end tests of `provisio plan`: the real binary turns a forecast
+//! output folder and a stock file into a stock projection, proposed orders,
+//! stock charts and a report section, and refuses bad stock files with the
+//! file, line and column.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+struct Workdir {
+    dir: tempfile::TempDir,
+}
+
+impl Workdir {
+    fn new() -> Self {
+        Workdir {
+            dir: tempfile::tempdir().expect("temp dir"),
+        }
+    }
+
+    fn path(&self, name: &str) -> PathBuf {
+        self.dir.path().join(name)
+    }
+
+    fn write(&self, name: &str, text: &str) {
+        std::fs::write(self.path(name), text).expect("write");
+    }
+
+    fn run(&self, args: &[&str]) -> Output {
+        Command::new(env!("CARGO_BIN_EXE_provisio"))
+            .args(args)
+            .current_dir(self.dir.path())
+            .output()
+            .expect("run provisio")
+    }
+
+    fn read_csv(&self, name: &str) -> Vec<BTreeMap<String, String>> {
+        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
+        let h: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
+        r.records()
+            .map(|x| {
+                let x = x.expect("record");
+                h.iter()
+                    .cloned()
+                    .zip(x.iter().map(str::to_string))
+                    .collect()
+            })
+            .collect()
+    }
+
+    /// Copies the small forecast folder of the report fixture (four
+    /// products cut from the invented demo scenario) to `fc/`.
+    fn fixture_forecast(&self) {
+        let from = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report/forecast-output");
+        let to = self.path("fc");
+        std::fs::create_dir_all(&to).unwrap();
+        for e in std::fs::read_dir(from).unwrap() {
+            let e = e.unwrap();
+            std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
+        }
+    }
+
+    /// A forecast folder made by hand: `forecast.csv` only, marked as
+    /// provisio's.
+    fn hand_forecast(&self, csv: &str) {
+        std::fs::create_dir_all(self.path("fc")).unwrap();
+        self.write("fc/forecast.csv", csv);
+        self.write("fc/.provisio-output", "marker\n");
+    }
+}
+
+fn text(o: &Output) -> String {
+    format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    )
+}
+
+fn num(r: &BTreeMap<String, String>, c: &str) -> f64 {
+    r[c].parse().unwrap_or_else(|_| panic!("{c}: {:?}", r[c]))
+}
+
+const HEADER: &str = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost,shelf_life_months,emergency_months\n";
+
+fn flat_forecast(product: &str, start_year: i32, months: usize, v: f64) -> String {
+    let mut s = String::from("product,month,model,forecast,lower_80,upper_80,lower_95,upper_95\n");
+    for k in 0..months {
+        let m = k % 12 + 1;
+        let y = start_year + (k / 12) as i32;
+        s.push_str(&format!(
+            "{product},{y}-{m:02},naive,{v},{},{},{},{}\n",
+            v * 0.8,
+            v * 1.2,
+            v * 0.7,
+            v * 1.4
+        ));
+    }
+    s
+}
+
+#[test]
+fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
+    let w = Workdir::new();
+    w.fixture_forecast();
+    w.write(
+        "stock.csv",
+        &format!(
+            "{HEADER}<script>alert(1)</script>,3000,2026-10,2,3,6,2,50,0.5,,1\n\
+             Zinc 20 mg dispersible tablet x10,90000,2026-10,3,3,6,3,100,0.12,12,\n\
+             \"Snake antivenom/vial \"\"cold chain\"\" & co\",10,2026-10,1,2,6,1,1,55,,\n\
+             Ghost product,10,2026-10,1,2,6,1,1,1,,\n"
+        ),
+    );
+    w.write(
+        "on_order.csv",
+        "product,quantity,arrival_month,reference\n\
+         <script>alert(1)</script>,4000,2026-12,N-1\n\
+         Zinc 20 mg dispersible tablet x10,500,2026-09,N-2\n\
+         Nobody,5,2027-01,N-3\n",
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "on_order.csv",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("planned 3 series"), "{t}");
+    assert!(t.contains("Decision support only"), "{t}");
+
+    // Balances add up month to month in the written file (values rounded
+    // to 4 decimals), closing stock is never negative, and each series runs
+    // the 24 forecast months.
+    let plan = w.read_csv("fc/plan.csv");
+    assert_eq!(plan.len(), 3 * 24);
+    let mut prev: BTreeMap<String, f64> = BTreeMap::new();
+    for r in &plan {
+        let (open, cons, oo, pl, close, short) = (
+            num(r, "opening"),
+            num(r, "consumption"),
+            num(r, "arrivals_on_order"),
+            num(r, "arrivals_planned"),
+            num(r, "closing"),
+            num(r, "short"),
+        );
+        assert!(
+            (open + oo + pl - cons - (close - short)).abs() < 1e-3,
+            "{r:?}"
+        );
+        assert!(close >= 0.0 && short >= 0.0);
+        if let Some(p) = prev.get(&r["product"]) {
+            assert!((p - open).abs() < 1e-3, "opening = previous closing: {r:?}");
+        }
+        prev.insert(r["product"].clone(), close);
+        if short > 0.0 {
+            assert!(r["flag"].contains("stockout"), "{r:?}");
+        }
+    }
+    // The shipment of 4,000 arrives in 2026-12.
+    let dec = plan
+        .iter()
+        .find(|r| r["product"] == "<script>alert(1)</script>" && r["month"] == "2026-12")
+        .unwrap();
+    assert_eq!(num(dec, "arrivals_on_order"), 4000.0);
+    // 90,000 zinc with a 12-month shelf life is overstock at expiry risk.
+    let zinc = plan
+        .iter()
+        .find(|r| r["product"].starts_with("Zinc"))
+        .unwrap();
+    assert!(zinc["flag"].contains("above-max"), "{zinc:?}");
+    assert!(zinc["flag"].contains("expiry-risk"), "{zinc:?}");
+
+    // Orders: whole packs, costed, arriving exactly the lead time later.
+    let orders = w.read_csv("fc/orders.csv");
+    assert!(!orders.is_empty());
+    for r in &orders {
+        let q = num(r, "quantity");
+        let pack = num(r, "pack_size");
+        assert_eq!(q, num(r, "packs") * pack, "{r:?}");
+        assert!(
+            (num(r, "cost") - q * num(r, "unit_cost")).abs() < 0.01,
+            "{r:?}"
+        );
+        let lead = match r["product"].chars().next() {
+            Some('<') => 2,
+            Some('Z') => 3,
+            _ => 1,
+        };
+        let om: Vec<i32> = r["order_month"]
+            .split('-')
+            .map(|x| x.parse().unwrap())
+            .collect();
+        let am: Vec<i32> = r["arrival_month"]
+            .split('-')
+            .map(|x| x.parse().unwrap())
+            .collect();
+        let gap = (am[0] - om[0]) * 12 + am[1] - om[1];
+        assert_eq!(gap, lead, "{r:?}");
+    }
+    let totals = w.read_csv("fc/order_totals.csv");
+    let all: f64 = totals
+        .iter()
+        .filter(|r| r["year"] == "all")
+        .map(|r| num(r, "quantity"))
+        .sum();
+    let each: f64 = orders.iter().map(|r| num(r, "quantity")).sum();
+    assert!((all - each).abs() < 1e-6);
+
+    // Nothing silent: the product without stock, the stock row without a
+    // forecast, the shipment dated before the count and the one for no
+    // product are all in the log.
+    let log = w.read_csv("fc/plan_log.csv");
+    let has = |product: &str, action: &str| {
+        log.iter()
+            .any(|r| r["product"] == product && r["action"] == action)
+    };
+    assert!(has("Snake antivenom vial", "not planned"), "{log:?}");
+    assert!(has("Ghost product", "not planned"), "{log:?}");
+    assert!(
+        has("Zinc 20 mg dispersible tablet x10", "ignored"),
+        "{log:?}"
+    );
+    assert!(has("Nobody", "ignored"), "{log:?}");
+    assert!(
+        t.contains(
+            "warning: product 'Snake antivenom vial': in the forecast but not in the stock file"
+        ),
+        "{t}"
+    );
+
+    // Stock charts and the report section; names stay text.
+    let charts: Vec<String> = std::fs::read_dir(w.path("fc/charts"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with("plan-"))
+        .collect();
+    assert_eq!(charts.len(), 6, "{charts:?}");
+    let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
+    assert!(html.contains("<h2 id=\"plan\">Supply plan</h2>"));
+    assert!(html.contains("Stock plan: &lt;script&gt;alert(1)&lt;/script&gt;"));
+    assert!(!html.contains("<script>alert(1)"));
+    assert!(html.contains("Proposed orders are decision support"));
+    // `report` rebuilds the report from the folder and keeps the section.
+    std::fs::remove_file(w.path("fc/report.html")).unwrap();
+    let o = w.run(&["report", "fc"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
+    assert!(html.contains("<h2 id=\"plan\">Supply plan</h2>"));
+    assert!(html.contains("Stock plan: Zinc 20 mg"));
+    // A new forecast in the folder makes the plan out of date: the report
+    // says so instead of showing orders computed from the old forecast.
+    let fc = std::fs::read_to_string(w.path("fc/forecast.csv")).unwrap();
+    w.write("fc/forecast.csv", &fc.replacen("9540.5261", "9999", 1));
+    let o = w.run(&["report", "fc"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
+    assert!(html.contains("were made from an earlier forecast.csv"));
+    assert!(!html.contains("Stock plan: Zinc 20 mg"));
+}
+
+#[test]
+fn safety_stock_from_the_upper_bound() {
+    // Flat 1,000 a month with a 95% upper bound of 1,400 (margin 400); lead
+    // time 1, review 2: an order decided at a review covers the two months
+    // after its arrival, so the safety stock is 3 × 400 = 1,200 and the
+    // order-up-to level 2 × 1,000 + 1,200 = 3,200. From 1,500 on hand,
+    // 500 are left when the first order arrives: order 2,700.
+    let w = Workdir::new();
+    w.hand_forecast(&flat_forecast("Test kit", 2027, 12, 1000.0));
+    w.write(
+        "stock.csv",
+        &format!("{HEADER}Test kit,1500,2026-12,1,3,6,2,1,1,,\n"),
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--safety-stock",
+        "upper-95",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let orders = w.read_csv("fc/orders.csv");
+    assert_eq!(orders[0]["rule"], "upper-95");
+    assert_eq!(num(&orders[0], "minimum"), 1200.0);
+    assert_eq!(num(&orders[0], "order_up_to"), 3200.0);
+    assert_eq!(num(&orders[0], "quantity"), 2700.0);
+    let run: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(w.path("fc/plan.json")).unwrap()).unwrap();
+    assert!(run["rules"]["orders"]
+        .as_str()
+        .unwrap()
+        .contains("95% upper bound − point forecast"));
+}
+
+#[test]
+fn logistics_handbook_example_end_to_end() {
+    // USAID | DELIVER PROJECT, The Logistics Handbook (2011), max–min
+    // inventory control: AMC 1,000, maximum 6 months, stock on hand 2,500,
+    // on order 1,000 → order 2,500; months of stock 2.5. A flat forecast of
+    // 1,000 a month, no lead time, monthly review, the shipment arriving in
+    // the first month.
+    let w = Workdir::new();
+    w.hand_forecast(&flat_forecast("Test kit", 2027, 12, 1000.0));
+    w.write(
+        "stock.csv",
+        &format!("{HEADER}Test kit,2500,2026-12,0,3,6,1,1,2,,\n"),
+    );
+    w.write(
+        "oo.csv",
+        "product,quantity,arrival_month\nTest kit,1000,2027-01\n",
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "oo.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let orders = w.read_csv("fc/orders.csv");
+    assert_eq!(orders[0]["order_month"], "2027-01");
+    assert_eq!(num(&orders[0], "quantity"), 2500.0);
+    assert_eq!(num(&orders[0], "cost"), 5000.0);
+    // Months of stock 2.5 is the stock on hand over the AMC at the start.
+    assert!(text(&o).contains("    2.5  "), "{}", text(&o));
+    let plan = w.read_csv("fc/plan.csv");
+    assert_eq!(num(&plan[0], "closing"), 5000.0);
+    assert_eq!(num(&plan[0], "months_of_stock"), 5.0);
+    assert_eq!(plan[0]["amc_from"], "2027-02");
+    assert_eq!(plan[0]["amc_to"], "2027-04");
+    assert!(w.path("fc/charts").read_dir().unwrap().count() == 2);
+}
+
+#[test]
+fn per_site_forecast_plans_sites_and_totals() {
+    let w = Workdir::new();
+    let mut csv =
+        String::from("product,site,month,model,forecast,lower_80,upper_80,lower_95,upper_95\n");
+    for (site, v) in [("North", 100.0), ("South", 300.0)] {
+        for m in 1..=6 {
+            csv.push_str(&format!(
+                "Pill,{site},2027-{m:02},naive,{v},0,{},0,{}\n",
+                v + 10.0,
+                v + 20.0
+            ));
+        }
+    }
+    w.hand_forecast(&csv);
+    w.write(
+        "stock.csv",
+        "product,site,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\n\
+         Pill,North,500,2026-12,1,2,4,1,10,1\n\
+         Pill,,5000,2026-12,1,2,4,1,10,1\n",
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let plan = w.read_csv("fc/plan.csv");
+    let north = plan.iter().find(|r| r["site"] == "North").unwrap();
+    let total = plan.iter().find(|r| r["site"].is_empty()).unwrap();
+    assert_eq!(num(north, "consumption"), 100.0);
+    assert_eq!(num(total, "consumption"), 400.0);
+
+    // A per-site stock row against a per-product forecast is not planned,
+    // with the reason.
+    w.hand_forecast(&flat_forecast("Pill", 2027, 6, 100.0));
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(
+        text(&o).contains("the forecast is per product (sites summed), so stock held at site 'North' cannot be planned"),
+        "{}",
+        text(&o)
+    );
+}
+
+#[test]
+fn refusals_name_file_line_column_and_write_nothing() {
+    let w = Workdir::new();
+    w.hand_forecast(&flat_forecast("Pill", 2027, 12, 100.0));
+    let cases = [
+        (
+            format!("{HEADER}Pill,100,2026-12,1,7,6,1,10,1,,\n"),
+            "stock.csv:2: column 'min_months': min_months 7 is above max_months 6",
+        ),
+        (
+            format!("{HEADER}Pill,100,2026-12,-1,2,6,1,10,1,,\n"),
+            "stock.csv:2: column 'lead_time_months': -1 is not valid; give whole months from 0 to 36",
+        ),
+        (
+            format!("{HEADER}Pill,100,2026-12,1,2,6,1,0,1,,\n"),
+            "stock.csv:2: column 'pack_size': 0 is not valid",
+        ),
+        (
+            format!("{HEADER}Pill,\"1,000\",2026-12,1,2,6,1,10,1,,\n"),
+            "stock.csv:2: column 'stock_on_hand': \"1,000\" is not a plain number",
+        ),
+        (
+            format!("{HEADER}Pill,100,12/2026,1,2,6,1,10,1,,\n"),
+            "write 2026-12",
+        ),
+        (
+            format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,3\n"),
+            "column 'emergency_months': 3 is not valid; give months of stock from 0 to min_months (2)",
+        ),
+        (
+            format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,\nPill,5,2026-12,1,2,6,1,10,1,,\n"),
+            "stock.csv:3: column 'product': 'Pill' already has a row (line 2)",
+        ),
+        (
+            "product,stock_on_hand\nPill,100\n".to_string(),
+            "stock.csv:1: column 'stock_date': missing column",
+        ),
+        (HEADER.to_string(), "has a header but no rows"),
+        (
+            format!("{HEADER}Pill,100,2026-09,1,2,6,1,10,1,,\n"),
+            "the stock count (2026-09) is 3 month(s) older than the month before the forecast starts (2026-12)",
+        ),
+    ];
+    for (stock, expected) in cases {
+        w.write("stock.csv", &stock);
+        let o = w.run(&["plan", "fc", "--stock", "stock.csv"]);
+        assert_eq!(o.status.code(), Some(1), "{stock}: {}", text(&o));
+        assert!(
+            text(&o).contains(expected),
+            "{stock}\nexpected: {expected}\ngot: {}",
+            text(&o)
+        );
+        assert!(!w.path("fc/plan.csv").exists());
+        assert!(!w.path("fc/orders.csv").exists());
+    }
+    // Not a forecast folder.
+    w.write(
+        "stock.csv",
+        &format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    std::fs::create_dir_all(w.path("empty")).unwrap();
+    let o = w.run(&["plan", "empty", "--stock", "stock.csv"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(text(&o).contains("forecast.csv"), "{}", text(&o));
+}
