@@ -438,7 +438,13 @@ impl RunConfig {
                 section,
                 None,
                 key,
-                format!("'{x}' is not valid; valid: {}", valid.join(", ")),
+                format!(
+                    "'{x}' is not valid; {}valid: {}",
+                    nearest(x, valid.iter().copied())
+                        .map(|n| format!("did you mean '{n}'? "))
+                        .unwrap_or_default(),
+                    valid.join(", ")
+                ),
             )),
             _ => Ok(()),
         };
@@ -750,7 +756,7 @@ mod tests {
 
     #[test]
     fn bad_syntax_types_and_ranges_are_located() {
-        let cases: [(&str, &str); 9] = [
+        let cases: [(&str, &str); 10] = [
             ("[projection]\nhorizon = \n", "line 2"),
             ("[projection]\nhorizon = \"12\"\n", "line 2, column 11"),
             (
@@ -766,6 +772,7 @@ mod tests {
                 "[selection]\nselect_by = \"mean\"\n",
                 "valid: mape, wape, mase, rmse",
             ),
+            ("[input]\nencoding = \"utf8\"\n", "did you mean 'utf-8'?"),
             (
                 "[input]\nuntil = \"2025/10\"\n",
                 "line 2, column 9: until: month",
