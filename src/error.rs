@@ -63,6 +63,20 @@ pub enum Error {
         /// What went wrong.
         message: String,
     },
+    /// The run configuration file is malformed or holds an unknown key or
+    /// a value out of range. `line` and `column` are 1-based; 0 when the
+    /// problem has no place in the file.
+    #[error("{}", config_message(.file, *.line, *.column, .message))]
+    Config {
+        /// Configuration file as given by the user.
+        file: String,
+        /// 1-based line number, 0 when unknown.
+        line: u64,
+        /// 1-based column (in characters), 0 when unknown.
+        column: u64,
+        /// What was wrong and what would be valid.
+        message: String,
+    },
     /// Writing CSV or JSON output failed.
     #[error("{path}: cannot write output: {message}")]
     Output {
@@ -84,6 +98,14 @@ fn location_message(file: &str, line: u64, column: Option<&str>, message: &str) 
     out.push_str(": ");
     out.push_str(message);
     out
+}
+
+fn config_message(file: &str, line: u64, column: u64, message: &str) -> String {
+    if line == 0 {
+        format!("{file}: {message}")
+    } else {
+        format!("{file} line {line}, column {column}: {message}")
+    }
 }
 
 /// Result alias used across the library.

@@ -178,6 +178,33 @@ pub fn scorable(series: &CleanSeries, exclude_imputed: bool) -> Vec<bool> {
         .collect()
 }
 
+/// Settings of one product that replace the run's (from the `[products]`
+/// tables of the configuration file, or a pin file).
+#[derive(Debug, Clone, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct ProductOptions {
+    /// `Some(false)`: no seasonal model competes. `Some(true)`: only
+    /// seasonal models (and their combination) compete, when the series
+    /// has at least [`SEASONAL_MIN_MONTHS`]; with fewer, every model
+    /// competes and a warning says why. Seasonal models are those that
+    /// estimate a seasonal pattern (seasonal naive, Holt-Winters, MSTL-ETS)
+    /// and `theta`, which adjusts for seasonality when its test finds it.
+    pub seasonal: Option<bool>,
+    /// Pinned model: used for the projection whatever the backtest says.
+    pub model: Option<String>,
+    /// With fewer months of cleaned history the product is not backtested
+    /// and gets the simplest applicable model, with the reason.
+    pub min_months: Option<usize>,
+}
+
+/// Months a series needs before `seasonal = true` restricts it to the
+/// seasonal models: two full years, what they need to estimate a pattern.
+pub const SEASONAL_MIN_MONTHS: usize = 24;
+
+/// Whether a model estimates or adjusts for a seasonal pattern.
+pub fn is_seasonal_model(m: &dyn AnyModel) -> bool {
+    m.needs().seasonal || m.name() == "theta"
+}
+
 /// Runs backtest, selection and projection for one cleaned series.
 pub fn forecast_product(
     series: &CleanSeries,
@@ -185,28 +212,84 @@ pub fn forecast_product(
     settings: &CheckedForecastSettings,
     pinned: Option<&str>,
 ) -> ProductForecast {
+    let opts = ProductOptions {
+        model: pinned.map(str::to_string),
+        ..ProductOptions::default()
+    };
+    forecast_product_with(series, models, settings, &opts)
+}
+
+/// [`forecast_product`] with the product's own options.
+pub fn forecast_product_with(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+) -> ProductForecast {
+    let pinned = opts.model.as_deref();
+    // Every model the caller offered: a pinned model is used even when the
+    // demand pattern or the product's `seasonal` setting kept it out of the
+    // competition (the pin is the user's explicit choice).
+    let offered = models;
     let y = &series.values;
     let mask = scorable(series, settings.raw.backtest.exclude_imputed);
     let class = demand_class(y);
+    let mut warnings = Vec::new();
+    let mut notes = String::new();
+    let keep = |pick: &dyn Fn(&dyn AnyModel) -> bool| -> Vec<Box<dyn AnyModel>> {
+        candidates()
+            .into_iter()
+            .filter(|m| pick(m.as_ref()))
+            .filter(|m| models.iter().any(|x| x.name() == m.name()))
+            .collect()
+    };
+    let subset: Vec<Box<dyn AnyModel>>;
+    let forced_seasonal = opts.seasonal == Some(true) && y.len() >= SEASONAL_MIN_MONTHS;
+    let models: &[Box<dyn AnyModel>] = match opts.seasonal {
+        Some(false) => {
+            subset = keep(&|m| !is_seasonal_model(m));
+            notes.push_str("; seasonal = false for this product, so no seasonal model competed");
+            &subset
+        }
+        Some(true) if forced_seasonal => {
+            subset = keep(&|m| is_seasonal_model(m));
+            notes.push_str("; seasonal = true for this product, so only seasonal models competed");
+            &subset
+        }
+        Some(true) => {
+            warnings.push(format!(
+                "product '{}': seasonal = true, but {} months of history are fewer than the {SEASONAL_MIN_MONTHS} a seasonal pattern needs; every model competed",
+                series.product,
+                y.len()
+            ));
+            models
+        }
+        None => models,
+    };
     // Intermittent and lumpy demand is forecast by the methods made for it
     // (and moving averages, their simplest rival): smooth-demand models
     // fitted to mostly-zero months chase the zeros.
-    let subset: Vec<Box<dyn AnyModel>>;
-    let models: &[Box<dyn AnyModel>] = if class.is_intermittent() {
-        subset = candidates()
+    let subset2: Vec<Box<dyn AnyModel>>;
+    let models: &[Box<dyn AnyModel>] = if class.is_intermittent() && !forced_seasonal {
+        subset2 = candidates()
             .into_iter()
             .filter(|m| INTERMITTENT_METHODS.iter().any(|p| m.name().starts_with(p)))
             .filter(|m| models.iter().any(|x| x.name() == m.name()))
             .collect();
-        if subset.is_empty() {
+        if subset2.is_empty() {
             models
         } else {
-            &subset
+            &subset2
         }
     } else {
         models
     };
-    let bt = backtest::run(y, &mask, models, &settings.backtest, settings.select.score);
+    let too_short = opts.min_months.filter(|&m| y.len() < m);
+    let bt = match too_short {
+        // No model is backtested, so selection falls back below.
+        Some(_) => backtest::run(y, &mask, &[], &settings.backtest, settings.select.score),
+        None => backtest::run(y, &mask, models, &settings.backtest, settings.select.score),
+    };
     // Simplest applicable model, for series too short to backtest.
     let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
     by_simplicity.sort_by_key(|m| complexity(&m.name()));
@@ -215,8 +298,7 @@ pub fn forecast_product(
         .find(|m| m.needs().check(&m.name(), y).is_ok())
         .map(|m| m.name())
         .unwrap_or_else(|| "naive".to_string());
-    let mut warnings = Vec::new();
-    let known = |name: &str| name == COMBINATION || models.iter().any(|m| m.name() == name);
+    let known = |name: &str| name == COMBINATION || offered.iter().any(|m| m.name() == name);
     let pinned_ok = match pinned {
         Some(p) if !known(p) => {
             warnings.push(format!(
@@ -228,6 +310,20 @@ pub fn forecast_product(
         other => other,
     };
     let mut selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    if let Some(p) =
+        pinned_ok.filter(|p| *p != COMBINATION && !models.iter().any(|m| m.name() == *p))
+    {
+        selection.reason.push_str(&format!(
+            "; the pinned model {p} did not compete for this product, so it has no backtest score"
+        ));
+    }
+    if let Some(m) = too_short {
+        selection.reason = format!(
+            "not backtested: {} months of cleaned history, fewer than min_months = {m} set for this product; the simplest applicable model is used",
+            y.len()
+        );
+    }
+    selection.reason.push_str(&notes);
     if class.is_intermittent() {
         selection.reason.push_str(&format!(
             "; demand is {} (mean interval between demands {:.2} months > {ADI_CUTOFF}; Syntetos, Boylan & Croston, JORS 56, 2005), so only intermittent-demand methods and moving averages competed",
@@ -236,7 +332,12 @@ pub fn forecast_product(
         ));
     }
     let last = series.month(series.len().saturating_sub(1));
-    let find = |name: &str| models.iter().find(|m| m.name() == name).map(|m| m.as_ref());
+    let find = |name: &str| {
+        offered
+            .iter()
+            .find(|m| m.name() == name)
+            .map(|m| m.as_ref())
+    };
     let chosen_models: Vec<&dyn AnyModel> = if selection.chosen == COMBINATION {
         // Members for the projection: the best complete models on the full backtest.
         let mut ranked: Vec<(f64, &str)> = bt
@@ -323,15 +424,33 @@ pub fn forecast_all(
     pins: &HashMap<String, String>,
     progress: &(dyn Fn() + Sync),
 ) -> Vec<ProductForecast> {
+    let options: HashMap<String, ProductOptions> = pins
+        .iter()
+        .map(|(p, m)| {
+            let o = ProductOptions {
+                model: Some(m.clone()),
+                ..ProductOptions::default()
+            };
+            (p.clone(), o)
+        })
+        .collect();
+    forecast_all_with(series, settings, &options, progress)
+}
+
+/// [`forecast_all`] with each product's own options (products without an
+/// entry use the run's settings).
+pub fn forecast_all_with(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    options: &HashMap<String, ProductOptions>,
+    progress: &(dyn Fn() + Sync),
+) -> Vec<ProductForecast> {
+    let none = ProductOptions::default();
     series
         .par_iter()
         .map_init(candidates, |models, s| {
-            let r = forecast_product(
-                s,
-                models,
-                settings,
-                pins.get(&s.product).map(String::as_str),
-            );
+            let o = options.get(&s.product).unwrap_or(&none);
+            let r = forecast_product_with(s, models, settings, o);
             progress();
             r
         })
@@ -366,6 +485,24 @@ pub fn holdout_check(
     settings: &CheckedForecastSettings,
     holdout: usize,
 ) -> Option<HoldoutResult> {
+    holdout_check_with(
+        series,
+        models,
+        settings,
+        holdout,
+        &ProductOptions::default(),
+    )
+}
+
+/// [`holdout_check`] with the product's own options applied to the
+/// selection on the shortened history.
+pub fn holdout_check_with(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    opts: &ProductOptions,
+) -> Option<HoldoutResult> {
     let n = series.len();
     if n <= holdout + 24 {
         return None;
@@ -379,7 +516,7 @@ pub fn holdout_check(
     short.outlier.truncate(cut);
     let mut s = settings.clone();
     s.horizon = holdout;
-    let r = forecast_product(&short, models, &s, None);
+    let r = forecast_product_with(&short, models, &s, opts);
     let selected_forecast = r.projection.map(|p| p.forecast.point)?;
     let single = models
         .iter()
@@ -408,10 +545,22 @@ pub fn holdout_all(
     settings: &CheckedForecastSettings,
     holdout: usize,
 ) -> Vec<HoldoutResult> {
+    holdout_all_with(series, settings, holdout, &HashMap::new())
+}
+
+/// [`holdout_all`] with each product's own options.
+pub fn holdout_all_with(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    options: &HashMap<String, ProductOptions>,
+) -> Vec<HoldoutResult> {
+    let none = ProductOptions::default();
     series
         .par_iter()
         .map_init(candidates, |models, s| {
-            holdout_check(s, models, settings, holdout)
+            let o = options.get(&s.product).unwrap_or(&none);
+            holdout_check_with(s, models, settings, holdout, o)
         })
         .flatten()
         .collect()
@@ -434,5 +583,169 @@ mod tests {
             "lumpy"
         );
         assert!(demand_class(&[0.0; 5]).is_intermittent());
+    }
+
+    fn seasonal_series(n: usize) -> CleanSeries {
+        let values: Vec<f64> = (0..n)
+            .map(|t| {
+                let season = 40.0 * (2.0 * std::f64::consts::PI * t as f64 / 12.0).sin();
+                200.0 + season + ((t * 7) % 5) as f64
+            })
+            .collect();
+        CleanSeries::observed("P", crate::calendar::YearMonth::known(2020, 1), values)
+    }
+
+    fn run(series: &CleanSeries, opts: &ProductOptions) -> ProductForecast {
+        let settings = ForecastSettings::default().check().unwrap();
+        forecast_product_with(series, &candidates(), &settings, opts)
+    }
+
+    fn competed(r: &ProductForecast) -> Vec<String> {
+        r.scores
+            .iter()
+            .filter(|s| s.model != COMBINATION)
+            .map(|s| s.model.clone())
+            .collect()
+    }
+
+    #[test]
+    fn seasonal_option_decides_which_models_compete() {
+        let s = seasonal_series(60);
+        let seasonal: Vec<String> = candidates()
+            .iter()
+            .filter(|m| is_seasonal_model(m.as_ref()))
+            .map(|m| m.name())
+            .collect();
+        assert!(seasonal.contains(&"holt-winters-additive".to_string()));
+        let free = run(&s, &ProductOptions::default());
+        // On a strongly seasonal series a seasonal model wins by default.
+        assert!(
+            seasonal.contains(&free.selection.chosen) || free.selection.chosen == COMBINATION,
+            "{}",
+            free.selection.chosen
+        );
+        let off = run(
+            &s,
+            &ProductOptions {
+                seasonal: Some(false),
+                ..ProductOptions::default()
+            },
+        );
+        assert!(!competed(&off).is_empty());
+        assert!(
+            competed(&off).iter().all(|m| !seasonal.contains(m)),
+            "{:?}",
+            competed(&off)
+        );
+        assert!(!seasonal.contains(&off.selection.chosen));
+        assert!(
+            off.selection.reason.contains("seasonal = false"),
+            "{}",
+            off.selection.reason
+        );
+        let on = run(
+            &s,
+            &ProductOptions {
+                seasonal: Some(true),
+                ..ProductOptions::default()
+            },
+        );
+        assert!(
+            competed(&on).iter().all(|m| seasonal.contains(m)),
+            "{:?}",
+            competed(&on)
+        );
+        // Too short for a seasonal pattern: every model competes, with a warning.
+        let short = seasonal_series(20);
+        let r = run(
+            &short,
+            &ProductOptions {
+                seasonal: Some(true),
+                ..ProductOptions::default()
+            },
+        );
+        assert!(competed(&r).contains(&"naive".to_string()));
+        assert!(
+            r.warnings.iter().any(|w| w.contains("fewer than the 24")),
+            "{:?}",
+            r.warnings
+        );
+    }
+
+    #[test]
+    fn min_months_and_model_options_act() {
+        let s = seasonal_series(48);
+        let r = run(
+            &s,
+            &ProductOptions {
+                min_months: Some(60),
+                ..ProductOptions::default()
+            },
+        );
+        assert!(!r.selection.backtested);
+        assert!(
+            r.selection.reason.contains("min_months = 60"),
+            "{}",
+            r.selection.reason
+        );
+        assert!(r.projection.is_some(), "the fallback still projects");
+        let enough = run(
+            &s,
+            &ProductOptions {
+                min_months: Some(48),
+                ..ProductOptions::default()
+            },
+        );
+        assert!(enough.selection.backtested);
+        let pinned = run(
+            &s,
+            &ProductOptions {
+                model: Some("naive".into()),
+                ..ProductOptions::default()
+            },
+        );
+        assert_eq!(pinned.selection.chosen, "naive");
+        assert!(pinned.selection.pinned);
+        assert_eq!(
+            pinned.projection.as_ref().map(|p| p.model.as_str()),
+            Some("naive")
+        );
+        // A pinned seasonal model on a product set not seasonal is still used.
+        let both = run(
+            &s,
+            &ProductOptions {
+                seasonal: Some(false),
+                model: Some("holt-winters-additive".into()),
+                ..ProductOptions::default()
+            },
+        );
+        assert_eq!(
+            both.projection.as_ref().map(|p| p.model.as_str()),
+            Some("holt-winters-additive"),
+            "{:?}",
+            both.warnings
+        );
+        assert!(
+            both.selection.reason.contains("did not compete"),
+            "{}",
+            both.selection.reason
+        );
+        assert!(both.warnings.is_empty(), "{:?}", both.warnings);
+    }
+
+    #[test]
+    fn holdout_check_applies_product_options() {
+        let s = seasonal_series(60);
+        let settings = ForecastSettings::default().check().unwrap();
+        let opts = ProductOptions {
+            model: Some("naive".into()),
+            ..ProductOptions::default()
+        };
+        let r = holdout_check_with(&s, &candidates(), &settings, 12, &opts).unwrap();
+        assert_eq!(r.selected, "naive");
+        // Naive repeats the last month of the shortened history.
+        assert!(r.selected_forecast.iter().all(|&f| f == s.values[47]));
+        let free = holdout_check(&s, &candidates(), &settings, 12).unwrap();
+        assert_ne!(free.selected, "naive");
     }
 }

@@ -408,7 +408,11 @@ fn incomplete_past_directory_is_refused() {
     let mut lines: Vec<String> = fc.lines().map(str::to_string).collect();
     let mut cells: Vec<String> = lines[3].split(',').map(str::to_string).collect();
     let n = cells.len();
-    cells[n - 5] = "1,5".replace(',', ";");
+    // Counted from the end (product names may hold commas): the
+    // 'forecast' column, wherever later columns are added.
+    let header: Vec<&str> = fc.lines().next().unwrap().split(',').collect();
+    let from_end = header.len() - header.iter().position(|h| *h == "forecast").unwrap();
+    cells[n - from_end] = "1,5".replace(',', ";");
     lines[3] = cells.join(",");
     std::fs::write(bad.join("forecast.csv"), lines.join("\n")).unwrap();
     let out = refusal(&w, &bad, &demo());

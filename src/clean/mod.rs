@@ -9,7 +9,7 @@ pub mod stockout;
 
 pub use log::{Adjustment, Rule};
 
-use std::collections::HashSet;
+use std::collections::{BTreeMap, HashSet};
 
 use rayon::prelude::*;
 
@@ -29,6 +29,7 @@ use impute::{impute, usable_profile};
 /// | `site_trailing_fill` | 3 | 0–24: months a site may be filled after its last report |
 /// | `outlier_threshold` | 3.5 | > 0: modified z-score above which a month is flagged |
 /// | `replace_outliers` | false | replace flagged months by the robust expected value |
+/// | `stockout_days_by_product` | none | 0–31 per product: its own `max_stockout_days` |
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct CleanSettings {
     /// Stockout days above which a month is treated as missing.
@@ -43,6 +44,10 @@ pub struct CleanSettings {
     pub outlier_threshold: f64,
     /// Replace flagged outliers (otherwise only flag them).
     pub replace_outliers: bool,
+    /// Products with their own stockout threshold (days), replacing
+    /// `max_stockout_days` for that product.
+    #[serde(default, skip_serializing_if = "BTreeMap::is_empty")]
+    pub stockout_days_by_product: BTreeMap<String, f64>,
 }
 
 impl Default for CleanSettings {
@@ -54,6 +59,7 @@ impl Default for CleanSettings {
             site_trailing_fill: 3,
             outlier_threshold: outliers::DEFAULT_THRESHOLD,
             replace_outliers: false,
+            stockout_days_by_product: BTreeMap::new(),
         }
     }
 }
@@ -106,6 +112,14 @@ impl CleanSettings {
                 format!("must be a positive number, got {}", s.outlier_threshold),
             ));
         }
+        for (product, &d) in &s.stockout_days_by_product {
+            if !(0.0..=31.0).contains(&d) {
+                return Err(Error::setting(
+                    "max-stockout-days",
+                    format!("of product '{product}' must be between 0 and 31, got {d}"),
+                ));
+            }
+        }
         Ok(CheckedCleanSettings(self))
     }
 }
@@ -157,6 +171,23 @@ pub struct CleanSeries {
 }
 
 impl CleanSeries {
+    /// A series whose every month was reported as it stands and needs no
+    /// cleaning: for forecasting monthly values from Rust code (see
+    /// `examples/forecast_one_series.rs`).
+    pub fn observed(product: &str, start: YearMonth, values: Vec<f64>) -> CleanSeries {
+        let n = values.len();
+        CleanSeries {
+            product: product.to_string(),
+            start,
+            reported: values.iter().map(|&v| Some(v)).collect(),
+            values,
+            status: vec![MonthStatus::Reported; n],
+            imputed_share: vec![0.0; n],
+            outlier: vec![false; n],
+            sites: 1,
+        }
+    }
+
     /// Month of position `t`.
     pub fn month(&self, t: usize) -> YearMonth {
         self.start.plus(t as i64)
@@ -354,6 +385,19 @@ fn fmt_q(v: f64) -> String {
 }
 
 fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
+    // A product's own stockout threshold replaces the run's.
+    let own;
+    let s = match s.stockout_days_by_product.get(&p.product) {
+        Some(&d) => {
+            own = CleanSettings {
+                max_stockout_days: d,
+                stockout_days_by_product: BTreeMap::new(),
+                ..s.clone()
+            };
+            &own
+        }
+        None => s,
+    };
     let mut log = Vec::new();
     let mut warnings = Vec::new();
     let n = p.len();

@@ -292,3 +292,39 @@ fn a_site_whose_every_month_is_flagged_is_kept() {
     assert_eq!(s.values[28], 157659.0);
     assert!(c.verify(&ds).is_ok(), "{:?}", c.verify(&ds));
 }
+
+#[test]
+fn a_product_stockout_threshold_replaces_the_run_threshold() {
+    // 10 stockout days of 31 in January 2024: scaled by the run's limit of
+    // 15 days; treated as missing under a product limit of 8 days.
+    let text = "product,month,consumed,stockout_days\nA,2024-01,210,10\nA,2024-02,200,0\nB,2024-01,210,10\nB,2024-02,200,0\n";
+    let ds = read_csv_bytes("t.csv", text.as_bytes(), &ReadOptions::default()).unwrap();
+    let mut s = CleanSettings::default();
+    s.stockout_days_by_product.insert("A".into(), 8.0);
+    let c = clean(&ds, &s.check().unwrap());
+    let a = &c.series[0];
+    let b = &c.series[1];
+    assert_eq!((a.product.as_str(), b.product.as_str()), ("A", "B"));
+    assert_eq!(a.status[0], MonthStatus::Imputed);
+    assert!(c.log.iter().any(|e| e.product == "A"
+        && e.rule == Rule::StockoutMissing
+        && e.reason.contains("limit 8")));
+    // B keeps the run's limit: 210 × 31 ÷ 21 (the monthly stockout formula).
+    assert!((b.values[0] - 210.0 * 31.0 / 21.0).abs() < 1e-9);
+    reconciles(&ds, &c);
+    let mut bad = CleanSettings::default();
+    bad.stockout_days_by_product.insert("A".into(), 40.0);
+    let e = bad.check().unwrap_err().to_string();
+    assert!(e.contains("'A'") && e.contains("got 40"), "{e}");
+}
+
+#[test]
+fn settings_of_older_manifests_still_read() {
+    // Manifests written before per-product thresholds lack the key.
+    let old = r#"{"max_stockout_days":15.0,"reporting_floor":0.5,"nonreporting_weight":1.0,"site_trailing_fill":3,"outlier_threshold":3.5,"replace_outliers":false}"#;
+    let s: CleanSettings = serde_json::from_str(old).unwrap();
+    assert_eq!(s, CleanSettings::default());
+    // And settings without per-product thresholds are written as before.
+    let v = serde_json::to_value(CleanSettings::default()).unwrap();
+    assert!(v.get("stockout_days_by_product").is_none());
+}

@@ -17,13 +17,21 @@ pub struct CleanCmdArgs {
     /// Write into DIR even if it holds files provisio did not write.
     #[arg(long)]
     overwrite: bool,
+    /// Run configuration file (TOML): its [input] reading options, [cleaning] and the products' stockout thresholds apply; options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<std::path::PathBuf>,
     #[command(flatten)]
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
 }
 
-pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
+pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
+    let config = super::forecast::LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        c.apply_cleaning(given, &mut a.read, &mut a.clean)?;
+    }
+    let (config_file, config_sha256) = super::forecast::LoadedConfig::manifest(config.as_ref());
     let out = output::OutputDir::check(&a.out, a.overwrite)?;
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     out.prepare()?;
@@ -42,11 +50,32 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
         products_unusable: cleaned.unusable.len(),
         adjustments_by_rule: by_rule.clone(),
         warnings,
+        config_file,
+        config_sha256,
     };
     output::write_clean_manifest(&a.out.join("manifest.json"), &manifest)?;
     print_accounting(&ds, &cleaned, 10);
+    super::json_summary(|| {
+        let files = [
+            "cleaned.csv",
+            "adjustments.csv",
+            "rejected.csv",
+            "quality.csv",
+            "manifest.json",
+        ];
+        serde_json::json!({
+            "command": "clean",
+            "input": ds.source,
+            "out": a.out.display().to_string(),
+            "rows": cleaned.rows,
+            "products": cleaned.series.len(),
+            "products_unusable": cleaned.unusable.len(),
+            "adjustments_by_rule": by_rule,
+            "files": files.iter().map(|f| a.out.join(f).display().to_string()).collect::<Vec<_>>(),
+        })
+    });
     let months: usize = cleaned.series.iter().map(|s| s.len()).sum();
-    println!(
+    super::say!(
         "cleaned {} product(s), {} product-months{}",
         cleaned.series.len(),
         months,
@@ -57,9 +86,9 @@ pub fn run(a: CleanCmdArgs) -> anyhow::Result<()> {
         }
     );
     for (rule, n) in &by_rule {
-        println!("  {rule:<18} {n}");
+        super::say!("  {rule:<18} {n}");
     }
-    println!(
+    super::say!(
         "wrote cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         a.out.display()
     );

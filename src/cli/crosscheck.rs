@@ -68,7 +68,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     };
     warnings.extend(sv_warnings);
     if let Some(d) = &sv {
-        eprintln!(
+        super::note!(
             "services rows read: {} = {} accepted + {} rejected",
             d.rows_read,
             d.rows.len(),
@@ -80,11 +80,18 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
                 .as_deref()
                 .map(|c| format!(": column '{c}'"))
                 .unwrap_or_default();
-            eprintln!("rejected: {}:{}{col}: {}", d.source, r.line, r.reason);
+            eprintln!(
+                "{} {}:{}{col}: {}",
+                super::prefix("rejected", 33),
+                d.source,
+                r.line,
+                r.reason
+            );
         }
         if d.rejected.len() > 5 {
             eprintln!(
-                "rejected: ... and {} more (crosscheck_rejected.csv)",
+                "{} ... and {} more (crosscheck_rejected.csv)",
+                super::prefix("rejected", 33),
                 d.rejected.len() - 5
             );
         }
@@ -145,13 +152,13 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
 
     print_summary(&cc);
     for w in &warnings {
-        eprintln!("warning: {w}");
+        super::warn(w);
     }
     let mut wrote = vec!["crosscheck.csv", "crosscheck.json"];
     if sv.is_some() {
         wrote.extend(["crosscheck_services.csv", "crosscheck_rejected.csv"]);
     }
-    println!(
+    super::say!(
         "cross-checked {} product(s) for {} to {}; wrote {} in {}",
         cc.rows
             .iter()
@@ -162,15 +169,40 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         wrote.join(", "),
         dir.display()
     );
+    let mut report = None;
     if !a.no_report {
         let w = provisio::report::write_report(dir)?;
-        println!(
+        report = Some(w.report.display().to_string());
+        super::say!(
             "rebuilt {} with the cross-check section, and {} chart files (charts/)",
             w.report.display(),
             w.charts.len()
         );
     }
-    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    super::say!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "crosscheck",
+            "dir": dir.display().to_string(),
+            "period": {"start": start.to_string(), "end": start.plus(11).to_string()},
+            "threshold": threshold,
+            "estimates": cc.rows.iter().filter(|r| r.method != Method::Consumption).map(|r| {
+                let c = r.comparison.as_ref();
+                serde_json::json!({
+                    "product": r.product,
+                    "method": r.method.name(),
+                    "quantity": r.quantity,
+                    "consumption": r.consumption.map(|c| c.total),
+                    "ratio": c.and_then(|c| c.ratio),
+                    "flag": c.map(|c| c.flag.name()),
+                    "explanation": c.map(|c| c.explanation.clone()),
+                })
+            }).collect::<Vec<_>>(),
+            "files": wrote.iter().map(|f| dir.join(f).display().to_string()).collect::<Vec<_>>(),
+            "report": report,
+            "warnings": warnings,
+        })
+    });
     Ok(())
 }
 
@@ -184,7 +216,7 @@ fn print_summary(cc: &crosscheck::CrossCheck) {
         .clamp(7, 40);
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     let q = |v: Option<f64>| v.map(provisio::chart::fmt_quantity).unwrap_or("-".into());
-    println!(
+    super::say!(
         "{}  {:<12} {:>14} {:>14} {:>7}  flag",
         cut("product"),
         "method",
@@ -194,7 +226,7 @@ fn print_summary(cc: &crosscheck::CrossCheck) {
     );
     for r in cc.rows.iter().filter(|r| r.method != Method::Consumption) {
         let c = r.comparison.as_ref();
-        println!(
+        super::say!(
             "{}  {:<12} {:>14} {:>14} {:>7}  {}",
             cut(&r.product),
             r.method.name(),
@@ -212,7 +244,7 @@ fn print_summary(cc: &crosscheck::CrossCheck) {
             .as_ref()
             .filter(|c| matches!(c.flag, Flag::Above | Flag::Below))
         {
-            println!("{}: {}", super::truncate(&r.product, 60), c.explanation);
+            super::say!("{}: {}", super::truncate(&r.product, 60), c.explanation);
         }
     }
 }

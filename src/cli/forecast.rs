@@ -7,12 +7,16 @@ use std::time::Instant;
 use anyhow::Context;
 use clap::{Args, ValueEnum};
 
-use super::{load, load_until, print_accounting, CleanArgs, ReadArgs};
+use super::{
+    enum_value, load_until, note, print_accounting, say, warn, CleanArgs, Given, ReadArgs,
+};
 use provisio::backtest::BacktestSettings;
 use provisio::calendar::YearMonth;
+use provisio::config::RunConfig;
 use provisio::metrics::Score;
 use provisio::output;
-use provisio::pipeline::{forecast_all, ForecastSettings, ProductForecast};
+use provisio::pipeline::ProductOptions;
+use provisio::pipeline::{forecast_all_with, ForecastSettings, ProductForecast};
 use provisio::select::SelectSettings;
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -57,11 +61,17 @@ pub struct EvalArgs {
 
 #[derive(Args, Debug)]
 pub struct ForecastArgs {
-    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
-    data: PathBuf,
-    /// Directory for the outputs (created if needed).
+    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site); may instead come from the configuration file.
+    data: Option<PathBuf>,
+    /// Directory for the outputs (created if needed); may instead come from the configuration file.
     #[arg(long, value_name = "DIR")]
-    out: PathBuf,
+    out: Option<PathBuf>,
+    /// Run configuration file (TOML): every option of this command and per-product settings; options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<PathBuf>,
+    /// Write the effective configuration (every key) to FILE and stop, without forecasting.
+    #[arg(long, value_name = "FILE")]
+    write_config: Option<PathBuf>,
     /// Write into DIR even if it holds files provisio did not write.
     #[arg(long)]
     overwrite: bool,
@@ -86,6 +96,9 @@ pub struct ForecastArgs {
 pub struct BacktestArgs {
     /// Input CSV (long format).
     data: PathBuf,
+    /// Run configuration file (TOML); its input, cleaning, backtest and selection settings and products apply, options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<PathBuf>,
     /// Also write scores.csv and backtest.csv to this directory.
     #[arg(long, value_name = "DIR")]
     out: Option<PathBuf>,
@@ -102,6 +115,198 @@ pub struct BacktestArgs {
 
 fn parse_month(s: &str) -> Result<YearMonth, String> {
     YearMonth::parse(s)
+}
+
+/// A configuration file as loaded: its settings, its folder (relative
+/// paths in it start there), the path as given and its SHA-256.
+pub(super) struct LoadedConfig {
+    cfg: RunConfig,
+    dir: PathBuf,
+    path: PathBuf,
+    sha256: String,
+}
+
+impl LoadedConfig {
+    /// Applies the `[input]` reading options, `[cleaning]` and the
+    /// products' stockout thresholds (what `inspect` and `clean` use).
+    pub(super) fn apply_cleaning(
+        &self,
+        given: &Given,
+        read: &mut ReadArgs,
+        clean: &mut CleanArgs,
+    ) -> anyhow::Result<()> {
+        read.apply_config(&self.cfg.input, given)?;
+        clean.apply_config(&self.cfg.cleaning, given);
+        clean.apply_products(&self.cfg);
+        Ok(())
+    }
+
+    fn load(path: &Path) -> anyhow::Result<LoadedConfig> {
+        let bytes = std::fs::read(path)
+            .with_context(|| format!("{}: cannot read the configuration file", path.display()))?;
+        let text = String::from_utf8(bytes).map_err(|e| {
+            anyhow::anyhow!(
+                "{}: the configuration file is not UTF-8 text (bad byte at offset {}); save it as UTF-8",
+                path.display(),
+                e.utf8_error().valid_up_to()
+            )
+        })?;
+        let cfg = RunConfig::parse(&path.display().to_string(), &text)?;
+        use sha2::Digest;
+        let sha256 = sha2::Sha256::digest(text.as_bytes())
+            .iter()
+            .map(|b| format!("{b:02x}"))
+            .collect();
+        let dir = path
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(Path::new("."))
+            .to_path_buf();
+        Ok(LoadedConfig {
+            cfg,
+            dir,
+            path: path.to_path_buf(),
+            sha256,
+        })
+    }
+
+    pub(super) fn load_opt(path: Option<&PathBuf>) -> anyhow::Result<Option<LoadedConfig>> {
+        path.map(|p| LoadedConfig::load(p)).transpose()
+    }
+
+    /// A path written in the file, relative to its folder.
+    fn resolve(&self, p: &str) -> PathBuf {
+        let p = Path::new(p);
+        if p.is_absolute() {
+            p.to_path_buf()
+        } else {
+            self.dir.join(p)
+        }
+    }
+
+    /// Manifest entries: the file and its hash.
+    pub(super) fn manifest(c: Option<&LoadedConfig>) -> (Option<String>, Option<String>) {
+        match c {
+            Some(c) => (Some(c.path.display().to_string()), Some(c.sha256.clone())),
+            None => (None, None),
+        }
+    }
+}
+
+/// A path as written into a configuration file in `dir`: relative to that
+/// folder (with `..` as needed), absolute when they share no root.
+fn path_for_config(p: &Path, dir: &Path) -> String {
+    use std::path::Component;
+    let abs = |x: &Path| std::path::absolute(x).unwrap_or_else(|_| x.to_path_buf());
+    // Lexical: `a/./b` and `a/../b` folded so the common prefix is found.
+    fn norm(x: &Path) -> Vec<Component<'_>> {
+        let mut v: Vec<Component> = Vec::new();
+        for c in x.components() {
+            match c {
+                Component::CurDir => {}
+                Component::ParentDir if matches!(v.last(), Some(Component::Normal(_))) => {
+                    v.pop();
+                }
+                other => v.push(other),
+            }
+        }
+        v
+    }
+    let (pa, da) = (abs(p), abs(dir));
+    let (pc, dc) = (norm(&pa), norm(&da));
+    let common = pc.iter().zip(&dc).take_while(|(a, b)| a == b).count();
+    // Sharing only the root (or drive): an absolute path reads better than
+    // a climb to the root.
+    let named = pc[..common]
+        .iter()
+        .any(|c| matches!(c, Component::Normal(_)));
+    if !named {
+        return pa.display().to_string();
+    }
+    let mut rel = PathBuf::new();
+    for _ in common..dc.len() {
+        rel.push("..");
+    }
+    for c in &pc[common..] {
+        rel.push(c.as_os_str());
+    }
+    rel.display().to_string()
+}
+
+/// Applies a configuration to the options shared by every evaluating
+/// command (reading, cleaning, backtest, selection, per-product cleaning).
+fn apply_shared(
+    c: &LoadedConfig,
+    given: &Given,
+    read: &mut ReadArgs,
+    clean: &mut CleanArgs,
+    eval: &mut EvalArgs,
+) -> anyhow::Result<()> {
+    c.apply_cleaning(given, read, clean)?;
+    eval.apply_config(c, given)
+}
+
+impl EvalArgs {
+    fn apply_config(&mut self, c: &LoadedConfig, given: &Given) -> anyhow::Result<()> {
+        let (b, s) = (&c.cfg.backtest, &c.cfg.selection);
+        if let (Some(v), false) = (b.origins, given.cli("origins")) {
+            self.origins = v;
+        }
+        if let (Some(v), false) = (b.backtest_horizon, given.cli("backtest_horizon")) {
+            self.backtest_horizon = v;
+        }
+        if let (Some(v), false) = (b.score_imputed, given.cli("score_imputed")) {
+            self.score_imputed = v;
+        }
+        if let (Some(v), false) = (&b.backtest_detail, given.cli("backtest_detail")) {
+            self.backtest_detail = enum_value(v)?;
+        }
+        if let (Some(v), false) = (&s.select_by, given.cli("select_by")) {
+            self.select_by = enum_value(v)?;
+        }
+        if let (Some(v), false) = (s.tie_margin, given.cli("tie_margin")) {
+            self.tie_margin = v;
+        }
+        if let (Some(v), false) = (&s.pin, given.cli("pin")) {
+            self.pin = Some(c.resolve(v));
+        }
+        Ok(())
+    }
+
+    fn to_config(&self, cfg: &mut RunConfig, dir: &Path) {
+        let name = |v: &dyn Fn() -> Option<clap::builder::PossibleValue>| {
+            v().map(|p| p.get_name().to_string())
+        };
+        cfg.backtest.origins = Some(self.origins);
+        cfg.backtest.backtest_horizon = Some(self.backtest_horizon);
+        cfg.backtest.score_imputed = Some(self.score_imputed);
+        cfg.backtest.backtest_detail = name(&|| self.backtest_detail.to_possible_value());
+        cfg.selection.select_by = name(&|| self.select_by.to_possible_value());
+        cfg.selection.tie_margin = Some(self.tie_margin);
+        cfg.selection.pin = self.pin.as_ref().map(|p| path_for_config(p, dir));
+    }
+}
+
+/// The configuration names of the value enums defined here match the
+/// library's lists (a unit test calls this).
+#[cfg(test)]
+pub fn check_config_names() {
+    let names = |v: Vec<Option<clap::builder::PossibleValue>>| -> Vec<String> {
+        v.into_iter()
+            .flatten()
+            .map(|p| p.get_name().to_string())
+            .collect()
+    };
+    let scores = ScoreArg::value_variants()
+        .iter()
+        .map(|x| x.to_possible_value())
+        .collect();
+    assert_eq!(names(scores), provisio::config::SCORES);
+    let details = DetailArg::value_variants()
+        .iter()
+        .map(|x| x.to_possible_value())
+        .collect();
+    assert_eq!(names(details), provisio::config::DETAILS);
 }
 
 fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
@@ -180,6 +385,25 @@ type EvalRun = (
     f64,
 );
 
+/// Per-product options: the configuration's `[products]` tables, then the
+/// pin file (which wins over a product's `model` only when given on the
+/// command line).
+fn product_options(
+    cfg: Option<&LoadedConfig>,
+    pins: HashMap<String, String>,
+    pin_on_cli: bool,
+) -> HashMap<String, ProductOptions> {
+    let mut options = cfg.map(|c| c.cfg.product_options()).unwrap_or_default();
+    for (p, m) in pins {
+        let o = options.entry(p).or_default();
+        if pin_on_cli || o.model.is_none() {
+            o.model = Some(m);
+        }
+    }
+    options
+}
+
+#[allow(clippy::too_many_arguments)]
 fn run_eval(
     data: &Path,
     read: &ReadArgs,
@@ -187,6 +411,8 @@ fn run_eval(
     eval: &EvalArgs,
     horizon: usize,
     until: Option<YearMonth>,
+    cfg: Option<&LoadedConfig>,
+    given: &Given,
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
     let fs = settings(eval, horizon);
@@ -195,15 +421,27 @@ fn run_eval(
         Some(p) => read_pins(p)?,
         None => HashMap::new(),
     };
+    let pinned: Vec<String> = pins.keys().cloned().collect();
+    let options = product_options(cfg, pins, given.cli("pin"));
     let (ds, cleaned) = load_until(data, read, clean, until)?;
-    for p in pins.keys() {
-        if !cleaned.series.iter().any(|s| &s.product == p) {
-            eprintln!("warning: pinned product '{p}' is not in the data");
+    let known = |p: &str| cleaned.series.iter().any(|s| s.product == p);
+    for p in &pinned {
+        if !known(p) {
+            warn(&format!("pinned product '{p}' is not in the data"));
+        }
+    }
+    if let Some(c) = cfg {
+        for p in c.cfg.products.keys().filter(|p| !known(p)) {
+            warn(&format!(
+                "{}: [products.{}] names a product that is not in the data; its settings are not used",
+                c.path.display(),
+                toml_quote(p)
+            ));
         }
     }
     let total = cleaned.series.len();
     // indicatif draws only on a terminal; hidden otherwise (and for tiny runs).
-    let bar = if total >= 50 {
+    let bar = if total >= 50 && super::chatty() {
         indicatif::ProgressBar::new(total as u64)
     } else {
         indicatif::ProgressBar::hidden()
@@ -215,12 +453,25 @@ fn run_eval(
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
     );
     let progress = || bar.inc(1);
-    let results = forecast_all(&cleaned.series, &checked, &pins, &progress);
+    let results = forecast_all_with(&cleaned.series, &checked, &options, &progress);
     bar.finish_and_clear();
     Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64()))
 }
 
+/// A product name as a TOML key.
+fn toml_quote(p: &str) -> String {
+    serde_json::to_string(p).unwrap_or_else(|_| format!("\"{p}\""))
+}
+
 fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
+    for r in results {
+        for w in &r.warnings {
+            warn(w);
+        }
+    }
+    if !super::human() {
+        return;
+    }
     let w = results
         .iter()
         .map(|r| r.product.chars().count())
@@ -281,29 +532,164 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
         );
     }
     println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: its score above the chosen one; negative when the chosen model won a near-tie)");
-    for r in results {
-        for w in &r.warnings {
-            eprintln!("warning: {w}");
-        }
-    }
 }
 
-pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
-    let out = output::OutputDir::check(&a.out, a.overwrite)?;
-    let (ds, cleaned, results, fs, secs) =
-        run_eval(&a.data, &a.read, &a.clean, &a.eval, a.horizon, a.until)?;
+/// The machine-readable summary of one product (see README, "JSON summary").
+fn product_json(r: &ProductForecast) -> serde_json::Value {
+    let s = &r.selection;
+    let scores = s.chosen_scores.as_ref();
+    serde_json::json!({
+        "product": r.product,
+        "model": s.chosen,
+        "pinned": s.pinned,
+        "backtested": s.backtested,
+        "selected_by": s.score.name(),
+        "score": scores.and_then(|x| x.get(s.score)),
+        "mape_pct": scores.and_then(|x| x.mape),
+        "bias_pct": scores.and_then(|x| x.bias),
+        "wape_pct": scores.and_then(|x| x.wape),
+        "mase": scores.and_then(|x| x.mase),
+        "runner_up": s.runner_up.as_ref().map(|x| &x.0),
+        "runner_up_margin_pct": s.margin_pct,
+        "next_12_months": r.projection.as_ref().and_then(|p| p.totals.first()),
+        "reason": s.reason,
+        "warnings": r.warnings,
+    })
+}
+
+/// Applies the configuration file to `forecast`'s options (command-line
+/// values win) and resolves the input file and output folder.
+fn apply_forecast_config(
+    a: &mut ForecastArgs,
+    c: &LoadedConfig,
+    given: &Given,
+) -> anyhow::Result<()> {
+    apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
+    let cfg = &c.cfg;
+    if let (Some(v), None) = (&cfg.input.data, &a.data) {
+        a.data = Some(c.resolve(v));
+    }
+    if let (Some(v), false) = (&cfg.input.until, given.cli("until")) {
+        a.until = Some(
+            YearMonth::parse(v).map_err(|e| anyhow::anyhow!("{}: until: {e}", c.path.display()))?,
+        );
+    }
+    if let (Some(v), false) = (cfg.projection.horizon, given.cli("horizon")) {
+        a.horizon = v;
+    }
+    if let (Some(v), None) = (&cfg.output.out, &a.out) {
+        a.out = Some(c.resolve(v));
+    }
+    if let (Some(v), false) = (cfg.output.overwrite, given.cli("overwrite")) {
+        a.overwrite = v;
+    }
+    if let (Some(v), false) = (cfg.output.no_report, given.cli("no_report")) {
+        a.no_report = v;
+    }
+    Ok(())
+}
+
+/// The effective configuration of a `forecast` run, paths relative to `dir`
+/// (the folder of the file it will be written to).
+fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> RunConfig {
+    let mut cfg = RunConfig {
+        products: c.map(|c| c.cfg.products.clone()).unwrap_or_default(),
+        ..RunConfig::default()
+    };
+    cfg.input.data = a.data.as_ref().map(|p| path_for_config(p, dir));
+    cfg.input.until = a.until.map(|m| m.to_string());
+    a.read.to_config(&mut cfg.input);
+    cfg.cleaning = a.clean.to_config();
+    a.eval.to_config(&mut cfg, dir);
+    cfg.projection.horizon = Some(a.horizon);
+    cfg.output.out = a.out.as_ref().map(|p| path_for_config(p, dir));
+    cfg.output.overwrite = Some(a.overwrite);
+    cfg.output.no_report = Some(a.no_report);
+    cfg
+}
+
+pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
+    let config = LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        apply_forecast_config(&mut a, c, given)?;
+    }
+    if let Some(path) = &a.write_config {
+        let dir = path
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        let cfg = effective_config(&a, config.as_ref(), dir);
+        // Refuse what the run would refuse, before writing it down.
+        cfg.clean_settings(a.clean.settings()).check()?;
+        settings(&a.eval, a.horizon).check()?;
+        let text = cfg.to_toml();
+        if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
+            std::fs::create_dir_all(parent)
+                .with_context(|| format!("{}: cannot create the folder", parent.display()))?;
+        }
+        output::write_atomic(path, |w| w.write_all(text.as_bytes()))?;
+        note!(
+            "wrote the configuration to {}; run it with `provisio forecast --config {}`",
+            path.display(),
+            path.display()
+        );
+        super::json_summary(
+            || serde_json::json!({ "command": "forecast", "config_written": path.display().to_string() }),
+        );
+        return Ok(());
+    }
+    let data = a.data.clone().ok_or_else(|| {
+        super::usage_error(
+            "forecast",
+            "no input file: give DATA, or set data in the [input] section of a --config file",
+        )
+    })?;
+    let out_path = a.out.clone().ok_or_else(|| {
+        super::usage_error(
+            "forecast",
+            "no output folder: give --out DIR, or set out in the [output] section of a --config file",
+        )
+    })?;
+    let out = output::OutputDir::check(&out_path, a.overwrite)?;
+    let (ds, cleaned, results, fs, secs) = run_eval(
+        &data,
+        &a.read,
+        &a.clean,
+        &a.eval,
+        a.horizon,
+        a.until,
+        config.as_ref(),
+        given,
+    )?;
     out.prepare()?;
+    let a_out = out_path.clone();
     let starts: Vec<_> = cleaned
         .series
         .iter()
         .map(|s| (s.product.clone(), s.start))
         .collect();
-    output::write_forecast(&a.out.join("forecast.csv"), &results)?;
-    output::write_selection(&a.out.join("selection.csv"), &results)?;
-    output::write_scores(&a.out.join("scores.csv"), &results)?;
-    output::write_scores_by_horizon(&a.out.join("scores_by_horizon.csv"), &results)?;
-    output::write_backtest(&a.out.join("backtest.csv"), &results, &starts)?;
-    let (by_rule, mut warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
+    let units: HashMap<String, output::Units> = config
+        .as_ref()
+        .map(|c| {
+            c.cfg
+                .products
+                .iter()
+                .map(|(p, s)| {
+                    let u = output::Units {
+                        units: s.units.clone(),
+                        pack_size: s.pack_size,
+                    };
+                    (p.clone(), u)
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    output::write_forecast_units(&a_out.join("forecast.csv"), &results, &units)?;
+    output::write_selection(&a_out.join("selection.csv"), &results)?;
+    output::write_scores(&a_out.join("scores.csv"), &results)?;
+    output::write_scores_by_horizon(&a_out.join("scores_by_horizon.csv"), &results)?;
+    output::write_backtest(&a_out.join("backtest.csv"), &results, &starts)?;
+    let (by_rule, mut warnings) = super::write_clean_outputs(&a_out, &ds, &cleaned)?;
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     let manifest = serde_json::json!({
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
@@ -318,6 +704,9 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "encoding": a.read.options().encoding.name(),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
+        "config_file": LoadedConfig::manifest(config.as_ref()).0,
+        "config_sha256": LoadedConfig::manifest(config.as_ref()).1,
+        "product_settings": config.as_ref().map(|c| &c.cfg.products),
         "candidates": provisio::models::candidates().iter().map(|m| m.name()).collect::<Vec<_>>(),
         "scored_against": "cleaned series",
         "rows": cleaned.rows,
@@ -327,41 +716,91 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "seconds": secs,
         "warnings": warnings,
     });
-    output::write_json(&a.out.join("manifest.json"), &manifest)?;
+    output::write_json(&a_out.join("manifest.json"), &manifest)?;
     let report = if a.no_report {
         None
     } else {
-        Some(provisio::report::write_report(&a.out)?)
+        Some(provisio::report::write_report(&a_out)?)
     };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
-    println!(
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "forecast",
+            "input": ds.source,
+            "out": a_out.display().to_string(),
+            "horizon": a.horizon,
+            "config_file": LoadedConfig::manifest(config.as_ref()).0,
+            "rows": cleaned.rows,
+            "products": results.iter().map(product_json).collect::<Vec<_>>(),
+            "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
+            "files": forecast_files(&a_out, report.as_ref().map(|r| r.charts.len())),
+            "seconds": secs,
+        })
+    });
+    say!(
         "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         results.len(),
         a.horizon,
         secs,
-        a.out.display()
+        a_out.display()
     );
     match report {
-        Some(r) => println!(
+        Some(r) => say!(
             "wrote report.html and {} chart files (charts/)",
             r.charts.len()
         ),
-        None => println!(
+        None => say!(
             "no charts or report.html (--no-report); `provisio report {}` builds them",
-            a.out.display()
+            a_out.display()
         ),
     }
-    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    say!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
 }
 
-pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
+/// Output files of a forecast run, with their paths.
+fn forecast_files(out: &Path, charts: Option<usize>) -> Vec<String> {
+    let mut names = vec![
+        "forecast.csv",
+        "selection.csv",
+        "scores.csv",
+        "scores_by_horizon.csv",
+        "backtest.csv",
+        "cleaned.csv",
+        "adjustments.csv",
+        "rejected.csv",
+        "quality.csv",
+        "manifest.json",
+    ];
+    if charts.is_some() {
+        names.push("report.html");
+    }
+    names
+        .iter()
+        .map(|n| out.join(n).display().to_string())
+        .collect()
+}
+
+pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
+    let config = LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
+    }
     let out_dir = match &a.out {
         Some(out) => Some(output::OutputDir::check(out, a.overwrite)?),
         None => None,
     };
-    let (ds, cleaned, results, _, secs) = run_eval(&a.data, &a.read, &a.clean, &a.eval, 12, None)?;
+    let (ds, cleaned, results, _, secs) = run_eval(
+        &a.data,
+        &a.read,
+        &a.clean,
+        &a.eval,
+        12,
+        None,
+        config.as_ref(),
+        given,
+    )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
     if let (Some(out), Some(dir)) = (&a.out, &out_dir) {
@@ -375,15 +814,25 @@ pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
         output::write_scores_by_horizon(&out.join("scores_by_horizon.csv"), &results)?;
         output::write_backtest(&out.join("backtest.csv"), &results, &starts)?;
         output::write_selection(&out.join("selection.csv"), &results)?;
-        println!(
+        say!(
             "wrote scores.csv, scores_by_horizon.csv, backtest.csv, selection.csv in {}",
             out.display()
         );
     }
-    println!(
+    say!(
         "backtest of {} product(s) in {secs:.1} s (scored against the cleaned series)",
         results.len()
     );
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "backtest",
+            "input": ds.source,
+            "out": a.out.as_ref().map(|p| p.display().to_string()),
+            "rows": cleaned.rows,
+            "products": results.iter().map(product_json).collect::<Vec<_>>(),
+            "seconds": secs,
+        })
+    });
     Ok(())
 }
 
@@ -391,6 +840,9 @@ pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
 pub struct EvaluateArgs {
     /// Input CSV (long format).
     data: PathBuf,
+    /// Run configuration file (TOML); its input, cleaning, backtest and selection settings apply, options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<PathBuf>,
     /// Months hidden at the end of each series and forecast out of sample.
     #[arg(long, default_value_t = 12, value_name = "MONTHS")]
     holdout: usize,
@@ -481,7 +933,11 @@ impl Tally {
     }
 }
 
-pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
+pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
+    let config = LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
+    }
     if a.holdout == 0 || a.holdout > provisio::project::MAX_HORIZON {
         anyhow::bail!(
             "--holdout must be 1-{}, got {}",
@@ -491,9 +947,15 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
     }
     let fs = settings(&a.eval, a.holdout);
     let checked = fs.check()?;
-    let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
+    let (ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
     let t0 = Instant::now();
-    let results = provisio::pipeline::holdout_all(&cleaned.series, &checked, a.holdout);
+    let pins = match &a.eval.pin {
+        Some(p) => read_pins(p)?,
+        None => HashMap::new(),
+    };
+    let options = product_options(config.as_ref(), pins, given.cli("pin"));
+    let results =
+        provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
     print_accounting(&ds, &cleaned, 5);
     if results.is_empty() {
         anyhow::bail!(
@@ -524,18 +986,24 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
     });
     let fmt = |v: Option<f64>| v.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into());
     let fmt3 = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_else(|| "-".into());
-    println!(
+    say!(
         "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
         a.holdout
     );
-    println!(
+    say!(
         "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
-        "method", "products", "mean MAPE", "median MAPE", "mean MASE", "WAPE", "bias"
+        "method",
+        "products",
+        "mean MAPE",
+        "median MAPE",
+        "mean MASE",
+        "WAPE",
+        "bias"
     );
     let mut rows = vec![&selected];
     rows.extend(all.iter().copied());
     for t in &rows {
-        println!(
+        say!(
             "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
             t.name,
             t.products,
@@ -547,7 +1015,7 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
         );
     }
     if let Some(best) = all.first() {
-        println!(
+        say!(
             "best single model applied to every product: {} (mean MAPE {}); selection: {}",
             best.name,
             fmt(best.mape()),
@@ -559,17 +1027,37 @@ pub fn run_evaluate(a: EvaluateArgs) -> anyhow::Result<()> {
         .filter_map(|t| t.mase().map(|m| (m, t)))
         .min_by(|x, y| x.0.total_cmp(&y.0));
     if let Some((m, t)) = best_mase {
-        println!(
+        say!(
             "best single model by mean MASE: {} ({}); selection: {}",
             t.name,
             fmt3(Some(m)),
             fmt3(selected.mase())
         );
     }
-    println!(
+    say!(
         "(models that did not apply to every product are left out of this table; {:.1} s)",
         t0.elapsed().as_secs_f64()
     );
+    super::json_summary(|| {
+        let row = |t: &Tally| {
+            serde_json::json!({
+                "method": t.name,
+                "products": t.products,
+                "mean_mape_pct": t.mape(),
+                "median_mape_pct": t.median_mape(),
+                "mean_mase": t.mase(),
+                "wape_pct": t.wape(),
+                "bias_pct": t.bias(),
+            })
+        };
+        serde_json::json!({
+            "command": "evaluate",
+            "input": ds.source,
+            "holdout": a.holdout,
+            "products": n,
+            "methods": rows.iter().map(|t| row(t)).collect::<Vec<_>>(),
+        })
+    });
     if let Some(path) = &a.csv {
         output::write_atomic(path, |w| {
             let mut c = csv::Writer::from_writer(w);

@@ -37,7 +37,18 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
     };
     let rows = provisio::generate::generate(&sc);
     provisio::output::write_atomic(&a.out, |w| provisio::generate::write_rows(w, &rows))?;
-    eprintln!(
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "generate",
+            "out": a.out.display().to_string(),
+            "rows": rows.len(),
+            "products": sc.products.len(),
+            "sites": sc.sites.len(),
+            "months": sc.months,
+            "invented": true,
+        })
+    });
+    super::note!(
         "wrote {} rows ({} products x {} sites x {} months, invented data) to {}",
         rows.len(),
         sc.products.len(),

@@ -16,22 +16,46 @@ pub struct InspectArgs {
     /// Write rejected rows, with reasons, to this file.
     #[arg(long, value_name = "FILE")]
     rejected: Option<PathBuf>,
+    /// Run configuration file (TOML): its [input] reading options, [cleaning] and the products' stockout thresholds apply; options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<std::path::PathBuf>,
     #[command(flatten)]
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
 }
 
-pub fn run(a: InspectArgs) -> anyhow::Result<()> {
+pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
+    let config = super::forecast::LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        c.apply_cleaning(given, &mut a.read, &mut a.clean)?;
+    }
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let profiles = provisio::quality::profile_all(&cleaned);
+    super::json_summary(|| {
+        let products: Vec<serde_json::Value> = profiles
+            .iter()
+            .map(|p| {
+                let mut v = serde_json::to_value(p).unwrap_or_default();
+                v["verdict_text"] = serde_json::Value::from(p.verdict_text());
+                v
+            })
+            .collect();
+        serde_json::json!({
+            "command": "inspect",
+            "input": ds.source,
+            "rows": cleaned.rows,
+            "products": products,
+            "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
+        })
+    });
     let name_w = profiles
         .iter()
         .map(|p| p.product.chars().count())
         .max()
         .unwrap_or(7)
         .clamp(7, 40);
-    println!(
+    super::say!(
         "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>5} {:>8}  verdict",
         pad("product", name_w),
         "sites",
@@ -48,7 +72,7 @@ pub fn run(a: InspectArgs) -> anyhow::Result<()> {
             (Some(m), Some(lo)) => format!("{:.0}/{:.0}%", m * 100.0, lo * 100.0),
             _ => "-".to_string(),
         };
-        println!(
+        super::say!(
             "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>4.0}% {:>8}  {}",
             pad(&truncate(&p.product, name_w), name_w),
             p.sites,
@@ -62,19 +86,19 @@ pub fn run(a: InspectArgs) -> anyhow::Result<()> {
             p.verdict.name()
         );
     }
-    println!();
+    super::say!();
     for p in &profiles {
-        println!("{}: {}", truncate(&p.product, 60), p.verdict_text());
+        super::say!("{}: {}", truncate(&p.product, 60), p.verdict_text());
     }
-    println!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
+    super::say!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
     print_accounting(&ds, &cleaned, 20);
     if let Some(path) = &a.csv {
         provisio::output::write_quality(path, &profiles)?;
-        eprintln!("wrote {}", path.display());
+        super::note!("wrote {}", path.display());
     }
     if let Some(path) = &a.rejected {
         provisio::output::write_rejected(path, &ds.source, &ds.rejected)?;
-        eprintln!("wrote {}", path.display());
+        super::note!("wrote {}", path.display());
     }
     Ok(())
 }

@@ -2,6 +2,7 @@
 
 mod clean;
 mod crosscheck;
+mod docs;
 mod forecast;
 mod generate;
 mod inspect;
@@ -10,15 +11,114 @@ mod plan;
 mod report;
 mod review;
 
-use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::io::IsTerminal;
+use std::sync::OnceLock;
+
+use clap::parser::ValueSource;
+use clap::{ArgMatches, Args, CommandFactory, FromArgMatches, Parser, Subcommand, ValueEnum};
 
 /// Forecast monthly consumption of public-health commodities from facility
 /// reports, with every adjustment to the data logged.
 #[derive(Parser, Debug)]
-#[command(name = "provisio", version, about, long_about = None)]
+#[command(
+    name = "provisio",
+    version,
+    about,
+    long_about = None,
+    after_help = "Exit codes: 0 success; 1 input, data or configuration refused (the message says where and why); 2 command-line usage error.\nColour: only on a terminal, never when NO_COLOR is set.\n\nExample:\n  provisio forecast datasets/demo/consumption.csv --config datasets/demo/run.toml --out demo-output"
+)]
 pub struct Cli {
+    /// No progress bar, no summary (warnings and errors still go to standard error).
+    #[arg(long, short, global = true)]
+    quiet: bool,
+    /// Print a machine-readable summary (JSON) on standard output instead of the tables.
+    #[arg(long, global = true)]
+    json: bool,
     #[command(subcommand)]
     command: Command,
+}
+
+/// How much the binary prints, set once from the global options.
+#[derive(Debug, Clone, Copy, Default)]
+struct Mode {
+    quiet: bool,
+    json: bool,
+}
+
+static MODE: OnceLock<Mode> = OnceLock::new();
+
+fn mode() -> Mode {
+    MODE.get().copied().unwrap_or_default()
+}
+
+/// Whether the human summary is printed (not with --quiet or --json).
+fn human() -> bool {
+    let m = mode();
+    !m.quiet && !m.json
+}
+
+/// Whether progress and notes go to standard error (not with --quiet).
+fn chatty() -> bool {
+    !mode().quiet
+}
+
+/// Prints the JSON summary on standard output when --json was given.
+fn json_summary(value: impl FnOnce() -> serde_json::Value) {
+    if mode().json {
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&value()).unwrap_or_default()
+        );
+    }
+}
+
+/// `println!` for the human summary: silent with --quiet or --json.
+macro_rules! say {
+    ($($t:tt)*) => {
+        if $crate::cli::human() {
+            println!($($t)*);
+        }
+    };
+}
+/// `eprintln!` for notes and progress: silent with --quiet.
+macro_rules! note {
+    ($($t:tt)*) => {
+        if $crate::cli::chatty() {
+            eprintln!($($t)*);
+        }
+    };
+}
+pub(crate) use {note, say};
+
+/// Whether to colour a stream: only a terminal, and never when `NO_COLOR`
+/// is set to anything non-empty (no-color.org).
+fn colour_allowed(is_terminal: bool, no_color: Option<std::ffi::OsString>) -> bool {
+    is_terminal && no_color.map_or(true, |v| v.is_empty())
+}
+
+fn stderr_colour() -> bool {
+    static C: OnceLock<bool> = OnceLock::new();
+    *C.get_or_init(|| {
+        colour_allowed(
+            std::io::stderr().is_terminal(),
+            std::env::var_os("NO_COLOR"),
+        )
+    })
+}
+
+/// A message prefix such as `warning:`, bold and coloured when allowed
+/// (`code`: an ANSI colour number).
+fn prefix(word: &str, code: u8) -> String {
+    if stderr_colour() {
+        format!("\x1b[1;{code}m{word}:\x1b[0m")
+    } else {
+        format!("{word}:")
+    }
+}
+
+/// Prints a warning on standard error (also with --quiet).
+fn warn(message: &str) {
+    eprintln!("{} {message}", prefix("warning", 33));
 }
 
 #[derive(Subcommand, Debug)]
@@ -72,8 +172,16 @@ enum Command {
     )]
     Generate(generate::GenerateArgs),
     /// List the candidate forecasting models: name, what each needs from a series, and what it is.
-    #[command(after_help = "Example:\n  provisio models --csv models.csv")]
+    #[command(after_help = "Examples:\n  provisio models\n  provisio models --csv models.csv")]
     Models(models::ModelsArgs),
+    /// Print a shell completion script on standard output.
+    #[command(
+        after_help = "Examples:\n  provisio completions bash > ~/.local/share/bash-completion/completions/provisio\n  provisio completions zsh > ~/.zfunc/_provisio\n  provisio completions fish > ~/.config/fish/completions/provisio.fish"
+    )]
+    Completions(docs::CompletionsArgs),
+    /// Write the manual pages (provisio.1 and one per command) to a folder.
+    #[command(after_help = "Example:\n  provisio man --out man/ && man man/provisio-forecast.1")]
+    Man(docs::ManArgs),
 }
 
 /// Options shared by every command that reads input data.
@@ -122,6 +230,33 @@ enum Duplicates {
 }
 
 impl ReadArgs {
+    /// Takes the `[input]` values of the configuration for options not
+    /// given on the command line.
+    fn apply_config(
+        &mut self,
+        c: &provisio::config::InputSection,
+        given: &Given,
+    ) -> anyhow::Result<()> {
+        if let (Some(v), false) = (&c.duplicates, given.cli("duplicates")) {
+            self.duplicates = enum_value(v)?;
+        }
+        if let (Some(v), false) = (&c.numbers, given.cli("numbers")) {
+            self.numbers = enum_value(v)?;
+        }
+        if let (Some(v), false) = (&c.encoding, given.cli("encoding")) {
+            self.encoding = enum_value(v)?;
+        }
+        Ok(())
+    }
+
+    /// The `[input]` values in effect.
+    fn to_config(&self, c: &mut provisio::config::InputSection) {
+        let o = self.options();
+        c.duplicates = Some(format!("{:?}", o.duplicates).to_lowercase());
+        c.numbers = Some(o.numbers.name().to_string());
+        c.encoding = Some(o.encoding.name().to_string());
+    }
+
     fn options(&self) -> provisio::data::ReadOptions {
         provisio::data::ReadOptions {
             duplicates: match self.duplicates {
@@ -175,9 +310,73 @@ pub struct CleanArgs {
     /// Replace flagged outliers by their robust expected value (default: flag only).
     #[arg(long)]
     replace_outliers: bool,
+    /// Stockout thresholds of single products (from the configuration file).
+    #[arg(skip)]
+    stockout_days_by_product: std::collections::BTreeMap<String, f64>,
 }
 
 impl CleanArgs {
+    /// Takes the `[cleaning]` values of the configuration for options not
+    /// given on the command line.
+    fn apply_config(&mut self, c: &provisio::config::CleaningSection, given: &Given) {
+        fn set<T: Copy>(field: &mut T, v: Option<T>, on_cli: bool) {
+            if let (Some(v), false) = (v, on_cli) {
+                *field = v;
+            }
+        }
+        set(
+            &mut self.max_stockout_days,
+            c.max_stockout_days,
+            given.cli("max_stockout_days"),
+        );
+        set(
+            &mut self.reporting_floor,
+            c.reporting_floor,
+            given.cli("reporting_floor"),
+        );
+        set(
+            &mut self.nonreporting_weight,
+            c.nonreporting_weight,
+            given.cli("nonreporting_weight"),
+        );
+        set(
+            &mut self.site_trailing_fill,
+            c.site_trailing_fill,
+            given.cli("site_trailing_fill"),
+        );
+        set(
+            &mut self.outlier_threshold,
+            c.outlier_threshold,
+            given.cli("outlier_threshold"),
+        );
+        set(
+            &mut self.replace_outliers,
+            c.replace_outliers,
+            given.cli("replace_outliers"),
+        );
+    }
+
+    /// Takes each product's own stockout threshold from the configuration.
+    fn apply_products(&mut self, cfg: &provisio::config::RunConfig) {
+        for (name, p) in &cfg.products {
+            if let Some(d) = p.max_stockout_days {
+                self.stockout_days_by_product.insert(name.clone(), d);
+            }
+        }
+    }
+
+    /// The `[cleaning]` values in effect.
+    fn to_config(&self) -> provisio::config::CleaningSection {
+        provisio::config::CleaningSection {
+            max_stockout_days: Some(self.max_stockout_days),
+            reporting_floor: Some(self.reporting_floor),
+            nonreporting_weight: Some(self.nonreporting_weight),
+            site_trailing_fill: Some(self.site_trailing_fill),
+            outlier_threshold: Some(self.outlier_threshold),
+            replace_outliers: Some(self.replace_outliers),
+        }
+    }
+
     fn settings(&self) -> provisio::clean::CleanSettings {
         provisio::clean::CleanSettings {
             max_stockout_days: self.max_stockout_days,
@@ -186,6 +385,7 @@ impl CleanArgs {
             site_trailing_fill: self.site_trailing_fill,
             outlier_threshold: self.outlier_threshold,
             replace_outliers: self.replace_outliers,
+            stockout_days_by_product: self.stockout_days_by_product.clone(),
         }
     }
 }
@@ -195,27 +395,77 @@ const EXIT_REFUSED: i32 = 1;
 
 /// Parses arguments and runs the command; returns the exit code.
 pub fn run() -> i32 {
-    let cli = Cli::parse();
+    // Usage errors, --help and --version exit here (2 for usage errors).
+    let matches = Cli::command().get_matches();
+    let cli = match Cli::from_arg_matches(&matches) {
+        Ok(c) => c,
+        Err(e) => e.exit(),
+    };
+    let _ = MODE.set(Mode {
+        quiet: cli.quiet,
+        json: cli.json,
+    });
+    let sub = matches
+        .subcommand()
+        .map(|(_, m)| m.clone())
+        .unwrap_or_default();
+    let given = Given(&sub);
     let result = match cli.command {
-        Command::Forecast(a) => forecast::run_forecast(a),
-        Command::Backtest(a) => forecast::run_backtest(a),
-        Command::Evaluate(a) => forecast::run_evaluate(a),
-        Command::Inspect(a) => inspect::run(a),
-        Command::Clean(a) => clean::run(a),
+        Command::Forecast(a) => forecast::run_forecast(a, &given),
+        Command::Backtest(a) => forecast::run_backtest(a, &given),
+        Command::Evaluate(a) => forecast::run_evaluate(a, &given),
+        Command::Inspect(a) => inspect::run(a, &given),
+        Command::Clean(a) => clean::run(a, &given),
         Command::Report(a) => report::run(a),
         Command::Review(a) => review::run(a),
         Command::Crosscheck(a) => crosscheck::run(a),
         Command::Plan(a) => plan::run(a),
         Command::Generate(a) => generate::run(a),
         Command::Models(a) => models::run(a),
+        Command::Completions(a) => docs::completions(a),
+        Command::Man(a) => docs::man(a),
     };
     match result {
         Ok(()) => 0,
+        Err(e) if e.downcast_ref::<clap::Error>().is_some() => {
+            let code = e.downcast_ref::<clap::Error>().map_or(2, |c| c.exit_code());
+            if let Some(c) = e.downcast_ref::<clap::Error>() {
+                let _ = c.print();
+            }
+            code
+        }
         Err(e) => {
-            eprintln!("error: {e:#}");
+            eprintln!("{} {e:#}", prefix("error", 31));
             EXIT_REFUSED
         }
     }
+}
+
+/// A usage error of a command found after parsing (exit code 2, like
+/// clap's own).
+fn usage_error(command: &str, message: &str) -> anyhow::Error {
+    let mut cmd = Cli::command();
+    cmd.build();
+    let mut sub = cmd.find_subcommand(command).cloned().unwrap_or(cmd);
+    anyhow::Error::new(sub.error(clap::error::ErrorKind::MissingRequiredArgument, message))
+}
+
+/// Which options the user gave on the command line (they override the
+/// configuration file).
+struct Given<'a>(&'a ArgMatches);
+
+impl Given<'_> {
+    /// Whether the option with this id (the field name) was given on the
+    /// command line, not left at its default.
+    fn cli(&self, id: &str) -> bool {
+        self.0.value_source(id) == Some(ValueSource::CommandLine)
+    }
+}
+
+/// Parses a value name of a clap value enum (the configuration was checked
+/// against the same names, so a miss is a bug caught by a test).
+fn enum_value<T: ValueEnum>(name: &str) -> anyhow::Result<T> {
+    T::from_str(name, true).map_err(|e| anyhow::anyhow!("{e}"))
 }
 
 /// Reads and cleans an input file, as `inspect` and `clean` both do.
@@ -267,7 +517,7 @@ fn print_accounting(
     quiet_rows: usize,
 ) {
     let r = cleaned.rows;
-    eprintln!(
+    note!(
         "rows read: {} = {} used as reported + {} adjusted + {} rejected{}",
         r.read,
         r.used,
@@ -280,7 +530,7 @@ fn print_accounting(
         }
     );
     for w in &ds.warnings {
-        eprintln!("warning: {w}");
+        warn(w);
     }
     for rej in ds.rejected.iter().take(quiet_rows) {
         let col = rej
@@ -288,19 +538,29 @@ fn print_accounting(
             .as_deref()
             .map(|c| format!(": column '{c}'"))
             .unwrap_or_default();
-        eprintln!("rejected: {}:{}{col}: {}", ds.source, rej.line, rej.reason);
+        eprintln!(
+            "{} {}:{}{col}: {}",
+            prefix("rejected", 33),
+            ds.source,
+            rej.line,
+            rej.reason
+        );
     }
     if ds.rejected.len() > quiet_rows {
-        eprintln!("rejected: ... and {} more", ds.rejected.len() - quiet_rows);
+        eprintln!(
+            "{} ... and {} more",
+            prefix("rejected", 33),
+            ds.rejected.len() - quiet_rows
+        );
     }
     for w in cleaned.warnings.iter().take(quiet_rows) {
-        eprintln!("warning: {w}");
+        warn(w);
     }
     if cleaned.warnings.len() > quiet_rows {
-        eprintln!(
-            "warning: ... and {} more",
+        warn(&format!(
+            "... and {} more",
             cleaned.warnings.len() - quiet_rows
-        );
+        ));
     }
 }
 
@@ -336,4 +596,87 @@ fn truncate(s: &str, n: usize) -> String {
 fn pad(s: &str, n: usize) -> String {
     let len = s.chars().count();
     format!("{s}{}", " ".repeat(n.saturating_sub(len)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn colour_only_on_a_terminal_without_no_color() {
+        assert!(colour_allowed(true, None));
+        assert!(!colour_allowed(false, None));
+        assert!(!colour_allowed(true, Some("1".into())));
+        // no-color.org: an empty NO_COLOR does not disable colour.
+        assert!(colour_allowed(true, Some("".into())));
+    }
+
+    #[test]
+    fn configuration_names_are_the_command_line_names() {
+        use provisio::config as c;
+        let names = |v: &[clap::builder::PossibleValue]| -> Vec<String> {
+            v.iter().map(|p| p.get_name().to_string()).collect()
+        };
+        let pv = |all: &[Numbers]| {
+            all.iter()
+                .filter_map(|x| x.to_possible_value())
+                .collect::<Vec<_>>()
+        };
+        assert_eq!(names(&pv(Numbers::value_variants())), c::NUMBERS);
+        let e: Vec<_> = Encoding::value_variants()
+            .iter()
+            .filter_map(|x| x.to_possible_value())
+            .collect();
+        assert_eq!(names(&e), c::ENCODINGS);
+        let d: Vec<_> = Duplicates::value_variants()
+            .iter()
+            .filter_map(|x| x.to_possible_value())
+            .collect();
+        assert_eq!(names(&d), c::DUPLICATES);
+        forecast::check_config_names();
+        // Every run key is an option of `forecast` (same name, `-` for `_`).
+        let cmd = Cli::command();
+        let fc = cmd.find_subcommand("forecast").unwrap();
+        for k in c::KEYS {
+            let id = k.key;
+            assert!(
+                fc.get_arguments().any(|a| a.get_id() == id),
+                "forecast has no option for {}",
+                k.key
+            );
+        }
+        // And every option of `forecast` is a key: a new option needs its
+        // key in provisio::config (KEYS, the section struct, docs) and a
+        // line in apply_config / to_config.
+        let not_keys = ["config", "write_config", "quiet", "json", "help", "version"];
+        for a in fc.get_arguments() {
+            let id = a.get_id().as_str();
+            assert!(
+                not_keys.contains(&id) || c::KEYS.iter().any(|k| k.key == id),
+                "option --{id} of forecast has no configuration key"
+            );
+        }
+    }
+
+    #[test]
+    fn every_command_has_examples_in_its_help() {
+        let mut cmd = Cli::command();
+        cmd.build();
+        for sub in cmd.get_subcommands().filter(|s| s.get_name() != "help") {
+            let help = sub
+                .get_after_help()
+                .map(|h| h.to_string())
+                .unwrap_or_default();
+            assert!(
+                help.starts_with("Example"),
+                "{} has no examples",
+                sub.get_name()
+            );
+            assert!(
+                help.contains(&format!("provisio {}", sub.get_name())),
+                "{}",
+                sub.get_name()
+            );
+        }
+    }
 }

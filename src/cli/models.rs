@@ -41,14 +41,23 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
     };
     let name_w = width(|r| &r.name, "model");
     let needs_w = width(|r| &r.needs, "needs");
-    println!("{:<name_w$}  {:<needs_w$}  what it is", "model", "needs");
+    super::say!("{:<name_w$}  {:<needs_w$}  what it is", "model", "needs");
     for r in &rows {
-        println!(
+        super::say!(
             "{:<name_w$}  {:<needs_w$}  {}",
-            r.name, r.needs, r.description
+            r.name,
+            r.needs,
+            r.description
         );
     }
-    eprintln!("{} candidate models", rows.len());
+    super::note!("{} candidate models", rows.len());
+    super::json_summary(|| {
+        let models: Vec<serde_json::Value> = rows
+            .iter()
+            .map(|r| serde_json::json!({"name": r.name, "needs": r.needs, "description": r.description}))
+            .collect();
+        serde_json::json!({ "command": "models", "models": models })
+    });
     if let Some(path) = &a.csv {
         provisio::output::write_atomic(path, |w| {
             let mut c = csv::Writer::from_writer(w);
@@ -60,7 +69,7 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
             }
             c.flush()
         })?;
-        eprintln!("wrote {}", path.display());
+        super::note!("wrote {}", path.display());
     }
     Ok(())
 }

@@ -201,7 +201,7 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     }
     if planned.is_empty() {
         for w in &warnings {
-            eprintln!("warning: {w}");
+            super::warn(w);
         }
         let first = log
             .iter()
@@ -272,10 +272,28 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         planned.len() * 2
     };
     print_summary(&planned);
+    super::json_summary(|| {
+        let files = [
+            "plan.csv",
+            "orders.csv",
+            "order_totals.csv",
+            "plan_log.csv",
+            "plan.json",
+        ];
+        serde_json::json!({
+            "command": "plan",
+            "dir": a.dir.display().to_string(),
+            "series_planned": planned.len(),
+            "series": planned.iter().map(|s| serde_json::json!({"product": s.product, "site": s.site})).collect::<Vec<_>>(),
+            "log_entries": log.len(),
+            "files": files.iter().map(|f| out.join(f).display().to_string()).collect::<Vec<_>>(),
+            "warnings": warnings,
+        })
+    });
     for w in &warnings {
-        eprintln!("warning: {w}");
+        super::warn(w);
     }
-    println!(
+    super::say!(
         "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){} in {}",
         planned.len(),
         log.len(),
@@ -283,7 +301,7 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         if a.no_report { "" } else { ", and rebuilt report.html" },
         a.dir.display()
     );
-    println!("Decision support only: review proposed orders with the responsible programme staff; national guidelines and local regulations take precedence.");
+    super::say!("Decision support only: review proposed orders with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
 }
 
@@ -299,7 +317,7 @@ fn print_summary(planned: &[PlannedSeries]) {
         .unwrap_or(7)
         .clamp(7, 40);
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
-    println!(
+    super::say!(
         "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
         cut("product"),
         "on hand",
@@ -328,7 +346,7 @@ fn print_summary(planned: &[PlannedSeries]) {
             .iter()
             .filter(|x| x.flags.contains(&plan::Flag::AboveMax))
             .count();
-        println!(
+        super::say!(
             "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
             cut(&name(s)),
             provisio::chart::fmt_quantity(s.policy.stock_on_hand),
@@ -341,5 +359,5 @@ fn print_summary(planned: &[PlannedSeries]) {
             provisio::chart::fmt_quantity(s.plan.orders.iter().map(|o| o.cost).sum()),
         );
     }
-    println!("(MOS: months of stock at the start = stock on hand ÷ AMC of the first projected month; stockout: months with projected stock at zero; short: quantity not covered; >max: months above the maximum)");
+    super::say!("(MOS: months of stock at the start = stock on hand ÷ AMC of the first projected month; stockout: months with projected stock at zero; short: quantity not covered; >max: months above the maximum)");
 }

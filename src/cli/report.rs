@@ -13,7 +13,15 @@ pub struct ReportArgs {
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     let w = provisio::report::write_report(&a.dir)?;
-    println!(
+    super::json_summary(|| {
+        serde_json::json!({
+            "command": "report",
+            "report": w.report.display().to_string(),
+            "charts": w.charts.len(),
+            "products": w.products,
+        })
+    });
+    super::say!(
         "wrote {} and {} chart files ({} products) in {}",
         w.report.display(),
         w.charts.len(),

@@ -148,17 +148,52 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
     };
     let written = provisio::report::review::write_review_report(&a.out, &page)?;
     print_summary(&result, limit);
+    super::json_summary(|| {
+        let products: Vec<serde_json::Value> = result
+            .products
+            .iter()
+            .map(|p| {
+                let s = &p.scores;
+                serde_json::json!({
+                    "product": p.product,
+                    "vintage": result.vintages.get(p.vintage).map(|v| v.name.clone()),
+                    "model": p.model,
+                    "months_scored": s.months,
+                    "mape_pct": s.mape,
+                    "bias_pct": s.bias,
+                    "wape_pct": s.wape,
+                    "coverage_80_pct": s.coverage80,
+                    "coverage_95_pct": s.coverage95,
+                    "tracking_signal": s.tracking.map(|t| t.value),
+                    "tracking_flagged": s.tracking_flagged(),
+                })
+            })
+            .collect();
+        let files = [
+            "review.csv",
+            "review_months.csv",
+            "review.json",
+            "review.html",
+        ];
+        serde_json::json!({
+            "command": "review",
+            "out": a.out.display().to_string(),
+            "products": products,
+            "files": files.iter().map(|f| a.out.join(f).display().to_string()).collect::<Vec<_>>(),
+            "warnings": warnings,
+        })
+    });
     for w in &warnings {
-        eprintln!("warning: {w}");
+        super::warn(w);
     }
-    println!(
+    super::say!(
         "reviewed {} product forecast(s) from {} vintage(s); wrote review.csv, review_months.csv, review.json, review.html and {} chart files (charts/) in {}",
         result.products.len(),
         result.vintages.len(),
         written.charts.len(),
         a.out.display()
     );
-    println!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
+    super::say!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
 }
 
@@ -178,7 +213,7 @@ fn print_summary(r: &review::Review, limit: f64) {
     };
     let several = r.vintages.len() > 1;
     for (i, v) in r.vintages.iter().enumerate() {
-        println!(
+        super::say!(
             "vintage {}: {} (forecast {} to {})",
             i + 1,
             v.name,
@@ -186,7 +221,7 @@ fn print_summary(r: &review::Review, limit: f64) {
             v.end
         );
     }
-    println!(
+    super::say!(
         "{}  {}{:<22} {:>6} {:>7} {:>7} {:>7} {:>7} {:>7} {:>6} {:>7} {:>7}  flags",
         cut("product"),
         if several { "vint " } else { "" },
@@ -225,7 +260,7 @@ fn print_summary(r: &review::Review, limit: f64) {
         if closest {
             flags.push("closest");
         }
-        println!(
+        super::say!(
             "{}  {}{:<22} {:>6} {:>7} {:>7} {:>7} {:>7} {:>7} {:>6} {:>7} {:>7}  {}",
             cut(&p.product),
             if several {
@@ -246,7 +281,7 @@ fn print_summary(r: &review::Review, limit: f64) {
             flags.join(" ")
         );
     }
-    println!(
+    super::say!(
         "(months: scored/with actuals; bias > 0 = over-forecast; TS: tracking signal, flagged beyond ±4; FVA-nv / FVA-sn: WAPE of the naive / seasonal naive forecast made at the same time minus the model's, > 0 = the model added value; adjusted: over {:.0}% of volume not as reported)",
         100.0 * limit
     );

@@ -17,16 +17,51 @@ fn io_err(e: csv::Error) -> std::io::Error {
     std::io::Error::other(e)
 }
 
+/// Units of one product, from the run configuration: written at the end
+/// of each `forecast.csv` row.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Units {
+    /// Base unit the quantities are counted in.
+    pub units: Option<String>,
+    /// Base units per pack; the forecast in packs is forecast ÷ pack size.
+    pub pack_size: Option<f64>,
+}
+
 /// `forecast.csv`: product, month, model, forecast, lower/upper 80, lower/upper 95.
 pub fn write_forecast(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    write_forecast_units(path, results, &std::collections::HashMap::new())
+}
+
+/// [`write_forecast`] with three more columns at the end: `units`,
+/// `pack_size` and `packs` (the forecast ÷ pack size, not rounded), empty
+/// for products without them.
+pub fn write_forecast_units(
+    path: &Path,
+    results: &[ProductForecast],
+    units: &std::collections::HashMap<String, Units>,
+) -> Result<()> {
+    let none = Units::default();
     write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
         c.write_record([
-            "product", "month", "model", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
+            "product",
+            "month",
+            "model",
+            "forecast",
+            "lower_80",
+            "upper_80",
+            "lower_95",
+            "upper_95",
+            "units",
+            "pack_size",
+            "packs",
         ])
         .map_err(io_err)?;
         for r in results {
             let Some(p) = &r.projection else { continue };
+            let u = units.get(&r.product).unwrap_or(&none);
+            let unit = u.units.as_deref().unwrap_or("");
+            let pack = u.pack_size.map(fmt_num).unwrap_or_default();
             let i80 = p.forecast.interval(0.80);
             let i95 = p.forecast.interval(0.95);
             for (k, v) in p.forecast.point.iter().enumerate() {
@@ -34,6 +69,7 @@ pub fn write_forecast(path: &Path, results: &[ProductForecast]) -> Result<()> {
                     i.map(|i| fmt_num(if lower { i.lower[k] } else { i.upper[k] }))
                         .unwrap_or_default()
                 };
+                let packs = u.pack_size.map(|s| fmt_num(v / s)).unwrap_or_default();
                 c.write_record([
                     r.product.as_str(),
                     &p.start.plus(k as i64).to_string(),
@@ -43,6 +79,9 @@ pub fn write_forecast(path: &Path, results: &[ProductForecast]) -> Result<()> {
                     &b(i80, false),
                     &b(i95, true),
                     &b(i95, false),
+                    unit,
+                    &pack,
+                    &packs,
                 ])
                 .map_err(io_err)?;
             }

@@ -8,8 +8,8 @@ mod review;
 mod tables;
 
 pub use forecast::{
-    write_backtest, write_forecast, write_json, write_scores, write_scores_by_horizon,
-    write_selection, FORECAST_FORMAT_VERSION,
+    write_backtest, write_forecast, write_forecast_units, write_json, write_scores,
+    write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
 };
 
 pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};

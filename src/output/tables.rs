@@ -177,6 +177,10 @@ pub struct CleanManifest {
     pub adjustments_by_rule: std::collections::BTreeMap<String, usize>,
     /// Warnings raised.
     pub warnings: Vec<String>,
+    /// Run configuration file given with `--config`, if any.
+    pub config_file: Option<String>,
+    /// SHA-256 of the run configuration file.
+    pub config_sha256: Option<String>,
 }
 
 /// Writes `manifest.json`.

@@ -30,17 +30,7 @@ fn past(history_start: &str, history: Vec<f64>, point: Vec<f64>, half80: f64) ->
 }
 
 fn series(start: &str, values: Vec<f64>) -> CleanSeries {
-    let n = values.len();
-    CleanSeries {
-        product: "P".into(),
-        start: ym(start),
-        reported: values.iter().map(|&v| Some(v)).collect(),
-        values,
-        status: vec![MonthStatus::Reported; n],
-        imputed_share: vec![0.0; n],
-        outlier: vec![false; n],
-        sites: 1,
-    }
+    CleanSeries::observed("P", ym(start), values)
 }
 
 fn settings() -> CheckedReviewSettings {
