@@ -57,7 +57,7 @@ pub struct EvalArgs {
 
 #[derive(Args, Debug)]
 pub struct ForecastArgs {
-    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site.
     data: PathBuf,
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
@@ -74,6 +74,9 @@ pub struct ForecastArgs {
     /// Skip the charts and report.html (for thousands of products; `provisio report DIR` builds them later).
     #[arg(long)]
     no_report: bool,
+    /// Skip the planner's workbook forecast.xlsx (`provisio report DIR` builds it later).
+    #[arg(long)]
+    no_workbook: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -84,7 +87,7 @@ pub struct ForecastArgs {
 
 #[derive(Args, Debug)]
 pub struct BacktestArgs {
-    /// Input CSV (long format).
+    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
     data: PathBuf,
     /// Also write scores.csv and backtest.csv to this directory.
     #[arg(long, value_name = "DIR")]
@@ -98,6 +101,16 @@ pub struct BacktestArgs {
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
+}
+
+/// The time now in UTC, `2026-03-01T09:30:00Z`, for the manifest.
+fn utc_now() -> Option<String> {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .ok()?
+        .as_secs();
+    let t = chrono::DateTime::from_timestamp(i64::try_from(secs).ok()?, 0)?;
+    Some(t.format("%Y-%m-%dT%H:%M:%SZ").to_string())
 }
 
 fn parse_month(s: &str) -> Result<YearMonth, String> {
@@ -299,6 +312,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         .map(|s| (s.product.clone(), s.start))
         .collect();
     output::write_forecast(&a.out.join("forecast.csv"), &results)?;
+    output::write_forecast_wide(&a.out.join("forecast_wide.csv"), &results)?;
     output::write_selection(&a.out.join("selection.csv"), &results)?;
     output::write_scores(&a.out.join("scores.csv"), &results)?;
     output::write_scores_by_horizon(&a.out.join("scores_by_horizon.csv"), &results)?;
@@ -310,12 +324,14 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "format_version": output::FORECAST_FORMAT_VERSION,
         "command": "forecast",
         "until": a.until.map(|m| m.to_string()),
+        "date": utc_now(),
         "input": ds.source,
         "input_sha256": ds.input_sha256,
         "clean_settings": a.clean.settings(),
         "duplicates": format!("{:?}", a.read.options().duplicates).to_lowercase(),
         "numbers": a.read.options().numbers.name(),
         "encoding": a.read.options().encoding.name(),
+        "sheet": ds.layout.sheet.as_ref().map(|s| s.name.clone()),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "candidates": provisio::models::candidates().iter().map(|m| m.name()).collect::<Vec<_>>(),
@@ -328,6 +344,13 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a.out.join("manifest.json"), &manifest)?;
+    let t_book = Instant::now();
+    let workbook = if a.no_workbook {
+        None
+    } else {
+        Some(provisio::report::workbook::write_workbook(&a.out)?)
+    };
+    let book_secs = t_book.elapsed().as_secs_f64();
     let report = if a.no_report {
         None
     } else {
@@ -336,12 +359,19 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     println!(
-        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         results.len(),
         a.horizon,
         secs,
         a.out.display()
     );
+    match workbook {
+        Some(_) => println!("wrote forecast.xlsx (the planner's workbook) in {book_secs:.1} s"),
+        None => println!(
+            "no forecast.xlsx (--no-workbook); `provisio report {}` builds it",
+            a.out.display()
+        ),
+    }
     match report {
         Some(r) => println!(
             "wrote report.html and {} chart files (charts/)",
@@ -389,7 +419,7 @@ pub fn run_backtest(a: BacktestArgs) -> anyhow::Result<()> {
 
 #[derive(Args, Debug)]
 pub struct EvaluateArgs {
-    /// Input CSV (long format).
+    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
     data: PathBuf,
     /// Months hidden at the end of each series and forecast out of sample.
     #[arg(long, default_value_t = 12, value_name = "MONTHS")]

@@ -76,6 +76,9 @@ pub struct ReadArgs {
     /// Text encoding of the file.
     #[arg(long, value_enum, default_value_t = Encoding::Utf8)]
     encoding: Encoding,
+    /// Sheet to read from a workbook (.xlsx, .xlsm, .xls, .ods); default: the first sheet.
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -127,6 +130,7 @@ impl ReadArgs {
                 Encoding::Windows1252 => provisio::data::Encoding::Windows1252,
             },
             latest_month: current_month(),
+            sheet: self.sheet.clone(),
         }
     }
 }
@@ -221,7 +225,7 @@ fn load_until(
     until: Option<provisio::calendar::YearMonth>,
 ) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned)> {
     let settings = clean.settings().check()?;
-    let mut ds = provisio::data::read_csv_path(data, &read.options())?;
+    let mut ds = provisio::data::read_path(data, &read.options())?;
     if let Some(last) = until {
         ds.keep_until(last);
         if ds.rows.is_empty() {
@@ -269,12 +273,7 @@ fn print_accounting(
         eprintln!("warning: {w}");
     }
     for rej in ds.rejected.iter().take(quiet_rows) {
-        let col = rej
-            .column
-            .as_deref()
-            .map(|c| format!(": column '{c}'"))
-            .unwrap_or_default();
-        eprintln!("rejected: {}:{}{col}: {}", ds.source, rej.line, rej.reason);
+        eprintln!("rejected: {}: {}", ds.place(rej), rej.reason);
     }
     if ds.rejected.len() > quiet_rows {
         eprintln!("rejected: ... and {} more", ds.rejected.len() - quiet_rows);
@@ -301,7 +300,7 @@ fn write_clean_outputs(
     let profiles = provisio::quality::profile_all(cleaned);
     output::write_cleaned(&out.join("cleaned.csv"), &cleaned.series)?;
     output::write_adjustments(&out.join("adjustments.csv"), &cleaned.log)?;
-    output::write_rejected(&out.join("rejected.csv"), &ds.source, &ds.rejected)?;
+    output::write_rejected_of(&out.join("rejected.csv"), ds)?;
     output::write_quality(&out.join("quality.csv"), &profiles)?;
     let mut by_rule = std::collections::BTreeMap::new();
     for e in &cleaned.log {

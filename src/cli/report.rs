@@ -7,12 +7,14 @@ use clap::Args;
 
 #[derive(Args, Debug)]
 pub struct ReportArgs {
-    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...).
+    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...); the report, charts and forecast.xlsx are rebuilt.
     dir: PathBuf,
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     let w = provisio::report::write_report(&a.dir)?;
+    let book = provisio::report::workbook::write_workbook(&a.dir)?;
+    println!("wrote {}", book.display());
     println!(
         "wrote {} and {} chart files ({} products) in {}",
         w.report.display(),

@@ -10,6 +10,7 @@
 pub mod html;
 mod read;
 pub mod review;
+pub mod workbook;
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
