@@ -614,3 +614,78 @@ fn opendocument_sheet_made_by_odfpy_is_read() {
         .iter()
         .any(|r| &r[col("month")] == "2024-04" && &r[col("rule")] == "reporting-scaled"));
 }
+
+#[test]
+fn review_rereads_the_sheet_the_past_run_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let book = openpyxl_book();
+    // Sheet "Other" (tests/reference/workbook_openpyxl.py): Paracetamol,
+    // 2023-01 to 2023-12, consumed 100, 110, ..., 210.
+    let o = provisio(
+        dir.path(),
+        &[
+            "forecast",
+            &book,
+            "--sheet",
+            "Other",
+            "--until",
+            "2023-08",
+            "--out",
+            "past",
+            "--origins",
+            "1",
+            "--backtest-horizon",
+            "2",
+            "--horizon",
+            "4",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("past/manifest.json")).unwrap())
+            .unwrap();
+    assert_eq!(m["sheet"], "Other");
+    // The actuals are the same workbook: without --sheet, review reads the
+    // sheet the past run read, not the first one ("Data" has no Paracetamol).
+    let o = provisio(
+        dir.path(),
+        &["review", "past", "--actuals", &book, "--out", "rev"],
+    );
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    let (h, rev) = read(&dir.path().join("rev/review_months.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let actual: Vec<(&str, &str)> = rev
+        .iter()
+        .map(|r| (&r[col("month")], &r[col("actual")]))
+        .collect();
+    assert_eq!(
+        actual,
+        [
+            ("2023-09", "180"),
+            ("2023-10", "190"),
+            ("2023-11", "200"),
+            ("2023-12", "210")
+        ]
+    );
+    // Naming another sheet reads that one: no Paracetamol there.
+    let o = provisio(
+        dir.path(),
+        &[
+            "review",
+            "past",
+            "--actuals",
+            &book,
+            "--sheet",
+            "Data",
+            "--out",
+            "rev2",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    assert!(
+        text(&o).contains("no actual month overlaps"),
+        "{}",
+        text(&o)
+    );
+}

@@ -709,8 +709,9 @@ fn cell_refusal(cell: Cell<'_>, what: &str) -> Option<String> {
         Cell::Error(e) => Some(format!(
             "the cell holds the spreadsheet error {e}, not {what}; correct the formula or the value it refers to"
         )),
-        Cell::Uncalculated(f) => Some(format!(
-            "the cell holds the formula {f} with no saved value (the workbook was written by a program that does not calculate); open and save it in a spreadsheet program, or paste the values"
+        Cell::Uncalculated(_) => Some(format!(
+            "the cell holds the formula {} with no saved value (the workbook was written by a program that does not calculate); open and save it in a spreadsheet program, or paste the values",
+            cell.shown()
         )),
         _ => None,
     }

@@ -76,10 +76,11 @@ fn flatten(prefix: &str, v: &serde_json::Value, out: &mut Vec<(String, String)>)
                 flatten(&key, x, out);
             }
         }
-        Value::Array(items) if items.iter().all(|x| !x.is_object() && !x.is_array()) => {
-            if items.is_empty() {
-                out.push((prefix.to_string(), "none".to_string()));
-            }
+        Value::Array(items) if items.is_empty() => {
+            out.push((prefix.to_string(), "none".to_string()));
+        }
+        // Each warning on a row of its own; short lists on one row.
+        Value::Array(items) if prefix == "warnings" => {
             for (i, x) in items.iter().enumerate() {
                 let key = if i == 0 {
                     prefix.to_string()
@@ -88,6 +89,14 @@ fn flatten(prefix: &str, v: &serde_json::Value, out: &mut Vec<(String, String)>)
                 };
                 flatten_scalar(key, x, out);
             }
+        }
+        Value::Array(items) if items.iter().all(|x| !x.is_object() && !x.is_array()) => {
+            let mut joined = Vec::new();
+            for x in items {
+                flatten_scalar(String::new(), x, &mut joined);
+            }
+            let text: Vec<String> = joined.into_iter().map(|(_, v)| v).collect();
+            out.push((prefix.to_string(), text.join(", ")));
         }
         Value::Array(items) => {
             for (i, x) in items.iter().enumerate() {
