@@ -344,13 +344,6 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a.out.join("manifest.json"), &manifest)?;
-    let t_book = Instant::now();
-    let workbook = if a.no_workbook {
-        None
-    } else {
-        Some(provisio::report::workbook::write_workbook(&a.out)?)
-    };
-    let book_secs = t_book.elapsed().as_secs_f64();
     let report = if a.no_report {
         None
     } else {
@@ -358,9 +351,21 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
+    let products = results.len();
+    // The workbook is built from the files just written; the results in
+    // memory are no longer needed, and freeing them first keeps the peak
+    // memory of large runs down.
+    drop((ds, cleaned, results));
+    let t_book = Instant::now();
+    let workbook = if a.no_workbook {
+        None
+    } else {
+        Some(provisio::report::workbook::write_workbook(&a.out)?)
+    };
+    let book_secs = t_book.elapsed().as_secs_f64();
     println!(
         "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
-        results.len(),
+        products,
         a.horizon,
         secs,
         a.out.display()
