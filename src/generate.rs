@@ -411,19 +411,21 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
     rows
 }
 
+/// The columns of generated files.
+const HEADER: [&str; 6] = [
+    "product",
+    "site",
+    "month",
+    "consumed",
+    "stockout_days",
+    "reporting_rate",
+];
+
 /// Writes generated rows as the long CSV input contract.
 pub fn write_rows(w: &mut dyn std::io::Write, rows: &[GeneratedRow]) -> std::io::Result<()> {
     let mut c = csv::Writer::from_writer(w);
     let e = std::io::Error::other;
-    c.write_record([
-        "product",
-        "site",
-        "month",
-        "consumed",
-        "stockout_days",
-        "reporting_rate",
-    ])
-    .map_err(e)?;
+    c.write_record(HEADER).map_err(e)?;
     for r in rows {
         c.write_record([
             r.product.as_str(),
@@ -448,15 +450,7 @@ pub fn workbook_bytes(rows: &[GeneratedRow]) -> Result<Vec<u8>, rust_xlsxwriter:
     ws.set_name("Consumption")?;
     let bold = Format::new().set_bold();
     let month = Format::new().set_num_format("yyyy-mm");
-    let header = [
-        "product",
-        "site",
-        "month",
-        "consumed",
-        "stockout_days",
-        "reporting_rate",
-    ];
-    for (c, h) in header.iter().enumerate() {
+    for (c, h) in HEADER.iter().enumerate() {
         ws.write_string_with_format(0, c as u16, *h, &bold)?;
     }
     for (i, r) in rows.iter().enumerate() {

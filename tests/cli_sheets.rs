@@ -140,6 +140,20 @@ fn demo_as_a_workbook_gives_the_same_forecasts_as_the_csv() {
         serde_json::from_slice(&std::fs::read(dir.path().join("from-csv/manifest.json")).unwrap())
             .unwrap();
     assert!(c["sheet"].is_null());
+
+    // `generate --demo --out FILE.xlsx` writes the same data as the demo CSV.
+    let o = provisio(dir.path(), &["generate", "--demo", "--out", "gen.xlsx"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = provisio(dir.path(), &["clean", "gen.xlsx", "--out", "gen"]);
+    assert!(o.status.success(), "{}", text(&o));
+    for f in ["cleaned.csv", "adjustments.csv"] {
+        let a = std::fs::read_to_string(dir.path().join("from-csv").join(f)).unwrap();
+        let b = std::fs::read_to_string(dir.path().join("gen").join(f)).unwrap();
+        assert!(
+            a == b,
+            "{f} differs between the demo CSV and the generated workbook"
+        );
+    }
 }
 
 /// The workbook made by openpyxl 3.1.5 (tests/reference/workbook_openpyxl.py).
