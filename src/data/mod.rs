@@ -1,5 +1,7 @@
-//! Input records: reading the long CSV, validating it, and building one
-//! gap-free monthly series per product (and per site).
+//! Input records: reading the long CSV (or a workbook sheet, with
+//! [`read_path`] / [`read_bytes`], which pick the reader by extension),
+//! validating it, and building one gap-free monthly series per product
+//! (and per site).
 
 mod read;
 mod series;

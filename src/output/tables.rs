@@ -102,7 +102,7 @@ fn write_rejected_rows(
                 .and_then(|(s, col)| s.cell(r.line, col))
                 .unwrap_or_default();
             c.write_record([
-                source,
+                &*csv_text(source),
                 &r.line.to_string(),
                 r.column.as_deref().unwrap_or(""),
                 &csv_text(&r.value),
