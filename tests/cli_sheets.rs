@@ -703,3 +703,33 @@ fn review_rereads_the_sheet_the_past_run_read() {
         text(&o)
     );
 }
+
+#[test]
+fn old_style_xls_made_by_xlwt_is_read() {
+    let dir = tempfile::tempdir().unwrap();
+    // Source: tests/reference/workbook_xlwt.py (xlwt 1.3.0).
+    let book = repo("tests/data/sheets/xlwt.xls").display().to_string();
+    let o = provisio(dir.path(), &["clean", &book, "--out", "out"]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    // 6 rows: 4 as reported, May scaled for stockout, June's "n/a" refused.
+    assert_eq!(accounting(&out), [6, 4, 1, 1], "{out}");
+    assert!(
+        out.contains("sheet 'Stock', row 7, column C (consumed): \"n/a\" is not a number"),
+        "{out}"
+    );
+    let (_, cleaned) = read(&dir.path().join("out/cleaned.csv"));
+    let got: Vec<(&str, &str, &str)> = cleaned.iter().map(|r| (&r[1], &r[2], &r[3])).collect();
+    // Date cells (the 5th of January-March) and text months; May: 15 of
+    // 31 days out of stock, 530 × 31 ÷ 16 = 1026.875 (README, cleaning rule 1).
+    assert_eq!(
+        got,
+        [
+            ("2024-01", "500", "500"),
+            ("2024-02", "520", "520"),
+            ("2024-03", "480", "480"),
+            ("2024-04", "510.5", "510.5"),
+            ("2024-05", "530", "1026.875")
+        ]
+    );
+}
