@@ -141,6 +141,14 @@ fn demo_as_a_workbook_gives_the_same_forecasts_as_the_csv() {
             .unwrap();
     assert!(c["sheet"].is_null());
 
+    // `report --workbook-only` rebuilds forecast.xlsx and nothing else.
+    let xlsx_out = dir.path().join("from-xlsx/forecast.xlsx");
+    std::fs::remove_file(&xlsx_out).unwrap();
+    let o = provisio(dir.path(), &["report", "from-xlsx", "--workbook-only"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(xlsx_out.exists());
+    assert!(!dir.path().join("from-xlsx/report.html").exists());
+
     // `generate --demo --out FILE.xlsx` writes the same data as the demo CSV.
     let o = provisio(dir.path(), &["generate", "--demo", "--out", "gen.xlsx"]);
     assert!(o.status.success(), "{}", text(&o));

@@ -373,7 +373,7 @@ pub fn run_forecast(a: ForecastArgs) -> anyhow::Result<()> {
     match workbook {
         Some(_) => println!("wrote forecast.xlsx (the planner's workbook) in {book_secs:.1} s"),
         None => println!(
-            "no forecast.xlsx (--no-workbook); `provisio report {}` builds it",
+            "no forecast.xlsx (--no-workbook); `provisio report {} --workbook-only` builds it",
             a.out.display()
         ),
     }

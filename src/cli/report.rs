@@ -1,5 +1,5 @@
-//! `provisio report DIR`: rebuild the charts and the HTML report from the
-//! output directory of a forecast run.
+//! `provisio report DIR`: rebuild the charts, the HTML report and the
+//! workbook from the output directory of a forecast run.
 
 use std::path::PathBuf;
 
@@ -9,18 +9,23 @@ use clap::Args;
 pub struct ReportArgs {
     /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...); the report, charts and forecast.xlsx are rebuilt.
     dir: PathBuf,
+    /// Rebuild only forecast.xlsx (quick for thousands of products; no charts or report.html).
+    #[arg(long)]
+    workbook_only: bool,
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
-    let w = provisio::report::write_report(&a.dir)?;
+    if !a.workbook_only {
+        let w = provisio::report::write_report(&a.dir)?;
+        println!(
+            "wrote {} and {} chart files ({} products) in {}",
+            w.report.display(),
+            w.charts.len(),
+            w.products,
+            a.dir.join("charts").display()
+        );
+    }
     let book = provisio::report::workbook::write_workbook(&a.dir)?;
     println!("wrote {}", book.display());
-    println!(
-        "wrote {} and {} chart files ({} products) in {}",
-        w.report.display(),
-        w.charts.len(),
-        w.products,
-        a.dir.join("charts").display()
-    );
     Ok(())
 }
