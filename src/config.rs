@@ -99,6 +99,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("input", "duplicates", "text", "\"reject\"", "\"reject\", \"sum\"", "two rows for the same product, month and site: reject them, or add their quantities", "\"reject\""),
     key("input", "numbers", "text", "\"plain\"", "\"plain\", \"grouped\", \"decimal-comma\"", "how numbers are written in the file", "\"plain\""),
     key("input", "encoding", "text", "\"utf-8\"", "\"utf-8\", \"latin1\", \"windows-1252\"", "text encoding of the file", "\"utf-8\""),
+    key("input", "sheet", "text", "the first sheet", "a sheet name of the workbook", "sheet to read when the input is a workbook (.xlsx, .xlsm, .xls, .ods)", "\"Consumption\""),
     key("cleaning", "max_stockout_days", "number", "15.0", "0 to 31", "a month with more stockout days is treated as missing", "15.0"),
     key("cleaning", "reporting_floor", "number", "0.5", "above 0, at most 1", "a month reported below this rate (fraction) is treated as missing", "0.5"),
     key("cleaning", "nonreporting_weight", "number", "1.0", "0 to 1", "k: consumption assumed for non-reporting facilities relative to reporting ones (1 = divide by the rate)", "1.0"),
@@ -116,6 +117,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),
     key("output", "overwrite", "true/false", "false", "true, false", "write into the folder even if it holds files provisio did not write", "false"),
     key("output", "no_report", "true/false", "false", "true, false", "skip the charts and report.html", "false"),
+    key("output", "no_workbook", "true/false", "false", "true, false", "skip the planner's workbook forecast.xlsx", "false"),
 ];
 
 /// Every key of a `[products."NAME"]` table.
@@ -142,6 +144,8 @@ pub struct InputSection {
     pub numbers: Option<String>,
     /// Encoding name (see [`ENCODINGS`]).
     pub encoding: Option<String>,
+    /// Sheet of a workbook input (default: the first sheet).
+    pub sheet: Option<String>,
 }
 
 /// `[cleaning]`: the fields of [`CleanSettings`].
@@ -206,6 +210,8 @@ pub struct OutputSection {
     pub overwrite: Option<bool>,
     /// Skip the charts and the HTML report.
     pub no_report: Option<bool>,
+    /// Skip the planner's workbook `forecast.xlsx`.
+    pub no_workbook: Option<bool>,
 }
 
 /// `[products."NAME"]`: settings of one product (see [`PRODUCT_KEYS`]).
@@ -675,6 +681,7 @@ mod tests {
                 duplicates: Some("sum".into()),
                 numbers: Some("decimal-comma".into()),
                 encoding: Some("latin1".into()),
+                sheet: Some("Consumption 2025".into()),
             },
             cleaning: CleaningSection {
                 max_stockout_days: Some(12.0),
@@ -700,6 +707,7 @@ mod tests {
                 out: Some("out dir".into()),
                 overwrite: Some(true),
                 no_report: Some(false),
+                no_workbook: Some(true),
             },
             products,
         }

@@ -30,6 +30,22 @@ pub enum Error {
         /// What was wrong and what would be valid.
         message: String,
     },
+    /// A workbook, or the sheet read from it, cannot be used (no such
+    /// sheet, no header, every row refused, ...). `row` is 1-based; 0 when
+    /// the problem has no row.
+    #[error("{}", sheet_message(.file, .sheet.as_deref(), *.row, .column.as_deref(), .message))]
+    Sheet {
+        /// Workbook file as given by the user.
+        file: String,
+        /// The sheet, once one is chosen.
+        sheet: Option<String>,
+        /// 1-based row of the sheet, 0 when not tied to a row.
+        row: u64,
+        /// The column as a spreadsheet shows it: "column C (consumed)".
+        column: Option<String>,
+        /// What was wrong and what would be valid.
+        message: String,
+    },
     /// A setting is out of its valid range.
     #[error("invalid setting {name}: {message}")]
     Setting {
@@ -105,6 +121,30 @@ fn config_message(file: &str, line: u64, column: u64, message: &str) -> String {
         format!("{file}: {message}")
     } else {
         format!("{file} line {line}, column {column}: {message}")
+    }
+}
+
+fn sheet_message(
+    file: &str,
+    sheet: Option<&str>,
+    row: u64,
+    column: Option<&str>,
+    message: &str,
+) -> String {
+    let mut place = Vec::new();
+    if let Some(s) = sheet {
+        place.push(format!("sheet '{s}'"));
+    }
+    if row > 0 {
+        place.push(format!("row {row}"));
+    }
+    if let Some(c) = column {
+        place.push(c.to_string());
+    }
+    if place.is_empty() {
+        format!("{file}: {message}")
+    } else {
+        format!("{file}: {}: {message}", place.join(", "))
     }
 }
 

@@ -411,19 +411,21 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
     rows
 }
 
+/// The columns of generated files.
+const HEADER: [&str; 6] = [
+    "product",
+    "site",
+    "month",
+    "consumed",
+    "stockout_days",
+    "reporting_rate",
+];
+
 /// Writes generated rows as the long CSV input contract.
 pub fn write_rows(w: &mut dyn std::io::Write, rows: &[GeneratedRow]) -> std::io::Result<()> {
     let mut c = csv::Writer::from_writer(w);
     let e = std::io::Error::other;
-    c.write_record([
-        "product",
-        "site",
-        "month",
-        "consumed",
-        "stockout_days",
-        "reporting_rate",
-    ])
-    .map_err(e)?;
+    c.write_record(HEADER).map_err(e)?;
     for r in rows {
         c.write_record([
             r.product.as_str(),
@@ -436,6 +438,40 @@ pub fn write_rows(w: &mut dyn std::io::Write, rows: &[GeneratedRow]) -> std::io:
         .map_err(e)?;
     }
     c.flush()
+}
+
+/// The generated rows as an `.xlsx` workbook in the input contract: one
+/// sheet, "Consumption", with names as text, months as date cells and the
+/// quantities as number cells (the same values as [`write_rows`] writes).
+pub fn workbook_bytes(rows: &[GeneratedRow]) -> Result<Vec<u8>, rust_xlsxwriter::XlsxError> {
+    use rust_xlsxwriter::{ExcelDateTime, Format, Workbook};
+    let mut book = Workbook::new();
+    let ws = book.add_worksheet();
+    ws.set_name("Consumption")?;
+    let bold = Format::new().set_bold();
+    let month = Format::new().set_num_format("yyyy-mm");
+    for (c, h) in HEADER.iter().enumerate() {
+        ws.write_string_with_format(0, c as u16, *h, &bold)?;
+    }
+    for (i, r) in rows.iter().enumerate() {
+        let row = i as u32 + 1;
+        ws.write_string(row, 0, r.product.as_str())?;
+        ws.write_string(row, 1, r.site.as_str())?;
+        let date = ExcelDateTime::from_ymd(r.month.year() as u16, r.month.month() as u8, 1)?;
+        ws.write_datetime_with_format(row, 2, &date, &month)?;
+        // The CSV's whole numbers, so both files hold the same values.
+        if let Some(v) = r.consumed {
+            let whole: f64 = format!("{v:.0}").parse().unwrap_or(v);
+            ws.write_number(row, 3, whole)?;
+        }
+        ws.write_number(row, 4, r.stockout_days as f64)?;
+        ws.write_number(row, 5, r.reporting_rate_pct as f64)?;
+    }
+    ws.set_column_width(0, 44)?;
+    ws.set_column_width(1, 24)?;
+    ws.set_column_width(2, 10)?;
+    ws.set_freeze_panes(1, 0)?;
+    book.save_to_buffer()
 }
 
 #[cfg(test)]

@@ -166,6 +166,69 @@ fn forecast_demo_writes_every_output() {
         text.contains("wrote report.html and 26 chart files"),
         "{text}"
     );
+
+    // forecast_wide.csv: the numbers of forecast.csv laid out wide, five
+    // rows per product, months as columns.
+    let (wh, wide) = read(&out, "forecast_wide.csv");
+    assert_eq!(&wh[..3], ["product", "model", "row"]);
+    assert_eq!(wh.len(), 3 + 18);
+    assert_eq!(wide.len(), 12 * 5);
+    for r in &fc {
+        let c = wh.iter().position(|h| h == &r[1]).unwrap();
+        for (k, label) in ["forecast", "lower_80", "upper_80", "lower_95", "upper_95"]
+            .iter()
+            .enumerate()
+        {
+            let w = wide
+                .iter()
+                .find(|w| w[0] == r[0] && &w[2] == *label)
+                .unwrap_or_else(|| panic!("{} {label}", &r[0]));
+            assert_eq!(w[c], r[3 + k], "{} {} {label}", &r[0], &r[1]);
+        }
+    }
+
+    // forecast.xlsx, read back with calamine: the Forecast sheet holds the
+    // numbers of forecast.csv, five rows per product below the header.
+    use calamine::{Data, Reader};
+    let mut book: calamine::Xlsx<_> = calamine::open_workbook(out.join("forecast.xlsx")).unwrap();
+    assert_eq!(
+        book.sheet_names(),
+        [
+            "Forecast",
+            "Selection",
+            "Adjustments",
+            "Data quality",
+            "Rejected rows",
+            "Run parameters"
+        ]
+    );
+    let sheet = book.worksheet_range("Forecast").unwrap();
+    let at = |r: usize, c: usize| sheet.get((r, c)).cloned().unwrap_or(Data::Empty);
+    assert_eq!(at(2, 0), Data::String("product".into()));
+    assert_eq!(sheet.height(), 3 + 12 * 5);
+    let month_col: BTreeMap<String, usize> =
+        (3..3 + 18).map(|c| (at(2, c).to_string(), c)).collect();
+    for r in &fc {
+        let row = (3..3 + 60)
+            .find(|&i| {
+                at(i, 0) == Data::String(r[0].to_string())
+                    && at(i, 2) == Data::String("forecast".into())
+            })
+            .unwrap_or_else(|| panic!("{} not on the Forecast sheet", &r[0]));
+        for k in 0..5 {
+            let v = match at(row + k, month_col[&r[1]]) {
+                Data::Float(x) => x,
+                other => panic!("{} {}: {other:?}", &r[0], &r[1]),
+            };
+            assert_eq!(v, r[3 + k].parse::<f64>().unwrap(), "{} {}", &r[0], &r[1]);
+        }
+    }
+    let params = book.worksheet_range("Run parameters").unwrap();
+    let cells: Vec<String> = params.cells().map(|(_, _, d)| d.to_string()).collect();
+    assert!(cells.iter().any(|c| c.contains("decision support")));
+    assert!(cells.contains(&m["input_sha256"].as_str().unwrap().to_string()));
+    let sel_sheet = book.worksheet_range("Selection").unwrap();
+    assert_eq!(sel_sheet.height(), 1 + 12);
 }
 
 #[test]

@@ -115,17 +115,19 @@ fn odd_product_names_flow_through_forecast_unchanged() {
     }
     let mut want = names.clone();
     want.sort();
+    // Formula text is written with an apostrophe in front (OWASP "CSV
+    // Injection"), which `csv_text_read` takes off again.
+    let read_back = |r: &csv::StringRecord| provisio::output::csv_text_read(&r[0]).to_string();
     for file in ["selection.csv", "quality.csv"] {
-        let got: Vec<String> = records(&out.join(file))
-            .iter()
-            .map(|r| r[0].to_string())
-            .collect();
+        let rows = records(&out.join(file));
+        assert!(rows.iter().any(|r| &r[0] == "'=1+2"), "{file}");
+        let got: Vec<String> = rows.iter().map(read_back).collect();
         assert_eq!(got, want, "{file}: names come back exactly, in order");
     }
     let forecast = records(&out.join("forecast.csv"));
     assert_eq!(forecast.len(), names.len() * 6);
     for r in &forecast {
-        assert!(names.iter().any(|n| n == &r[0]));
+        assert!(names.iter().any(|n| *n == read_back(r)));
         let v: Vec<f64> = (3..8).map(|i| r[i].parse().unwrap()).collect();
         assert!(v.iter().all(|x| x.is_finite() && *x >= 0.0), "{r:?}");
         // lower_95 <= lower_80 <= forecast <= upper_80 <= upper_95
@@ -372,10 +374,31 @@ fn forecast_with_threads(dir: &Path, threads: &str) -> BTreeMap<String, Vec<u8>>
         .and_then(|m| m.remove("seconds"))
         .expect("manifest records the seconds");
     assert!(seconds.as_f64().is_some());
+    let date = manifest
+        .as_object_mut()
+        .and_then(|m| m.remove("date"))
+        .expect("manifest records the date");
+    assert!(date.as_str().is_some());
     got.insert(
         "manifest.json".into(),
         serde_json::to_vec(&manifest).unwrap(),
     );
+    // The workbook records the date and the seconds taken (cells, and the
+    // file's properties): compare its cells, all but those two.
+    use calamine::Reader;
+    let bytes = got.remove("forecast.xlsx").expect("forecast.xlsx written");
+    let mut book = calamine::Xlsx::new(std::io::Cursor::new(bytes)).unwrap();
+    let mut cells = String::new();
+    for name in book.sheet_names() {
+        let range = book.worksheet_range(&name).unwrap();
+        for row in range.rows() {
+            let first = row.first().map(|d| d.to_string()).unwrap_or_default();
+            if first != "date" && first != "seconds" {
+                cells.push_str(&format!("{name}: {row:?}\n"));
+            }
+        }
+    }
+    got.insert("forecast.xlsx cells".into(), cells.into_bytes());
     got
 }
 

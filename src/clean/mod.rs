@@ -297,7 +297,8 @@ pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
 }
 
 /// Reads an input file given as bytes and cleans it: the whole path from
-/// raw bytes to cleaned series. The fuzz target (`fuzz/`) and the property
+/// raw bytes to cleaned series (a workbook when `source` ends in a
+/// workbook extension, otherwise a CSV). The fuzz target (`fuzz/`) and the property
 /// tests drive this with arbitrary bytes.
 pub fn read_and_clean(
     source: &str,
@@ -305,7 +306,7 @@ pub fn read_and_clean(
     read: &crate::data::ReadOptions,
     settings: &CheckedCleanSettings,
 ) -> Result<(Dataset, Cleaned)> {
-    let data = crate::data::read_csv_bytes(source, bytes, read)?;
+    let data = crate::data::read_bytes(source, bytes, read)?;
     let cleaned = clean(&data, settings);
     Ok((data, cleaned))
 }

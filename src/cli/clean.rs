@@ -9,7 +9,7 @@ use provisio::output;
 
 #[derive(Args, Debug)]
 pub struct CleanCmdArgs {
-    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site.
     data: PathBuf,
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]
@@ -45,6 +45,7 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
         duplicates: format!("{:?}", a.read.options().duplicates).to_lowercase(),
         numbers: a.read.options().numbers.name().to_string(),
         encoding: a.read.options().encoding.name().to_string(),
+        sheet: ds.layout.sheet.as_ref().map(|s| s.name.clone()),
         rows: cleaned.rows,
         products: cleaned.series.len(),
         products_unusable: cleaned.unusable.len(),

@@ -61,7 +61,7 @@ pub struct EvalArgs {
 
 #[derive(Args, Debug)]
 pub struct ForecastArgs {
-    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site); may instead come from the configuration file.
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site; may instead come from the configuration file.
     data: Option<PathBuf>,
     /// Directory for the outputs (created if needed); may instead come from the configuration file.
     #[arg(long, value_name = "DIR")]
@@ -84,6 +84,9 @@ pub struct ForecastArgs {
     /// Skip the charts and report.html (for thousands of products; `provisio report DIR` builds them later).
     #[arg(long)]
     no_report: bool,
+    /// Skip the planner's workbook forecast.xlsx (`provisio report DIR` builds it later).
+    #[arg(long)]
+    no_workbook: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -94,7 +97,7 @@ pub struct ForecastArgs {
 
 #[derive(Args, Debug)]
 pub struct BacktestArgs {
-    /// Input CSV (long format).
+    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
     data: PathBuf,
     /// Run configuration file (TOML); its input, cleaning, backtest and selection settings and products apply, options given here override it.
     #[arg(long, value_name = "FILE")]
@@ -111,6 +114,16 @@ pub struct BacktestArgs {
     read: ReadArgs,
     #[command(flatten)]
     clean: CleanArgs,
+}
+
+/// The time now in UTC, `2026-03-01T09:30:00Z`, for the manifest.
+fn utc_now() -> Option<String> {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .ok()?
+        .as_secs();
+    let t = chrono::DateTime::from_timestamp(i64::try_from(secs).ok()?, 0)?;
+    Some(t.format("%Y-%m-%dT%H:%M:%SZ").to_string())
 }
 
 fn parse_month(s: &str) -> Result<YearMonth, String> {
@@ -586,6 +599,9 @@ fn apply_forecast_config(
     if let (Some(v), false) = (cfg.output.no_report, given.cli("no_report")) {
         a.no_report = v;
     }
+    if let (Some(v), false) = (cfg.output.no_workbook, given.cli("no_workbook")) {
+        a.no_workbook = v;
+    }
     Ok(())
 }
 
@@ -605,6 +621,7 @@ fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> R
     cfg.output.out = a.out.as_ref().map(|p| path_for_config(p, dir));
     cfg.output.overwrite = Some(a.overwrite);
     cfg.output.no_report = Some(a.no_report);
+    cfg.output.no_workbook = Some(a.no_workbook);
     cfg
 }
 
@@ -685,6 +702,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         })
         .unwrap_or_default();
     output::write_forecast_units(&a_out.join("forecast.csv"), &results, &units)?;
+    output::write_forecast_wide(&a_out.join("forecast_wide.csv"), &results)?;
     output::write_selection(&a_out.join("selection.csv"), &results)?;
     output::write_scores(&a_out.join("scores.csv"), &results)?;
     output::write_scores_by_horizon(&a_out.join("scores_by_horizon.csv"), &results)?;
@@ -696,12 +714,14 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "format_version": output::FORECAST_FORMAT_VERSION,
         "command": "forecast",
         "until": a.until.map(|m| m.to_string()),
+        "date": utc_now(),
         "input": ds.source,
         "input_sha256": ds.input_sha256,
         "clean_settings": a.clean.settings(),
         "duplicates": format!("{:?}", a.read.options().duplicates).to_lowercase(),
         "numbers": a.read.options().numbers.name(),
         "encoding": a.read.options().encoding.name(),
+        "sheet": ds.layout.sheet.as_ref().map(|s| s.name.clone()),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "config_file": LoadedConfig::manifest(config.as_ref()).0,
@@ -724,7 +744,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
-    super::json_summary(|| {
+    let products = results.len();
+    let summary = super::json_wanted().then(|| {
         serde_json::json!({
             "command": "forecast",
             "input": ds.source,
@@ -734,17 +755,38 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "rows": cleaned.rows,
             "products": results.iter().map(product_json).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
-            "files": forecast_files(&a_out, report.as_ref().map(|r| r.charts.len())),
+            "files": forecast_files(&a_out, report.is_some(), !a.no_workbook),
             "seconds": secs,
         })
     });
+    // The workbook is built from the files just written; the results in
+    // memory are no longer needed, and freeing them first keeps the peak
+    // memory of large runs down.
+    drop((ds, cleaned, results));
+    let t_book = Instant::now();
+    let workbook = if a.no_workbook {
+        None
+    } else {
+        Some(provisio::report::workbook::write_workbook(&a_out)?)
+    };
+    let book_secs = t_book.elapsed().as_secs_f64();
+    if let Some(v) = summary {
+        super::json_summary(|| v);
+    }
     say!(
-        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
-        results.len(),
+        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        products,
         a.horizon,
         secs,
         a_out.display()
     );
+    match workbook {
+        Some(_) => say!("wrote forecast.xlsx (the planner's workbook) in {book_secs:.1} s"),
+        None => say!(
+            "no forecast.xlsx (--no-workbook); `provisio report {} --workbook-only` builds it",
+            a_out.display()
+        ),
+    }
     match report {
         Some(r) => say!(
             "wrote report.html and {} chart files (charts/)",
@@ -760,9 +802,10 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
 }
 
 /// Output files of a forecast run, with their paths.
-fn forecast_files(out: &Path, charts: Option<usize>) -> Vec<String> {
+fn forecast_files(out: &Path, report: bool, workbook: bool) -> Vec<String> {
     let mut names = vec![
         "forecast.csv",
+        "forecast_wide.csv",
         "selection.csv",
         "scores.csv",
         "scores_by_horizon.csv",
@@ -773,8 +816,11 @@ fn forecast_files(out: &Path, charts: Option<usize>) -> Vec<String> {
         "quality.csv",
         "manifest.json",
     ];
-    if charts.is_some() {
+    if report {
         names.push("report.html");
+    }
+    if workbook {
+        names.push("forecast.xlsx");
     }
     names
         .iter()
@@ -838,7 +884,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
 
 #[derive(Args, Debug)]
 pub struct EvaluateArgs {
-    /// Input CSV (long format).
+    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
     data: PathBuf,
     /// Run configuration file (TOML); its input, cleaning, backtest and selection settings apply, options given here override it.
     #[arg(long, value_name = "FILE")]

@@ -21,7 +21,7 @@ pub struct GenerateArgs {
     /// Random seed (same seed, same file).
     #[arg(long, default_value_t = 1)]
     seed: u64,
-    /// Output CSV file.
+    /// Output file: a CSV, or an .xlsx workbook (one sheet, months as date cells).
     #[arg(long, value_name = "FILE")]
     out: PathBuf,
 }
@@ -36,7 +36,20 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
         provisio::generate::synthetic_scenario(a.products, a.sites, a.months, a.seed)
     };
     let rows = provisio::generate::generate(&sc);
-    provisio::output::write_atomic(&a.out, |w| provisio::generate::write_rows(w, &rows))?;
+    if provisio::data::is_workbook(&a.out) {
+        let ext = a.out.extension().and_then(|e| e.to_str()).unwrap_or("");
+        if !ext.eq_ignore_ascii_case("xlsx") {
+            anyhow::bail!(
+                "{}: provisio writes workbooks as .xlsx only; name the file .xlsx, or .csv for a CSV",
+                a.out.display()
+            );
+        }
+        let bytes = provisio::generate::workbook_bytes(&rows)
+            .map_err(|e| anyhow::anyhow!("{}: cannot build the workbook: {e}", a.out.display()))?;
+        provisio::output::write_atomic(&a.out, |w| w.write_all(&bytes))?;
+    } else {
+        provisio::output::write_atomic(&a.out, |w| provisio::generate::write_rows(w, &rows))?;
+    }
     super::json_summary(|| {
         serde_json::json!({
             "command": "generate",

@@ -8,7 +8,7 @@ use super::{load, pad, print_accounting, truncate, CleanArgs, ReadArgs};
 
 #[derive(Args, Debug)]
 pub struct InspectArgs {
-    /// Input CSV (long format: product, month, consumed, optional stockout_days, reporting_rate, site).
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site.
     data: PathBuf,
     /// Also write the profile as CSV to this file.
     #[arg(long, value_name = "FILE")]
@@ -97,7 +97,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
         super::note!("wrote {}", path.display());
     }
     if let Some(path) = &a.rejected {
-        provisio::output::write_rejected(path, &ds.source, &ds.rejected)?;
+        provisio::output::write_rejected_of(path, &ds)?;
         super::note!("wrote {}", path.display());
     }
     Ok(())

@@ -62,6 +62,11 @@ fn chatty() -> bool {
     !mode().quiet
 }
 
+/// Whether --json was given.
+fn json_wanted() -> bool {
+    mode().json
+}
+
 /// Prints the JSON summary on standard output when --json was given.
 fn json_summary(value: impl FnOnce() -> serde_json::Value) {
     if mode().json {
@@ -196,6 +201,9 @@ pub struct ReadArgs {
     /// Text encoding of the file.
     #[arg(long, value_enum, default_value_t = Encoding::Utf8)]
     encoding: Encoding,
+    /// Sheet to read from a workbook (.xlsx, .xlsm, .xls, .ods); default: the first sheet.
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -246,6 +254,9 @@ impl ReadArgs {
         if let (Some(v), false) = (&c.encoding, given.cli("encoding")) {
             self.encoding = enum_value(v)?;
         }
+        if let (Some(v), false) = (&c.sheet, given.cli("sheet")) {
+            self.sheet = Some(v.clone());
+        }
         Ok(())
     }
 
@@ -255,6 +266,7 @@ impl ReadArgs {
         c.duplicates = Some(format!("{:?}", o.duplicates).to_lowercase());
         c.numbers = Some(o.numbers.name().to_string());
         c.encoding = Some(o.encoding.name().to_string());
+        c.sheet = self.sheet.clone();
     }
 
     fn options(&self) -> provisio::data::ReadOptions {
@@ -274,6 +286,7 @@ impl ReadArgs {
                 Encoding::Windows1252 => provisio::data::Encoding::Windows1252,
             },
             latest_month: current_month(),
+            sheet: self.sheet.clone(),
         }
     }
 }
@@ -485,7 +498,7 @@ fn load_until(
     until: Option<provisio::calendar::YearMonth>,
 ) -> anyhow::Result<(provisio::data::Dataset, provisio::clean::Cleaned)> {
     let settings = clean.settings().check()?;
-    let mut ds = provisio::data::read_csv_path(data, &read.options())?;
+    let mut ds = provisio::data::read_path(data, &read.options())?;
     if let Some(last) = until {
         ds.keep_until(last);
         if ds.rows.is_empty() {
@@ -533,16 +546,10 @@ fn print_accounting(
         warn(w);
     }
     for rej in ds.rejected.iter().take(quiet_rows) {
-        let col = rej
-            .column
-            .as_deref()
-            .map(|c| format!(": column '{c}'"))
-            .unwrap_or_default();
         eprintln!(
-            "{} {}:{}{col}: {}",
+            "{} {}: {}",
             prefix("rejected", 33),
-            ds.source,
-            rej.line,
+            ds.place(rej),
             rej.reason
         );
     }
@@ -575,7 +582,7 @@ fn write_clean_outputs(
     let profiles = provisio::quality::profile_all(cleaned);
     output::write_cleaned(&out.join("cleaned.csv"), &cleaned.series)?;
     output::write_adjustments(&out.join("adjustments.csv"), &cleaned.log)?;
-    output::write_rejected(&out.join("rejected.csv"), &ds.source, &ds.rejected)?;
+    output::write_rejected_of(&out.join("rejected.csv"), ds)?;
     output::write_quality(&out.join("quality.csv"), &profiles)?;
     let mut by_rule = std::collections::BTreeMap::new();
     for e in &cleaned.log {

@@ -1,5 +1,5 @@
-//! `provisio report DIR`: rebuild the charts and the HTML report from the
-//! output directory of a forecast run.
+//! `provisio report DIR`: rebuild the charts, the HTML report and the
+//! workbook from the output directory of a forecast run.
 
 use std::path::PathBuf;
 
@@ -7,26 +7,36 @@ use clap::Args;
 
 #[derive(Args, Debug)]
 pub struct ReportArgs {
-    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...).
+    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...); the report, charts and forecast.xlsx are rebuilt.
     dir: PathBuf,
+    /// Rebuild only forecast.xlsx (quick for thousands of products; no charts or report.html).
+    #[arg(long)]
+    workbook_only: bool,
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
-    let w = provisio::report::write_report(&a.dir)?;
+    let mut written = None;
+    if !a.workbook_only {
+        let w = provisio::report::write_report(&a.dir)?;
+        super::say!(
+            "wrote {} and {} chart files ({} products) in {}",
+            w.report.display(),
+            w.charts.len(),
+            w.products,
+            a.dir.join("charts").display()
+        );
+        written = Some(w);
+    }
+    let book = provisio::report::workbook::write_workbook(&a.dir)?;
+    super::say!("wrote {}", book.display());
     super::json_summary(|| {
         serde_json::json!({
             "command": "report",
-            "report": w.report.display().to_string(),
-            "charts": w.charts.len(),
-            "products": w.products,
+            "report": written.as_ref().map(|w| w.report.display().to_string()),
+            "charts": written.as_ref().map_or(0, |w| w.charts.len()),
+            "products": written.as_ref().map(|w| w.products),
+            "workbook": book.display().to_string(),
         })
     });
-    super::say!(
-        "wrote {} and {} chart files ({} products) in {}",
-        w.report.display(),
-        w.charts.len(),
-        w.products,
-        a.dir.join("charts").display()
-    );
     Ok(())
 }

@@ -29,6 +29,9 @@ pub struct ReviewArgs {
     /// Also score months whose actual is mostly imputed (default: as the past run's backtest did).
     #[arg(long)]
     score_imputed: bool,
+    /// Sheet of an actuals workbook to read (default: the sheet the past run read, or the first sheet).
+    #[arg(long, value_name = "NAME")]
+    sheet: Option<String>,
 }
 
 pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
@@ -65,7 +68,8 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         match same {
             Some(k) => which.push(k),
             None => {
-                let (ds, cleaned) = review::clean_actuals(&source, &bytes, &p.manifest)?;
+                let (ds, cleaned) =
+                    review::clean_actuals(&source, &bytes, &p.manifest, a.sheet.as_deref())?;
                 which.push(cleanings.len());
                 cleanings.push((i, ds, cleaned));
             }

@@ -691,7 +691,8 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
         let m = sheet.get(rec, "month");
         let month = YearMonth::parse(m).map_err(|e| err("month", format!("'{m}': {e}")))?;
         products
-            .entry(sheet.get(rec, "product").to_string())
+            // forecast.csv writes formula-like names with a leading apostrophe.
+            .entry(crate::output::csv_text_read(sheet.get(rec, "product")).to_string())
             .or_default()
             .push(ForecastMonth {
                 month,

@@ -265,6 +265,7 @@ fn as_dataset(data: &ServicesData) -> Dataset {
             has_reporting_rate: data.has_reporting_rate,
             reporting_rate_as_percent: false,
             extra_columns: Vec::new(),
+            sheet: None,
         },
     }
 }

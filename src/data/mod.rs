@@ -1,14 +1,20 @@
-//! Input records: reading the long CSV, validating it, and building one
-//! gap-free monthly series per product (and per site).
+//! Input records: reading the long CSV (or a workbook sheet, with
+//! [`read_path`] / [`read_bytes`], which pick the reader by extension),
+//! validating it, and building one gap-free monthly series per product
+//! (and per site).
 
 mod read;
 mod series;
+mod sheet;
 mod text;
 mod values;
 
 pub(crate) use read::normalise_name;
 pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, MAX_QUANTITY};
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
+pub use sheet::{
+    column_letter, is_workbook, read_bytes, read_path, read_sheet_bytes, WORKBOOK_EXTENSIONS,
+};
 pub use text::{Encoding, MAX_ROW_BYTES};
 pub use values::{parse_month, parse_number, NumberFormat};
 
@@ -99,9 +105,66 @@ pub struct Layout {
     pub reporting_rate_as_percent: bool,
     /// Columns present but not part of the contract (kept in the file, ignored).
     pub extra_columns: Vec<String>,
+    /// For a workbook: the sheet read and where the contract's columns are.
+    pub sheet: Option<SheetInfo>,
+}
+
+/// Where the data was found in a workbook.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SheetInfo {
+    /// Name of the sheet read.
+    pub name: String,
+    /// The contract's columns present, with their spreadsheet letters
+    /// (`("consumed", "C")`).
+    pub columns: Vec<(String, String)>,
+}
+
+impl SheetInfo {
+    /// "column C (consumed)" for a contract column, or the name alone.
+    pub fn column(&self, name: &str) -> String {
+        match self.columns.iter().find(|(n, _)| n == name) {
+            Some((_, letter)) => format!("column {letter} ({name})"),
+            None => format!("column '{name}'"),
+        }
+    }
+
+    /// The cell of a contract column in a row (`C14`), when the column is known.
+    pub fn cell(&self, row: u64, name: &str) -> Option<String> {
+        self.columns
+            .iter()
+            .find(|(n, _)| n == name)
+            .map(|(_, letter)| format!("{letter}{row}"))
+    }
 }
 
 impl Dataset {
+    /// Where a rejected row is, for messages: `data.csv:14: column
+    /// 'consumed'`, or for a workbook `data.xlsx: sheet 'Data', row 14,
+    /// column C (consumed)`.
+    pub fn place(&self, row: &RejectedRow) -> String {
+        match &self.layout.sheet {
+            None => {
+                let col = row
+                    .column
+                    .as_deref()
+                    .map(|c| format!(": column '{c}'"))
+                    .unwrap_or_default();
+                format!("{}:{}{col}", self.source, row.line)
+            }
+            Some(sheet) => {
+                let col = row
+                    .column
+                    .as_deref()
+                    .map(|c| format!(", {}", sheet.column(c)))
+                    .unwrap_or_default();
+                format!(
+                    "{}: sheet '{}', row {}{col}",
+                    self.source, sheet.name, row.line
+                )
+            }
+        }
+    }
+
     /// Rows accepted (used as they are or merged into another row).
     pub fn rows_accepted(&self) -> usize {
         self.rows.len() + self.merged.len()

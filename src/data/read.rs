@@ -38,6 +38,9 @@ pub struct ReadOptions {
     /// Latest month a row may have (the month the run happens in); rows
     /// for later months are rejected. `None`: no limit beyond the calendar's.
     pub latest_month: Option<YearMonth>,
+    /// Sheet to read from a workbook (`None`: the first sheet). Refused
+    /// for a CSV file.
+    pub sheet: Option<String>,
 }
 
 /// Largest quantity accepted in one row. Far above any real monthly
@@ -71,11 +74,12 @@ impl ReadOptions {
             } else {
                 YearMonth::new(2024, 6)
             },
+            sheet: None,
         }
     }
 }
 
-const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
+pub(crate) const REQUIRED: [&str; 3] = ["product", "month", "consumed"];
 const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 
 /// Reads an input file from disk, streaming, and hashes it on the way.
@@ -168,128 +172,314 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
             ),
         ));
     };
-    let (columns, extra_columns) =
-        map_header(&records.fields(), delimiter).map_err(|m| input_err(header_line, None, m))?;
+    let header_names: Vec<&str> = records.fields().iter().collect();
+    let (mut columns, extra_columns) =
+        map_header(&header_names).map_err(|m| input_err(header_line, None, m))?;
+    columns.delimiter = delimiter;
 
-    let mut names = Interned::default();
-    let mut rows: Vec<InputRow> = Vec::new();
-    // Rows whose reporting rate was a plain number (no % sign): read as a
-    // fraction, or as a percentage when any plain value in the column
-    // exceeds 1, which is known only at the end.
-    let mut plain_rate: Vec<usize> = Vec::new();
-    let mut rate_above_one = false;
-    let mut rejected = Vec::new();
-    let mut rows_read = 0usize;
+    let mut rows = Collector::new(options, "line");
     while let Some(line) = records.next_record().map_err(text_err)? {
-        rows_read += 1;
         let fields = records.fields();
+        match csv_row_problem(line, &fields, &columns) {
+            Some(reason) => {
+                rows.reject(line, None, String::new(), reason, fields.joined(delimiter))
+            }
+            None => rows.add(line, &fields, &columns, || fields.joined(delimiter)),
+        }
+    }
+    let input_sha256 = hashing.hex();
+    let layout = Layout {
+        delimiter,
+        had_bom,
+        has_site: columns.site.is_some(),
+        has_stockout_days: columns.stockout_days.is_some(),
+        has_reporting_rate: columns.reporting_rate.is_some(),
+        reporting_rate_as_percent: false,
+        extra_columns,
+        sheet: None,
+    };
+    // Rows rejected as duplicates carry their text, read again from the
+    // file: keeping the text of every row in case it has a duplicate would
+    // cost more memory than the rows themselves.
+    let reread = |wanted: &BTreeSet<u64>| reread_rows(open, options.encoding, wanted);
+    rows.finish(source, input_sha256, layout, &input_err, &reread)
+}
+
+/// One value of an input row as found: a CSV field is text; a workbook's
+/// cells are typed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) enum Cell<'a> {
+    /// Nothing in the cell.
+    Empty,
+    /// Text (every CSV field).
+    Text(&'a str),
+    /// A number cell.
+    Number(f64),
+    /// A date cell: year, month, day.
+    Date(i32, u32, u32),
+    /// A true/false cell.
+    Bool(bool),
+    /// An error value such as `#N/A` or `#DIV/0!`.
+    Error(&'a str),
+    /// A formula whose value was never calculated and saved (the formula).
+    Uncalculated(&'a str),
+}
+
+impl Cell<'_> {
+    /// The value as shown in messages and in the rejected-row log.
+    pub(crate) fn shown(&self) -> String {
+        match *self {
+            Cell::Empty => String::new(),
+            Cell::Text(t) => t.trim().to_string(),
+            Cell::Number(x) => format_number(x),
+            Cell::Date(y, m, d) => format!("{y:04}-{m:02}-{d:02}"),
+            Cell::Bool(b) => if b { "TRUE" } else { "FALSE" }.to_string(),
+            Cell::Error(e) => e.to_string(),
+            Cell::Uncalculated(f) if f.starts_with('=') => f.to_string(),
+            Cell::Uncalculated(f) => format!("={f}"),
+        }
+    }
+
+    fn is_blank(&self) -> bool {
+        match *self {
+            Cell::Empty => true,
+            Cell::Text(t) => t.trim().is_empty(),
+            _ => false,
+        }
+    }
+}
+
+/// A number as a person would write it: `1234`, `12.5`.
+pub(crate) fn format_number(x: f64) -> String {
+    if x.fract() == 0.0 && x.abs() < 1e15 {
+        format!("{}", x as i64)
+    } else {
+        format!("{x}")
+    }
+}
+
+/// A row of input values, by column position.
+pub(crate) trait RowCells {
+    /// Number of values in the row.
+    fn width(&self) -> usize;
+    /// Value `i` (`Cell::Empty` past the end).
+    fn cell(&self, i: usize) -> Cell<'_>;
+}
+
+impl RowCells for Fields<'_> {
+    fn width(&self) -> usize {
+        self.len()
+    }
+    fn cell(&self, i: usize) -> Cell<'_> {
+        match self.get(i) {
+            Some(t) => Cell::Text(t),
+            None => Cell::Empty,
+        }
+    }
+}
+
+/// Builds an error about the input as a whole: line (or sheet row),
+/// column, message.
+pub(crate) type InputErr<'a> = dyn Fn(u64, Option<&str>, String) -> Error + 'a;
+/// Reads the text of the rows at the given lines again.
+pub(crate) type Reread<'a> = dyn Fn(&BTreeSet<u64>) -> HashMap<u64, String> + 'a;
+
+/// Collects the rows of one input, accepted or rejected, and settles what
+/// can only be settled at the end (percentages, duplicates, spans).
+pub(crate) struct Collector<'o> {
+    options: &'o ReadOptions,
+    /// What a row's number is called in messages ("line" or "row").
+    unit: &'static str,
+    names: Interned,
+    rows: Vec<InputRow>,
+    /// Rows whose reporting rate was a plain number (no % sign): read as a
+    /// fraction, or as a percentage when any plain value in the column
+    /// exceeds 1, which is known only at the end.
+    plain_rate: Vec<usize>,
+    rate_above_one: bool,
+    rejected: Vec<RejectedRow>,
+    rows_read: usize,
+}
+
+impl<'o> Collector<'o> {
+    pub(crate) fn new(options: &'o ReadOptions, unit: &'static str) -> Self {
+        Collector {
+            options,
+            unit,
+            names: Interned::default(),
+            rows: Vec::new(),
+            plain_rate: Vec::new(),
+            rate_above_one: false,
+            rejected: Vec::new(),
+            rows_read: 0,
+        }
+    }
+
+    /// Counts a row that is refused before its values are read.
+    pub(crate) fn reject(
+        &mut self,
+        line: u64,
+        column: Option<String>,
+        value: String,
+        reason: String,
+        raw: String,
+    ) {
+        self.rows_read += 1;
+        self.rejected.push(RejectedRow {
+            line,
+            column,
+            value,
+            reason,
+            raw,
+        });
+    }
+
+    /// Reads one data row: accepted, or rejected with the reason.
+    pub(crate) fn add(
+        &mut self,
+        line: u64,
+        cells: &dyn RowCells,
+        columns: &Columns,
+        raw: impl FnOnce() -> String,
+    ) {
+        self.rows_read += 1;
         if let Some(c) = columns.reporting_rate {
-            let v = fields.get(c).unwrap_or("").trim();
-            if !v.ends_with('%')
-                && parse_number(v, options.numbers).is_ok_and(|x| x.is_some_and(|x| x > 1.0))
-            {
-                rate_above_one = true;
+            if plain_rate_above_one(cells.cell(c), self.options.numbers) {
+                self.rate_above_one = true;
             }
         }
-        match parse_row(line, &fields, &columns, options, &mut names) {
+        match parse_row(line, cells, columns, self.options, &mut self.names) {
             Ok((row, plain)) => {
                 if plain {
-                    plain_rate.push(rows.len());
+                    self.plain_rate.push(self.rows.len());
                 }
-                rows.push(row);
+                self.rows.push(row);
             }
-            Err((column, value, reason)) => rejected.push(RejectedRow {
+            Err((column, value, reason)) => self.rejected.push(RejectedRow {
                 line,
                 column,
                 value,
                 reason,
-                raw: fields.joined(delimiter),
+                raw: raw(),
             }),
         }
     }
-    let input_sha256 = hashing.hex();
-    if rate_above_one {
-        for &i in &plain_rate {
-            if let Some(r) = rows[i].reporting_rate.as_mut() {
-                *r /= 100.0;
+
+    /// Settles percentages, duplicates and spans, and checks that something
+    /// usable was read.
+    pub(crate) fn finish(
+        self,
+        source: &str,
+        input_sha256: String,
+        mut layout: Layout,
+        input_err: &InputErr<'_>,
+        reread: &Reread<'_>,
+    ) -> Result<Dataset> {
+        let Collector {
+            unit,
+            rows,
+            plain_rate,
+            rate_above_one,
+            mut rejected,
+            rows_read,
+            options,
+            ..
+        } = self;
+        let mut rows = rows;
+        if rate_above_one {
+            for &i in &plain_rate {
+                if let Some(r) = rows[i].reporting_rate.as_mut() {
+                    *r /= 100.0;
+                }
             }
         }
-    }
-    drop(plain_rate);
-    rows.shrink_to_fit();
+        drop(plain_rate);
+        rows.shrink_to_fit();
 
-    let mut merged = Vec::new();
-    let mut rows = resolve_duplicates(rows, options.duplicates, &mut rejected, &mut merged);
-    rows.shrink_to_fit();
-    check_span(&rows).map_err(|(line, m)| input_err(line, None, m))?;
-    // Rows rejected as duplicates carry their text, read again from the
-    // file: keeping the text of every row in case it has a duplicate would
-    // cost more memory than the rows themselves.
-    let wanted: BTreeSet<u64> = rejected
-        .iter()
-        .filter(|r| r.raw.is_empty())
-        .map(|r| r.line)
-        .collect();
-    if !wanted.is_empty() {
-        let texts = reread_rows(open, options.encoding, &wanted);
-        for r in rejected.iter_mut().filter(|r| r.raw.is_empty()) {
-            if let Some(t) = texts.get(&r.line) {
-                r.raw = t.clone();
+        let mut merged = Vec::new();
+        let mut rows =
+            resolve_duplicates(rows, options.duplicates, unit, &mut rejected, &mut merged);
+        rows.shrink_to_fit();
+        check_span(&rows).map_err(|(line, m)| input_err(line, None, m))?;
+        let wanted: BTreeSet<u64> = rejected
+            .iter()
+            .filter(|r| r.raw.is_empty())
+            .map(|r| r.line)
+            .collect();
+        if !wanted.is_empty() {
+            let texts = reread(&wanted);
+            for r in rejected.iter_mut().filter(|r| r.raw.is_empty()) {
+                if let Some(t) = texts.get(&r.line) {
+                    r.raw = t.clone();
+                }
             }
         }
-    }
-    rejected.sort_by_key(|r| r.line);
-    merged.sort_by_key(|m| m.line);
+        rejected.sort_by_key(|r| r.line);
+        merged.sort_by_key(|m| m.line);
 
-    let mut warnings = Vec::new();
-    if rate_above_one {
-        warnings.push(
-            "reporting_rate has values above 1, so plain numbers in that column are read as percentages (80 = 80%)"
-                .to_string(),
-        );
+        let mut warnings = Vec::new();
+        if rate_above_one {
+            warnings.push(
+                "reporting_rate has values above 1, so plain numbers in that column are read as percentages (80 = 80%)"
+                    .to_string(),
+            );
+        }
+        if !layout.extra_columns.is_empty() {
+            warnings.push(format!(
+                "extra columns kept in the file but not used: {}",
+                layout.extra_columns.join(", ")
+            ));
+        }
+        if rows_read == 0 {
+            return Err(input_err(
+                0,
+                None,
+                format!(
+                    "the {} has a header but no data rows",
+                    if layout.sheet.is_some() {
+                        "sheet"
+                    } else {
+                        "file"
+                    }
+                ),
+            ));
+        }
+        if rows.is_empty() && merged.is_empty() {
+            let first = rejected
+                .first()
+                .map(|r| format!("; first problem, {unit} {}: {}", r.line, r.reason))
+                .unwrap_or_default();
+            return Err(input_err(
+                0,
+                None,
+                format!("no usable rows: all {rows_read} data rows were rejected{first}"),
+            ));
+        }
+        layout.reporting_rate_as_percent = rate_above_one;
+        Ok(Dataset {
+            source: source.to_string(),
+            input_sha256,
+            rows_read,
+            rows,
+            rejected,
+            merged,
+            warnings,
+            layout,
+        })
     }
-    if !extra_columns.is_empty() {
-        warnings.push(format!(
-            "extra columns kept in the file but not used: {}",
-            extra_columns.join(", ")
-        ));
+}
+
+/// Whether a reporting rate written without a % sign exceeds 1 (so the
+/// column is in percent).
+fn plain_rate_above_one(cell: Cell<'_>, numbers: NumberFormat) -> bool {
+    match cell {
+        Cell::Number(x) => x > 1.0,
+        Cell::Text(t) => {
+            let v = t.trim();
+            !v.ends_with('%') && parse_number(v, numbers).is_ok_and(|x| x.is_some_and(|x| x > 1.0))
+        }
+        _ => false,
     }
-    if rows_read == 0 {
-        return Err(input_err(
-            0,
-            None,
-            "the file has a header but no data rows".to_string(),
-        ));
-    }
-    if rows.is_empty() && merged.is_empty() {
-        let first = rejected
-            .first()
-            .map(|r| format!("; first problem, line {}: {}", r.line, r.reason))
-            .unwrap_or_default();
-        return Err(input_err(
-            0,
-            None,
-            format!("no usable rows: all {rows_read} data rows were rejected{first}"),
-        ));
-    }
-    Ok(Dataset {
-        source: source.to_string(),
-        input_sha256,
-        rows_read,
-        rows,
-        rejected,
-        merged,
-        warnings,
-        layout: Layout {
-            delimiter,
-            had_bom,
-            has_site: columns.site.is_some(),
-            has_stockout_days: columns.stockout_days.is_some(),
-            has_reporting_rate: columns.reporting_rate.is_some(),
-            reporting_rate_as_percent: rate_above_one,
-            extra_columns,
-        },
-    })
 }
 
 /// Cleaning lays every site of a product on the product's whole calendar,
@@ -370,15 +560,35 @@ fn reread_rows(open: &Open<'_>, encoding: Encoding, lines: &BTreeSet<u64>) -> Ha
 }
 
 /// Column positions of the contract's fields in one file.
-struct Columns {
-    product: usize,
-    month: usize,
-    consumed: usize,
-    stockout_days: Option<usize>,
-    reporting_rate: Option<usize>,
-    site: Option<usize>,
+pub(crate) struct Columns {
+    pub(crate) product: usize,
+    pub(crate) month: usize,
+    pub(crate) consumed: usize,
+    pub(crate) stockout_days: Option<usize>,
+    pub(crate) reporting_rate: Option<usize>,
+    pub(crate) site: Option<usize>,
     width: usize,
     delimiter: char,
+    /// Whether the input is a workbook sheet (messages mention merged cells).
+    pub(crate) in_sheet: bool,
+}
+
+impl Columns {
+    /// The contract's columns present, with their positions.
+    pub(crate) fn present(&self) -> Vec<(&'static str, usize)> {
+        let mut v = vec![
+            ("product", self.product),
+            ("month", self.month),
+            ("consumed", self.consumed),
+        ];
+        let optional = [
+            ("stockout_days", self.stockout_days),
+            ("reporting_rate", self.reporting_rate),
+            ("site", self.site),
+        ];
+        v.extend(optional.iter().filter_map(|(n, c)| c.map(|c| (*n, c))));
+        v
+    }
 }
 
 /// A header name as matched: trimmed, lowercase, spaces and hyphens as underscores.
@@ -390,11 +600,10 @@ pub(crate) fn normalise_name(name: &str) -> String {
         .collect()
 }
 
-fn map_header(
-    header: &Fields<'_>,
-    delimiter: char,
-) -> std::result::Result<(Columns, Vec<String>), String> {
-    let names: Vec<String> = header.iter().map(normalise_name).collect();
+/// Finds the contract's columns in a header; returns them and the names
+/// of the extra columns.
+pub(crate) fn map_header(header: &[&str]) -> std::result::Result<(Columns, Vec<String>), String> {
+    let names: Vec<String> = header.iter().map(|h| normalise_name(h)).collect();
     let mut found: HashMap<&str, usize> = HashMap::new();
     let mut extra = Vec::new();
     for (i, name) in names.iter().enumerate() {
@@ -413,7 +622,7 @@ fn map_header(
                 }
             }
             None if name.is_empty() => {}
-            None => extra.push(header.get(i).unwrap_or("").trim().to_string()),
+            None => extra.push(header.get(i).copied().unwrap_or("").trim().to_string()),
         }
     }
     let missing: Vec<&str> = REQUIRED
@@ -422,7 +631,7 @@ fn map_header(
         .filter(|k| !found.contains_key(k))
         .collect();
     if !missing.is_empty() {
-        let shown: Vec<&str> = header.iter().map(str::trim).collect();
+        let shown: Vec<&str> = header.iter().map(|h| h.trim()).collect();
         let mut msg = format!(
             "missing required column{} {}; the header has: {}; required: {} (optional: {})",
             if missing.len() > 1 { "s" } else { "" },
@@ -451,7 +660,8 @@ fn map_header(
             reporting_rate: found.get("reporting_rate").copied(),
             site: found.get("site").copied(),
             width: names.len(),
-            delimiter,
+            delimiter: ',',
+            in_sheet: false,
         },
         extra,
     ))
@@ -464,58 +674,158 @@ fn is_near(candidate: &str, wanted: &str) -> bool {
 
 type RowProblem = (Option<String>, String, String);
 
-/// Parses one data row. Returns the row and whether its reporting rate is
-/// a plain number (no % sign), whose scale is settled after the last row.
-fn parse_row(
-    line: u64,
-    rec: &Fields<'_>,
-    cols: &Columns,
-    options: &ReadOptions,
-    names: &mut Interned,
-) -> std::result::Result<(InputRow, bool), RowProblem> {
+/// A CSV row that cannot be read value by value: a quote left open, or
+/// more fields than the header.
+fn csv_row_problem(line: u64, rec: &Fields<'_>, cols: &Columns) -> Option<String> {
     if rec.iter().all(|f| f.trim().is_empty()) {
-        return Err((None, String::new(), "the row is empty".to_string()));
+        return None;
     }
     // A value running over lines that hold as many delimiters as a whole
     // row is rows swallowed by a quote that was opened and never closed.
     let row_like = |l: &str| cols.width > 1 && l.matches(cols.delimiter).count() + 1 >= cols.width;
     if let Some(f) = rec.iter().find(|f| f.lines().skip(1).any(row_like)) {
         let n = f.lines().count();
-        return Err((
-            None,
-            String::new(),
-            format!(
-                "a quoted value runs over {n} lines (lines {line}-{}) and holds delimiters: a quote (\") is probably opened and never closed, so those lines were read as one value; close or remove the quote",
-                line + n as u64 - 1
-            ),
+        return Some(format!(
+            "a quoted value runs over {n} lines (lines {line}-{}) and holds delimiters: a quote (\") is probably opened and never closed, so those lines were read as one value; close or remove the quote",
+            line + n as u64 - 1
         ));
     }
     if rec.len() > cols.width && rec.iter().skip(cols.width).any(|f| !f.trim().is_empty()) {
-        return Err((
-            None,
-            String::new(),
-            format!(
-                "the row has {} fields but the header has {}; check for an unquoted delimiter inside a value (a thousands separator as in 1,234, or a comma in a name: put the value in quotes)",
-                rec.len(),
-                cols.width
-            ),
+        return Some(format!(
+            "the row has {} fields but the header has {}; check for an unquoted delimiter inside a value (a thousands separator as in 1,234, or a comma in a name: put the value in quotes)",
+            rec.len(),
+            cols.width
         ));
     }
-    let field = |i: usize| rec.get(i).unwrap_or("").trim();
+    None
+}
+
+/// Why a cell that should hold text or a number cannot be used, or `None`.
+fn cell_refusal(cell: Cell<'_>, what: &str) -> Option<String> {
+    match cell {
+        Cell::Bool(b) => Some(format!(
+            "the cell holds the true/false value {}, not {what}",
+            if b { "TRUE" } else { "FALSE" }
+        )),
+        Cell::Error(e) => Some(format!(
+            "the cell holds the spreadsheet error {e}, not {what}; correct the formula or the value it refers to"
+        )),
+        Cell::Uncalculated(_) => Some(format!(
+            "the cell holds the formula {} with no saved value (the workbook was written by a program that does not calculate); open and save it in a spreadsheet program, or paste the values",
+            cell.shown()
+        )),
+        _ => None,
+    }
+}
+
+fn problem(col: &str, value: &str, reason: String) -> RowProblem {
+    (Some(col.to_string()), value.to_string(), reason)
+}
+
+/// Text of a name column: text as it is, a number as written.
+fn name_cell<'a>(
+    rec: &'a dyn RowCells,
+    col: &str,
+    i: usize,
+) -> std::result::Result<std::borrow::Cow<'a, str>, RowProblem> {
+    let cell = rec.cell(i);
+    if let Some(why) = cell_refusal(cell, "a name") {
+        return Err(problem(col, &cell.shown(), why));
+    }
+    Ok(match cell {
+        Cell::Text(t) => std::borrow::Cow::Borrowed(t.trim()),
+        other => std::borrow::Cow::Owned(other.shown()),
+    })
+}
+
+/// A quantity and its text as found: text is read in the declared number
+/// format; a number cell is a number.
+fn number_cell(
+    rec: &dyn RowCells,
+    col: &str,
+    i: usize,
+    numbers: NumberFormat,
+) -> std::result::Result<(Option<f64>, String), RowProblem> {
+    let cell = rec.cell(i);
+    if let Some(why) = cell_refusal(cell, "a number") {
+        return Err(problem(col, &cell.shown(), why));
+    }
+    match cell {
+        Cell::Text(t) => {
+            let t = t.trim();
+            let v = parse_number(t, numbers).map_err(|m| problem(col, t, m))?;
+            Ok((v, t.to_string()))
+        }
+        Cell::Number(x) if x.is_finite() => Ok((Some(x), format_number(x))),
+        Cell::Empty => Ok((None, String::new())),
+        other => {
+            let shown = other.shown();
+            let what = match other {
+                Cell::Date(..) => format!("the date {shown}"),
+                _ => format!("\"{shown}\""),
+            };
+            Err(problem(
+                col,
+                &shown,
+                format!("the cell holds {what}, not a number; expected a number, or an empty cell for not reported"),
+            ))
+        }
+    }
+}
+
+/// Parses one data row. Returns the row and whether its reporting rate is
+/// a plain number (no % sign), whose scale is settled after the last row.
+fn parse_row(
+    line: u64,
+    rec: &dyn RowCells,
+    cols: &Columns,
+    options: &ReadOptions,
+    names: &mut Interned,
+) -> std::result::Result<(InputRow, bool), RowProblem> {
+    if (0..rec.width()).all(|i| rec.cell(i).is_blank()) {
+        return Err((None, String::new(), "the row is empty".to_string()));
+    }
     let problem =
         |col: &str, value: &str, reason: String| (Some(col.to_string()), value.to_string(), reason);
-    let number = |t: &str| parse_number(t, options.numbers);
+    let merged_hint = if cols.in_sheet {
+        " (a merged cell keeps its value in its first row only: unmerge the cells and fill the value into every row)"
+    } else {
+        ""
+    };
+    let name = |col: &str, i: usize| name_cell(rec, col, i);
+    let number = |col: &str, i: usize| number_cell(rec, col, i, options.numbers);
 
-    let product = field(cols.product);
+    let product = name("product", cols.product)?;
     if product.is_empty() {
         return Err(problem(
             "product",
             "",
-            "product is empty; every row needs a product code or name".into(),
+            format!("product is empty; every row needs a product code or name{merged_hint}"),
         ));
     }
-    let month_text = field(cols.month);
-    let month = parse_month(month_text).map_err(|m| problem("month", month_text, m))?;
+    let month_cell = rec.cell(cols.month);
+    let month_text = month_cell.shown();
+    let month_text = month_text.as_str();
+    if let Some(why) = cell_refusal(month_cell, "a month") {
+        return Err(problem("month", month_text, why));
+    }
+    let month = match month_cell {
+        Cell::Date(y, m, _) => YearMonth::new(y, m).ok_or_else(|| {
+            problem(
+                "month",
+                month_text,
+                format!("the date {month_text} is outside the years 1900-2100"),
+            )
+        })?,
+        Cell::Number(_) => parse_month(month_text).map_err(|m| {
+            problem(
+                "month",
+                month_text,
+                format!("{m} (the cell holds a number, not a date: format the column as a date, or write the month as text such as 2024-03)"),
+            )
+        })?,
+        _ => parse_month(month_text).map_err(|m| problem("month", month_text, m))?,
+    };
     if let Some(latest) = options.latest_month {
         if month > latest {
             return Err(problem(
@@ -526,8 +836,8 @@ fn parse_row(
         }
     }
 
-    let consumed_text = field(cols.consumed);
-    let consumed = number(consumed_text).map_err(|m| problem("consumed", consumed_text, m))?;
+    let (consumed, consumed_text) = number("consumed", cols.consumed)?;
+    let consumed_text = consumed_text.as_str();
     if let Some(c) = consumed {
         if c > MAX_QUANTITY {
             return Err(problem(
@@ -548,14 +858,13 @@ fn parse_row(
     let stockout_days = match cols.stockout_days {
         None => None,
         Some(i) => {
-            let t = field(i);
-            let v = number(t).map_err(|m| problem("stockout_days", t, m))?;
+            let (v, t) = number("stockout_days", i)?;
             if let Some(d) = v {
                 let dim = month.days();
                 if d < 0.0 || d > dim as f64 {
                     return Err(problem(
                         "stockout_days",
-                        t,
+                        &t,
                         format!("stockout_days {t} is outside 0-{dim} ({month} has {dim} days)"),
                     ));
                 }
@@ -568,12 +877,24 @@ fn parse_row(
     let reporting_rate = match cols.reporting_rate {
         None => None,
         Some(i) => {
-            let t = field(i);
-            let (num, percent) = match t.strip_suffix('%') {
-                Some(n) => (n.trim(), true),
-                None => (t, false),
+            let (v, t, percent) = match rec.cell(i) {
+                Cell::Text(t) => {
+                    let t = t.trim();
+                    let (num, percent) = match t.strip_suffix('%') {
+                        Some(n) => (n.trim(), true),
+                        None => (t, false),
+                    };
+                    let v = parse_number(num, options.numbers)
+                        .map_err(|m| problem("reporting_rate", t, m))?;
+                    (v, t.to_string(), percent)
+                }
+                // A cell formatted as a percentage holds the fraction.
+                _ => {
+                    let (v, t) = number("reporting_rate", i)?;
+                    (v, t, false)
+                }
             };
-            let v = number(num).map_err(|m| problem("reporting_rate", t, m))?;
+            let t = t.as_str();
             match v {
                 None => None,
                 Some(r) => {
@@ -609,22 +930,22 @@ fn parse_row(
     let site = match cols.site {
         None => None,
         Some(i) => {
-            let s = field(i);
+            let s = name("site", i)?;
             if s.is_empty() {
                 return Err(problem(
                     "site",
                     "",
-                    "site is empty while the file has a site column; name the site, or put all-site totals in a file of their own".into(),
+                    format!("site is empty while the file has a site column; name the site, or put all-site totals in a file of their own{merged_hint}"),
                 ));
             }
-            Some(names.sites.get(s))
+            Some(names.sites.get(&s))
         }
     };
 
     Ok((
         InputRow {
             line,
-            product: names.products.get(product),
+            product: names.products.get(&product),
             site,
             month,
             consumed,
@@ -654,6 +975,7 @@ fn key_of(row: &InputRow) -> Key {
 fn resolve_duplicates(
     rows: Vec<InputRow>,
     policy: DuplicatePolicy,
+    unit: &str,
     rejected: &mut Vec<RejectedRow>,
     merged: &mut Vec<MergedRow>,
 ) -> Vec<InputRow> {
@@ -683,7 +1005,7 @@ fn resolve_duplicates(
                         column: None,
                         value: String::new(),
                         reason: format!(
-                            "exact duplicate of line {first_line} ({what}); the first copy is used"
+                            "exact duplicate of {unit} {first_line} ({what}); the first copy is used"
                         ),
                         raw: String::new(),
                     }),
@@ -694,7 +1016,7 @@ fn resolve_duplicates(
                             column: None,
                             value: String::new(),
                             reason: format!(
-                                "duplicate of line {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
+                                "duplicate of {unit} {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
                             ),
                             raw: String::new(),
                         });
@@ -721,7 +1043,7 @@ fn resolve_duplicates(
                                 column: None,
                                 value: String::new(),
                                 reason: format!(
-                                    "duplicate of line {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
+                                    "duplicate of {unit} {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
                                 ),
                                 raw: String::new(),
                             });

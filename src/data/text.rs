@@ -262,12 +262,12 @@ impl<R: Read> Records<R> {
         }
         if head.starts_with(b"PK\x03\x04") {
             return refuse(
-                "the file is a zip archive, probably an .xlsx workbook, not a CSV; open it in the spreadsheet and save the sheet as \"CSV UTF-8\"",
+                "the file is a zip archive, probably an .xlsx workbook, not a CSV; give it its .xlsx (or .ods) extension, as provisio reads workbooks by their extension, or save the sheet as \"CSV UTF-8\"",
             );
         }
         if head.starts_with(b"\xD0\xCF\x11\xE0") {
             return refuse(
-                "the file is an old-style .xls workbook, not a CSV; open it in the spreadsheet and save the sheet as \"CSV UTF-8\"",
+                "the file is an old-style .xls workbook, not a CSV; give it its .xls extension, as provisio reads workbooks by their extension, or save the sheet as \"CSV UTF-8\"",
             );
         }
         if head.starts_with(b"\xEF\xBB\xBF") {

@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::{fmt_num, fmt_opt, write_atomic};
+use super::{csv_text, fmt_num, fmt_opt, write_atomic};
 use crate::crosscheck::CrossCheck;
 use crate::error::Result;
 
@@ -40,7 +40,7 @@ pub fn write_crosscheck(path: &Path, cc: &CrossCheck) -> Result<()> {
             let cons = r.consumption;
             let cmp = r.comparison.as_ref();
             c.write_record([
-                r.product.as_str(),
+                &*csv_text(&r.product),
                 r.method.name(),
                 &r.period_start.to_string(),
                 &r.period_end.to_string(),
@@ -71,7 +71,7 @@ pub fn write_crosscheck_services(path: &Path, cc: &CrossCheck) -> Result<()> {
         c.write_record(["product", "month", "services", "source"])
             .map_err(io_err)?;
         for (p, m, v, how) in &cc.services_months {
-            c.write_record([p.as_str(), &m.to_string(), &fmt_num(*v), how])
+            c.write_record([&*csv_text(p), &m.to_string(), &fmt_num(*v), how])
                 .map_err(io_err)?;
         }
         c.flush()

@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::{fmt_num, fmt_opt, write_atomic};
+use super::{csv_text, fmt_num, fmt_opt, write_atomic};
 use crate::backtest::{RunStatus, Scores};
 use crate::error::Result;
 use crate::pipeline::ProductForecast;
@@ -71,7 +71,7 @@ pub fn write_forecast_units(
                 };
                 let packs = u.pack_size.map(|s| fmt_num(v / s)).unwrap_or_default();
                 c.write_record([
-                    r.product.as_str(),
+                    &*csv_text(&r.product),
                     &p.start.plus(k as i64).to_string(),
                     p.model.as_str(),
                     &fmt_num(*v),
@@ -84,6 +84,55 @@ pub fn write_forecast_units(
                     &packs,
                 ])
                 .map_err(io_err)?;
+            }
+        }
+        c.flush()
+    })
+}
+
+/// `forecast_wide.csv`: the same numbers as `forecast.csv` laid out wide,
+/// products as rows and months as columns: five rows per product (`row`:
+/// forecast, lower_80, upper_80, lower_95, upper_95). A month a product
+/// has no projection for is empty.
+pub fn write_forecast_wide(path: &Path, results: &[ProductForecast]) -> Result<()> {
+    let mut months: Vec<crate::calendar::YearMonth> = results
+        .iter()
+        .filter_map(|r| r.projection.as_ref())
+        .flat_map(|p| (0..p.forecast.point.len()).map(|k| p.start.plus(k as i64)))
+        .collect();
+    months.sort();
+    months.dedup();
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let mut header = vec!["product".to_string(), "model".into(), "row".into()];
+        header.extend(months.iter().map(|m| m.to_string()));
+        c.write_record(&header).map_err(io_err)?;
+        for r in results {
+            let Some(p) = &r.projection else { continue };
+            let i80 = p.forecast.interval(0.80);
+            let i95 = p.forecast.interval(0.95);
+            let rows: [(&str, Option<&[f64]>); 5] = [
+                ("forecast", Some(&p.forecast.point[..])),
+                ("lower_80", i80.map(|i| &i.lower[..])),
+                ("upper_80", i80.map(|i| &i.upper[..])),
+                ("lower_95", i95.map(|i| &i.lower[..])),
+                ("upper_95", i95.map(|i| &i.upper[..])),
+            ];
+            for (label, values) in rows {
+                let mut rec = vec![
+                    csv_text(&r.product).into_owned(),
+                    p.model.clone(),
+                    label.to_string(),
+                ];
+                rec.extend(months.iter().map(|m| {
+                    let k = p.start.months_until(*m);
+                    values
+                        .filter(|_| k >= 0)
+                        .and_then(|v| v.get(k as usize))
+                        .map(|x| fmt_num(*x))
+                        .unwrap_or_default()
+                }));
+                c.write_record(&rec).map_err(io_err)?;
             }
         }
         c.flush()
@@ -148,7 +197,7 @@ pub fn write_selection(path: &Path, results: &[ProductForecast]) -> Result<()> {
             let s = &r.selection;
             let p = r.projection.as_ref();
             let mut row = vec![
-                r.product.clone(),
+                csv_text(&r.product).into_owned(),
                 s.chosen.clone(),
                 p.map(|p| p.members.join(" ")).unwrap_or_default(),
                 if s.pinned { "yes" } else { "no" }.to_string(),
@@ -187,7 +236,11 @@ pub fn write_scores(path: &Path, results: &[ProductForecast]) -> Result<()> {
         for r in results {
             for ms in &r.scores {
                 let (status, note) = status_note(&ms.status);
-                let mut row = vec![r.product.clone(), ms.model.clone(), status.to_string()];
+                let mut row = vec![
+                    csv_text(&r.product).into_owned(),
+                    ms.model.clone(),
+                    status.to_string(),
+                ];
                 row.extend(score_cells(ms.overall.as_ref()));
                 row.push(note);
                 c.write_record(&row).map_err(io_err)?;
@@ -218,7 +271,11 @@ pub fn write_scores_by_horizon(path: &Path, results: &[ProductForecast]) -> Resu
         for r in results {
             for ms in &r.scores {
                 for (h, sc) in ms.by_horizon.iter().enumerate() {
-                    let mut row = vec![r.product.clone(), ms.model.clone(), (h + 1).to_string()];
+                    let mut row = vec![
+                        csv_text(&r.product).into_owned(),
+                        ms.model.clone(),
+                        (h + 1).to_string(),
+                    ];
                     row.extend(score_cells(Some(sc)));
                     c.write_record(&row).map_err(io_err)?;
                 }
@@ -251,7 +308,7 @@ pub fn write_backtest(
             for run in &r.backtest.runs {
                 for p in r.backtest.points(run) {
                     c.write_record([
-                        r.product.as_str(),
+                        &*csv_text(&r.product),
                         run.model.as_str(),
                         &start.plus(p.origin as i64).to_string(),
                         &p.horizon.to_string(),

@@ -6,10 +6,11 @@ mod forecast;
 mod plan;
 mod review;
 mod tables;
+mod workbook;
 
 pub use forecast::{
-    write_backtest, write_forecast, write_forecast_units, write_json, write_scores,
-    write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
+    write_backtest, write_forecast, write_forecast_units, write_forecast_wide, write_json,
+    write_scores, write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
 };
 
 pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
@@ -19,9 +20,14 @@ pub use plan::{
 
 pub use review::{review_json, write_review, write_review_months};
 
+pub use workbook::{
+    build_workbook, write_workbook, ColumnKind, WorkbookContent, WorkbookForecast, WorkbookMonth,
+    WorkbookTable, FORECAST_ROW_LABELS, MAX_TABLE_ROWS,
+};
+
 pub use tables::{
     write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,
-    CleanManifest,
+    write_rejected_of, CleanManifest,
 };
 
 use std::fs::{File, OpenOptions};
@@ -244,6 +250,33 @@ fn written_by_provisio(path: &Path) -> bool {
             .unwrap_or(false)
 }
 
+/// First characters that make a spreadsheet program read a cell as a
+/// formula (OWASP, "CSV Injection": `=`, `+`, `-`, `@`, tab, carriage return).
+pub const FORMULA_STARTS: [char; 6] = ['=', '+', '-', '@', '\t', '\r'];
+
+/// Text from the input data (product and site names, values as read) as
+/// written to the CSV outputs: text that a spreadsheet would run as a
+/// formula (starting with one of [`FORMULA_STARTS`], after any leading
+/// apostrophes) gets one apostrophe in front, as OWASP advises, so
+/// `=SUM(A1)` is written `'=SUM(A1)`. [`csv_text_read`] takes it off again,
+/// so provisio reads its own outputs back exactly.
+pub fn csv_text(s: &str) -> std::borrow::Cow<'_, str> {
+    if s.trim_start_matches('\'').starts_with(FORMULA_STARTS) {
+        std::borrow::Cow::Owned(format!("'{s}"))
+    } else {
+        std::borrow::Cow::Borrowed(s)
+    }
+}
+
+/// The text [`csv_text`] was given: one leading apostrophe is removed
+/// from text that is apostrophes and then a formula character.
+pub fn csv_text_read(s: &str) -> &str {
+    match s.strip_prefix('\'') {
+        Some(rest) if rest.trim_start_matches('\'').starts_with(FORMULA_STARTS) => rest,
+        _ => s,
+    }
+}
+
 /// SHA-256 of a byte string, lowercase hex.
 pub fn sha256_hex(bytes: &[u8]) -> String {
     use sha2::Digest;
@@ -360,6 +393,29 @@ mod tests {
         std::fs::write(&file, b"x").unwrap();
         let e = OutputDir::check(&file, true).unwrap_err().to_string();
         assert!(e.contains("needs a folder"), "{e}");
+    }
+
+    #[test]
+    fn formula_text_is_quoted_and_read_back_exactly() {
+        // OWASP "CSV Injection": cells starting with = + - @ tab or CR are
+        // prefixed with an apostrophe.
+        for (raw, written) in [
+            ("=SUM(A1)", "'=SUM(A1)"),
+            ("+1", "'+1"),
+            ("-2", "'-2"),
+            ("@x", "'@x"),
+            ("\tx", "'\tx"),
+            ("\rx", "'\rx"),
+            ("'=x", "''=x"),
+            ("'x", "'x"),
+            ("''", "''"),
+            ("a=b", "a=b"),
+            ("", ""),
+            ("Amoxicillin 250 mg", "Amoxicillin 250 mg"),
+        ] {
+            assert_eq!(csv_text(raw), written, "{raw:?}");
+            assert_eq!(csv_text_read(written), raw, "{raw:?}");
+        }
     }
 
     #[test]

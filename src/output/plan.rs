@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::{fmt_num, fmt_opt, write_atomic};
+use super::{csv_text, fmt_num, fmt_opt, write_atomic};
 use crate::error::Result;
 use crate::plan::{year_totals, LogEntry, PlannedSeries};
 
@@ -46,8 +46,8 @@ pub fn write_plan(path: &Path, series: &[PlannedSeries]) -> Result<()> {
                     .collect::<Vec<_>>()
                     .join(" ");
                 c.write_record([
-                    s.product.as_str(),
-                    s.site.as_deref().unwrap_or(""),
+                    &*csv_text(&s.product),
+                    &*csv_text(s.site.as_deref().unwrap_or("")),
                     &m.month.to_string(),
                     &fmt_num(m.opening),
                     &fmt_num(m.consumption),
@@ -100,8 +100,8 @@ pub fn write_orders(path: &Path, series: &[PlannedSeries], rule: &str) -> Result
         for s in series {
             for o in &s.plan.orders {
                 c.write_record([
-                    s.product.as_str(),
-                    s.site.as_deref().unwrap_or(""),
+                    &*csv_text(&s.product),
+                    &*csv_text(s.site.as_deref().unwrap_or("")),
                     &o.order_month.to_string(),
                     &o.arrival_month.to_string(),
                     &o.covers_to.to_string(),
@@ -136,8 +136,8 @@ pub fn write_order_totals(path: &Path, series: &[PlannedSeries]) -> Result<()> {
         for s in series {
             for t in year_totals(&s.plan.orders) {
                 c.write_record([
-                    s.product.as_str(),
-                    s.site.as_deref().unwrap_or(""),
+                    &*csv_text(&s.product),
+                    &*csv_text(s.site.as_deref().unwrap_or("")),
                     &t.year
                         .map(|y| y.to_string())
                         .unwrap_or_else(|| "all".into()),
@@ -163,8 +163,8 @@ pub fn write_plan_log(path: &Path, log: &[LogEntry]) -> Result<()> {
             c.write_record([
                 e.file.as_str(),
                 &e.line.map(|l| l.to_string()).unwrap_or_default(),
-                &e.product,
-                e.site.as_deref().unwrap_or(""),
+                &*csv_text(&e.product),
+                &*csv_text(e.site.as_deref().unwrap_or("")),
                 e.action,
                 &e.reason,
             ])

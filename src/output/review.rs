@@ -3,7 +3,7 @@
 
 use std::path::Path;
 
-use super::{fmt_num, fmt_opt, write_atomic};
+use super::{csv_text, fmt_num, fmt_opt, write_atomic};
 use crate::error::Result;
 use crate::review::{Audit, MonthReview, ProductReview, Review, VintageComparison};
 
@@ -107,7 +107,7 @@ pub fn write_review(path: &Path, review: &Review, adjustment_limit: f64) -> Resu
                 }
             };
             let row: Vec<String> = vec![
-                r.product.clone(),
+                csv_text(&r.product).into_owned(),
                 vintage.clone(),
                 "reviewed".into(),
                 r.model.clone(),
@@ -155,7 +155,7 @@ pub fn write_review(path: &Path, review: &Review, adjustment_limit: f64) -> Resu
         }
         for n in &review.not_reviewed {
             let mut row = vec![String::new(); REVIEW_HEADER.len()];
-            row[0] = n.product.clone();
+            row[0] = csv_text(&n.product).into_owned();
             row[1] = review.vintages[n.vintage].name.clone();
             row[2] = "not reviewed".into();
             row[REVIEW_HEADER.len() - 1] = n.reason.clone();
@@ -206,7 +206,7 @@ pub fn write_review_months(path: &Path, review: &Review) -> Result<()> {
                     fmt_opt(i.map(|(l, u)| if lower { l } else { u }))
                 };
                 c.write_record([
-                    r.product.clone(),
+                    csv_text(&r.product).into_owned(),
                     review.vintages[r.vintage].name.clone(),
                     m.month.to_string(),
                     m.horizon.to_string(),

@@ -2,9 +2,9 @@
 
 use std::path::Path;
 
-use super::{fmt_num, fmt_opt, write_atomic};
+use super::{csv_text, fmt_num, fmt_opt, write_atomic};
 use crate::clean::{Adjustment, CleanSeries, CleanSettings, RowAccount};
-use crate::data::RejectedRow;
+use crate::data::{Dataset, RejectedRow, SheetInfo};
 use crate::error::Result;
 use crate::quality::QualityProfile;
 
@@ -33,7 +33,7 @@ pub fn write_cleaned(path: &Path, series: &[CleanSeries]) -> Result<()> {
         for s in series {
             for t in 0..s.len() {
                 c.write_record([
-                    s.product.as_str(),
+                    &*csv_text(&s.product),
                     &s.month(t).to_string(),
                     &fmt_opt(s.reported[t]),
                     &fmt_num(s.values[t]),
@@ -58,8 +58,8 @@ pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
         .map_err(io_err)?;
         for a in log {
             c.write_record([
-                a.product.as_str(),
-                a.site.as_deref().unwrap_or(""),
+                &*csv_text(&a.product),
+                &csv_text(a.site.as_deref().unwrap_or("")),
                 &a.month.to_string(),
                 &a.line.map(|l| l.to_string()).unwrap_or_default(),
                 &fmt_opt(a.before),
@@ -75,18 +75,41 @@ pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
 
 /// `rejected.csv`: rows not used, with the reason and the row as read.
 pub fn write_rejected(path: &Path, source: &str, rejected: &[RejectedRow]) -> Result<()> {
+    write_rejected_rows(path, source, None, rejected)
+}
+
+/// `rejected.csv` of a dataset: for a workbook, `line` is the sheet row,
+/// and the `sheet` and `cell` (`C14`) columns say where the value is.
+pub fn write_rejected_of(path: &Path, ds: &Dataset) -> Result<()> {
+    write_rejected_rows(path, &ds.source, ds.layout.sheet.as_ref(), &ds.rejected)
+}
+
+fn write_rejected_rows(
+    path: &Path,
+    source: &str,
+    sheet: Option<&SheetInfo>,
+    rejected: &[RejectedRow],
+) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv_writer(w);
-        c.write_record(["file", "line", "column", "value", "reason", "row"])
-            .map_err(io_err)?;
+        c.write_record([
+            "file", "line", "column", "value", "reason", "row", "sheet", "cell",
+        ])
+        .map_err(io_err)?;
         for r in rejected {
+            let cell = sheet
+                .zip(r.column.as_deref())
+                .and_then(|(s, col)| s.cell(r.line, col))
+                .unwrap_or_default();
             c.write_record([
-                source,
+                &*csv_text(source),
                 &r.line.to_string(),
                 r.column.as_deref().unwrap_or(""),
-                r.value.as_str(),
+                &csv_text(&r.value),
                 r.reason.as_str(),
-                r.raw.as_str(),
+                &csv_text(&r.raw),
+                sheet.map(|s| s.name.as_str()).unwrap_or(""),
+                &cell,
             ])
             .map_err(io_err)?;
         }
@@ -124,7 +147,7 @@ pub fn write_quality(path: &Path, profiles: &[QualityProfile]) -> Result<()> {
         .map_err(io_err)?;
         for p in profiles {
             c.write_record([
-                p.product.as_str(),
+                &*csv_text(&p.product),
                 &p.sites.to_string(),
                 p.first.as_str(),
                 p.last.as_str(),
@@ -167,6 +190,9 @@ pub struct CleanManifest {
     pub numbers: String,
     /// Text encoding the input was read with.
     pub encoding: String,
+    /// The sheet read, when the input is a workbook.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sheet: Option<String>,
     /// Row accounting.
     pub rows: RowAccount,
     /// Products cleaned.

@@ -603,9 +603,12 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
     let mut models = HashMap::new();
     for (line, row) in &sheet.rows {
         let line = *line;
-        let product = sheet.get(row, "product").to_string();
+        // forecast.csv writes formula-like names with a leading apostrophe.
+        let product = crate::output::csv_text_read(sheet.get(row, "product")).to_string();
         let site = if per_site {
-            sheet.optional_text(row, "site")
+            sheet
+                .optional_text(row, "site")
+                .map(|s| crate::output::csv_text_read(&s).to_string())
         } else {
             None
         };

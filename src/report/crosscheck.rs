@@ -108,7 +108,7 @@ pub fn read_crosscheck(dir: &Path) -> Result<Option<Vec<CrossCheckRow>>> {
             _ => None,
         };
         rows.push(CrossCheckRow {
-            product: text("product"),
+            product: crate::output::csv_text_read(&text("product")).to_string(),
             method: text("method"),
             period_start: text("period_start"),
             period_end: text("period_end"),

@@ -12,6 +12,7 @@ pub mod html;
 pub mod plan;
 mod read;
 pub mod review;
+pub mod workbook;
 
 use std::collections::BTreeMap;
 use std::fmt::Write as _;

@@ -309,8 +309,38 @@ impl Table {
     }
 }
 
+/// A CSV output of the folder as text: its header and up to `limit` rows,
+/// and the number of rows it has; `None` when the file is absent.
+pub(crate) type TextTable = (Vec<String>, Vec<Vec<String>>, usize);
+
+/// Reads `name` in `dir` whole as text (see [`TextTable`]).
+pub(crate) fn read_text_table(dir: &Path, name: &str, limit: usize) -> Result<Option<TextTable>> {
+    let Some(mut t) = Table::read(dir, name)? else {
+        return Ok(None);
+    };
+    let mut header: Vec<(usize, String)> = t.columns.iter().map(|(n, i)| (*i, n.clone())).collect();
+    header.sort();
+    let header: Vec<String> = header.into_iter().map(|(_, n)| n).collect();
+    let mut rows = Vec::new();
+    let mut total = 0usize;
+    t.each(|_, _, rec| {
+        total += 1;
+        if rows.len() < limit {
+            rows.push(rec.iter().map(str::to_string).collect());
+        }
+        Ok(())
+    })?;
+    Ok(Some((header, rows, total)))
+}
+
 pub(super) fn text(rec: &csv::StringRecord, col: usize) -> String {
     rec.get(col).unwrap_or("").to_string()
+}
+
+/// A product or site name, as written with formula text quoted (see
+/// [`crate::output::csv_text`]).
+fn name(rec: &csv::StringRecord, col: usize) -> String {
+    crate::output::csv_text_read(rec.get(col).unwrap_or("")).to_string()
 }
 
 fn status(name: &str) -> MonthStatus {
@@ -382,7 +412,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             total_13_24: n(13)?,
             reason: text(rec, c[14]),
         };
-        let product = text(rec, c[0]);
+        let product = name(rec, c[0]);
         index.insert(product.clone(), products.len());
         products.push(ProductResult {
             product,
@@ -403,7 +433,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "product", "month", "reported", "cleaned", "status", "outlier",
     ])?;
     cl.each(|cl, line, rec| {
-        let Some(&i) = index.get(&text(rec, c[0])) else {
+        let Some(&i) = index.get(&name(rec, c[0])) else {
             return Ok(());
         };
         products[i].history.push(HistoryMonth {
@@ -422,7 +452,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
     ];
     let c = fc.cols(names)?;
     fc.each(|fc, line, rec| {
-        let Some(&i) = index.get(&text(rec, c[0])) else {
+        let Some(&i) = index.get(&name(rec, c[0])) else {
             return Ok(());
         };
         let n = |k: usize| fc.num(line, rec, c[k], names[k]);
@@ -450,7 +480,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             "mean_reporting_rate_pct",
         ])?;
         q.each(|_, _, rec| {
-            if let Some(&i) = index.get(&text(rec, c[0])) {
+            if let Some(&i) = index.get(&name(rec, c[0])) {
                 let reasons = text(rec, c[2]);
                 products[i].quality = Some(Quality {
                     verdict: text(rec, c[1]),
@@ -476,7 +506,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         let c = t.cols(names)?;
         let f = t.cols(FIGURE_COLUMNS)?;
         t.each(|t, line, rec| {
-            let Some(&i) = index.get(&text(rec, c[0])) else {
+            let Some(&i) = index.get(&name(rec, c[0])) else {
                 return Ok(());
             };
             let n = |k: usize| t.num(line, rec, c[k], names[k]);
@@ -496,7 +526,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         let mut paths: Vec<BTreeMap<YearMonth, Vec<(YearMonth, f64)>>> =
             vec![BTreeMap::new(); products.len()];
         t.each(|t, line, rec| {
-            let Some(&i) = index.get(&text(rec, c[0])) else {
+            let Some(&i) = index.get(&name(rec, c[0])) else {
                 return Ok(());
             };
             if rec.get(c[1]) != Some(products[i].selection.chosen.as_str()) {
@@ -532,11 +562,11 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         ];
         let c = t.cols(names)?;
         t.each(|t, line, rec| {
-            let Some(&i) = index.get(&text(rec, c[0])) else {
+            let Some(&i) = index.get(&name(rec, c[0])) else {
                 return Ok(());
             };
             products[i].adjustments.push(AdjustmentRow {
-                site: text(rec, c[1]),
+                site: name(rec, c[1]),
                 month: text(rec, c[2]),
                 line: text(rec, c[3]),
                 before: t.num(line, rec, c[4], "before")?,

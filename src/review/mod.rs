@@ -99,19 +99,27 @@ impl ReviewSettings {
 }
 
 /// Reads and cleans the actuals with a past run's read rules (duplicates,
-/// number format, encoding) and cleaning settings.
+/// number format, encoding) and cleaning settings. `source` names the file
+/// (its extension picks CSV or workbook); a workbook is read at `sheet`,
+/// or else at the sheet the past run read when that run's input was a
+/// workbook, or else at its first sheet.
 pub fn clean_actuals(
     source: &str,
     bytes: &[u8],
     manifest: &PastManifest,
+    sheet: Option<&str>,
 ) -> Result<(Dataset, Cleaned)> {
+    let workbook = crate::data::is_workbook(std::path::Path::new(source));
     let options = ReadOptions {
         duplicates: manifest.duplicate_policy(),
         numbers: manifest.number_format(),
         encoding: manifest.text_encoding(),
+        sheet: sheet
+            .map(str::to_string)
+            .or_else(|| manifest.sheet.clone().filter(|_| workbook)),
         ..ReadOptions::default()
     };
-    let ds = crate::data::read_csv_bytes(source, bytes, &options)?;
+    let ds = crate::data::read_bytes(source, bytes, &options)?;
     let settings = manifest.clean_settings.clone().check()?;
     let cleaned = crate::clean::clean(&ds, &settings);
     Ok((ds, cleaned))

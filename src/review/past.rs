@@ -46,6 +46,8 @@ pub struct PastManifest {
     /// Text encoding the past run read (`--encoding`); `utf-8` when the
     /// manifest predates the option.
     pub encoding: String,
+    /// The sheet the past run read, when its input was a workbook.
+    pub sheet: Option<String>,
 }
 
 impl PastManifest {
@@ -358,6 +360,7 @@ fn read_manifest(path: &Path) -> Result<PastManifest> {
         duplicates,
         exclude_imputed,
         until: v.get("until").and_then(|x| x.as_str()).map(str::to_string),
+        sheet: v.get("sheet").and_then(|x| x.as_str()).map(str::to_string),
     })
 }
 
@@ -415,11 +418,18 @@ impl Table {
     }
 
     fn cell<'a>(&self, rec: &'a csv::StringRecord, column: &str) -> &'a str {
-        self.columns
+        let v = self
+            .columns
             .get(column)
             .and_then(|&i| rec.get(i))
             .unwrap_or("")
-            .trim()
+            .trim();
+        // Names were written with formula text quoted (see `output::csv_text`).
+        if column == "product" || column == "site" {
+            crate::output::csv_text_read(v)
+        } else {
+            v
+        }
     }
 
     fn month(&self, line: u64, rec: &csv::StringRecord, column: &str) -> Result<YearMonth> {

@@ -1,0 +1,250 @@
+//! `forecast.xlsx` built from a forecast output folder, like the HTML
+//! report: the workbook shows exactly what the CSV files say.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+use super::read::read_text_table;
+use crate::calendar::YearMonth;
+use crate::error::{Error, Result};
+use crate::output::{
+    csv_text_read, ColumnKind, WorkbookContent, WorkbookForecast, WorkbookTable, MAX_TABLE_ROWS,
+};
+
+/// Name of the workbook in the output folder.
+pub const WORKBOOK_FILE: &str = "forecast.xlsx";
+
+/// Columns whose text comes from the input data; the CSV outputs write
+/// them with formula text quoted, which the workbook does not need.
+const INPUT_TEXT: [&str; 4] = ["product", "site", "value", "row"];
+
+fn kind_of(column: &str) -> ColumnKind {
+    match column {
+        "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" => ColumnKind::Count,
+        "before" | "after" | "rmse" | "runner_up_score" => ColumnKind::Quantity,
+        c if c.starts_with("months_") => ColumnKind::Count,
+        c if c.starts_with("amc_") || c.starts_with("total_") => ColumnKind::Quantity,
+        c if c.ends_with("_pct") || c == "mase" => ColumnKind::Decimal,
+        _ => ColumnKind::Text,
+    }
+}
+
+/// A CSV output of `dir` as a sheet; `None` when the file is absent.
+fn table(dir: &Path, file: &str, sheet: &str) -> Result<Option<WorkbookTable>> {
+    let Some((header, mut rows, total)) = read_text_table(dir, file, MAX_TABLE_ROWS)? else {
+        return Ok(None);
+    };
+    let input: Vec<usize> = header
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| INPUT_TEXT.contains(&h.as_str()))
+        .map(|(i, _)| i)
+        .collect();
+    for r in &mut rows {
+        for &i in &input {
+            if let Some(v) = r.get_mut(i) {
+                *v = csv_text_read(v).to_string();
+            }
+        }
+    }
+    let note = (total > rows.len()).then(|| {
+        format!(
+            "the first {} of {total} rows; {file} has them all",
+            rows.len()
+        )
+    });
+    Ok(Some(WorkbookTable {
+        sheet: sheet.to_string(),
+        columns: header.iter().map(|h| (h.clone(), kind_of(h))).collect(),
+        rows,
+        note,
+    }))
+}
+
+/// Flattens the manifest into setting, value pairs: nested settings as
+/// `clean_settings.max_stockout_days`, each warning a row of its own.
+fn flatten(prefix: &str, v: &serde_json::Value, out: &mut Vec<(String, String)>) {
+    use serde_json::Value;
+    match v {
+        Value::Object(map) => {
+            for (k, x) in map {
+                let key = if prefix.is_empty() {
+                    k.clone()
+                } else {
+                    format!("{prefix}.{k}")
+                };
+                flatten(&key, x, out);
+            }
+        }
+        Value::Array(items) if items.is_empty() => {
+            out.push((prefix.to_string(), "none".to_string()));
+        }
+        // Each warning on a row of its own; short lists on one row.
+        Value::Array(items) if prefix == "warnings" => {
+            for (i, x) in items.iter().enumerate() {
+                let key = if i == 0 {
+                    prefix.to_string()
+                } else {
+                    String::new()
+                };
+                flatten_scalar(key, x, out);
+            }
+        }
+        Value::Array(items) if items.iter().all(|x| !x.is_object() && !x.is_array()) => {
+            let mut joined = Vec::new();
+            for x in items {
+                flatten_scalar(String::new(), x, &mut joined);
+            }
+            let text: Vec<String> = joined.into_iter().map(|(_, v)| v).collect();
+            out.push((prefix.to_string(), text.join(", ")));
+        }
+        Value::Array(items) => {
+            for (i, x) in items.iter().enumerate() {
+                flatten(&format!("{prefix}.{}", i + 1), x, out);
+            }
+        }
+        scalar => flatten_scalar(prefix.to_string(), scalar, out),
+    }
+}
+
+fn flatten_scalar(key: String, v: &serde_json::Value, out: &mut Vec<(String, String)>) {
+    let text = match v {
+        serde_json::Value::String(s) => s.clone(),
+        serde_json::Value::Null => "none".to_string(),
+        other => other.to_string(),
+    };
+    out.push((key, text));
+}
+
+/// The run parameters: the facts a reader looks for first, then every
+/// setting of the manifest.
+fn parameters(manifest: &serde_json::Value) -> Vec<(String, String)> {
+    let mut all = Vec::new();
+    flatten("", manifest, &mut all);
+    let first = [
+        "tool",
+        "date",
+        "command",
+        "input",
+        "sheet",
+        "input_sha256",
+        "until",
+    ];
+    let mut out: Vec<(String, String)> = first
+        .iter()
+        .filter_map(|k| all.iter().find(|(n, _)| n == k).cloned())
+        .collect();
+    if !out.iter().any(|(k, _)| k == "date") {
+        out.insert(1, ("date".to_string(), "not recorded".to_string()));
+    }
+    // A warning's continuation rows have an empty key: keep them with it.
+    let mut in_first = false;
+    for (k, v) in all {
+        if !k.is_empty() {
+            in_first = first.contains(&k.as_str());
+        }
+        if !in_first {
+            out.push((k, v));
+        }
+    }
+    out
+}
+
+/// Reads a forecast output folder into the workbook's content.
+pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
+    let manifest_path = dir.join("manifest.json");
+    let manifest: serde_json::Value = std::fs::read(&manifest_path)
+        .ok()
+        .and_then(|b| serde_json::from_slice(&b).ok())
+        .ok_or_else(|| Error::Input {
+            file: manifest_path.display().to_string(),
+            line: 0,
+            column: None,
+            message: "missing or not valid JSON; give the output directory of `provisio forecast`"
+                .into(),
+        })?;
+    let Some((header, rows, _)) = read_text_table(dir, "forecast.csv", usize::MAX)? else {
+        return Err(Error::Input {
+            file: dir.join("forecast.csv").display().to_string(),
+            line: 0,
+            column: None,
+            message: "file not found; give the output directory of `provisio forecast`".into(),
+        });
+    };
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .ok_or_else(|| Error::Input {
+                file: dir.join("forecast.csv").display().to_string(),
+                line: 1,
+                column: Some(name.to_string()),
+                message: "missing column".into(),
+            })
+    };
+    let c = [
+        col("product")?,
+        col("month")?,
+        col("model")?,
+        col("forecast")?,
+        col("lower_80")?,
+        col("upper_80")?,
+        col("lower_95")?,
+        col("upper_95")?,
+    ];
+    let mut forecasts: Vec<WorkbookForecast> = Vec::new();
+    let mut index: HashMap<String, usize> = HashMap::new();
+    for (i, r) in rows.iter().enumerate() {
+        let get = |k: usize| r.get(c[k]).map(String::as_str).unwrap_or("");
+        let num = |k: usize| get(k).trim().parse::<f64>().ok();
+        let bad = |what: &str| Error::Input {
+            file: dir.join("forecast.csv").display().to_string(),
+            line: i as u64 + 2,
+            column: Some(what.to_string()),
+            message: format!(
+                "'{}' cannot be read",
+                get(if what == "month" { 1 } else { 3 })
+            ),
+        };
+        let month = YearMonth::parse(get(1).trim()).map_err(|_| bad("month"))?;
+        let point = num(3).ok_or_else(|| bad("forecast"))?;
+        let product = csv_text_read(get(0)).to_string();
+        let k = *index.entry(product.clone()).or_insert_with(|| {
+            forecasts.push(WorkbookForecast {
+                product,
+                model: get(2).to_string(),
+                months: Vec::new(),
+            });
+            forecasts.len() - 1
+        });
+        forecasts[k]
+            .months
+            .push((month, point, num(4).zip(num(5)), num(6).zip(num(7))));
+    }
+    let mut tables = Vec::new();
+    for (file, sheet) in [
+        ("selection.csv", "Selection"),
+        ("adjustments.csv", "Adjustments"),
+        ("quality.csv", "Data quality"),
+        ("rejected.csv", "Rejected rows"),
+    ] {
+        if let Some(t) = table(dir, file, sheet)? {
+            tables.push(t);
+        }
+    }
+    Ok(WorkbookContent {
+        forecasts,
+        tables,
+        parameters: parameters(&manifest),
+        caution: super::CAUTION.to_string(),
+    })
+}
+
+/// Reads the forecast output folder `dir` and writes `forecast.xlsx` into
+/// it (atomically); returns its path.
+pub fn write_workbook(dir: &Path) -> Result<PathBuf> {
+    let content = workbook_content(dir)?;
+    let path = dir.join(WORKBOOK_FILE);
+    crate::output::write_workbook(&path, &content)?;
+    Ok(path)
+}
