@@ -445,3 +445,26 @@ fn refusals_name_file_line_column_and_write_nothing() {
     assert_eq!(o.status.code(), Some(1));
     assert!(text(&o).contains("forecast.csv"), "{}", text(&o));
 }
+
+/// A product whose name starts like a spreadsheet formula is written to
+/// `forecast.csv` with a leading apostrophe (OWASP "CSV Injection"
+/// guidance); `plan` reads it back as the plain name, matches the stock row
+/// written without it, and writes its own CSV outputs the same way.
+#[test]
+fn formula_like_names_match_the_stock_file_and_stay_quoted() {
+    let w = Workdir::new();
+    w.hand_forecast(&flat_forecast("'=SUM(A1)", 2027, 12, 1000.0));
+    w.write(
+        "stock.csv",
+        &format!("{HEADER}\"=SUM(A1)\",1500,2026-12,1,3,6,2,1,1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(!text(&o).contains("not in the forecast"), "{}", text(&o));
+    let plan = w.read_csv("fc/plan.csv");
+    assert_eq!(plan.len(), 12);
+    assert!(plan.iter().all(|r| r["product"] == "'=SUM(A1)"));
+    let orders = w.read_csv("fc/orders.csv");
+    assert!(!orders.is_empty());
+    assert!(orders.iter().all(|r| r["product"] == "'=SUM(A1)"));
+}
