@@ -774,14 +774,17 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::json_summary(|| v);
     }
     say!(
-        "forecast {} product(s) for {} months in {:.1} s; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        "forecast {} product(s) for {} months in {}; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         products,
         a.horizon,
-        secs,
+        super::fmt_secs(secs),
         a_out.display()
     );
     match workbook {
-        Some(_) => say!("wrote forecast.xlsx (the planner's workbook) in {book_secs:.1} s"),
+        Some(_) => say!(
+            "wrote forecast.xlsx (the planner's workbook) in {}",
+            super::fmt_secs(book_secs)
+        ),
         None => say!(
             "no forecast.xlsx (--no-workbook); `provisio report {} --workbook-only` builds it",
             a_out.display()

@@ -62,6 +62,17 @@ fn chatty() -> bool {
     !mode().quiet
 }
 
+/// A duration for people: "0.047 s", "2.3 s", "41 s".
+fn fmt_secs(secs: f64) -> String {
+    if secs < 1.0 {
+        format!("{secs:.3} s")
+    } else if secs < 10.0 {
+        format!("{secs:.1} s")
+    } else {
+        format!("{secs:.0} s")
+    }
+}
+
 /// Whether --json was given.
 fn json_wanted() -> bool {
     mode().json
