@@ -459,10 +459,28 @@ pub fn run() -> i32 {
             code
         }
         Err(e) => {
-            eprintln!("{} {e:#}", prefix("error", 31));
+            eprintln!("{} {}", prefix("error", 31), error_text(&e));
             EXIT_REFUSED
         }
     }
+}
+
+/// An error and its causes on one line, each cause once: a library error
+/// that already quotes its cause (the operating system's message) does not
+/// get it a second time.
+fn error_text(e: &anyhow::Error) -> String {
+    let mut out = String::new();
+    for cause in e.chain() {
+        let text = cause.to_string();
+        if out.contains(&text) {
+            continue;
+        }
+        if !out.is_empty() {
+            out.push_str(": ");
+        }
+        out.push_str(&text);
+    }
+    out
 }
 
 /// A usage error of a command found after parsing (exit code 2, like
@@ -619,6 +637,24 @@ fn pad(s: &str, n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_cause_already_quoted_is_not_repeated() {
+        let io = std::io::Error::new(std::io::ErrorKind::NotFound, "No such file or directory");
+        let e: anyhow::Error = provisio::error::Error::Io {
+            path: "nope.csv".into(),
+            action: "cannot read input",
+            source: io,
+        }
+        .into();
+        assert_eq!(
+            error_text(&e),
+            "nope.csv: cannot read input: No such file or directory"
+        );
+        // A cause not in the message is still shown.
+        let e = anyhow::anyhow!("disk full").context("cannot write forecast.csv");
+        assert_eq!(error_text(&e), "cannot write forecast.csv: disk full");
+    }
 
     #[test]
     fn colour_only_on_a_terminal_without_no_color() {
