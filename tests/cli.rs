@@ -1,59 +1,9 @@
 //! End-to-end tests: run the real binary in a temporary directory, feed it
 //! CSV, read back its output files.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-/// A temporary working directory with helpers to run `provisio` in it.
-struct Workdir {
-    dir: tempfile::TempDir,
-}
-
-impl Workdir {
-    fn new() -> Self {
-        Workdir {
-            dir: tempfile::tempdir().expect("temp dir"),
-        }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn write(&self, name: &str, bytes: &[u8]) -> PathBuf {
-        let p = self.path(name);
-        std::fs::write(&p, bytes).expect("write fixture");
-        p
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        Command::new(env!("CARGO_BIN_EXE_provisio"))
-            .args(args)
-            .current_dir(self.dir.path())
-            .output()
-            .expect("run provisio")
-    }
-
-    fn read_csv(&self, name: &str) -> Vec<csv::StringRecord> {
-        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
-        r.records().map(|x| x.expect("record")).collect()
-    }
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
-}
-
-fn repo(rel: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join(rel)
-        .display()
-        .to_string()
-}
+use common::{repo, text, Workdir};
 
 /// Parses "rows read: N = U used as reported + A adjusted + R rejected".
 fn accounting(out: &str) -> (usize, usize, usize, usize) {
@@ -72,7 +22,7 @@ fn accounting(out: &str) -> (usize, usize, usize, usize) {
 #[test]
 fn clean_demo_writes_outputs_that_reconcile() {
     let w = Workdir::new();
-    let data = repo("datasets/demo/consumption.csv");
+    let data = repo("datasets/demo/consumption.csv").display().to_string();
     let o = w.run(&["clean", &data, "--out", "out"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
@@ -81,7 +31,7 @@ fn clean_demo_writes_outputs_that_reconcile() {
     let input_rows = std::fs::read_to_string(&data).unwrap().lines().count() - 1;
     assert_eq!(read, input_rows);
 
-    let cleaned = w.read_csv("out/cleaned.csv");
+    let cleaned = w.read_csv_records("out/cleaned.csv").1;
     let products: std::collections::BTreeSet<&str> =
         cleaned.iter().map(|r| r.get(0).unwrap()).collect();
     assert_eq!(products.len(), 12);
@@ -95,7 +45,7 @@ fn clean_demo_writes_outputs_that_reconcile() {
         .map(|r| r.unwrap())
         .filter_map(|r| r[3].parse::<f64>().ok())
         .sum();
-    let log = w.read_csv("out/adjustments.csv");
+    let log = w.read_csv_records("out/adjustments.csv").1;
     let num = |s: &str| {
         if s.is_empty() {
             0.0
@@ -124,7 +74,7 @@ fn clean_demo_writes_outputs_that_reconcile() {
             .unwrap();
     assert_eq!(manifest["rows"]["read"].as_u64().unwrap() as usize, read);
     assert_eq!(manifest["input_sha256"].as_str().unwrap().len(), 64);
-    assert_eq!(w.read_csv("out/quality.csv").len(), 12);
+    assert_eq!(w.read_csv_records("out/quality.csv").1.len(), 12);
 }
 
 #[test]
@@ -132,7 +82,7 @@ fn inspect_demo_prints_a_verdict_per_product_and_csv() {
     let w = Workdir::new();
     let o = w.run(&[
         "inspect",
-        &repo("datasets/demo/consumption.csv"),
+        &repo("datasets/demo/consumption.csv").display().to_string(),
         "--csv",
         "q.csv",
     ]);
@@ -141,7 +91,7 @@ fn inspect_demo_prints_a_verdict_per_product_and_csv() {
     assert!(out.contains("Snake antivenom vial: fit with care"), "{out}");
     assert!(out.contains("intermittent"), "{out}");
     assert!(out.contains("affected by stockouts"), "{out}");
-    let q = w.read_csv("q.csv");
+    let q = w.read_csv_records("q.csv").1;
     assert_eq!(q.len(), 12);
     assert!(
         q.iter().all(|r| !r[15].is_empty()),
@@ -158,7 +108,7 @@ fn semicolon_bom_and_percent_rates_are_read() {
     );
     let o = w.run(&["clean", f.to_str().unwrap(), "--out", "o"]);
     assert!(o.status.success(), "{}", text(&o));
-    let c = w.read_csv("o/cleaned.csv");
+    let c = w.read_csv_records("o/cleaned.csv").1;
     let vals: Vec<f64> = c.iter().map(|r| r[3].parse().unwrap()).collect();
     // Common practice: reported ÷ reporting rate.
     assert_eq!(vals, vec![1000.0, 1000.0, 1000.0]);
@@ -169,7 +119,7 @@ fn bad_setting_is_refused_with_the_value() {
     let w = Workdir::new();
     let o = w.run(&[
         "clean",
-        &repo("datasets/demo/consumption.csv"),
+        &repo("datasets/demo/consumption.csv").display().to_string(),
         "--out",
         "o",
         "--reporting-floor",
@@ -267,7 +217,7 @@ const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
 
 #[test]
 fn hostile_catalogue_gives_the_expected_messages() {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/bad");
+    let dir = repo("tests/data/bad");
     let listed: std::collections::BTreeSet<&str> = CATALOGUE.iter().map(|b| b.0).collect();
     for entry in std::fs::read_dir(&dir).unwrap() {
         let name = entry.unwrap().file_name().into_string().unwrap();
@@ -282,7 +232,7 @@ fn hostile_catalogue_gives_the_expected_messages() {
             "{file} is not described in the README"
         );
         let w = Workdir::new();
-        w.write(file, &std::fs::read(dir.join(file)).unwrap());
+        w.write(file, std::fs::read(dir.join(file)).unwrap());
         // Run from the temp dir with a bare file name so messages are stable.
         for cmd in ["inspect", "clean"] {
             let mut args = vec![cmd, *file];
@@ -306,7 +256,11 @@ fn hostile_catalogue_gives_the_expected_messages() {
                     assert_eq!(rejected > 0, *outcome == RowRejected, "{what}:\n{out}");
                     if cmd == "clean" {
                         // The rejected-rows file lists each rejected row with its reason.
-                        assert_eq!(w.read_csv("o/rejected.csv").len(), rejected, "{what}");
+                        assert_eq!(
+                            w.read_csv_records("o/rejected.csv").1.len(),
+                            rejected,
+                            "{what}"
+                        );
                     }
                 }
             }

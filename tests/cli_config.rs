@@ -3,65 +3,15 @@
 //! per-product settings in the outputs, --json, --quiet, exit codes,
 //! completions, man pages and colour.
 
-use std::path::PathBuf;
-use std::process::{Command, Output};
+mod common;
 
-struct Workdir {
-    dir: tempfile::TempDir,
-}
+use common::{repo, text, Workdir};
 
-impl Workdir {
-    fn new() -> Self {
-        let w = Workdir {
-            dir: tempfile::tempdir().expect("temp dir"),
-        };
-        w.write("data.csv", &two_products());
-        w
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn write(&self, name: &str, text: &str) -> PathBuf {
-        let p = self.path(name);
-        std::fs::write(&p, text).expect("write fixture");
-        p
-    }
-
-    fn run_env(&self, args: &[&str], env: &[(&str, &str)]) -> Output {
-        let mut c = Command::new(env!("CARGO_BIN_EXE_provisio"));
-        c.args(args)
-            .current_dir(self.dir.path())
-            .env_remove("NO_COLOR");
-        for (k, v) in env {
-            c.env(k, v);
-        }
-        c.output().expect("run provisio")
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        self.run_env(args, &[])
-    }
-
-    fn csv(&self, name: &str) -> (Vec<String>, Vec<csv::StringRecord>) {
-        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
-        let h = r.headers().unwrap().iter().map(String::from).collect();
-        (h, r.records().map(|x| x.unwrap()).collect())
-    }
-
-    fn manifest(&self, dir: &str) -> serde_json::Value {
-        let t = std::fs::read_to_string(self.path(dir).join("manifest.json")).unwrap();
-        serde_json::from_str(&t).unwrap()
-    }
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
+/// A working directory holding `data.csv`, the two invented products.
+fn workdir() -> Workdir {
+    let w = Workdir::new();
+    w.write("data.csv", two_products());
+    w
 }
 
 /// Two invented products over 48 months: Alpha seasonal, Beta flat with a
@@ -81,7 +31,7 @@ fn two_products() -> String {
 }
 
 fn months_of(w: &Workdir, out: &str, product: &str) -> usize {
-    let (_, rows) = w.csv(&format!("{out}/forecast.csv"));
+    let (_, rows) = w.read_csv_records(&format!("{out}/forecast.csv"));
     rows.iter().filter(|r| &r[0] == product).count()
 }
 
@@ -89,7 +39,7 @@ const FAST: [&str; 5] = ["--origins", "3", "--backtest-horizon", "3", "--no-repo
 
 #[test]
 fn command_line_overrides_the_file_which_overrides_defaults() {
-    let w = Workdir::new();
+    let w = workdir();
     w.write(
         "run.toml",
         "[input]\ndata = \"data.csv\"\n[projection]\nhorizon = 6\n[backtest]\norigins = 3\nbacktest_horizon = 3\n[output]\nno_report = true\nout = \"from-file\"\n",
@@ -144,7 +94,7 @@ fn command_line_overrides_the_file_which_overrides_defaults() {
 
 #[test]
 fn written_configuration_reruns_the_same_way() {
-    let w = Workdir::new();
+    let w = workdir();
     w.write(
         "run.toml",
         "[cleaning]\nmax_stockout_days = 12\n[selection]\nselect_by = \"wape\"\n[products.\"Beta\"]\nunits = \"tablet\"\npack_size = 10\nseasonal = false\n",
@@ -211,7 +161,7 @@ fn written_configuration_reruns_the_same_way() {
 
 #[test]
 fn configuration_errors_name_file_line_column_and_exit_1() {
-    let w = Workdir::new();
+    let w = workdir();
     let cases = [
         (
             "[projection]\nhorizn = 12\n",
@@ -248,7 +198,7 @@ fn configuration_errors_name_file_line_column_and_exit_1() {
 
 #[test]
 fn a_product_not_in_the_data_is_a_warning() {
-    let w = Workdir::new();
+    let w = workdir();
     w.write("run.toml", "[products.\"Gamma\"]\nunits = \"vial\"\n");
     let mut args = vec!["forecast", "data.csv", "--config", "run.toml", "--out", "o"];
     args.extend(FAST);
@@ -265,7 +215,7 @@ fn a_product_not_in_the_data_is_a_warning() {
 
 #[test]
 fn product_settings_reach_the_outputs() {
-    let w = Workdir::new();
+    let w = workdir();
     // Beta: 10 stockout days in three months; with its own limit of 8 days
     // they are treated as missing, Alpha keeps the run's 15.
     w.write(
@@ -278,7 +228,7 @@ fn product_settings_reach_the_outputs() {
     args.extend(["--origins", "3", "--backtest-horizon", "3"]);
     let o = w.run(&args);
     assert!(o.status.success(), "{}", text(&o));
-    let (h, rows) = w.csv("o/forecast.csv");
+    let (h, rows) = w.read_csv_records("o/forecast.csv");
     // Existing columns first, in their order; the new ones at the end.
     assert_eq!(
         h,
@@ -305,7 +255,7 @@ fn product_settings_reach_the_outputs() {
             assert_eq!((&r[8], &r[9], &r[10]), ("", "", ""));
         }
     }
-    let (sh, sel) = w.csv("o/selection.csv");
+    let (sh, sel) = w.read_csv_records("o/selection.csv");
     let col = |n: &str| sh.iter().position(|h| h == n).unwrap();
     let reason = |p: &str| sel.iter().find(|r| &r[0] == p).unwrap()[col("reason")].to_string();
     assert!(
@@ -319,13 +269,13 @@ fn product_settings_reach_the_outputs() {
         reason("Alpha")
     );
     let seasonal = ["seasonal-naive", "holt-winters", "mstl-ets", "theta"];
-    let (ch, scores) = w.csv("o/scores.csv");
+    let (ch, scores) = w.read_csv_records("o/scores.csv");
     let (pc, mc) = (0, ch.iter().position(|h| h == "model").unwrap());
     assert!(scores
         .iter()
         .filter(|r| &r[pc] == "Alpha")
         .all(|r| !seasonal.iter().any(|s| r[mc].starts_with(s))));
-    let (_, adj) = w.csv("o/adjustments.csv");
+    let (_, adj) = w.read_csv_records("o/adjustments.csv");
     let missing = adj
         .iter()
         .filter(|r| &r[0] == "Beta" && r.iter().any(|c| c == "stockout-missing"))
@@ -343,7 +293,7 @@ fn product_settings_reach_the_outputs() {
 
 #[test]
 fn json_summary_and_quiet() {
-    let w = Workdir::new();
+    let w = workdir();
     let mut args = vec!["--json", "forecast", "data.csv", "--out", "o"];
     args.extend(FAST);
     let o = w.run(&args);
@@ -380,7 +330,7 @@ fn json_summary_and_quiet() {
 
 #[test]
 fn exit_codes_are_0_1_and_2() {
-    let w = Workdir::new();
+    let w = workdir();
     let o = w.run(&["inspect", "data.csv"]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
     w.write("empty.csv", "");
@@ -401,7 +351,7 @@ fn exit_codes_are_0_1_and_2() {
 
 #[test]
 fn completions_and_man_pages_name_every_command() {
-    let w = Workdir::new();
+    let w = workdir();
     let commands = [
         "forecast", "backtest", "evaluate", "inspect", "clean", "review", "report", "plan",
     ];
@@ -430,7 +380,7 @@ fn completions_and_man_pages_name_every_command() {
 
 #[test]
 fn no_colour_escape_codes_off_a_terminal() {
-    let w = Workdir::new();
+    let w = workdir();
     w.write("run.toml", "[products.\"Gamma\"]\nunits = \"vial\"\n");
     // A warning and an error are printed, neither coloured: standard error
     // is a pipe here (with and without NO_COLOR).
@@ -461,7 +411,7 @@ fn no_colour_escape_codes_off_a_terminal() {
 
 #[test]
 fn every_help_has_examples() {
-    let w = Workdir::new();
+    let w = workdir();
     let o = w.run(&["--help"]);
     let top = String::from_utf8_lossy(&o.stdout).to_string();
     assert!(top.contains("Exit codes: 0 success; 1"), "{top}");
@@ -485,10 +435,6 @@ fn every_help_has_examples() {
         assert!(h.contains("Example"), "{c} --help has no example");
         assert!(h.contains(&format!("provisio {c}")), "{c}");
     }
-}
-
-fn repo(rel: &str) -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join(rel)
 }
 
 #[test]
@@ -536,7 +482,7 @@ fn demo_configuration_is_valid_and_names_demo_products() {
 
 #[test]
 fn clean_and_inspect_take_the_cleaning_settings() {
-    let w = Workdir::new();
+    let w = workdir();
     w.write(
         "run.toml",
         "[cleaning]\nmax_stockout_days = 12\n[products.\"Beta\"]\nmax_stockout_days = 8\n",
@@ -547,7 +493,7 @@ fn clean_and_inspect_take_the_cleaning_settings() {
     assert_eq!(m["settings"]["max_stockout_days"], 12.0);
     assert_eq!(m["settings"]["stockout_days_by_product"]["Beta"], 8.0);
     assert_eq!(m["config_file"], "run.toml");
-    let (_, adj) = w.csv("c/adjustments.csv");
+    let (_, adj) = w.read_csv_records("c/adjustments.csv");
     let missing = adj
         .iter()
         .filter(|r| r.iter().any(|c| c == "stockout-missing"))

@@ -3,68 +3,14 @@
 //! `crosscheck.csv` and the report section, and refuses bad inputs with the
 //! file, line and column.
 
+mod common;
+
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
-struct Workdir {
-    dir: tempfile::TempDir,
-}
-
-impl Workdir {
-    fn new() -> Self {
-        Workdir {
-            dir: tempfile::tempdir().expect("temp dir"),
-        }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn write(&self, name: &str, text: &str) {
-        if let Some(p) = self.path(name).parent() {
-            std::fs::create_dir_all(p).unwrap();
-        }
-        std::fs::write(self.path(name), text).unwrap();
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        Command::new(env!("CARGO_BIN_EXE_provisio"))
-            .args(args)
-            .current_dir(self.dir.path())
-            .output()
-            .expect("run provisio")
-    }
-
-    fn read_csv(&self, name: &str) -> Vec<BTreeMap<String, String>> {
-        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
-        let h: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
-        r.records()
-            .map(|x| {
-                h.iter()
-                    .cloned()
-                    .zip(x.unwrap().iter().map(str::to_string))
-                    .collect()
-            })
-            .collect()
-    }
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
-}
+use common::{repo, text, Workdir};
 
 fn demo(name: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("datasets/demo")
-        .join(name)
-        .display()
-        .to_string()
+    repo("datasets/demo").join(name).display().to_string()
 }
 
 fn num(row: &BTreeMap<String, String>, col: &str) -> f64 {
@@ -121,7 +67,7 @@ fn artemether_lumefantrine_worked_check_end_to_end() {
     w.write("pop.csv", AL_BANDS);
     let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
     assert!(o.status.success(), "{}", text(&o));
-    let rows = w.read_csv("fc/crosscheck.csv");
+    let rows = w.read_csv_maps("fc/crosscheck.csv");
     let c = find(&rows, "AL", "consumption");
     assert!((num(c, "quantity") - 2_000_000.0).abs() < 1e-3);
     // Months independent: 2,000,000 ± √12 × 16,667; sum of bounds: ± 200,000.
@@ -161,7 +107,7 @@ fn artemether_lumefantrine_worked_check_end_to_end() {
         "{}",
         text(&o)
     );
-    let m = find(&w.read_csv("fc/crosscheck.csv"), "AL", "morbidity").clone();
+    let m = find(&w.read_csv_maps("fc/crosscheck.csv"), "AL", "morbidity").clone();
     assert_eq!(
         (m["flag"].as_str(), m["period_end"].as_str()),
         ("no-comparison", "2028-05")
@@ -187,7 +133,7 @@ fn artemether_lumefantrine_worked_check_end_to_end() {
     ]);
     assert!(o.status.success(), "{}", text(&o));
     assert_eq!(
-        find(&w.read_csv("fc/crosscheck.csv"), "AL", "morbidity")["flag"],
+        find(&w.read_csv_maps("fc/crosscheck.csv"), "AL", "morbidity")["flag"],
         "agrees"
     );
 }
@@ -207,7 +153,7 @@ fn demographic_rows_use_the_cyp_table_or_an_override() {
     );
     let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
     assert!(o.status.success(), "{}", text(&o));
-    let rows = w.read_csv("fc/crosscheck.csv");
+    let rows = w.read_csv_maps("fc/crosscheck.csv");
     let c = find(&rows, "Condom", "demographic");
     assert!((num(c, "quantity") - 720_000.0).abs() < 1e-6);
     assert_eq!(c["flag"], "agrees");
@@ -229,7 +175,12 @@ fn demographic_rows_use_the_cyp_table_or_an_override() {
         "--no-report",
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    let c2 = find(&w.read_csv("fc/crosscheck.csv"), "Condom", "demographic").clone();
+    let c2 = find(
+        &w.read_csv_maps("fc/crosscheck.csv"),
+        "Condom",
+        "demographic",
+    )
+    .clone();
     assert!((num(&c2, "quantity") - 600_000.0).abs() < 1e-6);
     assert!(c2["basis"].contains("national guideline (test)"));
     let json: serde_json::Value =
@@ -246,7 +197,7 @@ fn bad_inputs_are_refused_or_logged() {
     // A bad share refuses the population file, naming line and column.
     w.write(
         "pop.csv",
-        &AL_BANDS.replace("1000000,0.15,0.30", "1000000,0.15,abc"),
+        AL_BANDS.replace("1000000,0.15,0.30", "1000000,0.15,abc"),
     );
     let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
     assert_eq!(o.status.code(), Some(1));
@@ -260,7 +211,7 @@ fn bad_inputs_are_refused_or_logged() {
     // A plain 60 for a share is refused with the hint to write 60%.
     w.write(
         "pop.csv",
-        &AL_BANDS.replace("0.20,0.30,0.60", "0.20,0.30,60"),
+        AL_BANDS.replace("0.20,0.30,0.60", "0.20,0.30,60"),
     );
     let e = text(&w.run(&["crosscheck", "fc", "--population", "pop.csv"]));
     assert!(
@@ -315,11 +266,11 @@ fn services_rows_rejected_and_unforecast_products_listed() {
         out.contains("'Other kit' has services or population figures but no consumption forecast"),
         "{out}"
     );
-    let rej = w.read_csv("fc/crosscheck_rejected.csv");
+    let rej = w.read_csv_maps("fc/crosscheck_rejected.csv");
     assert_eq!(rej.len(), 2);
     assert_eq!(rej[0]["column"], "month");
     assert!(rej[1]["reason"].contains("a second row"), "{:?}", rej[1]);
-    let rows = w.read_csv("fc/crosscheck.csv");
+    let rows = w.read_csv_maps("fc/crosscheck.csv");
     let t = find(&rows, "Test kit", "services");
     // About 910 tests a month × 1.1 kits over 2027: near 12,000 kits.
     let q = num(t, "quantity");
@@ -328,7 +279,7 @@ fn services_rows_rejected_and_unforecast_products_listed() {
     let o2 = find(&rows, "Other kit", "services");
     assert_eq!(o2["flag"], "no-comparison");
     assert!((num(o2, "quantity") - 1_200.0).abs() < 1.0, "{o2:?}");
-    let sm = w.read_csv("fc/crosscheck_services.csv");
+    let sm = w.read_csv_maps("fc/crosscheck_services.csv");
     assert_eq!(sm.iter().filter(|r| r["product"] == "Test kit").count(), 12);
 }
 
@@ -357,7 +308,7 @@ fn demo_crosscheck_writes_csv_charts_and_report_section() {
         &demo("population.csv"),
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    let rows = w.read_csv("out/crosscheck.csv");
+    let rows = w.read_csv_maps("out/crosscheck.csv");
     // Invented demo figures: 1,500,000 × 0.55 × 0.25 × 0.6 × 0.9 × 1.05 packs.
     let al = find(&rows, "Artemether", "morbidity");
     assert!((num(al, "quantity") - 116_943.75).abs() < 1e-6);

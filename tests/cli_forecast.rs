@@ -1,29 +1,17 @@
 //! End-to-end test of the main job on the demo data: every output appears
 //! and is consistent.
 
+mod common;
+
+use common::{read_csv_file, run_in};
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
-use std::process::Command;
-
-fn provisio(dir: &Path, args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap()
-}
-
-fn read(dir: &Path, name: &str) -> (Vec<String>, Vec<csv::StringRecord>) {
-    let mut r = csv::Reader::from_path(dir.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
-    let h = r.headers().unwrap().iter().map(str::to_string).collect();
-    (h, r.records().map(|x| x.unwrap()).collect())
-}
 
 #[test]
 fn forecast_demo_writes_every_output() {
     let dir = tempfile::tempdir().unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -56,7 +44,7 @@ fn forecast_demo_writes_every_output() {
         assert!(out.join(f).exists(), "{f} missing");
     }
 
-    let (_, fc) = read(&out, "forecast.csv");
+    let (_, fc) = read_csv_file(&out.join("forecast.csv"));
     assert_eq!(fc.len(), 12 * 18, "12 products × 18 months");
     for r in &fc {
         let v: Vec<f64> = (3..8).map(|i| r[i].parse().unwrap()).collect();
@@ -67,7 +55,7 @@ fn forecast_demo_writes_every_output() {
     // The first projected month follows the last month of history.
     assert!(fc.iter().all(|r| &r[1] >= "2026-11"));
 
-    let (h, sel) = read(&out, "selection.csv");
+    let (h, sel) = read_csv_file(&out.join("selection.csv"));
     assert_eq!(sel.len(), 12);
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let chosen: BTreeMap<String, String> = sel
@@ -103,10 +91,10 @@ fn forecast_demo_writes_every_output() {
         assert_eq!(&r[col("backtested")], "yes");
     }
 
-    let (_, scores) = read(&out, "scores.csv");
+    let (_, scores) = read_csv_file(&out.join("scores.csv"));
     let n_models = scores.iter().filter(|r| r[0] == sel[0][0]).count();
     assert!(n_models >= 15, "every candidate scored: {n_models}");
-    let (_, bt) = read(&out, "backtest.csv");
+    let (_, bt) = read_csv_file(&out.join("backtest.csv"));
     // By default backtest.csv holds the evidence for each choice: the
     // chosen model, the runner-up and the combination, each at every
     // origin (12) and months ahead (12).
@@ -129,7 +117,7 @@ fn forecast_demo_writes_every_output() {
         assert!(r[4] > r[2], "target month after origin");
     }
     // Scores per months ahead: 12 rows for every model that forecast.
-    let (_, by_h) = read(&out, "scores_by_horizon.csv");
+    let (_, by_h) = read_csv_file(&out.join("scores_by_horizon.csv"));
     let forecasting = scores.iter().filter(|r| &r[2] != "not applicable").count();
     assert_eq!(by_h.len(), forecasting * 12);
 
@@ -169,7 +157,7 @@ fn forecast_demo_writes_every_output() {
 
     // forecast_wide.csv: the numbers of forecast.csv laid out wide, five
     // rows per product, months as columns.
-    let (wh, wide) = read(&out, "forecast_wide.csv");
+    let (wh, wide) = read_csv_file(&out.join("forecast_wide.csv"));
     assert_eq!(&wh[..3], ["product", "model", "row"]);
     assert_eq!(wh.len(), 3 + 18);
     assert_eq!(wide.len(), 12 * 5);
@@ -240,7 +228,7 @@ fn pinned_model_is_used_and_reported() {
     )
     .unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -252,7 +240,7 @@ fn pinned_model_is_used_and_reported() {
         ],
     );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
-    let (h, sel) = read(&dir.path().join("out"), "selection.csv");
+    let (h, sel) = read_csv_file(&dir.path().join("out").join("selection.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let row = sel.iter().find(|r| &r[0] == "Male condom").unwrap();
     assert_eq!(&row[col("chosen_model")], "naive");
@@ -268,7 +256,7 @@ fn pinned_model_is_used_and_reported() {
         "product,model\nMale condom,magic\n",
     )
     .unwrap();
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -291,7 +279,7 @@ fn pinned_model_is_used_and_reported() {
 fn evaluate_compares_selection_with_every_single_model() {
     let dir = tempfile::tempdir().unwrap();
     let data = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/demo/consumption.csv");
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "evaluate",
@@ -312,7 +300,7 @@ fn evaluate_compares_selection_with_every_single_model() {
         text.contains("best single model applied to every product"),
         "{text}"
     );
-    let (_, rows) = read(dir.path(), "eval.csv");
+    let (_, rows) = read_csv_file(&dir.path().join("eval.csv"));
     assert_eq!(&rows[0][0], "selected per product");
     assert_eq!(&rows[0][1], "12");
     assert!(rows.len() >= 16, "selection plus every candidate");
@@ -323,7 +311,7 @@ fn backtest_detail_all_writes_every_complete_model() {
     let dir = tempfile::tempdir().unwrap();
     // One product keeps the run short; every origin of every complete model.
     write_one_demo_product(&dir.path().join("one.csv"));
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "backtest",
@@ -336,8 +324,8 @@ fn backtest_detail_all_writes_every_complete_model() {
     );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let out = dir.path().join("out");
-    let (_, scores) = read(&out, "scores.csv");
-    let (_, bt) = read(&out, "backtest.csv");
+    let (_, scores) = read_csv_file(&out.join("scores.csv"));
+    let (_, bt) = read_csv_file(&out.join("backtest.csv"));
     let complete = scores.iter().filter(|r| &r[2] == "complete").count();
     assert!(complete >= 10, "{complete}");
     assert_eq!(bt.len(), complete * 144);
@@ -347,7 +335,7 @@ fn backtest_detail_all_writes_every_complete_model() {
 fn no_report_skips_charts_and_report_only() {
     let dir = tempfile::tempdir().unwrap();
     write_one_demo_product(&dir.path().join("one.csv"));
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &["forecast", "one.csv", "--out", "out", "--no-report"],
     );
@@ -358,7 +346,7 @@ fn no_report_skips_charts_and_report_only() {
     assert!(!out.join("report.html").exists());
     assert!(!out.join("charts").exists());
     // The report can be built afterwards from the folder alone.
-    let o = provisio(dir.path(), &["report", "out"]);
+    let o = run_in(dir.path(), &["report", "out"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(out.join("report.html").is_file());
 }

@@ -2,35 +2,13 @@
 //! the whole forecast, output folders provisio did not create, runs killed
 //! mid-way, and results that do not depend on the number of threads.
 
+mod common;
+
 use std::collections::BTreeMap;
 use std::path::Path;
-use std::process::{Command, Output};
 use std::time::{Duration, Instant};
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_provisio"))
-}
-
-fn run(dir: &Path, args: &[&str]) -> Output {
-    bin()
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run provisio")
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
-}
-
-fn records(path: &Path) -> Vec<csv::StringRecord> {
-    let mut r = csv::Reader::from_path(path).expect("open output");
-    r.records().map(|x| x.expect("record")).collect()
-}
+use common::{command, read_csv_file, run_in, text};
 
 /// Every file in a folder (not recursive), name → bytes.
 fn files(dir: &Path) -> BTreeMap<String, Vec<u8>> {
@@ -79,7 +57,7 @@ fn odd_product_names_flow_through_forecast_unchanged() {
         }
     }
     std::fs::write(dir.path().join("in.csv"), input).unwrap();
-    let o = run(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -119,12 +97,12 @@ fn odd_product_names_flow_through_forecast_unchanged() {
     // Injection"), which `csv_text_read` takes off again.
     let read_back = |r: &csv::StringRecord| provisio::output::csv_text_read(&r[0]).to_string();
     for file in ["selection.csv", "quality.csv"] {
-        let rows = records(&out.join(file));
+        let rows = read_csv_file(&out.join(file)).1;
         assert!(rows.iter().any(|r| &r[0] == "'=1+2"), "{file}");
         let got: Vec<String> = rows.iter().map(read_back).collect();
         assert_eq!(got, want, "{file}: names come back exactly, in order");
     }
-    let forecast = records(&out.join("forecast.csv"));
+    let forecast = read_csv_file(&out.join("forecast.csv")).1;
     assert_eq!(forecast.len(), names.len() * 6);
     for r in &forecast {
         assert!(names.iter().any(|n| *n == read_back(r)));
@@ -168,7 +146,7 @@ fn a_folder_provisio_did_not_create_is_refused_unless_overwrite() {
         std::fs::write(theirs.join("budget.xlsx"), b"not ours").unwrap();
         let mut args = case.to_vec();
         args.push(&target);
-        let o = run(dir.path(), &args);
+        let o = run_in(dir.path(), &args);
         assert_eq!(o.status.code(), Some(1), "{args:?}: {}", text(&o));
         assert!(
             text(&o).contains(&format!(
@@ -179,7 +157,7 @@ fn a_folder_provisio_did_not_create_is_refused_unless_overwrite() {
         );
         assert_eq!(files(&theirs).len(), 1, "nothing written on refusal");
         args.push("--overwrite");
-        let o = run(dir.path(), &args);
+        let o = run_in(dir.path(), &args);
         assert!(o.status.success(), "{args:?}: {}", text(&o));
         assert_eq!(
             std::fs::read(theirs.join("budget.xlsx")).unwrap(),
@@ -188,12 +166,12 @@ fn a_folder_provisio_did_not_create_is_refused_unless_overwrite() {
         assert!(theirs.join(".provisio-output").exists());
         // Now marked as provisio's: a re-run needs no --overwrite.
         args.pop();
-        let o = run(dir.path(), &args);
+        let o = run_in(dir.path(), &args);
         assert!(o.status.success(), "{args:?} again: {}", text(&o));
     }
     // A fresh folder, and re-running into it, need nothing special.
     for _ in 0..2 {
-        let o = run(dir.path(), &["clean", "in.csv", "--out", "mine"]);
+        let o = run_in(dir.path(), &["clean", "in.csv", "--out", "mine"]);
         assert!(o.status.success(), "{}", text(&o));
     }
 }
@@ -224,9 +202,8 @@ fn listing(dir: &Path) -> Vec<(String, u64, Option<std::time::SystemTime>)> {
 fn kill_while_writing(dir: &Path, out: &str, delay: Duration) -> bool {
     let target = dir.join(out);
     let before = listing(&target);
-    let mut child = bin()
+    let mut child = command(dir)
         .args(["clean", "in.csv", "--out", out])
-        .current_dir(dir)
         .stdout(std::process::Stdio::null())
         .stderr(std::process::Stdio::null())
         .spawn()
@@ -260,7 +237,7 @@ fn a_killed_run_leaves_whole_files_only() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     // About 10,000 rows: a 1 MB adjustment log, so writing takes a moment.
-    let o = run(
+    let o = run_in(
         d,
         &[
             "generate",
@@ -277,11 +254,11 @@ fn a_killed_run_leaves_whole_files_only() {
         ],
     );
     assert!(o.status.success(), "{}", text(&o));
-    let o = run(d, &["clean", "in.csv", "--out", "reference"]);
+    let o = run_in(d, &["clean", "in.csv", "--out", "reference"]);
     assert!(o.status.success(), "{}", text(&o));
     let reference = files(&d.join("reference"));
     // A previous complete version with different contents.
-    let o = run(
+    let o = run_in(
         d,
         &[
             "clean",
@@ -330,7 +307,7 @@ fn a_killed_run_leaves_whole_files_only() {
                 partial_states += 1;
             }
             // The next run cleans up and completes.
-            let o = run(d, &["clean", "in.csv", "--out", &out]);
+            let o = run_in(d, &["clean", "in.csv", "--out", &out]);
             assert!(o.status.success(), "{}", text(&o));
             assert_eq!(files(&d.join(&out)), reference, "{out} after a full run");
         }
@@ -350,7 +327,7 @@ fn a_killed_run_leaves_whole_files_only() {
 /// with the time taken removed from the manifest.
 fn forecast_with_threads(dir: &Path, threads: &str) -> BTreeMap<String, Vec<u8>> {
     let out = format!("out{threads}");
-    let o = bin()
+    let o = command(dir)
         .args([
             "forecast",
             "in.csv",
@@ -362,7 +339,6 @@ fn forecast_with_threads(dir: &Path, threads: &str) -> BTreeMap<String, Vec<u8>>
             "12",
         ])
         .env("RAYON_NUM_THREADS", threads)
-        .current_dir(dir)
         .output()
         .unwrap();
     assert!(o.status.success(), "{}", text(&o));
@@ -406,7 +382,7 @@ fn forecast_with_threads(dir: &Path, threads: &str) -> BTreeMap<String, Vec<u8>>
 fn results_do_not_depend_on_the_number_of_threads() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
-    let o = run(
+    let o = run_in(
         d,
         &[
             "generate",

@@ -2,20 +2,14 @@
 //! directory and check its table and CSV against the library's candidate
 //! list, `provisio::models::candidates()`.
 
-use std::process::{Command, Output};
+mod common;
 
-fn run(dir: &std::path::Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("run provisio")
-}
+use common::run_in;
 
 #[test]
 fn models_lists_every_candidate_with_its_needs_in_order() {
     let dir = tempfile::tempdir().expect("temp dir");
-    let o = run(dir.path(), &["models"]);
+    let o = run_in(dir.path(), &["models"]);
     let stdout = String::from_utf8_lossy(&o.stdout).to_string();
     let stderr = String::from_utf8_lossy(&o.stderr);
     assert!(o.status.success(), "{stdout}{stderr}");
@@ -55,7 +49,7 @@ fn models_lists_every_candidate_with_its_needs_in_order() {
 #[test]
 fn models_csv_has_one_row_per_candidate() {
     let dir = tempfile::tempdir().expect("temp dir");
-    let o = run(dir.path(), &["models", "--csv", "models.csv"]);
+    let o = run_in(dir.path(), &["models", "--csv", "models.csv"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let mut r = csv::Reader::from_path(dir.path().join("models.csv")).expect("open models.csv");
     let header = r.headers().expect("header").clone();

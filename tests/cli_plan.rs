@@ -3,78 +3,29 @@
 //! stock charts and a report section, and refuses bad stock files with the
 //! file, line and column.
 
+mod common;
+
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
-struct Workdir {
-    dir: tempfile::TempDir,
-}
+use common::{repo, text, Workdir};
 
-impl Workdir {
-    fn new() -> Self {
-        Workdir {
-            dir: tempfile::tempdir().expect("temp dir"),
-        }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn write(&self, name: &str, text: &str) {
-        std::fs::write(self.path(name), text).expect("write");
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        Command::new(env!("CARGO_BIN_EXE_provisio"))
-            .args(args)
-            .current_dir(self.dir.path())
-            .output()
-            .expect("run provisio")
-    }
-
-    fn read_csv(&self, name: &str) -> Vec<BTreeMap<String, String>> {
-        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
-        let h: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
-        r.records()
-            .map(|x| {
-                let x = x.expect("record");
-                h.iter()
-                    .cloned()
-                    .zip(x.iter().map(str::to_string))
-                    .collect()
-            })
-            .collect()
-    }
-
-    /// Copies the small forecast folder of the report fixture (four
-    /// products cut from the invented demo scenario) to `fc/`.
-    fn fixture_forecast(&self) {
-        let from = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report/forecast-output");
-        let to = self.path("fc");
-        std::fs::create_dir_all(&to).unwrap();
-        for e in std::fs::read_dir(from).unwrap() {
-            let e = e.unwrap();
-            std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
-        }
-    }
-
-    /// A forecast folder made by hand: `forecast.csv` only, marked as
-    /// provisio's.
-    fn hand_forecast(&self, csv: &str) {
-        std::fs::create_dir_all(self.path("fc")).unwrap();
-        self.write("fc/forecast.csv", csv);
-        self.write("fc/.provisio-output", "marker\n");
+/// Copies the small forecast folder of the report fixture (four products
+/// cut from the invented demo scenario) to `fc/`.
+fn fixture_forecast(w: &Workdir) {
+    let from = repo("tests/data/report/forecast-output");
+    let to = w.path("fc");
+    std::fs::create_dir_all(&to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
     }
 }
 
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
+/// A forecast folder made by hand: `forecast.csv` only, marked as
+/// provisio's.
+fn hand_forecast(w: &Workdir, csv: &str) {
+    w.write("fc/forecast.csv", csv);
+    w.write("fc/.provisio-output", "marker\n");
 }
 
 fn num(r: &BTreeMap<String, String>, c: &str) -> f64 {
@@ -102,10 +53,10 @@ fn flat_forecast(product: &str, start_year: i32, months: usize, v: f64) -> Strin
 #[test]
 fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     let w = Workdir::new();
-    w.fixture_forecast();
+    fixture_forecast(&w);
     w.write(
         "stock.csv",
-        &format!(
+        format!(
             "{HEADER}<script>alert(1)</script>,3000,2026-10,2,3,6,2,50,0.5,,1\n\
              Zinc 20 mg dispersible tablet x10,90000,2026-10,3,3,6,3,100,0.12,12,\n\
              \"Snake antivenom/vial \"\"cold chain\"\" & co\",10,2026-10,1,2,6,1,1,55,,\n\
@@ -135,7 +86,7 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     // Balances add up month to month in the written file (values rounded
     // to 4 decimals), closing stock is never negative, and each series runs
     // the 24 forecast months.
-    let plan = w.read_csv("fc/plan.csv");
+    let plan = w.read_csv_maps("fc/plan.csv");
     assert_eq!(plan.len(), 3 * 24);
     let mut prev: BTreeMap<String, f64> = BTreeMap::new();
     for r in &plan {
@@ -175,7 +126,7 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     assert!(zinc["flag"].contains("expiry-risk"), "{zinc:?}");
 
     // Orders: whole packs, costed, arriving exactly the lead time later.
-    let orders = w.read_csv("fc/orders.csv");
+    let orders = w.read_csv_maps("fc/orders.csv");
     assert!(!orders.is_empty());
     for r in &orders {
         let q = num(r, "quantity");
@@ -201,7 +152,7 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
         let gap = (am[0] - om[0]) * 12 + am[1] - om[1];
         assert_eq!(gap, lead, "{r:?}");
     }
-    let totals = w.read_csv("fc/order_totals.csv");
+    let totals = w.read_csv_maps("fc/order_totals.csv");
     let all: f64 = totals
         .iter()
         .filter(|r| r["year"] == "all")
@@ -213,7 +164,7 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     // Nothing silent: the product without stock, the stock row without a
     // forecast, the shipment dated before the count and the one for no
     // product are all in the log.
-    let log = w.read_csv("fc/plan_log.csv");
+    let log = w.read_csv_maps("fc/plan_log.csv");
     let has = |product: &str, action: &str| {
         log.iter()
             .any(|r| r["product"] == product && r["action"] == action)
@@ -254,7 +205,7 @@ fn plans_the_fixture_forecast_and_keeps_every_row_accounted_for() {
     // A new forecast in the folder makes the plan out of date: the report
     // says so instead of showing orders computed from the old forecast.
     let fc = std::fs::read_to_string(w.path("fc/forecast.csv")).unwrap();
-    w.write("fc/forecast.csv", &fc.replacen("9540.5261", "9999", 1));
+    w.write("fc/forecast.csv", fc.replacen("9540.5261", "9999", 1));
     let o = w.run(&["report", "fc"]);
     assert!(o.status.success(), "{}", text(&o));
     let html = std::fs::read_to_string(w.path("fc/report.html")).unwrap();
@@ -270,10 +221,10 @@ fn safety_stock_from_the_upper_bound() {
     // order-up-to level 2 × 1,000 + 1,200 = 3,200. From 1,500 on hand,
     // 500 are left when the first order arrives: order 2,700.
     let w = Workdir::new();
-    w.hand_forecast(&flat_forecast("Test kit", 2027, 12, 1000.0));
+    hand_forecast(&w, &flat_forecast("Test kit", 2027, 12, 1000.0));
     w.write(
         "stock.csv",
-        &format!("{HEADER}Test kit,1500,2026-12,1,3,6,2,1,1,,\n"),
+        format!("{HEADER}Test kit,1500,2026-12,1,3,6,2,1,1,,\n"),
     );
     let o = w.run(&[
         "plan",
@@ -285,7 +236,7 @@ fn safety_stock_from_the_upper_bound() {
         "--no-report",
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    let orders = w.read_csv("fc/orders.csv");
+    let orders = w.read_csv_maps("fc/orders.csv");
     assert_eq!(orders[0]["rule"], "upper-95");
     assert_eq!(num(&orders[0], "minimum"), 1200.0);
     assert_eq!(num(&orders[0], "order_up_to"), 3200.0);
@@ -306,10 +257,10 @@ fn logistics_handbook_example_end_to_end() {
     // 1,000 a month, no lead time, monthly review, the shipment arriving in
     // the first month.
     let w = Workdir::new();
-    w.hand_forecast(&flat_forecast("Test kit", 2027, 12, 1000.0));
+    hand_forecast(&w, &flat_forecast("Test kit", 2027, 12, 1000.0));
     w.write(
         "stock.csv",
-        &format!("{HEADER}Test kit,2500,2026-12,0,3,6,1,1,2,,\n"),
+        format!("{HEADER}Test kit,2500,2026-12,0,3,6,1,1,2,,\n"),
     );
     w.write(
         "oo.csv",
@@ -325,13 +276,13 @@ fn logistics_handbook_example_end_to_end() {
         "--no-report",
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    let orders = w.read_csv("fc/orders.csv");
+    let orders = w.read_csv_maps("fc/orders.csv");
     assert_eq!(orders[0]["order_month"], "2027-01");
     assert_eq!(num(&orders[0], "quantity"), 2500.0);
     assert_eq!(num(&orders[0], "cost"), 5000.0);
     // Months of stock 2.5 is the stock on hand over the AMC at the start.
     assert!(text(&o).contains("    2.5  "), "{}", text(&o));
-    let plan = w.read_csv("fc/plan.csv");
+    let plan = w.read_csv_maps("fc/plan.csv");
     assert_eq!(num(&plan[0], "closing"), 5000.0);
     assert_eq!(num(&plan[0], "months_of_stock"), 5.0);
     assert_eq!(plan[0]["amc_from"], "2027-02");
@@ -353,7 +304,7 @@ fn per_site_forecast_plans_sites_and_totals() {
             ));
         }
     }
-    w.hand_forecast(&csv);
+    hand_forecast(&w, &csv);
     w.write(
         "stock.csv",
         "product,site,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\n\
@@ -362,7 +313,7 @@ fn per_site_forecast_plans_sites_and_totals() {
     );
     let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
     assert!(o.status.success(), "{}", text(&o));
-    let plan = w.read_csv("fc/plan.csv");
+    let plan = w.read_csv_maps("fc/plan.csv");
     let north = plan.iter().find(|r| r["site"] == "North").unwrap();
     let total = plan.iter().find(|r| r["site"].is_empty()).unwrap();
     assert_eq!(num(north, "consumption"), 100.0);
@@ -370,7 +321,7 @@ fn per_site_forecast_plans_sites_and_totals() {
 
     // A per-site stock row against a per-product forecast is not planned,
     // with the reason.
-    w.hand_forecast(&flat_forecast("Pill", 2027, 6, 100.0));
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 6, 100.0));
     let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
     assert!(o.status.success(), "{}", text(&o));
     assert!(
@@ -383,7 +334,7 @@ fn per_site_forecast_plans_sites_and_totals() {
 #[test]
 fn refusals_name_file_line_column_and_write_nothing() {
     let w = Workdir::new();
-    w.hand_forecast(&flat_forecast("Pill", 2027, 12, 100.0));
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 12, 100.0));
     let cases = [
         (
             format!("{HEADER}Pill,100,2026-12,1,7,6,1,10,1,,\n"),
@@ -438,7 +389,7 @@ fn refusals_name_file_line_column_and_write_nothing() {
     // Not a forecast folder.
     w.write(
         "stock.csv",
-        &format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,\n"),
+        format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,\n"),
     );
     std::fs::create_dir_all(w.path("empty")).unwrap();
     let o = w.run(&["plan", "empty", "--stock", "stock.csv"]);
@@ -453,18 +404,18 @@ fn refusals_name_file_line_column_and_write_nothing() {
 #[test]
 fn formula_like_names_match_the_stock_file_and_stay_quoted() {
     let w = Workdir::new();
-    w.hand_forecast(&flat_forecast("'=SUM(A1)", 2027, 12, 1000.0));
+    hand_forecast(&w, &flat_forecast("'=SUM(A1)", 2027, 12, 1000.0));
     w.write(
         "stock.csv",
-        &format!("{HEADER}\"=SUM(A1)\",1500,2026-12,1,3,6,2,1,1,,\n"),
+        format!("{HEADER}\"=SUM(A1)\",1500,2026-12,1,3,6,2,1,1,,\n"),
     );
     let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
     assert!(o.status.success(), "{}", text(&o));
     assert!(!text(&o).contains("not in the forecast"), "{}", text(&o));
-    let plan = w.read_csv("fc/plan.csv");
+    let plan = w.read_csv_maps("fc/plan.csv");
     assert_eq!(plan.len(), 12);
     assert!(plan.iter().all(|r| r["product"] == "'=SUM(A1)"));
-    let orders = w.read_csv("fc/orders.csv");
+    let orders = w.read_csv_maps("fc/orders.csv");
     assert!(!orders.is_empty());
     assert!(orders.iter().all(|r| r["product"] == "'=SUM(A1)"));
 }

@@ -3,64 +3,16 @@
 //! (an invented scenario) against the months that followed, and refuses
 //! incomplete or incompatible directories with a clear message.
 
+mod common;
+
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 use std::sync::OnceLock;
 
-/// A temporary working directory with helpers to run `provisio` in it.
-struct Workdir {
-    dir: tempfile::TempDir,
-}
-
-impl Workdir {
-    fn new() -> Self {
-        Workdir {
-            dir: tempfile::tempdir().expect("temp dir"),
-        }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.path().join(name)
-    }
-
-    fn run(&self, args: &[&str]) -> Output {
-        Command::new(env!("CARGO_BIN_EXE_provisio"))
-            .args(args)
-            .current_dir(self.dir.path())
-            .output()
-            .expect("run provisio")
-    }
-
-    /// Header and rows of an output CSV, rows as maps by column name.
-    fn read_csv(&self, name: &str) -> Vec<BTreeMap<String, String>> {
-        let mut r = csv::Reader::from_path(self.path(name)).expect("open output");
-        let h: Vec<String> = r.headers().unwrap().iter().map(str::to_string).collect();
-        r.records()
-            .map(|x| {
-                let x = x.expect("record");
-                h.iter()
-                    .cloned()
-                    .zip(x.iter().map(str::to_string))
-                    .collect()
-            })
-            .collect()
-    }
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
-}
+use common::{repo, text, Workdir};
 
 fn demo() -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("datasets/demo/consumption.csv")
-        .display()
-        .to_string()
+    repo("datasets/demo/consumption.csv").display().to_string()
 }
 
 /// Two past forecasts of the demo data, made once for all tests: as if at
@@ -151,7 +103,7 @@ fn review_demo_last_twelve_months() {
     );
     assert!(page.contains("HIV rapid test kit (newly scaled up)"));
     assert!(page.contains("the errors add up to an under-forecast"));
-    let rows = w.read_csv("rev/review.csv");
+    let rows = w.read_csv_maps("rev/review.csv");
     assert_eq!(rows.len(), 12, "one row per product");
     for r in &rows {
         assert_eq!(r["status"], "reviewed", "{r:?}");
@@ -171,7 +123,7 @@ fn review_demo_last_twelve_months() {
 
     // Month rows agree with the past forecast, the past cleaned history and
     // the product's scores.
-    let months = w.read_csv("rev/review_months.csv");
+    let months = w.read_csv_maps("rev/review_months.csv");
     assert_eq!(months.len(), 12 * 12);
     let fc = {
         let mut r = csv::Reader::from_path(past.join("forecast.csv")).unwrap();
@@ -247,7 +199,7 @@ fn review_demo_last_twelve_months() {
         "0.05",
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    let rows5 = w.read_csv("rev5/review.csv");
+    let rows5 = w.read_csv_maps("rev5/review.csv");
     assert!(rows5.iter().all(|r| r["adjustment_flag"] == "yes"));
     assert!(rows5
         .iter()
@@ -284,7 +236,7 @@ fn two_vintages_are_compared() {
         out.contains(&format!("vintage 1: {}", a.display())),
         "{out}"
     );
-    let rows = w.read_csv("rev/review.csv");
+    let rows = w.read_csv_maps("rev/review.csv");
     assert_eq!(rows.len(), 24);
     let by_product: BTreeMap<&str, Vec<&BTreeMap<String, String>>> =
         rows.iter().fold(BTreeMap::new(), |mut m, r| {
@@ -310,7 +262,7 @@ fn two_vintages_are_compared() {
     }
     // Revisions: the later vintage's forecast minus the earlier one's, for
     // the same month.
-    let months = w.read_csv("rev/review_months.csv");
+    let months = w.read_csv_maps("rev/review_months.csv");
     let mut checked = 0;
     for m in months
         .iter()
@@ -551,7 +503,7 @@ fn product_names_are_escaped_on_the_review_page() {
         1,
         "only the page's own script"
     );
-    let rows = w.read_csv("rev/review.csv");
+    let rows = w.read_csv_maps("rev/review.csv");
     assert_eq!(rows[0]["product"], name, "CSV keeps the name as it is");
     assert_eq!(rows[0]["months_with_actuals"], "6");
 }
@@ -587,7 +539,7 @@ fn actuals_are_read_with_the_past_runs_number_format() {
     assert!(o.status.success(), "{}", text(&o));
     let o = w.run(&["review", "past", "--actuals", "comma.csv", "--out", "rev"]);
     assert!(o.status.success(), "{}", text(&o));
-    let rows = w.read_csv("rev/review.csv");
+    let rows = w.read_csv_maps("rev/review.csv");
     assert_eq!(rows.len(), 1);
     let months: usize = rows[0]["months_with_actuals"].parse().unwrap();
     assert_eq!(months, 12, "{:?}", rows[0]);

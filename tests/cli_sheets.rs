@@ -3,37 +3,14 @@
 //! script), the demo's round trip, formula text in names, and bad
 //! workbooks.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
+
+use std::path::Path;
 
 use calamine::{Data, Reader};
 use rust_xlsxwriter::{ExcelDateTime, Format, Formula, Workbook};
 
-fn provisio(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_provisio"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .unwrap()
-}
-
-fn text(o: &Output) -> String {
-    format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    )
-}
-
-fn repo(rel: &str) -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join(rel)
-}
-
-fn read(path: &Path) -> (Vec<String>, Vec<csv::StringRecord>) {
-    let mut r = csv::Reader::from_path(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-    let h = r.headers().unwrap().iter().map(str::to_string).collect();
-    (h, r.records().map(|x| x.unwrap()).collect())
-}
+use common::{read_csv_file, repo, run_in, text};
 
 /// Parses "rows read: N = U used as reported + A adjusted + R rejected".
 fn accounting(out: &str) -> [usize; 4] {
@@ -111,7 +88,7 @@ fn demo_as_a_workbook_gives_the_same_forecasts_as_the_csv() {
     ] {
         let mut args = vec!["forecast", input, "--out", out];
         args.extend(settings);
-        let o = provisio(dir.path(), &args);
+        let o = run_in(dir.path(), &args);
         assert!(o.status.success(), "{}", text(&o));
         outs.push(text(&o));
     }
@@ -144,15 +121,15 @@ fn demo_as_a_workbook_gives_the_same_forecasts_as_the_csv() {
     // `report --workbook-only` rebuilds forecast.xlsx and nothing else.
     let xlsx_out = dir.path().join("from-xlsx/forecast.xlsx");
     std::fs::remove_file(&xlsx_out).unwrap();
-    let o = provisio(dir.path(), &["report", "from-xlsx", "--workbook-only"]);
+    let o = run_in(dir.path(), &["report", "from-xlsx", "--workbook-only"]);
     assert!(o.status.success(), "{}", text(&o));
     assert!(xlsx_out.exists());
     assert!(!dir.path().join("from-xlsx/report.html").exists());
 
     // `generate --demo --out FILE.xlsx` writes the same data as the demo CSV.
-    let o = provisio(dir.path(), &["generate", "--demo", "--out", "gen.xlsx"]);
+    let o = run_in(dir.path(), &["generate", "--demo", "--out", "gen.xlsx"]);
     assert!(o.status.success(), "{}", text(&o));
-    let o = provisio(dir.path(), &["clean", "gen.xlsx", "--out", "gen"]);
+    let o = run_in(dir.path(), &["clean", "gen.xlsx", "--out", "gen"]);
     assert!(o.status.success(), "{}", text(&o));
     for f in ["cleaned.csv", "adjustments.csv"] {
         let a = std::fs::read_to_string(dir.path().join("from-csv").join(f)).unwrap();
@@ -175,7 +152,7 @@ fn openpyxl_book() -> String {
 fn workbook_made_by_openpyxl_is_read_by_the_contract() {
     let dir = tempfile::tempdir().unwrap();
     let book = openpyxl_book();
-    let o = provisio(dir.path(), &["clean", &book, "--out", "out"]);
+    let o = run_in(dir.path(), &["clean", &book, "--out", "out"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     // Source: tests/reference/workbook_openpyxl.py. Sheet "Data": 6
@@ -195,7 +172,7 @@ fn workbook_made_by_openpyxl_is_read_by_the_contract() {
         "{out}"
     );
 
-    let (h, rej) = read(&dir.path().join("out/rejected.csv"));
+    let (h, rej) = read_csv_file(&dir.path().join("out/rejected.csv"));
     assert_eq!(
         h,
         ["file", "line", "column", "value", "reason", "row", "sheet", "cell"]
@@ -218,7 +195,7 @@ fn workbook_made_by_openpyxl_is_read_by_the_contract() {
     assert!(rej[3][col("reason")].contains("true/false"));
     assert!(rej[3][col("row")].starts_with("Zinc 20 mg\t2024-04\tTRUE"));
 
-    let (h, cleaned) = read(&dir.path().join("out/cleaned.csv"));
+    let (h, cleaned) = read_csv_file(&dir.path().join("out/cleaned.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let reported = |p: &str, m: &str| -> String {
         cleaned
@@ -246,7 +223,7 @@ fn workbook_made_by_openpyxl_is_read_by_the_contract() {
     // A date cell with a time of day (2024-05-31 18:30) is May.
     assert_eq!(reported("Zinc 20 mg", "2024-05"), "300");
 
-    let (h, log) = read(&dir.path().join("out/adjustments.csv"));
+    let (h, log) = read_csv_file(&dir.path().join("out/adjustments.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     // ORS: 2 stockout days in 31-day January: 40.5 × 31 / 29, then ÷ 0.95
     // for the text rate "95%" (the cleaning rules of the README).
@@ -273,13 +250,13 @@ fn workbook_made_by_openpyxl_is_read_by_the_contract() {
     assert_eq!(&amox_jan[col("line")], "4");
 
     // With --numbers grouped, the text "1,250" is read as 1250.
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &["clean", &book, "--out", "grouped", "--numbers", "grouped"],
     );
     assert!(o.status.success(), "{}", text(&o));
     assert_eq!(accounting(&text(&o))[3], 3);
-    let (_, cleaned) = read(&dir.path().join("grouped/cleaned.csv"));
+    let (_, cleaned) = read_csv_file(&dir.path().join("grouped/cleaned.csv"));
     assert!(cleaned
         .iter()
         .any(|r| &r[0] == "Zinc 20 mg" && &r[1] == "2024-01" && &r[2] == "1250"));
@@ -289,7 +266,7 @@ fn workbook_made_by_openpyxl_is_read_by_the_contract() {
 fn a_named_sheet_is_read_and_an_unknown_one_refused() {
     let dir = tempfile::tempdir().unwrap();
     let book = openpyxl_book();
-    let o = provisio(dir.path(), &["inspect", &book, "--sheet", "Other"]);
+    let o = run_in(dir.path(), &["inspect", &book, "--sheet", "Other"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     // Source: tests/reference/workbook_openpyxl.py, sheet "Other": 12 months
@@ -297,7 +274,7 @@ fn a_named_sheet_is_read_and_an_unknown_one_refused() {
     assert_eq!(accounting(&out), [12, 12, 0, 0], "{out}");
     assert!(out.contains("Paracetamol 500 mg"), "{out}");
 
-    let o = provisio(dir.path(), &["inspect", &book, "--sheet", "Nope"]);
+    let o = run_in(dir.path(), &["inspect", &book, "--sheet", "Nope"]);
     let out = text(&o);
     assert_eq!(o.status.code(), Some(1), "{out}");
     assert!(
@@ -305,12 +282,12 @@ fn a_named_sheet_is_read_and_an_unknown_one_refused() {
         "{out}"
     );
     // A sheet name in other letter case is the same sheet, as in spreadsheets.
-    let o = provisio(dir.path(), &["inspect", &book, "--sheet", "other"]);
+    let o = run_in(dir.path(), &["inspect", &book, "--sheet", "other"]);
     assert!(o.status.success(), "{}", text(&o));
 
     // --sheet is refused for a CSV.
     let data = repo("datasets/demo/consumption.csv");
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &["inspect", data.to_str().unwrap(), "--sheet", "Data"],
     );
@@ -346,7 +323,7 @@ fn names_that_look_like_formulas_stay_text_everywhere() {
         csv_text.push_str(&series(n));
     }
     std::fs::write(dir.path().join("data.csv"), &csv_text).unwrap();
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -368,7 +345,7 @@ fn names_that_look_like_formulas_stay_text_everywhere() {
 
     // CSV outputs: formula text gets an apostrophe in front (OWASP, "CSV
     // Injection"); other names are as they are.
-    let (_, fc) = read(&past.join("forecast.csv"));
+    let (_, fc) = read_csv_file(&past.join("forecast.csv"));
     let written: std::collections::BTreeSet<&str> = fc.iter().map(|r| &r[0]).collect();
     assert_eq!(
         written.into_iter().collect::<Vec<_>>(),
@@ -408,18 +385,18 @@ fn names_that_look_like_formulas_stay_text_everywhere() {
 
     // provisio reads its own CSV outputs back exactly: the report, and a
     // review that matches every past product with its actuals.
-    let o = provisio(dir.path(), &["report", "past"]);
+    let o = run_in(dir.path(), &["report", "past"]);
     assert!(o.status.success(), "{}", text(&o));
     let html = std::fs::read_to_string(past.join("report.html")).unwrap();
     assert!(html.contains("=SUM(A1)") && !html.contains("&#39;=SUM(A1)"));
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &["review", "past", "--actuals", "data.csv", "--out", "rev"],
     );
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     assert!(!out.contains("not reviewed"), "{out}");
-    let (h, rev) = read(&dir.path().join("rev/review.csv"));
+    let (h, rev) = read_csv_file(&dir.path().join("rev/review.csv"));
     let status = h.iter().position(|x| x == "status").unwrap();
     let reviewed: Vec<(String, &str)> = rev
         .iter()
@@ -490,7 +467,7 @@ fn bad_workbooks_get_clear_messages_and_never_panic() {
     let refused = |file: &str, args: &[&str], want: &str| {
         let mut a = vec!["inspect", file];
         a.extend(args);
-        let o = provisio(d, &a);
+        let o = run_in(d, &a);
         let out = text(&o);
         assert_eq!(o.status.code(), Some(1), "{file}: {out}");
         assert!(out.contains(want), "{file}: {out}");
@@ -558,14 +535,14 @@ fn bad_workbooks_get_clear_messages_and_never_panic() {
         ws.write_number(11, 2, 170.0).unwrap();
         ws.write_number(12, 2, 180.0).unwrap();
     });
-    let o = provisio(d, &["inspect", &mixed, "--rejected", "rej.csv"]);
+    let o = run_in(d, &["inspect", &mixed, "--rejected", "rej.csv"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     // 12 data rows; refused: the two merged-away product cells (rows 3-4),
     // TRUE (row 5), #DIV/0! (row 6), "n/a" (row 10), -5 (row 11).
     assert_eq!(accounting(&out)[0], 12, "{out}");
     assert_eq!(accounting(&out)[3], 6, "{out}");
-    let (h, rej) = read(&d.join("rej.csv"));
+    let (h, rej) = read_csv_file(&d.join("rej.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let at: Vec<(&str, &str)> = rej
         .iter()
@@ -586,9 +563,9 @@ fn bad_workbooks_get_clear_messages_and_never_panic() {
     assert!(rej[3][col("reason")].contains("#DIV/0!"));
     assert!(rej[5][col("reason")].contains("negative"));
     // The saved value of a formula is used (130, row 7).
-    let o = provisio(d, &["clean", &mixed, "--out", "mixed"]);
+    let o = run_in(d, &["clean", &mixed, "--out", "mixed"]);
     assert!(o.status.success(), "{}", text(&o));
-    let (_, cleaned) = read(&d.join("mixed/cleaned.csv"));
+    let (_, cleaned) = read_csv_file(&d.join("mixed/cleaned.csv"));
     assert!(
         cleaned.iter().any(|r| &r[1] == "2024-06" && &r[2] == "130"),
         "{cleaned:?}"
@@ -600,7 +577,7 @@ fn opendocument_sheet_made_by_odfpy_is_read() {
     let dir = tempfile::tempdir().unwrap();
     // Source: tests/reference/workbook_odfpy.py (odfpy 1.4.1).
     let book = repo("tests/data/sheets/odfpy.ods").display().to_string();
-    let o = provisio(dir.path(), &["clean", &book, "--out", "out"]);
+    let o = run_in(dir.path(), &["clean", &book, "--out", "out"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     // 7 data rows; the boolean in row 8 is refused.
@@ -610,7 +587,7 @@ fn opendocument_sheet_made_by_odfpy_is_read() {
         out.contains("sheet 'Consumption', row 8, column C (consumed): the cell holds the true/false value TRUE"),
         "{out}"
     );
-    let (_, cleaned) = read(&dir.path().join("out/cleaned.csv"));
+    let (_, cleaned) = read_csv_file(&dir.path().join("out/cleaned.csv"));
     let reported: Vec<(&str, &str)> = cleaned.iter().map(|r| (&r[1], &r[2])).collect();
     // Date cells (the 10th of January-March) and text months; float cells.
     assert_eq!(
@@ -625,7 +602,7 @@ fn opendocument_sheet_made_by_odfpy_is_read() {
         ]
     );
     // Percentage cells (0.8) and the text "100%" are rates: 200 / 0.8 = 250.
-    let (h, log) = read(&dir.path().join("out/adjustments.csv"));
+    let (h, log) = read_csv_file(&dir.path().join("out/adjustments.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let jan = log
         .iter()
@@ -643,7 +620,7 @@ fn review_rereads_the_sheet_the_past_run_read() {
     let book = openpyxl_book();
     // Sheet "Other" (tests/reference/workbook_openpyxl.py): Paracetamol,
     // 2023-01 to 2023-12, consumed 100, 110, ..., 210.
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "forecast",
@@ -669,13 +646,13 @@ fn review_rereads_the_sheet_the_past_run_read() {
     assert_eq!(m["sheet"], "Other");
     // The actuals are the same workbook: without --sheet, review reads the
     // sheet the past run read, not the first one ("Data" has no Paracetamol).
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &["review", "past", "--actuals", &book, "--out", "rev"],
     );
     let out = text(&o);
     assert!(o.status.success(), "{out}");
-    let (h, rev) = read(&dir.path().join("rev/review_months.csv"));
+    let (h, rev) = read_csv_file(&dir.path().join("rev/review_months.csv"));
     let col = |n: &str| h.iter().position(|x| x == n).unwrap();
     let actual: Vec<(&str, &str)> = rev
         .iter()
@@ -691,7 +668,7 @@ fn review_rereads_the_sheet_the_past_run_read() {
         ]
     );
     // Naming another sheet reads that one: no Paracetamol there.
-    let o = provisio(
+    let o = run_in(
         dir.path(),
         &[
             "review",
@@ -717,7 +694,7 @@ fn old_style_xls_made_by_xlwt_is_read() {
     let dir = tempfile::tempdir().unwrap();
     // Source: tests/reference/workbook_xlwt.py (xlwt 1.3.0).
     let book = repo("tests/data/sheets/xlwt.xls").display().to_string();
-    let o = provisio(dir.path(), &["clean", &book, "--out", "out"]);
+    let o = run_in(dir.path(), &["clean", &book, "--out", "out"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     // 6 rows: 4 as reported, May scaled for stockout, June's "n/a" refused.
@@ -726,7 +703,7 @@ fn old_style_xls_made_by_xlwt_is_read() {
         out.contains("sheet 'Stock', row 7, column C (consumed): \"n/a\" is not a number"),
         "{out}"
     );
-    let (_, cleaned) = read(&dir.path().join("out/cleaned.csv"));
+    let (_, cleaned) = read_csv_file(&dir.path().join("out/cleaned.csv"));
     let got: Vec<(&str, &str, &str)> = cleaned.iter().map(|r| (&r[1], &r[2], &r[3])).collect();
     // Date cells (the 5th of January-March) and text months; May: 15 of
     // 31 days out of stock, 530 × 31 ÷ 16 = 1026.875 (README, cleaning rule 1).
