@@ -3,21 +3,7 @@
 
 mod common;
 
-use common::{repo, text, Workdir};
-
-/// Parses "rows read: N = U used as reported + A adjusted + R rejected".
-fn accounting(out: &str) -> (usize, usize, usize, usize) {
-    let line = out
-        .lines()
-        .find(|l| l.starts_with("rows read:"))
-        .unwrap_or_else(|| panic!("no accounting line in:\n{out}"));
-    let nums: Vec<usize> = line
-        .split(|c: char| !c.is_ascii_digit())
-        .filter(|s| !s.is_empty())
-        .map(|s| s.parse().unwrap())
-        .collect();
-    (nums[0], nums[1], nums[2], nums[3])
-}
+use common::{accounting, repo, text, Workdir};
 
 #[test]
 fn clean_demo_writes_outputs_that_reconcile() {
@@ -26,7 +12,7 @@ fn clean_demo_writes_outputs_that_reconcile() {
     let o = w.run(&["clean", &data, "--out", "out"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
-    let (read, used, adjusted, rejected) = accounting(&out);
+    let [read, used, adjusted, rejected] = accounting(&out);
     assert_eq!(used + adjusted + rejected, read, "{out}");
     let input_rows = std::fs::read_to_string(&data).unwrap().lines().count() - 1;
     assert_eq!(read, input_rows);
@@ -251,7 +237,7 @@ fn hostile_catalogue_gives_the_expected_messages() {
                 }
                 RowRejected | Accepted => {
                     assert!(o.status.success(), "{what} should go on:\n{out}");
-                    let (read, used, adjusted, rejected) = accounting(&out);
+                    let [read, used, adjusted, rejected] = accounting(&out);
                     assert_eq!(used + adjusted + rejected, read, "{what}");
                     assert_eq!(rejected > 0, *outcome == RowRejected, "{what}:\n{out}");
                     if cmd == "clean" {

@@ -10,21 +10,7 @@ use std::path::Path;
 use calamine::{Data, Reader};
 use rust_xlsxwriter::{ExcelDateTime, Format, Formula, Workbook};
 
-use common::{read_csv_file, repo, run_in, text};
-
-/// Parses "rows read: N = U used as reported + A adjusted + R rejected".
-fn accounting(out: &str) -> [usize; 4] {
-    let line = out
-        .lines()
-        .find(|l| l.starts_with("rows read:"))
-        .unwrap_or_else(|| panic!("no accounting line in:\n{out}"));
-    let nums: Vec<usize> = line
-        .split(|c: char| !c.is_ascii_digit())
-        .filter(|s| !s.is_empty())
-        .map(|s| s.parse().unwrap())
-        .collect();
-    [nums[0], nums[1], nums[2], nums[3]]
-}
+use common::{accounting, read_csv_file, repo, run_in, text};
 
 /// Writes a CSV in the input contract to an .xlsx sheet: names as text,
 /// months as date cells, every quantity as a number cell, empty values as

@@ -55,6 +55,21 @@ pub fn read_csv_file(path: &Path) -> (Vec<String>, Vec<csv::StringRecord>) {
     (h, rows)
 }
 
+/// The counts of the line "rows read: N = U used as reported + A adjusted +
+/// R rejected" that `clean` and `inspect` print: [N, U, A, R].
+pub fn accounting(out: &str) -> [usize; 4] {
+    let line = out
+        .lines()
+        .find(|l| l.starts_with("rows read:"))
+        .unwrap_or_else(|| panic!("no accounting line in:\n{out}"));
+    let nums: Vec<usize> = line
+        .split(|c: char| !c.is_ascii_digit())
+        .filter(|s| !s.is_empty())
+        .map(|s| s.parse().unwrap())
+        .collect();
+    [nums[0], nums[1], nums[2], nums[3]]
+}
+
 /// A temporary working directory with helpers to run `provisio` in it.
 pub struct Workdir {
     dir: tempfile::TempDir,
