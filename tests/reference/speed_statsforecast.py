@@ -7,8 +7,9 @@ of actuals, one month apart; every model refitted at each origin and forecast
 1..12 months ahead with 80% and 95% intervals; then a 24-month projection on
 the whole history with 80% and 95% intervals. In statsforecast this is
 `cross_validation(h=12, n_windows=12, step_size=1, level=[80, 95])` followed by
-`forecast(h=24, level=[80, 95])`; its cutoffs are provisio's origins (checked:
-same months scored).
+`forecast(h=24, level=[80, 95])`; its cutoffs are provisio's origins (checked
+against backtest.csv on the open set; the script checks that every series and
+model has the same number of scored points, `points_equal`).
 
 Both tools see the same cleaned series: the script runs provisio first and
 gives statsforecast provisio's `cleaned.csv` (for the generated set that
@@ -76,6 +77,11 @@ Run (from the repository root, after `cargo build --release`):
     /tmp/refvenv/bin/python tests/reference/speed_statsforecast.py \
         --provisio target/release/provisio --big /tmp/big1000.csv --big-limit 100 \
         --out tests/reference/speed_statsforecast.json
+    # then, with the machine quiet, provisio alone on all 1,000 series:
+    cargo bench --bench throughput --no-run   # prints the bench binary's path
+    /tmp/refvenv/bin/python tests/reference/speed_statsforecast.py \
+        --provisio target/release/provisio --big /tmp/big1000.csv \
+        --quiet-runs target/release/deps/throughput-<hash> --out tests/reference/speed_statsforecast.json
 """
 import argparse
 import json
@@ -418,6 +424,33 @@ def main():
         f.write("\n")
 
 
+def quiet_runs():
+    """provisio alone, added to an existing results file: the in-memory
+    throughput bench binary (`cargo bench --bench throughput --no-run` builds
+    it) and the whole command on --big, each run --repeats times."""
+    with open(ARGS.out) as f:
+        result = json.load(f)
+    rec = {"bench_binary": ARGS.quiet_runs, "bench": [], "provisio_cli": []}
+    for _ in range(ARGS.repeats):
+        before = load()
+        out = subprocess.run([ARGS.quiet_runs, "--bench", "1000"], check=True, capture_output=True,
+                             text=True).stdout
+        n, t_clean, t_fc, per_s, ms, peak = out.strip().splitlines()[-1].split()
+        rec["bench"].append({"series": int(n), "clean_s": float(t_clean), "forecast_s": float(t_fc),
+                             "series_per_s": float(per_s), "peak_mb": float(peak),
+                             "load_before": round(before, 2)})
+    tmp = tempfile.mkdtemp(prefix="speed_quiet_")
+    for _ in range(ARGS.repeats):
+        before = load()
+        rec["provisio_cli"].append({"data": ARGS.big, "wall_s": round(run_provisio(ARGS.provisio, ARGS.big, tmp), 3),
+                                    "load_before": round(before, 2)})
+    result["quiet_runs"] = rec
+    print(json.dumps(rec, indent=1), file=sys.stderr)
+    with open(ARGS.out, "w") as f:
+        json.dump(result, f, indent=1)
+        f.write("\n")
+
+
 if __name__ == "__main__":
     ap = argparse.ArgumentParser()
     ap.add_argument("--provisio", default="target/release/provisio")
@@ -428,5 +461,7 @@ if __name__ == "__main__":
     ap.add_argument("--repeats", type=int, default=2)
     ap.add_argument("--scores-dir", default=None)
     ap.add_argument("--out", default="tests/reference/speed_statsforecast.json")
+    ap.add_argument("--quiet-runs", default=None, metavar="BENCH_BINARY",
+                    help="only add provisio's in-memory bench and whole-command runs on --big to --out")
     ARGS = ap.parse_args()
-    main()
+    quiet_runs() if ARGS.quiet_runs else main()
