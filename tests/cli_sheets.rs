@@ -399,6 +399,38 @@ fn names_that_look_like_formulas_stay_text_everywhere() {
             "{n}: {reviewed:?}"
         );
     }
+
+    // A pin file whose name was copied from selection.csv, apostrophe and
+    // all, pins that product.
+    std::fs::write(
+        dir.path().join("pins.csv"),
+        "product,model\n'=SUM(A1),moving-average-3\n",
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "data.csv",
+            "--out",
+            "pinned",
+            "--pin",
+            "pins.csv",
+            "--origins",
+            "2",
+            "--backtest-horizon",
+            "3",
+            "--horizon",
+            "6",
+            "--no-report",
+            "--no-workbook",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let (h, sel) = read_csv_file(&dir.path().join("pinned/selection.csv"));
+    let model = h.iter().position(|x| x == "chosen_model").unwrap();
+    let row = sel.iter().find(|r| &r[0] == "'=SUM(A1)").unwrap();
+    assert_eq!(&row[model], "moving-average-3", "{h:?} {row:?}");
 }
 
 #[test]

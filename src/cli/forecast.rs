@@ -374,7 +374,9 @@ fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
     for rec in r.records() {
         let rec = rec.with_context(|| format!("{}: cannot read a row", path.display()))?;
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
-        let product = rec.get(pc).unwrap_or("").trim().to_string();
+        // A name copied from provisio's CSV outputs may carry the
+        // apostrophe they put before formula-like text; it is taken off.
+        let product = provisio::output::csv_text_read(rec.get(pc).unwrap_or("").trim()).to_string();
         let model = rec.get(mc).unwrap_or("").trim().to_string();
         if model != provisio::backtest::COMBINATION && !names.contains(&model) {
             anyhow::bail!(
