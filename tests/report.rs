@@ -128,11 +128,14 @@ fn report_needs_nothing_from_the_network() {
     ] {
         assert!(!html.contains(bad), "{bad}");
     }
-    // Links are to anchors and to the chart files beside the report only.
+    // Links are to anchors, to the chart files beside the report and to
+    // the folder's own data files only.
     for part in html.split("href=\"").skip(1) {
         let target = &part[..part.find('"').unwrap()];
         assert!(
-            target.starts_with('#') || target.starts_with("charts/"),
+            target.starts_with('#')
+                || target.starts_with("charts/")
+                || provisio::report::LINKED_FILES.contains(&target),
             "{target}"
         );
     }
@@ -150,6 +153,27 @@ fn summary_comes_from_the_manifest() {
     assert!(html.contains(m["tool"].as_str().unwrap()));
     assert!(html.contains("Nov 2021 to Oct 2026 (60 months)"));
     assert!(html.contains("Nov 2026 to Oct 2028 (24 months)"));
+}
+
+/// The summary links the folder's data files that are there (`report`
+/// writes the workbook first), and no file that is not.
+#[test]
+fn summary_links_the_files_present() {
+    let (_tmp, dir, html) = built();
+    for f in [
+        "forecast.xlsx",
+        "forecast.csv",
+        "selection.csv",
+        "adjustments.csv",
+    ] {
+        assert!(dir.join(f).is_file(), "{f}");
+        assert!(html.contains(&format!("href=\"{f}\"")), "{f} not linked");
+    }
+    // The fixture folder has no forecast_wide.csv nor a plan.
+    for f in ["forecast_wide.csv", "plan.csv"] {
+        assert!(!dir.join(f).exists());
+        assert!(!html.contains(&format!("href=\"{f}\"")), "{f} linked");
+    }
 }
 
 #[test]

@@ -739,11 +739,6 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a_out.join("manifest.json"), &manifest)?;
-    let report = if a.no_report {
-        None
-    } else {
-        Some(provisio::report::write_report(&a_out)?)
-    };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     let products = results.len();
@@ -757,13 +752,14 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "rows": cleaned.rows,
             "products": results.iter().map(product_json).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
-            "files": forecast_files(&a_out, report.is_some(), !a.no_workbook),
+            "files": forecast_files(&a_out, !a.no_report, !a.no_workbook),
             "seconds": secs,
         })
     });
-    // The workbook is built from the files just written; the results in
-    // memory are no longer needed, and freeing them first keeps the peak
-    // memory of large runs down.
+    // The workbook and the report are built from the files just written;
+    // the results in memory are no longer needed, and freeing them first
+    // keeps the peak memory of large runs down. The workbook comes first so
+    // that the report can link to it.
     drop((ds, cleaned, results));
     let t_book = Instant::now();
     let workbook = if a.no_workbook {
@@ -772,6 +768,11 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         Some(provisio::report::workbook::write_workbook(&a_out)?)
     };
     let book_secs = t_book.elapsed().as_secs_f64();
+    let report = if a.no_report {
+        None
+    } else {
+        Some(provisio::report::write_report(&a_out)?)
+    };
     if let Some(v) = summary {
         super::json_summary(|| v);
     }

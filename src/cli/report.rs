@@ -15,6 +15,9 @@ pub struct ReportArgs {
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
+    // The workbook first, so that the report links to it.
+    let book = provisio::report::workbook::write_workbook(&a.dir)?;
+    super::say!("wrote {}", book.display());
     let mut written = None;
     if !a.workbook_only {
         let w = provisio::report::write_report(&a.dir)?;
@@ -27,8 +30,6 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
         );
         written = Some(w);
     }
-    let book = provisio::report::workbook::write_workbook(&a.dir)?;
-    super::say!("wrote {}", book.display());
     super::json_summary(|| {
         serde_json::json!({
             "command": "report",

@@ -22,7 +22,7 @@ use rayon::prelude::*;
 
 pub use read::{
     read_output_dir, AdjustmentRow, Figures, ForecastRun, ProductResult, Quality, ScoreRow,
-    Selection,
+    Selection, LINKED_FILES,
 };
 
 use crate::chart::{self, ProductChart, ScoreBar};
@@ -416,6 +416,17 @@ fn summary(b: &mut String, run: &ForecastRun) {
         )),
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
+    if !run.files.is_empty() {
+        let links: Vec<String> = run
+            .files
+            .iter()
+            .map(|f| {
+                let f = escape(f);
+                format!("<a class=\"mono\" href=\"{f}\">{f}</a>")
+            })
+            .collect();
+        facts.push(("Files in this folder", links.join(", ")));
+    }
     if let Some(cs) = m.get("clean_settings").and_then(|v| v.as_object()) {
         facts.push(("Cleaning settings", escape(&as_options(cs))));
     }

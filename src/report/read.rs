@@ -163,7 +163,26 @@ pub struct ForecastRun {
     pub warnings: Vec<String>,
     /// Rows of `rejected.csv`.
     pub rejected_rows: usize,
+    /// The data files of the folder a reader would open, those present.
+    pub files: Vec<String>,
 }
+
+/// Files of an output folder linked from the report, in this order, when
+/// they are there.
+pub const LINKED_FILES: [&str; 12] = [
+    "forecast.xlsx",
+    "forecast.csv",
+    "forecast_wide.csv",
+    "selection.csv",
+    "scores.csv",
+    "adjustments.csv",
+    "quality.csv",
+    "rejected.csv",
+    "crosscheck.csv",
+    "plan.csv",
+    "orders.csv",
+    "manifest.json",
+];
 
 /// A CSV file with its header, addressed by column name; rows are read
 /// one at a time (`backtest.csv` of a large run is hundreds of megabytes).
@@ -613,10 +632,16 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         }
     }
 
+    let files = LINKED_FILES
+        .iter()
+        .filter(|f| dir.join(f).is_file())
+        .map(|f| f.to_string())
+        .collect();
     Ok(ForecastRun {
         manifest,
         products,
         warnings,
         rejected_rows,
+        files,
     })
 }
