@@ -207,13 +207,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
 }
 
 fn print_summary(cc: &crosscheck::CrossCheck) {
-    let w = cc
-        .rows
-        .iter()
-        .map(|r| r.product.chars().count())
-        .max()
-        .unwrap_or(7)
-        .clamp(7, 40);
+    let w = super::name_width(cc.rows.iter().map(|r| &r.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     let q = |v: Option<f64>| v.map(provisio::chart::fmt_quantity).unwrap_or("-".into());
     super::say!(

@@ -487,12 +487,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
     if !super::human() {
         return;
     }
-    let w = results
-        .iter()
-        .map(|r| r.product.chars().count())
-        .max()
-        .unwrap_or(7)
-        .clamp(7, 40);
+    let w = super::name_width(results.iter().map(|r| &r.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     println!(
         "{}  {:<34} {:>8} {:>8} {:>10}{}",

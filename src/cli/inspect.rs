@@ -49,12 +49,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
         })
     });
-    let name_w = profiles
-        .iter()
-        .map(|p| p.product.chars().count())
-        .max()
-        .unwrap_or(7)
-        .clamp(7, 40);
+    let name_w = super::name_width(profiles.iter().map(|p| &p.product));
     super::say!(
         "{}  {:>5} {:>16} {:>7} {:>5} {:>8} {:>10} {:>5} {:>8}  verdict",
         pad("product", name_w),

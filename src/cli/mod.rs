@@ -622,6 +622,17 @@ fn write_clean_outputs(
     Ok((by_rule, warnings))
 }
 
+/// Width of a name column: the longest name, at least 7 ("product") and at
+/// most 40 characters (longer names are cut with [`truncate`]).
+fn name_width<S: AsRef<str>>(names: impl IntoIterator<Item = S>) -> usize {
+    names
+        .into_iter()
+        .map(|n| n.as_ref().chars().count())
+        .max()
+        .unwrap_or(7)
+        .clamp(7, 40)
+}
+
 /// Text for a terminal table cell: control characters shown as spaces,
 /// cut to `n` characters with an ellipsis.
 fn truncate(s: &str, n: usize) -> String {

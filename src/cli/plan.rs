@@ -310,12 +310,7 @@ fn print_summary(planned: &[PlannedSeries]) {
         Some(site) => format!("{} @ {site}", s.product),
         None => s.product.clone(),
     };
-    let w = planned
-        .iter()
-        .map(|s| name(s).chars().count())
-        .max()
-        .unwrap_or(7)
-        .clamp(7, 40);
+    let w = super::name_width(planned.iter().map(name));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     super::say!(
         "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",

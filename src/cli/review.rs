@@ -202,13 +202,7 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
 }
 
 fn print_summary(r: &review::Review, limit: f64) {
-    let w = r
-        .products
-        .iter()
-        .map(|p| p.product.chars().count())
-        .max()
-        .unwrap_or(7)
-        .clamp(7, 40);
+    let w = super::name_width(r.products.iter().map(|p| &p.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     let f = |v: Option<f64>, plus: bool| match v {
         Some(x) if plus => format!("{x:+.1}"),

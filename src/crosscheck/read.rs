@@ -140,17 +140,11 @@ impl Sheet {
             &self.file,
             1,
             None,
-            format!(
-                "missing required column{} {}; the header has: {}; required: {} (optional: {})",
-                if missing.len() > 1 { "s" } else { "" },
-                missing
-                    .iter()
-                    .map(|m| format!("'{m}'"))
-                    .collect::<Vec<_>>()
-                    .join(", "),
-                self.header.join(", "),
-                names.join(", "),
-                optional.join(", ")
+            crate::data::missing_columns_message(
+                &missing,
+                &self.header.iter().map(String::as_str).collect::<Vec<_>>(),
+                names,
+                optional,
             ),
         ))
     }

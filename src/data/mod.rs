@@ -9,7 +9,7 @@ mod sheet;
 mod text;
 mod values;
 
-pub(crate) use read::normalise_name;
+pub(crate) use read::{missing_columns_message, normalise_name};
 pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, MAX_QUANTITY};
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
 pub use sheet::{

@@ -600,6 +600,27 @@ pub(crate) fn normalise_name(name: &str) -> String {
         .collect()
 }
 
+/// The message for a header without some required columns: which are
+/// missing, what the header has, and what is required and optional.
+pub(crate) fn missing_columns_message(
+    missing: &[&str],
+    header: &[&str],
+    required: &[&str],
+    optional: &[&str],
+) -> String {
+    format!(
+        "missing required column{} {}; the header has: {}; required: {} (optional: {})",
+        if missing.len() > 1 { "s" } else { "" },
+        missing
+            .iter()
+            .map(|m| format!("'{m}'"))
+            .collect::<Vec<_>>()
+            .join(", "),
+        header.join(", "),
+        required.join(", "),
+        optional.join(", "),
+    )
+}
 /// Finds the contract's columns in a header; returns them and the names
 /// of the extra columns.
 pub(crate) fn map_header(header: &[&str]) -> std::result::Result<(Columns, Vec<String>), String> {
@@ -632,18 +653,7 @@ pub(crate) fn map_header(header: &[&str]) -> std::result::Result<(Columns, Vec<S
         .collect();
     if !missing.is_empty() {
         let shown: Vec<&str> = header.iter().map(|h| h.trim()).collect();
-        let mut msg = format!(
-            "missing required column{} {}; the header has: {}; required: {} (optional: {})",
-            if missing.len() > 1 { "s" } else { "" },
-            missing
-                .iter()
-                .map(|m| format!("'{m}'"))
-                .collect::<Vec<_>>()
-                .join(", "),
-            shown.join(", "),
-            REQUIRED.join(", "),
-            OPTIONAL.join(", "),
-        );
+        let mut msg = missing_columns_message(&missing, &shown, &REQUIRED, &OPTIONAL);
         for m in &missing {
             if let Some(near) = names.iter().find(|n| is_near(n, m)) {
                 msg.push_str(&format!("; did you mean to name '{near}' as '{m}'?"));
