@@ -10,7 +10,6 @@ use provisio::backtest::{self, BacktestSettings};
 use provisio::clean::{clean, CleanSettings};
 use provisio::data::{read_csv_bytes, ReadOptions};
 use provisio::generate::{generate, synthetic_scenario, write_rows};
-use provisio::metrics::Score;
 use provisio::models::candidates;
 use provisio::pipeline::{forecast_all, ForecastSettings};
 
@@ -53,7 +52,7 @@ fn backtest_per_model(c: &mut Criterion) {
         let one = vec![model];
         let name = one[0].name();
         g.bench_function(name, |b| {
-            b.iter(|| backtest::run(&series.values, &mask, &one, &settings, Score::Mape))
+            b.iter(|| backtest::run(&series.values, &mask, &one, &settings))
         });
     }
     g.finish();

@@ -7,11 +7,10 @@
 //! series. Months whose cleaned value is mostly imputed can be left out of
 //! scoring, so no model is rewarded for matching our own imputation.
 //!
-//! A combination candidate — the mean of the best three models — is
-//! evaluated honestly: at each origin its members are ranked only on the
-//! errors of earlier origins' forecasts whose target months are already
-//! observed at that origin. At the first origin no such errors exist and a
-//! fixed default trio is used (see [`DEFAULT_COMBINATION`]).
+//! A combination candidate averages a fixed set of strong automatic models
+//! (see [`COMBINATION_MEMBERS`]). Its members are fixed in advance, not
+//! picked from the backtest, so its backtest needs no look-ahead care and
+//! it cannot overfit the backtest windows.
 
 use crate::error::{Error, Result};
 use crate::metrics;
@@ -20,14 +19,17 @@ use crate::models::{AnyModel, Forecast, WarmStart, PERIOD};
 /// Name of the combination candidate.
 pub const COMBINATION: &str = "combination";
 
-/// Members of the combination at the first origin, before any error is
-/// known: three standard, robust monthly methods (M3 competition results,
-/// Makridakis & Hibon, IJF 16(4), 2000). Unavailable ones are skipped; if
-/// none is available, the first complete candidates are used.
-pub const DEFAULT_COMBINATION: [&str; 3] = ["ets-auto", "theta", "holt-winters-additive-damped"];
+/// Members of the combination: automatic ETS, automatic ARIMA and Theta,
+/// each applied whole. The mean of these three is a known strong benchmark
+/// on monthly competition data (the "ETS, ARIMA, Theta" combination of
+/// Makridakis, Spiliotis & Assimakopoulos, IJF 34(4), 2018 and of the M4
+/// competition, IJF 36(1), 2020). Members fixed in advance generalise
+/// better than members ranked on a few backtest windows.
+pub const COMBINATION_MEMBERS: [&str; 3] = ["ets-auto", "arima-auto", "theta"];
 
-/// Number of members in the combination.
-pub const COMBINATION_SIZE: usize = 3;
+/// Fewest complete members for the combination to apply (a member may not
+/// apply to a short series).
+pub const COMBINATION_MIN_MEMBERS: usize = 2;
 
 /// Backtest settings as given.
 ///
@@ -126,6 +128,8 @@ pub struct Point {
     pub upper95: f64,
     /// MASE scale of the origin's training window (`None` if zero).
     pub scale: Option<f64>,
+    /// RMSSE scale of the origin's training window (`None` if zero).
+    pub scale_sq: Option<f64>,
     /// Whether the point counts in scores (false: target mostly imputed).
     pub scored: bool,
 }
@@ -177,6 +181,8 @@ pub struct Scores {
     pub mase: Option<f64>,
     /// RMSE.
     pub rmse: Option<f64>,
+    /// RMSSE (M5 scale of each training window).
+    pub rmsse: Option<f64>,
     /// Share of actuals inside the 80% interval, percent.
     pub coverage80: Option<f64>,
     /// Share of actuals inside the 95% interval, percent.
@@ -192,6 +198,7 @@ impl Scores {
         let (mut ape, mut total, mut signed, mut abs_total, mut abs_err, mut sq) =
             (0.0, 0.0, 0.0, 0.0, 0.0, 0.0);
         let (mut scaled, mut scaled_n) = (0.0, 0usize);
+        let (mut scaled_sq, mut scaled_sq_n) = (0.0, 0usize);
         let (mut in80, mut in95) = (0usize, 0usize);
         for p in points.iter().filter(|p| p.scored) {
             let (a, f) = (p.actual, p.forecast);
@@ -211,6 +218,10 @@ impl Scores {
                 scaled += (f - a).abs() / s;
                 scaled_n += 1;
             }
+            if let Some(s) = p.scale_sq {
+                scaled_sq += (f - a).powi(2) / s;
+                scaled_sq_n += 1;
+            }
             in80 += usize::from(a >= p.lower80 && a <= p.upper80);
             in95 += usize::from(a >= p.lower95 && a <= p.upper95);
         }
@@ -223,6 +234,8 @@ impl Scores {
             wape: (abs_total != 0.0).then(|| 100.0 * abs_err / abs_total),
             mase: (scaled_n > 0 && scaled_n == n).then(|| scaled / scaled_n as f64),
             rmse: (n > 0).then(|| (sq / n as f64).sqrt()),
+            rmsse: (scaled_sq_n > 0 && scaled_sq_n == n)
+                .then(|| (scaled_sq / scaled_sq_n as f64).sqrt()),
             coverage80: share(in80),
             coverage95: share(in95),
         }
@@ -235,6 +248,7 @@ impl Scores {
             metrics::Score::Wape => self.wape,
             metrics::Score::Mase => self.mase,
             metrics::Score::Rmse => self.rmse,
+            metrics::Score::Rmsse => self.rmsse,
         }
     }
 }
@@ -263,6 +277,7 @@ impl Backtest {
                 continue;
             };
             let scale = metrics::mase_scale(&self.actual[..=o], PERIOD);
+            let scale_sq = metrics::rmsse_scale(&self.actual[..=o]);
             let i80 = fc.interval(0.80);
             let i95 = fc.interval(0.95);
             for h in 1..=self.horizon {
@@ -282,6 +297,7 @@ impl Backtest {
                     lower95: i95.map_or(f, |i| i.lower[h - 1]),
                     upper95: i95.map_or(f, |i| i.upper[h - 1]),
                     scale,
+                    scale_sq,
                     scored: self.scorable[t],
                 });
             }
@@ -313,13 +329,12 @@ impl Backtest {
 
 /// Runs the backtest of one series. `scorable[t]` says whether month t may
 /// be scored (the caller marks mostly-imputed months false when
-/// `exclude_imputed` is on). `rank_by` orders combination members.
+/// `exclude_imputed` is on).
 pub fn run(
     y: &[f64],
     scorable: &[bool],
     models: &[Box<dyn AnyModel>],
     settings: &CheckedBacktestSettings,
-    rank_by: metrics::Score,
 ) -> Backtest {
     let s = settings.get();
     let os = origins(y.len(), s.origins, s.horizon, 2);
@@ -387,80 +402,49 @@ pub fn run(
         scorable: scorable.to_vec(),
         runs,
     };
-    let combo = combination_run(&bt, rank_by);
+    let combo = combination_run(&bt);
     bt.runs.push(combo);
     bt
 }
 
-fn combination_run(bt: &Backtest, rank_by: metrics::Score) -> ModelRun {
-    let complete: Vec<usize> = (0..bt.runs.len())
-        .filter(|&i| bt.runs[i].status == RunStatus::Complete)
+fn combination_run(bt: &Backtest) -> ModelRun {
+    let members: Vec<usize> = COMBINATION_MEMBERS
+        .iter()
+        .filter_map(|name| {
+            (0..bt.runs.len())
+                .find(|&i| bt.runs[i].model == *name && bt.runs[i].status == RunStatus::Complete)
+        })
         .collect();
-    let points: Vec<Vec<Point>> = bt.runs.iter().map(|r| bt.points(r)).collect();
-    let mut forecasts = Vec::with_capacity(bt.origins.len());
-    let mut members_at = Vec::with_capacity(bt.origins.len());
-    for (k, &o) in bt.origins.iter().enumerate() {
-        // Errors known at origin o: earlier origins, targets up to o.
-        let mut ranked: Vec<(f64, usize)> = complete
-            .iter()
-            .filter_map(|&i| {
-                let known: Vec<Point> = points[i]
-                    .iter()
-                    .copied()
-                    .filter(|p| p.origin < o && p.target <= o)
-                    .collect();
-                let sc = Scores::of(&known);
-                let v = sc.get(rank_by).or(sc.wape)?;
-                Some((v, i))
-            })
-            .collect();
-        let members: Vec<usize> = if ranked.is_empty() {
-            let defaults: Vec<usize> = DEFAULT_COMBINATION
-                .iter()
-                .filter_map(|name| {
-                    complete
-                        .iter()
-                        .copied()
-                        .find(|&i| bt.runs[i].model == *name)
-                })
-                .collect();
-            if defaults.is_empty() {
-                complete.iter().copied().take(COMBINATION_SIZE).collect()
-            } else {
-                defaults
-            }
-        } else {
-            ranked.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-            ranked
-                .iter()
-                .take(COMBINATION_SIZE)
-                .map(|&(_, i)| i)
-                .collect()
-        };
-        let fcs: Vec<&Forecast> = members
-            .iter()
-            .filter_map(|&i| bt.runs[i].forecasts.get(k).and_then(Option::as_ref))
-            .collect();
-        members_at.push(members.iter().map(|&i| bt.runs[i].model.clone()).collect());
-        forecasts.push(mean_forecast(&fcs));
-    }
+    let names: Vec<String> = members.iter().map(|&i| bt.runs[i].model.clone()).collect();
     let status = if bt.origins.is_empty() {
         RunStatus::NotApplicable("the series is too short for any backtest origin".to_string())
-    } else if forecasts.iter().all(Option::is_some) {
-        RunStatus::Complete
-    } else if forecasts.iter().any(Option::is_some) {
-        RunStatus::Incomplete {
-            failed: forecasts.iter().filter(|f| f.is_none()).count(),
-            first: "no member model available at some origins".to_string(),
-        }
+    } else if members.len() < COMBINATION_MIN_MEMBERS {
+        RunStatus::NotApplicable(format!(
+            "needs at least {COMBINATION_MIN_MEMBERS} of its members ({}) complete, has {}",
+            COMBINATION_MEMBERS.join(", "),
+            members.len()
+        ))
     } else {
-        RunStatus::NotApplicable("no complete candidate to combine".to_string())
+        RunStatus::Complete
+    };
+    let forecasts = if status == RunStatus::Complete {
+        (0..bt.origins.len())
+            .map(|k| {
+                let fcs: Vec<&Forecast> = members
+                    .iter()
+                    .filter_map(|&i| bt.runs[i].forecasts.get(k).and_then(Option::as_ref))
+                    .collect();
+                mean_forecast(&fcs)
+            })
+            .collect()
+    } else {
+        vec![None; bt.origins.len()]
     };
     ModelRun {
         model: COMBINATION.to_string(),
         status,
         forecasts,
-        members: members_at,
+        members: vec![names; bt.origins.len()],
     }
 }
 

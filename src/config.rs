@@ -76,7 +76,7 @@ pub const NUMBERS: [&str; 3] = ["plain", "grouped", "decimal-comma"];
 /// Valid names of `input.encoding`.
 pub const ENCODINGS: [&str; 3] = ["utf-8", "latin1", "windows-1252"];
 /// Valid names of `selection.select_by`.
-pub const SCORES: [&str; 4] = ["mape", "wape", "mase", "rmse"];
+pub const SCORES: [&str; 5] = ["mape", "wape", "mase", "rmse", "rmsse"];
 /// Valid names of `backtest.backtest_detail`.
 pub const DETAILS: [&str; 2] = ["chosen", "all"];
 /// Largest `min_months` accepted (100 years).
@@ -110,8 +110,8 @@ pub const KEYS: &[KeyDoc] = &[
     key("backtest", "backtest_horizon", "integer", "12", "1 to 36", "months forecast at each backtest origin (H)", "12"),
     key("backtest", "score_imputed", "true/false", "false", "true, false", "also score months that are mostly imputed", "false"),
     key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"all\"", "backtest forecasts written to backtest.csv: the chosen model, runner-up and combination, or every model", "\"chosen\""),
-    key("selection", "select_by", "text", "\"mape\"", "\"mape\", \"wape\", \"mase\", \"rmse\"", "score to choose models by (WAPE is used when over a third of the backtest months are zero)", "\"mape\""),
-    key("selection", "tie_margin", "number", "0.1", "0 to 0.5", "relative gap to the best score counted as a near-tie (the combination, then the simpler model, wins it)", "0.1"),
+    key("selection", "select_by", "text", "\"mase\"", "\"mape\", \"wape\", \"mase\", \"rmse\", \"rmsse\"", "score to choose models by (intermittent demand is always scored by RMSSE; MAPE falls back to WAPE when over a third of the backtest months are zero)", "\"mase\""),
+    key("selection", "tie_margin", "number", "0.1", "0 to 0.5", "relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins", "0.1"),
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
     key("projection", "horizon", "integer", "24", "1 to 60", "months projected", "24"),
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),

@@ -70,6 +70,38 @@ pub fn mase_scale(train: &[f64], period: usize) -> Option<f64> {
     (scale > 0.0).then_some(scale)
 }
 
+/// Scale of the root mean squared scaled error (RMSSE) of the M5
+/// competition (Makridakis, Spiliotis & Assimakopoulos, IJF 38(4), 2022):
+/// the in-sample mean of squared one-step naive differences, counted from
+/// the first month with demand (leading zeros are not part of the
+/// product's history). `None` when too short or zero.
+pub fn rmsse_scale(train: &[f64]) -> Option<f64> {
+    let start = train.iter().position(|&v| v != 0.0)?;
+    let t = &train[start..];
+    if t.len() < 2 {
+        return None;
+    }
+    let s: f64 = t.windows(2).map(|w| (w[1] - w[0]).powi(2)).sum();
+    let scale = s / (t.len() - 1) as f64;
+    (scale > 0.0).then_some(scale)
+}
+
+/// Root mean squared scaled error: √(mean (forecast − actual)² ÷ `scale`),
+/// with `scale` from [`rmsse_scale`]. A squared error is minimised by the
+/// mean, not the median, so on sparse demand it does not favour a forecast
+/// of zero the way absolute errors do (the reason the M5 competition used it).
+pub fn rmsse(actual: &[f64], forecast: &[f64], scale: f64) -> Option<f64> {
+    let n = actual.len().min(forecast.len());
+    (n > 0 && scale > 0.0).then(|| {
+        let s: f64 = actual
+            .iter()
+            .zip(forecast)
+            .map(|(a, f)| (f - a).powi(2))
+            .sum();
+        (s / n as f64 / scale).sqrt()
+    })
+}
+
 /// Mean absolute scaled error: mean |forecast − actual| ÷ `scale`.
 pub fn mase(actual: &[f64], forecast: &[f64], scale: f64) -> Option<f64> {
     let n = actual.len().min(forecast.len());
@@ -161,6 +193,9 @@ pub enum Score {
     Mase,
     /// Root mean squared error.
     Rmse,
+    /// Root mean squared scaled error (M5 competition): the score for
+    /// intermittent demand.
+    Rmsse,
 }
 
 impl Score {
@@ -171,6 +206,7 @@ impl Score {
             Score::Wape => "WAPE",
             Score::Mase => "MASE",
             Score::Rmse => "RMSE",
+            Score::Rmsse => "RMSSE",
         }
     }
 }
@@ -178,6 +214,27 @@ impl Score {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rmsse_by_its_definition() {
+        // RMSSE as defined in the M5 competition's guidelines (Makridakis,
+        // Spiliotis & Assimakopoulos, IJF 38(4), 2022, eq. 1), worked by
+        // hand. Training (0, 0, 2, 4, 2, 0): leading zeros dropped, one-step
+        // differences (2, −2, −2) → scale (4 + 4 + 4) / 3 = 4.
+        let scale = rmsse_scale(&[0.0, 0.0, 2.0, 4.0, 2.0, 0.0]).unwrap();
+        assert!((scale - 4.0).abs() < 1e-12);
+        // Errors (1, −3): √((1 + 9) / 2 / 4) = √1.25.
+        let r = rmsse(&[2.0, 3.0], &[3.0, 0.0], scale).unwrap();
+        assert!((r - 1.25f64.sqrt()).abs() < 1e-12);
+        // On sparse actuals (0, 0, 0, 4) the mean (1) beats a forecast of
+        // zero by RMSSE, while by absolute error zero wins (the median
+        // minimises absolute error, the mean squared error: common practice).
+        let a = [0.0, 0.0, 0.0, 4.0];
+        assert!(rmsse(&a, &[1.0; 4], 1.0).unwrap() < rmsse(&a, &[0.0; 4], 1.0).unwrap());
+        let mae = |f: f64| a.iter().map(|x| (x - f).abs()).sum::<f64>();
+        assert!(mae(0.0) < mae(1.0));
+        assert!(rmsse_scale(&[0.0, 0.0]).is_none());
+    }
 
     #[test]
     fn wape_worked_example() {

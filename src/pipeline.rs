@@ -7,13 +7,14 @@ use rayon::prelude::*;
 
 use crate::backtest::{
     self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
-    COMBINATION_SIZE,
 };
+use crate::calibrate::{calibrate, RangeMethod};
 use crate::clean::CleanSeries;
 use crate::error::Result;
+use crate::models::Forecast;
 use crate::models::{candidates, AnyModel};
 use crate::project::{check_horizon, project, Projection};
-use crate::select::{complexity, select, SelectSettings, Selection};
+use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
 
 /// Model name prefixes that compete for intermittent or lumpy demand.
 pub const INTERMITTENT_METHODS: [&str; 4] = ["croston", "tsb", "moving-average", "naive"];
@@ -162,8 +163,14 @@ pub struct ProductForecast {
     pub scores: Vec<ModelScores>,
     /// The choice and its reason.
     pub selection: Selection,
-    /// The projection (`None` when even the fallback failed; see warnings).
+    /// The projection (`None` when even the fallback failed; see warnings),
+    /// its ranges calibrated on the backtest (see [`crate::calibrate`]).
     pub projection: Option<Projection>,
+    /// How the projection's ranges were made.
+    pub ranges: RangeMethod,
+    /// The projection's forecast with the model's own, uncalibrated ranges
+    /// (kept for `evaluate`'s comparison of the two).
+    pub model_ranges: Option<Forecast>,
     /// Problems met.
     pub warnings: Vec<String>,
 }
@@ -287,8 +294,8 @@ pub fn forecast_product_with(
     let too_short = opts.min_months.filter(|&m| y.len() < m);
     let bt = match too_short {
         // No model is backtested, so selection falls back below.
-        Some(_) => backtest::run(y, &mask, &[], &settings.backtest, settings.select.score),
-        None => backtest::run(y, &mask, models, &settings.backtest, settings.select.score),
+        Some(_) => backtest::run(y, &mask, &[], &settings.backtest),
+        None => backtest::run(y, &mask, models, &settings.backtest),
     };
     // Simplest applicable model, for series too short to backtest.
     let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
@@ -309,7 +316,20 @@ pub fn forecast_product_with(
         }
         other => other,
     };
-    let mut selection = select(&bt, &settings.select, pinned_ok, &fallback);
+    let intermittent = class.is_intermittent() && !forced_seasonal;
+    let default = if intermittent {
+        INTERMITTENT_DEFAULT
+    } else {
+        COMBINATION
+    };
+    let mut selection = select(
+        &bt,
+        &settings.select,
+        Some(default),
+        pinned_ok,
+        &fallback,
+        intermittent,
+    );
     if let Some(p) =
         pinned_ok.filter(|p| *p != COMBINATION && !models.iter().any(|m| m.name() == *p))
     {
@@ -338,28 +358,24 @@ pub fn forecast_product_with(
             .find(|m| m.name() == name)
             .map(|m| m.as_ref())
     };
-    let chosen_models: Vec<&dyn AnyModel> = if selection.chosen == COMBINATION {
-        // Members for the projection: the best complete models on the full backtest.
-        let mut ranked: Vec<(f64, &str)> = bt
-            .runs
-            .iter()
-            .filter(|r| r.status == RunStatus::Complete && r.model != COMBINATION)
-            .filter_map(|r| {
-                bt.scores(r)
-                    .get(selection.score)
-                    .map(|v| (v, r.model.as_str()))
-            })
-            .collect();
-        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
-        ranked
-            .iter()
-            .take(COMBINATION_SIZE)
-            .filter_map(|(_, n)| find(n))
-            .collect()
-    } else {
-        find(&selection.chosen).into_iter().collect()
+    let members_of = |name: &str| -> Vec<&dyn AnyModel> {
+        if name == COMBINATION {
+            // The combination's fixed members that completed the backtest.
+            bt.run(COMBINATION)
+                .and_then(|r| r.members.first())
+                .map(|m| m.iter().filter_map(|n| find(n)).collect())
+                .unwrap_or_default()
+        } else {
+            find(name).into_iter().collect()
+        }
     };
-    let mut projection = project(y, last, &selection.chosen, &chosen_models, settings.horizon);
+    let mut projection = project(
+        y,
+        last,
+        &selection.chosen,
+        &members_of(&selection.chosen),
+        settings.horizon,
+    );
     if let (Err(e), true) = (&projection, selection.chosen != fallback) {
         warnings.push(format!(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
@@ -370,12 +386,38 @@ pub fn forecast_product_with(
             None => projection,
         };
     }
-    let projection = match projection {
+    if !selection.pinned {
+        projection = avoid_zero_projection(y, &bt, &mut selection, projection, &|name| {
+            project(y, last, name, &members_of(name), settings.horizon)
+        });
+    }
+    if matches!(&projection, Ok(p) if all_zero(p)) && in_use(y) {
+        warnings.push(format!(
+            "product '{}': projected at zero for every month although it consumed in its last 12 months{}; check whether it is being phased out, or pin another model",
+            series.product,
+            if selection.pinned {
+                " (the pinned model)"
+            } else {
+                " (no candidate projects above zero)"
+            }
+        ));
+    }
+    let mut projection = match projection {
         Ok(p) => Some(p),
         Err(e) => {
             warnings.push(format!("product '{}': no projection: {e}", series.product));
             None
         }
+    };
+    if let Some(p) = &projection {
+        warnings.extend(suspect_warnings(&series.product, y, &selection, p, &bt));
+    }
+    let model_ranges = projection.as_ref().map(|p| p.forecast.clone());
+    let ranges = match (projection.as_mut(), bt.run(&selection.chosen)) {
+        (Some(p), Some(run)) if p.model == selection.chosen => {
+            calibrate(&mut p.forecast, &bt.points(run))
+        }
+        _ => RangeMethod::Model,
     };
     let scores: Vec<ModelScores> = bt
         .runs
@@ -412,8 +454,132 @@ pub fn forecast_product_with(
         scores,
         selection,
         projection,
+        ranges,
+        model_ranges,
         warnings,
     }
+}
+
+/// Backtest WAPE of the chosen model above which its forecast is suspect.
+pub const WARN_WAPE_PCT: f64 = 100.0;
+/// Relative change between the last 12 months of history and the first
+/// 12 projected months above which a projection is suspect, unless the
+/// history shows a trend the same way.
+pub const WARN_JUMP: f64 = 0.5;
+/// Backtest coverage of the model's own 80% interval below which its
+/// ranges are suspect (when they could not be calibrated).
+pub const WARN_COVERAGE80_PCT: f64 = 60.0;
+/// Months of history below which every forecast is suspect.
+pub const WARN_MIN_MONTHS: usize = 24;
+
+/// Warnings on a forecast that should not be trusted as it is, each saying
+/// what to check. (An all-zero projection of a product in use is warned
+/// where it is decided, in [`forecast_product_with`].)
+pub fn suspect_warnings(
+    product: &str,
+    y: &[f64],
+    selection: &Selection,
+    projection: &Projection,
+    bt: &Backtest,
+) -> Vec<String> {
+    let mut out = Vec::new();
+    let chosen = &selection.chosen;
+    if let Some(w) = selection.chosen_scores.and_then(|s| s.wape) {
+        if w > WARN_WAPE_PCT {
+            out.push(format!(
+                "product '{product}': the chosen model {chosen} missed by {w:.0}% of volume in the backtest (WAPE above {WARN_WAPE_PCT:.0}%); check the history for breaks and consider pinning a simpler model or setting the quantity by hand"
+            ));
+        }
+    }
+    let n = y.len();
+    if n >= 24 {
+        let last: f64 = y[n - 12..].iter().sum();
+        let prev: f64 = y[n - 24..n - 12].iter().sum();
+        let next: f64 = projection.forecast.point.iter().take(12).sum();
+        if last > 0.0 && projection.forecast.point.len() >= 12 {
+            let jump = next / last - 1.0;
+            let hist = if prev > 0.0 { last / prev - 1.0 } else { 0.0 };
+            let backed = jump.signum() == hist.signum() && hist.abs() >= jump.abs() / 2.0;
+            if jump.abs() > WARN_JUMP && !backed {
+                out.push(format!(
+                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}%, more than the history's own trend ({:+.0}% year on year) supports; check for a recent break or an outlier at the end of the history",
+                    jump * 100.0,
+                    hist * 100.0
+                ));
+            }
+        }
+    }
+    let calibrated = bt
+        .run(chosen)
+        .is_some_and(|r| crate::calibrate::factor(&bt.points(r), 0.80).is_some());
+    if let Some(c) = selection.chosen_scores.and_then(|s| s.coverage80) {
+        if c < WARN_COVERAGE80_PCT && !calibrated {
+            out.push(format!(
+                "product '{product}': the chosen model's 80% range held only {c:.0}% of the backtest actuals and there were too few backtest errors to widen it; treat the range as too narrow"
+            ));
+        }
+    }
+    if n < WARN_MIN_MONTHS {
+        out.push(format!(
+            "product '{product}': only {n} months of history (fewer than {WARN_MIN_MONTHS}); no seasonal pattern can be estimated and the backtest is short: check the projection against programme knowledge"
+        ));
+    }
+    out
+}
+
+/// Whether a product consumed anything in its last 12 months.
+pub fn in_use(y: &[f64]) -> bool {
+    y[y.len().saturating_sub(12)..].iter().any(|&v| v > 0.0)
+}
+
+/// Whether a projection forecasts zero in every month.
+pub fn all_zero(p: &Projection) -> bool {
+    p.forecast.point.iter().all(|&v| v <= 0.0)
+}
+
+/// A product in use must not be projected at zero for every month: the
+/// planner would order nothing. When the selected model does that, the next
+/// model by backtest score whose projection is not all zero is used, and
+/// the reason says so. (A pinned model is left as the user chose it.)
+fn avoid_zero_projection(
+    y: &[f64],
+    bt: &Backtest,
+    selection: &mut Selection,
+    projection: Result<Projection>,
+    project_with: &dyn Fn(&str) -> Result<Projection>,
+) -> Result<Projection> {
+    let zero = matches!(&projection, Ok(p) if all_zero(p));
+    if !zero || !in_use(y) {
+        return projection;
+    }
+    let mut ranked: Vec<(f64, &str)> = bt
+        .runs
+        .iter()
+        .filter(|r| r.status == RunStatus::Complete && r.model != selection.chosen)
+        .filter_map(|r| {
+            bt.scores(r)
+                .get(selection.score)
+                .map(|v| (v, r.model.as_str()))
+        })
+        .collect();
+    ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
+    for (v, name) in ranked {
+        if let Ok(p) = project_with(name) {
+            if !all_zero(&p) {
+                selection.reason = format!(
+                    "{} projected zero in every month although the product consumed in its last 12 months, so the next best model by {}, {name} ({v:.3}), is used instead; {}",
+                    selection.chosen,
+                    selection.score.name(),
+                    selection.reason
+                );
+                selection.chosen = name.to_string();
+                selection.best = name.to_string();
+                selection.chosen_scores = bt.run(name).map(|r| bt.scores(r));
+                return Ok(p);
+            }
+        }
+    }
+    projection
 }
 
 /// Runs the main job on every series in parallel. `pins` maps product to
@@ -471,6 +637,12 @@ pub struct HoldoutResult {
     pub actual: Vec<f64>,
     /// Selected projection over the hidden months.
     pub selected_forecast: Vec<f64>,
+    /// The selected projection with its calibrated ranges.
+    pub selected_ranges: Forecast,
+    /// The selected projection with the model's own ranges.
+    pub model_ranges: Option<Forecast>,
+    /// Warnings the forecast carried (see [`suspect_warnings`]).
+    pub warnings: Vec<String>,
     /// Each single candidate's projection (`None` when it did not apply).
     pub single: Vec<(String, Option<Vec<f64>>)>,
     /// MASE scale of the shortened history (seasonal-naive in-sample MAE).
@@ -517,8 +689,8 @@ pub fn holdout_check_with(
     let mut s = settings.clone();
     s.horizon = holdout;
     let r = forecast_product_with(&short, models, &s, opts);
-    let selected_forecast = r.projection.map(|p| p.forecast.point)?;
-    let single = models
+    let selected_ranges = r.projection.map(|p| p.forecast)?;
+    let mut single: Vec<(String, Option<Vec<f64>>)> = models
         .iter()
         .map(|m| {
             let f = m
@@ -529,11 +701,27 @@ pub fn holdout_check_with(
             (m.name(), f)
         })
         .collect();
+    // The fixed combination applied to every product: the mean of its
+    // members that apply.
+    let members: Vec<&Vec<f64>> = backtest::COMBINATION_MEMBERS
+        .iter()
+        .filter_map(|name| single.iter().find(|(n, _)| n == name))
+        .filter_map(|(_, f)| f.as_ref())
+        .collect();
+    let combo = (members.len() >= backtest::COMBINATION_MIN_MEMBERS).then(|| {
+        (0..holdout)
+            .map(|h| members.iter().map(|f| f[h]).sum::<f64>() / members.len() as f64)
+            .collect()
+    });
+    single.push((COMBINATION.to_string(), combo));
     Some(HoldoutResult {
         product: series.product.clone(),
         selected: r.selection.chosen,
         actual: series.values[cut..].to_vec(),
-        selected_forecast,
+        selected_forecast: selected_ranges.point.clone(),
+        selected_ranges,
+        model_ranges: r.model_ranges,
+        warnings: r.warnings,
         single,
         scale: crate::metrics::mase_scale(&short.values, crate::models::PERIOD),
     })

@@ -1,12 +1,34 @@
 //! Choosing a model per product from its backtest, with the evidence.
 //!
-//! The model with the lowest backtest score wins (MAPE by default). When
-//! more than a third of the scored actuals are zero, MAPE is undefined for
-//! too many months and WAPE is used instead, and the reason says so. Scores
-//! within `tie_margin` of the best are near-ties: the combination is
-//! preferred among them, then the simplest model (see [`complexity`]),
-//! because picking by a few backtest windows is noisy and simpler models
-//! and combinations generalise better.
+//! Each product starts from a **default**: the fixed combination of strong
+//! automatic models ([`crate::backtest::COMBINATION_MEMBERS`]) for smooth
+//! and erratic demand, the SBA method for intermittent demand. It departs
+//! from the default only when the backtest gives clear evidence that
+//! another candidate forecasts this product better:
+//!
+//! 1. the challenger's score is lower than the default's by more than
+//!    `tie_margin` (10%), **and**
+//! 2. it is better at enough of the backtest origins: a one-sided sign test
+//!    on the origin-level scores (Diebold & Mariano, JBES 13(3), 1995, §3
+//!    give the sign test as an exact small-sample test of equal accuracy)
+//!    at level [`EVIDENCE_LEVEL`].
+//!
+//! Picking the single best of twenty models on a few backtest windows is
+//! noisy: on the development benchmarks (M1 monthly, tourism monthly;
+//! see the README) choosing the lowest backtest score per product loses to
+//! applying one good method to every product, while starting from a robust
+//! combination and departing only on evidence beats every single method.
+//!
+//! The score is MASE by default: scale-free, so products of any size
+//! weigh alike, and unlike MAPE it does not reward under-forecasting
+//! (MAPE's penalty for an over-forecast is unbounded, for an
+//! under-forecast at most 100%). Intermittent demand is scored by RMSSE
+//! (M5 competition), because absolute errors favour a forecast of zero on
+//! mostly-zero months.
+//!
+//! Without a default (a short series, or a candidate set without it), the
+//! lowest score wins, and scores within `tie_margin` of it are near-ties
+//! won by the simplest model (see [`complexity`]).
 
 use crate::backtest::{Backtest, RunStatus, Scores, COMBINATION};
 use crate::error::{Error, Result};
@@ -16,20 +38,20 @@ use crate::metrics::Score;
 ///
 /// | setting | default | range |
 /// |---|---|---|
-/// | `score` | MAPE | MAPE, WAPE, MASE, RMSE |
-/// | `tie_margin` | 0.02 | 0–0.5: relative gap counted as a near-tie |
+/// | `score` | MASE | MAPE, WAPE, MASE, RMSE, RMSSE |
+/// | `tie_margin` | 0.10 | 0–0.5: relative gap a challenger must beat the default by (and, without a default, the gap counted as a near-tie) |
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct SelectSettings {
     /// Score to minimise.
     pub score: Score,
-    /// Relative gap to the best score within which models count as tied.
+    /// Relative gap by which a challenger must beat the default.
     pub tie_margin: f64,
 }
 
 impl Default for SelectSettings {
     fn default() -> Self {
         SelectSettings {
-            score: Score::Mape,
+            score: Score::Mase,
             tie_margin: 0.10,
         }
     }
@@ -48,8 +70,19 @@ impl SelectSettings {
     }
 }
 
-/// Share of zero actuals above which selection falls back to WAPE.
+/// Share of zero actuals above which selection by MAPE falls back to WAPE.
 pub const ZERO_SHARE_FOR_WAPE: f64 = 1.0 / 3.0;
+
+/// Level of the one-sided sign test a challenger must pass to replace the
+/// default: it must be better at so many origins that, were both equally
+/// accurate, so many wins would happen by chance at most this often.
+/// With 12 origins: at least 9 wins (p = 0.073).
+pub const EVIDENCE_LEVEL: f64 = 0.10;
+
+/// Default model for intermittent and lumpy demand: Croston's method with
+/// the Syntetos–Boylan approximation (IJF 21(2), 2005), which corrects
+/// Croston's upward bias and never forecasts zero for a product with demand.
+pub const INTERMITTENT_DEFAULT: &str = "croston-sba";
 
 /// Number of estimated quantities a model family has, used to break
 /// near-ties toward the simpler model (smaller is simpler).
@@ -63,6 +96,7 @@ pub fn complexity(model: &str) -> usize {
         "theta" | "ets-holt" => 3,
         "ets-damped" | "ets-auto" => 5,
         "mstl-ets" => 6,
+        "arima-auto" => 8,
         m if m.starts_with("holt-winters") => 16,
         _ => 10,
     }
@@ -73,7 +107,7 @@ pub fn complexity(model: &str) -> usize {
 pub struct Selection {
     /// Model used for the projection (the pinned one, when pinned).
     pub chosen: String,
-    /// Model the selection procedure picks (best score, near-ties broken).
+    /// Model the selection procedure picks.
     pub best: String,
     /// Whether the user pinned the model.
     pub pinned: bool,
@@ -81,9 +115,12 @@ pub struct Selection {
     pub score: Score,
     /// Scores of the chosen model (`None` when not backtested).
     pub chosen_scores: Option<Scores>,
-    /// Runner-up and its score.
+    /// The model that came second and its score: the best model other
+    /// than the chosen one (it may have scored better and still lost, for
+    /// want of clear evidence; see `reason`).
     pub runner_up: Option<(String, f64)>,
-    /// Runner-up's score above the chosen one, in percent of the chosen.
+    /// Runner-up's score above the chosen one, in percent of the chosen
+    /// (negative: the runner-up scored better but not clearly enough).
     pub margin_pct: Option<f64>,
     /// Whether the product could be backtested at all.
     pub backtested: bool,
@@ -94,20 +131,72 @@ pub struct Selection {
 fn fmt_score(score: Score, v: f64) -> String {
     match score {
         Score::Mape | Score::Wape => format!("{v:.1}%"),
-        Score::Mase => format!("{v:.3}"),
+        Score::Mase | Score::Rmsse => format!("{v:.3}"),
         Score::Rmse => format!("{v:.1}"),
     }
 }
 
-/// Chooses a model from a backtest. `pinned` names a model the user wants;
-/// `fallback` is the model to use when nothing could be backtested.
-pub fn select(
-    bt: &Backtest,
-    settings: &SelectSettings,
-    pinned: Option<&str>,
-    fallback: &str,
-) -> Selection {
-    // Zero share of the scored actuals (same months for every model).
+/// One-sided sign test: the chance of at least `wins` successes in `n`
+/// fair coin tosses.
+pub fn sign_test_p(wins: usize, n: usize) -> f64 {
+    if n == 0 {
+        return 1.0;
+    }
+    // Σ_{k ≥ wins} C(n, k) / 2^n, by a running binomial coefficient.
+    let mut c = 1.0f64;
+    let mut tail = 0.0;
+    for k in 0..=n {
+        if k >= wins {
+            tail += c;
+        }
+        c = c * (n - k) as f64 / (k + 1) as f64;
+    }
+    tail / 2f64.powi(n as i32)
+}
+
+/// Origins at which `a` scores better (lower) than `b`, and the number of
+/// origins where both have a score.
+fn origin_wins(bt: &Backtest, a: &str, b: &str, score: Score) -> (usize, usize) {
+    let (Some(ra), Some(rb)) = (bt.run(a), bt.run(b)) else {
+        return (0, 0);
+    };
+    let (pa, pb) = (bt.points(ra), bt.points(rb));
+    let (mut wins, mut n) = (0, 0);
+    for &o in &bt.origins {
+        let sa = Scores::of(
+            &pa.iter()
+                .copied()
+                .filter(|p| p.origin == o)
+                .collect::<Vec<_>>(),
+        );
+        let sb = Scores::of(
+            &pb.iter()
+                .copied()
+                .filter(|p| p.origin == o)
+                .collect::<Vec<_>>(),
+        );
+        let pick = |s: &Scores| s.get(score).or(s.wape);
+        if let (Some(x), Some(y)) = (pick(&sa), pick(&sb)) {
+            n += 1;
+            wins += usize::from(x < y);
+        }
+    }
+    (wins, n)
+}
+
+/// The score a product is selected by: `settings.score`, except RMSSE for
+/// intermittent demand and WAPE instead of MAPE when many months are zero.
+/// Returns the score and a note for the reason.
+fn score_for(bt: &Backtest, settings: &SelectSettings, intermittent: bool) -> (Score, String) {
+    if intermittent && settings.score != Score::Rmsse {
+        return (
+            Score::Rmsse,
+            format!(
+                "; scored by RMSSE instead of {} because demand is intermittent (absolute errors favour forecasting zero; M5 competition)",
+                settings.score.name()
+            ),
+        );
+    }
     let scored_targets: Vec<f64> = bt
         .origins
         .iter()
@@ -121,16 +210,34 @@ pub fn select(
     } else {
         zeros as f64 / scored_targets.len() as f64
     };
-    let mut score = settings.score;
-    let mut note = String::new();
-    if score == Score::Mape && zero_share > ZERO_SHARE_FOR_WAPE {
-        score = Score::Wape;
-        note = format!(
-            "; WAPE used instead of MAPE because {:.0}% of the backtest months are zero",
-            zero_share * 100.0
+    if settings.score == Score::Mape && zero_share > ZERO_SHARE_FOR_WAPE {
+        return (
+            Score::Wape,
+            format!(
+                "; WAPE used instead of MAPE because {:.0}% of the backtest months are zero",
+                zero_share * 100.0
+            ),
         );
     }
-    let mut ranked: Vec<(String, f64, Scores)> = bt
+    (settings.score, String::new())
+}
+
+type Ranked = (String, f64, Scores);
+
+/// Chooses a model from a backtest. `default` names the model to keep
+/// unless another is clearly better (see the module docs); `pinned` names
+/// a model the user wants; `fallback` is the model to use when nothing
+/// could be backtested; `intermittent` switches the score to RMSSE.
+pub fn select(
+    bt: &Backtest,
+    settings: &SelectSettings,
+    default: Option<&str>,
+    pinned: Option<&str>,
+    fallback: &str,
+    intermittent: bool,
+) -> Selection {
+    let (score, note) = score_for(bt, settings, intermittent);
+    let mut ranked: Vec<Ranked> = bt
         .runs
         .iter()
         .filter(|r| r.status == RunStatus::Complete)
@@ -140,7 +247,7 @@ pub fn select(
         })
         .collect();
     ranked.sort_by(|a, b| a.1.total_cmp(&b.1));
-    let Some(best) = ranked.first().cloned() else {
+    if ranked.is_empty() {
         let chosen = pinned.unwrap_or(fallback).to_string();
         return Selection {
             chosen: chosen.clone(),
@@ -156,46 +263,16 @@ pub fn select(
                 bt.horizon
             ),
         };
+    }
+    let default_run = default.and_then(|d| ranked.iter().find(|r| r.0 == d).cloned());
+    let (pick, mut reason) = match default_run {
+        Some(d) => against_default(bt, &ranked, &d, settings, score),
+        None => lowest(bt, &ranked, settings, score),
     };
-    let limit = best.1 * (1.0 + settings.tie_margin) + 1e-12;
-    let tied: Vec<&(String, f64, Scores)> = ranked.iter().filter(|r| r.1 <= limit).collect();
-    let pick = tied
-        .iter()
-        .find(|r| r.0 == COMBINATION)
-        .or_else(|| tied.iter().min_by_key(|r| complexity(&r.0)))
-        .copied()
-        .unwrap_or(&best);
     let runner = ranked
         .iter()
         .find(|r| r.0 != pick.0)
         .map(|r| (r.0.clone(), r.1));
-    let n_points = pick.2.n;
-    let mut reason = if pick.0 == best.0 {
-        format!(
-            "lowest {} over {} origins × {} months ({n_points} forecasts): {}",
-            score.name(),
-            bt.origins.len(),
-            bt.horizon,
-            fmt_score(score, pick.1)
-        )
-    } else {
-        format!(
-            "{} {} is within {:.0}% of the best ({} {}); the {} is preferred in a near-tie",
-            score.name(),
-            fmt_score(score, pick.1),
-            settings.tie_margin * 100.0,
-            best.0,
-            fmt_score(score, best.1),
-            if pick.0 == COMBINATION {
-                "combination"
-            } else {
-                "simpler model"
-            }
-        )
-    };
-    if let Some((name, v)) = &runner {
-        reason.push_str(&format!("; runner-up {name} {}", fmt_score(score, *v)));
-    }
     if let Some(b) = pick.2.bias {
         reason.push_str(&format!(
             "; bias {b:+.1}% ({})",
@@ -241,11 +318,126 @@ pub fn select(
     sel
 }
 
+/// Keeps the default unless the best other model is clearly better.
+fn against_default(
+    bt: &Backtest,
+    ranked: &[Ranked],
+    d: &Ranked,
+    settings: &SelectSettings,
+    score: Score,
+) -> (Ranked, String) {
+    let n_points = d.2.n;
+    let what = if d.0 == COMBINATION {
+        "the default, a fixed combination"
+    } else {
+        "the default for intermittent demand"
+    };
+    let Some(c) = ranked.iter().find(|r| r.0 != d.0) else {
+        return (
+            d.clone(),
+            format!(
+                "{what}; no other model completed the backtest; {} {} over {} origins × {} months ({n_points} forecasts)",
+                score.name(),
+                fmt_score(score, d.1),
+                bt.origins.len(),
+                bt.horizon
+            ),
+        );
+    };
+    let gain = if d.1 > 0.0 { 1.0 - c.1 / d.1 } else { 0.0 };
+    let (wins, n) = origin_wins(bt, &c.0, &d.0, score);
+    let p = sign_test_p(wins, n);
+    let head = format!(
+        "{} {} over {} origins × {} months ({n_points} forecasts)",
+        score.name(),
+        fmt_score(score, d.1),
+        bt.origins.len(),
+        bt.horizon
+    );
+    if gain > settings.tie_margin && p <= EVIDENCE_LEVEL {
+        let reason = format!(
+            "clearly better than {what} ({} {}): {} {} is {:.0}% lower and better at {wins} of {n} origins (sign test p = {p:.3})",
+            d.0,
+            fmt_score(score, d.1),
+            score.name(),
+            fmt_score(score, c.1),
+            gain * 100.0,
+        );
+        return (c.clone(), reason);
+    }
+    let why = if gain <= 0.0 {
+        format!(
+            "the best other model, {} ({}), is not better",
+            c.0,
+            fmt_score(score, c.1)
+        )
+    } else if gain <= settings.tie_margin {
+        format!(
+            "the best other model, {} ({}), is only {:.1}% lower, within the {:.0}% margin",
+            c.0,
+            fmt_score(score, c.1),
+            gain * 100.0,
+            settings.tie_margin * 100.0
+        )
+    } else {
+        format!(
+            "the best other model, {} ({}), is {:.0}% lower but better at only {wins} of {n} origins (sign test p = {p:.2}, above {EVIDENCE_LEVEL}), not clear evidence",
+            c.0,
+            fmt_score(score, c.1),
+            gain * 100.0
+        )
+    };
+    (d.clone(), format!("{what}: {head}; kept because {why}"))
+}
+
+/// Lowest score, near-ties to the simplest model (no default available).
+fn lowest(
+    bt: &Backtest,
+    ranked: &[Ranked],
+    settings: &SelectSettings,
+    score: Score,
+) -> (Ranked, String) {
+    let best = &ranked[0];
+    let limit = best.1 * (1.0 + settings.tie_margin) + 1e-12;
+    let pick = ranked
+        .iter()
+        .filter(|r| r.1 <= limit)
+        .min_by_key(|r| complexity(&r.0))
+        .unwrap_or(best);
+    let reason = if pick.0 == best.0 {
+        format!(
+            "lowest {} over {} origins × {} months ({} forecasts): {}",
+            score.name(),
+            bt.origins.len(),
+            bt.horizon,
+            pick.2.n,
+            fmt_score(score, pick.1)
+        )
+    } else {
+        format!(
+            "{} {} is within {:.0}% of the best ({} {}); the simpler model is preferred in a near-tie",
+            score.name(),
+            fmt_score(score, pick.1),
+            settings.tie_margin * 100.0,
+            best.0,
+            fmt_score(score, best.1),
+        )
+    };
+    (pick.clone(), reason)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::backtest::{BacktestSettings, ModelRun};
     use crate::models::Forecast;
+
+    fn mape() -> SelectSettings {
+        SelectSettings {
+            score: Score::Mape,
+            ..SelectSettings::default()
+        }
+    }
 
     fn flat(v: f64, h: usize) -> Forecast {
         Forecast::normal(vec![v; h], &vec![1.0; h], &crate::backtest::LEVELS).unwrap()
@@ -276,7 +468,7 @@ mod tests {
     #[test]
     fn lowest_score_wins_with_runner_up_and_margin() {
         let bt = bt_with(&[("naive", 80.0), ("theta", 95.0), ("ets-auto", 110.0)]);
-        let s = select(&bt, &SelectSettings::default(), None, "naive");
+        let s = select(&bt, &mape(), None, None, "naive", false);
         assert_eq!(s.chosen, "theta"); // MAPE 5% vs 10% and 20%
         assert_eq!(s.runner_up.as_ref().unwrap().0, "ets-auto");
         assert!((s.margin_pct.unwrap() - 100.0).abs() < 1e-9);
@@ -292,17 +484,19 @@ mod tests {
     fn near_tie_prefers_simpler() {
         let bt = bt_with(&[("holt-winters-additive", 99.5), ("naive", 99.3)]);
         // MAPE 0.5% vs 0.7%: not a near-tie at 2% relative...
-        let s = select(&bt, &SelectSettings::default(), None, "naive");
+        let s = select(&bt, &mape(), None, None, "naive", false);
         assert_eq!(s.chosen, "holt-winters-additive");
         // ...but it is with a generous margin.
         let s = select(
             &bt,
             &SelectSettings {
                 tie_margin: 0.5,
-                ..Default::default()
+                score: Score::Mape,
             },
             None,
+            None,
             "naive",
+            false,
         );
         assert_eq!(s.chosen, "naive");
         assert!(
@@ -315,7 +509,7 @@ mod tests {
     #[test]
     fn pinned_model_reports_both() {
         let bt = bt_with(&[("naive", 80.0), ("theta", 95.0)]);
-        let s = select(&bt, &SelectSettings::default(), Some("naive"), "naive");
+        let s = select(&bt, &mape(), None, Some("naive"), "naive", false);
         assert_eq!(s.chosen, "naive");
         assert_eq!(s.best, "theta");
         assert!(s.pinned);
@@ -335,7 +529,7 @@ mod tests {
                 bt.actual[t] = 0.0;
             }
         }
-        let s = select(&bt, &SelectSettings::default(), None, "naive");
+        let s = select(&bt, &mape(), None, None, "naive", false);
         assert_eq!(s.score, Score::Wape);
         assert!(
             s.reason.contains("WAPE used instead of MAPE"),
@@ -353,9 +547,123 @@ mod tests {
             scorable: vec![true; 5],
             runs: vec![],
         };
-        let s = select(&bt, &SelectSettings::default(), None, "moving-average-3");
+        let s = select(&bt, &mape(), None, None, "moving-average-3", false);
         assert!(!s.backtested);
         assert_eq!(s.chosen, "moving-average-3");
         assert!(s.reason.starts_with("not backtested"));
+    }
+
+    /// A backtest of 12 origins × 1 month on a series cycling 100, 110,
+    /// ..., 140 (so the MASE scale is not zero): each model forecasts
+    /// `f(origin)`.
+    fn bt_origins(models: &[(&str, &dyn Fn(usize) -> f64)]) -> Backtest {
+        let actual: Vec<f64> = (0..40).map(truth_at).collect();
+        let origins: Vec<usize> = (27..39).collect();
+        let runs = models
+            .iter()
+            .map(|(name, f)| ModelRun {
+                model: name.to_string(),
+                status: RunStatus::Complete,
+                forecasts: origins.iter().map(|&o| Some(flat(f(o), 1))).collect(),
+                members: Vec::new(),
+            })
+            .collect();
+        Backtest {
+            origins,
+            horizon: 1,
+            actual,
+            scorable: vec![true; 40],
+            runs,
+        }
+    }
+
+    fn truth_at(t: usize) -> f64 {
+        100.0 + 10.0 * (t % 5) as f64
+    }
+
+    /// The actual one month after origin `o`.
+    fn truth(o: usize) -> f64 {
+        truth_at(o + 1)
+    }
+
+    #[test]
+    fn sign_test_tail_probabilities() {
+        // Binomial(12, 1/2) upper tails (textbook arithmetic):
+        // P(W ≥ 9) = (220 + 66 + 12 + 1) / 4096, P(W ≥ 10) = 79 / 4096.
+        assert!((sign_test_p(9, 12) - 299.0 / 4096.0).abs() < 1e-12);
+        assert!((sign_test_p(10, 12) - 79.0 / 4096.0).abs() < 1e-12);
+        assert_eq!(sign_test_p(0, 12), 1.0);
+        assert_eq!(sign_test_p(0, 0), 1.0);
+    }
+
+    #[test]
+    fn the_default_is_kept_without_clear_evidence() {
+        // The challenger is much better at 6 origins and worse at the other
+        // 6: lower MASE overall, but only 6 of 12 wins (p = 0.61).
+        let good = |o: usize| truth(o) + 1.0;
+        let mixed = |o: usize| if o % 4 < 2 { truth(o) } else { truth(o) + 1.5 };
+        let bt = bt_origins(&[(COMBINATION, &good), ("theta", &mixed)]);
+        let combo = bt.scores(bt.run(COMBINATION).unwrap()).mase.unwrap();
+        let theta = bt.scores(bt.run("theta").unwrap()).mase.unwrap();
+        assert!(theta < combo * 0.9, "{theta} {combo}");
+        let s = select(
+            &bt,
+            &SelectSettings::default(),
+            Some(COMBINATION),
+            None,
+            "naive",
+            false,
+        );
+        assert_eq!(s.chosen, COMBINATION);
+        assert_eq!(s.runner_up.as_ref().unwrap().0, "theta");
+        assert!(s.margin_pct.unwrap() < 0.0, "the runner-up scored better");
+        assert!(s.reason.contains("6 of 12 origins"), "{}", s.reason);
+        assert!(s.reason.contains("kept because"), "{}", s.reason);
+    }
+
+    #[test]
+    fn a_clearly_better_model_replaces_the_default() {
+        let off = |o: usize| truth(o) + 5.0;
+        let close = |o: usize| truth(o) + 1.0;
+        let bt = bt_origins(&[(COMBINATION, &off), ("theta", &close)]);
+        let s = select(
+            &bt,
+            &SelectSettings::default(),
+            Some(COMBINATION),
+            None,
+            "naive",
+            false,
+        );
+        assert_eq!(s.chosen, "theta");
+        assert!(s.reason.contains("12 of 12 origins"), "{}", s.reason);
+        assert_eq!(s.runner_up.as_ref().unwrap().0, COMBINATION);
+        // Better at every origin but within the margin: the default stays.
+        let near = |o: usize| truth(o) + 4.8;
+        let bt = bt_origins(&[(COMBINATION, &off), ("theta", &near)]);
+        let s = select(
+            &bt,
+            &SelectSettings::default(),
+            Some(COMBINATION),
+            None,
+            "naive",
+            false,
+        );
+        assert_eq!(s.chosen, COMBINATION);
+        assert!(s.reason.contains("within the 10% margin"), "{}", s.reason);
+    }
+
+    #[test]
+    fn intermittent_demand_is_scored_by_rmsse() {
+        let bt = bt_origins(&[("croston-sba", &|_| 110.0), ("naive", &|o| truth(o))]);
+        let s = select(
+            &bt,
+            &SelectSettings::default(),
+            Some("croston-sba"),
+            None,
+            "naive",
+            true,
+        );
+        assert_eq!(s.score, Score::Rmsse);
+        assert!(s.reason.contains("RMSSE instead of MASE"), "{}", s.reason);
     }
 }

@@ -7,7 +7,6 @@
 //! tests/reference/generate.py from statsforecast's rows.
 
 use provisio::backtest::{self, BacktestSettings};
-use provisio::metrics::Score;
 use serde_json::Value;
 
 fn load(name: &str) -> Value {
@@ -49,7 +48,7 @@ fn cross_validation_matches_statsforecast() {
     }
     .check()
     .unwrap();
-    let bt = backtest::run(&y, &vec![true; y.len()], &models, &settings, Score::Mape);
+    let bt = backtest::run(&y, &vec![true; y.len()], &models, &settings);
     // Cutoffs 1959-01..1959-12 are positions 120..=131 (1949-01 = 0).
     assert_eq!(bt.origins, (120..=131).collect::<Vec<_>>());
     let rows = cv["rows"].as_array().unwrap();

@@ -66,13 +66,7 @@ fn naive_backtest_scores_by_hand() {
     let y: Vec<f64> = (1..=6).map(|v| v as f64 * 10.0).collect(); // 10..60
     let spy = Spy::default();
     let models: Vec<Box<dyn AnyModel>> = vec![Box::new(spy.clone())];
-    let bt = run(
-        &y,
-        &[true; 6],
-        &models,
-        &checked(2, 2),
-        metrics::Score::Mape,
-    );
+    let bt = run(&y, &[true; 6], &models, &checked(2, 2));
     assert_eq!(bt.origins, vec![2, 3]);
     // Origin 2 (train 10,20,30): forecasts 30,30 for 40,50; origin 3: 40,40 for 50,60.
     let pts = bt.points(&bt.runs[0]);
@@ -95,38 +89,57 @@ fn unscorable_months_are_left_out() {
     let mut scorable = vec![true; 5];
     scorable[4] = false;
     let models: Vec<Box<dyn AnyModel>> = vec![Box::new(Spy::default())];
-    let bt = run(&y, &scorable, &models, &checked(2, 1), metrics::Score::Mape);
+    let bt = run(&y, &scorable, &models, &checked(2, 1));
     assert_eq!(bt.scores(&bt.runs[0]).n, 1);
 }
 
-#[test]
-fn combination_of_one_model_equals_it() {
-    let y: Vec<f64> = (0..30).map(|t| 100.0 + (t % 7) as f64).collect();
-    let models: Vec<Box<dyn AnyModel>> = vec![Box::new(Spy::default())];
-    let bt = run(
-        &y,
-        &[true; 30],
-        &models,
-        &checked(6, 3),
-        metrics::Score::Mape,
-    );
-    let combo = bt.run(COMBINATION).unwrap();
-    assert_eq!(
-        combo.status,
-        RunStatus::Complete,
-        "{:?} {:?}",
-        combo.members,
-        combo
-            .forecasts
-            .iter()
-            .map(Option::is_some)
-            .collect::<Vec<_>>()
-    );
-    // After the first origin the only complete model is the sole member.
-    for k in 1..bt.origins.len() {
-        assert_eq!(combo.members[k], vec!["spy".to_string()]);
-        assert_eq!(combo.forecasts[k], bt.runs[0].forecasts[k]);
+/// A named model forecasting the last value plus a constant.
+struct Shifted(&'static str, f64);
+
+impl Model for Shifted {
+    type Fitted = SpyFit;
+    fn name(&self) -> String {
+        self.0.into()
     }
+    fn description(&self) -> String {
+        "test model".into()
+    }
+    fn needs(&self) -> Needs {
+        Needs {
+            min_months: 1,
+            positive: false,
+            seasonal: false,
+        }
+    }
+    fn fit(&self, y: &[f64]) -> Result<SpyFit> {
+        Ok(SpyFit(y.last().copied().unwrap_or(0.0) + self.1))
+    }
+}
+
+#[test]
+fn combination_is_the_mean_of_its_fixed_members() {
+    let y: Vec<f64> = (0..30).map(|t| 100.0 + (t % 7) as f64).collect();
+    let models: Vec<Box<dyn AnyModel>> = vec![
+        Box::new(Shifted("ets-auto", 0.0)),
+        Box::new(Shifted("naive-ish", 50.0)),
+        Box::new(Shifted("theta", 10.0)),
+    ];
+    let bt = run(&y, &[true; 30], &models, &checked(6, 3));
+    let combo = bt.run(COMBINATION).unwrap();
+    assert_eq!(combo.status, RunStatus::Complete);
+    for (k, &o) in bt.origins.iter().enumerate() {
+        // Members fixed in advance, whatever their backtest scores.
+        assert_eq!(combo.members[k], vec!["ets-auto", "theta"]);
+        let f = combo.forecasts[k].as_ref().unwrap();
+        assert!(f.point.iter().all(|&v| (v - (y[o] + 5.0)).abs() < 1e-12));
+    }
+    // One member alone is not a combination.
+    let one: Vec<Box<dyn AnyModel>> = vec![Box::new(Shifted("theta", 0.0))];
+    let bt = run(&y, &[true; 30], &one, &checked(6, 3));
+    assert!(matches!(
+        bt.run(COMBINATION).unwrap().status,
+        RunStatus::NotApplicable(_)
+    ));
 }
 
 #[test]
@@ -152,7 +165,7 @@ proptest! {
     ) {
         let spy = Spy::default();
         let models: Vec<Box<dyn AnyModel>> = vec![Box::new(spy.clone())];
-        let bt = run(&y, &vec![true; y.len()], &models, &checked(k, h), metrics::Score::Mape);
+        let bt = run(&y, &vec![true; y.len()], &models, &checked(k, h));
         let seen = spy.seen.lock().unwrap().clone();
         prop_assert_eq!(seen.len(), bt.origins.len());
         for (window, &o) in seen.iter().zip(&bt.origins) {
@@ -163,7 +176,7 @@ proptest! {
         if let Some(&o) = bt.origins.first() {
             let mut y2 = y.clone();
             for v in &mut y2[o + 1..] { *v += 500.0; }
-            let bt2 = run(&y2, &vec![true; y.len()], &models, &checked(k, h), metrics::Score::Mape);
+            let bt2 = run(&y2, &vec![true; y.len()], &models, &checked(k, h));
             prop_assert_eq!(&bt.runs[0].forecasts[0], &bt2.runs[0].forecasts[0]);
         }
     }
@@ -192,6 +205,7 @@ fn one_pass_scores_equal_the_metric_functions() {
             lower95: f - 9.0,
             upper95: f + 9.0,
             scale: Some(3.0 + (t % 3) as f64),
+            scale_sq: Some(4.0),
             scored: t % 9 != 4,
         });
     }
@@ -215,4 +229,6 @@ fn one_pass_scores_equal_the_metric_functions() {
         .sum::<f64>()
         / used.len() as f64;
     assert!((sc.mase.unwrap() - m).abs() < 1e-12);
+    // With one scale for every point, RMSSE is the metrics function's value.
+    assert!((sc.rmsse.unwrap() - metrics::rmsse(&a, &f, 4.0).unwrap()).abs() < 1e-12);
 }

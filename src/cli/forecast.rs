@@ -25,6 +25,7 @@ enum ScoreArg {
     Wape,
     Mase,
     Rmse,
+    Rmsse,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -45,10 +46,10 @@ pub struct EvalArgs {
     /// Score models also on months that are mostly imputed (default: leave them out).
     #[arg(long)]
     score_imputed: bool,
-    /// Score to choose models by (falls back to WAPE when over a third of months are zero).
-    #[arg(long, value_enum, default_value_t = ScoreArg::Mape)]
+    /// Score to choose models by (intermittent demand is always scored by RMSSE; MAPE falls back to WAPE when over a third of months are zero).
+    #[arg(long, value_enum, default_value_t = ScoreArg::Mase)]
     select_by: ScoreArg,
-    /// Relative gap to the best score counted as a near-tie (then the simpler model or the combination wins).
+    /// Relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.10, value_name = "SHARE")]
     tie_margin: f64,
     /// Backtest forecasts written to backtest.csv: `chosen` (chosen model, runner-up, combination) or `all` models.
@@ -56,7 +57,7 @@ pub struct EvalArgs {
     backtest_detail: DetailArg,
     /// CSV of pinned models: columns product, model.
     #[arg(long, value_name = "FILE")]
-    pin: Option<PathBuf>,
+    pub(super) pin: Option<PathBuf>,
 }
 
 #[derive(Args, Debug)]
@@ -248,7 +249,7 @@ fn path_for_config(p: &Path, dir: &Path) -> String {
 
 /// Applies a configuration to the options shared by every evaluating
 /// command (reading, cleaning, backtest, selection, per-product cleaning).
-fn apply_shared(
+pub(super) fn apply_shared(
     c: &LoadedConfig,
     given: &Given,
     read: &mut ReadArgs,
@@ -322,7 +323,7 @@ pub fn check_config_names() {
     assert_eq!(names(details), provisio::config::DETAILS);
 }
 
-fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
+pub(super) fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
     ForecastSettings {
         backtest: BacktestSettings {
             origins: eval.origins,
@@ -335,6 +336,7 @@ fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
                 ScoreArg::Wape => Score::Wape,
                 ScoreArg::Mase => Score::Mase,
                 ScoreArg::Rmse => Score::Rmse,
+                ScoreArg::Rmsse => Score::Rmsse,
             },
             tie_margin: eval.tie_margin,
         },
@@ -346,7 +348,7 @@ fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
     }
 }
 
-fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
+pub(super) fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
     let mut r = csv::ReaderBuilder::new()
         .flexible(true)
         .from_path(path)
@@ -403,7 +405,7 @@ type EvalRun = (
 /// Per-product options: the configuration's `[products]` tables, then the
 /// pin file (which wins over a product's `model` only when given on the
 /// command line).
-fn product_options(
+pub(super) fn product_options(
     cfg: Option<&LoadedConfig>,
     pins: HashMap<String, String>,
     pin_on_cli: bool,
@@ -880,259 +882,5 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
             "seconds": secs,
         })
     });
-    Ok(())
-}
-
-#[derive(Args, Debug)]
-pub struct EvaluateArgs {
-    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
-    data: PathBuf,
-    /// Run configuration file (TOML); its input, cleaning, backtest and selection settings apply, options given here override it.
-    #[arg(long, value_name = "FILE")]
-    config: Option<PathBuf>,
-    /// Months hidden at the end of each series and forecast out of sample.
-    #[arg(long, default_value_t = 12, value_name = "MONTHS")]
-    holdout: usize,
-    /// Also write the comparison as CSV.
-    #[arg(long, value_name = "FILE")]
-    csv: Option<PathBuf>,
-    #[command(flatten)]
-    eval: EvalArgs,
-    #[command(flatten)]
-    read: ReadArgs,
-    #[command(flatten)]
-    clean: CleanArgs,
-}
-
-/// Accuracy of one method across products on the hidden months.
-struct Tally {
-    name: String,
-    products: usize,
-    mape_sum: f64,
-    mape_n: usize,
-    abs_err: f64,
-    actual: f64,
-    signed: f64,
-    mapes: Vec<f64>,
-    mase_sum: f64,
-    mase_n: usize,
-}
-
-impl Tally {
-    fn new(name: &str) -> Self {
-        Tally {
-            name: name.to_string(),
-            products: 0,
-            mape_sum: 0.0,
-            mape_n: 0,
-            abs_err: 0.0,
-            actual: 0.0,
-            signed: 0.0,
-            mapes: Vec::new(),
-            mase_sum: 0.0,
-            mase_n: 0,
-        }
-    }
-    /// Adds one product: hidden actuals, forecasts, and the MASE scale of
-    /// its training months.
-    fn add(&mut self, a: &[f64], f: &[f64], scale: Option<f64>) {
-        self.products += 1;
-        if let (Some(m), _) = provisio::metrics::mape(a, f) {
-            self.mape_sum += m;
-            self.mape_n += 1;
-            self.mapes.push(m);
-        }
-        if let Some(s) = scale {
-            let mae =
-                a.iter().zip(f).map(|(x, y)| (y - x).abs()).sum::<f64>() / a.len().max(1) as f64;
-            self.mase_sum += mae / s;
-            self.mase_n += 1;
-        }
-        for (x, y) in a.iter().zip(f) {
-            self.abs_err += (y - x).abs();
-            self.signed += y - x;
-            self.actual += x;
-        }
-    }
-    fn mape(&self) -> Option<f64> {
-        (self.mape_n > 0).then(|| self.mape_sum / self.mape_n as f64)
-    }
-    fn median_mape(&self) -> Option<f64> {
-        let mut v = self.mapes.clone();
-        v.sort_by(f64::total_cmp);
-        let n = v.len();
-        (n > 0).then(|| {
-            if n % 2 == 1 {
-                v[n / 2]
-            } else {
-                0.5 * (v[n / 2 - 1] + v[n / 2])
-            }
-        })
-    }
-    fn mase(&self) -> Option<f64> {
-        (self.mase_n > 0).then(|| self.mase_sum / self.mase_n as f64)
-    }
-    fn wape(&self) -> Option<f64> {
-        (self.actual > 0.0).then(|| 100.0 * self.abs_err / self.actual)
-    }
-    fn bias(&self) -> Option<f64> {
-        (self.actual > 0.0).then(|| 100.0 * self.signed / self.actual)
-    }
-}
-
-pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
-    let config = LoadedConfig::load_opt(a.config.as_ref())?;
-    if let Some(c) = &config {
-        apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
-    }
-    if a.holdout == 0 || a.holdout > provisio::project::MAX_HORIZON {
-        anyhow::bail!(
-            "--holdout must be 1-{}, got {}",
-            provisio::project::MAX_HORIZON,
-            a.holdout
-        );
-    }
-    let fs = settings(&a.eval, a.holdout);
-    let checked = fs.check()?;
-    let (ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
-    let t0 = Instant::now();
-    let pins = match &a.eval.pin {
-        Some(p) => read_pins(p)?,
-        None => HashMap::new(),
-    };
-    let options = product_options(config.as_ref(), pins, given.cli("pin"));
-    let results =
-        provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
-    print_accounting(&ds, &cleaned, 5);
-    if results.is_empty() {
-        anyhow::bail!(
-            "no product is longer than {} months (holdout + 24), so none can be evaluated",
-            a.holdout + 24
-        );
-    }
-    let mut selected = Tally::new("selected per product");
-    let mut singles: Vec<Tally> = results[0]
-        .single
-        .iter()
-        .map(|(n, _)| Tally::new(n))
-        .collect();
-    for r in &results {
-        selected.add(&r.actual, &r.selected_forecast, r.scale);
-        for (t, (_, f)) in singles.iter_mut().zip(&r.single) {
-            if let Some(f) = f {
-                t.add(&r.actual, f, r.scale);
-            }
-        }
-    }
-    let n = results.len();
-    let mut all: Vec<&Tally> = singles.iter().filter(|t| t.products == n).collect();
-    all.sort_by(|x, y| {
-        x.mape()
-            .unwrap_or(f64::MAX)
-            .total_cmp(&y.mape().unwrap_or(f64::MAX))
-    });
-    let fmt = |v: Option<f64>| v.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into());
-    let fmt3 = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_else(|| "-".into());
-    say!(
-        "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
-        a.holdout
-    );
-    say!(
-        "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
-        "method",
-        "products",
-        "mean MAPE",
-        "median MAPE",
-        "mean MASE",
-        "WAPE",
-        "bias"
-    );
-    let mut rows = vec![&selected];
-    rows.extend(all.iter().copied());
-    for t in &rows {
-        say!(
-            "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
-            t.name,
-            t.products,
-            fmt(t.mape()),
-            fmt(t.median_mape()),
-            fmt3(t.mase()),
-            fmt(t.wape()),
-            fmt(t.bias())
-        );
-    }
-    if let Some(best) = all.first() {
-        say!(
-            "best single model applied to every product: {} (mean MAPE {}); selection: {}",
-            best.name,
-            fmt(best.mape()),
-            fmt(selected.mape())
-        );
-    }
-    let best_mase = all
-        .iter()
-        .filter_map(|t| t.mase().map(|m| (m, t)))
-        .min_by(|x, y| x.0.total_cmp(&y.0));
-    if let Some((m, t)) = best_mase {
-        say!(
-            "best single model by mean MASE: {} ({}); selection: {}",
-            t.name,
-            fmt3(Some(m)),
-            fmt3(selected.mase())
-        );
-    }
-    say!(
-        "(models that did not apply to every product are left out of this table; {:.1} s)",
-        t0.elapsed().as_secs_f64()
-    );
-    super::json_summary(|| {
-        let row = |t: &Tally| {
-            serde_json::json!({
-                "method": t.name,
-                "products": t.products,
-                "mean_mape_pct": t.mape(),
-                "median_mape_pct": t.median_mape(),
-                "mean_mase": t.mase(),
-                "wape_pct": t.wape(),
-                "bias_pct": t.bias(),
-            })
-        };
-        serde_json::json!({
-            "command": "evaluate",
-            "input": ds.source,
-            "holdout": a.holdout,
-            "products": n,
-            "methods": rows.iter().map(|t| row(t)).collect::<Vec<_>>(),
-        })
-    });
-    if let Some(path) = &a.csv {
-        output::write_atomic(path, |w| {
-            let mut c = csv::Writer::from_writer(w);
-            let e = std::io::Error::other;
-            c.write_record([
-                "method",
-                "products",
-                "mean_mape_pct",
-                "median_mape_pct",
-                "mean_mase",
-                "wape_pct",
-                "bias_pct",
-            ])
-            .map_err(e)?;
-            for t in std::iter::once(&selected).chain(singles.iter()) {
-                c.write_record([
-                    t.name.clone(),
-                    t.products.to_string(),
-                    fmt(t.mape()),
-                    fmt(t.median_mape()),
-                    fmt3(t.mase()),
-                    fmt(t.wape()),
-                    fmt(t.bias()),
-                ])
-                .map_err(e)?;
-            }
-            c.flush()
-        })?;
-    }
     Ok(())
 }

@@ -3,6 +3,7 @@
 mod clean;
 mod crosscheck;
 mod docs;
+mod evaluate;
 mod forecast;
 mod generate;
 mod inspect;
@@ -153,7 +154,7 @@ enum Command {
     #[command(
         after_help = "Example:\n  provisio evaluate datasets/demo/consumption.csv --holdout 12"
     )]
-    Evaluate(forecast::EvaluateArgs),
+    Evaluate(evaluate::EvaluateArgs),
     /// Profile the data quality of each product: gaps, stockouts, reporting, outliers, and a verdict.
     #[command(
         after_help = "Example:\n  provisio inspect datasets/demo/consumption.csv --csv quality.csv"
@@ -437,7 +438,7 @@ pub fn run() -> i32 {
     let result = match cli.command {
         Command::Forecast(a) => forecast::run_forecast(a, &given),
         Command::Backtest(a) => forecast::run_backtest(a, &given),
-        Command::Evaluate(a) => forecast::run_evaluate(a, &given),
+        Command::Evaluate(a) => evaluate::run_evaluate(a, &given),
         Command::Inspect(a) => inspect::run(a, &given),
         Command::Clean(a) => clean::run(a, &given),
         Command::Report(a) => report::run(a),

@@ -1,0 +1,457 @@
+//! `provisio evaluate DATA --holdout H`: the out-of-sample check of the
+//! whole procedure. The last H months of every series are hidden; cleaning,
+//! backtest, selection and projection run on the rest; the selected
+//! projection — and every single candidate, and the fixed combination,
+//! applied to every product — are scored on the hidden months, which no
+//! step saw. Also scores the ranges (calibrated and the models' own) and
+//! whether products that carried a warning were in fact forecast worse.
+
+use std::collections::HashMap;
+use std::path::PathBuf;
+use std::time::Instant;
+
+use clap::Args;
+
+use super::forecast::{apply_shared, product_options, read_pins, settings, EvalArgs, LoadedConfig};
+use super::{print_accounting, say, CleanArgs, Given, ReadArgs};
+use provisio::output;
+
+#[derive(Args, Debug)]
+pub struct EvaluateArgs {
+    /// Input data: a CSV or a workbook (.xlsx, .xlsm, .xls, .ods), long format.
+    data: PathBuf,
+    /// Run configuration file (TOML); its input, cleaning, backtest and selection settings apply, options given here override it.
+    #[arg(long, value_name = "FILE")]
+    config: Option<PathBuf>,
+    /// Months hidden at the end of each series and forecast out of sample.
+    #[arg(long, default_value_t = 12, value_name = "MONTHS")]
+    holdout: usize,
+    /// Also write the comparison as CSV.
+    #[arg(long, value_name = "FILE")]
+    csv: Option<PathBuf>,
+    #[command(flatten)]
+    eval: EvalArgs,
+    #[command(flatten)]
+    read: ReadArgs,
+    #[command(flatten)]
+    clean: CleanArgs,
+}
+
+/// Accuracy of one method across products on the hidden months.
+struct Tally {
+    name: String,
+    products: usize,
+    mape_sum: f64,
+    mape_n: usize,
+    abs_err: f64,
+    actual: f64,
+    signed: f64,
+    mapes: Vec<f64>,
+    mase_sum: f64,
+    mase_n: usize,
+}
+
+impl Tally {
+    fn new(name: &str) -> Self {
+        Tally {
+            name: name.to_string(),
+            products: 0,
+            mape_sum: 0.0,
+            mape_n: 0,
+            abs_err: 0.0,
+            actual: 0.0,
+            signed: 0.0,
+            mapes: Vec::new(),
+            mase_sum: 0.0,
+            mase_n: 0,
+        }
+    }
+    /// Adds one product: hidden actuals, forecasts, and the MASE scale of
+    /// its training months.
+    fn add(&mut self, a: &[f64], f: &[f64], scale: Option<f64>) {
+        self.products += 1;
+        if let (Some(m), _) = provisio::metrics::mape(a, f) {
+            self.mape_sum += m;
+            self.mape_n += 1;
+            self.mapes.push(m);
+        }
+        if let Some(s) = scale {
+            let mae =
+                a.iter().zip(f).map(|(x, y)| (y - x).abs()).sum::<f64>() / a.len().max(1) as f64;
+            self.mase_sum += mae / s;
+            self.mase_n += 1;
+        }
+        for (x, y) in a.iter().zip(f) {
+            self.abs_err += (y - x).abs();
+            self.signed += y - x;
+            self.actual += x;
+        }
+    }
+    fn mape(&self) -> Option<f64> {
+        (self.mape_n > 0).then(|| self.mape_sum / self.mape_n as f64)
+    }
+    fn median_mape(&self) -> Option<f64> {
+        let mut v = self.mapes.clone();
+        v.sort_by(f64::total_cmp);
+        let n = v.len();
+        (n > 0).then(|| {
+            if n % 2 == 1 {
+                v[n / 2]
+            } else {
+                0.5 * (v[n / 2 - 1] + v[n / 2])
+            }
+        })
+    }
+    fn mase(&self) -> Option<f64> {
+        (self.mase_n > 0).then(|| self.mase_sum / self.mase_n as f64)
+    }
+    fn wape(&self) -> Option<f64> {
+        (self.actual > 0.0).then(|| 100.0 * self.abs_err / self.actual)
+    }
+    fn bias(&self) -> Option<f64> {
+        (self.actual > 0.0).then(|| 100.0 * self.signed / self.actual)
+    }
+}
+
+pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
+    let config = LoadedConfig::load_opt(a.config.as_ref())?;
+    if let Some(c) = &config {
+        apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
+    }
+    if a.holdout == 0 || a.holdout > provisio::project::MAX_HORIZON {
+        anyhow::bail!(
+            "--holdout must be 1-{}, got {}",
+            provisio::project::MAX_HORIZON,
+            a.holdout
+        );
+    }
+    let fs = settings(&a.eval, a.holdout);
+    let checked = fs.check()?;
+    let (ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
+    let t0 = Instant::now();
+    let pins = match &a.eval.pin {
+        Some(p) => read_pins(p)?,
+        None => HashMap::new(),
+    };
+    let options = product_options(config.as_ref(), pins, given.cli("pin"));
+    let results =
+        provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
+    print_accounting(&ds, &cleaned, 5);
+    if results.is_empty() {
+        anyhow::bail!(
+            "no product is longer than {} months (holdout + 24), so none can be evaluated",
+            a.holdout + 24
+        );
+    }
+    let mut selected = Tally::new("selected per product");
+    let mut singles: Vec<Tally> = results[0]
+        .single
+        .iter()
+        .map(|(n, _)| Tally::new(n))
+        .collect();
+    for r in &results {
+        selected.add(&r.actual, &r.selected_forecast, r.scale);
+        for (t, (_, f)) in singles.iter_mut().zip(&r.single) {
+            if let Some(f) = f {
+                t.add(&r.actual, f, r.scale);
+            }
+        }
+    }
+    let n = results.len();
+    let mut all: Vec<&Tally> = singles.iter().filter(|t| t.products == n).collect();
+    all.sort_by(|x, y| {
+        x.mape()
+            .unwrap_or(f64::MAX)
+            .total_cmp(&y.mape().unwrap_or(f64::MAX))
+    });
+    let fmt = |v: Option<f64>| v.map(|x| format!("{x:.2}")).unwrap_or_else(|| "-".into());
+    let fmt3 = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_else(|| "-".into());
+    say!(
+        "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
+        a.holdout
+    );
+    say!(
+        "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
+        "method",
+        "products",
+        "mean MAPE",
+        "median MAPE",
+        "mean MASE",
+        "WAPE",
+        "bias"
+    );
+    let mut rows = vec![&selected];
+    rows.extend(all.iter().copied());
+    for t in &rows {
+        say!(
+            "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
+            t.name,
+            t.products,
+            fmt(t.mape()),
+            fmt(t.median_mape()),
+            fmt3(t.mase()),
+            fmt(t.wape()),
+            fmt(t.bias())
+        );
+    }
+    if let Some(best) = all.first() {
+        say!(
+            "best single model applied to every product: {} (mean MAPE {}); selection: {}",
+            best.name,
+            fmt(best.mape()),
+            fmt(selected.mape())
+        );
+    }
+    let best_mase = all
+        .iter()
+        .filter_map(|t| t.mase().map(|m| (m, t)))
+        .min_by(|x, y| x.0.total_cmp(&y.0));
+    if let Some((m, t)) = best_mase {
+        say!(
+            "best single model by mean MASE: {} ({}); selection: {}",
+            t.name,
+            fmt3(Some(m)),
+            fmt3(selected.mase())
+        );
+    }
+    say!(
+        "(models that did not apply to every product are left out of this table; {:.1} s)",
+        t0.elapsed().as_secs_f64()
+    );
+    let ranges = range_tallies(&results);
+    print_ranges(&ranges);
+    let warned = warning_tallies(&results);
+    print_warnings(&warned, n);
+    super::json_summary(|| {
+        let row = |t: &Tally| {
+            serde_json::json!({
+                "method": t.name,
+                "products": t.products,
+                "mean_mape_pct": t.mape(),
+                "median_mape_pct": t.median_mape(),
+                "mean_mase": t.mase(),
+                "wape_pct": t.wape(),
+                "bias_pct": t.bias(),
+            })
+        };
+        serde_json::json!({
+            "command": "evaluate",
+            "input": ds.source,
+            "holdout": a.holdout,
+            "products": n,
+            "methods": rows.iter().map(|t| row(t)).collect::<Vec<_>>(),
+            "ranges": ranges.iter().map(|r| serde_json::json!({
+                "ranges": r.name,
+                "inside_80_pct": r.inside(0),
+                "inside_95_pct": r.inside(1),
+                "msis_95": r.msis(),
+            })).collect::<Vec<_>>(),
+            "warnings": warned.iter().map(|w| serde_json::json!({
+                "warning": w.kind,
+                "products": w.tally.products,
+                "mean_mase": w.tally.mase(),
+                "others_mean_mase": w.others.mase(),
+            })).collect::<Vec<_>>(),
+        })
+    });
+    if let Some(path) = &a.csv {
+        output::write_atomic(path, |w| {
+            let mut c = csv::Writer::from_writer(w);
+            let e = std::io::Error::other;
+            c.write_record([
+                "method",
+                "products",
+                "mean_mape_pct",
+                "median_mape_pct",
+                "mean_mase",
+                "wape_pct",
+                "bias_pct",
+            ])
+            .map_err(e)?;
+            for t in std::iter::once(&selected).chain(singles.iter()) {
+                c.write_record([
+                    t.name.clone(),
+                    t.products.to_string(),
+                    fmt(t.mape()),
+                    fmt(t.median_mape()),
+                    fmt3(t.mase()),
+                    fmt(t.wape()),
+                    fmt(t.bias()),
+                ])
+                .map_err(e)?;
+            }
+            c.flush()
+        })?;
+    }
+    Ok(())
+}
+
+/// Coverage and interval score of one kind of range on the hidden months.
+struct RangeTally {
+    name: &'static str,
+    inside: [usize; 2],
+    points: usize,
+    msis_sum: f64,
+    msis_n: usize,
+}
+
+impl RangeTally {
+    fn new(name: &'static str) -> Self {
+        RangeTally {
+            name,
+            inside: [0, 0],
+            points: 0,
+            msis_sum: 0.0,
+            msis_n: 0,
+        }
+    }
+    /// Adds one product's ranges against its hidden actuals.
+    fn add(&mut self, a: &[f64], f: &provisio::models::Forecast, scale: Option<f64>) {
+        let (Some(i80), Some(i95)) = (f.interval(0.80), f.interval(0.95)) else {
+            return;
+        };
+        for (k, &y) in a.iter().enumerate() {
+            self.points += 1;
+            self.inside[0] += usize::from(y >= i80.lower[k] && y <= i80.upper[k]);
+            self.inside[1] += usize::from(y >= i95.lower[k] && y <= i95.upper[k]);
+        }
+        if let Some(s) = scale {
+            self.msis_sum += msis(a, &i95.lower, &i95.upper, 0.05) / s;
+            self.msis_n += 1;
+        }
+    }
+    fn inside(&self, level: usize) -> Option<f64> {
+        (self.points > 0).then(|| 100.0 * self.inside[level] as f64 / self.points as f64)
+    }
+    fn msis(&self) -> Option<f64> {
+        (self.msis_n > 0).then(|| self.msis_sum / self.msis_n as f64)
+    }
+}
+
+/// Mean interval score of a (1 − alpha) range, unscaled (Gneiting &
+/// Raftery, JASA 102(477), 2007; scaled by the MASE denominator it is the
+/// MSIS of the M4 competition, Makridakis et al., IJF 36(1), 2020).
+fn msis(a: &[f64], lower: &[f64], upper: &[f64], alpha: f64) -> f64 {
+    let n = a.len().min(lower.len()).min(upper.len());
+    let s: f64 = (0..n)
+        .map(|k| {
+            let (l, u, y) = (lower[k], upper[k], a[k]);
+            (u - l) + 2.0 / alpha * ((l - y).max(0.0) + (y - u).max(0.0))
+        })
+        .sum();
+    s / n.max(1) as f64
+}
+
+fn range_tallies(results: &[provisio::pipeline::HoldoutResult]) -> [RangeTally; 2] {
+    let mut cal = RangeTally::new("calibrated on the backtest (default)");
+    let mut own = RangeTally::new("the models' own intervals");
+    for r in results {
+        cal.add(&r.actual, &r.selected_ranges, r.scale);
+        if let Some(m) = &r.model_ranges {
+            own.add(&r.actual, m, r.scale);
+        }
+    }
+    [cal, own]
+}
+
+fn print_ranges(ranges: &[RangeTally]) {
+    let fmt = |v: Option<f64>| v.map(|x| format!("{x:.1}")).unwrap_or_else(|| "-".into());
+    say!("ranges of the selected projection on the hidden months (share of actuals inside; MSIS at 95%, lower is better):");
+    say!(
+        "{:<40} {:>11} {:>11} {:>9}",
+        "ranges",
+        "inside 80%",
+        "inside 95%",
+        "MSIS 95%"
+    );
+    for r in ranges {
+        say!(
+            "{:<40} {:>11} {:>11} {:>9}",
+            r.name,
+            fmt(r.inside(0)),
+            fmt(r.inside(1)),
+            r.msis()
+                .map(|x| format!("{x:.2}"))
+                .unwrap_or_else(|| "-".into())
+        );
+    }
+}
+
+/// Accuracy of the products that carried one kind of warning, beside the
+/// products that did not carry it.
+struct WarningTally {
+    kind: &'static str,
+    tally: Tally,
+    others: Tally,
+}
+
+/// The kind of a forecast warning, from its wording.
+fn warning_kind(w: &str) -> &'static str {
+    if w.contains("projected at zero") {
+        "all-zero projection of a product in use"
+    } else if w.contains("missed by") {
+        "backtest WAPE above 100%"
+    } else if w.contains("differ from the last 12") {
+        "jump between history and projection"
+    } else if w.contains("range held only") {
+        "ranges too narrow in the backtest"
+    } else if w.contains("months of history") {
+        "short history"
+    } else {
+        "other"
+    }
+}
+
+fn warning_tallies(results: &[provisio::pipeline::HoldoutResult]) -> Vec<WarningTally> {
+    let mut kinds: Vec<&'static str> = results
+        .iter()
+        .flat_map(|r| r.warnings.iter().map(|w| warning_kind(w)))
+        .collect();
+    kinds.sort_unstable();
+    kinds.dedup();
+    let mut out: Vec<WarningTally> = std::iter::once("any warning")
+        .chain(kinds)
+        .map(|kind| WarningTally {
+            kind,
+            tally: Tally::new(kind),
+            others: Tally::new(kind),
+        })
+        .collect();
+    for r in results {
+        for w in out.iter_mut() {
+            let has = if w.kind == "any warning" {
+                !r.warnings.is_empty()
+            } else {
+                r.warnings.iter().any(|x| warning_kind(x) == w.kind)
+            };
+            let t = if has { &mut w.tally } else { &mut w.others };
+            t.add(&r.actual, &r.selected_forecast, r.scale);
+        }
+    }
+    out
+}
+
+fn print_warnings(warned: &[WarningTally], n: usize) {
+    let fmt3 = |v: Option<f64>| v.map(|x| format!("{x:.3}")).unwrap_or_else(|| "-".into());
+    if warned.iter().all(|w| w.tally.products == 0) {
+        say!("no product carried a warning");
+        return;
+    }
+    say!("do warnings point at worse forecasts? mean MASE on the hidden months:");
+    say!(
+        "{:<42} {:>9} {:>10} {:>14}",
+        "warning",
+        "products",
+        "mean MASE",
+        "others' MASE"
+    );
+    for w in warned {
+        say!(
+            "{:<42} {:>9} {:>10} {:>14}",
+            w.kind,
+            format!("{}/{n}", w.tally.products),
+            fmt3(w.tally.mase()),
+            fmt3(w.others.mase())
+        );
+    }
+}
