@@ -51,6 +51,7 @@
 
 pub mod backtest;
 pub mod calendar;
+pub mod changes;
 pub mod chart;
 pub mod clean;
 pub mod config;

@@ -1,0 +1,1 @@
+//! Unit tests of the changes module: the arithmetic of each kind.
