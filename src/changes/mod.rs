@@ -39,6 +39,7 @@
 //! hand has a range of zero width.
 
 pub mod read;
+pub mod score;
 
 use std::collections::HashMap;
 

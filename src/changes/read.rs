@@ -493,3 +493,147 @@ fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, (u64, Vec<String>), V
     let header = header.ok_or_else(|| err(Some(&name), 0, "the sheet is empty; it needs a header (product, kind, first_month, ...) and one row per change".into()))?;
     Ok((name, header, rows))
 }
+
+/// One line of a past run's `changes_applied.csv`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PastTrace {
+    /// Product.
+    pub product: String,
+    /// Month.
+    pub month: YearMonth,
+    /// Row of the changes file.
+    pub row: u64,
+    /// Kind, as written.
+    pub kind: String,
+    /// Forecast before the row.
+    pub before: f64,
+    /// Forecast after the row.
+    pub after: f64,
+    /// The row's note.
+    pub note: String,
+}
+
+/// What a past forecast directory keeps of its changes: the adjusted
+/// forecast per (product, month) and the trace. `None` when the run had no
+/// changes file.
+pub type PastChanges = (
+    std::collections::HashMap<(String, YearMonth), f64>,
+    Vec<PastTrace>,
+);
+
+fn table(path: &Path) -> Result<Option<(Vec<String>, Vec<(u64, csv::StringRecord)>)>> {
+    if !path.exists() {
+        return Ok(None);
+    }
+    let e = |line: u64, m: String| Error::Input {
+        file: path.display().to_string(),
+        line,
+        column: None,
+        message: m,
+    };
+    let mut r = csv::ReaderBuilder::new()
+        .flexible(true)
+        .from_path(path)
+        .map_err(|x| e(0, format!("cannot read: {x}")))?;
+    let header: Vec<String> = r
+        .headers()
+        .map_err(|x| e(1, format!("cannot read the header: {x}")))?
+        .iter()
+        .map(|h| h.trim().to_string())
+        .collect();
+    let mut rows = Vec::new();
+    for rec in r.records() {
+        let rec = rec.map_err(|x| {
+            e(
+                x.position().map(|p| p.line()).unwrap_or(0),
+                format!("cannot read the row: {x}"),
+            )
+        })?;
+        rows.push((rec.position().map(|p| p.line()).unwrap_or(0), rec));
+    }
+    Ok(Some((header, rows)))
+}
+
+/// Reads the adjusted forecast and the trace of a past forecast directory.
+pub fn read_past_changes(dir: &Path) -> Result<Option<PastChanges>> {
+    let fpath = dir.join("forecast.csv");
+    let Some((h, rows)) = table(&fpath)? else {
+        return Ok(None);
+    };
+    let col = |h: &[String], n: &str| h.iter().position(|x| x == n);
+    let Some(ac) = col(&h, "adjusted") else {
+        return Ok(None);
+    };
+    let file = fpath.display().to_string();
+    let bad = |file: &str, line: u64, c: &str, v: &str, what: &str| Error::Input {
+        file: file.to_string(),
+        line,
+        column: Some(c.to_string()),
+        message: format!("'{v}' is not {what}"),
+    };
+    let (Some(pc), Some(mc)) = (col(&h, "product"), col(&h, "month")) else {
+        return Err(Error::Input {
+            file,
+            line: 1,
+            column: None,
+            message: "missing column product or month".into(),
+        });
+    };
+    let mut adjusted = std::collections::HashMap::new();
+    for (line, rec) in &rows {
+        let p = crate::output::csv_text_read(rec.get(pc).unwrap_or("")).to_string();
+        let m = rec.get(mc).unwrap_or("");
+        let month = YearMonth::parse(m).map_err(|_| bad(&file, *line, "month", m, "a month"))?;
+        let v = rec.get(ac).unwrap_or("");
+        if v.is_empty() {
+            continue;
+        }
+        let x: f64 = v
+            .parse()
+            .map_err(|_| bad(&file, *line, "adjusted", v, "a number"))?;
+        adjusted.insert((p, month), x);
+    }
+    let tpath = dir.join("changes_applied.csv");
+    let tfile = tpath.display().to_string();
+    let mut trace = Vec::new();
+    if let Some((h, rows)) = table(&tpath)? {
+        let need = [
+            "product",
+            "month",
+            "change_row",
+            "kind",
+            "before_change",
+            "after_change",
+            "note",
+        ];
+        let mut idx = Vec::new();
+        for n in need {
+            idx.push(col(&h, n).ok_or_else(|| Error::Input {
+                file: tfile.clone(),
+                line: 1,
+                column: Some(n.to_string()),
+                message: "missing column".into(),
+            })?);
+        }
+        for (line, rec) in &rows {
+            let g = |i: usize| rec.get(idx[i]).unwrap_or("");
+            let num = |i: usize| -> Result<f64> {
+                g(i).parse::<f64>()
+                    .map_err(|_| bad(&tfile, *line, need[i], g(i), "a number"))
+            };
+            trace.push(PastTrace {
+                product: crate::output::csv_text_read(g(0)).to_string(),
+                month: YearMonth::parse(g(1))
+                    .map_err(|_| bad(&tfile, *line, "month", g(1), "a month"))?,
+                row: g(2)
+                    .parse()
+                    .map_err(|_| bad(&tfile, *line, "change_row", g(2), "a row number"))?,
+                kind: g(3).to_string(),
+                before: num(4)?,
+                after: num(5)?,
+                note: crate::output::csv_text_read(g(6)).to_string(),
+            });
+        }
+    }
+    Ok(Some((adjusted, trace)))
+}

@@ -100,3 +100,129 @@ pub(super) fn changes_json(ap: &Applied) -> serde_json::Value {
         .collect();
     serde_json::json!({ "products": products, "warnings": ap.warnings })
 }
+
+/// `review`: for each past run that applied a changes file, the statistical
+/// and the adjusted forecast scored against the actuals, per product and
+/// per change row, written to `review_changes.csv` and printed. Returns
+/// whether the file was written.
+pub(super) fn review(
+    pasts: &[provisio::review::PastForecast],
+    result: &provisio::review::Review,
+    out: &std::path::Path,
+) -> anyhow::Result<bool> {
+    use provisio::changes::score::{value_added, ValueAdded};
+    use provisio::output::fmt_num;
+    let mut lines: Vec<(String, String, String, String, ValueAdded)> = Vec::new();
+    for (vi, v) in result.vintages.iter().enumerate() {
+        let Some(past) = pasts.iter().find(|p| p.name == v.name) else {
+            continue;
+        };
+        let Some((adjusted, trace)) = provisio::changes::read::read_past_changes(&past.dir)? else {
+            continue;
+        };
+        for pr in result.products.iter().filter(|p| p.vintage == vi) {
+            let scored: Vec<&provisio::review::MonthReview> =
+                pr.months.iter().filter(|m| m.scored).collect();
+            let pts: Vec<(f64, f64, f64)> = scored
+                .iter()
+                .filter_map(|m| {
+                    let a = adjusted.get(&(pr.product.clone(), m.month))?;
+                    Some((m.actual, m.forecast, *a))
+                })
+                .collect();
+            let changed = trace.iter().any(|t| t.product == pr.product);
+            if !changed || pts.is_empty() {
+                continue;
+            }
+            lines.push((
+                v.name.clone(),
+                pr.product.clone(),
+                "all changes".into(),
+                String::new(),
+                value_added(&pts),
+            ));
+            let mut rows: Vec<u64> = trace
+                .iter()
+                .filter(|t| t.product == pr.product)
+                .map(|t| t.row)
+                .collect();
+            rows.dedup();
+            rows.sort();
+            rows.dedup();
+            for row in rows {
+                let pts: Vec<(f64, f64, f64)> = trace
+                    .iter()
+                    .filter(|t| t.product == pr.product && t.row == row)
+                    .filter_map(|t| {
+                        let m = scored.iter().find(|m| m.month == t.month)?;
+                        Some((m.actual, t.before, t.after))
+                    })
+                    .collect();
+                if pts.is_empty() {
+                    continue;
+                }
+                let t = trace
+                    .iter()
+                    .find(|t| t.product == pr.product && t.row == row);
+                lines.push((
+                    v.name.clone(),
+                    pr.product.clone(),
+                    format!("row {row} ({})", t.map(|t| t.kind.as_str()).unwrap_or("")),
+                    t.map(|t| t.note.clone()).unwrap_or_default(),
+                    value_added(&pts),
+                ));
+            }
+        }
+    }
+    if lines.is_empty() {
+        return Ok(false);
+    }
+    let opt = |x: Option<f64>| x.map(fmt_num).unwrap_or_default();
+    provisio::output::write_atomic(&out.join("review_changes.csv"), |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let e = std::io::Error::other;
+        c.write_record([
+            "vintage",
+            "product",
+            "scored",
+            "months",
+            "actual",
+            "wape_without_pct",
+            "wape_with_pct",
+            "bias_without_pct",
+            "bias_with_pct",
+            "value_added_points",
+            "note",
+        ])
+        .map_err(e)?;
+        for (v, p, what, note, s) in &lines {
+            c.write_record([
+                v.clone(),
+                provisio::output::csv_text(p).into_owned(),
+                what.clone(),
+                s.months.to_string(),
+                fmt_num(s.actual),
+                opt(s.wape_without),
+                opt(s.wape_with),
+                opt(s.bias_without),
+                opt(s.bias_with),
+                opt(s.value_added),
+                provisio::output::csv_text(note).into_owned(),
+            ])
+            .map_err(e)?;
+        }
+        c.flush()
+    })?;
+    say!("forecast value added of the known changes (WAPE without − WAPE with, points; above 0: the adjustment helped):");
+    for (_, p, what, _, s) in &lines {
+        let f = |x: Option<f64>| x.map(|v| format!("{v:.1}")).unwrap_or_else(|| "-".into());
+        say!(
+            "  {p} · {what}: {} month(s), WAPE statistical/before {} %, adjusted/after {} %, value added {}",
+            s.months,
+            f(s.wape_without),
+            f(s.wape_with),
+            f(s.value_added)
+        );
+    }
+    Ok(true)
+}

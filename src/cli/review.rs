@@ -151,6 +151,9 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         warnings: &warnings,
     };
     let written = provisio::report::review::write_review_report(&a.out, &page)?;
+    if super::changes::review(&pasts, &result, &a.out)? {
+        super::say!("wrote review_changes.csv: the statistical and the adjusted forecast scored, per product and per change");
+    }
     print_summary(&result, limit);
     super::json_summary(|| {
         let products: Vec<serde_json::Value> = result
