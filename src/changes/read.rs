@@ -313,7 +313,7 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
                     if v < 0.0 {
                         return Err(bad("value", format!("{v} is below zero")));
                     }
-                    if last.is_none_or(|l| l <= first) {
+                    if !last.is_some_and(|l| l > first) {
                         return Err(bad("last_month", "a ramp-up to value needs a last_month after first_month (the month value is reached)".into()));
                     }
                 }
@@ -381,7 +381,13 @@ fn header_names(cells: &[String]) -> Vec<String> {
         .collect()
 }
 
-fn csv_rows(file: &str, bytes: &[u8]) -> Result<((u64, Vec<String>), Vec<Row>)> {
+/// A header: its row number and its column names.
+type Header = (u64, Vec<String>);
+
+/// Rows of a CSV file with their line numbers.
+type Records = Vec<(u64, csv::StringRecord)>;
+
+fn csv_rows(file: &str, bytes: &[u8]) -> Result<(Header, Vec<Row>)> {
     let text = std::str::from_utf8(bytes).map_err(|e| Error::Input {
         file: file.to_string(),
         line: 0,
@@ -443,7 +449,7 @@ fn sheet_cell(d: &Data) -> std::result::Result<String, String> {
     })
 }
 
-fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, (u64, Vec<String>), Vec<Row>)> {
+fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, Header, Vec<Row>)> {
     let err = |sheet: Option<&str>, row: u64, message: String| Error::Sheet {
         file: file.to_string(),
         sheet: sheet.map(str::to_string),
@@ -521,7 +527,7 @@ pub type PastChanges = (
     Vec<PastTrace>,
 );
 
-fn table(path: &Path) -> Result<Option<(Vec<String>, Vec<(u64, csv::StringRecord)>)>> {
+fn table(path: &Path) -> Result<Option<(Vec<String>, Records)>> {
     if !path.exists() {
         return Ok(None);
     }

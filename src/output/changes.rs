@@ -107,7 +107,7 @@ pub fn add_adjusted(dir: &Path, applied: &Applied) -> Result<()> {
             out.resize(width, String::new());
             match vals {
                 Some(v) => out.extend(v.iter().map(|x| fmt_num(*x))),
-                None => out.extend(std::iter::repeat_n(String::new(), 5)),
+                None => out.extend(std::iter::repeat(String::new()).take(5)),
             }
             c.write_record(&out).map_err(io_err)?;
         }
