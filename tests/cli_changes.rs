@@ -100,7 +100,6 @@ fn run_changes(w: &Workdir, changes_name: &str) -> std::process::Output {
         "--changes",
         changes_name,
         "--no-report",
-        "--no-workbook",
     ])
 }
 
@@ -320,6 +319,46 @@ fn every_kind_gives_the_hand_computed_forecast() {
         .find(|r| r["product"] == "Product A" && r["row"] == "adjusted")
         .expect("adjusted row");
     assert_eq!(aw["2027-02"], "110");
+
+    // The workbook: the adjusted forecast follows A's statistical one, and
+    // the summary has a sheet of its own.
+    use calamine::Reader;
+    let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+    assert!(book.sheet_names().iter().any(|n| n == "Known changes"));
+    let sheet = book.worksheet_range("Forecast").expect("Forecast sheet");
+    let cells: Vec<String> = sheet
+        .rows()
+        .flat_map(|r| r.iter().map(|c| c.to_string()))
+        .collect();
+    assert!(
+        cells.iter().any(|c| c == "adjusted (known changes)"),
+        "no adjusted rows"
+    );
+
+    // `plan` uses the adjusted forecast and says so: D's consumption in the
+    // plan is the phase-out's 75, 50, 25, 0 in Jan-Apr 2027, not 100.
+    w.write(
+        "stock.csv",
+        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost,shelf_life_months,emergency_months\n\
+         Product D,1000,2026-10,1,2,4,1,1,1,,\n",
+    );
+    let o = w.run(&["plan", "out", "--stock", "stock.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("the plan uses the adjusted forecast"), "{t}");
+    let plan = w.read_csv_maps("out/plan.csv");
+    let cons = |m: &str| {
+        num(
+            plan.iter()
+                .find(|r| r["month"] == m)
+                .unwrap_or_else(|| panic!("{m}")),
+            "consumption",
+        )
+    };
+    close(cons("2026-12"), 100.0, "plan Dec");
+    close(cons("2027-01"), 75.0, "plan Jan");
+    close(cons("2027-03"), 25.0, "plan Mar");
+    close(cons("2027-05"), 0.0, "plan May");
 }
 
 #[test]
