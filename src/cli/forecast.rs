@@ -788,6 +788,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     // the results in memory are no longer needed, and freeing them first
     // keeps the peak memory of large runs down. The workbook comes first so
     // that the report can link to it.
+    let changed = applied.is_some();
     drop((ds, cleaned, results, applied));
     let t_book = Instant::now();
     let workbook = if a.no_workbook {
@@ -811,6 +812,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::fmt_secs(secs),
         a_out.display()
     );
+    if changed {
+        say!("wrote changes_applied.csv (every month a change touched) and changes_summary.csv (each change's effect on the totals); forecast.csv and forecast_wide.csv hold the statistical and the adjusted forecast side by side");
+    }
     match workbook {
         Some(_) => say!(
             "wrote forecast.xlsx (the planner's workbook) in {}",
