@@ -537,3 +537,62 @@ fn review_scores_the_statistical_and_the_adjusted_forecast() {
     close(num(&b3, "value_added_points"), -30.0, "B row 3");
     assert!(out.contains("forecast value added"), "{out}");
 }
+
+#[test]
+fn crosscheck_and_the_report_use_the_adjusted_forecast() {
+    let w = Workdir::new();
+    w.write(
+        "changes.csv",
+        format!(
+            "{HEADER}Product D,phase-out,2027-01,2027-04,,,,,phase-out\nProduct H,new-from-level,2027-01,,,40,,,new\n"
+        ),
+    );
+    let o = run_changes(&w, "changes.csv");
+    assert!(o.status.success(), "{}", text(&o));
+    // One morbidity estimate: 1000 people × rate 1 × care seeking 1 ×
+    // treated 1 × 1 unit per course = 1000 units.
+    w.write(
+        "pop.csv",
+        "product,group,method,population,rate,care_seeking,treated,quantity_per_course\nProduct D,all,morbidity,1000,1,1,1,1\n",
+    );
+    let o = w.run(&["crosscheck", "out", "--population", "pop.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("the adjusted forecast is cross-checked"), "{t}");
+    // D's adjusted 12 months 2026-11 to 2027-10: 100 + 100 + 75 + 50 + 25 +
+    // 7 × 0 = 350 (the statistical total would be 1200); ratio 1000 / 350.
+    let cc = w.read_csv_maps("out/crosscheck.csv");
+    let row = cc
+        .iter()
+        .find(|r| r["method"] == "morbidity")
+        .expect("morbidity row");
+    close(
+        num(row, "consumption_forecast"),
+        350.0,
+        "cross-checked total",
+    );
+    close(num(row, "ratio_to_consumption"), 1000.0 / 350.0, "ratio");
+
+    // The report: the section, the adjusted line on D's chart (not on A's,
+    // which no change touched), and a chart of the new product H.
+    let o = w.run(&["report", "out"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    assert!(html.contains("Known changes ahead"), "no section");
+    assert!(html.contains("phase-out"), "no change row");
+    let svg_of = |stem: &str| {
+        let dir = std::fs::read_dir(w.path("out/charts")).expect("charts");
+        let f = dir
+            .filter_map(|e| e.ok())
+            .map(|e| e.path())
+            .find(|p| {
+                let n = p.file_name().and_then(|n| n.to_str()).unwrap_or("");
+                n.starts_with(stem) && n.ends_with(".svg")
+            })
+            .unwrap_or_else(|| panic!("no chart {stem}"));
+        std::fs::read_to_string(f).expect("svg")
+    };
+    assert!(svg_of("product-d").contains("adjusted forecast (known changes)"));
+    assert!(!svg_of("product-a").contains("adjusted forecast (known changes)"));
+    assert!(svg_of("new-product-h").contains("adjusted forecast (known changes)"));
+}
