@@ -495,6 +495,30 @@ fn review_scores_the_statistical_and_the_adjusted_forecast() {
     let o = w.run(&["review", "past", "--actuals", "data.csv", "--out", "rev"]);
     let out = text(&o);
     assert!(o.status.success(), "{out}");
+    // The same figures in the JSON summary.
+    let o = w.run(&[
+        "--json",
+        "review",
+        "past",
+        "--actuals",
+        "data.csv",
+        "--out",
+        "rev2",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).expect("JSON summary");
+    let va = j["changes_value_added"]
+        .as_array()
+        .expect("changes_value_added")
+        .iter()
+        .find(|x| x["product"] == "Product A" && x["scored"] == "all changes")
+        .expect("A in JSON")
+        .clone();
+    close(
+        va["value_added_points"].as_f64().unwrap_or(f64::NAN),
+        100.0 * 80.0 / 680.0,
+        "A value added (JSON)",
+    );
     let rows = w.read_csv_maps("rev/review_changes.csv");
     let get = |p: &str, what: &str| {
         rows.iter()

@@ -190,12 +190,19 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
             if v.is_empty() {
                 return Ok(None);
             }
-            let t = v.replace(',', "");
-            t.parse::<f64>()
+            // Plain numbers only: "1,5" could be 1.5 or 15, so it is
+            // refused rather than guessed.
+            v.parse::<f64>()
                 .ok()
                 .filter(|x| x.is_finite())
                 .map(Some)
-                .ok_or_else(|| at(n, c, format!("'{v}' is not a number")))
+                .ok_or_else(|| {
+                    at(
+                        n,
+                        c,
+                        format!("'{v}' is not a plain number; write it like 1500 or -2.5 (no thousands separators, a point for decimals, no % sign)"),
+                    )
+                })
         };
         let value = number("value")?;
         let start_value = number("start_value")?;
@@ -438,7 +445,8 @@ fn sheet_cell(d: &Data) -> std::result::Result<String, String> {
         Data::Empty => String::new(),
         Data::String(s) => s.clone(),
         Data::Int(i) => i.to_string(),
-        Data::Float(x) => crate::output::fmt_num(*x),
+        // Every digit kept (a factor of 1/12 must not become 0.0833).
+        Data::Float(x) => format!("{x}"),
         Data::Bool(b) => b.to_string(),
         Data::Error(e) => return Err(format!("the cell holds an error ({e:?})")),
         Data::DateTime(dt) => match dt.as_datetime() {

@@ -77,6 +77,16 @@ fn the_reader_names_line_and_column() {
     .unwrap_err()
     .to_string();
     assert!(e.contains("other_product is empty"), "{e}");
+    let e = read_changes_bytes(
+        "c.csv",
+        b"product,kind,first_month,value\nA,quantity-per-month,2027-01,\"1,5\"\n",
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("c.csv:2: column 'value'") && e.contains("not a plain number"),
+        "{e}"
+    );
     let ok = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month\n# a comment\nA,phase-out,2027-01\n",

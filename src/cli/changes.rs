@@ -104,12 +104,12 @@ pub(super) fn changes_json(ap: &Applied) -> serde_json::Value {
 /// `review`: for each past run that applied a changes file, the statistical
 /// and the adjusted forecast scored against the actuals, per product and
 /// per change row, written to `review_changes.csv` and printed. Returns
-/// whether the file was written.
+/// the figures for the JSON summary when the file was written.
 pub(super) fn review(
     pasts: &[provisio::review::PastForecast],
     result: &provisio::review::Review,
     out: &std::path::Path,
-) -> anyhow::Result<bool> {
+) -> anyhow::Result<Option<serde_json::Value>> {
     use provisio::changes::score::{value_added, ValueAdded};
     use provisio::output::fmt_num;
     let mut lines: Vec<(String, String, String, String, ValueAdded)> = Vec::new();
@@ -175,7 +175,7 @@ pub(super) fn review(
         }
     }
     if lines.is_empty() {
-        return Ok(false);
+        return Ok(None);
     }
     let opt = |x: Option<f64>| x.map(fmt_num).unwrap_or_default();
     provisio::output::write_atomic(&out.join("review_changes.csv"), |w| {
@@ -224,5 +224,21 @@ pub(super) fn review(
             f(s.value_added)
         );
     }
-    Ok(true)
+    let json: Vec<serde_json::Value> = lines
+        .iter()
+        .map(|(v, p, what, _, s)| {
+            serde_json::json!({
+                "vintage": v,
+                "product": p,
+                "scored": what,
+                "months": s.months,
+                "wape_without_pct": s.wape_without,
+                "wape_with_pct": s.wape_with,
+                "bias_without_pct": s.bias_without,
+                "bias_with_pct": s.bias_with,
+                "value_added_points": s.value_added,
+            })
+        })
+        .collect();
+    Ok(Some(serde_json::Value::Array(json)))
 }
