@@ -421,6 +421,14 @@ pub fn apply(file: &str, base: &[(String, Bands)], changes: &[Change]) -> Result
             }
         };
         let b = products[idx].adjusted.clone();
+        if c.last.is_some_and(|l| l < c.first) {
+            return Err(err(
+                file,
+                c,
+                "last_month",
+                format!("the last month is before the first month {}", c.first),
+            ));
+        }
         check_month(file, c, "first_month", c.first, &b)?;
         if let Some(l) = c.last {
             check_month(file, c, "last_month", l, &b)?;

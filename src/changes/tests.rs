@@ -126,3 +126,33 @@ fn a_switch_conserves_the_converted_quantity() {
     let lost: f64 = 400.0 - a.adjusted.point.iter().sum::<f64>();
     assert_eq!(bb.adjusted.point.iter().sum::<f64>(), 3.0 * lost);
 }
+
+#[test]
+fn odd_files_are_refused_or_read_without_loss() {
+    // Empty, a header only, not UTF-8: refused with the file named.
+    for bytes in [
+        &b""[..],
+        b"product,kind,first_month\n",
+        b"product,kind,first_month\n\xff\xfe,x,y\n",
+    ] {
+        let e = read_changes_bytes("c.csv", bytes).unwrap_err().to_string();
+        assert!(e.starts_with("c.csv"), "{e}");
+    }
+    // A byte-order mark and spaced, capitalised headers are read.
+    let ok = read_changes_bytes(
+        "c.csv",
+        "\u{feff}Product, Kind ,First month,Note\n'=A,Phase-out,2027-01,why\n".as_bytes(),
+    )
+    .expect("read");
+    // The apostrophe provisio's outputs put before formula-like text is taken off.
+    assert_eq!(ok.changes[0].product, "=A");
+    assert_eq!(ok.changes[0].kind, Kind::PhaseOut);
+    // A library caller's last month before the first is refused, not divided by.
+    let b = Bands::zero(ym(2027, 1), 3);
+    let mut c = change(Kind::Percent, ym(2027, 3), Some(ym(2027, 1)));
+    c.product = "A".into();
+    let e = apply("c.csv", &[("A".into(), b)], &[c])
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("before the first month"), "{e}");
+}
