@@ -320,6 +320,29 @@ fn every_kind_gives_the_hand_computed_forecast() {
         .expect("adjusted row");
     assert_eq!(aw["2027-02"], "110");
 
+    // The statistical forecast is the one a run without changes makes:
+    // forecast.csv's own columns are the same, cell for cell.
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--out",
+        "plain",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let plain = forecast_rows(&w, "plain");
+    for (key, r) in &plain {
+        let c = &f[key];
+        for (col, v) in r {
+            assert_eq!(&c[col], v, "{key:?} {col}");
+        }
+    }
+
     // The workbook: the adjusted forecast follows A's statistical one, and
     // the summary has a sheet of its own.
     use calamine::Reader;

@@ -126,7 +126,7 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
             ("row", Kind::Num),
             ("kind", Kind::Text),
             ("product", Kind::Text),
-            ("months", Kind::Text),
+            ("first to last month", Kind::Text),
             ("effect, months 1-12", Kind::Num),
             ("effect, months 1-24", Kind::Num),
             ("statistical 1-12", Kind::Num),
