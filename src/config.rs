@@ -114,6 +114,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("selection", "tie_margin", "number", "0.1", "0 to 0.5", "relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins", "0.1"),
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
     key("projection", "horizon", "integer", "24", "1 to 60", "months projected", "24"),
+    key("projection", "changes", "text (path)", "not set", "a CSV file or workbook of known changes", "known changes ahead applied to the statistical projection (the adjusted forecast); relative to the folder of the configuration file", "\"changes.csv\""),
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),
     key("output", "overwrite", "true/false", "false", "true, false", "write into the folder even if it holds files provisio did not write", "false"),
     key("output", "no_report", "true/false", "false", "true, false", "skip the charts and report.html", "false"),
@@ -198,6 +199,8 @@ pub struct SelectionSection {
 pub struct ProjectionSection {
     /// Months projected.
     pub horizon: Option<usize>,
+    /// Changes file, relative to the configuration file's folder.
+    pub changes: Option<String>,
 }
 
 /// `[output]`: where and what to write.
@@ -470,6 +473,7 @@ impl RunConfig {
         for (section, key, v) in [
             ("input", "data", &self.input.data),
             ("selection", "pin", &self.selection.pin),
+            ("projection", "changes", &self.projection.changes),
             ("output", "out", &self.output.out),
         ] {
             if v.as_deref().is_some_and(|s| s.trim().is_empty()) {
@@ -702,7 +706,10 @@ mod tests {
                 tie_margin: Some(0.05),
                 pin: Some("pins.csv".into()),
             },
-            projection: ProjectionSection { horizon: Some(18) },
+            projection: ProjectionSection {
+                horizon: Some(18),
+                changes: Some("changes.csv".into()),
+            },
             output: OutputSection {
                 out: Some("out dir".into()),
                 overwrite: Some(true),

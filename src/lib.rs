@@ -52,6 +52,7 @@
 pub mod backtest;
 pub mod calendar;
 pub mod calibrate;
+pub mod changes;
 pub mod chart;
 pub mod clean;
 pub mod config;

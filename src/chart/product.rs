@@ -82,6 +82,9 @@ pub struct ProductChart {
     pub projection: Vec<ProjectedMonth>,
     /// The backtest panel, when there is one.
     pub backtest: Option<BacktestPanel>,
+    /// The adjusted forecast (known changes applied), month by month; empty
+    /// when the run had no changes file. Drawn dashed over the projection.
+    pub adjusted: Vec<(YearMonth, f64)>,
 }
 
 const WIDTH: u32 = 1200;
@@ -115,6 +118,28 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &ProductChart) -> 
     if let Some(bt) = &c.backtest {
         draw_backtest(&bottom, c, bt)?;
     }
+    Ok(())
+}
+
+/// The adjusted forecast (known changes applied) as a thick dashed line in
+/// a colour of its own, so it reads apart from the statistical projection.
+fn draw_adjusted<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<KeyAxis, RangedCoordf64>>,
+    c: &ProductChart,
+    x: &dyn Fn(YearMonth) -> f64,
+    items: &mut Vec<(Glyph, String)>,
+) -> Drawn {
+    if c.adjusted.is_empty() {
+        return Ok(());
+    }
+    let line: Vec<(f64, f64)> = c.adjusted.iter().map(|(m, v)| (x(*m), *v)).collect();
+    chart
+        .draw_series(DashedLineSeries::new(line, 10, 5, OUTLIER.stroke_width(3)))
+        .msg()?;
+    items.push((
+        Glyph::Line(OUTLIER, 3),
+        "adjusted forecast (known changes)".to_string(),
+    ));
     Ok(())
 }
 
@@ -255,6 +280,9 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
         ymax = ymax.max(h.reported.unwrap_or(0.0));
         ymax = ymax.max(h.cleaned.unwrap_or(0.0));
     }
+    for (_, v) in &c.adjusted {
+        ymax = ymax.max(*v);
+    }
     for p in &c.projection {
         ymax = ymax.max(p.point);
         if let Some((_, u)) = p.range95.or(p.range80) {
@@ -390,6 +418,7 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
             .draw_series(LineSeries::new(line, FORECAST.stroke_width(2)))
             .msg()?;
         items.push((Glyph::Line(FORECAST, 2), c.projection_label.clone()));
+        draw_adjusted(&mut chart, c, &x, &mut items)?;
         items.extend(legend);
 
         let xs = x(first.month) - 0.5;
@@ -534,6 +563,7 @@ mod tests {
             history,
             projection,
             backtest: None,
+            adjusted: Vec::new(),
         }
     }
 

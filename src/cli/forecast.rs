@@ -82,6 +82,9 @@ pub struct ForecastArgs {
     /// Use only rows dated up to this month (YYYY-MM), as if forecasting then; for `review` later.
     #[arg(long, value_name = "YYYY-MM", value_parser = parse_month)]
     until: Option<YearMonth>,
+    /// Known changes ahead (CSV or workbook: product, kind, first_month, last_month, value, ...): applied to the statistical projection, giving the adjusted forecast beside it.
+    #[arg(long, value_name = "FILE")]
+    changes: Option<PathBuf>,
     /// Skip the charts and report.html (for thousands of products; `provisio report DIR` builds them later).
     #[arg(long)]
     no_report: bool,
@@ -589,6 +592,9 @@ fn apply_forecast_config(
     if let (Some(v), false) = (cfg.projection.horizon, given.cli("horizon")) {
         a.horizon = v;
     }
+    if let (Some(v), false) = (&cfg.projection.changes, given.cli("changes")) {
+        a.changes = Some(c.resolve(v));
+    }
     if let (Some(v), None) = (&cfg.output.out, &a.out) {
         a.out = Some(c.resolve(v));
     }
@@ -617,6 +623,7 @@ fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> R
     cfg.cleaning = a.clean.to_config();
     a.eval.to_config(&mut cfg, dir);
     cfg.projection.horizon = Some(a.horizon);
+    cfg.projection.changes = a.changes.as_ref().map(|p| path_for_config(p, dir));
     cfg.output.out = a.out.as_ref().map(|p| path_for_config(p, dir));
     cfg.output.overwrite = Some(a.overwrite);
     cfg.output.no_report = Some(a.no_report);
@@ -667,6 +674,13 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         )
     })?;
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
+    // The changes file is read before the long work, so a mistake in it
+    // is said at once; its products and months are checked after.
+    let changes = a
+        .changes
+        .as_ref()
+        .map(|p| provisio::changes::read_changes(p))
+        .transpose()?;
     let (ds, cleaned, results, fs, secs) = run_eval(
         &data,
         &a.read,
@@ -677,6 +691,10 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         config.as_ref(),
         given,
     )?;
+    let applied = match &changes {
+        Some(c) => Some(super::changes::apply(c, &results)?),
+        None => None,
+    };
     out.prepare()?;
     let a_out = out_path.clone();
     let starts: Vec<_> = cleaned
@@ -702,12 +720,19 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         .unwrap_or_default();
     output::write_forecast_units(&a_out.join("forecast.csv"), &results, &units)?;
     output::write_forecast_wide(&a_out.join("forecast_wide.csv"), &results)?;
+    if let Some(ap) = &applied {
+        output::add_adjusted(&a_out, ap)?;
+    }
     output::write_selection(&a_out.join("selection.csv"), &results)?;
     output::write_scores(&a_out.join("scores.csv"), &results)?;
     output::write_scores_by_horizon(&a_out.join("scores_by_horizon.csv"), &results)?;
     output::write_backtest(&a_out.join("backtest.csv"), &results, &starts)?;
     let (by_rule, mut warnings) = super::write_clean_outputs(&a_out, &ds, &cleaned)?;
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
+    if let (Some(c), Some(ap)) = (&changes, &applied) {
+        warnings.extend(c.warnings.iter().cloned());
+        warnings.extend(ap.warnings.iter().cloned());
+    }
     let manifest = serde_json::json!({
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
         "format_version": output::FORECAST_FORMAT_VERSION,
@@ -723,6 +748,10 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "sheet": ds.layout.sheet.as_ref().map(|s| s.name.clone()),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
+        "changes_file": changes.as_ref().map(|c| c.file.clone()),
+        "changes_sha256": changes.as_ref().map(|c| c.sha256.clone()),
+        "changes_sheet": changes.as_ref().and_then(|c| c.sheet.clone()),
+        "changes_rows": changes.as_ref().map(|c| c.changes.len()),
         "config_file": LoadedConfig::manifest(config.as_ref()).0,
         "config_sha256": LoadedConfig::manifest(config.as_ref()).1,
         "product_settings": config.as_ref().map(|c| &c.cfg.products),
@@ -738,6 +767,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     output::write_json(&a_out.join("manifest.json"), &manifest)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
+    if let (Some(c), Some(ap)) = (&changes, &applied) {
+        super::changes::print_applied(c, ap);
+    }
     let products = results.len();
     let summary = super::json_wanted().then(|| {
         serde_json::json!({
@@ -749,7 +781,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "rows": cleaned.rows,
             "products": results.iter().map(product_json).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
-            "files": forecast_files(&a_out, !a.no_report, !a.no_workbook),
+            "files": forecast_files(&a_out, !a.no_report, !a.no_workbook, applied.is_some()),
+            "changes": applied.as_ref().map(super::changes::changes_json),
             "seconds": secs,
         })
     });
@@ -757,7 +790,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     // the results in memory are no longer needed, and freeing them first
     // keeps the peak memory of large runs down. The workbook comes first so
     // that the report can link to it.
-    drop((ds, cleaned, results));
+    let changed = applied.is_some();
+    drop((ds, cleaned, results, applied));
     let t_book = Instant::now();
     let workbook = if a.no_workbook {
         None
@@ -780,6 +814,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::fmt_secs(secs),
         a_out.display()
     );
+    if changed {
+        say!("wrote changes_applied.csv (every month a change touched) and changes_summary.csv (each change's effect on the totals); forecast.csv and forecast_wide.csv hold the statistical and the adjusted forecast side by side");
+    }
     match workbook {
         Some(_) => say!(
             "wrote forecast.xlsx (the planner's workbook) in {}",
@@ -805,7 +842,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
 }
 
 /// Output files of a forecast run, with their paths.
-fn forecast_files(out: &Path, report: bool, workbook: bool) -> Vec<String> {
+fn forecast_files(out: &Path, report: bool, workbook: bool, changes: bool) -> Vec<String> {
     let mut names = vec![
         "forecast.csv",
         "forecast_wide.csv",
@@ -819,6 +856,10 @@ fn forecast_files(out: &Path, report: bool, workbook: bool) -> Vec<String> {
         "quality.csv",
         "manifest.json",
     ];
+    if changes {
+        names.push("changes_applied.csv");
+        names.push("changes_summary.csv");
+    }
     if report {
         names.push("report.html");
     }

@@ -1,5 +1,6 @@
 //! Command-line definitions and dispatch.
 
+mod changes;
 mod clean;
 mod crosscheck;
 mod docs;

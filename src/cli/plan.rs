@@ -66,6 +66,12 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     let stock_bytes = std::fs::read(&a.stock)
         .map_err(|e| anyhow::anyhow!("{stock_name}: cannot read the stock file: {e}"))?;
     let (stock, mut warnings) = read::read_stock(&stock_name, &stock_bytes)?;
+    if forecast.adjusted {
+        warnings.push(format!(
+            "{}: the forecast run applied a changes file; the plan uses the adjusted forecast (columns adjusted, adjusted_upper_80, adjusted_upper_95)",
+            a.dir.join("forecast.csv").display()
+        ));
+    }
     let mut on_order = Vec::new();
     let mut on_order_sha = None;
     let on_order_name = a.on_order.as_ref().map(|p| p.display().to_string());

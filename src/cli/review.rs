@@ -151,6 +151,10 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         warnings: &warnings,
     };
     let written = provisio::report::review::write_review_report(&a.out, &page)?;
+    let changes_json = super::changes::review(&pasts, &result, &a.out)?;
+    if changes_json.is_some() {
+        super::say!("wrote review_changes.csv: the statistical and the adjusted forecast scored, per product and per change");
+    }
     print_summary(&result, limit);
     super::json_summary(|| {
         let products: Vec<serde_json::Value> = result
@@ -173,16 +177,20 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
                 })
             })
             .collect();
-        let files = [
+        let mut files = vec![
             "review.csv",
             "review_months.csv",
             "review.json",
             "review.html",
         ];
+        if changes_json.is_some() {
+            files.push("review_changes.csv");
+        }
         serde_json::json!({
             "command": "review",
             "out": a.out.display().to_string(),
             "products": products,
+            "changes_value_added": changes_json,
             "files": files.iter().map(|f| a.out.join(f).display().to_string()).collect::<Vec<_>>(),
             "warnings": warnings,
         })

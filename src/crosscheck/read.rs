@@ -672,6 +672,24 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
         &["product", "month", "forecast", "lower_80", "upper_80"],
         &[],
     )?;
+    // A run with a changes file has the adjusted forecast beside the
+    // statistical one: the cross-check uses the adjusted one.
+    let adjusted = sheet.columns.contains_key("adjusted");
+    let (c_point, c_l80, c_u80) = if adjusted {
+        ("adjusted", "adjusted_lower_80", "adjusted_upper_80")
+    } else {
+        ("forecast", "lower_80", "upper_80")
+    };
+    if adjusted {
+        warnings.push(format!(
+            "{}: the run applied a changes file ({}); the adjusted forecast is cross-checked",
+            fpath.display(),
+            manifest
+                .get("changes_file")
+                .and_then(|v| v.as_str())
+                .unwrap_or("named in manifest.json")
+        ));
+    }
     let mut products: BTreeMap<String, Vec<ForecastMonth>> = BTreeMap::new();
     for (line, rec) in &sheet.records {
         let err = |col: &str, m: String| input_error(&sheet.file, *line, Some(col), m);
@@ -690,9 +708,9 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
             .or_default()
             .push(ForecastMonth {
                 month,
-                point: num("forecast")?,
-                lower80: num("lower_80")?,
-                upper80: num("upper_80")?,
+                point: num(c_point)?,
+                lower80: num(c_l80)?,
+                upper80: num(c_u80)?,
             });
     }
     for v in products.values_mut() {

@@ -1,6 +1,7 @@
 //! Output files: every file is written to a temporary file in the target
 //! directory and renamed into place, so a reader never sees half a file.
 
+mod changes;
 mod crosscheck;
 mod forecast;
 mod plan;
@@ -13,6 +14,7 @@ pub use forecast::{
     write_scores, write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
 };
 
+pub use changes::{add_adjusted, ADJUSTED_COLUMNS, NEW_PRODUCT_MODEL};
 pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
 pub use plan::{
     write_order_totals, write_orders, write_plan, write_plan_log, ORDER_COLUMNS, PLAN_COLUMNS,

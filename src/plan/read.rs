@@ -514,6 +514,9 @@ pub struct ForecastSeries {
     pub per_site: bool,
     /// The model of each product (first row's).
     pub models: HashMap<String, String>,
+    /// Whether the points and bounds are the adjusted forecast (the run
+    /// applied a changes file: `forecast.csv` has an `adjusted` column).
+    pub adjusted: bool,
 }
 
 impl ForecastSeries {
@@ -595,9 +598,20 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         ("upper_80", false, ""),
         ("lower_95", false, ""),
         ("upper_95", false, ""),
+        ("adjusted", false, ""),
+        ("adjusted_upper_80", false, ""),
+        ("adjusted_upper_95", false, ""),
     ];
     let sheet = Sheet::parse(&file, &bytes, &known)?;
     let per_site = sheet.columns.contains_key("site");
+    // A run with a changes file has the adjusted forecast beside the
+    // statistical one: the plan uses the adjusted one.
+    let adjusted = sheet.columns.contains_key("adjusted");
+    let (c_point, c_u80, c_u95) = if adjusted {
+        ("adjusted", "adjusted_upper_80", "adjusted_upper_95")
+    } else {
+        ("forecast", "upper_80", "upper_95")
+    };
     let mut series: BTreeMap<SeriesKey, SeriesForecast> = BTreeMap::new();
     let mut products = Vec::new();
     let mut models = HashMap::new();
@@ -614,9 +628,9 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         };
         let month = sheet.month(line, row, "month")?;
         let any = |_: f64| true;
-        let point = sheet.required_number(line, row, "forecast", any, "a number")?;
-        let upper80 = sheet.number(line, row, "upper_80", any, "a number")?;
-        let upper95 = sheet.number(line, row, "upper_95", any, "a number")?;
+        let point = sheet.required_number(line, row, c_point, any, "a number")?;
+        let upper80 = sheet.number(line, row, c_u80, any, "a number")?;
+        let upper95 = sheet.number(line, row, c_u95, any, "a number")?;
         if !models.contains_key(&product) {
             products.push(product.clone());
             models.insert(product.clone(), sheet.get(row, "model").to_string());
@@ -649,5 +663,6 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         products,
         per_site,
         models,
+        adjusted,
     })
 }

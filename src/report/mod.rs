@@ -7,6 +7,7 @@
 //! file with the charts inline as SVG and its style and script inline, so it
 //! opens offline and can be mailed as it is.
 
+pub mod changes;
 pub mod crosscheck;
 pub mod html;
 pub mod plan;
@@ -74,6 +75,7 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
         history: p.history.clone(),
         projection: p.projection.clone(),
         backtest: p.backtest.clone(),
+        adjusted: Vec::new(),
     }
 }
 
@@ -89,12 +91,21 @@ pub fn write_report(dir: &Path) -> Result<Written> {
     })?;
     let names: Vec<&str> = run.products.iter().map(|p| p.product.as_str()).collect();
     let stems = chart::file_stems(&names);
+    // The known changes, when the run applied a changes file: the adjusted
+    // line of the product charts and a section of its own.
+    let changes_part = changes::changes_part(dir, &charts_dir)?;
     let drawn: Vec<Result<(String, Vec<PathBuf>)>> = run
         .products
         .par_iter()
         .zip(stems.par_iter())
         .map(|(p, stem)| {
-            let c = product_chart(p);
+            let mut c = product_chart(p);
+            if let Some(a) = changes_part
+                .as_ref()
+                .and_then(|x| x.adjusted.get(&p.product))
+            {
+                c.adjusted = a.clone();
+            }
             let svg = chart::product_svg(&c)?;
             let svg_path = charts_dir.join(format!("{stem}.svg"));
             crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
@@ -118,6 +129,15 @@ pub fn write_report(dir: &Path) -> Result<Written> {
         charts.extend(files);
     }
     let mut sections = Vec::new();
+    if let Some(part) = changes_part {
+        charts.extend(part.files);
+        sections.push(Section {
+            id: "changes",
+            title: "Known changes ahead",
+            nav: "Known changes",
+            html: part.html,
+        });
+    }
     // The cross-check section, when `provisio crosscheck` has run here.
     if let Some((html, files)) = crosscheck::write_section(dir)? {
         charts.extend(files);

@@ -82,6 +82,7 @@ pub fn review_chart(past: &PastForecast, r: &ProductReview) -> ProductChart {
         history,
         projection,
         backtest: None,
+        adjusted: Vec::new(),
     }
 }
 

@@ -8,7 +8,8 @@ use super::read::read_text_table;
 use crate::calendar::YearMonth;
 use crate::error::{Error, Result};
 use crate::output::{
-    csv_text_read, ColumnKind, WorkbookContent, WorkbookForecast, WorkbookTable, MAX_TABLE_ROWS,
+    csv_text_read, ColumnKind, WorkbookContent, WorkbookForecast, WorkbookMonth, WorkbookTable,
+    MAX_TABLE_ROWS,
 };
 
 /// Name of the workbook in the output folder.
@@ -221,8 +222,65 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
             .months
             .push((month, point, num(4).zip(num(5)), num(6).zip(num(7))));
     }
+    // A run with a changes file: the adjusted forecast follows each
+    // changed product's statistical one, under a model of its own.
+    if let Some(a) = header.iter().position(|h| h == "adjusted") {
+        let ac: Vec<Option<usize>> = crate::output::ADJUSTED_COLUMNS
+            .iter()
+            .map(|n| header.iter().position(|h| h == n))
+            .collect();
+        let mut adjusted: HashMap<String, Vec<WorkbookMonth>> = HashMap::new();
+        for r in &rows {
+            let num = |k: Option<usize>| {
+                k.and_then(|k| r.get(k))
+                    .and_then(|v| v.trim().parse::<f64>().ok())
+            };
+            let (Some(month), Some(point)) = (
+                r.get(c[1]).and_then(|m| YearMonth::parse(m.trim()).ok()),
+                num(Some(a)),
+            ) else {
+                continue;
+            };
+            adjusted
+                .entry(csv_text_read(r.get(c[0]).map(String::as_str).unwrap_or("")).to_string())
+                .or_default()
+                .push((
+                    month,
+                    point,
+                    num(ac[1]).zip(num(ac[2])),
+                    num(ac[3]).zip(num(ac[4])),
+                ));
+        }
+        let changed: Vec<String> = read_text_table(dir, "changes_summary.csv", usize::MAX)?
+            .map(|(h, rows, _)| {
+                let pc = h.iter().position(|x| x == "product");
+                rows.iter()
+                    .filter_map(|r| pc.and_then(|p| r.get(p)))
+                    .map(|p| csv_text_read(p).to_string())
+                    .collect()
+            })
+            .unwrap_or_default();
+        let mut with = Vec::with_capacity(forecasts.len() * 2);
+        for f in forecasts {
+            let extra = changed
+                .contains(&f.product)
+                .then(|| adjusted.remove(&f.product))
+                .flatten();
+            let product = f.product.clone();
+            with.push(f);
+            if let Some(months) = extra {
+                with.push(WorkbookForecast {
+                    product,
+                    model: "adjusted (known changes)".into(),
+                    months,
+                });
+            }
+        }
+        forecasts = with;
+    }
     let mut tables = Vec::new();
     for (file, sheet) in [
+        ("changes_summary.csv", "Known changes"),
         ("selection.csv", "Selection"),
         ("adjustments.csv", "Adjustments"),
         ("quality.csv", "Data quality"),
