@@ -9,10 +9,11 @@ use crate::backtest::{
     self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
     COMBINATION_SIZE,
 };
+use crate::calendar::YearMonth;
 use crate::clean::CleanSeries;
 use crate::error::Result;
 use crate::models::{candidates, AnyModel};
-use crate::project::{check_horizon, project, Projection};
+use crate::project::{check_horizon, project, silence_warning, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection};
 
 /// Model name prefixes that compete for intermittent or lumpy demand.
@@ -95,6 +96,20 @@ pub struct ForecastSettings {
     /// Backtest forecasts kept for output.
     #[serde(default)]
     pub backtest_detail: BacktestDetail,
+    /// The data set's last month: every projection starts the month after
+    /// (see [`crate::project`]). `None`: [`forecast_all_with`] takes the
+    /// latest last month of the series it is given; a single product
+    /// projected on its own starts after its own last month.
+    #[serde(skip)]
+    pub data_end: Option<YearMonth>,
+    /// Months a product may be silent before the data set's last month
+    /// without the "possibly discontinued" warning.
+    #[serde(default = "default_silence_limit")]
+    pub silence_limit: usize,
+}
+
+fn default_silence_limit() -> usize {
+    crate::project::DEFAULT_SILENCE_LIMIT
 }
 
 impl Default for ForecastSettings {
@@ -104,6 +119,8 @@ impl Default for ForecastSettings {
             select: SelectSettings::default(),
             horizon: 24,
             backtest_detail: BacktestDetail::default(),
+            data_end: None,
+            silence_limit: crate::project::DEFAULT_SILENCE_LIMIT,
         }
     }
 }
@@ -128,6 +145,7 @@ pub struct CheckedForecastSettings {
     backtest: CheckedBacktestSettings,
     select: SelectSettings,
     horizon: usize,
+    silence: usize,
     raw: ForecastSettings,
 }
 
@@ -145,6 +163,7 @@ impl ForecastSettings {
             backtest: self.backtest.clone().check()?,
             select: self.select.clone().check()?,
             horizon: check_horizon(self.horizon)?,
+            silence: crate::project::check_silence_limit(self.silence_limit)?,
             raw: self,
         })
     }
@@ -332,6 +351,13 @@ pub fn forecast_product_with(
         ));
     }
     let last = series.month(series.len().saturating_sub(1));
+    let end = settings.raw.data_end.map_or(last, |e| e.max(last));
+    warnings.extend(silence_warning(
+        &series.product,
+        last,
+        end,
+        settings.silence,
+    ));
     let find = |name: &str| {
         offered
             .iter()
@@ -359,14 +385,21 @@ pub fn forecast_product_with(
     } else {
         find(&selection.chosen).into_iter().collect()
     };
-    let mut projection = project(y, last, &selection.chosen, &chosen_models, settings.horizon);
+    let mut projection = project(
+        y,
+        last,
+        end,
+        &selection.chosen,
+        &chosen_models,
+        settings.horizon,
+    );
     if let (Err(e), true) = (&projection, selection.chosen != fallback) {
         warnings.push(format!(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
             series.product, selection.chosen
         ));
         projection = match find(&fallback) {
-            Some(m) => project(y, last, &fallback, &[m], settings.horizon),
+            Some(m) => project(y, last, end, &fallback, &[m], settings.horizon),
             None => projection,
         };
     }
@@ -446,6 +479,16 @@ pub fn forecast_all_with(
     progress: &(dyn Fn() + Sync),
 ) -> Vec<ProductForecast> {
     let none = ProductOptions::default();
+    // One projection start for every product: the month after the latest
+    // last month.
+    let mut common = settings.clone();
+    if common.raw.data_end.is_none() {
+        common.raw.data_end = series
+            .iter()
+            .map(|s| s.month(s.len().saturating_sub(1)))
+            .max();
+    }
+    let settings = &common;
     series
         .par_iter()
         .map_init(candidates, |models, s| {

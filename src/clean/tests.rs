@@ -323,7 +323,14 @@ fn settings_of_older_manifests_still_read() {
     // Manifests written before per-product thresholds lack the key.
     let old = r#"{"max_stockout_days":15.0,"reporting_floor":0.5,"nonreporting_weight":1.0,"site_trailing_fill":3,"outlier_threshold":3.5,"replace_outliers":false}"#;
     let s: CleanSettings = serde_json::from_str(old).unwrap();
-    assert_eq!(s, CleanSettings::default());
+    // The threshold then was a modified z-score; it is read as written.
+    assert_eq!(
+        s,
+        CleanSettings {
+            outlier_threshold: 3.5,
+            ..CleanSettings::default()
+        }
+    );
     // And settings without per-product thresholds are written as before.
     let v = serde_json::to_value(CleanSettings::default()).unwrap();
     assert!(v.get("stockout_days_by_product").is_none());

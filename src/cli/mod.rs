@@ -328,8 +328,8 @@ pub struct CleanArgs {
     /// Months a site is still filled after its last report before it counts as stopped.
     #[arg(long, default_value_t = 3, value_name = "MONTHS")]
     site_trailing_fill: u32,
-    /// Modified z-score above which a month is flagged as an outlier.
-    #[arg(long, default_value_t = 3.5, value_name = "Z")]
+    /// Interquartile ranges beyond the quartiles of the seasonal decomposition's remainder at which a month is flagged as an outlier.
+    #[arg(long, default_value_t = provisio::clean::outliers::DEFAULT_THRESHOLD, value_name = "K")]
     outlier_threshold: f64,
     /// Replace flagged outliers by their robust expected value (default: flag only).
     #[arg(long)]

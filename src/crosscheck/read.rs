@@ -682,6 +682,11 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
                 .filter(|x| x.is_finite())
                 .ok_or_else(|| err(col, format!("'{v}' is not a number")))
         };
+        // Bridged months (before the common projection start) are not
+        // part of the projection period compared here.
+        if sheet.get(rec, "bridged") == "yes" {
+            continue;
+        }
         let m = sheet.get(rec, "month");
         let month = YearMonth::parse(m).map_err(|e| err("month", format!("'{m}': {e}")))?;
         products
