@@ -105,7 +105,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("cleaning", "nonreporting_weight", "number", "1.0", "0 to 1", "k: consumption assumed for non-reporting facilities relative to reporting ones (1 = divide by the rate)", "1.0"),
     key("cleaning", "site_trailing_fill", "integer", "3", "0 to 24", "months a site is still filled after its last report", "3"),
     key("cleaning", "outlier_threshold", "number", "5.0", "above 0", "interquartile ranges beyond the quartiles of the seasonal decomposition's remainder at which a month is flagged as an outlier", "5.0"),
-    key("cleaning", "replace_outliers", "true/false", "false", "true, false", "replace flagged outliers by their robust expected value (otherwise flag only)", "false"),
+    key("cleaning", "replace_outliers", "true/false", "true", "true, false", "fit on the expected value of a flagged outlier month instead of the reported one (false: flag only); the reported value stays in cleaned.csv", "true"),
     key("backtest", "origins", "integer", "12", "1 to 60", "number of rolling backtest origins (K)", "12"),
     key("backtest", "backtest_horizon", "integer", "12", "1 to 36", "months forecast at each backtest origin (H)", "12"),
     key("backtest", "score_imputed", "true/false", "false", "true, false", "also score months that are mostly imputed", "false"),
