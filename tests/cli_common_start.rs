@@ -102,6 +102,29 @@ fn every_product_starts_at_the_common_month() {
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     assert!(!t.contains("possibly discontinued"), "{t}");
+    // The JSON summary gives each product's start and bridged months.
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--out",
+        "o4",
+        "--horizon",
+        "12",
+        "--no-report",
+        "--no-workbook",
+        "--json",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    for p in j["products"].as_array().unwrap() {
+        assert_eq!(p["projection_start"], "2026-01", "{p}");
+        let want = match p["product"].as_str().unwrap() {
+            "Alpha" => 0,
+            "Bravo" => 2,
+            _ => 9,
+        };
+        assert_eq!(p["bridged_months"], want, "{p}");
+    }
     w.write("r.toml", "[projection]\nsilence_limit = 121\n");
     let o = w.run(&["forecast", "d.csv", "--out", "o3", "--config", "r.toml"]);
     assert!(!o.status.success());

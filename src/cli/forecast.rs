@@ -571,6 +571,8 @@ fn product_json(r: &ProductForecast) -> serde_json::Value {
         "runner_up": s.runner_up.as_ref().map(|x| &x.0),
         "runner_up_margin_pct": s.margin_pct,
         "next_12_months": r.projection.as_ref().and_then(|p| p.totals.first()),
+        "projection_start": r.projection.as_ref().map(|p| p.horizon_start().to_string()),
+        "bridged_months": r.projection.as_ref().map(|p| p.bridged),
         "reason": s.reason,
         "warnings": r.warnings,
     })
