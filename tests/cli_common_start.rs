@@ -86,6 +86,16 @@ fn every_product_starts_at_the_common_month() {
     );
     assert!(page.contains("2 product(s) not reported up to the data"));
 
+    // The workbook says which months are bridged.
+    use calamine::{Data, Reader};
+    let mut book: calamine::Xlsx<_> = calamine::open_workbook(w.path("o/forecast.xlsx")).unwrap();
+    let sheet = book.worksheet_range("Forecast").unwrap();
+    assert!(
+        matches!(sheet.get((1, 0)), Some(Data::String(s)) if s.contains("bridged")),
+        "{:?}",
+        sheet.get((1, 0))
+    );
+
     // A longer limit silences the warning; it is also a configuration key.
     let o = w.run(&[
         "forecast",
