@@ -104,8 +104,8 @@ pub const KEYS: &[KeyDoc] = &[
     key("cleaning", "reporting_floor", "number", "0.5", "above 0, at most 1", "a month reported below this rate (fraction) is treated as missing", "0.5"),
     key("cleaning", "nonreporting_weight", "number", "1.0", "0 to 1", "k: consumption assumed for non-reporting facilities relative to reporting ones (1 = divide by the rate)", "1.0"),
     key("cleaning", "site_trailing_fill", "integer", "3", "0 to 24", "months a site is still filled after its last report", "3"),
-    key("cleaning", "outlier_threshold", "number", "3.5", "above 0", "modified z-score above which a month is flagged as an outlier", "3.5"),
-    key("cleaning", "replace_outliers", "true/false", "false", "true, false", "replace flagged outliers by their robust expected value (otherwise flag only)", "false"),
+    key("cleaning", "outlier_threshold", "number", "5.0", "above 0", "interquartile ranges beyond the quartiles of the seasonal decomposition's remainder at which a month is flagged as an outlier", "5.0"),
+    key("cleaning", "replace_outliers", "true/false", "true", "true, false", "fit on the expected value of a flagged outlier month instead of the reported one (false: flag only); the reported value stays in cleaned.csv", "true"),
     key("backtest", "origins", "integer", "12", "1 to 60", "number of rolling backtest origins (K)", "12"),
     key("backtest", "backtest_horizon", "integer", "12", "1 to 36", "months forecast at each backtest origin (H)", "12"),
     key("backtest", "score_imputed", "true/false", "false", "true, false", "also score months that are mostly imputed", "false"),
@@ -115,6 +115,8 @@ pub const KEYS: &[KeyDoc] = &[
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
     key("projection", "horizon", "integer", "24", "1 to 60", "months projected", "24"),
     key("projection", "changes", "text (path)", "not set", "a CSV file or workbook of known changes", "known changes ahead applied to the statistical projection (the adjusted forecast); relative to the folder of the configuration file", "\"changes.csv\""),
+    key("projection", "horizon", "integer", "24", "1 to 60", "months projected, from the month after the data set's last month", "24"),
+    key("projection", "silence_limit", "integer", "6", "0 to 120", "months a product may go without a report before the data set's last month without the possibly-discontinued warning", "6"),
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),
     key("output", "overwrite", "true/false", "false", "true, false", "write into the folder even if it holds files provisio did not write", "false"),
     key("output", "no_report", "true/false", "false", "true, false", "skip the charts and report.html", "false"),
@@ -201,6 +203,8 @@ pub struct ProjectionSection {
     pub horizon: Option<usize>,
     /// Changes file, relative to the configuration file's folder.
     pub changes: Option<String>,
+    /// Months without a report before the warning "possibly discontinued".
+    pub silence_limit: Option<usize>,
 }
 
 /// `[output]`: where and what to write.
@@ -516,6 +520,9 @@ impl RunConfig {
         if let Some(h) = self.projection.horizon {
             crate::project::check_horizon(h).map_err(|e| setting_at("projection", e))?;
         }
+        if let Some(l) = self.projection.silence_limit {
+            crate::project::check_silence_limit(l).map_err(|e| setting_at("projection", e))?;
+        }
         let models: Vec<String> = crate::models::candidates()
             .iter()
             .map(|m| m.name())
@@ -709,6 +716,7 @@ mod tests {
             projection: ProjectionSection {
                 horizon: Some(18),
                 changes: Some("changes.csv".into()),
+                silence_limit: Some(9),
             },
             output: OutputSection {
                 out: Some("out dir".into()),

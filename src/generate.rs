@@ -76,6 +76,24 @@ pub struct Scenario {
     pub products: Vec<ProductSpec>,
     /// Random seed; the same seed gives the same file.
     pub seed: u64,
+    /// Entry errors and campaign months added on request (none by default,
+    /// so the demo and the default sets do not change).
+    pub anomalies: Anomalies,
+}
+
+/// Anomalies to add to a generated set, drawn from their own random stream
+/// (so the rest of the file is the same with or without them).
+///
+/// | field | default | meaning |
+/// |---|---|---|
+/// | `entry_errors` | 0 | chance that a reported site-month carries a data-entry error: ×10, or a digit too many (×10 plus a digit) |
+/// | `campaigns` | 0 | chance that a product-month is a campaign month: true demand ×2 to ×4 at every site |
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Anomalies {
+    /// Chance of a data-entry error per reported site-month.
+    pub entry_errors: f64,
+    /// Chance of a campaign (a real demand spike) per product-month.
+    pub campaigns: f64,
 }
 
 /// One generated row of the input contract.
@@ -93,6 +111,9 @@ pub struct GeneratedRow {
     pub stockout_days: u32,
     /// Reporting rate in percent (whole number).
     pub reporting_rate_pct: u32,
+    /// The site-month's true demand (before stockouts, partial reporting
+    /// and entry errors; campaigns included), rounded to 2 decimals.
+    pub true_demand: f64,
 }
 
 fn product(
@@ -128,6 +149,7 @@ pub fn demo_scenario() -> Scenario {
         start,
         months: 60,
         seed: 2026,
+        anomalies: Anomalies::default(),
         sites: vec![
             site("Kestrel Hills District", 0.35, 0.95),
             site("Marrow Bay District", 0.30, 0.90),
@@ -312,6 +334,7 @@ pub fn synthetic_scenario(products: usize, sites: usize, months: usize, seed: u6
         sites: site_specs,
         products: product_specs,
         seed,
+        anomalies: Anomalies::default(),
     }
 }
 
@@ -319,13 +342,26 @@ pub fn synthetic_scenario(products: usize, sites: usize, months: usize, seed: u6
 /// month by month. Deterministic for a given scenario.
 pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
     let mut rng = ChaCha8Rng::seed_from_u64(sc.seed);
+    let mut odd = ChaCha8Rng::seed_from_u64(sc.seed ^ 0xa70_a11e5);
+    let errors = sc.anomalies.entry_errors.clamp(0.0, 1.0);
+    let campaigns = sc.anomalies.campaigns.clamp(0.0, 1.0);
     let mut rows = Vec::with_capacity(sc.products.len() * sc.sites.len() * sc.months);
     for p in &sc.products {
         let shape = p.noise.powi(-2).max(1.0);
         let noise = Gamma::new(shape, 1.0 / shape).ok();
+        // Campaign months are the product's, at every site at once.
+        let campaign: Vec<f64> = (0..sc.months)
+            .map(|_| {
+                if campaigns > 0.0 && odd.gen_bool(campaigns) {
+                    odd.gen_range(2.0..4.0)
+                } else {
+                    1.0
+                }
+            })
+            .collect();
         for s in &sc.sites {
             let mut stockout_left = 0u32;
-            for t in 0..sc.months {
+            for (t, &spike) in campaign.iter().enumerate() {
                 let month = sc.start.plus(t as i64);
                 let years = t as f64 / 12.0;
                 let mean = p.base
@@ -359,7 +395,7 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
                         }
                     }
                     _ => mean * noise.map(|g| g.sample(&mut rng)).unwrap_or(1.0),
-                };
+                } * spike;
                 let days = month.days();
                 if stockout_left == 0 && rng.gen_bool(p.stockout_chance.clamp(0.0, 1.0)) {
                     stockout_left = rng.gen_range(1..=3);
@@ -383,6 +419,16 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
                 if rng.gen_bool(p.typo_chance.clamp(0.0, 1.0)) {
                     reported *= 10.0;
                 }
+                if errors > 0.0 && reported > 0.0 && odd.gen_bool(errors) {
+                    // ×10, or a digit too many (the same digits and one more).
+                    let extra = if odd.gen_bool(0.5) {
+                        0.0
+                    } else {
+                        odd.gen_range(0..10) as f64
+                    };
+                    reported = reported * 10.0 + extra;
+                }
+                let true_demand = (demand * 100.0).round() / 100.0;
                 if rng.gen_bool(p.missing_chance.clamp(0.0, 1.0)) {
                     if rng.gen_bool(0.5) {
                         continue; // no row at all
@@ -394,6 +440,7 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
                         consumed: None,
                         stockout_days: 0,
                         reporting_rate_pct: 0,
+                        true_demand,
                     });
                     continue;
                 }
@@ -404,6 +451,7 @@ pub fn generate(sc: &Scenario) -> Vec<GeneratedRow> {
                     consumed: Some(reported),
                     stockout_days,
                     reporting_rate_pct: rate_pct,
+                    true_demand,
                 });
             }
         }
@@ -423,19 +471,36 @@ const HEADER: [&str; 6] = [
 
 /// Writes generated rows as the long CSV input contract.
 pub fn write_rows(w: &mut dyn std::io::Write, rows: &[GeneratedRow]) -> std::io::Result<()> {
+    write_rows_with(w, rows, false)
+}
+
+/// [`write_rows`], with a last column `true_demand` when `truth` is set
+/// (readers of the input contract ignore columns they do not know).
+pub fn write_rows_with(
+    w: &mut dyn std::io::Write,
+    rows: &[GeneratedRow],
+    truth: bool,
+) -> std::io::Result<()> {
     let mut c = csv::Writer::from_writer(w);
     let e = std::io::Error::other;
-    c.write_record(HEADER).map_err(e)?;
+    let mut header = HEADER.to_vec();
+    if truth {
+        header.push("true_demand");
+    }
+    c.write_record(&header).map_err(e)?;
     for r in rows {
-        c.write_record([
-            r.product.as_str(),
-            r.site.as_str(),
-            &r.month.to_string(),
-            &r.consumed.map(|v| format!("{v:.0}")).unwrap_or_default(),
-            &r.stockout_days.to_string(),
-            &r.reporting_rate_pct.to_string(),
-        ])
-        .map_err(e)?;
+        let mut rec = vec![
+            r.product.clone(),
+            r.site.clone(),
+            r.month.to_string(),
+            r.consumed.map(|v| format!("{v:.0}")).unwrap_or_default(),
+            r.stockout_days.to_string(),
+            r.reporting_rate_pct.to_string(),
+        ];
+        if truth {
+            rec.push(format!("{}", r.true_demand));
+        }
+        c.write_record(&rec).map_err(e)?;
     }
     c.flush()
 }
@@ -495,5 +560,53 @@ mod tests {
         let rows = generate(&sc);
         assert!(rows.iter().any(|r| r.stockout_days > 0));
         assert!(rows.iter().any(|r| r.consumed.is_none()));
+    }
+
+    #[test]
+    fn anomalies_leave_the_rest_of_the_file_alone() {
+        let plain = synthetic_scenario(20, 2, 36, 5);
+        let mut odd = plain.clone();
+        odd.anomalies = Anomalies {
+            entry_errors: 0.05,
+            campaigns: 0.05,
+        };
+        let (a, b) = (generate(&plain), generate(&odd));
+        assert_eq!(generate(&odd), b, "deterministic by seed");
+        assert_eq!(a.len(), b.len());
+        let mut errors = 0;
+        let mut campaigns = 0;
+        for (x, y) in a.iter().zip(&b) {
+            assert_eq!(
+                (&x.product, &x.site, x.month),
+                (&y.product, &y.site, y.month)
+            );
+            assert_eq!(x.stockout_days, y.stockout_days);
+            if y.true_demand > 1.5 * x.true_demand + 1.0 {
+                campaigns += 1;
+            }
+            // An entry error: ten times the value, plus at most one digit.
+            if let (Some(u), Some(v)) = (x.consumed, y.consumed) {
+                if v >= 10.0 * u && v > 0.0 && y.true_demand == x.true_demand {
+                    assert!(v <= 10.0 * u + 9.0, "{u} -> {v}");
+                    errors += 1;
+                }
+            }
+        }
+        assert!(errors > 0 && campaigns > 0, "{errors} {campaigns}");
+    }
+
+    #[test]
+    fn true_demand_column_only_on_request() {
+        let rows = generate(&synthetic_scenario(2, 1, 6, 1));
+        let mut plain = Vec::new();
+        write_rows(&mut plain, &rows).unwrap();
+        let plain = String::from_utf8(plain).unwrap();
+        assert!(plain.starts_with("product,site,month,consumed,stockout_days,reporting_rate\n"));
+        let mut truth = Vec::new();
+        write_rows_with(&mut truth, &rows, true).unwrap();
+        let truth = String::from_utf8(truth).unwrap();
+        assert!(truth
+            .starts_with("product,site,month,consumed,stockout_days,reporting_rate,true_demand\n"));
+        assert_eq!(truth.lines().count(), plain.lines().count());
     }
 }

@@ -8,12 +8,13 @@ use rayon::prelude::*;
 use crate::backtest::{
     self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
 };
+use crate::calendar::YearMonth;
 use crate::calibrate::{calibrate, RangeMethod};
 use crate::clean::CleanSeries;
 use crate::error::Result;
 use crate::models::Forecast;
 use crate::models::{candidates, AnyModel};
-use crate::project::{check_horizon, project, Projection};
+use crate::project::{check_horizon, project, silence_warning, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
 
 /// Model name prefixes that compete for intermittent or lumpy demand.
@@ -96,6 +97,20 @@ pub struct ForecastSettings {
     /// Backtest forecasts kept for output.
     #[serde(default)]
     pub backtest_detail: BacktestDetail,
+    /// The data set's last month: every projection starts the month after
+    /// (see [`crate::project`]). `None`: [`forecast_all_with`] takes the
+    /// latest last month of the series it is given; a single product
+    /// projected on its own starts after its own last month.
+    #[serde(skip)]
+    pub data_end: Option<YearMonth>,
+    /// Months a product may be silent before the data set's last month
+    /// without the "possibly discontinued" warning.
+    #[serde(default = "default_silence_limit")]
+    pub silence_limit: usize,
+}
+
+fn default_silence_limit() -> usize {
+    crate::project::DEFAULT_SILENCE_LIMIT
 }
 
 impl Default for ForecastSettings {
@@ -105,6 +120,8 @@ impl Default for ForecastSettings {
             select: SelectSettings::default(),
             horizon: 24,
             backtest_detail: BacktestDetail::default(),
+            data_end: None,
+            silence_limit: crate::project::DEFAULT_SILENCE_LIMIT,
         }
     }
 }
@@ -129,6 +146,7 @@ pub struct CheckedForecastSettings {
     backtest: CheckedBacktestSettings,
     select: SelectSettings,
     horizon: usize,
+    silence: usize,
     raw: ForecastSettings,
 }
 
@@ -146,6 +164,7 @@ impl ForecastSettings {
             backtest: self.backtest.clone().check()?,
             select: self.select.clone().check()?,
             horizon: check_horizon(self.horizon)?,
+            silence: crate::project::check_silence_limit(self.silence_limit)?,
             raw: self,
         })
     }
@@ -352,6 +371,13 @@ pub fn forecast_product_with(
         ));
     }
     let last = series.month(series.len().saturating_sub(1));
+    let end = settings.raw.data_end.map_or(last, |e| e.max(last));
+    warnings.extend(silence_warning(
+        &series.product,
+        last,
+        end,
+        settings.silence,
+    ));
     let find = |name: &str| {
         offered
             .iter()
@@ -372,6 +398,7 @@ pub fn forecast_product_with(
     let mut projection = project(
         y,
         last,
+        end,
         &selection.chosen,
         &members_of(&selection.chosen),
         settings.horizon,
@@ -382,13 +409,13 @@ pub fn forecast_product_with(
             series.product, selection.chosen
         ));
         projection = match find(&fallback) {
-            Some(m) => project(y, last, &fallback, &[m], settings.horizon),
+            Some(m) => project(y, last, end, &fallback, &[m], settings.horizon),
             None => projection,
         };
     }
     if !selection.pinned {
         projection = avoid_zero_projection(y, &bt, &mut selection, projection, &|name| {
-            project(y, last, name, &members_of(name), settings.horizon)
+            project(y, last, end, name, &members_of(name), settings.horizon)
         });
     }
     if matches!(&projection, Ok(p) if all_zero(p)) && in_use(y) {
@@ -495,8 +522,14 @@ pub fn suspect_warnings(
     if n >= 24 {
         let last: f64 = y[n - 12..].iter().sum();
         let prev: f64 = y[n - 24..n - 12].iter().sum();
-        let next: f64 = projection.forecast.point.iter().take(12).sum();
-        if last > 0.0 && projection.forecast.point.len() >= 12 {
+        let next: f64 = projection
+            .forecast
+            .point
+            .iter()
+            .skip(projection.bridged)
+            .take(12)
+            .sum();
+        if last > 0.0 && projection.forecast.point.len() >= projection.bridged + 12 {
             let jump = next / last - 1.0;
             let hist = if prev > 0.0 { last / prev - 1.0 } else { 0.0 };
             let backed = jump.signum() == hist.signum() && hist.abs() >= jump.abs() / 2.0;
@@ -612,6 +645,16 @@ pub fn forecast_all_with(
     progress: &(dyn Fn() + Sync),
 ) -> Vec<ProductForecast> {
     let none = ProductOptions::default();
+    // One projection start for every product: the month after the latest
+    // last month.
+    let mut common = settings.clone();
+    if common.raw.data_end.is_none() {
+        common.raw.data_end = series
+            .iter()
+            .map(|s| s.month(s.len().saturating_sub(1)))
+            .max();
+    }
+    let settings = &common;
     series
         .par_iter()
         .map_init(candidates, |models, s| {

@@ -243,7 +243,8 @@ fn product_settings_reach_the_outputs() {
             "upper_95",
             "units",
             "pack_size",
-            "packs"
+            "packs",
+            "bridged"
         ]
     );
     for r in &rows {

@@ -158,8 +158,11 @@ fn forecast_demo_writes_every_output() {
     // forecast_wide.csv: the numbers of forecast.csv laid out wide, five
     // rows per product, months as columns.
     let (wh, wide) = read_csv_file(&out.join("forecast_wide.csv"));
-    assert_eq!(&wh[..3], ["product", "model", "row"]);
-    assert_eq!(wh.len(), 3 + 18);
+    assert_eq!(&wh[..4], ["product", "model", "row", "bridged"]);
+    assert_eq!(wh.len(), 4 + 18);
+    // The demo's products all report up to its last month: nothing bridged.
+    assert!(wide.iter().all(|w| &w[3] == "0"));
+    assert!(fc.iter().all(|r| &r[11] == "no"));
     assert_eq!(wide.len(), 12 * 5);
     for r in &fc {
         let c = wh.iter().position(|h| h == &r[1]).unwrap();

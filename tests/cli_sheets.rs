@@ -447,6 +447,7 @@ fn a_tab_at_the_start_of_a_name_is_text_in_the_workbook() {
                 Some((4.0, 6.0)),
                 Some((3.0, 7.0)),
             )],
+            bridged: 0,
         }],
         tables: vec![],
         parameters: vec![("input".into(), "=cmd|' /C calc'!A0".into())],

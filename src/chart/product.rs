@@ -43,6 +43,9 @@ pub struct ProjectedMonth {
     pub range80: Option<(f64, f64)>,
     /// 95% range (lower, upper), when known.
     pub range95: Option<(f64, f64)>,
+    /// Bridged: forecast between the product's last month and the common
+    /// projection start (drawn as open circles).
+    pub bridged: bool,
 }
 
 /// The forecasts one model made from one backtest origin.
@@ -419,8 +422,29 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
             .msg()?;
         items.push((Glyph::Line(FORECAST, 2), c.projection_label.clone()));
         draw_adjusted(&mut chart, c, &x, &mut items)?;
+        let bridged: Vec<(f64, f64)> = c
+            .projection
+            .iter()
+            .filter(|p| p.bridged)
+            .map(|p| (x(p.month), p.point))
+            .collect();
+        if !bridged.is_empty() {
+            chart
+                .draw_series(
+                    bridged
+                        .into_iter()
+                        .map(|p| Circle::new(p, 4, FORECAST.stroke_width(2))),
+                )
+                .msg()?;
+            items.push((
+                Glyph::Ring(FORECAST),
+                "bridged month (not reported, before the common start)".to_string(),
+            ));
+        }
         items.extend(legend);
 
+        // The mark is at the common start, after any bridged months.
+        let first = c.projection.iter().find(|p| !p.bridged).unwrap_or(first);
         let xs = x(first.month) - 0.5;
         chart
             .draw_series(DashedLineSeries::new(
@@ -596,10 +620,25 @@ mod tests {
             point: 3.0,
             range80: None,
             range95: None,
+            bridged: false,
         }];
-        let svg = product_svg(&chart(h, p)).unwrap();
+        let svg = product_svg(&chart(h.clone(), p)).unwrap();
         assert!(svg.contains("forecast from Jul 2025"));
         assert!(!svg.contains("95% range"));
+        assert!(!svg.contains("bridged month"));
+        // Two bridged months: marked, and the start mark at the common start.
+        let p: Vec<_> = (0..4)
+            .map(|k| ProjectedMonth {
+                month: ym(2025, 7).plus(k),
+                point: 3.0,
+                range80: None,
+                range95: None,
+                bridged: k < 2,
+            })
+            .collect();
+        let svg = product_svg(&chart(h, p)).unwrap();
+        assert!(svg.contains("bridged month"));
+        assert!(svg.contains("forecast from Sep 2025"), "{svg}");
     }
 
     #[test]

@@ -16,7 +16,7 @@ use rayon::prelude::*;
 use crate::calendar::YearMonth;
 use crate::data::{build_series, Dataset, ProductData, SiteSeries};
 use crate::error::{Error, Result};
-use impute::{impute, usable_profile};
+use impute::impute;
 
 /// Cleaning settings as the user gives them. Check them with
 /// [`CleanSettings::check`] before use.
@@ -27,8 +27,8 @@ use impute::{impute, usable_profile};
 /// | `reporting_floor` | 0.5 | 0–1: months reported below this rate are treated as missing |
 /// | `nonreporting_weight` (k) | 1.0 | 0–1: relative consumption assumed for non-reporting facilities |
 /// | `site_trailing_fill` | 3 | 0–24: months a site may be filled after its last report |
-/// | `outlier_threshold` | 3.5 | > 0: modified z-score above which a month is flagged |
-/// | `replace_outliers` | false | replace flagged months by the robust expected value |
+/// | `outlier_threshold` | 5.0 | > 0: interquartile ranges beyond the quartiles of the decomposition remainder at which a month is flagged |
+/// | `replace_outliers` | true | replace flagged months by the robust expected value (measured: forecasts true demand better; README) |
 /// | `stockout_days_by_product` | none | 0–31 per product: its own `max_stockout_days` |
 #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct CleanSettings {
@@ -40,7 +40,8 @@ pub struct CleanSettings {
     pub nonreporting_weight: f64,
     /// Months after a site's last row that are still filled.
     pub site_trailing_fill: u32,
-    /// Modified z-score threshold for outliers.
+    /// Interquartile ranges beyond the quartiles of the remainder at which
+    /// a month is flagged (see [`outliers`]).
     pub outlier_threshold: f64,
     /// Replace flagged outliers (otherwise only flag them).
     pub replace_outliers: bool,
@@ -58,7 +59,7 @@ impl Default for CleanSettings {
             nonreporting_weight: 1.0,
             site_trailing_fill: 3,
             outlier_threshold: outliers::DEFAULT_THRESHOLD,
-            replace_outliers: false,
+            replace_outliers: true,
             stockout_days_by_product: BTreeMap::new(),
         }
     }
@@ -687,14 +688,7 @@ fn clean_site(
     // error never serves as a neighbour for a filled month.
     let dense: Vec<f64> = vals.iter().map(|v| v.unwrap_or(0.0)).collect();
     let trusted: Vec<bool> = vals.iter().map(Option::is_some).collect();
-    let profile = usable_profile(&vals, site.start);
-    let found = outliers::find_outliers(
-        &dense,
-        &trusted,
-        site.start,
-        profile.as_ref(),
-        s.outlier_threshold,
-    );
+    let found = outliers::find_outliers(&dense, &trusted, site.start, s.outlier_threshold);
     let mut fill_input = vals.clone();
     for o in &found {
         fill_input[o.t] = None;
@@ -719,8 +713,9 @@ fn clean_site(
         let line = site.months.get(k).and_then(|m| m.line);
         let v = dense[k];
         let why = format!(
-            "modified z-score {:.1} (limit {:.1}); expected about {} from neighbouring months",
-            o.score,
+            "{:.1} interquartile ranges {} the usual spread of the seasonal decomposition's remainder (limit {:.1}); expected about {} from neighbouring months",
+            o.score.abs(),
+            if o.score > 0.0 { "above" } else { "below" },
             s.outlier_threshold,
             fmt_q(filled[k])
         );
@@ -779,7 +774,6 @@ fn clean_site(
         out.values[off + k] = Some(value);
         out.adjusted[off + k] = adjusted[k];
     }
-    let _ = &profile;
     Some(out)
 }
 

@@ -126,8 +126,18 @@ fn product_with_nothing_reported_is_left_out_with_reason() {
     assert!(c.rows.balances());
 }
 
+/// The default settings with outliers flagged, not replaced.
+fn flag_only() -> CheckedCleanSettings {
+    CleanSettings {
+        replace_outliers: false,
+        ..CleanSettings::default()
+    }
+    .check()
+    .unwrap()
+}
+
 #[test]
-fn outliers_flagged_not_replaced_by_default() {
+fn outliers_replaced_by_default_and_flagged_only_on_request() {
     let mut text = String::from("product,month,consumed\n");
     for t in 0..36 {
         let v = if t == 20 {
@@ -140,25 +150,29 @@ fn outliers_flagged_not_replaced_by_default() {
             YearMonth::known(2022, 1).plus(t as i64)
         ));
     }
-    let (ds, c) = run(&text);
-    assert!(c.series[0].outlier[20]);
-    assert_eq!(c.series[0].values[20], 5000.0);
-    assert_eq!(c.rows.adjusted, 0, "a flag is not an adjustment");
-    let settings = CleanSettings {
-        replace_outliers: true,
-        ..CleanSettings::default()
-    }
-    .check()
-    .unwrap();
-    let c2 = clean(&ds, &settings);
+    let (ds, c2) = run(&text);
+    assert!(c2.series[0].outlier[20]);
     assert!(
         c2.series[0].values[20] < 600.0,
         "{:?} {:?}",
         c2.series[0].values,
         c2.log
     );
+    // The reported value stays beside the replacement, and the log has both.
+    assert_eq!(c2.series[0].reported[20], Some(5000.0));
+    let r = c2
+        .log
+        .iter()
+        .find(|a| a.rule == Rule::OutlierReplaced)
+        .unwrap();
+    assert_eq!(r.before, Some(5000.0));
+    assert_eq!(r.after, Some(c2.series[0].values[20]));
     assert_eq!(c2.rows.adjusted, 1, "{:?}", c2.log);
     reconciles(&ds, &c2);
+    let c = clean(&ds, &flag_only());
+    assert!(c.series[0].outlier[20]);
+    assert_eq!(c.series[0].values[20], 5000.0);
+    assert_eq!(c.rows.adjusted, 0, "a flag is not an adjustment");
 }
 
 #[test]
@@ -231,7 +245,8 @@ proptest! {
         sd in prop::collection::vec(0..31u32, 60),
     ) {
         // Months with full stock and full reporting keep their value,
-        // whatever happens around them (outliers only flagged by default).
+        // whatever happens around them, when outliers are only flagged
+        // (replacing them, the default, is a logged adjustment).
         let mut text = String::from("product,month,consumed,stockout_days,reporting_rate\n");
         for (t, v) in values.iter().enumerate() {
             let m = YearMonth::known(2020, 1).plus(t as i64);
@@ -239,7 +254,7 @@ proptest! {
             text.push_str(&format!("A,{m},{},{d},100%\n", v.map(|x| x.to_string()).unwrap_or_default()));
         }
         let ds = read_csv_bytes("t.csv", text.as_bytes(), &ReadOptions::default()).unwrap();
-        let c = clean(&ds, &CleanSettings::default().check().unwrap());
+        let c = clean(&ds, &flag_only());
         for row in &ds.rows {
             let full = row.stockout_days.unwrap_or(0.0) == 0.0;
             if let (Some(v), true) = (row.consumed, full) {
@@ -255,7 +270,8 @@ proptest! {
         let Ok(ds) = read_csv_bytes("t.csv", text.as_bytes(), &ReadOptions::default()) else {
             return Ok(());
         };
-        let settings = CleanSettings::default().check().unwrap();
+        // With outliers only flagged: replaced values would be judged anew.
+        let settings = flag_only();
         let once = clean(&ds, &settings);
         if once.series.is_empty() {
             return Ok(());
@@ -323,7 +339,16 @@ fn settings_of_older_manifests_still_read() {
     // Manifests written before per-product thresholds lack the key.
     let old = r#"{"max_stockout_days":15.0,"reporting_floor":0.5,"nonreporting_weight":1.0,"site_trailing_fill":3,"outlier_threshold":3.5,"replace_outliers":false}"#;
     let s: CleanSettings = serde_json::from_str(old).unwrap();
-    assert_eq!(s, CleanSettings::default());
+    // The threshold then was a modified z-score and replacement was off by
+    // default; both are read as written.
+    assert_eq!(
+        s,
+        CleanSettings {
+            outlier_threshold: 3.5,
+            replace_outliers: false,
+            ..CleanSettings::default()
+        }
+    );
     // And settings without per-product thresholds are written as before.
     let v = serde_json::to_value(CleanSettings::default()).unwrap();
     assert!(v.get("stockout_days_by_product").is_none());

@@ -76,9 +76,12 @@ pub struct ForecastArgs {
     /// Write into DIR even if it holds files provisio did not write.
     #[arg(long)]
     overwrite: bool,
-    /// Months to project (1-60).
+    /// Months to project (1-60), counted from the month after the data set's last month for every product.
     #[arg(long, default_value_t = 24, value_name = "MONTHS")]
     horizon: usize,
+    /// Warn that a product is possibly discontinued when its last month is more than this many months before the data set's last month (0-120).
+    #[arg(long, default_value_t = provisio::project::DEFAULT_SILENCE_LIMIT, value_name = "MONTHS")]
+    silence_limit: usize,
     /// Use only rows dated up to this month (YYYY-MM), as if forecasting then; for `review` later.
     #[arg(long, value_name = "YYYY-MM", value_parser = parse_month)]
     until: Option<YearMonth>,
@@ -327,6 +330,10 @@ pub fn check_config_names() {
 }
 
 pub(super) fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
+    with_silence(eval, horizon, provisio::project::DEFAULT_SILENCE_LIMIT)
+}
+
+fn with_silence(eval: &EvalArgs, horizon: usize, silence_limit: usize) -> ForecastSettings {
     ForecastSettings {
         backtest: BacktestSettings {
             origins: eval.origins,
@@ -348,6 +355,8 @@ pub(super) fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
             DetailArg::Chosen => provisio::pipeline::BacktestDetail::Chosen,
             DetailArg::All => provisio::pipeline::BacktestDetail::All,
         },
+        data_end: None,
+        silence_limit,
     }
 }
 
@@ -429,13 +438,13 @@ fn run_eval(
     read: &ReadArgs,
     clean: &CleanArgs,
     eval: &EvalArgs,
-    horizon: usize,
+    (horizon, silence_limit): (usize, usize),
     until: Option<YearMonth>,
     cfg: Option<&LoadedConfig>,
     given: &Given,
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
-    let fs = settings(eval, horizon);
+    let fs = with_silence(eval, horizon, silence_limit);
     let checked = fs.clone().check()?;
     let pins = match &eval.pin {
         Some(p) => read_pins(p)?,
@@ -567,6 +576,8 @@ fn product_json(r: &ProductForecast) -> serde_json::Value {
         "runner_up": s.runner_up.as_ref().map(|x| &x.0),
         "runner_up_margin_pct": s.margin_pct,
         "next_12_months": r.projection.as_ref().and_then(|p| p.totals.first()),
+        "projection_start": r.projection.as_ref().map(|p| p.horizon_start().to_string()),
+        "bridged_months": r.projection.as_ref().map(|p| p.bridged),
         "reason": s.reason,
         "warnings": r.warnings,
     })
@@ -594,6 +605,9 @@ fn apply_forecast_config(
     }
     if let (Some(v), false) = (&cfg.projection.changes, given.cli("changes")) {
         a.changes = Some(c.resolve(v));
+    }
+    if let (Some(v), false) = (cfg.projection.silence_limit, given.cli("silence_limit")) {
+        a.silence_limit = v;
     }
     if let (Some(v), None) = (&cfg.output.out, &a.out) {
         a.out = Some(c.resolve(v));
@@ -624,6 +638,7 @@ fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> R
     a.eval.to_config(&mut cfg, dir);
     cfg.projection.horizon = Some(a.horizon);
     cfg.projection.changes = a.changes.as_ref().map(|p| path_for_config(p, dir));
+    cfg.projection.silence_limit = Some(a.silence_limit);
     cfg.output.out = a.out.as_ref().map(|p| path_for_config(p, dir));
     cfg.output.overwrite = Some(a.overwrite);
     cfg.output.no_report = Some(a.no_report);
@@ -644,7 +659,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         let cfg = effective_config(&a, config.as_ref(), dir);
         // Refuse what the run would refuse, before writing it down.
         cfg.clean_settings(a.clean.settings()).check()?;
-        settings(&a.eval, a.horizon).check()?;
+        with_silence(&a.eval, a.horizon, a.silence_limit).check()?;
         let text = cfg.to_toml();
         if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
             std::fs::create_dir_all(parent)
@@ -686,7 +701,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         &a.read,
         &a.clean,
         &a.eval,
-        a.horizon,
+        (a.horizon, a.silence_limit),
         a.until,
         config.as_ref(),
         given,
@@ -886,7 +901,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         &a.read,
         &a.clean,
         &a.eval,
-        12,
+        (12, provisio::project::DEFAULT_SILENCE_LIMIT),
         None,
         config.as_ref(),
         given,

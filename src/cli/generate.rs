@@ -21,13 +21,27 @@ pub struct GenerateArgs {
     /// Random seed (same seed, same file).
     #[arg(long, default_value_t = 1)]
     seed: u64,
+    /// Also write each site-month's true demand (before stockouts, partial reporting and entry errors) in a last column `true_demand`, to score cleaning and forecasts against the truth (CSV only).
+    #[arg(long)]
+    true_demand: bool,
+    /// Chance (0-1) that a reported site-month carries a data-entry error (x10, or a digit too many).
+    #[arg(long, default_value_t = 0.0, value_name = "SHARE")]
+    entry_errors: f64,
+    /// Chance (0-1) that a product-month is a campaign month: real demand x2 to x4 at every site.
+    #[arg(long, default_value_t = 0.0, value_name = "SHARE")]
+    campaigns: f64,
     /// Output file: a CSV, or an .xlsx workbook (one sheet, months as date cells).
     #[arg(long, value_name = "FILE")]
     out: PathBuf,
 }
 
 pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
-    let sc = if a.demo {
+    for (name, v) in [("entry-errors", a.entry_errors), ("campaigns", a.campaigns)] {
+        if !(0.0..=1.0).contains(&v) {
+            anyhow::bail!("--{name} must be a share from 0 to 1, got {v}");
+        }
+    }
+    let mut sc = if a.demo {
         provisio::generate::demo_scenario()
     } else {
         if a.months == 0 || a.months > 1200 {
@@ -35,8 +49,18 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
         }
         provisio::generate::synthetic_scenario(a.products, a.sites, a.months, a.seed)
     };
+    sc.anomalies = provisio::generate::Anomalies {
+        entry_errors: a.entry_errors,
+        campaigns: a.campaigns,
+    };
     let rows = provisio::generate::generate(&sc);
     if provisio::data::is_workbook(&a.out) {
+        if a.true_demand {
+            anyhow::bail!(
+                "{}: --true-demand is written to CSV files only; name the file .csv",
+                a.out.display()
+            );
+        }
         let ext = a.out.extension().and_then(|e| e.to_str()).unwrap_or("");
         if !ext.eq_ignore_ascii_case("xlsx") {
             anyhow::bail!(
@@ -48,7 +72,9 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
             .map_err(|e| anyhow::anyhow!("{}: cannot build the workbook: {e}", a.out.display()))?;
         provisio::output::write_atomic(&a.out, |w| w.write_all(&bytes))?;
     } else {
-        provisio::output::write_atomic(&a.out, |w| provisio::generate::write_rows(w, &rows))?;
+        provisio::output::write_atomic(&a.out, |w| {
+            provisio::generate::write_rows_with(w, &rows, a.true_demand)
+        })?;
     }
     super::json_summary(|| {
         serde_json::json!({
@@ -59,6 +85,9 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
             "sites": sc.sites.len(),
             "months": sc.months,
             "invented": true,
+            "true_demand": a.true_demand,
+            "entry_errors": a.entry_errors,
+            "campaigns": a.campaigns,
         })
     });
     super::note!(

@@ -330,11 +330,11 @@ pub struct CleanArgs {
     /// Months a site is still filled after its last report before it counts as stopped.
     #[arg(long, default_value_t = 3, value_name = "MONTHS")]
     site_trailing_fill: u32,
-    /// Modified z-score above which a month is flagged as an outlier.
-    #[arg(long, default_value_t = 3.5, value_name = "Z")]
+    /// Interquartile ranges beyond the quartiles of the seasonal decomposition's remainder at which a month is flagged as an outlier.
+    #[arg(long, default_value_t = provisio::clean::outliers::DEFAULT_THRESHOLD, value_name = "K")]
     outlier_threshold: f64,
-    /// Replace flagged outliers by their robust expected value (default: flag only).
-    #[arg(long)]
+    /// Fit the models on the expected value of a flagged outlier month instead of the reported one (default true: measured to forecast true demand better; the reported value stays in cleaned.csv and the log). `--replace-outliers false` flags only.
+    #[arg(long, value_name = "true|false", default_value_t = true, num_args = 0..=1, default_missing_value = "true", action = clap::ArgAction::Set)]
     replace_outliers: bool,
     /// Stockout thresholds of single products (from the configuration file).
     #[arg(skip)]

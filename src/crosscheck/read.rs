@@ -700,6 +700,11 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
                 .filter(|x| x.is_finite())
                 .ok_or_else(|| err(col, format!("'{v}' is not a number")))
         };
+        // Bridged months (before the common projection start) are not
+        // part of the projection period compared here.
+        if sheet.get(rec, "bridged") == "yes" {
+            continue;
+        }
         let m = sheet.get(rec, "month");
         let month = YearMonth::parse(m).map_err(|e| err("month", format!("'{m}': {e}")))?;
         products
@@ -797,6 +802,25 @@ mod tests {
             e.contains("column 'population'") && e.contains("negative"),
             "{e}"
         );
+    }
+
+    #[test]
+    fn bridged_forecast_months_are_not_part_of_the_period() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("manifest.json"), "{}").unwrap();
+        std::fs::write(
+            dir.path().join("forecast.csv"),
+            "product,month,model,forecast,lower_80,upper_80,lower_95,upper_95,bridged\n\
+             A,2025-11,naive,5,4,6,3,7,yes\n\
+             A,2025-12,naive,5,4,6,3,7,yes\n\
+             A,2026-01,naive,5,4,6,3,7,no\n\
+             B,2026-01,naive,9,8,10,7,11,no\n",
+        )
+        .unwrap();
+        let f = read_forecast_dir(dir.path()).unwrap();
+        assert_eq!(f.first_month, YearMonth::known(2026, 1));
+        assert_eq!(f.products["A"].len(), 1);
+        assert_eq!(f.products["A"][0].month, YearMonth::known(2026, 1));
     }
 
     #[test]

@@ -27,7 +27,9 @@ pub struct Units {
     pub pack_size: Option<f64>,
 }
 
-/// `forecast.csv`: product, month, model, forecast, lower/upper 80, lower/upper 95.
+/// `forecast.csv`: product, month, model, forecast, lower/upper 80, lower/upper 95,
+/// units, pack size, packs, and `bridged` (`yes` for a month between the
+/// product's last month and the common projection start, else `no`).
 pub fn write_forecast(path: &Path, results: &[ProductForecast]) -> Result<()> {
     write_forecast_units(path, results, &std::collections::HashMap::new())
 }
@@ -55,6 +57,7 @@ pub fn write_forecast_units(
             "units",
             "pack_size",
             "packs",
+            "bridged",
         ])
         .map_err(io_err)?;
         for r in results {
@@ -82,6 +85,7 @@ pub fn write_forecast_units(
                     unit,
                     &pack,
                     &packs,
+                    if p.is_bridged(k) { "yes" } else { "no" },
                 ])
                 .map_err(io_err)?;
             }
@@ -92,8 +96,10 @@ pub fn write_forecast_units(
 
 /// `forecast_wide.csv`: the same numbers as `forecast.csv` laid out wide,
 /// products as rows and months as columns: five rows per product (`row`:
-/// forecast, lower_80, upper_80, lower_95, upper_95). A month a product
-/// has no projection for is empty.
+/// forecast, lower_80, upper_80, lower_95, upper_95), then `bridged`: how
+/// many of the product's first months are bridged (forecast between its
+/// last month and the common projection start). A month a product has no
+/// projection for is empty.
 pub fn write_forecast_wide(path: &Path, results: &[ProductForecast]) -> Result<()> {
     let mut months: Vec<crate::calendar::YearMonth> = results
         .iter()
@@ -104,7 +110,12 @@ pub fn write_forecast_wide(path: &Path, results: &[ProductForecast]) -> Result<(
     months.dedup();
     write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
-        let mut header = vec!["product".to_string(), "model".into(), "row".into()];
+        let mut header = vec![
+            "product".to_string(),
+            "model".into(),
+            "row".into(),
+            "bridged".into(),
+        ];
         header.extend(months.iter().map(|m| m.to_string()));
         c.write_record(&header).map_err(io_err)?;
         for r in results {
@@ -123,6 +134,7 @@ pub fn write_forecast_wide(path: &Path, results: &[ProductForecast]) -> Result<(
                     csv_text(&r.product).into_owned(),
                     p.model.clone(),
                     label.to_string(),
+                    p.bridged.to_string(),
                 ];
                 rec.extend(months.iter().map(|m| {
                     let k = p.start.months_until(*m);

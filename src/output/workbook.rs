@@ -24,6 +24,9 @@ pub struct WorkbookForecast {
     pub model: String,
     /// Months, in order.
     pub months: Vec<WorkbookMonth>,
+    /// How many of the first months are bridged (forecast between the
+    /// product's last month and the common projection start).
+    pub bridged: usize,
 }
 
 /// How a table column is written.
@@ -120,6 +123,14 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
         .set_num_format("#,##0")
         .set_font_color(Color::RGB(0x666666));
     let range_label = Format::new().set_font_color(Color::RGB(0x666666));
+    let bridged_point = point
+        .clone()
+        .set_italic()
+        .set_background_color(Color::RGB(0xEEEEEE));
+    let bridged_range = range
+        .clone()
+        .set_italic()
+        .set_background_color(Color::RGB(0xEEEEEE));
     let decimal = Format::new().set_num_format("#,##0.0");
     let count = Format::new().set_num_format("0");
     let bold = Format::new().set_bold();
@@ -139,6 +150,14 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
     let ws = book.add_worksheet();
     ws.set_name("Forecast")?;
     ws.write_string_with_format(0, 0, cell_text(&content.caution), &note)?;
+    if content.forecasts.iter().any(|f| f.bridged > 0) {
+        ws.write_string_with_format(
+            1,
+            0,
+            "Grey italic months are bridged: forecast between a product's last reported month and the common projection start; they are not in the horizon, the totals or the AMC.",
+            &note,
+        )?;
+    }
     let top = 2u32;
     for (c, h) in ["product", "model", "row"].iter().enumerate() {
         ws.write_string_with_format(top, c as u16, *h, &header_left)?;
@@ -169,7 +188,12 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
                     _ => r95.map(|r| r.1),
                 };
                 if let Some(v) = v.filter(|v| v.is_finite()) {
-                    let fmt = if k == 0 { &point } else { &range };
+                    let fmt = match (k == 0, i < f.bridged) {
+                        (true, false) => &point,
+                        (false, false) => &range,
+                        (true, true) => &bridged_point,
+                        (false, true) => &bridged_range,
+                    };
                     ws.write_number_with_format(row, 3 + c as u16, v, fmt)?;
                 }
             }

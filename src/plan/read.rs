@@ -601,6 +601,7 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         ("adjusted", false, ""),
         ("adjusted_upper_80", false, ""),
         ("adjusted_upper_95", false, ""),
+        ("bridged", false, ""),
     ];
     let sheet = Sheet::parse(&file, &bytes, &known)?;
     let per_site = sheet.columns.contains_key("site");
@@ -626,6 +627,12 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         } else {
             None
         };
+        // Bridged months (forecast between a product's last month and the
+        // common projection start) lie before the stock date: the plan
+        // starts at the common start like the horizon.
+        if sheet.optional_text(row, "bridged").as_deref() == Some("yes") {
+            continue;
+        }
         let month = sheet.month(line, row, "month")?;
         let any = |_: f64| true;
         let point = sheet.required_number(line, row, c_point, any, "a number")?;

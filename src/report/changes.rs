@@ -97,6 +97,7 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
                 point: number(r.get("forecast")).unwrap_or(0.0),
                 range80: pair("lower_80", "upper_80"),
                 range95: pair("lower_95", "upper_95"),
+                bridged: r.get("bridged").is_some_and(|b| b == "yes"),
             });
         models.insert(p, r.get("model").cloned().unwrap_or_default());
     }

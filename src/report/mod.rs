@@ -344,16 +344,23 @@ fn summary(b: &mut String, run: &ForecastRun) {
         .iter()
         .filter_map(|p| p.history.last().map(|h| h.month))
         .max();
+    // The projection period leaves out bridged months (forecast between a
+    // product's last month and the common start), which the row below counts.
     let fc_first = run
         .products
         .iter()
-        .filter_map(|p| p.projection.first().map(|h| h.month))
+        .filter_map(|p| p.projection.iter().find(|h| !h.bridged).map(|h| h.month))
         .min();
     let fc_last = run
         .products
         .iter()
         .filter_map(|p| p.projection.last().map(|h| h.month))
         .max();
+    let bridged_products = run
+        .products
+        .iter()
+        .filter(|p| p.projection.iter().any(|h| h.bridged))
+        .count();
     let span =
         |a: Option<crate::calendar::YearMonth>, z: Option<crate::calendar::YearMonth>| match (a, z)
         {
@@ -383,6 +390,16 @@ fn summary(b: &mut String, run: &ForecastRun) {
         ),
         ("Data period", escape(&span(first, last))),
         ("Projection period", escape(&span(fc_first, fc_last))),
+        (
+            "Bridged months",
+            escape(&if bridged_products == 0 {
+                "none: every product reported up to the data's last month".to_string()
+            } else {
+                format!(
+                    "{bridged_products} product(s) not reported up to the data's last month: forecast through the missing months too (marked bridged), outside the projection period"
+                )
+            }),
+        ),
         (
             "Products",
             escape(&format!(

@@ -258,6 +258,11 @@ impl Table {
     }
 
     /// Column accessor for the named columns; the error names the file.
+    /// Position of an optional column.
+    pub(super) fn col_opt(&self, name: &str) -> Option<usize> {
+        self.columns.get(name).copied()
+    }
+
     pub(super) fn cols<const N: usize>(&self, names: [&str; N]) -> Result<[usize; N]> {
         let mut out = [0; N];
         for (k, n) in names.iter().enumerate() {
@@ -470,6 +475,8 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         "product", "month", "forecast", "lower_80", "upper_80", "lower_95", "upper_95",
     ];
     let c = fc.cols(names)?;
+    // Folders written before the common projection start have no column.
+    let bridged = fc.col_opt("bridged");
     fc.each(|fc, line, rec| {
         let Some(&i) = index.get(&name(rec, c[0])) else {
             return Ok(());
@@ -482,6 +489,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             point,
             range80: pair(n(3)?, n(4)?),
             range95: pair(n(5)?, n(6)?),
+            bridged: bridged.and_then(|b| rec.get(b)) == Some("yes"),
         });
         Ok(())
     })?;

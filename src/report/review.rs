@@ -60,6 +60,7 @@ pub fn review_chart(past: &PastForecast, r: &ProductReview) -> ProductChart {
             point: m.forecast,
             range80: m.interval80,
             range95: m.interval95,
+            bridged: false,
         })
         .collect();
     let s = &r.scores;

@@ -193,6 +193,8 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
         col("lower_95")?,
         col("upper_95")?,
     ];
+    // Folders written before the common projection start have no column.
+    let bridged = header.iter().position(|h| h == "bridged");
     let mut forecasts: Vec<WorkbookForecast> = Vec::new();
     let mut index: HashMap<String, usize> = HashMap::new();
     for (i, r) in rows.iter().enumerate() {
@@ -215,9 +217,13 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                 product,
                 model: get(2).to_string(),
                 months: Vec::new(),
+                bridged: 0,
             });
             forecasts.len() - 1
         });
+        if bridged.and_then(|b| r.get(b)).is_some_and(|v| v == "yes") {
+            forecasts[k].bridged += 1;
+        }
         forecasts[k]
             .months
             .push((month, point, num(4).zip(num(5)), num(6).zip(num(7))));
@@ -267,12 +273,14 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                 .then(|| adjusted.remove(&f.product))
                 .flatten();
             let product = f.product.clone();
+            let bridged = f.bridged;
             with.push(f);
             if let Some(months) = extra {
                 with.push(WorkbookForecast {
                     product,
                     model: "adjusted (known changes)".into(),
                     months,
+                    bridged,
                 });
             }
         }

@@ -679,7 +679,11 @@ pub fn review_product(
             status: series.status[t],
             outlier: series.outlier.get(t).copied().unwrap_or(false),
             imputed_share: series.imputed_share[t],
-            scored: scorable.get(t).copied().unwrap_or(false),
+            // A bridged month (forecast between the product's last month
+            // and the common start) counts only when it was reported: an
+            // imputed actual there is the cleaning's guess, not demand.
+            scored: scorable.get(t).copied().unwrap_or(false)
+                && (k >= past.bridged || series.reported[t].is_some()),
             forecast: f,
             interval80: pair(&past.lower80, &past.upper80),
             interval95: pair(&past.lower95, &past.upper95),

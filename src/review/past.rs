@@ -105,6 +105,10 @@ pub struct PastProduct {
     pub model: String,
     /// First forecast month.
     pub start: YearMonth,
+    /// How many of the first forecast months are bridged (between the
+    /// product's last month and the run's common projection start; 0 for
+    /// folders written before the `bridged` column).
+    pub bridged: usize,
     /// Point forecasts, one per month from `start`.
     pub point: Vec<f64>,
     /// Lower bounds of the 80% interval (`None` when not given).
@@ -222,6 +226,7 @@ pub fn read_past(dir: &Path) -> Result<PastForecast> {
             history_changes: changes.remove(&product).unwrap_or_default(),
             model: f.model,
             start: f.start,
+            bridged: f.bridged,
             point: f.point,
             lower80: f.bounds[0].clone(),
             upper80: f.bounds[1].clone(),
@@ -492,6 +497,7 @@ fn in_sequence(
 struct ForecastRows {
     model: String,
     start: YearMonth,
+    bridged: usize,
     point: Vec<f64>,
     bounds: [Vec<Option<f64>>; 4],
 }
@@ -522,9 +528,13 @@ fn read_forecast(path: &Path) -> Result<BTreeMap<String, ForecastRows>> {
         let entry = out.entry(product.clone()).or_insert_with(|| ForecastRows {
             model: model.clone(),
             start: month,
+            bridged: 0,
             point: Vec::new(),
             bounds: Default::default(),
         });
+        if t.columns.contains_key("bridged") && t.cell(rec, "bridged") == "yes" {
+            entry.bridged += 1;
+        }
         in_sequence(path, line, &product, month, entry.start, entry.point.len())?;
         entry.point.push(point);
         for (v, x) in entry.bounds.iter_mut().zip(b) {

@@ -11,6 +11,7 @@ fn past(history_start: &str, history: Vec<f64>, point: Vec<f64>, half80: f64) ->
     let start = ym(history_start).plus(history.len() as i64);
     let b = |d: f64| point.iter().map(|p| Some(p + d)).collect::<Vec<_>>();
     PastProduct {
+        bridged: 0,
         product: "P".into(),
         model: "m".into(),
         start,
