@@ -330,7 +330,7 @@ impl Ets {
             EtsForm::Simple => "ets-simple",
             EtsForm::Holt => "ets-holt",
             EtsForm::Damped => "ets-damped",
-            EtsForm::Auto => "ets-auto",
+            EtsForm::Auto => "ets-auto-nonseasonal",
         }
     }
 
@@ -385,6 +385,19 @@ impl Ets {
                 .to_string(),
         })
     }
+}
+
+/// Every non-seasonal form the automatic choice tries on `y`, each fitted
+/// cold (for reference checks and reports), in statsforecast's order.
+pub(crate) fn fit_each_form(y: &[f64]) -> Vec<FittedEts> {
+    if Model::needs(&Ets::auto()).check("ets", y).is_err() {
+        return Vec::new();
+    }
+    let mut fits = fit_forms("ets", y, &AUTO_ORDER, &mut EtsWarm::default());
+    AUTO_ORDER
+        .iter()
+        .filter_map(|k| fits[k.slot()].take())
+        .collect()
 }
 
 /// Fits each of `kinds` to `y` (undamped before damped, whose cold search
