@@ -25,7 +25,11 @@
 //! | `ets-simple` | ETS(A,N,N), simple exponential smoothing | none |
 //! | `ets-holt` | ETS(A,A,N), Holt's linear trend | additive |
 //! | `ets-damped` | ETS(A,Ad,N), damped trend | damped |
-//! | `ets-auto` | best AICc of ETS(A,N,N), (A,Ad,N), (A,A,N), (M,N,N), (M,Ad,N), (M,A,N) | chosen |
+//! | [`Ets::auto`] | best AICc of ETS(A,N,N), (A,Ad,N), (A,A,N), (M,N,N), (M,Ad,N), (M,A,N) | chosen |
+//!
+//! [`Ets::auto`] is not a candidate of its own: it is the non-seasonal half
+//! of `ets-auto` ([`super::ets_seasonal`], which adds the seasonal forms)
+//! and the model `mstl-ets` fits to its seasonally adjusted series.
 //!
 //! Multiplicative-error forms are tried by `ets-auto` only when every month
 //! is above zero. Their relative error is ε_t = u_t / ŷ_t, and with
