@@ -25,7 +25,11 @@
 //! | `ets-simple` | ETS(A,N,N), simple exponential smoothing | none |
 //! | `ets-holt` | ETS(A,A,N), Holt's linear trend | additive |
 //! | `ets-damped` | ETS(A,Ad,N), damped trend | damped |
-//! | `ets-auto` | best AICc of ETS(A,N,N), (A,Ad,N), (A,A,N), (M,N,N), (M,Ad,N), (M,A,N) | chosen |
+//! | [`Ets::auto`] | best AICc of ETS(A,N,N), (A,Ad,N), (A,A,N), (M,N,N), (M,Ad,N), (M,A,N) | chosen |
+//!
+//! [`Ets::auto`] is not a candidate of its own: it is the non-seasonal half
+//! of `ets-auto` ([`super::ets_seasonal`], which adds the seasonal forms)
+//! and the model `mstl-ets` fits to its seasonally adjusted series.
 //!
 //! Multiplicative-error forms are tried by `ets-auto` only when every month
 //! is above zero. Their relative error is ε_t = u_t / ŷ_t, and with
@@ -330,7 +334,7 @@ impl Ets {
             EtsForm::Simple => "ets-simple",
             EtsForm::Holt => "ets-holt",
             EtsForm::Damped => "ets-damped",
-            EtsForm::Auto => "ets-auto",
+            EtsForm::Auto => "ets-auto-nonseasonal",
         }
     }
 
@@ -385,6 +389,19 @@ impl Ets {
                 .to_string(),
         })
     }
+}
+
+/// Every non-seasonal form the automatic choice tries on `y`, each fitted
+/// cold (for reference checks and reports), in statsforecast's order.
+pub(crate) fn fit_each_form(y: &[f64]) -> Vec<FittedEts> {
+    if Model::needs(&Ets::auto()).check("ets", y).is_err() {
+        return Vec::new();
+    }
+    let mut fits = fit_forms("ets", y, &AUTO_ORDER, &mut EtsWarm::default());
+    AUTO_ORDER
+        .iter()
+        .filter_map(|k| fits[k.slot()].take())
+        .collect()
 }
 
 /// Fits each of `kinds` to `y` (undamped before damped, whose cold search

@@ -13,6 +13,7 @@ use crate::error::{Error, Result};
 pub mod baseline;
 pub mod decomposition;
 pub mod ets;
+pub mod ets_seasonal;
 pub mod holt_winters;
 pub mod intermittent;
 pub mod theta;
@@ -246,8 +247,13 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
         list.push(Box::new(spec));
     }
     for spec in ets::Ets::all() {
-        list.push(Box::new(spec));
+        // The non-seasonal automatic choice is a step of `ets-auto` and
+        // `mstl-ets`, not a candidate of its own.
+        if spec.form() != ets::EtsForm::Auto {
+            list.push(Box::new(spec));
+        }
     }
+    list.push(Box::new(ets_seasonal::EtsAuto));
     list.push(Box::new(decomposition::MstlEts));
     list
 }
