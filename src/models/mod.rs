@@ -10,6 +10,7 @@
 
 use crate::error::{Error, Result};
 
+pub mod arima;
 pub mod baseline;
 pub mod decomposition;
 pub mod ets;
@@ -249,6 +250,7 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
         list.push(Box::new(spec));
     }
     list.push(Box::new(decomposition::MstlEts));
+    list.push(Box::new(arima::AutoArima));
     list
 }
 
