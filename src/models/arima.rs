@@ -360,7 +360,10 @@ impl Fitted for FittedArima {
                 out.push(("intercept".to_string(), c));
             } else {
                 // statsforecast's drift: slope per month.
-                out.push(("drift".to_string(), c / if o.sd == 1 { M as f64 } else { 1.0 }));
+                out.push((
+                    "drift".to_string(),
+                    c / if o.sd == 1 { M as f64 } else { 1.0 },
+                ));
             }
         }
         out.push(("sigma2".to_string(), self.sigma2));
@@ -659,7 +662,14 @@ impl Work {
 }
 
 /// CSS residuals into `out` (length n − p − 12P); `None` when non-finite.
-fn css_resid(o: &Order, par: &[f64], w: &[f64], phi: &mut [f64], theta: &mut [f64], out: &mut [f64]) -> Option<()> {
+fn css_resid(
+    o: &Order,
+    par: &[f64],
+    w: &[f64],
+    phi: &mut [f64],
+    theta: &mut [f64],
+    out: &mut [f64],
+) -> Option<()> {
     let pf = o.pf();
     let qf = o.qf();
     let phi = &mut phi[..pf];
@@ -770,7 +780,13 @@ fn initial_cov(
     // State element i (0-based) = Σ_{m≥1} φ_{i+m−1} y_{t−m} + Σ_{m≥0} θ_{i+m} ε_{t−m}
     // for i ≥ 1, and y_t for i = 0.
     let ph = |k: usize| if k >= 1 && k <= pf { phi[k - 1] } else { 0.0 };
-    let th = |k: usize| if k >= 1 && k <= theta.len() { theta[k - 1] } else { 0.0 };
+    let th = |k: usize| {
+        if k >= 1 && k <= theta.len() {
+            theta[k - 1]
+        } else {
+            0.0
+        }
+    };
     // Cov(y_{t−a}, ε_{t−b}) = ψ_{b−a} if b ≥ a.
     let cye = |a: usize, b: usize, psi: &[f64]| if b >= a { psi[b - a] } else { 0.0 };
     for i in 0..r {
@@ -860,7 +876,13 @@ fn kalman(
     let pf = phi.len();
     let r = pf.max(theta.len() + 1);
     let ph = |i: usize| if i < pf { phi[i] } else { 0.0 };
-    let rr = |i: usize| if i == 0 { 1.0 } else { theta.get(i - 1).copied().unwrap_or(0.0) };
+    let rr = |i: usize| {
+        if i == 0 {
+            1.0
+        } else {
+            theta.get(i - 1).copied().unwrap_or(0.0)
+        }
+    };
     a[..r].iter_mut().for_each(|v| *v = 0.0);
     let mut ssq = 0.0;
     let mut sum_log_f = 0.0;
@@ -873,7 +895,11 @@ fn kalman(
             // a' = T(a + R v)
             let a0 = a[0] + v;
             for i in 0..r {
-                let next = if i + 1 < r { a[i + 1] + rr(i + 1) * v } else { 0.0 };
+                let next = if i + 1 < r {
+                    a[i + 1] + rr(i + 1) * v
+                } else {
+                    0.0
+                };
                 a[i] = ph(i) * a0 + next;
             }
             continue;
@@ -1063,7 +1089,8 @@ fn levenberg_marquardt(
             for i in 0..k {
                 x1[i] = x[i] + step[i];
             }
-            let trial = f(&x1[..k], &mut r1[..m]).map(|_| r1[..m].iter().map(|v| v * v).sum::<f64>());
+            let trial =
+                f(&x1[..k], &mut r1[..m]).map(|_| r1[..m].iter().map(|v| v * v).sum::<f64>());
             match trial {
                 Some(c1) if c1.is_finite() && c1 < cost => {
                     let gain = (cost - c1) / cost.max(1e-300);
@@ -1144,7 +1171,12 @@ fn fit_css(o: &Order, start: &[f64], work: &mut Work) -> CssFit {
 
 /// ML fit of one order from `start`; returns coefficients (scaled units),
 /// S, Σ ln F.
-fn fit_ml(o: &Order, start: &[f64], work: &mut Work, max_iter: usize) -> Option<(Vec<f64>, f64, f64)> {
+fn fit_ml(
+    o: &Order,
+    start: &[f64],
+    work: &mut Work,
+    max_iter: usize,
+) -> Option<(Vec<f64>, f64, f64)> {
     let n = work.w.len();
     let mut par = start.to_vec();
     if !admissible(o, &par, 1.0) {
@@ -1177,7 +1209,9 @@ fn fit_ml(o: &Order, start: &[f64], work: &mut Work, max_iter: usize) -> Option<
         }
         Some(())
     };
-    let res = levenberg_marquardt(&mut par, n, &mut jac, &mut r0, &mut r1, &mut x1, max_iter, 1e-10, &mut f);
+    let res = levenberg_marquardt(
+        &mut par, n, &mut jac, &mut r0, &mut r1, &mut x1, max_iter, 1e-10, &mut f,
+    );
     work.jac = jac;
     work.r0 = r0;
     work.r1 = r1;
@@ -1215,7 +1249,8 @@ pub fn fit_order(y: &[f64], order: &Order) -> Option<(Vec<f64>, f64)> {
     let css = fit_css(order, &start, &mut work);
     let (par, ssq, slf) = fit_ml(order, &css.par, &mut work, 200)?;
     let n = work.w.len() as f64;
-    let loglik = -0.5 * (n * (2.0 * std::f64::consts::PI * ssq / n).ln() + slf + n) - n * scale.ln();
+    let loglik =
+        -0.5 * (n * (2.0 * std::f64::consts::PI * ssq / n).ln() + slf + n) - n * scale.ln();
     let mut coef = par;
     if order.constant {
         let i = order.ncoef() - 1;
@@ -1309,7 +1344,14 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
         return constant_fit(y, d, sd, allow_c);
     };
     let mut work = Work::new(ws);
-    let search = stepwise(&mut work, d, sd, [max_p, max_q, max_sp, max_sq], allow_c, previous);
+    let search = stepwise(
+        &mut work,
+        d,
+        sd,
+        [max_p, max_q, max_sp, max_sq],
+        allow_c,
+        previous,
+    );
     // ML in order of CSS AICc until one passes the root check.
     let mut ranked: Vec<&CssFit> = search.iter().filter(|f| f.ic.is_finite()).collect();
     ranked.sort_by(|a, b| a.ic.total_cmp(&b.ic));
@@ -1326,13 +1368,23 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
             _ => cand.par.clone(),
         };
         let warm = previous.is_some_and(|p| p.order == o);
-        let Some((par, ssq, slf)) = fit_ml(&o, &start, &mut work, if warm { 30 } else { 100 }) else {
+        let Some((par, ssq, slf)) = fit_ml(&o, &start, &mut work, if warm { 30 } else { 100 })
+        else {
             continue;
         };
         if !admissible(&o, &par, ROOT_LIMIT) {
             continue;
         }
-        return Ok(finish(y, o, par, cand.par.clone(), ssq, slf, scale, &mut work));
+        return Ok(finish(
+            y,
+            o,
+            par,
+            cand.par.clone(),
+            ssq,
+            slf,
+            scale,
+            &mut work,
+        ));
     }
     // Fallback: no ARMA terms, which is always admissible.
     let o = Order {
@@ -1370,9 +1422,16 @@ fn finish(
     let r = o.pf().max(o.qf() + 1);
     let state: Vec<f64> = work.a[..r].iter().map(|v| v * scale).collect();
     let n = nw as f64;
-    let loglik = -0.5 * (n * (2.0 * std::f64::consts::PI * ssq / n).ln() + slf + n) - n * scale.ln();
+    let loglik =
+        -0.5 * (n * (2.0 * std::f64::consts::PI * ssq / n).ln() + slf + n) - n * scale.ln();
     let k = (o.ncoef() + 1) as f64;
-    let aicc = -2.0 * loglik + 2.0 * k + if n - k - 1.0 > 0.0 { 2.0 * k * (k + 1.0) / (n - k - 1.0) } else { f64::INFINITY };
+    let aicc = -2.0 * loglik
+        + 2.0 * k
+        + if n - k - 1.0 > 0.0 {
+            2.0 * k * (k + 1.0) / (n - k - 1.0)
+        } else {
+            f64::INFINITY
+        };
     let dof = (nw.saturating_sub(o.ncoef())).max(1) as f64;
     let sigma2 = ssq / dof * scale * scale;
     let mut coef = par;
@@ -1398,7 +1457,11 @@ fn finish(
 /// constant of the differences (statsforecast's special case), σ² = 0.
 fn constant_fit(y: &[f64], d: usize, sd: usize, constant: bool) -> Result<FittedArima> {
     let w = differenced(y, d, sd);
-    let c = if w.is_empty() { 0.0 } else { w.iter().sum::<f64>() / w.len() as f64 };
+    let c = if w.is_empty() {
+        0.0
+    } else {
+        w.iter().sum::<f64>() / w.len() as f64
+    };
     let o = Order {
         p: 0,
         d,
@@ -1408,7 +1471,10 @@ fn constant_fit(y: &[f64], d: usize, sd: usize, constant: bool) -> Result<Fitted
         sq: 0,
         constant,
     };
-    let sse: f64 = w.iter().map(|v| (v - if constant { c } else { 0.0 }).powi(2)).sum();
+    let sse: f64 = w
+        .iter()
+        .map(|v| (v - if constant { c } else { 0.0 }).powi(2))
+        .sum();
     let dof = w.len().saturating_sub(o.ncoef()).max(1) as f64;
     Ok(FittedArima {
         order: o,
@@ -1445,7 +1511,12 @@ fn stepwise(
     };
     let seen = |results: &[CssFit], o: &Order| results.iter().any(|r| r.order == *o);
     let mut best: Option<usize> = None;
-    let mut try_order = |o: Order, start: Option<Vec<f64>>, results: &mut Vec<CssFit>, best: &mut Option<usize>, work: &mut Work| -> bool {
+    let try_order = |o: Order,
+                     start: Option<Vec<f64>>,
+                     results: &mut Vec<CssFit>,
+                     best: &mut Option<usize>,
+                     work: &mut Work|
+     -> bool {
         if results.len() >= MAX_MODELS || seen(results, &o) {
             return false;
         }
@@ -1468,7 +1539,13 @@ fn stepwise(
     };
     let warm_order = previous.filter(|p| {
         let o = p.order;
-        o.d == d && o.sd == sd && o.p <= max_p && o.q <= max_q && o.sp <= max_sp && o.sq <= max_sq && (!o.constant || allow_c)
+        o.d == d
+            && o.sd == sd
+            && o.p <= max_p
+            && o.q <= max_q
+            && o.sp <= max_sp
+            && o.sq <= max_sq
+            && (!o.constant || allow_c)
     });
     if let Some(p) = warm_order {
         let start = (p.css.len() == p.order.ncoef()).then(|| p.css.clone());
@@ -1476,19 +1553,61 @@ fn stepwise(
     } else {
         let sp0 = 1.min(max_sp);
         let sq0 = 1.min(max_sq);
-        try_order(mk(2.min(max_p), 2.min(max_q), sp0, sq0, allow_c), None, &mut results, &mut best, work);
-        try_order(mk(0, 0, 0, 0, allow_c), Some(cold_start(&mk(0, 0, 0, 0, allow_c), &work.w)), &mut results, &mut best, work);
+        try_order(
+            mk(2.min(max_p), 2.min(max_q), sp0, sq0, allow_c),
+            None,
+            &mut results,
+            &mut best,
+            work,
+        );
+        try_order(
+            mk(0, 0, 0, 0, allow_c),
+            Some(cold_start(&mk(0, 0, 0, 0, allow_c), &work.w)),
+            &mut results,
+            &mut best,
+            work,
+        );
         if max_p > 0 || max_sp > 0 {
-            let o = mk(usize::from(max_p > 0), 0, usize::from(max_sp > 0), 0, allow_c);
-            try_order(o, Some(cold_start(&o, &work.w)), &mut results, &mut best, work);
+            let o = mk(
+                usize::from(max_p > 0),
+                0,
+                usize::from(max_sp > 0),
+                0,
+                allow_c,
+            );
+            try_order(
+                o,
+                Some(cold_start(&o, &work.w)),
+                &mut results,
+                &mut best,
+                work,
+            );
         }
         if max_q > 0 || max_sq > 0 {
-            let o = mk(0, usize::from(max_q > 0), 0, usize::from(max_sq > 0), allow_c);
-            try_order(o, Some(cold_start(&o, &work.w)), &mut results, &mut best, work);
+            let o = mk(
+                0,
+                usize::from(max_q > 0),
+                0,
+                usize::from(max_sq > 0),
+                allow_c,
+            );
+            try_order(
+                o,
+                Some(cold_start(&o, &work.w)),
+                &mut results,
+                &mut best,
+                work,
+            );
         }
         if allow_c {
             let o = mk(0, 0, 0, 0, false);
-            try_order(o, Some(cold_start(&o, &work.w)), &mut results, &mut best, work);
+            try_order(
+                o,
+                Some(cold_start(&o, &work.w)),
+                &mut results,
+                &mut best,
+                work,
+            );
         }
     }
     loop {
@@ -1505,18 +1624,50 @@ fn stepwise(
         push(&mut moves, sq > 0, mk(p, q, sp, sq.wrapping_sub(1), c));
         push(&mut moves, sp < max_sp, mk(p, q, sp + 1, sq, c));
         push(&mut moves, sq < max_sq, mk(p, q, sp, sq + 1, c));
-        push(&mut moves, sq > 0 && sp > 0, mk(p, q, sp.wrapping_sub(1), sq.wrapping_sub(1), c));
-        push(&mut moves, sq < max_sq && sp > 0, mk(p, q, sp.wrapping_sub(1), sq + 1, c));
-        push(&mut moves, sq > 0 && sp < max_sp, mk(p, q, sp + 1, sq.wrapping_sub(1), c));
-        push(&mut moves, sq < max_sq && sp < max_sp, mk(p, q, sp + 1, sq + 1, c));
+        push(
+            &mut moves,
+            sq > 0 && sp > 0,
+            mk(p, q, sp.wrapping_sub(1), sq.wrapping_sub(1), c),
+        );
+        push(
+            &mut moves,
+            sq < max_sq && sp > 0,
+            mk(p, q, sp.wrapping_sub(1), sq + 1, c),
+        );
+        push(
+            &mut moves,
+            sq > 0 && sp < max_sp,
+            mk(p, q, sp + 1, sq.wrapping_sub(1), c),
+        );
+        push(
+            &mut moves,
+            sq < max_sq && sp < max_sp,
+            mk(p, q, sp + 1, sq + 1, c),
+        );
         push(&mut moves, p > 0, mk(p.wrapping_sub(1), q, sp, sq, c));
         push(&mut moves, q > 0, mk(p, q.wrapping_sub(1), sp, sq, c));
         push(&mut moves, p < max_p, mk(p + 1, q, sp, sq, c));
         push(&mut moves, q < max_q, mk(p, q + 1, sp, sq, c));
-        push(&mut moves, q > 0 && p > 0, mk(p.wrapping_sub(1), q.wrapping_sub(1), sp, sq, c));
-        push(&mut moves, q < max_q && p > 0, mk(p.wrapping_sub(1), q + 1, sp, sq, c));
-        push(&mut moves, q > 0 && p < max_p, mk(p + 1, q.wrapping_sub(1), sp, sq, c));
-        push(&mut moves, q < max_q && p < max_p, mk(p + 1, q + 1, sp, sq, c));
+        push(
+            &mut moves,
+            q > 0 && p > 0,
+            mk(p.wrapping_sub(1), q.wrapping_sub(1), sp, sq, c),
+        );
+        push(
+            &mut moves,
+            q < max_q && p > 0,
+            mk(p.wrapping_sub(1), q + 1, sp, sq, c),
+        );
+        push(
+            &mut moves,
+            q > 0 && p < max_p,
+            mk(p + 1, q.wrapping_sub(1), sp, sq, c),
+        );
+        push(
+            &mut moves,
+            q < max_q && p < max_p,
+            mk(p + 1, q + 1, sp, sq, c),
+        );
         push(&mut moves, allow_c, mk(p, q, sp, sq, !c));
         let mut moved = false;
         for o in moves {
