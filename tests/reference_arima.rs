@@ -138,7 +138,7 @@ fn orders_and_forecasts_against_statsforecast() {
         let y = floats(&row["values"]);
         let h = row["h"].as_u64().unwrap() as usize;
         let theirs = order_of(&row["order"], row["constant"].as_bool().unwrap());
-        let fit = AutoArima.fit(&y).unwrap();
+        let fit = AutoArima::new().fit(&y).unwrap();
         let ours = fit.order();
         report.push_str(&format!(
             "{}: ours {} theirs {}",

@@ -98,15 +98,27 @@
 //! # Warm start across backtest origins
 //!
 //! [`Model::fit_warm`] keeps the previous origin's orders (d, D, p, q, P,
-//! Q, constant) and its CSS and ML parameters. At the next origin d and D
-//! are tested afresh on the data up to that origin only. If they are
-//! unchanged, the stepwise search starts from the previous order (fitted
-//! from its previous CSS parameters) instead of the four starting models,
-//! and the ML fit of the chosen order starts from the previous ML optimum
-//! when the order is the same. Otherwise the fit is cold. Every
-//! neighbour's CSS fit starts from the current best's coefficients (zero
-//! for a new coefficient). Nothing from after the origin is ever used:
-//! the warm state holds only estimates from shorter prefixes.
+//! Q, constant) and its CSS and ML coefficients. At the next origin d and
+//! D are tested afresh on the data up to that origin only.
+//!
+//! * [`AutoArima::new`] (the candidate): if d and D are unchanged, the
+//!   previous order is kept and only its coefficients are re-estimated, by
+//!   exact ML started from the previous optimum (at most 30 iterations);
+//!   the stepwise search runs only at a cold fit (the first origin, the
+//!   final refit on the whole history) or when d or D change or the kept
+//!   order no longer fits. This is what makes the backtest fit the speed
+//!   budget; the cost in accuracy is measured in the README section
+//!   "Automatic ARIMA".
+//! * [`AutoArima::searching_every_origin`]: the stepwise search runs at
+//!   every origin, starting from the previous order (fitted from its
+//!   previous CSS coefficients) instead of the four starting models, and
+//!   the ML fit of the chosen order starts from the previous ML optimum
+//!   when the order is the same.
+//!
+//! In both, every neighbour's CSS fit starts from the current best's
+//! coefficients (zero for a new coefficient). Nothing from after the
+//! origin is ever used: the warm state holds only estimates from shorter
+//! prefixes.
 //!
 //! # Parameters
 //!
@@ -186,7 +198,23 @@ impl Order {
 
 /// `arima-auto`: seasonal ARIMA with automatic orders (module docs).
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct AutoArima;
+pub struct AutoArima {
+    search_warm: bool,
+}
+
+impl AutoArima {
+    /// The candidate: at a warm-started origin the previous order is kept
+    /// while d and D are unchanged (module docs, "Warm start").
+    pub const fn new() -> Self {
+        AutoArima { search_warm: false }
+    }
+
+    /// The same model, but repeating the stepwise search at every origin
+    /// (from the previous order); slower, for comparing accuracy.
+    pub const fn searching_every_origin() -> Self {
+        AutoArima { search_warm: true }
+    }
+}
 
 /// What a fit leaves for the next origin.
 #[derive(Debug, Clone)]
@@ -227,7 +255,7 @@ impl Model for AutoArima {
             .as_ref()
             .and_then(|w| w.downcast_ref::<ArimaWarm>())
             .cloned();
-        let fit = auto_arima(y, previous.as_ref())?;
+        let fit = auto_arima(y, previous.as_ref(), self.search_warm)?;
         *warm = Some(Box::new(ArimaWarm {
             order: fit.order,
             css: fit.css.clone(),
@@ -1320,7 +1348,7 @@ fn adapt(from: &CssFit, to: &Order, w: &[f64]) -> Vec<f64> {
 }
 
 /// The full procedure of the module docs.
-fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
+fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>, search_warm: bool) -> Result<FittedArima> {
     let n = y.len();
     if is_constant(y) {
         return constant_fit(y, 0, 0, true);
@@ -1344,18 +1372,50 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
         return constant_fit(y, d, sd, allow_c);
     };
     let mut work = Work::new(ws);
-    let search = stepwise(
-        &mut work,
-        d,
-        sd,
-        [max_p, max_q, max_sp, max_sq],
-        allow_c,
-        previous,
-    );
+    let maxima = [max_p, max_q, max_sp, max_sq];
+    let kept = previous.filter(|p| !search_warm && fits_limits(&p.order, d, sd, maxima, allow_c));
+    if let Some(p) = kept {
+        // Same d and D as at the previous origin: keep its order, re-estimate.
+        let cand = CssFit {
+            order: p.order,
+            par: p.css.clone(),
+            ic: 0.0,
+        };
+        if let Some(fit) = fit_ranked(y, &[&cand], previous, scale, &mut work) {
+            return Ok(fit);
+        }
+    }
+    let search = stepwise(&mut work, d, sd, maxima, allow_c, previous);
     // ML in order of CSS AICc until one passes the root check.
     let mut ranked: Vec<&CssFit> = search.iter().filter(|f| f.ic.is_finite()).collect();
     ranked.sort_by(|a, b| a.ic.total_cmp(&b.ic));
-    for cand in ranked {
+    if let Some(fit) = fit_ranked(y, &ranked, previous, scale, &mut work) {
+        return Ok(fit);
+    }
+    fallback(y, d, sd, allow_c, scale, &mut work)
+}
+
+/// Whether `o` has differences `d`, `sd` and orders within the limits.
+fn fits_limits(o: &Order, d: usize, sd: usize, max: [usize; 4], allow_c: bool) -> bool {
+    o.d == d
+        && o.sd == sd
+        && o.p <= max[0]
+        && o.q <= max[1]
+        && o.sp <= max[2]
+        && o.sq <= max[3]
+        && (!o.constant || allow_c)
+        && o.ncoef() > 0
+}
+
+/// ML fits of `ranked` in turn; the first that passes the root check.
+fn fit_ranked(
+    y: &[f64],
+    ranked: &[&CssFit],
+    previous: Option<&ArimaWarm>,
+    scale: f64,
+    work: &mut Work,
+) -> Option<FittedArima> {
+    for &cand in ranked {
         let o = cand.order;
         let start = match previous {
             Some(p) if p.order == o => {
@@ -1368,24 +1428,26 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
             _ => cand.par.clone(),
         };
         let warm = previous.is_some_and(|p| p.order == o);
-        let Some((par, ssq, slf)) = fit_ml(&o, &start, &mut work, if warm { 30 } else { 100 })
-        else {
+        let Some((par, ssq, slf)) = fit_ml(&o, &start, work, if warm { 30 } else { 100 }) else {
             continue;
         };
         if !admissible(&o, &par, ROOT_LIMIT) {
             continue;
         }
-        return Ok(finish(
-            y,
-            o,
-            par,
-            cand.par.clone(),
-            ssq,
-            slf,
-            scale,
-            &mut work,
-        ));
+        return Some(finish(y, o, par, cand.par.clone(), ssq, slf, scale, work));
     }
+    None
+}
+
+/// (0,d,0)(0,D,0), with c when allowed: no ARMA terms, always admissible.
+fn fallback(
+    y: &[f64],
+    d: usize,
+    sd: usize,
+    allow_c: bool,
+    scale: f64,
+    work: &mut Work,
+) -> Result<FittedArima> {
     // Fallback: no ARMA terms, which is always admissible.
     let o = Order {
         p: 0,
@@ -1397,12 +1459,12 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>) -> Result<FittedArima> {
         constant: allow_c,
     };
     let start = cold_start(&o, &work.w);
-    let (par, ssq, slf) = fit_ml(&o, &start, &mut work, 50).ok_or_else(|| Error::Model {
+    let (par, ssq, slf) = fit_ml(&o, &start, work, 50).ok_or_else(|| Error::Model {
         model: NAME.to_string(),
         message: "no ARIMA model gives a finite fit; the series may have values too extreme for this model"
             .to_string(),
     })?;
-    Ok(finish(y, o, par, start, ssq, slf, scale, &mut work))
+    Ok(finish(y, o, par, start, ssq, slf, scale, work))
 }
 
 #[allow(clippy::too_many_arguments)]

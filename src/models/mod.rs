@@ -250,7 +250,7 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
         list.push(Box::new(spec));
     }
     list.push(Box::new(decomposition::MstlEts));
-    list.push(Box::new(arima::AutoArima));
+    list.push(Box::new(arima::AutoArima::new()));
     list
 }
 
