@@ -335,9 +335,9 @@ impl Fitted for FittedArima {
         let n = self.y.len();
         let mut ext = self.y.clone();
         ext.reserve(horizon);
-        for h in 0..horizon {
+        for (h, &wh) in w.iter().enumerate() {
             let t = n + h;
-            let mut v = w[h];
+            let mut v = wh;
             for (j, &dj) in delta.iter().enumerate() {
                 v += dj * ext[t - (j + 1)];
             }
@@ -724,7 +724,7 @@ fn css_resid(
 }
 
 /// Stationary covariance of Harvey's state (σ² = 1) into `pm` (r × r).
-#[allow(clippy::too_many_arguments)]
+#[allow(clippy::too_many_arguments, clippy::needless_range_loop)]
 fn initial_cov(
     phi: &[f64],
     theta: &[f64],
@@ -933,7 +933,7 @@ fn kalman(
             continue;
         }
         let f = pm[0];
-        if !(f > 0.0) || !f.is_finite() {
+        if f.is_nan() || f <= 0.0 || !f.is_finite() {
             return None;
         }
         resid[t] = v / f.sqrt();
@@ -1016,6 +1016,7 @@ fn exact_pass(o: &Order, par: &[f64], work: &mut Work) -> Option<KalmanOut> {
 
 /// Levenberg–Marquardt on residuals `f(x, out)` of fixed length `m`;
 /// returns the final sum of squares. `x` is updated in place.
+#[allow(clippy::too_many_arguments, clippy::type_complexity)]
 fn levenberg_marquardt(
     x: &mut [f64],
     m: usize,
@@ -1335,9 +1336,8 @@ fn adapt(from: &CssFit, to: &Order, w: &[f64]) -> Vec<f64> {
     let mut src = 0;
     let mut dst = 0;
     for (nf, nt) in [(f.p, to.p), (f.q, to.q), (f.sp, to.sp), (f.sq, to.sq)] {
-        for i in 0..nt.min(nf) {
-            s[dst + i] = from.par[src + i];
-        }
+        let k = nt.min(nf);
+        s[dst..dst + k].copy_from_slice(&from.par[src..src + k]);
         src += nf;
         dst += nt;
     }
@@ -1672,8 +1672,7 @@ fn stepwise(
             );
         }
     }
-    loop {
-        let Some(b) = best else { break };
+    while let Some(b) = best {
         let cur = results[b].order;
         let (p, q, sp, sq, c) = (cur.p, cur.q, cur.sp, cur.sq, cur.constant);
         let mut moves: Vec<Order> = Vec::with_capacity(17);
