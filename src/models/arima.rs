@@ -51,11 +51,15 @@
 //! search by exact maximum likelihood for series of at most 150 months, by
 //! conditional sum of squares (CSS) for longer ones (its `approximation`).
 //! We always search with CSS (log L replaced by −n*/2 ln σ²_CSS, as
-//! statsforecast's approximation does) and then fit the models in order of
-//! their CSS AICc by exact maximum likelihood until one passes the root
-//! check — statsforecast's approximation procedure used at every length.
+//! statsforecast's approximation does) and then fit the best (by CSS AICc)
+//! by exact maximum likelihood — statsforecast's approximation procedure
+//! used at every length. Two further departures, both for speed: the ML
+//! fit is constrained to roots of modulus ≥ 1.01 (statsforecast fits
+//! freely and then rejects a model whose roots fall inside, moving to the
+//! next best; we try at most 4 orders that way, then fall back to
+//! (0,d,0)(0,D,0)), and at most 25 Levenberg–Marquardt iterations.
 //! `tests/reference_arima.rs` counts how often the chosen orders agree with
-//! statsforecast's exact search.
+//! statsforecast's.
 //!
 //! # Estimation
 //!
@@ -103,12 +107,15 @@
 //!
 //! * [`AutoArima::new`] (the candidate): if d and D are unchanged, the
 //!   previous order is kept and only its coefficients are re-estimated, by
-//!   exact ML started from the previous optimum (at most 30 iterations);
-//!   the stepwise search runs only at a cold fit (the first origin, the
+//!   CSS started from the previous CSS optimum and kept to roots of modulus
+//!   ≥ 1.01; one exact Kalman pass at those coefficients then gives the
+//!   likelihood and the state the forecasts start from. The stepwise
+//!   search and the ML fit run only at a cold fit (the first origin, the
 //!   final refit on the whole history) or when d or D change or the kept
-//!   order no longer fits. This is what makes the backtest fit the speed
-//!   budget; the cost in accuracy is measured in the README section
-//!   "Automatic ARIMA".
+//!   order cannot be refitted. So backtest forecasts at later origins use
+//!   CSS coefficients while the final projection uses ML ones; the cost in
+//!   accuracy is measured by `examples/arima_origins.rs` (README,
+//!   "Automatic ARIMA").
 //! * [`AutoArima::searching_every_origin`]: the stepwise search runs at
 //!   every origin, starting from the previous order (fitted from its
 //!   previous CSS coefficients) instead of the four starting models, and
@@ -149,6 +156,11 @@ const ROOT_LIMIT: f64 = 1.01;
 const KPSS_CRIT_5: f64 = 0.463;
 /// Seasonal-strength threshold for D = 1 (statsforecast / R forecast `nsdiffs`).
 const SEAS_THRESHOLD: f64 = 0.64;
+/// At most this many orders (best CSS AICc first) are fitted by ML
+/// before falling back to (0,d,0)(0,D,0).
+const MAX_ML_TRIES: usize = 4;
+/// Iteration cap of an ML fit.
+const ML_ITERS: usize = 25;
 /// Model cap of the stepwise search.
 const MAX_MODELS: usize = 94;
 
@@ -806,8 +818,24 @@ fn initial_cov(
         gamma[k] = v;
     }
     // State element i (0-based) = Σ_{m≥1} φ_{i+m−1} y_{t−m} + Σ_{m≥0} θ_{i+m} ε_{t−m}
-    // for i ≥ 1, and y_t for i = 0.
-    let ph = |k: usize| if k >= 1 && k <= pf { phi[k - 1] } else { 0.0 };
+    // for i ≥ 1, and y_t for i = 0; sums over the non-zero coefficients only.
+    let mut nzf = [(0usize, 0.0f64); MAX_PF];
+    let mut nzt = [(0usize, 0.0f64); MAX_PF];
+    let mut nf = 0;
+    let mut nt = 0;
+    for (k, &f) in phi.iter().enumerate() {
+        if f != 0.0 {
+            nzf[nf] = (k + 1, f);
+            nf += 1;
+        }
+    }
+    for (k, &t) in theta.iter().enumerate() {
+        if t != 0.0 {
+            nzt[nt] = (k + 1, t);
+            nt += 1;
+        }
+    }
+    let (nzf, nzt) = (&nzf[..nf], &nzt[..nt]);
     let th = |k: usize| {
         if k >= 1 && k <= theta.len() {
             theta[k - 1]
@@ -816,63 +844,38 @@ fn initial_cov(
         }
     };
     // Cov(y_{t−a}, ε_{t−b}) = ψ_{b−a} if b ≥ a.
-    let cye = |a: usize, b: usize, psi: &[f64]| if b >= a { psi[b - a] } else { 0.0 };
+    let cye = |a: usize, b: usize| if b >= a { psi[b - a] } else { 0.0 };
     for i in 0..r {
         for j in i..r {
-            let v = if i == 0 && j == 0 {
-                gamma[0]
+            let mut v = 0.0;
+            if i == 0 && j == 0 {
+                v = gamma[0];
             } else if i == 0 {
-                // Cov(y_t, α_j)
-                let mut v = 0.0;
-                for mm in 1..=(r - j) {
-                    let f = ph(j + mm);
-                    if f != 0.0 {
-                        v += f * gamma[mm];
-                    }
+                for &(k, f) in nzf.iter().filter(|e| e.0 > j) {
+                    v += f * gamma[k - j];
                 }
-                for mm in 0..(r - j) {
-                    let t = th(j + mm);
-                    if t != 0.0 {
-                        v += t * cye(0, mm, psi);
-                    }
+                for &(k, t) in nzt.iter().filter(|e| e.0 >= j) {
+                    v += t * psi[k - j];
                 }
-                v
             } else {
-                let mut v = 0.0;
-                for ma in 1..=(r - i) {
-                    let fa = ph(i + ma);
-                    if fa == 0.0 {
-                        continue;
+                for &(ka, fa) in nzf.iter().filter(|e| e.0 > i) {
+                    let ma = ka - i;
+                    for &(kb, fb) in nzf.iter().filter(|e| e.0 > j) {
+                        v += fa * fb * gamma[ma.abs_diff(kb - j)];
                     }
-                    for mb in 1..=(r - j) {
-                        let fb = ph(j + mb);
-                        if fb != 0.0 {
-                            v += fa * fb * gamma[ma.abs_diff(mb)];
-                        }
-                    }
-                    for mb in 0..(r - j) {
-                        let tb = th(j + mb);
-                        if tb != 0.0 {
-                            v += fa * tb * cye(ma, mb, psi);
-                        }
+                    for &(kb, tb) in nzt.iter().filter(|e| e.0 >= j) {
+                        v += fa * tb * cye(ma, kb - j);
                     }
                 }
-                for ma in 0..(r - i) {
-                    let ta = th(i + ma);
-                    if ta == 0.0 {
-                        continue;
-                    }
-                    for mb in 1..=(r - j) {
-                        let fb = ph(j + mb);
-                        if fb != 0.0 {
-                            v += ta * fb * cye(mb, ma, psi);
-                        }
+                for &(ka, ta) in nzt.iter().filter(|e| e.0 >= i) {
+                    let ma = ka - i;
+                    for &(kb, fb) in nzf.iter().filter(|e| e.0 > j) {
+                        v += ta * fb * cye(kb - j, ma);
                     }
                     // The same shock ε_{t−ma} in α_j has coefficient θ_{j+ma}.
                     v += ta * th(j + ma);
                 }
-                v
-            };
+            }
             pm[i * r + j] = v;
             pm[j * r + i] = v;
         }
@@ -1149,7 +1152,8 @@ struct CssFit {
     ic: f64,
 }
 
-fn fit_css(o: &Order, start: &[f64], work: &mut Work) -> CssFit {
+/// `limit`: when given, trial points must have roots of modulus above it.
+fn fit_css(o: &Order, start: &[f64], work: &mut Work, limit: Option<f64>) -> CssFit {
     let k = o.ncoef();
     let n = work.w.len();
     let pf = o.pf();
@@ -1174,7 +1178,12 @@ fn fit_css(o: &Order, start: &[f64], work: &mut Work) -> CssFit {
         x1,
         ..
     } = work;
-    let mut f = |x: &[f64], out: &mut [f64]| css_resid(o, x, w, phi, theta, out);
+    let mut f = |x: &[f64], out: &mut [f64]| {
+        if limit.is_some_and(|l| !admissible(o, x, l)) {
+            return None;
+        }
+        css_resid(o, x, w, phi, theta, out)
+    };
     let Some(ssq) = levenberg_marquardt(&mut par, m, jac, r0, r1, x1, 50, 1e-8, &mut f) else {
         return fail;
     };
@@ -1205,10 +1214,11 @@ fn fit_ml(
     start: &[f64],
     work: &mut Work,
     max_iter: usize,
+    limit: f64,
 ) -> Option<(Vec<f64>, f64, f64)> {
     let n = work.w.len();
     let mut par = start.to_vec();
-    if !admissible(o, &par, 1.0) {
+    if !admissible(o, &par, limit) {
         // Shrink towards zero until admissible.
         let mut ok = false;
         for _ in 0..20 {
@@ -1217,7 +1227,7 @@ fn fit_ml(
                     *v *= 0.5;
                 }
             }
-            if admissible(o, &par, 1.0) {
+            if admissible(o, &par, limit) {
                 ok = true;
                 break;
             }
@@ -1231,6 +1241,9 @@ fn fit_ml(
     let mut r1 = std::mem::take(&mut work.r1);
     let mut x1 = std::mem::take(&mut work.x1);
     let mut f = |x: &[f64], out: &mut [f64]| {
+        if !admissible(o, x, limit) {
+            return None;
+        }
         let k = exact_pass(o, x, work)?;
         let g = (0.5 * k.sum_log_f / n as f64).exp();
         for (d, s) in out.iter_mut().zip(&work.resid) {
@@ -1275,8 +1288,8 @@ pub fn fit_order(y: &[f64], order: &Order) -> Option<(Vec<f64>, f64)> {
     let (scale, ws) = scaled(&w)?;
     let mut work = Work::new(ws);
     let start = cold_start(order, &work.w);
-    let css = fit_css(order, &start, &mut work);
-    let (par, ssq, slf) = fit_ml(order, &css.par, &mut work, 200)?;
+    let css = fit_css(order, &start, &mut work, None);
+    let (par, ssq, slf) = fit_ml(order, &css.par, &mut work, 200, 1.0)?;
     let n = work.w.len() as f64;
     let loglik =
         -0.5 * (n * (2.0 * std::f64::consts::PI * ssq / n).ln() + slf + n) - n * scale.ln();
@@ -1375,14 +1388,29 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>, search_warm: bool) -> Res
     let maxima = [max_p, max_q, max_sp, max_sq];
     let kept = previous.filter(|p| !search_warm && fits_limits(&p.order, d, sd, maxima, allow_c));
     if let Some(p) = kept {
-        // Same d and D as at the previous origin: keep its order, re-estimate.
-        let cand = CssFit {
-            order: p.order,
-            par: p.css.clone(),
-            ic: 0.0,
+        // Same d and D as at the previous origin: keep its order and
+        // re-estimate by CSS from the previous CSS optimum; one exact pass
+        // gives the likelihood and the state the forecasts start from.
+        let start = if p.css.len() == p.order.ncoef() {
+            p.css.clone()
+        } else {
+            cold_start(&p.order, &work.w)
         };
-        if let Some(fit) = fit_ranked(y, &[&cand], previous, scale, &mut work) {
-            return Ok(fit);
+        let css = fit_css(&p.order, &start, &mut work, Some(ROOT_LIMIT));
+        if css.ic.is_finite() {
+            if let Some(k) = exact_pass(&css.order, &css.par, &mut work) {
+                let par = css.par.clone();
+                return Ok(finish(
+                    y,
+                    css.order,
+                    par,
+                    css.par,
+                    k.ssq,
+                    k.sum_log_f,
+                    scale,
+                    &mut work,
+                ));
+            }
         }
     }
     let search = stepwise(&mut work, d, sd, maxima, allow_c, previous);
@@ -1415,7 +1443,7 @@ fn fit_ranked(
     scale: f64,
     work: &mut Work,
 ) -> Option<FittedArima> {
-    for &cand in ranked {
+    for &cand in ranked.iter().take(MAX_ML_TRIES) {
         let o = cand.order;
         let start = match previous {
             Some(p) if p.order == o => {
@@ -1428,7 +1456,13 @@ fn fit_ranked(
             _ => cand.par.clone(),
         };
         let warm = previous.is_some_and(|p| p.order == o);
-        let Some((par, ssq, slf)) = fit_ml(&o, &start, work, if warm { 30 } else { 100 }) else {
+        let Some((par, ssq, slf)) = fit_ml(
+            &o,
+            &start,
+            work,
+            if warm { 10 } else { ML_ITERS },
+            ROOT_LIMIT,
+        ) else {
             continue;
         };
         if !admissible(&o, &par, ROOT_LIMIT) {
@@ -1459,7 +1493,7 @@ fn fallback(
         constant: allow_c,
     };
     let start = cold_start(&o, &work.w);
-    let (par, ssq, slf) = fit_ml(&o, &start, work, 50).ok_or_else(|| Error::Model {
+    let (par, ssq, slf) = fit_ml(&o, &start, work, 50, ROOT_LIMIT).ok_or_else(|| Error::Model {
         model: NAME.to_string(),
         message: "no ARIMA model gives a finite fit; the series may have values too extreme for this model"
             .to_string(),
@@ -1586,7 +1620,7 @@ fn stepwise(
             Some(b) => adapt(&results[*b], &o, &work.w),
             None => cold_start(&o, &work.w),
         });
-        let fit = fit_css(&o, &start, work);
+        let fit = fit_css(&o, &start, work, None);
         results.push(fit);
         let i = results.len() - 1;
         let better = best.map_or(true, |b| results[i].ic < results[b].ic);
