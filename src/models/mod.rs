@@ -10,6 +10,7 @@
 
 use crate::error::{Error, Result};
 
+pub mod arima;
 pub mod baseline;
 pub mod decomposition;
 pub mod ets;
@@ -255,6 +256,7 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
     }
     list.push(Box::new(ets_seasonal::EtsAuto));
     list.push(Box::new(decomposition::MstlEts));
+    list.push(Box::new(arima::AutoArima::new()));
     list
 }
 
