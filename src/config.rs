@@ -78,7 +78,7 @@ pub const ENCODINGS: [&str; 3] = ["utf-8", "latin1", "windows-1252"];
 /// Valid names of `selection.select_by`.
 pub const SCORES: [&str; 4] = ["mape", "wape", "mase", "rmse"];
 /// Valid names of `backtest.backtest_detail`.
-pub const DETAILS: [&str; 2] = ["chosen", "all"];
+pub const DETAILS: [&str; 3] = ["chosen", "compared", "all"];
 /// Largest `min_months` accepted (100 years).
 pub const MAX_MIN_MONTHS: usize = 1200;
 
@@ -109,15 +109,16 @@ pub const KEYS: &[KeyDoc] = &[
     key("backtest", "origins", "integer", "12", "1 to 60", "number of rolling backtest origins (K)", "12"),
     key("backtest", "backtest_horizon", "integer", "12", "1 to 36", "months forecast at each backtest origin (H)", "12"),
     key("backtest", "score_imputed", "true/false", "false", "true, false", "also score months that are mostly imputed", "false"),
-    key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"all\"", "backtest forecasts written to backtest.csv: the chosen model, runner-up and combination, or every model", "\"chosen\""),
+    key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"compared\", \"all\"", "models whose backtest forecasts and scores by months ahead are written to backtest.csv and scores_by_horizon.csv: the chosen model; the chosen model, runner-up and combination; or every model", "\"chosen\""),
     key("selection", "select_by", "text", "\"mape\"", "\"mape\", \"wape\", \"mase\", \"rmse\"", "score to choose models by (WAPE is used when over a third of the backtest months are zero)", "\"mape\""),
     key("selection", "tie_margin", "number", "0.1", "0 to 0.5", "relative gap to the best score counted as a near-tie (the combination, then the simpler model, wins it)", "0.1"),
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
     key("projection", "horizon", "integer", "24", "1 to 60", "months projected", "24"),
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),
     key("output", "overwrite", "true/false", "false", "true, false", "write into the folder even if it holds files provisio did not write", "false"),
-    key("output", "no_report", "true/false", "false", "true, false", "skip the charts and report.html", "false"),
+    key("output", "no_report", "true/false", "false", "true, false", "skip report.html", "false"),
     key("output", "no_workbook", "true/false", "false", "true, false", "skip the planner's workbook forecast.xlsx", "false"),
+    key("output", "chart_files", "list of text", "[] (none)", "[\"all\"], or product names", "also write chart image files (PNG and SVG under charts/) for these products, or every product", "[\"all\"]"),
 ];
 
 /// Every key of a `[products."NAME"]` table.
@@ -212,6 +213,8 @@ pub struct OutputSection {
     pub no_report: Option<bool>,
     /// Skip the planner's workbook `forecast.xlsx`.
     pub no_workbook: Option<bool>,
+    /// Products (or `all`) whose chart image files are written.
+    pub chart_files: Option<Vec<String>>,
 }
 
 /// `[products."NAME"]`: settings of one product (see [`PRODUCT_KEYS`]).

@@ -10,7 +10,8 @@ mod workbook;
 
 pub use forecast::{
     write_backtest, write_forecast, write_forecast_units, write_forecast_wide, write_json,
-    write_scores, write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
+    write_scores, write_scores_by_horizon, write_selection, EvidenceRows, Units,
+    FORECAST_FORMAT_VERSION,
 };
 
 pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
