@@ -21,7 +21,7 @@ measure() { # out-dir args... -> "wall_s peak_MB"
     local out=$1; shift
     rm -rf "$out"
     /usr/bin/time -f "%e %M" -o "$WORK/time.txt" "$BIN" forecast "$@" --out "$out" --quiet 2>/dev/null
-    awk '{printf "%.1f %.0f", $1, $2/1024}' "$WORK/time.txt"
+    awk '{printf "%.1f %.0f\n", $1, $2/1024}' "$WORK/time.txt"
 }
 printf "%8s %12s %16s %14s %10s %12s %10s %12s\n" series forecasting_s no_report_wall_s no_report_MB full_wall_s full_peak_MB folder_MB report_html_MB
 for n in "${sizes[@]}"; do

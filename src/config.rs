@@ -711,6 +711,7 @@ mod tests {
                 overwrite: Some(true),
                 no_report: Some(false),
                 no_workbook: Some(true),
+                chart_files: Some(vec!["all".into(), "ORS \"sachet\"".into()]),
             },
             products,
         }

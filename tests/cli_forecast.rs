@@ -370,7 +370,7 @@ fn backtest_detail_compared_keeps_the_runner_up() {
     );
     let runner = &sel[0][col("runner_up")];
     if !runner.is_empty() {
-        assert!(models.contains(&runner[..]), "{models:?}");
+        assert!(models.contains(runner), "{models:?}");
     }
     assert!((2..=4).contains(&models.len()), "{models:?}");
     let (_, by_h) = read_csv_file(&out.join("scores_by_horizon.csv"));

@@ -11,7 +11,6 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use provisio::chart::file_stem;
-use provisio::report::html::escape;
 
 fn fixture() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report")
@@ -98,7 +97,7 @@ fn every_product_has_its_detail_and_chart_data() {
         assert_eq!((reader.info().width, reader.info().height), (1200, 770));
     }
     // A run this small shows every product's detail when the page opens.
-    assert!(html.contains("<div id=\"details\" data-all=\"yes\">"));
+    assert!(html.contains("<div id=\"every-detail\" data-all=\"yes\">"));
     assert!(dir.join("charts/overview.png").exists());
     assert!(dir.join("charts/overview.svg").exists());
     // Two names that read alike as file names still get two files each.
@@ -231,7 +230,7 @@ fn summary_links_the_files_present() {
 #[test]
 fn same_files_same_report() {
     let (_tmp, dir, first) = built();
-    let o = report(&dir);
+    let o = report_with(&dir, &["--chart-files", "all"]);
     assert!(o.status.success());
     let second = std::fs::read_to_string(dir.join("report.html")).unwrap();
     assert_eq!(first, second);

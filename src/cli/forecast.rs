@@ -39,7 +39,8 @@ impl DetailArg {
     fn rows(self) -> output::EvidenceRows {
         match self {
             DetailArg::Chosen => output::EvidenceRows::Chosen,
-            DetailArg::Compared | DetailArg::All => output::EvidenceRows::Kept,
+            DetailArg::Compared => output::EvidenceRows::Compared,
+            DetailArg::All => output::EvidenceRows::All,
         }
     }
 }

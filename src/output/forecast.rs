@@ -266,14 +266,24 @@ pub enum EvidenceRows {
     /// The chosen model only (what the report draws; compact).
     #[default]
     Chosen,
-    /// Every model the results kept (see
+    /// The chosen model, the runner-up and the combination.
+    Compared,
+    /// Every model (the results must keep every model's backtest, see
     /// [`crate::pipeline::BacktestDetail`]).
-    Kept,
+    All,
 }
 
 impl EvidenceRows {
     fn keeps(self, r: &ProductForecast, model: &str) -> bool {
-        self == EvidenceRows::Kept || r.selection.chosen == model
+        match self {
+            EvidenceRows::Chosen => r.selection.chosen == model,
+            EvidenceRows::Compared => {
+                r.selection.chosen == model
+                    || model == crate::backtest::COMBINATION
+                    || r.selection.runner_up.as_ref().is_some_and(|x| x.0 == model)
+            }
+            EvidenceRows::All => true,
+        }
     }
 }
 

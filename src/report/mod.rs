@@ -541,9 +541,9 @@ fn write_page(
         .map(|((p, stem), l)| detail::index_row(p, stem, *l))
         .collect();
     let index = detail::safe_json(&serde_json::to_string(&rows).map_err(std::io::Error::other)?);
-    write!(
+    writeln!(
         w,
-        "<script type=\"application/json\" id=\"index-data\">{index}</script>\n"
+        "<script type=\"application/json\" id=\"index-data\">{index}</script>"
     )?;
     w.write_all(html::page_scripts(&[html::SCRIPT, REPORT_SCRIPT]).as_bytes())?;
     // Detail records, drawn in parallel a block at a time.
@@ -606,7 +606,7 @@ fn first_view(
     index_section(&mut b, run);
     b.push_str("<div id=\"detail\"></div>\n");
     if run.products.len() <= ALL_DETAILS_UP_TO {
-        b.push_str("<h2 id=\"details\">Product details</h2>\n<div id=\"details\" data-all=\"yes\"></div>\n");
+        b.push_str("<h2 id=\"details\">Product details</h2>\n<div id=\"every-detail\" data-all=\"yes\"></div>\n");
     }
     for sec in sections {
         let _ = writeln!(

@@ -392,7 +392,7 @@
   document.documentElement.setAttribute("data-first-view", String(Math.round(performance.now())));
   window.addEventListener("hashchange", fromHash);
   document.addEventListener("DOMContentLoaded", function () {
-    var all = document.getElementById("details");
+    var all = document.getElementById("every-detail");
     if (all && all.getAttribute("data-all") === "yes") {
       rows.forEach(function (r) {
         var d = record(r[1]);
