@@ -211,7 +211,6 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
     let charts_dir = dir.join("charts");
     let names: Vec<&str> = run.products.iter().map(|p| p.product.as_str()).collect();
     let stems = chart::file_stems(&names);
-    let mut charts = write_chart_files(&run, &stems, &charts_dir, &options.chart_files)?;
     if let ChartFiles::Named(asked) = &options.chart_files {
         for n in asked {
             if !names.contains(&n.as_str()) {
@@ -224,6 +223,7 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
             }
         }
     }
+    let mut charts = write_chart_files(&run, &stems, &charts_dir, &options.chart_files)?;
     let mut sections = Vec::new();
     let mut attention = attention_lists(&run);
     // The cross-check section, when `provisio crosscheck` has run here.
