@@ -78,7 +78,7 @@ pub const ENCODINGS: [&str; 3] = ["utf-8", "latin1", "windows-1252"];
 /// Valid names of `selection.select_by`.
 pub const SCORES: [&str; 5] = ["mape", "wape", "mase", "rmse", "rmsse"];
 /// Valid names of `backtest.backtest_detail`.
-pub const DETAILS: [&str; 2] = ["chosen", "all"];
+pub const DETAILS: [&str; 3] = ["chosen", "compared", "all"];
 /// Largest `min_months` accepted (100 years).
 pub const MAX_MIN_MONTHS: usize = 1200;
 
@@ -109,7 +109,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("backtest", "origins", "integer", "12", "1 to 60", "number of rolling backtest origins (K)", "12"),
     key("backtest", "backtest_horizon", "integer", "12", "1 to 36", "months forecast at each backtest origin (H)", "12"),
     key("backtest", "score_imputed", "true/false", "false", "true, false", "also score months that are mostly imputed", "false"),
-    key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"all\"", "backtest forecasts written to backtest.csv: the chosen model, runner-up and combination, or every model", "\"chosen\""),
+    key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"compared\", \"all\"", "models whose backtest forecasts and scores by months ahead are written to backtest.csv and scores_by_horizon.csv: the chosen model; the chosen model, runner-up and combination; or every model", "\"chosen\""),
     key("selection", "select_by", "text", "\"mase\"", "\"mape\", \"wape\", \"mase\", \"rmse\", \"rmsse\"", "score to choose models by (intermittent demand is always scored by RMSSE; MAPE falls back to WAPE when over a third of the backtest months are zero)", "\"mase\""),
     key("selection", "tie_margin", "number", "0.1", "0 to 0.5", "relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins", "0.1"),
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
@@ -119,8 +119,9 @@ pub const KEYS: &[KeyDoc] = &[
     key("projection", "silence_limit", "integer", "6", "0 to 120", "months a product may go without a report before the data set's last month without the possibly-discontinued warning", "6"),
     key("output", "out", "text (path)", "not set", "a folder", "folder for the outputs; relative to the folder of the configuration file; --out overrides it", "\"forecast-2026\""),
     key("output", "overwrite", "true/false", "false", "true, false", "write into the folder even if it holds files provisio did not write", "false"),
-    key("output", "no_report", "true/false", "false", "true, false", "skip the charts and report.html", "false"),
+    key("output", "no_report", "true/false", "false", "true, false", "skip report.html", "false"),
     key("output", "no_workbook", "true/false", "false", "true, false", "skip the planner's workbook forecast.xlsx", "false"),
+    key("output", "chart_files", "list of text", "[] (none)", "[\"all\"], or product names", "also write chart image files (PNG and SVG under charts/) for these products, or every product", "[\"all\"]"),
 ];
 
 /// Every key of a `[products."NAME"]` table.
@@ -219,6 +220,8 @@ pub struct OutputSection {
     pub no_report: Option<bool>,
     /// Skip the planner's workbook `forecast.xlsx`.
     pub no_workbook: Option<bool>,
+    /// Products (or `all`) whose chart image files are written.
+    pub chart_files: Option<Vec<String>>,
 }
 
 /// `[products."NAME"]`: settings of one product (see [`PRODUCT_KEYS`]).
@@ -723,6 +726,7 @@ mod tests {
                 overwrite: Some(true),
                 no_report: Some(false),
                 no_workbook: Some(true),
+                chart_files: Some(vec!["all".into(), "ORS \"sachet\"".into()]),
             },
             products,
         }

@@ -5,9 +5,16 @@
 //! Needs Debian's `chromium` (`.ci/run` installs it). Without a browser the
 //! test says so and passes, except under CI (`CI` set), where it fails.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
+
+fn product_names(dir: &Path) -> Vec<String> {
+    let mut r = csv::Reader::from_path(dir.join("selection.csv")).unwrap();
+    r.records().map(|x| x.unwrap()[0].to_string()).collect()
+}
 
 fn browser() -> Option<PathBuf> {
     if let Some(p) = std::env::var_os("PROVISIO_CHROMIUM") {
@@ -159,11 +166,23 @@ fn report_renders_in_a_browser_without_errors() {
     // The script ran (it marks the root element) and product names stay text.
     let (dom, stderr) = run(&browser, &page, &["--dump-dom".to_string()]);
     assert!(
-        dom.contains("data-script=\"ran\""),
-        "the report's script did not run; browser log:\n{stderr}"
+        dom.contains("data-script=\"ran\"") && dom.contains("data-report-script=\"ran\""),
+        "the report's scripts did not run; browser log:\n{stderr}"
     );
     assert!(dom.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
-    assert_eq!(dom.matches("<script").count(), 1, "only our own script");
+    assert_eq!(dom.matches("<script>").count(), 2, "only our own scripts");
+    // A run this small draws every product's detail with its chart.
+    let names = product_names(&dir);
+    for p in &names {
+        let id = format!("id=\"p-{}\"", provisio::chart::file_stem(p));
+        let at = dom
+            .find(&id)
+            .unwrap_or_else(|| panic!("no detail drawn for {p}"));
+        let rest = &dom[at..];
+        let end = rest.find("</section>").unwrap();
+        assert!(rest[..end].contains("<svg"), "{p}: no chart");
+        assert!(rest[..end].contains("Candidate models"), "{p}");
+    }
     assert!(
         console_lines(&stderr).is_empty(),
         "console messages: {:?}",
@@ -177,9 +196,9 @@ fn report_renders_in_a_browser_without_errors() {
         .find("<meta http-equiv=\"Content-Security-Policy\"")
         .unwrap();
     let csp_end = csp_start + html[csp_start..].find('>').unwrap() + 1;
-    let probe = "<script>var t=document.querySelector('table.sortable');\
+    let probe = "<script>var t=document.getElementById('index-body').parentNode;\
 var b=t.tHead.rows[0].cells[3].querySelector('button');\
-function col(){return Array.prototype.map.call(t.tBodies[0].rows,function(r){return r.cells[3].getAttribute('data-v')}).join(' ')}\
+function col(){return Array.prototype.map.call(t.tBodies[0].rows,function(r){return parseFloat(r.cells[3].textContent)}).join(' ')}\
 b.click();document.body.setAttribute('data-up',col());b.click();document.body.setAttribute('data-down',col());</script></body>";
     let sorted = format!("{}{}", &html[..csp_start], &html[csp_end..]).replace("</body>", probe);
     let sort_page = dir.join("sort-probe.html");
@@ -220,4 +239,93 @@ b.click();document.body.setAttribute('data-up',col());b.click();document.body.se
         colours <= 50 && share <= 0.05,
         "an empty page looks painted: {colours} colours, {share}"
     );
+}
+
+/// The number in `name="..."` of the browser's DOM dump.
+fn attr_ms(dom: &str, name: &str) -> f64 {
+    let s = dom
+        .find(&format!("{name}=\""))
+        .unwrap_or_else(|| panic!("no {name} in the page"))
+        + name.len()
+        + 2;
+    dom[s..s + dom[s..].find('"').unwrap()].parse().unwrap()
+}
+
+/// The report of 1,000 products (the fixture's four, 250 times each):
+/// the first view is ready (the page parsed, its script run, the index
+/// drawn) in under 2 s of the page's own clock, and a product found by
+/// its name opens its detail, chart drawn and laid out, in under 1 s.
+#[test]
+fn report_of_1000_products_opens_fast() {
+    let Some(browser) = browser() else {
+        if std::env::var_os("CI").is_some() {
+            panic!("no chromium found under CI; .ci/run must install it");
+        }
+        eprintln!("SKIPPED report_of_1000_products_opens_fast: no chromium on PATH");
+        return;
+    };
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().join("out");
+    let names = common::large_folder(&dir, 250);
+    assert_eq!(names.len(), 1000);
+    let o = Command::new(env!("CARGO_BIN_EXE_provisio"))
+        .arg("report")
+        .arg(&dir)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let page = dir.join("report.html");
+    let size = std::fs::metadata(&page).unwrap().len();
+
+    // The first view: the page marks the time its first view was ready.
+    let start = Instant::now();
+    let (dom, stderr) = run(&browser, &page, &["--dump-dom".to_string()]);
+    let wall = start.elapsed().as_secs_f64();
+    assert!(console_lines(&stderr).is_empty(), "{stderr}");
+    let first = attr_ms(&dom, "data-first-view");
+    let loaded = attr_ms(&dom, "data-loaded");
+    eprintln!(
+        "1,000 products: report.html {:.1} MB; first view in the page at {first:.0} ms, whole page parsed at {loaded:.0} ms (browser process {wall:.1} s with its start)",
+        size as f64 / 1e6
+    );
+    assert!(first < 2000.0, "first view after {first} ms");
+    // The index lists the first 100 and counts them all; no detail is
+    // drawn before a product is opened.
+    assert!(dom.contains("1000 of 1000 products"), "index count");
+    assert!(!dom.contains("<section class=\"product"));
+
+    // Find a product by name and open it: type the name, take the first
+    // match, follow its link (the hash changes at once; the script's
+    // handler is called directly so the time is measured here).
+    let wanted = &names[617];
+    let html = std::fs::read_to_string(&page).unwrap();
+    let csp_start = html
+        .find("<meta http-equiv=\"Content-Security-Policy\"")
+        .unwrap();
+    let csp_end = csp_start + html[csp_start..].find('>').unwrap() + 1;
+    let probe = format!(
+        "<script>var t0=performance.now();var q=document.getElementById('find');q.value={};\
+q.dispatchEvent(new Event('input'));\
+var a=document.querySelector('#index-body a');a.click();\
+window.dispatchEvent(new HashChangeEvent('hashchange'));\
+var s=document.querySelector('section.product');s.getBoundingClientRect();\
+document.body.setAttribute('data-open-ms',String(performance.now()-t0));\
+document.body.setAttribute('data-opened',s.getAttribute('data-product')===q.value?'same':'other');\
+document.body.setAttribute('data-charted',String(!!s.querySelector('svg path')));</script></body>",
+        serde_json::to_string(wanted).unwrap()
+    );
+    let opened =
+        format!("{}{}", &html[..csp_start], &html[csp_end..]).replacen("</body>", &probe, 1);
+    let probe_page = dir.join("find-probe.html");
+    std::fs::write(&probe_page, opened).unwrap();
+    let (dom, stderr) = run(&browser, &probe_page, &["--dump-dom".to_string()]);
+    assert!(console_lines(&stderr).is_empty(), "{stderr}");
+    let open_ms = attr_ms(&dom, "data-open-ms");
+    eprintln!("found and opened '{wanted}' in {open_ms:.0} ms");
+    assert!(
+        dom.contains("data-opened=\"same\""),
+        "the product opened is not the one searched for"
+    );
+    assert!(dom.contains("data-charted=\"true\""), "no chart drawn");
+    assert!(open_ms < 1000.0, "opening took {open_ms} ms");
 }

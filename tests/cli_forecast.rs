@@ -20,6 +20,8 @@ fn forecast_demo_writes_every_output() {
             "out",
             "--horizon",
             "18",
+            "--chart-files",
+            "all",
         ],
     );
     let text = format!(
@@ -95,31 +97,33 @@ fn forecast_demo_writes_every_output() {
     let n_models = scores.iter().filter(|r| r[0] == sel[0][0]).count();
     assert!(n_models >= 15, "every candidate scored: {n_models}");
     let (_, bt) = read_csv_file(&out.join("backtest.csv"));
-    // By default backtest.csv holds the evidence for each choice: the
-    // chosen model, the runner-up and the combination, each at every
-    // origin (12) and months ahead (12).
-    let runner_col = col("runner_up");
+    // By default backtest.csv holds the chosen model's forecasts (what the
+    // report draws), at every origin (12) and months ahead (12); the
+    // other models' scores are in scores.csv.
     for r in &sel {
         let product = &r[0];
         let rows_of = |m: &str| bt.iter().filter(|b| &b[0] == product && &b[1] == m).count();
         assert_eq!(rows_of(&r[col("chosen_model")]), 144, "{product}");
-        if !r[runner_col].is_empty() {
-            assert_eq!(rows_of(&r[runner_col]), 144, "{product} runner-up");
-        }
         let kept: BTreeSet<&str> = bt
             .iter()
             .filter(|b| &b[0] == product)
             .map(|b| &b[1][..])
             .collect();
-        assert!(kept.len() <= 4, "{product}: {kept:?}");
+        assert_eq!(kept.len(), 1, "{product}: {kept:?}");
     }
     for r in bt.iter().take(2000) {
         assert!(r[4] > r[2], "target month after origin");
     }
-    // Scores per months ahead: 12 rows for every model that forecast.
+    // Scores per months ahead: 12 rows for each product's chosen model.
     let (_, by_h) = read_csv_file(&out.join("scores_by_horizon.csv"));
-    let forecasting = scores.iter().filter(|r| &r[2] != "not applicable").count();
-    assert_eq!(by_h.len(), forecasting * 12);
+    assert_eq!(by_h.len(), sel.len() * 12);
+    for r in &by_h {
+        let chosen = sel
+            .iter()
+            .find(|s| s[0] == r[0])
+            .map(|s| &s[col("chosen_model")]);
+        assert_eq!(chosen, Some(&r[1]), "{r:?}");
+    }
 
     let m: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
@@ -128,20 +132,26 @@ fn forecast_demo_writes_every_output() {
     assert_eq!(m["scored_against"], "cleaned series");
     assert_eq!(m["input_sha256"].as_str().unwrap().len(), 64);
 
-    // The report: every product of the input has its section and its charts.
+    // The report: every product of the input has its detail record with
+    // its chart data (drawn by the page; tests/browser.rs draws them), and
+    // the chart files asked for.
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
     let mut input = csv::Reader::from_path(&data).unwrap();
     let names: BTreeSet<String> = input.records().map(|r| r.unwrap()[0].to_string()).collect();
     assert_eq!(names.len(), 12);
+    assert!(
+        html.contains("data-all=\"yes\""),
+        "12 products: every detail drawn"
+    );
     for p in &names {
         let stem = provisio::chart::file_stem(p);
         let at = html
-            .find(&format!("id=\"p-{stem}\""))
-            .unwrap_or_else(|| panic!("no section for {p}"));
-        let end = at + html[at..].find("</section>").unwrap();
+            .find(&format!("id=\"d-{stem}\">"))
+            .unwrap_or_else(|| panic!("no detail for {p}"));
+        let end = at + html[at..].find("</script>").unwrap();
         assert!(
-            html[at..end].contains("<svg"),
-            "{p}: no chart in its section"
+            html[at..end].contains("\"chart\":{"),
+            "{p}: no chart data in its detail"
         );
         for ext in ["png", "svg"] {
             assert!(
@@ -332,6 +342,43 @@ fn backtest_detail_all_writes_every_complete_model() {
     let complete = scores.iter().filter(|r| &r[2] == "complete").count();
     assert!(complete >= 10, "{complete}");
     assert_eq!(bt.len(), complete * 144);
+}
+
+/// `--backtest-detail compared`: the chosen model, the runner-up and the
+/// combination, in backtest.csv and scores_by_horizon.csv.
+#[test]
+fn backtest_detail_compared_keeps_the_runner_up() {
+    let dir = tempfile::tempdir().unwrap();
+    write_one_demo_product(&dir.path().join("one.csv"));
+    let o = run_in(
+        dir.path(),
+        &[
+            "backtest",
+            "one.csv",
+            "--out",
+            "out",
+            "--backtest-detail",
+            "compared",
+        ],
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let out = dir.path().join("out");
+    let (h, sel) = read_csv_file(&out.join("selection.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let (_, bt) = read_csv_file(&out.join("backtest.csv"));
+    let models: BTreeSet<&str> = bt.iter().map(|b| &b[1][..]).collect();
+    assert!(
+        models.contains(&sel[0][col("chosen_model")][..]),
+        "{models:?}"
+    );
+    let runner = &sel[0][col("runner_up")];
+    if !runner.is_empty() {
+        assert!(models.contains(runner), "{models:?}");
+    }
+    assert!((2..=4).contains(&models.len()), "{models:?}");
+    let (_, by_h) = read_csv_file(&out.join("scores_by_horizon.csv"));
+    let by_h_models: BTreeSet<&str> = by_h.iter().map(|b| &b[1][..]).collect();
+    assert_eq!(by_h_models, models);
 }
 
 #[test]

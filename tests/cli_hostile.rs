@@ -64,6 +64,8 @@ fn odd_product_names_flow_through_forecast_unchanged() {
             "in.csv",
             "--out",
             "out",
+            "--chart-files",
+            "all",
             "--origins",
             "2",
             "--horizon",

@@ -11,7 +11,6 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 use provisio::chart::file_stem;
-use provisio::report::html::escape;
 
 fn fixture() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report")
@@ -30,16 +29,22 @@ fn fresh_copy() -> (tempfile::TempDir, PathBuf) {
 }
 
 fn report(dir: &Path) -> std::process::Output {
+    report_with(dir, &[])
+}
+
+fn report_with(dir: &Path, args: &[&str]) -> std::process::Output {
     Command::new(env!("CARGO_BIN_EXE_provisio"))
         .arg("report")
         .arg(dir)
+        .args(args)
         .output()
         .unwrap()
 }
 
+/// The fixture's report, built with every chart file.
 fn built() -> (tempfile::TempDir, PathBuf, String) {
     let (tmp, dir) = fresh_copy();
-    let o = report(&dir);
+    let o = report_with(&dir, &["--chart-files", "all"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let html = std::fs::read_to_string(dir.join("report.html")).unwrap();
     (tmp, dir, html)
@@ -50,31 +55,35 @@ fn products(dir: &Path) -> Vec<String> {
     r.records().map(|x| x.unwrap()[0].to_string()).collect()
 }
 
-/// The text of the section of one product.
-fn section<'a>(html: &'a str, product: &str) -> &'a str {
+/// The detail record of one product, as the page's script reads it.
+fn detail(html: &str, product: &str) -> serde_json::Value {
+    let open = format!(
+        "<script type=\"application/json\" id=\"d-{}\">",
+        file_stem(product)
+    );
     let start = html
-        .find(&format!("id=\"p-{}\"", file_stem(product)))
-        .unwrap_or_else(|| panic!("no section for {product}"));
-    let end = html[start..]
-        .find("</section>")
-        .map(|e| start + e)
-        .unwrap_or(html.len());
-    &html[start..end]
+        .find(&open)
+        .unwrap_or_else(|| panic!("no detail record for {product}"))
+        + open.len();
+    let end = start + html[start..].find("</script>").unwrap();
+    serde_json::from_str(&html[start..end]).unwrap()
 }
 
 #[test]
-fn every_product_has_its_section_and_charts() {
+fn every_product_has_its_detail_and_chart_data() {
     let (_tmp, dir, html) = built();
     let names = products(&dir);
     assert_eq!(names.len(), 4);
     for p in &names {
-        let s = section(&html, p);
-        assert!(
-            s.contains(&format!("data-product=\"{}\"", escape(p))),
-            "{p}"
-        );
-        assert!(s.contains("<svg"), "{p}: chart inline");
-        assert!(s.contains("Candidate models") && s.contains("Adjustments to the data"));
+        let d = detail(&html, p);
+        assert_eq!(d["name"], p.as_str());
+        // The chart data: one value per cleaned month, as cleaned.csv has.
+        let mut r = csv::Reader::from_path(dir.join("cleaned.csv")).unwrap();
+        let months = r.records().filter(|x| x.as_ref().unwrap()[0] == *p).count();
+        assert_eq!(d["chart"]["cl"].as_array().unwrap().len(), months, "{p}");
+        assert_eq!(d["chart"]["st"].as_str().unwrap().len(), months, "{p}");
+        assert!(!d["chart"]["p"].as_array().unwrap().is_empty(), "{p}");
+        assert!(!d["scores"].as_array().unwrap().is_empty(), "{p}");
         let stem = file_stem(p);
         for ext in ["png", "svg"] {
             let f = dir.join("charts").join(format!("{stem}.{ext}"));
@@ -87,6 +96,8 @@ fn every_product_has_its_section_and_charts() {
         let reader = dec.read_info().unwrap();
         assert_eq!((reader.info().width, reader.info().height), (1200, 770));
     }
+    // A run this small shows every product's detail when the page opens.
+    assert!(html.contains("<div id=\"every-detail\" data-all=\"yes\">"));
     assert!(dir.join("charts/overview.png").exists());
     assert!(dir.join("charts/overview.svg").exists());
     // Two names that read alike as file names still get two files each.
@@ -94,17 +105,57 @@ fn every_product_has_its_section_and_charts() {
     assert_eq!(files, 2 * names.len() + 2);
 }
 
+/// Chart files are written only when asked for: none by default, those of
+/// the products named, and a name that is not a product is refused.
+#[test]
+fn chart_files_only_on_request() {
+    let (_tmp, dir) = fresh_copy();
+    let o = report(&dir);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(dir.join("report.html").is_file());
+    assert!(!dir.join("charts").exists(), "no chart files by default");
+    let names = products(&dir);
+    let o = report_with(&dir, &["--chart-files", &names[1]]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut files: Vec<String> = std::fs::read_dir(dir.join("charts"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    files.sort();
+    let stem = file_stem(&names[1]);
+    assert_eq!(files, [format!("{stem}.png"), format!("{stem}.svg")]);
+    let html = std::fs::read_to_string(dir.join("report.html")).unwrap();
+    assert_eq!(detail(&html, &names[1])["files"], true);
+    assert_eq!(detail(&html, &names[0])["files"], false);
+    let o = report_with(&dir, &["--chart-files", "no such product"]);
+    assert_eq!(o.status.code(), Some(1));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("no product 'no such product'"), "{err}");
+}
+
 #[test]
 fn product_names_from_the_data_are_escaped() {
     let (_tmp, dir, html) = built();
     assert!(!html.contains("<script>alert(1)</script>"));
+    // In the first view's lists, as HTML text.
     assert!(html.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
-    // Our own script is the only one.
-    assert_eq!(html.matches("<script").count(), 1);
-    assert!(html.contains("Snake antivenom/vial &quot;cold chain&quot; &amp; co"));
-    // The product's warning is shown in its section, escaped.
-    let s = section(&html, "<script>alert(1)</script>");
-    assert!(s.contains("<li>product &#39;&lt;script&gt;alert(1)&lt;/script&gt;&#39;: a warning"));
+    // Our own two scripts are the only ones that run; the rest are data
+    // (the index and one record per product), where no name can close
+    // the element: `<` is written as an escape.
+    assert_eq!(html.matches("<script>").count(), 2);
+    let names = products(&dir);
+    assert_eq!(
+        html.matches("<script type=\"application/json\"").count(),
+        names.len() + 1
+    );
+    assert!(html.contains("\\u003cscript\\u003ealert(1)\\u003c/script\\u003e"));
+    assert!(html.contains(r#"Snake antivenom/vial \"cold chain\" \u0026 co"#));
+    // The product's warning is in its detail record, as text.
+    let d = detail(&html, "<script>alert(1)</script>");
+    assert!(d["warnings"][0]
+        .as_str()
+        .unwrap()
+        .starts_with("product '<script>alert(1)</script>': a warning"));
     // Inside the charts too (plotters escapes SVG text).
     let svg = std::fs::read_to_string(
         dir.join("charts")
@@ -179,7 +230,7 @@ fn summary_links_the_files_present() {
 #[test]
 fn same_files_same_report() {
     let (_tmp, dir, first) = built();
-    let o = report(&dir);
+    let o = report_with(&dir, &["--chart-files", "all"]);
     assert!(o.status.success());
     let second = std::fs::read_to_string(dir.join("report.html")).unwrap();
     assert_eq!(first, second);

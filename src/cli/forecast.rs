@@ -31,7 +31,19 @@ enum ScoreArg {
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
 enum DetailArg {
     Chosen,
+    Compared,
     All,
+}
+
+impl DetailArg {
+    /// The rows of backtest.csv and scores_by_horizon.csv.
+    fn rows(self) -> output::EvidenceRows {
+        match self {
+            DetailArg::Chosen => output::EvidenceRows::Chosen,
+            DetailArg::Compared => output::EvidenceRows::Compared,
+            DetailArg::All => output::EvidenceRows::All,
+        }
+    }
 }
 
 /// Options of the evaluation, shared by `forecast` and `backtest`.
@@ -52,7 +64,7 @@ pub struct EvalArgs {
     /// Relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.10, value_name = "SHARE")]
     tie_margin: f64,
-    /// Backtest forecasts written to backtest.csv: `chosen` (chosen model, runner-up, combination) or `all` models.
+    /// Backtest forecasts written to backtest.csv and scores_by_horizon.csv: `chosen` model only, `compared` (chosen model, runner-up, combination) or `all` models.
     #[arg(long, value_enum, default_value_t = DetailArg::Chosen)]
     backtest_detail: DetailArg,
     /// CSV of pinned models: columns product, model.
@@ -88,12 +100,15 @@ pub struct ForecastArgs {
     /// Known changes ahead (CSV or workbook: product, kind, first_month, last_month, value, ...): applied to the statistical projection, giving the adjusted forecast beside it.
     #[arg(long, value_name = "FILE")]
     changes: Option<PathBuf>,
-    /// Skip the charts and report.html (for thousands of products; `provisio report DIR` builds them later).
+    /// Skip report.html (`provisio report DIR` builds it later).
     #[arg(long)]
     no_report: bool,
     /// Skip the planner's workbook forecast.xlsx (`provisio report DIR` builds it later).
     #[arg(long)]
     no_workbook: bool,
+    /// Also write chart image files (PNG and SVG under charts/) for this product, or `all`; repeat for several.
+    #[arg(long, value_name = "PRODUCT")]
+    chart_files: Vec<String>,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -352,7 +367,7 @@ fn with_silence(eval: &EvalArgs, horizon: usize, silence_limit: usize) -> Foreca
         },
         horizon,
         backtest_detail: match eval.backtest_detail {
-            DetailArg::Chosen => provisio::pipeline::BacktestDetail::Chosen,
+            DetailArg::Chosen | DetailArg::Compared => provisio::pipeline::BacktestDetail::Chosen,
             DetailArg::All => provisio::pipeline::BacktestDetail::All,
         },
         data_end: None,
@@ -621,6 +636,9 @@ fn apply_forecast_config(
     if let (Some(v), false) = (cfg.output.no_workbook, given.cli("no_workbook")) {
         a.no_workbook = v;
     }
+    if let (Some(v), false) = (&cfg.output.chart_files, given.cli("chart_files")) {
+        a.chart_files = v.clone();
+    }
     Ok(())
 }
 
@@ -643,6 +661,7 @@ fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> R
     cfg.output.overwrite = Some(a.overwrite);
     cfg.output.no_report = Some(a.no_report);
     cfg.output.no_workbook = Some(a.no_workbook);
+    cfg.output.chart_files = Some(a.chart_files.clone());
     cfg
 }
 
@@ -733,16 +752,67 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
                 .collect()
         })
         .unwrap_or_default();
-    output::write_forecast_units(&a_out.join("forecast.csv"), &results, &units)?;
-    output::write_forecast_wide(&a_out.join("forecast_wide.csv"), &results)?;
+    let stages = Stages::new(
+        8 + usize::from(!a.no_workbook) + usize::from(!a.no_report),
+        results.len(),
+    );
+    let rows = a.eval.backtest_detail.rows();
+    // The tables are independent files: written in parallel, each
+    // atomically; the first error (in this order) is reported.
+    let tables: Vec<(&str, TableJob)> = vec![
+        (
+            "forecast.csv",
+            Box::new(|p| output::write_forecast_units(p, &results, &units)),
+        ),
+        (
+            "forecast_wide.csv",
+            Box::new(|p| output::write_forecast_wide(p, &results)),
+        ),
+        (
+            "selection.csv",
+            Box::new(|p| output::write_selection(p, &results)),
+        ),
+        (
+            "scores.csv",
+            Box::new(|p| output::write_scores(p, &results)),
+        ),
+        (
+            "scores_by_horizon.csv",
+            Box::new(|p| output::write_scores_by_horizon(p, &results, rows)),
+        ),
+        (
+            "backtest.csv",
+            Box::new(|p| output::write_backtest(p, &results, &starts, rows)),
+        ),
+    ];
+    let (written, clean_out) = rayon::join(
+        || {
+            use rayon::prelude::*;
+            tables
+                .par_iter()
+                .map(|(name, job)| {
+                    let r = job(&a_out.join(name));
+                    stages.done(name);
+                    r
+                })
+                .collect::<Vec<_>>()
+        },
+        || {
+            let r = super::write_clean_outputs(&a_out, &ds, &cleaned);
+            stages.done("cleaned.csv, adjustments.csv, quality.csv");
+            r
+        },
+    );
+    drop(tables);
+    for r in written {
+        r?;
+    }
+    // The adjusted forecast goes beside the statistical one once both
+    // forecast files are written.
     if let Some(ap) = &applied {
         output::add_adjusted(&a_out, ap)?;
     }
-    output::write_selection(&a_out.join("selection.csv"), &results)?;
-    output::write_scores(&a_out.join("scores.csv"), &results)?;
-    output::write_scores_by_horizon(&a_out.join("scores_by_horizon.csv"), &results)?;
-    output::write_backtest(&a_out.join("backtest.csv"), &results, &starts)?;
-    let (by_rule, mut warnings) = super::write_clean_outputs(&a_out, &ds, &cleaned)?;
+    let (by_rule, mut warnings) = clean_out?;
     warnings.extend(results.iter().flat_map(|r| r.warnings.iter().cloned()));
     if let (Some(c), Some(ap)) = (&changes, &applied) {
         warnings.extend(c.warnings.iter().cloned());
@@ -803,22 +873,39 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     });
     // The workbook and the report are built from the files just written;
     // the results in memory are no longer needed, and freeing them first
-    // keeps the peak memory of large runs down. The workbook comes first so
-    // that the report can link to it.
+    // keeps the peak memory of large runs down. The two are independent
+    // files, written side by side; the report links the workbook it knows
+    // is being written.
     let changed = applied.is_some();
     drop((ds, cleaned, results, applied));
+    stages.done("manifest.json");
     let t_book = Instant::now();
-    let workbook = if a.no_workbook {
-        None
-    } else {
-        Some(provisio::report::workbook::write_workbook(&a_out)?)
+    let options = provisio::report::ReportOptions {
+        chart_files: provisio::report::ChartFiles::from_values(&a.chart_files),
+        workbook_linked: !a.no_workbook,
     };
-    let book_secs = t_book.elapsed().as_secs_f64();
-    let report = if a.no_report {
-        None
-    } else {
-        Some(provisio::report::write_report(&a_out)?)
+    let (workbook, report) = rayon::join(
+        || {
+            (!a.no_workbook).then(|| {
+                let r = provisio::report::workbook::write_workbook(&a_out);
+                stages.done("forecast.xlsx");
+                (r, t_book.elapsed().as_secs_f64())
+            })
+        },
+        || {
+            (!a.no_report).then(|| {
+                let r = provisio::report::write_report_with(&a_out, &options);
+                stages.done("report.html");
+                r
+            })
+        },
+    );
+    stages.finish();
+    let (workbook, book_secs) = match workbook {
+        Some((r, secs)) => (Some(r?), secs),
+        None => (None, 0.0),
     };
+    let report = report.transpose()?;
     if let Some(v) = summary {
         super::json_summary(|| v);
     }
@@ -843,6 +930,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         ),
     }
     match report {
+        Some(r) if r.charts.is_empty() => say!("wrote report.html"),
         Some(r) => say!(
             "wrote report.html and {} chart files (charts/)",
             r.charts.len()
@@ -854,6 +942,40 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     }
     say!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
+}
+
+/// One table writer of `forecast`: given the file's path, writes it.
+type TableJob<'a> = Box<dyn Fn(&Path) -> provisio::error::Result<()> + Sync + 'a>;
+
+/// A progress bar over the writing stages of `forecast` (drawn only on a
+/// terminal, and only for runs large enough to take a while).
+struct Stages(indicatif::ProgressBar);
+
+impl Stages {
+    fn new(stages: usize, products: usize) -> Stages {
+        let bar = if products >= 50 && super::chatty() {
+            indicatif::ProgressBar::new(stages as u64)
+        } else {
+            indicatif::ProgressBar::hidden()
+        };
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "writing {bar:30} {pos}/{len} outputs ({elapsed}) {wide_msg}",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        bar.set_message("tables");
+        bar.enable_steady_tick(std::time::Duration::from_millis(250));
+        Stages(bar)
+    }
+    /// One stage finished.
+    fn done(&self, what: &str) {
+        self.0.set_message(format!("wrote {what}"));
+        self.0.inc(1);
+    }
+    fn finish(&self) {
+        self.0.finish_and_clear();
+    }
 }
 
 /// Output files of a forecast run, with their paths.
@@ -916,8 +1038,9 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
             .map(|s| (s.product.clone(), s.start))
             .collect();
         output::write_scores(&out.join("scores.csv"), &results)?;
-        output::write_scores_by_horizon(&out.join("scores_by_horizon.csv"), &results)?;
-        output::write_backtest(&out.join("backtest.csv"), &results, &starts)?;
+        let rows = a.eval.backtest_detail.rows();
+        output::write_scores_by_horizon(&out.join("scores_by_horizon.csv"), &results, rows)?;
+        output::write_backtest(&out.join("backtest.csv"), &results, &starts, rows)?;
         output::write_selection(&out.join("selection.csv"), &results)?;
         say!(
             "wrote scores.csv, scores_by_horizon.csv, backtest.csv, selection.csv in {}",

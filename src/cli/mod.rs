@@ -166,7 +166,7 @@ enum Command {
         after_help = "Example:\n  provisio clean datasets/demo/consumption.csv --out cleaned/"
     )]
     Clean(clean::CleanCmdArgs),
-    /// Rebuild the charts and the one-file HTML report from a forecast's output directory.
+    /// Rebuild the one-file HTML report (and chart files on request) and the workbook from a forecast's output directory.
     #[command(after_help = "Example:\n  provisio report demo-output")]
     Report(report::ReportArgs),
     /// Score past forecasts against the consumption reported since: accuracy, bias, coverage, tracking signal, value added over naive, audit of adjustments; several past directories are compared as vintages.

@@ -1,5 +1,5 @@
-//! `provisio report DIR`: rebuild the charts, the HTML report and the
-//! workbook from the output directory of a forecast run.
+//! `provisio report DIR`: rebuild the HTML report and the workbook (and
+//! chart files on request) from the output directory of a forecast run.
 
 use std::path::PathBuf;
 
@@ -7,11 +7,14 @@ use clap::Args;
 
 #[derive(Args, Debug)]
 pub struct ReportArgs {
-    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...); the report, charts and forecast.xlsx are rebuilt.
+    /// Output directory of `provisio forecast` (with selection.csv, forecast.csv, cleaned.csv, manifest.json, ...); report.html and forecast.xlsx are rebuilt.
     dir: PathBuf,
-    /// Rebuild only forecast.xlsx (quick for thousands of products; no charts or report.html).
+    /// Rebuild only forecast.xlsx (no report.html).
     #[arg(long)]
     workbook_only: bool,
+    /// Also write chart image files (PNG and SVG under charts/) for this product, or `all`; repeat for several.
+    #[arg(long, value_name = "PRODUCT")]
+    chart_files: Vec<String>,
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
@@ -20,14 +23,22 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     super::say!("wrote {}", book.display());
     let mut written = None;
     if !a.workbook_only {
-        let w = provisio::report::write_report(&a.dir)?;
-        super::say!(
-            "wrote {} and {} chart files ({} products) in {}",
-            w.report.display(),
-            w.charts.len(),
-            w.products,
-            a.dir.join("charts").display()
-        );
+        let options = provisio::report::ReportOptions {
+            chart_files: provisio::report::ChartFiles::from_values(&a.chart_files),
+            workbook_linked: true,
+        };
+        let w = provisio::report::write_report_with(&a.dir, &options)?;
+        if w.charts.is_empty() {
+            super::say!("wrote {} ({} products)", w.report.display(), w.products);
+        } else {
+            super::say!(
+                "wrote {} ({} products) and {} chart files in {}",
+                w.report.display(),
+                w.products,
+                w.charts.len(),
+                a.dir.join("charts").display()
+            );
+        }
         written = Some(w);
     }
     super::json_summary(|| {

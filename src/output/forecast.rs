@@ -272,16 +272,48 @@ fn status_note(status: &RunStatus) -> (&'static str, String) {
     }
 }
 
+/// Which models' rows `backtest.csv` and `scores_by_horizon.csv` hold.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum EvidenceRows {
+    /// The chosen model only (what the report draws; compact).
+    #[default]
+    Chosen,
+    /// The chosen model, the runner-up and the combination.
+    Compared,
+    /// Every model (the results must keep every model's backtest, see
+    /// [`crate::pipeline::BacktestDetail`]).
+    All,
+}
+
+impl EvidenceRows {
+    fn keeps(self, r: &ProductForecast, model: &str) -> bool {
+        match self {
+            EvidenceRows::Chosen => r.selection.chosen == model,
+            EvidenceRows::Compared => {
+                r.selection.chosen == model
+                    || model == crate::backtest::COMBINATION
+                    || r.selection.runner_up.as_ref().is_some_and(|x| x.0 == model)
+            }
+            EvidenceRows::All => true,
+        }
+    }
+}
+
 /// `scores_by_horizon.csv`: product × model × months ahead, every score,
-/// for the models that forecast at some origin.
-pub fn write_scores_by_horizon(path: &Path, results: &[ProductForecast]) -> Result<()> {
+/// for the models that forecast at some origin (all of them, or the chosen
+/// one: `rows`).
+pub fn write_scores_by_horizon(
+    path: &Path,
+    results: &[ProductForecast],
+    rows: EvidenceRows,
+) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
         let mut header = vec!["product", "model", "horizon"];
         header.extend(SCORE_HEADER);
         c.write_record(&header).map_err(io_err)?;
         for r in results {
-            for ms in &r.scores {
+            for ms in r.scores.iter().filter(|ms| rows.keeps(r, &ms.model)) {
                 for (h, sc) in ms.by_horizon.iter().enumerate() {
                     let mut row = vec![
                         csv_text(&r.product).into_owned(),
@@ -298,11 +330,12 @@ pub fn write_scores_by_horizon(path: &Path, results: &[ProductForecast]) -> Resu
 }
 
 /// `backtest.csv`: product, model, origin, horizon, month, actual, forecast,
-/// interval bounds, scored.
+/// interval bounds, scored; the models `rows` says.
 pub fn write_backtest(
     path: &Path,
     results: &[ProductForecast],
     starts: &[(String, crate::calendar::YearMonth)],
+    rows: EvidenceRows,
 ) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
@@ -317,7 +350,12 @@ pub fn write_backtest(
             let Some(&start) = starts.get(r.product.as_str()) else {
                 continue;
             };
-            for run in &r.backtest.runs {
+            for run in r
+                .backtest
+                .runs
+                .iter()
+                .filter(|run| rows.keeps(r, &run.model))
+            {
                 for p in r.backtest.points(run) {
                     c.write_record([
                         &*csv_text(&r.product),

@@ -11,7 +11,8 @@ mod workbook;
 
 pub use forecast::{
     write_backtest, write_forecast, write_forecast_units, write_forecast_wide, write_json,
-    write_scores, write_scores_by_horizon, write_selection, Units, FORECAST_FORMAT_VERSION,
+    write_scores, write_scores_by_horizon, write_selection, EvidenceRows, Units,
+    FORECAST_FORMAT_VERSION,
 };
 
 pub use changes::{add_adjusted, ADJUSTED_COLUMNS, NEW_PRODUCT_MODEL};

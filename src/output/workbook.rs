@@ -147,7 +147,9 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
         m.dedup();
         m
     };
-    let ws = book.add_worksheet();
+    // Low-memory mode: each row goes to a temporary file once the next row
+    // starts (rows here are written strictly in order, as it requires).
+    let ws = book.add_worksheet_with_low_memory();
     ws.set_name("Forecast")?;
     ws.write_string_with_format(0, 0, cell_text(&content.caution), &note)?;
     if content.forecasts.iter().any(|f| f.bridged > 0) {
@@ -227,7 +229,7 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
     )?;
 
     for t in &content.tables {
-        let ws = book.add_worksheet();
+        let ws = book.add_worksheet_with_low_memory();
         ws.set_name(&t.sheet)?;
         let mut r = 0u32;
         if let Some(n) = &t.note {

@@ -104,6 +104,15 @@ ul.warn li::before{content:"!";position:absolute;left:-20px;top:2px;width:14px;h
 background:var(--care);color:#fff;font-size:10px;font-weight:700;text-align:center;line-height:14px}
 p.note{color:var(--muted);font-size:13.5px}
 footer{max-width:1240px;margin:0 auto;padding:18px 20px 40px;color:var(--muted);font-size:13px;border-top:1px solid var(--line)}
+.attention{display:grid;grid-template-columns:repeat(auto-fit,minmax(340px,1fr));gap:14px}
+.attention .list{background:var(--card);border:1px solid var(--line);border-radius:6px;padding:2px 16px 8px}
+.attention ol{margin:6px 0;padding-left:22px}
+.attention li{margin:3px 0}
+.attention span.note{color:var(--muted);font-size:13px}
+form.find{display:flex;flex-wrap:wrap;gap:16px;align-items:center;margin:8px 0}
+form.find input[type=search]{font:inherit;padding:5px 10px;min-width:280px;border:1px solid var(--line);border-radius:6px}
+form.find select{font:inherit;padding:4px}
+button#index-more{font:inherit;padding:5px 14px;cursor:pointer}
 @media print{nav.jump{display:none}section.product{break-inside:avoid-page}}
 "#;
 
@@ -151,18 +160,59 @@ pub const SCRIPT: &str = r#"
 })();
 "#;
 
+/// The content security policy of a page whose only scripts are
+/// `scripts` (each allowed by its SHA-256): nothing can be loaded.
+fn policy(scripts: &[&str]) -> String {
+    use sha2::Digest;
+    let hashes: Vec<String> = scripts
+        .iter()
+        .map(|s| format!("'sha256-{}'", base64(&sha2::Sha256::digest(s.as_bytes()))))
+        .collect();
+    format!(
+        "default-src 'none'; style-src 'unsafe-inline'; script-src {}; img-src data:",
+        hashes.join(" ")
+    )
+}
+
+/// The start of a page up to the opening `<body>`, allowing the report's
+/// scripts ([`SCRIPT`] and the report's own).
+pub fn page_start(title: &str) -> String {
+    page_head(title, &[SCRIPT, crate::report::REPORT_SCRIPT])
+}
+
+fn page_head(title: &str, scripts: &[&str]) -> String {
+    format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
+<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
+<meta http-equiv=\"Content-Security-Policy\" content=\"{}\">\n\
+<title>{}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n",
+        policy(scripts),
+        escape(title)
+    )
+}
+
+/// The given scripts as inline `<script>` elements.
+pub fn page_scripts(scripts: &[&str]) -> String {
+    scripts
+        .iter()
+        .map(|s| format!("<script>{s}</script>\n"))
+        .collect()
+}
+
+/// The end of a page.
+pub fn page_end() -> &'static str {
+    "</body>\n</html>\n"
+}
+
 /// A whole page: `title` is text (escaped here); `body` is HTML built with
 /// [`escape`]d text. A content security policy allows only the inline
 /// stylesheet and this exact script, so the page cannot load anything.
 pub fn page(title: &str, body: &str) -> String {
-    use sha2::Digest;
-    let script_hash = base64(&sha2::Sha256::digest(SCRIPT.as_bytes()));
     format!(
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
-<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
-<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; style-src 'unsafe-inline'; script-src 'sha256-{script_hash}'; img-src data:\">\n\
-<title>{}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n{body}\n<script>{SCRIPT}</script>\n</body>\n</html>\n",
-        escape(title)
+        "{}{body}\n{}{}",
+        page_head(title, &[SCRIPT]),
+        page_scripts(&[SCRIPT]),
+        page_end()
     )
 }
 

@@ -1,21 +1,28 @@
-//! The charts and the HTML report of a forecast run.
+//! The HTML report of a forecast run, and chart files on request.
 //!
 //! Both `forecast` (at the end of a run) and `report DIR` (later) build the
 //! report from the output directory's files, so the report always shows
-//! exactly what the files say. [`write_report`] draws every product's chart
-//! (PNG and SVG under `charts/`), the overview chart, and `report.html`: one
-//! file with the charts inline as SVG and its style and script inline, so it
-//! opens offline and can be mailed as it is.
+//! exactly what the files say. [`write_report`] writes `report.html`: one
+//! file with its style, script and data inline, so it opens offline and can
+//! be mailed as it is. It is built for 10 to 10,000 products: the first
+//! view (run summary, portfolio figures, the products that need attention)
+//! is plain HTML; the product index is one compact JSON row per product,
+//! searched, filtered and sorted by the page's own script; each product's
+//! detail (chart, scores, data quality, adjustments, warnings) is a compact
+//! JSON record drawn only when the product is opened (runs of up to
+//! [`ALL_DETAILS_UP_TO`] products draw every detail when the page opens).
+//! Chart image files (PNG and SVG under `charts/`) are written only when
+//! asked for ([`ChartFiles`]).
 
 pub mod changes;
 pub mod crosscheck;
+pub mod detail;
 pub mod html;
 pub mod plan;
 mod read;
 pub mod review;
 pub mod workbook;
 
-use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -42,15 +49,68 @@ pub const MAX_ADJUSTMENT_ROWS: usize = 400;
 pub struct Written {
     /// `report.html`.
     pub report: PathBuf,
-    /// Every chart file (PNG and SVG), overview first.
+    /// Every chart file (PNG and SVG) written, overview first.
     pub charts: Vec<PathBuf>,
     /// Products in the report.
     pub products: usize,
 }
 
-/// The chart data of one product, as the report draws it.
-pub fn product_chart(p: &ProductResult) -> ProductChart {
-    let s = &p.selection;
+/// Which products get chart image files (PNG and SVG under `charts/`),
+/// for documents and slides; the report itself draws its charts.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub enum ChartFiles {
+    /// None (the default).
+    #[default]
+    None,
+    /// Every product, and the overview.
+    All,
+    /// These products (names as in the data).
+    Named(Vec<String>),
+}
+
+impl ChartFiles {
+    /// From the values of `--chart-files`: `all`, or product names.
+    pub fn from_values(values: &[String]) -> ChartFiles {
+        if values.is_empty() {
+            ChartFiles::None
+        } else if values.iter().any(|v| v == "all") {
+            ChartFiles::All
+        } else {
+            ChartFiles::Named(values.to_vec())
+        }
+    }
+    fn wants(&self, product: &str) -> bool {
+        match self {
+            ChartFiles::None => false,
+            ChartFiles::All => true,
+            ChartFiles::Named(names) => names.iter().any(|n| n == product),
+        }
+    }
+}
+
+/// How the report is written.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct ReportOptions {
+    /// Chart image files to write.
+    pub chart_files: ChartFiles,
+    /// Link `forecast.xlsx` even if it is not there yet (`forecast`
+    /// writes it beside the report).
+    pub workbook_linked: bool,
+}
+
+/// Runs of at most this many products show every product's detail (with
+/// its chart) below the index when the page opens; larger runs draw a
+/// product's detail when it is opened.
+pub const ALL_DETAILS_UP_TO: usize = 60;
+
+/// Runs of at most this many products get the overview bar chart.
+pub const OVERVIEW_UP_TO: usize = 100;
+
+/// Products listed per "needs attention" list on the first view.
+pub const ATTENTION_SHOWN: usize = 10;
+
+/// The chart subtitle of one product: chosen model, score, bias, total.
+fn subtitle(s: &Selection) -> String {
     let mut subtitle = format!("chosen model: {}", s.chosen);
     if !s.members.is_empty() {
         let _ = write!(subtitle, " ({})", s.members);
@@ -67,9 +127,15 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     if let Some(t) = s.total_1_12 {
         let _ = write!(subtitle, " · next 12 months: {}", chart::fmt_quantity(t));
     }
+    subtitle
+}
+
+/// The chart data of one product, as the chart files draw it.
+pub fn product_chart(p: &ProductResult) -> ProductChart {
+    let s = &p.selection;
     ProductChart {
         title: p.product.clone(),
-        subtitle,
+        subtitle: subtitle(s),
         history_label: "cleaned".into(),
         projection_label: format!("projection ({})", s.chosen),
         history: p.history.clone(),
@@ -79,31 +145,46 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     }
 }
 
-/// Reads the forecast output directory `dir` and writes `charts/` and
-/// `report.html` into it.
-pub fn write_report(dir: &Path) -> Result<Written> {
-    let run = read_output_dir(dir)?;
-    let charts_dir = dir.join("charts");
-    std::fs::create_dir_all(&charts_dir).map_err(|source| Error::Io {
-        path: charts_dir.clone(),
+fn create_dir(path: &Path) -> Result<()> {
+    std::fs::create_dir_all(path).map_err(|source| Error::Io {
+        path: path.to_path_buf(),
         action: "cannot create the charts directory",
         source,
-    })?;
-    let names: Vec<&str> = run.products.iter().map(|p| p.product.as_str()).collect();
-    let stems = chart::file_stems(&names);
-    // The known changes, when the run applied a changes file: the adjusted
-    // line of the product charts and a section of its own.
-    let changes_part = changes::changes_part(dir, &charts_dir)?;
-    let drawn: Vec<Result<(String, Vec<PathBuf>)>> = run
+    })
+}
+
+/// Draws the chart files asked for (PNG and SVG per product, in parallel,
+/// and the overview when every product is asked for).
+fn write_chart_files(
+    run: &ForecastRun,
+    stems: &[String],
+    charts_dir: &Path,
+    which: &ChartFiles,
+    changes_part: Option<&changes::ChangesPart>,
+) -> Result<Vec<PathBuf>> {
+    if *which == ChartFiles::None {
+        return Ok(Vec::new());
+    }
+    create_dir(charts_dir)?;
+    let mut charts = Vec::new();
+    if *which == ChartFiles::All {
+        let bars = score_bars(run);
+        let png = charts_dir.join("overview.png");
+        let svg_path = charts_dir.join("overview.svg");
+        chart::overview_png(&png, &bars)?;
+        let svg = chart::overview_svg(&bars)?;
+        crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
+        charts.push(png);
+        charts.push(svg_path);
+    }
+    let drawn: Vec<Result<Vec<PathBuf>>> = run
         .products
         .par_iter()
         .zip(stems.par_iter())
+        .filter(|(p, _)| which.wants(&p.product))
         .map(|(p, stem)| {
             let mut c = product_chart(p);
-            if let Some(a) = changes_part
-                .as_ref()
-                .and_then(|x| x.adjusted.get(&p.product))
-            {
+            if let Some(a) = changes_part.and_then(|x| x.adjusted.get(&p.product)) {
                 c.adjusted = a.clone();
             }
             let svg = chart::product_svg(&c)?;
@@ -111,23 +192,53 @@ pub fn write_report(dir: &Path) -> Result<Written> {
             crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
             let png_path = charts_dir.join(format!("{stem}.png"));
             chart::product_png(&png_path, &c)?;
-            Ok((svg, vec![png_path, svg_path]))
+            Ok(vec![png_path, svg_path])
         })
         .collect();
-    let bars = score_bars(&run);
-    let overview = chart::overview_svg(&bars)?;
-    let mut charts = vec![
-        charts_dir.join("overview.png"),
-        charts_dir.join("overview.svg"),
-    ];
-    chart::overview_png(&charts[0], &bars)?;
-    crate::output::write_atomic(&charts[1], |w| w.write_all(overview.as_bytes()))?;
-    let mut svgs = Vec::with_capacity(drawn.len());
     for d in drawn {
-        let (svg, files) = d?;
-        svgs.push(svg);
-        charts.extend(files);
+        charts.extend(d?);
     }
+    Ok(charts)
+}
+
+/// Reads the forecast output directory `dir` and writes `report.html`
+/// into it (no chart files; see [`write_report_with`]).
+pub fn write_report(dir: &Path) -> Result<Written> {
+    write_report_with(dir, &ReportOptions::default())
+}
+
+/// Reads the forecast output directory `dir` and writes `report.html`,
+/// and the chart files `options` asks for under `charts/`.
+pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written> {
+    let mut run = read_output_dir(dir)?;
+    if options.workbook_linked && !run.files.iter().any(|f| f == workbook::WORKBOOK_FILE) {
+        run.files.insert(0, workbook::WORKBOOK_FILE.to_string());
+    }
+    let charts_dir = dir.join("charts");
+    let names: Vec<&str> = run.products.iter().map(|p| p.product.as_str()).collect();
+    let stems = chart::file_stems(&names);
+    if let ChartFiles::Named(asked) = &options.chart_files {
+        for n in asked {
+            if !names.contains(&n.as_str()) {
+                return Err(Error::Input {
+                    file: dir.join("selection.csv").display().to_string(),
+                    line: 0,
+                    column: Some("product".into()),
+                    message: format!("no product '{n}' for --chart-files; give a product name as in selection.csv, or all"),
+                });
+            }
+        }
+    }
+    // The known changes, when the run applied a changes file: the adjusted
+    // line of the product charts and a section of its own.
+    let changes_part = changes::changes_part(dir, &charts_dir)?;
+    let mut charts = write_chart_files(
+        &run,
+        &stems,
+        &charts_dir,
+        &options.chart_files,
+        changes_part.as_ref(),
+    )?;
     let mut sections = Vec::new();
     if let Some(part) = changes_part {
         charts.extend(part.files);
@@ -138,7 +249,11 @@ pub fn write_report(dir: &Path) -> Result<Written> {
             html: part.html,
         });
     }
+    let mut attention = attention_lists(&run);
     // The cross-check section, when `provisio crosscheck` has run here.
+    if let Some(rows) = crosscheck::read_crosscheck(dir)? {
+        attention.push(crosscheck_attention(&run, &rows));
+    }
     if let Some((html, files)) = crosscheck::write_section(dir)? {
         charts.extend(files);
         sections.push(Section {
@@ -149,6 +264,8 @@ pub fn write_report(dir: &Path) -> Result<Written> {
         });
     }
     if let Some(p) = plan::read_plan(dir)? {
+        attention.push(plan_attention(&run, &p));
+        create_dir(&charts_dir)?;
         let (plan_svgs, files) = plan::draw_charts(&p, &charts_dir)?;
         charts.extend(files);
         sections.push(Section {
@@ -158,9 +275,15 @@ pub fn write_report(dir: &Path) -> Result<Written> {
             html: plan::section(&p, &plan_svgs),
         });
     }
-    let page = render_sections(&run, &stems, &svgs, &overview, &sections);
+    let with_files: Vec<bool> = run
+        .products
+        .iter()
+        .map(|p| options.chart_files.wants(&p.product))
+        .collect();
     let report = dir.join("report.html");
-    crate::output::write_atomic(&report, |w| w.write_all(page.as_bytes()))?;
+    crate::output::write_atomic(&report, |w| {
+        write_page(w, &run, &stems, &with_files, &attention, &sections)
+    })?;
     Ok(Written {
         report,
         charts,
@@ -217,16 +340,6 @@ fn verdict_class(v: Option<&str>) -> &'static str {
     }
 }
 
-fn verdict_pill(q: Option<&Quality>) -> String {
-    let v = q.map(|q| q.verdict.as_str());
-    let text = v.filter(|v| !v.is_empty()).unwrap_or("no profile");
-    format!(
-        "<span class=\"pill {}\">{}</span>",
-        verdict_class(v),
-        escape(text)
-    )
-}
-
 fn anchor(stem: &str) -> String {
     format!("p-{stem}")
 }
@@ -260,18 +373,234 @@ pub struct Section {
     pub html: String,
 }
 
-/// Builds `report.html` from a run, the charts' file stems, each product's
-/// chart SVG (same order as the products) and the overview SVG.
-pub fn render(run: &ForecastRun, stems: &[String], svgs: &[String], overview: &str) -> String {
-    render_sections(run, stems, svgs, overview, &[])
+/// One "needs attention" list of the first view: the products on it, most
+/// pressing first, each with a short note.
+#[derive(Debug, Clone)]
+pub struct AttentionList {
+    /// Heading.
+    pub title: &'static str,
+    /// What puts a product on the list.
+    pub why: &'static str,
+    /// Product (index into the run's products) and note.
+    pub items: Vec<(usize, String)>,
 }
 
-/// [`render`] with extra sections after the product details.
-pub fn render_sections(
+/// The lists every run has: warnings, worst data quality, largest bias.
+/// Other sections (the cross-check, the plan) add theirs.
+pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
+    let mut warned: Vec<(usize, String)> = run
+        .products
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| !p.warnings.is_empty())
+        .map(|(i, p)| (i, chart::cut(&p.warnings[0], 160)))
+        .collect();
+    warned.sort_by_key(|(i, _)| std::cmp::Reverse(run.products[*i].warnings.len()));
+    let rank = |v: &str| match v {
+        "not fit" => 0,
+        "fit with care" => 1,
+        _ => 2,
+    };
+    let mut quality: Vec<(usize, usize, usize)> = run
+        .products
+        .iter()
+        .enumerate()
+        .filter_map(|(i, p)| {
+            let q = p.quality.as_ref()?;
+            let r = rank(&q.verdict);
+            (r < 2).then(|| (i, r, q.months_missing.parse::<usize>().unwrap_or(0)))
+        })
+        .collect();
+    quality.sort_by_key(|&(i, r, missing)| (r, std::cmp::Reverse(missing), i));
+    let quality = quality
+        .into_iter()
+        .map(|(i, _, _)| {
+            let q = run.products[i].quality.as_ref();
+            let verdict = q.map(|q| q.verdict.as_str()).unwrap_or("");
+            let reason = q.and_then(|q| q.reasons.first()).map(String::as_str);
+            let note = match reason {
+                Some(r) => format!("{verdict}: {r}"),
+                None => verdict.to_string(),
+            };
+            (i, chart::cut(&note, 160))
+        })
+        .collect();
+    let mut biased: Vec<(usize, f64)> = run
+        .products
+        .iter()
+        .enumerate()
+        .filter_map(|(i, p)| {
+            let b = p.selection.scores.bias?;
+            (b.abs() > detail::LARGE_BIAS_PCT).then_some((i, b))
+        })
+        .collect();
+    biased.sort_by(|x, y| y.1.abs().total_cmp(&x.1.abs()));
+    let biased = biased
+        .into_iter()
+        .map(|(i, b)| {
+            let s = &run.products[i].selection;
+            let mut note = format!("bias {} ({})", signed_pct(b), s.chosen);
+            if let Some(m) = s.scores.mape {
+                let _ = write!(note, ", MAPE {}", pct(m));
+            }
+            (i, note)
+        })
+        .collect();
+    vec![
+        AttentionList {
+            title: "Warnings",
+            why: "the run warned about these products",
+            items: warned,
+        },
+        AttentionList {
+            title: "Weakest data",
+            why:
+                "data quality \"not fit\" first, then \"fit with care\"; most missing months first",
+            items: quality,
+        },
+        AttentionList {
+            title: "Largest backtest bias",
+            why: "the chosen model's backtest bias is beyond ±20% (> 0: over-forecast)",
+            items: biased,
+        },
+    ]
+}
+
+fn product_index(run: &ForecastRun) -> std::collections::HashMap<&str, usize> {
+    run.products
+        .iter()
+        .enumerate()
+        .map(|(i, p)| (p.product.as_str(), i))
+        .collect()
+}
+
+/// Products whose services or population estimate is flagged above or
+/// below the consumption forecast.
+fn crosscheck_attention(run: &ForecastRun, rows: &[crosscheck::CrossCheckRow]) -> AttentionList {
+    let index = product_index(run);
+    let mut items: Vec<(usize, String)> = Vec::new();
+    for r in rows
+        .iter()
+        .filter(|r| r.flag == "above" || r.flag == "below")
+    {
+        let Some(&i) = index.get(r.product.as_str()) else {
+            continue;
+        };
+        if items.iter().any(|(k, _)| *k == i) {
+            continue;
+        }
+        let ratio = r
+            .ratio
+            .map(|x| format!(" (ratio {x:.2})"))
+            .unwrap_or_default();
+        items.push((i, format!("{}: {}{ratio}", r.method, r.flag)));
+    }
+    AttentionList {
+        title: "Cross-check divergences",
+        why: "a services or population estimate differs from the consumption forecast beyond the threshold",
+        items,
+    }
+}
+
+/// Products whose supply plan projects a stockout.
+fn plan_attention(run: &ForecastRun, p: &plan::PlanRead) -> AttentionList {
+    let index = product_index(run);
+    let mut items: Vec<(usize, String)> = Vec::new();
+    for ((product, site), s) in &p.series {
+        let Some(&i) = index.get(product.as_str()) else {
+            continue;
+        };
+        let Some(first) = s
+            .months
+            .iter()
+            .find(|m| m.flag.split(' ').any(|f| f == "stockout"))
+        else {
+            continue;
+        };
+        let at = site
+            .as_ref()
+            .map(|x| format!(" at {x}"))
+            .unwrap_or_default();
+        items.push((
+            i,
+            format!(
+                "stockout projected{at} from {}",
+                chart::month_label(first.month)
+            ),
+        ));
+    }
+    AttentionList {
+        title: "Projected stockouts",
+        why: "the supply plan runs out of stock in some month",
+        items,
+    }
+}
+
+/// Writes `report.html`: the first view (summary, portfolio figures, the
+/// products that need attention), the product index, and each product's
+/// detail record, drawn by the page's script when the product is opened.
+fn write_page(
+    w: &mut dyn std::io::Write,
     run: &ForecastRun,
     stems: &[String],
-    svgs: &[String],
-    overview: &str,
+    with_files: &[bool],
+    attention: &[AttentionList],
+    sections: &[Section],
+) -> std::io::Result<()> {
+    let mut listed = vec![false; run.products.len()];
+    for l in attention {
+        for (i, _) in &l.items {
+            listed[*i] = true;
+        }
+    }
+    let first = first_view(run, stems, attention, sections);
+    w.write_all(html::page_start("Consumption forecast report").as_bytes())?;
+    w.write_all(first.as_bytes())?;
+    // The index: one compact row per product, rendered by the script.
+    let rows: Vec<detail::IndexRow> = run
+        .products
+        .iter()
+        .zip(stems)
+        .zip(&listed)
+        .map(|((p, stem), l)| detail::index_row(p, stem, *l))
+        .collect();
+    let index = detail::safe_json(&serde_json::to_string(&rows).map_err(std::io::Error::other)?);
+    writeln!(
+        w,
+        "<script type=\"application/json\" id=\"index-data\">{index}</script>"
+    )?;
+    w.write_all(html::page_scripts(&[html::SCRIPT, REPORT_SCRIPT]).as_bytes())?;
+    // Detail records, drawn in parallel a block at a time.
+    const BLOCK: usize = 256;
+    let large = run.products.len() > ALL_DETAILS_UP_TO;
+    for (k, block) in run.products.chunks(BLOCK).enumerate() {
+        let base = k * BLOCK;
+        let parts: Vec<String> = block
+            .par_iter()
+            .enumerate()
+            .map(|(j, p)| {
+                let i = base + j;
+                format!(
+                    "<script type=\"application/json\" id=\"d-{}\">{}</script>\n",
+                    stems[i],
+                    detail::detail_json(p, with_files[i], large)
+                )
+            })
+            .collect();
+        for part in parts {
+            w.write_all(part.as_bytes())?;
+        }
+    }
+    w.write_all(html::page_end().as_bytes())
+}
+
+/// The report's own script: the product index and the product details.
+pub const REPORT_SCRIPT: &str = include_str!("report.js");
+
+fn first_view(
+    run: &ForecastRun,
+    stems: &[String],
+    attention: &[AttentionList],
     sections: &[Section],
 ) -> String {
     let m = &run.manifest;
@@ -285,7 +614,7 @@ pub fn render_sections(
         escape(&input),
         escape(&json_str(m, &["tool"]))
     );
-    b.push_str("<nav class=\"jump\" aria-label=\"sections\"><div class=\"inner\"><a href=\"#summary\">Run summary</a><a href=\"#products\">Products</a><a href=\"#details\">Product details</a>");
+    b.push_str("<nav class=\"jump\" aria-label=\"sections\"><div class=\"inner\"><a href=\"#summary\">Run summary</a><a href=\"#portfolio\">Portfolio</a><a href=\"#attention\">Needs attention</a><a href=\"#products\">Products</a>");
     for sec in sections {
         let _ = write!(b, "<a href=\"#{}\">{}</a>", sec.id, escape(sec.nav));
     }
@@ -295,24 +624,13 @@ pub fn render_sections(
         "<div class=\"caution\" role=\"note\"><strong>Caution.</strong> {}</div>",
         escape(CAUTION)
     );
-
     summary(&mut b, run);
-    products_table(&mut b, run, stems);
-    let _ = writeln!(
-        b,
-        "<figure class=\"chart\" role=\"img\" aria-label=\"Backtest MAPE and bias of every product\">{overview}<figcaption>Overview: backtest accuracy of each product's chosen model. Files: <a href=\"charts/overview.png\">PNG</a>, <a href=\"charts/overview.svg\">SVG</a>.</figcaption></figure>"
-    );
-    if !run.warnings.is_empty() {
-        b.push_str("<h3>Warnings about the run</h3><ul class=\"warn\">");
-        for w in &run.warnings {
-            let _ = write!(b, "<li>{}</li>", escape(w));
-        }
-        b.push_str("</ul>\n");
-    }
-
-    b.push_str("<h2 id=\"details\">Product details</h2>\n");
-    for ((p, stem), svg) in run.products.iter().zip(stems).zip(svgs) {
-        product_section(&mut b, p, stem, svg);
+    portfolio(&mut b, run);
+    attention_section(&mut b, run, stems, attention);
+    index_section(&mut b, run);
+    b.push_str("<div id=\"detail\"></div>\n");
+    if run.products.len() <= ALL_DETAILS_UP_TO {
+        b.push_str("<h2 id=\"details\">Product details</h2>\n<div id=\"every-detail\" data-all=\"yes\"></div>\n");
     }
     for sec in sections {
         let _ = writeln!(
@@ -325,11 +643,204 @@ pub fn render_sections(
     }
     let _ = write!(
         b,
-        "<h2 id=\"caution\">Caution</h2><p>{}</p>\n</main>\n<footer>Made by {} from the files in this folder; rebuild with <code>provisio report &lt;folder&gt;</code>. The demo data shipped with provisio is an invented scenario.</footer>",
+        "<h2 id=\"caution\">Caution</h2><p>{}</p>\n</main>\n<footer>Made by {} from the files in this folder; rebuild with <code>provisio report &lt;folder&gt;</code>. The demo data shipped with provisio is an invented scenario.</footer>\n",
         escape(CAUTION),
         escape(&json_str(m, &["tool"]))
     );
-    html::page("Consumption forecast report", &b)
+    b
+}
+
+/// Portfolio figures: products by verdict, accuracy bands, bias, and the
+/// overview chart for runs small enough to read it.
+fn portfolio(b: &mut String, run: &ForecastRun) {
+    let n = run.products.len();
+    let count = |f: &dyn Fn(&ProductResult) -> bool| run.products.iter().filter(|p| f(p)).count();
+    let verdict = |v: &'static str| {
+        move |p: &ProductResult| p.quality.as_ref().is_some_and(|q| q.verdict == v)
+    };
+    let mut mapes: Vec<f64> = run
+        .products
+        .iter()
+        .filter_map(|p| p.selection.scores.mape)
+        .collect();
+    mapes.sort_by(f64::total_cmp);
+    let median = (!mapes.is_empty()).then(|| {
+        let k = mapes.len();
+        if k % 2 == 1 {
+            mapes[k / 2]
+        } else {
+            0.5 * (mapes[k / 2 - 1] + mapes[k / 2])
+        }
+    });
+    let key = |b: &mut String, v: String, l: &str| {
+        let _ = write!(
+            b,
+            "<div class=\"key\"><div class=\"v\">{}</div><div class=\"l\">{}</div></div>",
+            escape(&v),
+            escape(l)
+        );
+    };
+    b.push_str("<h2 id=\"portfolio\">Portfolio</h2>\n<div class=\"keys\">");
+    key(b, n.to_string(), "products forecast");
+    key(
+        b,
+        count(&verdict("fit")).to_string(),
+        "data fit to forecast from",
+    );
+    key(
+        b,
+        count(&verdict("fit with care")).to_string(),
+        "fit with care",
+    );
+    key(b, count(&verdict("not fit")).to_string(), "not fit");
+    key(
+        b,
+        median.map(pct).unwrap_or_else(|| "–".into()),
+        "median backtest MAPE",
+    );
+    key(
+        b,
+        count(&|p| {
+            p.selection
+                .scores
+                .bias
+                .is_some_and(|x| x.abs() > detail::LARGE_BIAS_PCT)
+        })
+        .to_string(),
+        "bias beyond ±20%",
+    );
+    key(
+        b,
+        count(&|p| !p.warnings.is_empty()).to_string(),
+        "with warnings",
+    );
+    key(b, count(&|p| p.selection.pinned).to_string(), "pinned");
+    b.push_str("</div>\n");
+    let bands: [(&str, f64, f64); 4] = [
+        ("under 10%", 0.0, 10.0),
+        ("10% to 20%", 10.0, 20.0),
+        ("20% to 50%", 20.0, 50.0),
+        ("50% or more", 50.0, f64::INFINITY),
+    ];
+    let mut t = Table::new(
+        &[("backtest MAPE", Kind::Text), ("products", Kind::Num)],
+        false,
+    );
+    for (label, lo, hi) in bands {
+        let k = mapes.iter().filter(|&&v| v >= lo && v < hi).count();
+        t.row(
+            None,
+            vec![
+                Cell::text(label),
+                Cell::num(Some(k as f64), |v| format!("{v:.0}")),
+            ],
+        );
+    }
+    t.row(
+        None,
+        vec![
+            Cell::text("no MAPE (not backtested, or zero months)"),
+            Cell::num(Some((n - mapes.len()) as f64), |v| format!("{v:.0}")),
+        ],
+    );
+    b.push_str("<p class=\"note\">Accuracy of each product's chosen model in its backtest. Quantities are not added across products: their units differ.</p>\n");
+    b.push_str(&t.html());
+    if n <= OVERVIEW_UP_TO {
+        if let Ok(svg) = chart::overview_svg(&score_bars(run)) {
+            let _ = writeln!(
+                b,
+                "<figure class=\"chart\" role=\"img\" aria-label=\"Backtest MAPE and bias of every product\">{svg}<figcaption>Overview: backtest accuracy of each product's chosen model.</figcaption></figure>"
+            );
+        }
+    }
+    if !run.warnings.is_empty() {
+        b.push_str("<h3>Warnings about the run</h3><ul class=\"warn\">");
+        for w in run.warnings.iter().take(MAX_RUN_WARNINGS) {
+            let _ = write!(b, "<li>{}</li>", escape(w));
+        }
+        b.push_str("</ul>\n");
+        if run.warnings.len() > MAX_RUN_WARNINGS {
+            let _ = writeln!(
+                b,
+                "<p class=\"note\">The first {MAX_RUN_WARNINGS} of {} warnings; manifest.json has them all.</p>",
+                run.warnings.len()
+            );
+        }
+    }
+}
+
+/// Run warnings listed on the first view before the list is cut.
+pub const MAX_RUN_WARNINGS: usize = 50;
+
+fn attention_section(
+    b: &mut String,
+    run: &ForecastRun,
+    stems: &[String],
+    attention: &[AttentionList],
+) {
+    b.push_str("<h2 id=\"attention\">Needs attention first</h2>\n");
+    let total: usize = attention.iter().map(|l| l.items.len()).sum();
+    if total == 0 {
+        b.push_str("<p class=\"note\">No product has warnings, weak data or a backtest bias beyond ±20%.</p>\n");
+        return;
+    }
+    b.push_str("<div class=\"attention\">");
+    for l in attention.iter().filter(|l| !l.items.is_empty()) {
+        let _ = write!(
+            b,
+            "<div class=\"list\"><h3>{} <span class=\"pill care\">{}</span></h3><p class=\"note\">{}</p><ol>",
+            escape(l.title),
+            l.items.len(),
+            escape(l.why)
+        );
+        for (i, note) in l.items.iter().take(ATTENTION_SHOWN) {
+            let p = &run.products[*i];
+            let _ = write!(
+                b,
+                "<li><a href=\"#{}\">{}</a> <span class=\"note\">{}</span></li>",
+                anchor(&stems[*i]),
+                escape(&p.product),
+                escape(note)
+            );
+        }
+        b.push_str("</ol>");
+        if l.items.len() > ATTENTION_SHOWN {
+            let _ = write!(
+                b,
+                "<p class=\"note\">The first {ATTENTION_SHOWN} of {}; tick \"needs attention only\" in the product index for all.</p>",
+                l.items.len()
+            );
+        }
+        b.push_str("</div>");
+    }
+    b.push_str("</div>\n");
+}
+
+fn index_section(b: &mut String, run: &ForecastRun) {
+    b.push_str("<h2 id=\"products\">Products</h2>\n");
+    b.push_str("<form id=\"index-form\" class=\"find\" role=\"search\" hidden><label>Find a product <input id=\"find\" type=\"search\" autocomplete=\"off\" placeholder=\"name or part of it\"></label> <label>Data quality <select id=\"verdict\"><option value=\"\">any</option><option value=\"fit\">fit</option><option value=\"care\">fit with care</option><option value=\"bad\">not fit</option><option value=\"none\">no profile</option></select></label> <label><input id=\"attention-only\" type=\"checkbox\"> needs attention only</label></form>\n");
+    let _ = writeln!(
+        b,
+        "<p class=\"note\" id=\"index-count\">{} products.</p>",
+        run.products.len()
+    );
+    b.push_str("<noscript><p class=\"note\">The product index and each product's detail are drawn by this page's own script, which is turned off. Every figure is also in selection.csv, forecast.csv and scores.csv in this folder.</p></noscript>\n");
+    b.push_str("<p class=\"note\">Click a product to open its chart, scores, data quality and adjustments; click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in base units.</p>\n");
+    let t = Table::new(
+        &[
+            ("product", Kind::Text),
+            ("data quality", Kind::Text),
+            ("chosen model", Kind::Text),
+            ("MAPE", Kind::Num),
+            ("bias", Kind::Num),
+            ("next 12 months total", Kind::Num),
+            ("AMC last 12", Kind::Num),
+            ("AMC next 12", Kind::Num),
+        ],
+        false,
+    );
+    b.push_str(&t.html().replace("<tbody>", "<tbody id=\"index-body\">"));
+    b.push_str("<p><button id=\"index-more\" type=\"button\" hidden>Show more</button></p>\n");
 }
 
 fn summary(b: &mut String, run: &ForecastRun) {
@@ -502,305 +1013,10 @@ fn as_options(settings: &serde_json::Map<String, serde_json::Value>) -> String {
         .join(", ")
 }
 
-fn products_table(b: &mut String, run: &ForecastRun, stems: &[String]) {
-    let mut t = Table::new(
-        &[
-            ("product", Kind::Text),
-            ("data quality", Kind::Text),
-            ("chosen model", Kind::Text),
-            ("MAPE", Kind::Num),
-            ("bias", Kind::Num),
-            ("next 12 months total", Kind::Num),
-            ("AMC last 12", Kind::Num),
-            ("AMC next 12", Kind::Num),
-        ],
-        true,
-    );
-    for (p, stem) in run.products.iter().zip(stems) {
-        let s = &p.selection;
-        let verdict = p
-            .quality
-            .as_ref()
-            .map(|q| q.verdict.clone())
-            .unwrap_or_default();
-        let mut model = escape(&s.chosen);
-        if s.pinned {
-            model.push_str(" <span class=\"pill none\">pinned</span>");
-        }
-        if !s.backtested {
-            model.push_str(" <span class=\"pill none\">not backtested</span>");
-        }
-        t.row(
-            None,
-            vec![
-                Cell::html(
-                    format!("<a href=\"#{}\">{}</a>", anchor(stem), escape(&p.product)),
-                    &p.product,
-                ),
-                Cell::html(verdict_pill(p.quality.as_ref()), &verdict),
-                Cell::html(model, &s.chosen),
-                Cell::num(s.scores.mape, pct),
-                Cell::num(s.scores.bias, signed_pct),
-                Cell::num(s.total_1_12, chart::fmt_quantity),
-                Cell::num(s.amc_last_12, chart::fmt_quantity),
-                Cell::num(s.amc_next_12, chart::fmt_quantity),
-            ],
-        );
-    }
-    b.push_str("<h2 id=\"products\">Products</h2>\n<p class=\"note\">Click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in base units.</p>\n");
-    b.push_str(&t.html());
-}
-
-fn product_section(b: &mut String, p: &ProductResult, stem: &str, svg: &str) {
-    let s = &p.selection;
-    let q = p.quality.as_ref();
-    let _ = writeln!(
-        b,
-        "<section class=\"product {}\" id=\"{}\" data-product=\"{}\">\n<h2>{} {}</h2>",
-        verdict_class(q.map(|q| q.verdict.as_str())),
-        anchor(stem),
-        escape(&p.product),
-        escape(&p.product),
-        verdict_pill(q)
-    );
-    let mut chosen = format!("<strong>{}</strong>", escape(&s.chosen));
-    if !s.members.is_empty() {
-        let _ = write!(chosen, " (mean of {})", escape(&s.members));
-    }
-    if s.pinned {
-        let _ = write!(
-            chosen,
-            "; pinned by the user (the backtest would choose {})",
-            escape(&s.best)
-        );
-    }
-    let _ = writeln!(
-        b,
-        "<p>Chosen model: {chosen}. {}</p>",
-        escape(&capitalise(&s.reason))
-    );
-    let key = |v: String, l: &str| {
-        format!(
-            "<div class=\"key\"><div class=\"v\">{}</div><div class=\"l\">{}</div></div>",
-            escape(&v),
-            escape(l)
-        )
-    };
-    let dash = || "–".to_string();
-    b.push_str("<div class=\"keys\">");
-    b.push_str(&key(
-        s.total_1_12.map(chart::fmt_quantity).unwrap_or_else(dash),
-        "projected, next 12 months",
-    ));
-    b.push_str(&key(
-        s.total_13_24.map(chart::fmt_quantity).unwrap_or_else(dash),
-        "projected, months 13–24",
-    ));
-    b.push_str(&key(
-        match (s.amc_last_12, s.amc_next_12) {
-            (Some(a), Some(n)) => {
-                format!("{} → {}", chart::fmt_quantity(a), chart::fmt_quantity(n))
-            }
-            _ => dash(),
-        },
-        "AMC: last 12 → next 12",
-    ));
-    match chosen_score(s) {
-        Some((name, v)) => b.push_str(&key(v, &format!("backtest {name} (chosen by)"))),
-        None => b.push_str(&key(dash(), "backtest score")),
-    }
-    b.push_str(&key(
-        s.scores.bias.map(signed_pct).unwrap_or_else(dash),
-        "bias (> 0 over-forecast)",
-    ));
-    b.push_str(&key(
-        s.margin
-            .map(|v| format!("{} {}", signed_pct(v.max(0.0)), s.runner_up))
-            .unwrap_or_else(dash),
-        "runner-up, worse by",
-    ));
-    b.push_str("</div>\n");
-    let _ = writeln!(
-        b,
-        "<figure class=\"chart\" role=\"img\" aria-label=\"Chart of {}\">{svg}<figcaption>Consumption in base units per month. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
-        escape(&p.product)
-    );
-
-    b.push_str("<h3>Candidate models</h3>\n");
-    scores_table(b, p);
-
-    b.push_str("<h3>Data quality</h3>\n");
-    match q {
-        Some(q) => {
-            let _ = write!(
-                b,
-                "<p>{} — {} months covered, {} reported, {} missing; {} with stockouts; mean reporting rate {}%; {} site(s).</p>",
-                verdict_pill(Some(q)),
-                escape(&q.months),
-                escape(&q.months_reported),
-                escape(&q.months_missing),
-                escape(&q.months_with_stockouts),
-                escape(if q.mean_reporting_rate.is_empty() { "–" } else { &q.mean_reporting_rate }),
-                escape(&q.sites)
-            );
-            if !q.reasons.is_empty() {
-                b.push_str("<ul>");
-                for r in &q.reasons {
-                    let _ = write!(b, "<li>{}</li>", escape(r));
-                }
-                b.push_str("</ul>\n");
-            }
-        }
-        None => b.push_str("<p class=\"note\">No data-quality profile in quality.csv.</p>\n"),
-    }
-
-    b.push_str("<h3>Adjustments to the data</h3>\n");
-    adjustments(b, p);
-
-    b.push_str("<h3>Warnings</h3>\n");
-    if p.warnings.is_empty() {
-        b.push_str("<p class=\"note\">None.</p>\n");
-    } else {
-        b.push_str("<ul class=\"warn\">");
-        for w in &p.warnings {
-            let _ = write!(b, "<li>{}</li>", escape(w));
-        }
-        b.push_str("</ul>\n");
-    }
-    b.push_str("<p class=\"note\"><a href=\"#products\">↑ products table</a></p>\n</section>\n");
-}
-
 fn capitalise(s: &str) -> String {
     let mut c = s.chars();
     match c.next() {
         Some(f) => f.to_uppercase().chain(c).collect(),
         None => String::new(),
     }
-}
-
-fn scores_table(b: &mut String, p: &ProductResult) {
-    let by = p.selection.selected_by.to_lowercase();
-    let pick = |r: &ScoreRow| match by.as_str() {
-        "wape" => r.scores.wape,
-        "mase" => r.scores.mase,
-        "rmse" => r.scores.rmse,
-        _ => r.scores.mape,
-    };
-    let mut rows: Vec<&ScoreRow> = p.scores.iter().collect();
-    rows.sort_by(|a, b| {
-        let (x, y) = (pick(a), pick(b));
-        match (x, y) {
-            (Some(x), Some(y)) => x.total_cmp(&y),
-            (Some(_), None) => std::cmp::Ordering::Less,
-            (None, Some(_)) => std::cmp::Ordering::Greater,
-            (None, None) => a.model.cmp(&b.model),
-        }
-    });
-    let mut t = Table::new(
-        &[
-            ("model", Kind::Text),
-            ("status", Kind::Text),
-            ("MAPE", Kind::Num),
-            ("bias", Kind::Num),
-            ("WAPE", Kind::Num),
-            ("MASE", Kind::Num),
-            ("RMSE", Kind::Num),
-            ("in 80% range", Kind::Num),
-            ("in 95% range", Kind::Num),
-            ("forecasts", Kind::Num),
-            ("note", Kind::Text),
-        ],
-        true,
-    );
-    for r in rows {
-        let class = (r.model == p.selection.chosen).then_some("chosen");
-        t.row(
-            class,
-            vec![
-                Cell::text(&r.model),
-                Cell::text(&r.status),
-                Cell::num(r.scores.mape, pct),
-                Cell::num(r.scores.bias, signed_pct),
-                Cell::num(r.scores.wape, pct),
-                Cell::num(r.scores.mase, |v| format!("{v:.2}")),
-                Cell::num(r.scores.rmse, |v| {
-                    // One decimal for small quantities, so the column reads evenly.
-                    if v.abs() < 100.0 {
-                        format!("{v:.1}")
-                    } else {
-                        chart::fmt_quantity(v)
-                    }
-                }),
-                Cell::num(r.scores.coverage80, |v| format!("{v:.0}%")),
-                Cell::num(r.scores.coverage95, |v| format!("{v:.0}%")),
-                Cell::num(r.points, |v| format!("{v:.0}")),
-                Cell::text(&r.note),
-            ],
-        );
-    }
-    if t.is_empty() {
-        b.push_str(
-            "<p class=\"note\">No backtest scores (scores.csv has none for this product).</p>\n",
-        );
-    } else {
-        let _ = writeln!(
-            b,
-            "<p class=\"note\">Ordered by {} (the score the choice was made by); the chosen model is highlighted.</p>",
-            escape(&p.selection.selected_by)
-        );
-        b.push_str(&t.html());
-    }
-}
-
-fn adjustments(b: &mut String, p: &ProductResult) {
-    if p.adjustments.is_empty() {
-        b.push_str("<p class=\"note\">None: every month is used as reported.</p>\n");
-        return;
-    }
-    let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
-    for a in &p.adjustments {
-        *by_rule.entry(a.rule.as_str()).or_default() += 1;
-    }
-    let counts: Vec<String> = by_rule.iter().map(|(r, n)| format!("{n} {r}")).collect();
-    let _ = writeln!(
-        b,
-        "<details><summary>{} adjustment(s): {}</summary>",
-        p.adjustments.len(),
-        escape(&counts.join(", "))
-    );
-    let mut t = Table::new(
-        &[
-            ("month", Kind::Text),
-            ("site", Kind::Text),
-            ("rule", Kind::Text),
-            ("before", Kind::Num),
-            ("after", Kind::Num),
-            ("reason", Kind::Text),
-            ("input line", Kind::Num),
-        ],
-        true,
-    );
-    for a in p.adjustments.iter().take(MAX_ADJUSTMENT_ROWS) {
-        t.row(
-            None,
-            vec![
-                Cell::text(&a.month),
-                Cell::text(&a.site),
-                Cell::text(&a.rule),
-                Cell::num(a.before, chart::fmt_quantity),
-                Cell::num(a.after, chart::fmt_quantity),
-                Cell::text(&a.reason),
-                Cell::num(a.line.parse().ok(), |v| format!("{v:.0}")),
-            ],
-        );
-    }
-    b.push_str(&t.html());
-    if p.adjustments.len() > MAX_ADJUSTMENT_ROWS {
-        let _ = write!(
-            b,
-            "<p class=\"note\">The first {MAX_ADJUSTMENT_ROWS} of {} are listed; adjustments.csv has them all.</p>",
-            p.adjustments.len()
-        );
-    }
-    b.push_str("</details>\n");
 }

@@ -135,3 +135,45 @@ impl Workdir {
         serde_json::from_str(&t).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
     }
 }
+
+/// Copies the fixture's output folder with every product repeated `times`
+/// under a numbered name ("NAME #007"), as a large run's folder.
+pub fn large_folder(dir: &Path, times: usize) -> Vec<String> {
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/report/forecast-output");
+    std::fs::create_dir_all(dir).unwrap();
+    let mut names = Vec::new();
+    for e in std::fs::read_dir(&fixture).unwrap() {
+        let e = e.unwrap();
+        let name = e.file_name().to_string_lossy().into_owned();
+        if name == "manifest.json" {
+            // The fixture predates `format_version`, which `review` needs.
+            let mut m: serde_json::Value =
+                serde_json::from_str(&std::fs::read_to_string(e.path()).unwrap()).unwrap();
+            m["format_version"] = provisio::output::FORECAST_FORMAT_VERSION.into();
+            std::fs::write(dir.join(&name), m.to_string()).unwrap();
+            continue;
+        }
+        if !name.ends_with(".csv") || name == "rejected.csv" {
+            std::fs::copy(e.path(), dir.join(&name)).unwrap();
+            continue;
+        }
+        let mut r = csv::Reader::from_path(e.path()).unwrap();
+        let header = r.headers().unwrap().clone();
+        let col = header.iter().position(|h| h == "product").unwrap();
+        let rows: Vec<csv::StringRecord> = r.records().map(|x| x.unwrap()).collect();
+        let mut w = csv::Writer::from_path(dir.join(&name)).unwrap();
+        w.write_record(&header).unwrap();
+        for k in 0..times {
+            for row in &rows {
+                let mut out: Vec<String> = row.iter().map(str::to_string).collect();
+                out[col] = format!("{} #{k:03}", out[col]);
+                if name == "selection.csv" {
+                    names.push(out[col].clone());
+                }
+                w.write_record(&out).unwrap();
+            }
+        }
+        w.flush().unwrap();
+    }
+    names
+}
