@@ -642,3 +642,89 @@ fn a_new_forecast_retires_the_plan_made_from_the_old_one() {
     assert!(o.status.success(), "{}", text(&o));
     assert!(!text(&o).contains("earlier plan"), "{}", text(&o));
 }
+
+#[test]
+fn the_plan_reaches_the_planners_workbook_with_annual_totals() {
+    use calamine::Reader;
+    let w = Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for k in 0..36 {
+        let (y, m) = (2023 + k / 12, k % 12 + 1);
+        data.push_str(&format!("Pill,{y}-{m:02},{}\n", 100 + (k % 5) * 7));
+    }
+    w.write("data.csv", &data);
+    w.write(
+        "run.toml",
+        "[input]\ndata = \"data.csv\"\n\n[output]\nout = \"out\"\n\n[products.\"Pill\"]\nunits = \"tablet\"\npack_size = 10\n",
+    );
+    let o = w.run(&["forecast", "--config", "run.toml", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,300,2025-12,1,2,6,1,10,1,,\n"),
+    );
+    let o = w.run(&["plan", "out", "--stock", "stock.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("forecast.xlsx now has the sheets Supply plan, Orders and Order totals"),
+        "{t}"
+    );
+    let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+    let names = book.sheet_names();
+    for s in [
+        "Forecast",
+        "Annual totals",
+        "Supply plan",
+        "Orders",
+        "Order totals",
+    ] {
+        assert!(names.iter().any(|n| n == s), "no sheet {s}: {names:?}");
+    }
+    // Order totals: the same cost per year as order_totals.csv.
+    let totals = w.read_csv_maps("out/order_totals.csv");
+    let all = totals.iter().find(|r| r["year"] == "all").expect("all row");
+    let sheet = book.worksheet_range("Order totals").expect("sheet");
+    let cells: Vec<Vec<String>> = sheet
+        .rows()
+        .map(|r| r.iter().map(|c| c.to_string()).collect())
+        .collect();
+    let head = cells
+        .iter()
+        .position(|r| r.first().is_some_and(|c| c == "product"))
+        .expect("header");
+    let cost_col = cells[head].iter().position(|c| c == "cost").unwrap();
+    let year_col = cells[head].iter().position(|c| c == "year").unwrap();
+    let row = cells[head + 1..]
+        .iter()
+        .find(|r| r[year_col] == "all")
+        .expect("all row in sheet");
+    assert_eq!(row[cost_col].parse::<f64>().unwrap(), num(all, "cost"));
+    // Annual totals: 2026's total is the sum of forecast.csv's 2026 months
+    // (by hand from the CSV), and packs = total ÷ 10.
+    let fc = w.read_csv_maps("out/forecast.csv");
+    let sum2026: f64 = fc
+        .iter()
+        .filter(|r| r["month"].starts_with("2026"))
+        .map(|r| num(r, "forecast"))
+        .sum();
+    let sheet = book.worksheet_range("Annual totals").expect("sheet");
+    let cells: Vec<Vec<String>> = sheet
+        .rows()
+        .map(|r| r.iter().map(|c| c.to_string()).collect())
+        .collect();
+    let head = cells
+        .iter()
+        .position(|r| r.first().is_some_and(|c| c == "product"))
+        .expect("header");
+    let col = |n: &str| cells[head].iter().position(|c| c == n).unwrap();
+    let y2026 = cells[head + 1..]
+        .iter()
+        .find(|r| r[col("year")] == "2026")
+        .expect("2026");
+    assert_eq!(y2026[col("months")], "12");
+    let total: f64 = y2026[col("total")].parse().unwrap();
+    assert!((total - sum2026.round()).abs() < 1e-9, "{total} {sum2026}");
+    let packs: f64 = y2026[col("packs")].parse().unwrap();
+    assert!((packs - (sum2026 / 10.0 * 10.0).round() / 10.0).abs() < 1e-9);
+}

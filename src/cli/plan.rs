@@ -294,6 +294,13 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         provisio::report::write_report(&a.dir)?;
         planned.len() * 2
     };
+    // The planner's workbook gets the plan's sheets (Supply plan, Orders,
+    // Order totals) when the forecast wrote one.
+    let workbook = a.dir.join(provisio::report::workbook::WORKBOOK_FILE);
+    let rebuilt_workbook = workbook.is_file();
+    if rebuilt_workbook {
+        provisio::report::workbook::write_workbook(&a.dir)?;
+    }
     print_summary(&planned);
     super::json_summary(|| {
         let files = [
@@ -317,11 +324,12 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         super::warn(w);
     }
     super::say!(
-        "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){} in {}",
+        "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){}{} in {}",
         planned.len(),
         log.len(),
         charts,
         if a.no_report { "" } else { ", and rebuilt report.html" },
+        if rebuilt_workbook { "; forecast.xlsx now has the sheets Supply plan, Orders and Order totals" } else { "" },
         a.dir.display()
     );
     super::say!("Decision support only: review proposed orders with the responsible programme staff; national guidelines and local regulations take precedence.");
