@@ -495,7 +495,9 @@ pub fn write_rows_with(
             r.month.to_string(),
             r.consumed.map(|v| format!("{v:.0}")).unwrap_or_default(),
             r.stockout_days.to_string(),
-            r.reporting_rate_pct.to_string(),
+            // With its % sign, so the column is read as percent without
+            // a note on every run.
+            format!("{}%", r.reporting_rate_pct),
         ];
         if truth {
             rec.push(format!("{}", r.true_demand));
@@ -515,6 +517,7 @@ pub fn workbook_bytes(rows: &[GeneratedRow]) -> Result<Vec<u8>, rust_xlsxwriter:
     ws.set_name("Consumption")?;
     let bold = Format::new().set_bold();
     let month = Format::new().set_num_format("yyyy-mm");
+    let percent = Format::new().set_num_format("0%");
     for (c, h) in HEADER.iter().enumerate() {
         ws.write_string_with_format(0, c as u16, *h, &bold)?;
     }
@@ -530,7 +533,8 @@ pub fn workbook_bytes(rows: &[GeneratedRow]) -> Result<Vec<u8>, rust_xlsxwriter:
             ws.write_number(row, 3, whole)?;
         }
         ws.write_number(row, 4, r.stockout_days as f64)?;
-        ws.write_number(row, 5, r.reporting_rate_pct as f64)?;
+        // A fraction shown as a percent, as a spreadsheet holds 90%.
+        ws.write_number_with_format(row, 5, f64::from(r.reporting_rate_pct) / 100.0, &percent)?;
     }
     ws.set_column_width(0, 44)?;
     ws.set_column_width(1, 24)?;

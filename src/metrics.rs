@@ -126,9 +126,24 @@ pub fn coverage(actual: &[f64], lower: &[f64], upper: &[f64]) -> Option<f64> {
     })
 }
 
-/// Limit beyond which a tracking signal is flagged: |TS| > 4 (common
-/// practice for the running-sum signal; value from memory).
-pub const TRACKING_SIGNAL_LIMIT: f64 = 4.0;
+/// z of the two-sided 5% level used for the tracking-signal limit.
+pub const TRACKING_SIGNAL_Z: f64 = 1.96;
+
+/// Limit beyond which a running-sum tracking signal over `months` errors is
+/// flagged: `1.96 × √(π/2) × √months` (≈ 2.46 √months; 8.5 over 12 months).
+///
+/// Derivation: for unbiased, independent, normal errors of spread σ the
+/// cumulative error has standard deviation σ√n, and the mean absolute
+/// deviation tends to σ√(2/π) (the mean absolute value of a normal
+/// variable), so the signal has standard deviation about √(π/2)·√n; the
+/// limit is its two-sided 5% bound. A fixed limit such as ±4 (common
+/// practice, from memory) is crossed by chance more and more often as
+/// months accumulate: over 12 months by about a third of unbiased
+/// forecasts, so most flags would mean nothing. Since |TS| ≤ n, nothing is
+/// flagged before the 7th month.
+pub fn tracking_signal_limit(months: usize) -> f64 {
+    TRACKING_SIGNAL_Z * (std::f64::consts::PI / 2.0).sqrt() * (months as f64).sqrt()
+}
 
 /// A tracking signal and its parts.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -139,12 +154,20 @@ pub struct TrackingSignal {
     pub mad: f64,
     /// cumulative error ÷ MAD.
     pub value: f64,
+    /// Number of errors summed.
+    pub months: usize,
 }
 
 impl TrackingSignal {
-    /// Whether the signal is beyond ±[`TRACKING_SIGNAL_LIMIT`].
+    /// The limit for this many months ([`tracking_signal_limit`]).
+    pub fn limit(&self) -> f64 {
+        tracking_signal_limit(self.months)
+    }
+
+    /// Whether the signal is beyond ±[`tracking_signal_limit`] of its
+    /// number of months.
     pub fn flagged(&self) -> bool {
-        self.value.abs() > TRACKING_SIGNAL_LIMIT
+        self.value.abs() > self.limit()
     }
 }
 
@@ -163,6 +186,7 @@ pub fn tracking_signal(actual: &[f64], forecast: &[f64]) -> Option<TrackingSigna
         cumulative_error,
         mad,
         value: cumulative_error / mad,
+        months: n,
     })
 }
 
@@ -284,12 +308,43 @@ mod tests {
         assert!((ts.mad - 6.5).abs() < 1e-12);
         assert!((ts.value - 3.0769).abs() < 1e-4);
         assert!(!ts.flagged());
-        // Every error of one sign gives |TS| = n: flagged from 5 months on.
-        let ts = tracking_signal(&[10.0; 5], &[8.0; 5]).unwrap();
-        assert!((ts.value + 5.0).abs() < 1e-12);
+        // Every error of one sign gives |TS| = n: flagged from 7 months on
+        // (2.46 √7 = 6.5 < 7), not at 6 (2.46 √6 = 6.02 > 6).
+        let ts = tracking_signal(&[10.0; 7], &[8.0; 7]).unwrap();
+        assert!((ts.value + 7.0).abs() < 1e-12);
         assert!(ts.flagged());
+        assert!(!tracking_signal(&[10.0; 6], &[8.0; 6]).unwrap().flagged());
         assert_eq!(tracking_signal(&[1.0], &[1.0]), None);
         assert_eq!(tracking_signal(&[], &[]), None);
+    }
+
+    #[test]
+    fn tracking_limit_has_its_nominal_false_alarm_rate() {
+        // The limit is the two-sided 5% bound for unbiased independent
+        // normal errors (derivation at tracking_signal_limit). Simulated:
+        // over 12 months about 5% of unbiased forecasts are flagged, where
+        // a fixed ±4 would flag about a third; a forecast biased by one
+        // error spread is flagged almost always.
+        use rand::SeedableRng;
+        use rand_distr::{Distribution, Normal};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(7);
+        let normal = Normal::new(0.0, 1.0).unwrap();
+        let runs = 20_000;
+        let (mut flagged, mut fixed4, mut biased) = (0, 0, 0);
+        let actual = [0.0; 12];
+        for _ in 0..runs {
+            let e: Vec<f64> = (0..12).map(|_| normal.sample(&mut rng)).collect();
+            let ts = tracking_signal(&actual, &e).unwrap();
+            flagged += usize::from(ts.flagged());
+            fixed4 += usize::from(ts.value.abs() > 4.0);
+            let b: Vec<f64> = e.iter().map(|x| x + 1.0).collect();
+            biased += usize::from(tracking_signal(&actual, &b).unwrap().flagged());
+        }
+        let rate = |k: usize| k as f64 / runs as f64;
+        assert!((0.03..0.07).contains(&rate(flagged)), "{}", rate(flagged));
+        assert!(rate(fixed4) > 0.25, "{}", rate(fixed4));
+        assert!(rate(biased) > 0.8, "{}", rate(biased));
+        assert!((tracking_signal_limit(12) - 8.51).abs() < 0.01);
     }
 
     #[test]

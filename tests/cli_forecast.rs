@@ -196,6 +196,7 @@ fn forecast_demo_writes_every_output() {
         book.sheet_names(),
         [
             "Forecast",
+            "Annual totals",
             "Selection",
             "Adjustments",
             "Data quality",

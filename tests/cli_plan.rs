@@ -419,3 +419,312 @@ fn formula_like_names_match_the_stock_file_and_stay_quoted() {
     assert!(!orders.is_empty());
     assert!(orders.iter().all(|r| r["product"] == "'=SUM(A1)"));
 }
+
+/// `forecast.csv` of a run whose configuration gave Pill a pack size of 30.
+fn forecast_with_pack_size(size: f64) -> String {
+    let mut s = String::from(
+        "product,month,model,forecast,lower_80,upper_80,lower_95,upper_95,units,pack_size,packs\n",
+    );
+    for m in 1..=12 {
+        s.push_str(&format!(
+            "Pill,2027-{m:02},naive,300,240,360,210,420,course,{size},{}\n",
+            300.0 / size
+        ));
+    }
+    s
+}
+
+#[test]
+fn pack_size_differing_from_the_run_configuration_is_warned() {
+    let w = Workdir::new();
+    hand_forecast(&w, &forecast_with_pack_size(30.0));
+    // The stock file counts packs of 720 where the configuration said 30.
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,3000,2026-12,1,3,6,1,720,1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("stock.csv:2: product 'Pill': pack_size 720 differs from the run configuration's pack_size 30"),
+        "{t}"
+    );
+    let log = w.read_csv_maps("fc/plan_log.csv");
+    assert!(log
+        .iter()
+        .any(|r| r["action"] == "note" && r["reason"].contains("pack_size 720 differs")));
+    // The same pack size: no such warning.
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,3000,2026-12,1,3,6,1,30,1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(
+        !text(&o).contains("differs from the run configuration"),
+        "{}",
+        text(&o)
+    );
+}
+
+#[test]
+fn minimum_below_lead_time_and_expiring_quantity_are_said() {
+    let w = Workdir::new();
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 24, 100.0));
+    // Lead time 6, minimum 4 months (below 6 + 1, the rule of thumb, common
+    // practice); 3,000 in stock with a shelf life of 12 months at 100 a
+    // month: 3,000 − 100 × 12 = 1,800 cannot be used before it expires
+    // (by hand, at the end of the first month: 2,900 − 1,200 = 1,700).
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,3000,2026-12,6,4,8,6,10,1,12,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains(
+            "min_months 4 is below the lead time (6 months) plus a safety margin of 1 month"
+        ),
+        "{t}"
+    );
+    assert!(t.contains("common practice"), "{t}");
+    assert!(t.contains("about 1,700 units expected to expire"), "{t}");
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert_eq!(num(&plan[0], "closing"), 2900.0);
+    assert_eq!(num(&plan[0], "expiring"), 1700.0);
+    assert!(plan[0]["flag"].contains("expiry-risk"));
+    // A minimum of lead time + 1 month: no such warning.
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,300,2026-12,6,7,13,6,10,1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(!text(&o).contains("safety margin"), "{}", text(&o));
+}
+
+#[test]
+fn grouped_numbers_in_the_stock_file_follow_the_numbers_option() {
+    let w = Workdir::new();
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 12, 100.0));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,\"20,000\",2026-12,1,2,6,1,10,1,,\n"),
+    );
+    w.write(
+        "on_order.csv",
+        "product,quantity,arrival_month\nPill,\"1,500\",2027-02\n",
+    );
+    // Plain numbers (the default) refuse it and name the option.
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(text(&o).contains("--numbers grouped"), "{}", text(&o));
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "on_order.csv",
+        "--numbers",
+        "grouped",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert_eq!(num(&plan[0], "opening"), 20000.0);
+    assert_eq!(num(&plan[1], "arrivals_on_order"), 1500.0);
+    // Decimal comma: "20.000" is twenty thousand, "2,5" two and a half.
+    w.write(
+        "stock.csv",
+        "product;stock_on_hand;stock_date;lead_time_months;min_months;max_months;review_period_months;pack_size;unit_cost\n\
+         Pill;20.000;2026-12;1;2;6;1;10;2,5\n",
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--numbers",
+        "decimal-comma",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert_eq!(num(&plan[0], "opening"), 20000.0);
+}
+
+#[test]
+fn a_folder_without_a_forecast_is_named_as_such() {
+    let w = Workdir::new();
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,100,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    std::fs::create_dir_all(w.path("empty")).unwrap();
+    let o = w.run(&["plan", "empty", "--stock", "stock.csv"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        text(&o).contains("no forecast in this folder (no forecast.csv)"),
+        "{}",
+        text(&o)
+    );
+    let o = w.run(&["plan", "missing", "--stock", "stock.csv"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(text(&o).contains("missing: no such folder"), "{}", text(&o));
+    assert!(!w.path("missing").exists());
+    assert!(!w.path("empty/plan.csv").exists());
+}
+
+#[test]
+fn a_new_forecast_retires_the_plan_made_from_the_old_one() {
+    let w = Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for k in 0..36 {
+        let (y, m) = (2023 + k / 12, k % 12 + 1);
+        data.push_str(&format!("Pill,{y}-{m:02},{}\n", 100 + (k % 5) * 7));
+    }
+    w.write("data.csv", &data);
+    let forecast = [
+        "forecast",
+        "data.csv",
+        "--out",
+        "out",
+        "--no-report",
+        "--no-workbook",
+    ];
+    let o = w.run(&forecast);
+    assert!(o.status.success(), "{}", text(&o));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,300,2025-12,1,2,6,1,10,1,,\n"),
+    );
+    let o = w.run(&["plan", "out", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(w.path("out/orders.csv").exists());
+    let o = w.run(&forecast);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("file(s) of an earlier plan or cross-check"),
+        "{t}"
+    );
+    assert!(t.contains("plan.csv"), "{t}");
+    for f in [
+        "plan.csv",
+        "orders.csv",
+        "order_totals.csv",
+        "plan_log.csv",
+        "plan.json",
+    ] {
+        assert!(
+            !w.path(&format!("out/{f}")).exists(),
+            "{f} left beside the new forecast"
+        );
+        assert!(
+            w.path(&format!("out/retired/{f}")).exists(),
+            "{f} not retired"
+        );
+    }
+    let left: Vec<String> = std::fs::read_dir(w.path("out/charts"))
+        .map(|d| {
+            d.flatten()
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .filter(|n| n.starts_with("plan-"))
+                .collect()
+        })
+        .unwrap_or_default();
+    assert!(left.is_empty(), "{left:?}");
+    // A third run has nothing to retire and says nothing about it.
+    let o = w.run(&forecast);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(!text(&o).contains("earlier plan"), "{}", text(&o));
+}
+
+#[test]
+fn the_plan_reaches_the_planners_workbook_with_annual_totals() {
+    use calamine::Reader;
+    let w = Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for k in 0..36 {
+        let (y, m) = (2023 + k / 12, k % 12 + 1);
+        data.push_str(&format!("Pill,{y}-{m:02},{}\n", 100 + (k % 5) * 7));
+    }
+    w.write("data.csv", &data);
+    w.write(
+        "run.toml",
+        "[input]\ndata = \"data.csv\"\n\n[output]\nout = \"out\"\n\n[products.\"Pill\"]\nunits = \"tablet\"\npack_size = 10\n",
+    );
+    let o = w.run(&["forecast", "--config", "run.toml", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,300,2025-12,1,2,6,1,10,1,,\n"),
+    );
+    let o = w.run(&["plan", "out", "--stock", "stock.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("forecast.xlsx now has the sheets Supply plan, Orders and Order totals"),
+        "{t}"
+    );
+    let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+    let names = book.sheet_names();
+    for s in [
+        "Forecast",
+        "Annual totals",
+        "Supply plan",
+        "Orders",
+        "Order totals",
+    ] {
+        assert!(names.iter().any(|n| n == s), "no sheet {s}: {names:?}");
+    }
+    // Order totals: the same cost per year as order_totals.csv.
+    let totals = w.read_csv_maps("out/order_totals.csv");
+    let all = totals.iter().find(|r| r["year"] == "all").expect("all row");
+    let sheet = book.worksheet_range("Order totals").expect("sheet");
+    let cells: Vec<Vec<String>> = sheet
+        .rows()
+        .map(|r| r.iter().map(|c| c.to_string()).collect())
+        .collect();
+    let head = cells
+        .iter()
+        .position(|r| r.first().is_some_and(|c| c == "product"))
+        .expect("header");
+    let cost_col = cells[head].iter().position(|c| c == "cost").unwrap();
+    let year_col = cells[head].iter().position(|c| c == "year").unwrap();
+    let row = cells[head + 1..]
+        .iter()
+        .find(|r| r[year_col] == "all")
+        .expect("all row in sheet");
+    assert_eq!(row[cost_col].parse::<f64>().unwrap(), num(all, "cost"));
+    // Annual totals: 2026's total is the sum of forecast.csv's 2026 months
+    // (by hand from the CSV), and packs = total ÷ 10.
+    let fc = w.read_csv_maps("out/forecast.csv");
+    let sum2026: f64 = fc
+        .iter()
+        .filter(|r| r["month"].starts_with("2026"))
+        .map(|r| num(r, "forecast"))
+        .sum();
+    let sheet = book.worksheet_range("Annual totals").expect("sheet");
+    let cells: Vec<Vec<String>> = sheet
+        .rows()
+        .map(|r| r.iter().map(|c| c.to_string()).collect())
+        .collect();
+    let head = cells
+        .iter()
+        .position(|r| r.first().is_some_and(|c| c == "product"))
+        .expect("header");
+    let col = |n: &str| cells[head].iter().position(|c| c == n).unwrap();
+    let y2026 = cells[head + 1..]
+        .iter()
+        .find(|r| r[col("year")] == "2026")
+        .expect("2026");
+    assert_eq!(y2026[col("months")], "12");
+    let total: f64 = y2026[col("total")].parse().unwrap();
+    assert!((total - sum2026.round()).abs() < 1e-9, "{total} {sum2026}");
+    let packs: f64 = y2026[col("packs")].parse().unwrap();
+    assert!((packs - (sum2026 / 10.0 * 10.0).round() / 10.0).abs() < 1e-9);
+}

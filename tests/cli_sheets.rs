@@ -41,6 +41,12 @@ fn csv_to_xlsx(csv_path: &Path, xlsx: &Path, sheet: &str) {
                     let d = ExcelDateTime::from_ymd(y, m, 1).unwrap();
                     ws.write_datetime_with_format(row, col, &d, &date).unwrap();
                 }
+                // The demo writes reporting rates with their % sign; a
+                // sheet holds 90% as the number 0.9.
+                _ if v.ends_with('%') => {
+                    let pct: f64 = v.trim_end_matches('%').parse().unwrap();
+                    ws.write_number(row, col, pct / 100.0).unwrap();
+                }
                 _ => {
                     ws.write_number(row, col, v.parse::<f64>().unwrap())
                         .unwrap();
@@ -367,7 +373,9 @@ fn names_that_look_like_formulas_stay_text_everywhere() {
             sheets += 1;
         }
     }
-    assert_eq!(sheets, 6);
+    // Forecast, Annual totals, Selection, Adjustments, Data quality,
+    // Rejected rows, Run parameters.
+    assert_eq!(sheets, 7);
 
     // provisio reads its own CSV outputs back exactly: the report, and a
     // review that matches every past product with its actuals.

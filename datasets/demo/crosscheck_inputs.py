@@ -26,7 +26,7 @@ with open("datasets/demo/consumption.csv", newline="", encoding="utf-8") as f:
         else:
             q = float(r["consumed"])
             services = str(round(q / (ups * (1 + allowance)) * factor * rng.uniform(0.96, 1.04)))
-        rate = r["reporting_rate"] + "%" if r["reporting_rate"] else ""
+        rate = r["reporting_rate"].rstrip("%") + "%" if r["reporting_rate"] else ""
         rows.append([r["product"], r["site"], r["month"], services, ups, allowance, rate])
 
 with open("datasets/demo/services.csv", "w", newline="", encoding="utf-8") as f:

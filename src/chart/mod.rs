@@ -333,25 +333,65 @@ fn draw_legend<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Cuts a label to `n` characters with an ellipsis, control characters
-/// shown as spaces (chart labels and terminal table cells).
+/// Cuts a label to `n` characters with an ellipsis in the middle, control
+/// characters shown as spaces (chart labels and terminal table cells).
+///
+/// The cut is in the middle, not at the end: names of one product in
+/// several strengths or pack sizes differ at their ends ("… tablet x6",
+/// "… tablet x24"), so the start and the end are both kept (about two
+/// thirds of the room for the start, one third for the end).
 pub fn cut(s: &str, n: usize) -> String {
-    let clean: String = s
+    let clean: Vec<char> = s
         .chars()
         .map(|c| if c.is_control() { ' ' } else { c })
         .collect();
-    if clean.chars().count() <= n {
-        clean
-    } else {
-        let mut out: String = clean.chars().take(n.saturating_sub(1)).collect();
-        out.push('…');
-        out
+    if clean.len() <= n {
+        return clean.into_iter().collect();
     }
+    let room = n.saturating_sub(1);
+    let tail = room / 3;
+    let head = room - tail;
+    let mut out: String = clean[..head]
+        .iter()
+        .collect::<String>()
+        .trim_end()
+        .to_string();
+    out.push('…');
+    let end: String = clean[clean.len() - tail..].iter().collect();
+    out.push_str(end.trim_start());
+    out
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn cut_keeps_both_ends_so_pack_sizes_stay_apart() {
+        // Four pack sizes of one product (common practice: one product is
+        // stocked in several pack sizes, named by a suffix).
+        let names = [
+            "Artemether-lumefantrine 20/120 mg tablet x6",
+            "Artemether-lumefantrine 20/120 mg tablet x12",
+            "Artemether-lumefantrine 20/120 mg tablet x18",
+            "Artemether-lumefantrine 20/120 mg tablet x24",
+        ];
+        let cut_names: Vec<String> = names.iter().map(|n| cut(n, 40)).collect();
+        for (i, a) in cut_names.iter().enumerate() {
+            assert!(a.chars().count() <= 40, "{a}");
+            assert!(a.contains('…'), "{a}");
+            assert!(a.starts_with("Artemether-lumefantrine"), "{a}");
+            for b in &cut_names[i + 1..] {
+                assert_ne!(a, b, "two names cut to the same label");
+            }
+        }
+        assert!(cut_names[3].ends_with("tablet x24"), "{}", cut_names[3]);
+        // Short names and exact fits are kept whole; a tab becomes a space.
+        assert_eq!(cut("Zinc\t20 mg", 40), "Zinc 20 mg");
+        assert_eq!(cut("abcdef", 6), "abcdef");
+        assert_eq!(cut("abcdefg", 4), "ab…g");
+        assert_eq!(cut("abc", 0).chars().count(), 1);
+    }
 
     #[test]
     fn stems_are_safe_and_unique() {

@@ -1,6 +1,8 @@
-//! The stock chart of one planned series: projected closing stock against
-//! the min–max band, arrivals (on order and proposed), and the months of
-//! projected stockout marked.
+//! The stock chart of one planned series: the projected closing stock as
+//! columns coloured by where they stand against the minimum and maximum
+//! (drawn as thin stepped lines), arrivals as stems (on order and
+//! proposed), months an order is placed on the axis, and the months of
+//! projected stockout as a red strip along the axis.
 
 use std::path::Path;
 
@@ -102,37 +104,72 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &StockChart) -> Dr
     )?;
     let mut items: Vec<(Glyph, String)> = Vec::new();
 
-    // Stockout months: a band over the whole height.
-    let out: Vec<&StockMonth> = c.months.iter().filter(|m| m.stockout).collect();
-    if !out.is_empty() {
-        chart
-            .draw_series(out.iter().map(|m| {
-                Rectangle::new(
-                    [(x(m.month) - 0.5, 0.0), (x(m.month) + 0.5, ymax)],
-                    OUTLIER.mix(0.16).filled(),
-                )
-            }))
-            .msg()?;
-        items.push((Glyph::Band(OUTLIER, 0.3), "projected stockout".into()));
-    }
-
-    // The min–max band, as steps month by month.
-    let mut band: Vec<(f64, f64)> = Vec::new();
-    for m in &c.months {
-        band.push((x(m.month) - 0.5, m.max_qty));
-        band.push((x(m.month) + 0.5, m.max_qty));
-    }
-    for m in c.months.iter().rev() {
-        band.push((x(m.month) + 0.5, m.min_qty));
-        band.push((x(m.month) - 0.5, m.min_qty));
-    }
+    // The stock held: one column per month up to its closing stock,
+    // coloured by where it stands against the policy (within the limits,
+    // below the minimum, above the maximum); the count as a grey column.
+    let status = |m: &StockMonth| {
+        if m.above_max {
+            OVER
+        } else if m.closing < m.min_qty {
+            ADJUSTED
+        } else {
+            CLEANED
+        }
+    };
     chart
-        .draw_series(std::iter::once(Polygon::new(
-            band,
-            FORECAST.mix(0.14).filled(),
+        .draw_series(std::iter::once(Rectangle::new(
+            [(-0.42, 0.0), (0.42, c.stock_on_hand)],
+            REPORTED.mix(0.45).filled(),
         )))
         .msg()?;
-    items.push((Glyph::Band(FORECAST, 0.2), "min–max band".into()));
+    chart
+        .draw_series(c.months.iter().filter(|m| m.closing > 0.0).map(|m| {
+            Rectangle::new(
+                [(x(m.month) - 0.42, 0.0), (x(m.month) + 0.42, m.closing)],
+                status(m).mix(0.42).filled(),
+            )
+        }))
+        .msg()?;
+    items.push((
+        Glyph::Square(CLEANED),
+        "closing stock, within min and max".into(),
+    ));
+    if c.months
+        .iter()
+        .any(|m| !m.above_max && m.closing > 0.0 && m.closing < m.min_qty)
+    {
+        items.push((Glyph::Square(ADJUSTED), "below minimum".into()));
+    }
+    if c.months.iter().any(|m| m.above_max) {
+        items.push((Glyph::Square(OVER), "above maximum".into()));
+    }
+    items.push((Glyph::Square(REPORTED), "stock counted".into()));
+
+    // The minimum and maximum as thin stepped lines (not a band), and the
+    // emergency point dotted.
+    let steps = |pick: &dyn Fn(&StockMonth) -> f64| {
+        let mut pts = Vec::with_capacity(c.months.len() * 2);
+        for m in &c.months {
+            pts.push((x(m.month) - 0.5, pick(m)));
+            pts.push((x(m.month) + 0.5, pick(m)));
+        }
+        pts
+    };
+    chart
+        .draw_series(LineSeries::new(steps(&|m| m.max_qty), INK.stroke_width(1)))
+        .msg()?;
+    chart
+        .draw_series(DashedLineSeries::new(
+            steps(&|m| m.min_qty),
+            7,
+            4,
+            INK.stroke_width(2),
+        ))
+        .msg()?;
+    items.push((
+        Glyph::Line(INK, 1),
+        "maximum (solid), minimum (dashed)".into(),
+    ));
     if c.months.iter().any(|m| m.emergency_qty.is_some()) {
         let pts: Vec<(f64, f64)> = c
             .months
@@ -140,83 +177,78 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &StockChart) -> Dr
             .filter_map(|m| m.emergency_qty.map(|e| (x(m.month), e)))
             .collect();
         chart
-            .draw_series(DashedLineSeries::new(pts, 5, 4, OUTLIER.stroke_width(1)))
+            .draw_series(DashedLineSeries::new(pts, 2, 4, OUTLIER.stroke_width(2)))
             .msg()?;
-        items.push((Glyph::Line(OUTLIER, 1), "emergency point".into()));
+        items.push((Glyph::Line(OUTLIER, 2), "emergency point (dotted)".into()));
     }
 
-    // Arrivals as bars: on order (grey), proposed (teal), side by side.
-    let bars = |pick: fn(&StockMonth) -> f64, off: f64| {
-        c.months
+    // Arrivals as stems with a diamond head at the quantity, beside the
+    // month's column: shipments on order grey, proposed orders green.
+    for (pick, off, colour, label) in [
+        (
+            (|m: &StockMonth| m.on_order) as fn(&StockMonth) -> f64,
+            -0.3,
+            REPORTED,
+            "arrival on order (stem)",
+        ),
+        (
+            |m: &StockMonth| m.planned,
+            0.3,
+            FORECAST,
+            "arrival of a proposed order (stem)",
+        ),
+    ] {
+        let pts: Vec<(f64, f64)> = c
+            .months
             .iter()
-            .filter(move |m| pick(m) > 0.0)
-            .map(move |m| (x(m.month) + off, pick(m)))
-            .collect::<Vec<_>>()
-    };
-    let oo = bars(|m| m.on_order, -0.2);
-    if !oo.is_empty() {
+            .filter(|m| pick(m) > 0.0)
+            .map(|m| (x(m.month) + off, pick(m)))
+            .collect();
+        if pts.is_empty() {
+            continue;
+        }
+        for &(px, v) in &pts {
+            chart
+                .draw_series(LineSeries::new(
+                    vec![(px, 0.0), (px, v)],
+                    colour.stroke_width(2),
+                ))
+                .msg()?;
+        }
         chart
-            .draw_series(oo.iter().map(|&(px, v)| {
-                Rectangle::new(
-                    [(px - 0.17, 0.0), (px + 0.17, v)],
-                    REPORTED.mix(0.7).filled(),
-                )
+            .draw_series(pts.iter().map(|&p| {
+                EmptyElement::at(p)
+                    + Polygon::new(vec![(0, -6), (6, 0), (0, 6), (-6, 0)], colour.filled())
             }))
             .msg()?;
-        items.push((Glyph::Band(REPORTED, 0.7), "arrival on order".into()));
-    }
-    let pl = bars(|m| m.planned, 0.2);
-    if !pl.is_empty() {
-        chart
-            .draw_series(pl.iter().map(|&(px, v)| {
-                Rectangle::new(
-                    [(px - 0.17, 0.0), (px + 0.17, v)],
-                    FORECAST.mix(0.55).filled(),
-                )
-            }))
-            .msg()?;
-        items.push((
-            Glyph::Band(FORECAST, 0.55),
-            "arrival of proposed order".into(),
-        ));
+        items.push((Glyph::Dot(colour), label.into()));
     }
 
-    // Closing stock, from the count on.
-    let mut line = vec![(0.0, c.stock_on_hand)];
-    line.extend(c.months.iter().map(|m| (x(m.month), m.closing)));
-    chart
-        .draw_series(LineSeries::new(line.clone(), CLEANED.stroke_width(3)))
-        .msg()?;
-    chart
-        .draw_series(line.iter().map(|&p| Circle::new(p, 3, CLEANED.filled())))
-        .msg()?;
-    items.insert(
-        0,
-        (Glyph::Line(CLEANED, 3), "projected closing stock".into()),
-    );
-    let over: Vec<(f64, f64)> = c
-        .months
-        .iter()
-        .filter(|m| m.above_max)
-        .map(|m| (x(m.month), m.closing))
-        .collect();
-    if !over.is_empty() {
-        chart
-            .draw_series(
-                over.iter()
-                    .map(|&p| Circle::new(p, 5, ADJUSTED.stroke_width(2))),
-            )
-            .msg()?;
-        items.push((Glyph::Ring(ADJUSTED), "above maximum".into()));
-    }
+    // Stockout months: a red strip along the axis and a cross, so the
+    // empty months stand out without covering the chart.
+    let out: Vec<&StockMonth> = c.months.iter().filter(|m| m.stockout).collect();
     if !out.is_empty() {
+        chart
+            .draw_series(out.iter().map(|m| {
+                Rectangle::new(
+                    [(x(m.month) - 0.5, 0.0), (x(m.month) + 0.5, ymax * 0.03)],
+                    OUTLIER.filled(),
+                )
+            }))
+            .msg()?;
         chart
             .draw_series(
                 out.iter()
-                    .map(|m| Cross::new((x(m.month), 0.0), 6, OUTLIER.stroke_width(2))),
+                    .map(|m| Cross::new((x(m.month), ymax * 0.08), 7, OUTLIER.stroke_width(3))),
             )
             .msg()?;
+        items.push((
+            Glyph::Cross(OUTLIER),
+            "projected stockout (red strip)".into(),
+        ));
     }
+
+    // Months an order is placed: a small open square on the axis.
     let placed: Vec<f64> = c
         .months
         .iter()
@@ -226,13 +258,13 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &StockChart) -> Dr
     if !placed.is_empty() {
         chart
             .draw_series(placed.iter().map(|&px| {
-                EmptyElement::at((px, ymax))
-                    + Polygon::new(vec![(-6, 2), (6, 2), (0, 12)], FORECAST.filled())
+                EmptyElement::at((px, 0.0))
+                    + Rectangle::new([(-5, -5), (5, 5)], FORECAST.stroke_width(2))
             }))
             .msg()?;
         items.push((
-            Glyph::Dot(FORECAST),
-            "order placed (triangle at top)".into(),
+            Glyph::Ring(FORECAST),
+            "order placed (open square on the axis)".into(),
         ));
     }
     draw_legend(&head, &items, (16, 62), WIDTH as i32 - 32)
@@ -271,8 +303,11 @@ mod tests {
         };
         let svg = stock_svg(&c).unwrap();
         assert!(svg.contains("projected stockout"));
-        assert!(svg.contains("arrival of proposed order"));
+        assert!(svg.contains("arrival of a proposed order"));
+        assert!(svg.contains("order placed"));
+        assert!(svg.contains("below minimum"));
         assert!(!svg.contains("above maximum"));
+        assert!(!svg.contains("arrival on order"));
         assert!(!svg.contains("emergency point"));
         c.months.clear();
         assert!(stock_svg(&c).unwrap().contains("no projected month"));

@@ -850,6 +850,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(&a_out.join("manifest.json"), &manifest)?;
+    // The new forecast is complete: a plan or cross-check made from the
+    // one it replaced no longer matches it.
+    let retired = output::retire_derived(&a_out)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     if let (Some(c), Some(ap)) = (&changes, &applied) {
@@ -916,6 +919,15 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::fmt_secs(secs),
         a_out.display()
     );
+    if !retired.is_empty() {
+        super::warn(&format!(
+            "{}: moved {} file(s) of an earlier plan or cross-check ({}) to {}: they were made from the forecast this run replaced; run `provisio plan` or `provisio crosscheck` again on the new forecast",
+            a_out.display(),
+            retired.len(),
+            retired.join(", "),
+            a_out.join(output::RETIRED_DIR).display()
+        ));
+    }
     if changed {
         say!("wrote changes_applied.csv (every month a change touched) and changes_summary.csv (each change's effect on the totals); forecast.csv and forecast_wide.csv hold the statistical and the adjusted forecast side by side");
     }

@@ -26,6 +26,9 @@ pub struct PlanArgs {
     /// How the ordering minimum and maximum are set: fixed months from the stock file, or a safety stock from the forecast's upper 80% / 95% bound.
     #[arg(long, value_enum, default_value_t = SafetyArg::Months)]
     safety_stock: SafetyArg,
+    /// How numbers are written in the stock and on-order files (the same rules as the consumption data's --numbers).
+    #[arg(long, value_enum, default_value_t = super::Numbers::Plain)]
+    numbers: super::Numbers,
     /// Write the plan files and stock charts only; do not rebuild report.html.
     #[arg(long)]
     no_report: bool,
@@ -60,12 +63,18 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         },
     }
     .check()?;
+    require_forecast(&a.dir)?;
     let out = output::OutputDir::check(&a.dir, false)?;
     let forecast = read::read_forecast(&a.dir)?;
+    let numbers = match a.numbers {
+        super::Numbers::Plain => provisio::data::NumberFormat::Plain,
+        super::Numbers::Grouped => provisio::data::NumberFormat::Grouped,
+        super::Numbers::DecimalComma => provisio::data::NumberFormat::DecimalComma,
+    };
     let stock_name = a.stock.display().to_string();
     let stock_bytes = std::fs::read(&a.stock)
         .map_err(|e| anyhow::anyhow!("{stock_name}: cannot read the stock file: {e}"))?;
-    let (stock, mut warnings) = read::read_stock(&stock_name, &stock_bytes)?;
+    let (stock, mut warnings) = read::read_stock(&stock_name, &stock_bytes, numbers)?;
     if forecast.adjusted {
         warnings.push(format!(
             "{}: the forecast run applied a changes file; the plan uses the adjusted forecast (columns adjusted, adjusted_upper_80, adjusted_upper_95)",
@@ -78,7 +87,7 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     if let (Some(path), Some(name)) = (&a.on_order, &on_order_name) {
         let bytes = std::fs::read(path)
             .map_err(|e| anyhow::anyhow!("{name}: cannot read the on-order file: {e}"))?;
-        let (rows, w) = read::read_on_order(name, &bytes)?;
+        let (rows, w) = read::read_on_order(name, &bytes, numbers)?;
         warnings.extend(w);
         on_order = rows;
         on_order_sha = Some(output::sha256_hex(&bytes));
@@ -100,6 +109,10 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
             action,
             reason,
         };
+        for why in policy_notes(r, &forecast, &a.dir) {
+            warnings.push(format!("{stock_name}:{}: {who}: {why}", r.line));
+            log.push(entry("note", why));
+        }
         let arrivals: Vec<(u64, plan::Arrival)> = on_order
             .iter()
             .filter(|o| o.product == r.product && o.site == r.site)
@@ -144,6 +157,10 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
                         "the stock count ({}) is later than the forecast start ({}): the {} forecast month(s) up to the count are not used",
                         r.policy.stock_date, fc.start, p.skipped_forecast_months
                     );
+                    warnings.push(format!("{stock_name}:{}: {who}: {why}", r.line));
+                    log.push(entry("note", why));
+                }
+                if let Some(why) = expiry_note(&p, &r.policy) {
                     warnings.push(format!("{stock_name}:{}: {who}: {why}", r.line));
                     log.push(entry("note", why));
                 }
@@ -277,6 +294,13 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         provisio::report::write_report(&a.dir)?;
         planned.len() * 2
     };
+    // The planner's workbook gets the plan's sheets (Supply plan, Orders,
+    // Order totals) when the forecast wrote one.
+    let workbook = a.dir.join(provisio::report::workbook::WORKBOOK_FILE);
+    let rebuilt_workbook = workbook.is_file();
+    if rebuilt_workbook {
+        provisio::report::workbook::write_workbook(&a.dir)?;
+    }
     print_summary(&planned);
     super::json_summary(|| {
         let files = [
@@ -300,15 +324,82 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         super::warn(w);
     }
     super::say!(
-        "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){} in {}",
+        "planned {} series; wrote plan.csv, orders.csv, order_totals.csv, plan_log.csv ({} entries), plan.json and {} stock chart files (charts/plan-*){}{} in {}",
         planned.len(),
         log.len(),
         charts,
         if a.no_report { "" } else { ", and rebuilt report.html" },
+        if rebuilt_workbook { "; forecast.xlsx now has the sheets Supply plan, Orders and Order totals" } else { "" },
         a.dir.display()
     );
     super::say!("Decision support only: review proposed orders with the responsible programme staff; national guidelines and local regulations take precedence.");
     Ok(())
+}
+
+/// Refuses a folder without a forecast, saying so (before anything is
+/// read or written there).
+fn require_forecast(dir: &std::path::Path) -> anyhow::Result<()> {
+    if !dir.is_dir() {
+        anyhow::bail!(
+            "{}: no such folder; give the output folder of `provisio forecast` (run `provisio forecast DATA --out {}` first)",
+            dir.display(),
+            dir.display()
+        );
+    }
+    if !dir.join("forecast.csv").is_file() {
+        anyhow::bail!(
+            "{}: no forecast in this folder (no forecast.csv); plan works from the output folder of `provisio forecast`: run `provisio forecast DATA --out {}` first, then plan it",
+            dir.display(),
+            dir.display()
+        );
+    }
+    Ok(())
+}
+
+/// Notes on a stock row's policy, before planning: a pack size that
+/// differs from the run configuration's (as `forecast.csv` gives it), and
+/// a minimum below the lead time plus a safety margin.
+fn policy_notes(
+    r: &read::StockRow,
+    forecast: &read::ForecastSeries,
+    dir: &std::path::Path,
+) -> Vec<String> {
+    let mut notes = Vec::new();
+    if let Some((size, line)) = forecast.pack_sizes.get(&r.product) {
+        if *size != r.policy.pack_size {
+            notes.push(format!(
+                "pack_size {} differs from the run configuration's pack_size {} ({} line {}); orders are rounded to the stock file's packs of {}, while forecast.csv counts packs of {}: check which is right",
+                output::fmt_num(r.policy.pack_size),
+                output::fmt_num(*size),
+                dir.join("forecast.csv").display(),
+                line,
+                output::fmt_num(r.policy.pack_size),
+                output::fmt_num(*size),
+            ));
+        }
+    }
+    if let Some(why) = plan::minimum_below_lead_time(&r.policy) {
+        notes.push(why);
+    }
+    notes
+}
+
+/// The largest quantity expected to expire over the projection, with its
+/// month, when any.
+fn expiry_note(p: &plan::SeriesPlan, policy: &plan::Policy) -> Option<String> {
+    let worst = p
+        .months
+        .iter()
+        .filter(|m| m.expiring > 0.0)
+        .max_by(|a, b| a.expiring.total_cmp(&b.expiring))?;
+    let first = p.months.iter().find(|m| m.expiring > 0.0)?;
+    Some(format!(
+        "about {} units expected to expire (stock above the AMC × shelf life of {} months, at {}; from {} on; plan.csv column expiring)",
+        provisio::chart::fmt_quantity(worst.expiring),
+        output::fmt_num(policy.shelf_life_months.unwrap_or(0.0)),
+        worst.month,
+        first.month
+    ))
 }
 
 fn print_summary(planned: &[PlannedSeries]) {

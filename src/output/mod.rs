@@ -280,6 +280,67 @@ pub fn csv_text_read(s: &str) -> &str {
     }
 }
 
+/// Files that `plan` and `crosscheck` derive from a forecast in its
+/// output folder. [`retire_derived`] moves them aside when the forecast
+/// they were made from is replaced.
+pub const DERIVED_FILES: [&str; 9] = [
+    "plan.csv",
+    "orders.csv",
+    "order_totals.csv",
+    "plan_log.csv",
+    "plan.json",
+    "crosscheck.csv",
+    "crosscheck_services.csv",
+    "crosscheck_rejected.csv",
+    "crosscheck.json",
+];
+
+/// Name of the subfolder that [`retire_derived`] moves outputs into.
+pub const RETIRED_DIR: &str = "retired";
+
+/// Moves the plan and cross-check outputs of an earlier forecast out of
+/// `dir` into `dir/retired/` (their charts, `charts/plan-*` and
+/// `charts/crosscheck-*`, into `retired/charts/`), replacing what an
+/// earlier retirement left there. Returns the names moved, so the caller
+/// can say so; nothing is deleted that was not retired before.
+pub fn retire_derived(dir: &Path) -> Result<Vec<String>> {
+    let retired = dir.join(RETIRED_DIR);
+    let mut moves: Vec<(PathBuf, PathBuf, String)> = DERIVED_FILES
+        .iter()
+        .map(|f| (dir.join(f), retired.join(f), (*f).to_string()))
+        .filter(|(from, _, _)| from.is_file())
+        .collect();
+    if let Ok(entries) = std::fs::read_dir(dir.join("charts")) {
+        for e in entries.flatten() {
+            let name = e.file_name().to_string_lossy().into_owned();
+            if (name.starts_with("plan-") || name.starts_with("crosscheck-"))
+                && e.file_type().is_ok_and(|t| t.is_file())
+            {
+                let shown = format!("charts/{name}");
+                moves.push((e.path(), retired.join("charts").join(&name), shown));
+            }
+        }
+    }
+    moves.sort_by(|a, b| a.2.cmp(&b.2));
+    let mut names = Vec::new();
+    for (from, to, name) in moves {
+        if let Some(parent) = to.parent() {
+            std::fs::create_dir_all(parent).map_err(|source| Error::Io {
+                path: parent.to_path_buf(),
+                action: "cannot create the folder for retired outputs",
+                source,
+            })?;
+        }
+        std::fs::rename(&from, &to).map_err(|source| Error::Io {
+            path: from.clone(),
+            action: "cannot move the earlier output aside (to retired/)",
+            source,
+        })?;
+        names.push(name);
+    }
+    Ok(names)
+}
+
 /// SHA-256 of a byte string, lowercase hex.
 pub fn sha256_hex(bytes: &[u8]) -> String {
     use sha2::Digest;

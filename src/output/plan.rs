@@ -11,7 +11,7 @@ fn io_err(e: csv::Error) -> std::io::Error {
 }
 
 /// Columns of `plan.csv`.
-pub const PLAN_COLUMNS: [&str; 18] = [
+pub const PLAN_COLUMNS: [&str; 19] = [
     "product",
     "site",
     "month",
@@ -30,6 +30,7 @@ pub const PLAN_COLUMNS: [&str; 18] = [
     "emergency_months",
     "within_lead_time",
     "flag",
+    "expiring",
 ];
 
 /// `plan.csv`: one row per series and projected month.
@@ -64,6 +65,7 @@ pub fn write_plan(path: &Path, series: &[PlannedSeries]) -> Result<()> {
                     &fmt_opt(s.policy.emergency_months),
                     if m.within_lead_time { "yes" } else { "no" },
                     if flag.is_empty() { "ok" } else { &flag },
+                    &fmt_num(m.expiring),
                 ])
                 .map_err(io_err)?;
             }

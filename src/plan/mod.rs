@@ -253,6 +253,11 @@ pub struct PlanMonth {
     pub within_lead_time: bool,
     /// Risk flags, in [`Flag`] order.
     pub flags: Vec<Flag>,
+    /// Quantity expected to expire: closing stock − AMC × shelf life, when
+    /// positive and the shelf life is known (the stock the AMC cannot use
+    /// before it expires, counting all of it as fresh; older stock expires
+    /// sooner, so the real quantity is at least this). 0 otherwise.
+    pub expiring: f64,
 }
 
 impl PlanMonth {
@@ -519,7 +524,11 @@ pub fn plan_series(
                 flags.push(Flag::ExpiryRisk);
             }
         }
+        let expiring = policy
+            .shelf_life_months
+            .map_or(0.0, |l| expiring_quantity(closing[t], amc, l));
         months.push(PlanMonth {
+            expiring,
             month: first.plus(t as i64),
             opening,
             consumption: cons[t],
@@ -540,6 +549,44 @@ pub fn plan_series(
         orders,
         ignored_arrivals: ignored,
         skipped_forecast_months: skip,
+    })
+}
+
+/// Quantity expected to expire from `closing` stock with a shelf life of
+/// `shelf_life_months` at a use of `amc` a month: `max(0, closing − amc ×
+/// shelf life)`, the stock the AMC cannot use before it expires (all of
+/// it counted as fresh, so a lower bound). Common practice: the same
+/// comparison of months of stock with the shelf life as the
+/// [`Flag::ExpiryRisk`] flag, in units.
+pub fn expiring_quantity(closing: f64, amc: f64, shelf_life_months: f64) -> f64 {
+    (closing - amc * shelf_life_months).max(0.0)
+}
+
+/// The safety margin [`minimum_below_lead_time`] asks of the minimum on
+/// top of the lead time, in months (common practice: a minimum stock of
+/// lead-time stock plus safety stock; one month of safety is a rule of
+/// thumb, not a standard).
+pub const MIN_SAFETY_MARGIN_MONTHS: f64 = 1.0;
+
+/// When the policy's minimum is below the lead time plus
+/// [`MIN_SAFETY_MARGIN_MONTHS`], says why that is risky. An order is
+/// placed when the stock falls to the minimum and arrives a lead time
+/// later; with a minimum below the lead time (plus a margin for demand
+/// above the forecast and late deliveries) the stock runs down to nearly
+/// nothing, or out, before each arrival. Common practice: minimum stock =
+/// lead-time stock + safety stock (max–min inventory control).
+pub fn minimum_below_lead_time(policy: &Policy) -> Option<String> {
+    let wanted = f64::from(policy.lead_time_months) + MIN_SAFETY_MARGIN_MONTHS;
+    (policy.min_months < wanted).then(|| {
+        format!(
+            "min_months {} is below the lead time ({} months) plus a safety margin of {} month: an order placed when the stock reaches the minimum arrives {} months later, leaving {} months of stock or less for demand above the forecast and late deliveries; rule of thumb (common practice, not a standard): min_months at least lead_time_months + {}",
+            policy.min_months,
+            policy.lead_time_months,
+            MIN_SAFETY_MARGIN_MONTHS,
+            policy.lead_time_months,
+            crate::output::fmt_num((policy.min_months - f64::from(policy.lead_time_months)).max(0.0)),
+            MIN_SAFETY_MARGIN_MONTHS,
+        )
     })
 }
 

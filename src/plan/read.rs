@@ -124,6 +124,9 @@ struct Sheet {
     rows: Vec<(u64, Vec<String>)>,
     columns: HashMap<String, usize>,
     warnings: Vec<String>,
+    /// How numbers are written (stock and on-order files follow
+    /// `--numbers`; `forecast.csv` is plain).
+    numbers: NumberFormat,
 }
 
 fn normalise(name: &str) -> String {
@@ -249,6 +252,7 @@ impl Sheet {
             rows,
             columns,
             warnings,
+            numbers: NumberFormat::Plain,
         })
     }
 
@@ -292,14 +296,13 @@ impl Sheet {
         what: &str,
     ) -> Result<Option<f64>> {
         let v = self.get(row, column);
-        let x = parse_number(v, NumberFormat::Plain).map_err(|_| {
-            self.err(
-                line,
-                column,
-                format!(
-                    "\"{v}\" is not a plain number; write it like 1250 or 1250.5 (a point as decimal mark, no thousands separator); {what}"
-                ),
-            )
+        let x = parse_number(v, self.numbers).map_err(|_| {
+            let how = match self.numbers {
+                NumberFormat::Plain => "a plain number; write it like 1250 or 1250.5 (a point as decimal mark, no thousands separator), or give --numbers grouped for 1,250.5 or --numbers decimal-comma for 1.250,5",
+                NumberFormat::Grouped => "a number as --numbers grouped reads them: 1250, 1,250.5 or 1 250.5 (a point as decimal mark; comma or space between groups of three digits)",
+                NumberFormat::DecimalComma => "a number as --numbers decimal-comma reads them: 1250, 1250,5, 1.250,5 or 1 250,5 (a comma as decimal mark; point or space between groups of three digits)",
+            };
+            self.err(line, column, format!("\"{v}\" is not {how}; {what}"))
         })?;
         match x {
             Some(x) if !ok(x) => Err(self.err(line, column, format!("{v} is not valid; {what}"))),
@@ -356,9 +359,16 @@ fn names(known: &[(&str, bool, &str)], required: bool) -> String {
         .join(", ")
 }
 
-/// Reads a stock file. Returns its rows and warnings (ignored columns).
-pub fn read_stock(file: &str, bytes: &[u8]) -> Result<(Vec<StockRow>, Vec<String>)> {
-    let sheet = Sheet::parse(file, bytes, &STOCK_COLUMNS)?;
+/// Reads a stock file, its numbers written as `numbers` says (the
+/// `--numbers` rules of the consumption data). Returns its rows and
+/// warnings (ignored columns).
+pub fn read_stock(
+    file: &str,
+    bytes: &[u8],
+    numbers: NumberFormat,
+) -> Result<(Vec<StockRow>, Vec<String>)> {
+    let mut sheet = Sheet::parse(file, bytes, &STOCK_COLUMNS)?;
+    sheet.numbers = numbers;
     let mut out: Vec<StockRow> = Vec::new();
     let mut seen: HashMap<SeriesKey, u64> = HashMap::new();
     for (line, row) in &sheet.rows {
@@ -476,9 +486,15 @@ pub fn read_stock(file: &str, bytes: &[u8]) -> Result<(Vec<StockRow>, Vec<String
     Ok((out, sheet.warnings))
 }
 
-/// Reads an on-order file: one row per shipment expected.
-pub fn read_on_order(file: &str, bytes: &[u8]) -> Result<(Vec<OnOrderRow>, Vec<String>)> {
-    let sheet = Sheet::parse(file, bytes, &ON_ORDER_COLUMNS)?;
+/// Reads an on-order file: one row per shipment expected, numbers written
+/// as `numbers` says.
+pub fn read_on_order(
+    file: &str,
+    bytes: &[u8],
+    numbers: NumberFormat,
+) -> Result<(Vec<OnOrderRow>, Vec<String>)> {
+    let mut sheet = Sheet::parse(file, bytes, &ON_ORDER_COLUMNS)?;
+    sheet.numbers = numbers;
     let mut out = Vec::new();
     for (line, row) in &sheet.rows {
         let line = *line;
@@ -517,6 +533,9 @@ pub struct ForecastSeries {
     /// Whether the points and bounds are the adjusted forecast (the run
     /// applied a changes file: `forecast.csv` has an `adjusted` column).
     pub adjusted: bool,
+    /// The pack size of each product that the run configuration gave one
+    /// (`forecast.csv`'s `pack_size` column), with the line it was read on.
+    pub pack_sizes: HashMap<String, (f64, u64)>,
 }
 
 impl ForecastSeries {
@@ -602,6 +621,9 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         ("adjusted_upper_80", false, ""),
         ("adjusted_upper_95", false, ""),
         ("bridged", false, ""),
+        ("units", false, ""),
+        ("pack_size", false, ""),
+        ("packs", false, ""),
     ];
     let sheet = Sheet::parse(&file, &bytes, &known)?;
     let per_site = sheet.columns.contains_key("site");
@@ -616,6 +638,7 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
     let mut series: BTreeMap<SeriesKey, SeriesForecast> = BTreeMap::new();
     let mut products = Vec::new();
     let mut models = HashMap::new();
+    let mut pack_sizes = HashMap::new();
     for (line, row) in &sheet.rows {
         let line = *line;
         // forecast.csv writes formula-like names with a leading apostrophe.
@@ -638,6 +661,9 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         let point = sheet.required_number(line, row, c_point, any, "a number")?;
         let upper80 = sheet.number(line, row, c_u80, any, "a number")?;
         let upper95 = sheet.number(line, row, c_u95, any, "a number")?;
+        if let Some(size) = sheet.number(line, row, "pack_size", |x| x > 0.0, "a number above 0")? {
+            pack_sizes.entry(product.clone()).or_insert((size, line));
+        }
         if !models.contains_key(&product) {
             products.push(product.clone());
             models.insert(product.clone(), sheet.get(row, "model").to_string());
@@ -671,5 +697,6 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         per_site,
         models,
         adjusted,
+        pack_sizes,
     })
 }

@@ -149,6 +149,50 @@ fn overstock_and_expiry_flags() {
     assert_eq!(m0.months_of_stock, Some(19.0));
     assert_eq!(m0.flags, vec![Flag::AboveMax, Flag::ExpiryRisk]);
     assert!(plan.orders.iter().all(|o| o.arrival_month > start.plus(13)));
+    // Quantity expected to expire, by hand: 19,000 at the end of the first
+    // month, 12 months' shelf life at 1,000 a month → 7,000 cannot be used
+    // in time; the flag and the quantity go together.
+    assert_eq!(m0.expiring, 7000.0);
+    for m in &plan.months {
+        assert_eq!(
+            m.flags.contains(&Flag::ExpiryRisk),
+            m.expiring > 0.0,
+            "{}",
+            m.month
+        );
+    }
+    assert_eq!(plan.months[7].closing, 12_000.0);
+    assert_eq!(plan.months[7].expiring, 0.0);
+}
+
+#[test]
+fn expiring_quantity_by_hand() {
+    // Common practice: stock beyond AMC × shelf life cannot be used before
+    // it expires.
+    assert_eq!(expiring_quantity(9000.0, 500.0, 12.0), 3000.0);
+    assert_eq!(expiring_quantity(5000.0, 500.0, 12.0), 0.0);
+    assert_eq!(expiring_quantity(0.0, 0.0, 12.0), 0.0);
+}
+
+#[test]
+fn minimum_below_lead_time_plus_margin_is_named() {
+    // Rule of thumb (common practice): min_months ≥ lead time + 1 month.
+    let mut p = policy(1000.0, ym(2026, 1));
+    p.lead_time_months = 6;
+    p.min_months = 4.0;
+    let why = minimum_below_lead_time(&p).expect("4 < 6 + 1");
+    assert!(
+        why.contains("min_months 4 is below the lead time (6 months)"),
+        "{why}"
+    );
+    assert!(why.contains("common practice"), "{why}");
+    p.min_months = 7.0;
+    assert_eq!(minimum_below_lead_time(&p), None);
+    p.min_months = 6.5;
+    assert!(minimum_below_lead_time(&p).is_some());
+    p.lead_time_months = 0;
+    p.min_months = 1.0;
+    assert_eq!(minimum_below_lead_time(&p), None);
 }
 
 #[test]

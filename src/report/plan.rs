@@ -421,7 +421,7 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
         );
         let _ = writeln!(
             b,
-            "<figure class=\"chart\" role=\"img\" aria-label=\"Stock chart of {}\">{svg}<figcaption>Projected closing stock in base units, the min–max band (min and max months × AMC), arrivals, and projected stockout months. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
+            "<figure class=\"chart\" role=\"img\" aria-label=\"Stock chart of {}\">{svg}<figcaption>Projected closing stock in base units, one column a month coloured against the minimum and maximum (min and max months × AMC, drawn as lines), arrivals as stems, order months on the axis, and projected stockout months as a red strip. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
             escape(&series_title(k))
         );
         if s.orders.is_empty() {

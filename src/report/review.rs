@@ -316,7 +316,7 @@ fn reading(b: &mut String, limit: f64) {
 <li><strong>MAPE, WAPE</strong>: average error of the past forecast over the months that now have actuals, per month and weighted by volume.</li>\
 <li><strong>Bias</strong>: Σ(forecast − actual) ÷ Σ actual; above 0 the forecast was too high (over-forecast), below 0 too low.</li>\
 <li><strong>In 80% / 95% range</strong>: share of actuals inside the past forecast's ranges. Well below 80% / 95% means the ranges were too narrow; it is flagged when a binomial test says the shortfall is beyond chance (p &lt; 0.05).</li>\
-<li><strong>Tracking signal</strong>: cumulative error ÷ mean absolute error. It grows when errors keep one sign; beyond ±4 the errors add up in one direction and the model should be looked at again (the findings say when one large month carries it).</li>\
+<li><strong>Tracking signal</strong>: cumulative error ÷ mean absolute error. It grows when errors keep one sign; beyond ±2.46 √months (8.5 over 12 months: an unbiased forecast crosses it by chance 1 time in 20) the errors add up in one direction and the model should be looked at again (the findings say when one large month carries it).</li>\
 <li><strong>Value added</strong>: the WAPE of a naive forecast (“same as the last month”) and of a seasonal naive one (“same month a year before”), both made at the same time from the same cleaned history, minus the model's WAPE. Below 0 the simple rule would have done better.</li>\
 <li><strong>Not as reported</strong>: share of the cleaned volume that cleaning added or changed (stockout and reporting adjustments, filled months), for the history the forecast was made from and for the review months; flagged above {:.0}%, with the rules responsible.</li></ul>",
         100.0 * limit
@@ -332,8 +332,11 @@ fn flags(r: &ProductReview) -> Vec<&'static str> {
     if s.coverage80_short() || s.coverage95_short() {
         f.push("ranges too narrow");
     }
-    if s.fva_naive().is_some_and(|v| v < 0.0) || s.fva_seasonal_naive().is_some_and(|v| v < 0.0) {
-        f.push("naive better");
+    for nb in s.naive_better() {
+        f.push(match nb.short {
+            "naive" => "naive better",
+            _ => "seasonal naive better",
+        });
     }
     if r.history_audit.flagged || r.period_audit.flagged {
         f.push("heavily adjusted");
@@ -522,7 +525,7 @@ fn product_section(
     );
     let findings = r.findings(page.adjustment_limit);
     if findings.is_empty() {
-        b.push_str("<p class=\"note\">Nothing stands out: tracking signal within ±4, ranges not short of their nominal coverage, no worse than the simple rules, data adjusted within the limit.</p>\n");
+        b.push_str("<p class=\"note\">Nothing stands out: tracking signal within its limit, ranges not short of their nominal coverage, no worse than the simple rules, data adjusted within the limit.</p>\n");
     } else {
         b.push_str("<ul class=\"warn\">");
         for f in &findings {
@@ -562,7 +565,7 @@ fn product_section(
     ));
     b.push_str(&key(
         s.tracking.map(|t| signed(t.value)).unwrap_or_else(dash),
-        "tracking signal (limit ±4)",
+        "tracking signal (limit ±2.46 √months)",
     ));
     b.push_str(&key(
         match (s.fva_naive(), s.fva_seasonal_naive()) {

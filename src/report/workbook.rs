@@ -23,6 +23,28 @@ fn kind_of(column: &str) -> ColumnKind {
     match column {
         "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" => ColumnKind::Count,
         "before" | "after" | "rmse" | "runner_up_score" => ColumnKind::Quantity,
+        // The supply plan (plan.csv, orders.csv, order_totals.csv) and the
+        // annual totals.
+        "opening"
+        | "consumption"
+        | "arrivals_on_order"
+        | "arrivals_planned"
+        | "closing"
+        | "short"
+        | "amc"
+        | "expiring"
+        | "stock_at_arrival_without_order"
+        | "projected_end_without_order"
+        | "minimum"
+        | "order_up_to"
+        | "needed"
+        | "quantity"
+        | "packs"
+        | "cost"
+        | "total" => ColumnKind::Quantity,
+        "months_of_stock" | "min_months" | "max_months" | "emergency_months" | "unit_cost"
+        | "pack_size" => ColumnKind::Decimal,
+        "orders" => ColumnKind::Count,
         c if c.starts_with("months_") => ColumnKind::Count,
         c if c.starts_with("amc_") || c.starts_with("total_") => ColumnKind::Quantity,
         c if c.ends_with("_pct") || c == "mase" => ColumnKind::Decimal,
@@ -286,8 +308,11 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
         }
         forecasts = with;
     }
-    let mut tables = Vec::new();
+    let mut tables = vec![annual_totals(&header, &rows)];
     for (file, sheet) in [
+        ("plan.csv", "Supply plan"),
+        ("orders.csv", "Orders"),
+        ("order_totals.csv", "Order totals"),
         ("changes_summary.csv", "Known changes"),
         ("selection.csv", "Selection"),
         ("adjustments.csv", "Adjustments"),
@@ -304,6 +329,86 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
         parameters: parameters(&manifest),
         caution: super::CAUTION.to_string(),
     })
+}
+
+/// Product, site and year of an annual total.
+type YearKey = (String, String, String);
+/// Months, total, units and pack size of an annual total.
+type YearSum = (usize, f64, String, String);
+
+/// The "Annual totals" sheet from `forecast.csv`'s header and rows: per
+/// product (and site, when given) and calendar year, the months forecast,
+/// the total forecast (the adjusted one when the run applied known
+/// changes), and in packs where the run configuration gave a pack size.
+fn annual_totals(header: &[String], rows: &[Vec<String>]) -> WorkbookTable {
+    let at = |name: &str| header.iter().position(|h| h == name);
+    let point = at("adjusted").or_else(|| at("forecast"));
+    let (product, site, month) = (at("product"), at("site"), at("month"));
+    let (units, pack) = (at("units"), at("pack_size"));
+    let get = |r: &Vec<String>, c: Option<usize>| -> String {
+        c.and_then(|c| r.get(c)).cloned().unwrap_or_default()
+    };
+    // (product, site, year) → (months, total, units, pack size), in file order.
+    let mut order: Vec<YearKey> = Vec::new();
+    let mut sums: HashMap<YearKey, YearSum> = HashMap::new();
+    for r in rows {
+        let m = get(r, month);
+        let Some(v) = get(r, point).trim().parse::<f64>().ok() else {
+            continue;
+        };
+        let key = (
+            csv_text_read(&get(r, product)).to_string(),
+            csv_text_read(&get(r, site)).to_string(),
+            m.get(..4).unwrap_or("").to_string(),
+        );
+        let e = sums.entry(key.clone()).or_insert_with(|| {
+            order.push(key);
+            (0, 0.0, get(r, units), get(r, pack))
+        });
+        e.0 += 1;
+        e.1 += v;
+    }
+    let rows = order
+        .into_iter()
+        .filter_map(|k| {
+            let (n, total, units, pack) = sums.remove(&k)?;
+            let packs = pack
+                .trim()
+                .parse::<f64>()
+                .ok()
+                .filter(|p| *p > 0.0)
+                .map(|p| crate::output::fmt_num((total / p * 10.0).round() / 10.0))
+                .unwrap_or_default();
+            Some(vec![
+                k.0,
+                k.1,
+                k.2,
+                n.to_string(),
+                crate::output::fmt_num(total.round()),
+                units,
+                pack,
+                packs,
+            ])
+        })
+        .collect();
+    let columns = [
+        "product",
+        "site",
+        "year",
+        "months",
+        "total",
+        "units",
+        "pack_size",
+        "packs",
+    ];
+    WorkbookTable {
+        sheet: "Annual totals".to_string(),
+        columns: columns.iter().map(|c| (c.to_string(), kind_of(c))).collect(),
+        rows,
+        note: Some(
+            "forecast per calendar year (a year the horizon covers only in part says how many months); packs = total ÷ pack size, where the run configuration gave one".to_string(),
+        ),
+    }
 }
 
 /// Reads the forecast output folder `dir` and writes `forecast.xlsx` into

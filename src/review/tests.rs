@@ -214,17 +214,17 @@ fn settings_are_checked() {
 
 #[test]
 fn findings_name_what_stands_out() {
-    // Five months all under-forecast by 20: TS = -5 from the fifth month;
-    // the ±1 band misses every actual.
-    let mut p = past("2024-01", vec![100.0; 12], vec![80.0; 5], 1.0);
+    // Eight months all under-forecast by 20: TS = -k in month k, beyond
+    // 2.46 √k from the seventh month; the ±1 band misses every actual.
+    let mut p = past("2024-01", vec![100.0; 12], vec![80.0; 8], 1.0);
     p.promised.mape = Some(5.0);
     p.history_reported = vec![Some(70.0); 12];
     p.history_changes = [("reporting-scaled".to_string(), 360.0)].into();
-    let s = series("2025-01", vec![100.0; 5]);
-    let r = review_product(&p, 0, &s, &[true; 5], &[], &settings()).unwrap();
+    let s = series("2025-01", vec![100.0; 8]);
+    let r = review_product(&p, 0, &s, &[true; 8], &[], &settings()).unwrap();
     let f = r.findings(0.2).join("\n");
     assert!(
-        f.contains("tracking signal -5.0 is beyond ±4 since 2025-05: the errors add up to an under-forecast (5 of 5 months under)"),
+        f.contains("tracking signal -8.0 is beyond ±6.9 (the 5% chance bound for 8 months) since 2025-07: the errors add up to an under-forecast (8 of 8 months under)"),
         "{f}"
     );
     assert!(!f.contains("one month carries"), "{f}");
@@ -241,22 +241,23 @@ fn findings_name_what_stands_out() {
 
 #[test]
 fn tracking_finding_names_a_single_large_error() {
-    // Under by 10 for 11 months (running signal -1, -2, ... beyond -4 from
-    // the fifth month), then over by 400: the final signal is positive and
-    // one month carries it. The breach month is where the final side began.
+    // Under by 10 for 11 months (running signal -1, -2, ... beyond its
+    // limit from the seventh month), then over by 1000: the final signal is
+    // positive and one month carries it. The breach month is where the
+    // final side began.
     let mut point = vec![90.0; 11];
-    point.push(500.0);
+    point.push(1100.0);
     let p = past("2024-01", vec![100.0; 12], point, 1.0);
     let s = series("2025-01", vec![100.0; 12]);
     let r = review_product(&p, 0, &s, &[true; 12], &[], &settings()).unwrap();
     let ts = r.scores.tracking.unwrap();
-    // Cumulative 400 - 110 = 290; MAD (110 + 400) / 12 = 42.5.
-    assert!((ts.value - 290.0 / 42.5).abs() < 1e-9);
+    // Cumulative 1000 - 110 = 890; MAD (110 + 1000) / 12 = 92.5.
+    assert!((ts.value - 890.0 / 92.5).abs() < 1e-9);
     assert_eq!(r.scores.tracking_breach, Some(ym("2025-12")));
     assert_eq!(r.months[4].tracking_signal, Some(-5.0));
     let f = r.findings(0.2).join("\n");
     assert!(
-        f.contains("since 2025-12: the errors add up to an over-forecast (1 of 12 months over); one month carries most of it (2025-12: error +400)"),
+        f.contains("since 2025-12: the errors add up to an over-forecast (1 of 12 months over); one month carries most of it (2025-12: error +1000)"),
         "{f}"
     );
 }
