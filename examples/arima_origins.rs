@@ -14,7 +14,6 @@ use std::collections::BTreeMap;
 use std::time::Instant;
 
 use provisio::backtest::{self, BacktestSettings};
-use provisio::metrics::Score;
 use provisio::models::arima::{AutoArima, FittedArima};
 use provisio::models::{AnyModel, Model, Needs};
 
@@ -83,7 +82,7 @@ fn main() {
                 continue;
             }
             let mask = vec![true; y.len()];
-            let bt = backtest::run(y, &mask, &one, &settings, Score::Mase);
+            let bt = backtest::run(y, &mask, &one, &settings);
             let s = bt.scores(&bt.runs[0]);
             if let (Some(m), Some(p)) = (s.mase, s.mape) {
                 mase += m;
