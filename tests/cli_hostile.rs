@@ -413,3 +413,92 @@ fn results_do_not_depend_on_the_number_of_threads() {
         );
     }
 }
+
+/// Runs `provisio inspect FILE` on a file of tests/data/bad/ with the
+/// address space capped at 1 GB (`ulimit -v`), so a read that sizes memory
+/// by a sheet's bounding box or unpacks a bomb fails the test instead of
+/// the machine.
+fn inspect_capped(file: &str, env: &[(&str, &str)]) -> (Option<i32>, String) {
+    let w = tempfile::tempdir().unwrap();
+    let src = common::repo(&format!("tests/data/bad/{file}"));
+    std::fs::copy(&src, w.path().join(file)).unwrap();
+    let mut c = std::process::Command::new("sh");
+    c.current_dir(w.path())
+        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
+        .arg(env!("CARGO_BIN_EXE_provisio"))
+        .args(["inspect", file])
+        .env_remove("NO_COLOR");
+    for (k, v) in env {
+        c.env(k, v);
+    }
+    let o = c.output().unwrap();
+    (o.status.code(), text(&o))
+}
+
+#[test]
+fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
+    // One stray cell at XFD1048576, the last column and row of a sheet
+    // (limits from the Office Open XML format, common practice): read as one
+    // more row, which is rejected with its place; no grid is laid out.
+    let (code, out) = inspect_capped("far_cell.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 4 = 3 used as reported"), "{out}");
+    assert!(
+        out.contains("sheet 'Data', row 1048576, column A (product)"),
+        "{out}"
+    );
+    // The same with a formula far away and an empty consumed cell, which
+    // makes the reader look at formulas.
+    let (code, out) = inspect_capped("far_formula.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 3"), "{out}");
+    // OpenDocument repeats: a million empty rows then a cell in column
+    // 16384 would be laid out as 17 billion cells; refused before calamine
+    // expands them, naming the file and how to raise the limit.
+    let (code, out) = inspect_capped("far_cell.ods", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("far_cell.ods: the workbook's sheets span 17179869196 cells"),
+        "{out}"
+    );
+    assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    // Unpacked size: read under the default limit, refused under a lower one.
+    let (code, out) = inspect_capped("unpacks_large.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 2400 = 2400 used"), "{out}");
+    let (code, out) = inspect_capped("unpacks_large.xlsx", &[("PROVISIO_MAX_UNPACKED_MIB", "4")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("unpacks_large.xlsx: the workbook unpacks to more than 4 MiB (stopped in its part xl/worksheets/sheet1.xml)"),
+        "{out}"
+    );
+    assert!(out.contains("PROVISIO_MAX_UNPACKED_MIB=MIB"), "{out}");
+    // Cells kept: read under the default limit, refused under a lower one.
+    let (code, out) = inspect_capped("many_cells.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 20004 = 20004 used"), "{out}");
+    let (code, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "1000")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("many_cells.xlsx: sheet 'Data': the sheet holds more than 1000 cells"),
+        "{out}"
+    );
+    // A value that is not a number is not silently taken as a limit.
+    let (_, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "lots")]);
+    assert!(
+        out.contains("PROVISIO_MAX_SHEET_CELLS=\"lots\" is not a whole number"),
+        "{out}"
+    );
+}
+
+#[test]
+fn the_active_visible_sheet_is_read_and_named_not_a_hidden_first_one() {
+    let (code, out) = inspect_capped("hidden_first_sheet.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("ORS "), "{out}");
+    assert!(!out.contains("OLD"), "the hidden sheet was read:\n{out}");
+    assert!(
+        out.contains("sheet 'Data' was read (the active sheet); the workbook's sheets are 'Old' (hidden), 'Data'; choose another with --sheet"),
+        "{out}"
+    );
+}

@@ -300,8 +300,35 @@ impl ReadArgs {
             },
             latest_month: current_month(),
             sheet: self.sheet.clone(),
+            limits: sheet_limits(),
         }
     }
+}
+
+/// The workbook limits, raised by environment variables when a genuine
+/// workbook is larger than the defaults allow.
+fn sheet_limits() -> provisio::data::SheetLimits {
+    use provisio::data::SheetLimits;
+    let mut limits = SheetLimits::default();
+    let read = |var: &str| -> Option<u64> {
+        let v = std::env::var(var).ok()?;
+        match v.trim().parse::<u64>() {
+            Ok(n) if n > 0 => Some(n),
+            _ => {
+                warn(&format!(
+                    "{var}={v:?} is not a whole number above 0; the default limit is used"
+                ));
+                None
+            }
+        }
+    };
+    if let Some(n) = read(SheetLimits::CELLS_VAR) {
+        limits.max_cells = usize::try_from(n).unwrap_or(usize::MAX);
+    }
+    if let Some(n) = read(SheetLimits::UNPACKED_VAR) {
+        limits.max_unpacked_bytes = n.saturating_mul(1 << 20);
+    }
+    limits
 }
 
 /// The current calendar month (UTC): rows for later months are refused.

@@ -41,6 +41,39 @@ pub struct ReadOptions {
     /// Sheet to read from a workbook (`None`: the first sheet). Refused
     /// for a CSV file.
     pub sheet: Option<String>,
+    /// How much of a workbook may be unpacked and stored.
+    pub limits: SheetLimits,
+}
+
+/// Limits on what a workbook may cost to read. A workbook is compressed:
+/// a file of a few megabytes can unpack to gigabytes, so reading stops at
+/// these limits with a message naming them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SheetLimits {
+    /// Most cells holding something that are kept from the sheet read.
+    pub max_cells: usize,
+    /// Most bytes the workbook's parts may unpack to, all together.
+    pub max_unpacked_bytes: u64,
+}
+
+impl SheetLimits {
+    /// Environment variable the command line reads to raise [`SheetLimits::max_cells`].
+    pub const CELLS_VAR: &'static str = "PROVISIO_MAX_SHEET_CELLS";
+    /// Environment variable the command line reads to raise
+    /// [`SheetLimits::max_unpacked_bytes`] (in MiB).
+    pub const UNPACKED_VAR: &'static str = "PROVISIO_MAX_UNPACKED_MIB";
+}
+
+impl Default for SheetLimits {
+    /// 3,000,000 cells (600,000 rows of five columns) and 512 MiB unpacked:
+    /// well above a national monthly dataset, well below the memory of a
+    /// laptop.
+    fn default() -> Self {
+        SheetLimits {
+            max_cells: 3_000_000,
+            max_unpacked_bytes: 512 << 20,
+        }
+    }
 }
 
 /// Largest quantity accepted in one row. Far above any real monthly
@@ -75,6 +108,7 @@ impl ReadOptions {
                 YearMonth::new(2024, 6)
             },
             sheet: None,
+            limits: SheetLimits::default(),
         }
     }
 }
@@ -264,6 +298,10 @@ pub(crate) trait RowCells {
     fn width(&self) -> usize;
     /// Value `i` (`Cell::Empty` past the end).
     fn cell(&self, i: usize) -> Cell<'_>;
+    /// Whether every value is blank.
+    fn is_blank(&self) -> bool {
+        (0..self.width()).all(|i| self.cell(i).is_blank())
+    }
 }
 
 impl RowCells for Fields<'_> {
@@ -792,7 +830,7 @@ fn parse_row(
     options: &ReadOptions,
     names: &mut Interned,
 ) -> std::result::Result<(InputRow, bool), RowProblem> {
-    if (0..rec.width()).all(|i| rec.cell(i).is_blank()) {
+    if rec.is_blank() {
         return Err((None, String::new(), "the row is empty".to_string()));
     }
     let problem =
