@@ -502,3 +502,37 @@ fn the_active_visible_sheet_is_read_and_named_not_a_hidden_first_one() {
         "{out}"
     );
 }
+
+#[test]
+fn data_text_never_reaches_the_terminal_raw() {
+    // ESC ] 0 ; X BEL sets a terminal's title; a NUL in a name; a
+    // right-to-left override (U+202E) that reverses what follows on screen.
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from(
+        "product,month,consumed\nORS,2024-01,5\nORS,2024-02,\u{1b}]0;X\u{7}\nOR\0S,2024-03,5\n",
+    );
+    for m in 1..=12 {
+        input.push_str(&format!("\u{202e}LOOC,2024-{m:02},{}\n", 10 + m));
+    }
+    std::fs::write(dir.path().join("e.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "e.csv"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(0), "{out}");
+    for bad in ['\u{1b}', '\u{7}', '\0', '\u{202e}'] {
+        assert!(!out.contains(bad), "{bad:?} printed raw:\n{out:?}");
+    }
+    // Shown visibly instead, so the user can find and fix them.
+    assert!(out.contains("\"<U+001B>]0;X<U+0007>\""), "{out}");
+    assert!(out.contains("<U+202E>LOOC"), "{out}");
+    // The NUL is refused with its line and column, not made a product.
+    assert!(
+        out.contains(
+            "e.csv:4: column 'product': product holds the control character U+0000 at character 3"
+        ),
+        "{out}"
+    );
+    assert!(
+        out.contains("rows read: 15 = 13 used as reported + 0 adjusted + 2 rejected"),
+        "{out}"
+    );
+}

@@ -863,10 +863,33 @@ fn name_cell<'a>(
     if let Some(why) = cell_refusal(cell, "a name") {
         return Err(problem(col, &cell.shown(), why));
     }
-    Ok(match cell {
+    let text = match cell {
         Cell::Text(t) => std::borrow::Cow::Borrowed(t.trim()),
         other => std::borrow::Cow::Owned(other.shown()),
-    })
+    };
+    if let Some((at, c)) = text
+        .chars()
+        .enumerate()
+        .find(|(_, c)| is_refused_control(*c))
+    {
+        return Err(problem(
+            col,
+            &text,
+            format!(
+                "{col} holds the control character U+{:04X} at character {}; a name may hold any printable text, tabs and line breaks, but not control characters (they corrupt terminals and other programs): remove it",
+                c as u32,
+                at + 1
+            ),
+        ));
+    }
+    Ok(text)
+}
+
+/// A control character refused in names: C0 and C1 controls and DEL,
+/// except tab, line feed and carriage return (a quoted CSV name may hold
+/// them, and the outputs quote them).
+pub(crate) fn is_refused_control(c: char) -> bool {
+    c.is_control() && !matches!(c, '\t' | '\n' | '\r')
 }
 
 /// A quantity and its text as found: text is read in the declared number
@@ -1316,6 +1339,30 @@ mod tests {
             [2, 3]
         );
         assert!(!d.layout.reporting_rate_as_percent);
+    }
+
+    #[test]
+    fn control_characters_in_names_are_refused_with_line_and_column() {
+        // A NUL inside a product name (issue 20, item 5) and an ESC in a site.
+        let d = read("product,month,consumed,site\nOR\0S,2024-01,5,A\nORS,2024-02,5,B\u{1b}]0;X\u{7}\nORS,2024-03,5,A\n").unwrap();
+        assert_eq!(d.rows.len(), 1);
+        let r = &d.rejected;
+        assert_eq!((r[0].line, r[0].column.as_deref()), (2, Some("product")));
+        assert!(
+            r[0].reason
+                .contains("control character U+0000 at character 3"),
+            "{}",
+            r[0].reason
+        );
+        assert_eq!((r[1].line, r[1].column.as_deref()), (3, Some("site")));
+        assert!(
+            r[1].reason.contains("U+001B at character 2"),
+            "{}",
+            r[1].reason
+        );
+        // Tabs and line breaks stay allowed in quoted names.
+        let d = read("product,month,consumed\n\"a\tb\nc\",2024-01,5\n").unwrap();
+        assert_eq!(&*d.rows[0].product, "a\tb\nc");
     }
 
     #[test]
