@@ -536,3 +536,115 @@ fn data_text_never_reaches_the_terminal_raw() {
         "{out}"
     );
 }
+
+/// Runs the binary and kills it if it has not finished within `secs`.
+fn run_with_deadline(mut c: std::process::Command, secs: u64) -> Option<std::process::Output> {
+    let mut child = c
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = Instant::now();
+    while start.elapsed() < Duration::from_secs(secs) {
+        if child.try_wait().unwrap().is_some() {
+            return Some(child.wait_with_output().unwrap());
+        }
+        std::thread::sleep(Duration::from_millis(50));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    None
+}
+
+const WITH_DUPLICATES: &str =
+    "product,month,consumed\nORS,2024-01,5\nORS,2024-01,6\nORS,2024-02,7\n";
+
+#[test]
+fn a_named_pipe_or_standard_input_is_read_once() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("in.csv");
+    let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+    if made.map_or(true, |s| !s.success()) {
+        eprintln!("SKIPPED: mkfifo not available");
+        return;
+    }
+    // The writer opens the pipe once and writes the file once; a reader
+    // that opened it again to reread the duplicate rows would wait forever.
+    let writer = {
+        let fifo = fifo.clone();
+        std::thread::spawn(move || std::fs::write(&fifo, WITH_DUPLICATES))
+    };
+    let mut c = command(dir.path());
+    c.args(["clean", "in.csv", "--out", "o"]);
+    let o = run_with_deadline(c, 60).expect("clean on a named pipe hung");
+    writer.join().unwrap().unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let (_, rejected) = read_csv_file(&dir.path().join("o/rejected.csv"));
+    assert_eq!(rejected.len(), 2, "both conflicting rows rejected");
+    // Each rejected row keeps its text (the last field of rejected.csv).
+    for r in &rejected {
+        assert!(r.iter().any(|f| f.starts_with("ORS,2024-01,")), "{r:?}");
+    }
+
+    // Standard input: the same, and the rejected rows keep their text.
+    let mut c = command(dir.path());
+    c.args(["clean", "/dev/stdin", "--out", "s"])
+        .stdin(std::process::Stdio::piped());
+    let mut child = c
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    {
+        use std::io::Write;
+        let mut stdin = child.stdin.take().unwrap();
+        stdin.write_all(WITH_DUPLICATES.as_bytes()).unwrap();
+    }
+    let o = child.wait_with_output().unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let (_, rejected) = read_csv_file(&dir.path().join("s/rejected.csv"));
+    assert_eq!(rejected.len(), 2);
+    for r in &rejected {
+        assert!(r.iter().any(|f| f.starts_with("ORS,2024-01,")), "{r:?}");
+    }
+}
+
+#[test]
+fn a_file_growing_while_it_is_read_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("in.csv");
+    let mut body = String::from("product,month,consumed\n");
+    for p in 0..20_000 {
+        for m in 1..=12 {
+            body.push_str(&format!("P{p},2024-{m:02},{}\n", m + p % 7));
+        }
+    }
+    std::fs::write(&path, &body).unwrap();
+    // Another program appends to the file all the time the run reads it.
+    let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let appender = {
+        let (path, stop) = (path.clone(), stop.clone());
+        std::thread::spawn(move || {
+            use std::io::Write;
+            let mut f = std::fs::OpenOptions::new()
+                .append(true)
+                .open(&path)
+                .unwrap();
+            let mut n = 0u64;
+            while !stop.load(std::sync::atomic::Ordering::Relaxed) {
+                writeln!(f, "Q{n},2024-01,1").unwrap();
+                n += 1;
+                std::thread::sleep(Duration::from_micros(200));
+            }
+        })
+    };
+    let o = run_in(dir.path(), &["inspect", "in.csv"]);
+    stop.store(true, std::sync::atomic::Ordering::Relaxed);
+    appender.join().unwrap();
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("in.csv: the file changed while it was read"),
+        "{out}"
+    );
+}

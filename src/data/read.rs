@@ -119,8 +119,41 @@ const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 /// Reads an input file from disk, streaming, and hashes it on the way.
 /// See [`read_csv_bytes`] for what is checked.
 pub fn read_csv_path(path: &Path, options: &ReadOptions) -> Result<Dataset> {
+    let source = path.display().to_string();
+    let io_err = |source: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        action: "cannot read input",
+        source,
+    };
+    let before = std::fs::metadata(path).map_err(io_err)?;
+    if !before.is_file() {
+        // A named pipe, standard input or a device can be read only once:
+        // read it whole, then work from the bytes (rejected rows are read
+        // again from them, not from the pipe).
+        let mut bytes = Vec::new();
+        std::fs::File::open(path)
+            .and_then(|mut f| f.read_to_end(&mut bytes))
+            .map_err(io_err)?;
+        return read_csv_bytes(&source, &bytes, options);
+    }
     let open = || -> std::io::Result<Box<dyn Read>> { Ok(Box::new(std::fs::File::open(path)?)) };
-    read_from(&path.display().to_string(), path, &open, options)
+    let ds = read_from(&source, path, &open, options)?;
+    // A file written or cut while it was read gives rows of neither
+    // version and a hash of neither: refuse it rather than forecast from it.
+    let after = std::fs::metadata(path).map_err(io_err)?;
+    if after.len() != before.len() || after.modified().ok() != before.modified().ok() {
+        return Err(Error::Input {
+            file: source,
+            line: 0,
+            column: None,
+            message: format!(
+                "the file changed while it was read ({} bytes before, {} after); run again once the program writing it has finished",
+                before.len(),
+                after.len()
+            ),
+        });
+    }
+    Ok(ds)
 }
 
 /// Reads the long CSV contract from bytes. `source` names the file in
