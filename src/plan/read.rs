@@ -356,13 +356,13 @@ fn names(known: &[(&str, bool, &str)], required: bool) -> String {
         .join(", ")
 }
 
-/// Reads a stock file. Returns its rows and warnings (ignored columns).
 /// Smallest pack size: orders are whole packs, and the number of packs of
 /// the largest need (10^15 units a month for 120 months) must stay a whole
 /// number a computer can count; a pack size such as 1e-320 gave
 /// 18446744073709551615 packs of cost 0.
 const MIN_PACK_SIZE: f64 = 0.01;
 
+/// Reads a stock file. Returns its rows and warnings (ignored columns).
 pub fn read_stock(file: &str, bytes: &[u8]) -> Result<(Vec<StockRow>, Vec<String>)> {
     let sheet = Sheet::parse(file, bytes, &STOCK_COLUMNS)?;
     let mut out: Vec<StockRow> = Vec::new();
