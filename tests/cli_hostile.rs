@@ -648,3 +648,31 @@ fn a_file_growing_while_it_is_read_is_refused() {
         "{out}"
     );
 }
+
+#[test]
+fn too_many_products_for_a_sheet_are_refused_before_the_work_naming_no_workbook() {
+    // 210,000 products × 5 rows + 3 > 1,048,576 rows, the sheet limit of
+    // Office Open XML (common practice).
+    let dir = tempfile::tempdir().unwrap();
+    let mut body = String::from("product,month,consumed\n");
+    for p in 0..210_000 {
+        body.push_str(&format!("P{p},2024-01,5\n"));
+    }
+    std::fs::write(dir.path().join("many.csv"), body).unwrap();
+    let t = Instant::now();
+    let o = run_in(
+        dir.path(),
+        &["forecast", "many.csv", "--out", "o", "--no-report"],
+    );
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("the data has 210000 products: the Forecast sheet of forecast.xlsx would need 1050003 rows, more than the 1048576 a spreadsheet holds; give --no-workbook"),
+        "{out}"
+    );
+    assert!(
+        !dir.path().join("o/forecast.csv").exists(),
+        "refused before writing"
+    );
+    eprintln!("refused after {:.1} s", t.elapsed().as_secs_f64());
+}

@@ -433,6 +433,7 @@ fn run_eval(
     until: Option<YearMonth>,
     cfg: Option<&LoadedConfig>,
     given: &Given,
+    workbook: bool,
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
     let fs = settings(eval, horizon);
@@ -444,6 +445,11 @@ fn run_eval(
     let pinned: Vec<String> = pins.keys().cloned().collect();
     let options = product_options(cfg, pins, given.cli("pin"));
     let (ds, cleaned) = load_until(data, read, clean, until)?;
+    if workbook {
+        let products: std::collections::HashSet<&str> =
+            cleaned.series.iter().map(|s| s.product.as_ref()).collect();
+        provisio::output::check_workbook_fits(products.len()).map_err(anyhow::Error::msg)?;
+    }
     let known = |p: &str| cleaned.series.iter().any(|s| s.product == p);
     for p in &pinned {
         if !known(p) {
@@ -690,6 +696,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         a.until,
         config.as_ref(),
         given,
+        !a.no_workbook,
     )?;
     let applied = match &changes {
         Some(c) => Some(super::changes::apply(c, &results)?),
@@ -890,6 +897,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         None,
         config.as_ref(),
         given,
+        false,
     )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
