@@ -310,6 +310,25 @@ pub fn fmt_opt(v: Option<f64>) -> String {
     v.map(fmt_num).unwrap_or_default()
 }
 
+/// Most rows a spreadsheet sheet holds (the Office Open XML limit, common
+/// practice: 2^20).
+pub const SHEET_MAX_ROWS: usize = 1_048_576;
+
+/// Checks, before any work, that the Forecast sheet of `forecast.xlsx`
+/// (three rows of titles, then five rows per product and per adjusted
+/// product) fits in a sheet; the refusal names `--no-workbook`.
+pub fn check_workbook_fits(products: usize) -> std::result::Result<(), String> {
+    let rows = products
+        .saturating_mul(workbook::FORECAST_ROW_LABELS.len())
+        .saturating_add(3);
+    if rows > SHEET_MAX_ROWS {
+        return Err(format!(
+            "the data has {products} products: the Forecast sheet of forecast.xlsx would need {rows} rows, more than the {SHEET_MAX_ROWS} a spreadsheet holds; give --no-workbook (the CSV files hold every value) or forecast the products in several runs"
+        ));
+    }
+    Ok(())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -440,23 +459,4 @@ mod tests {
         assert_eq!(fmt_num(1234567.891_26), "1234567.8913");
         assert_eq!(fmt_num(f64::NAN), "");
     }
-}
-
-/// Most rows a spreadsheet sheet holds (the Office Open XML limit, common
-/// practice: 2^20).
-pub const SHEET_MAX_ROWS: usize = 1_048_576;
-
-/// Checks, before any work, that the Forecast sheet of `forecast.xlsx`
-/// (three rows of titles, then five rows per product and per adjusted
-/// product) fits in a sheet; the refusal names `--no-workbook`.
-pub fn check_workbook_fits(products: usize) -> std::result::Result<(), String> {
-    let rows = products
-        .saturating_mul(workbook::FORECAST_ROW_LABELS.len())
-        .saturating_add(3);
-    if rows > SHEET_MAX_ROWS {
-        return Err(format!(
-            "the data has {products} products: the Forecast sheet of forecast.xlsx would need {rows} rows, more than the {SHEET_MAX_ROWS} a spreadsheet holds; give --no-workbook (the CSV files hold every value) or forecast the products in several runs"
-        ));
-    }
-    Ok(())
 }
