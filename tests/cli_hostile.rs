@@ -676,3 +676,49 @@ fn too_many_products_for_a_sheet_are_refused_before_the_work_naming_no_workbook(
     );
     eprintln!("refused after {:.1} s", t.elapsed().as_secs_f64());
 }
+
+#[test]
+fn output_folder_leftovers_links_and_inputs_are_handled() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    std::fs::write(
+        d.join("in.csv"),
+        "product,month,consumed\nORS,2024-01,5\nORS,2024-02,6\n",
+    )
+    .unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+
+    // A temporary file a killed run left in a subfolder is removed by the next run.
+    std::fs::create_dir_all(d.join("o/charts")).unwrap();
+    std::fs::write(d.join("o/charts/.provisio-4242-0.tmp"), "half a chart").unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(!d.join("o/charts/.provisio-4242-0.tmp").exists());
+
+    // A symbolic link to a folder elsewhere is refused, not followed.
+    std::fs::remove_dir_all(d.join("o/charts")).unwrap();
+    std::fs::create_dir(d.join("elsewhere")).unwrap();
+    std::os::unix::fs::symlink(d.join("elsewhere"), d.join("o/charts")).unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("'charts' in the output folder is a symbolic link to a folder"),
+        "{out}"
+    );
+    assert_eq!(std::fs::read_dir(d.join("elsewhere")).unwrap().count(), 0);
+    std::fs::remove_file(d.join("o/charts")).unwrap();
+
+    // An input that sits in the output folder under an output's name is
+    // never replaced, even with --overwrite.
+    let before = std::fs::read(d.join("o/cleaned.csv")).unwrap();
+    let o = run_in(d, &["clean", "o/cleaned.csv", "--out", "o", "--overwrite"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("the input file o/cleaned.csv is in the output folder"),
+        "{out}"
+    );
+    assert_eq!(std::fs::read(d.join("o/cleaned.csv")).unwrap(), before);
+}

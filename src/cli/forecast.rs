@@ -680,6 +680,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         )
     })?;
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
+    out.refuse_input_inside(&data)?;
     // The changes file is read before the long work, so a mistake in it
     // is said at once; its products and months are checked after.
     let changes = a
@@ -888,6 +889,9 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         Some(out) => Some(output::OutputDir::check(out, a.overwrite)?),
         None => None,
     };
+    if let Some(o) = &out_dir {
+        o.refuse_input_inside(&a.data)?;
+    }
     let (ds, cleaned, results, _, secs) = run_eval(
         &a.data,
         &a.read,
