@@ -246,6 +246,30 @@ impl SheetRow<'_> {
 /// (the active sheet, or the first visible one, unless `options.sheet`
 /// names one). The manifest's hash is of the workbook's bytes.
 pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
+    // calamine panics on some damaged files (a cut-short .xls, found by
+    // tests/hostile_props.rs): such a file is refused like any other.
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        read_sheet_unguarded(source, bytes, options)
+    }))
+    .unwrap_or_else(|panic| {
+        let why = panic
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| panic.downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        Err(Error::Sheet {
+            file: source.to_string(),
+            sheet: None,
+            row: 0,
+            column: None,
+            message: format!(
+                "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+            ),
+        })
+    })
+}
+
+fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
     let file_err =
         |sheet: Option<&str>, row: u64, column: Option<String>, message: String| Error::Sheet {
             file: source.to_string(),
