@@ -722,3 +722,40 @@ fn output_folder_leftovers_links_and_inputs_are_handled() {
     );
     assert_eq!(std::fs::read(d.join("o/cleaned.csv")).unwrap(), before);
 }
+
+#[test]
+fn shared_strings_past_their_share_of_the_limit_are_refused() {
+    // rust_xlsxwriter stores text cells as shared strings: 10,000 distinct
+    // names make a shared-strings part of about 380 KB, past 1/16 of a 4 MiB
+    // limit, while the whole workbook stays under 4 MiB.
+    let dir = tempfile::tempdir().unwrap();
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let ws = book.add_worksheet();
+    for (c, h) in ["product", "month", "consumed"].iter().enumerate() {
+        ws.write_string(0, c as u16, *h).unwrap();
+    }
+    for r in 1..=10_000u32 {
+        ws.write_string(r, 0, format!("product number {r:08}"))
+            .unwrap();
+        ws.write_string(r, 1, "2024-01").unwrap();
+        ws.write_number(r, 2, 5.0).unwrap();
+    }
+    book.save(dir.path().join("s.xlsx")).unwrap();
+    let w = |env: &[(&str, &str)]| {
+        let mut c = command(dir.path());
+        c.args(["inspect", "s.xlsx"]);
+        for (k, v) in env {
+            c.env(k, v);
+        }
+        c.output().unwrap()
+    };
+    let o = w(&[("PROVISIO_MAX_UNPACKED_MIB", "4")]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("s.xlsx: the workbook's shared strings (its part xl/sharedStrings.xml) unpack to more than 256 KiB"),
+        "{out}"
+    );
+    let o = w(&[]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+}

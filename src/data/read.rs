@@ -65,12 +65,13 @@ impl SheetLimits {
 }
 
 impl Default for SheetLimits {
-    /// 3,000,000 cells (600,000 rows of five columns) and 512 MiB unpacked:
+    /// 2,000,000 cells (400,000 rows of five columns; about 150 MB kept at
+    /// most) and 512 MiB unpacked:
     /// well above a national monthly dataset, well below the memory of a
     /// laptop.
     fn default() -> Self {
         SheetLimits {
-            max_cells: 3_000_000,
+            max_cells: 2_000_000,
             max_unpacked_bytes: 512 << 20,
         }
     }

@@ -573,6 +573,7 @@ fn check_unpacked(
         let keep = name == "xl/workbook.xml";
         let mut kept = Vec::new();
         let mut buf = [0u8; 1 << 14];
+        let start = *counted.total;
         loop {
             match counted.read(&mut buf) {
                 Ok(0) | Err(_) => break,
@@ -583,12 +584,25 @@ fn check_unpacked(
         if *counted.total > limit {
             return Err(too_large(&name));
         }
+        // calamine keeps every shared string in memory, not streamed.
+        let strings_limit = limit / SHARED_STRINGS_SHARE;
+        if name == "xl/sharedStrings.xml" && *counted.total - start > strings_limit {
+            return Err(format!(
+                "the workbook's shared strings (its part {name}) unpack to more than {} KiB, one {SHARED_STRINGS_SHARE}th of the workbook limit, and are all kept in memory; if the workbook is genuine, raise the limit with the environment variable {}=MIB, or save the sheet as a CSV file",
+                strings_limit >> 10,
+                SheetLimits::UNPACKED_VAR
+            ));
+        }
         if keep {
             active = active_tab(&kept);
         }
     }
     Ok(active)
 }
+
+/// The share of the unpacked limit the shared strings of an .xlsx may
+/// take: calamine holds them all in memory (32 MiB by default).
+const SHARED_STRINGS_SHARE: u64 = 16;
 
 /// A reader that adds what it reads to a running total and fails once the
 /// total passes the limit.
@@ -705,11 +719,16 @@ fn active_tab(xml: &[u8]) -> Option<usize> {
     std::str::from_utf8(&digits).ok()?.parse().ok()
 }
 
+/// Bytes of cell text that count as one cell against the limit (a cell
+/// kept costs about 40 bytes before its text).
+const TEXT_BYTES_PER_CELL: usize = 16;
+
 /// The message when a sheet holds more cells than the limit.
 fn too_many_cells(limits: &SheetLimits) -> String {
     format!(
-        "the sheet holds more than {} cells with something in them; provisio stops there, as a sheet this large is more often damaged or built to exhaust memory than real data. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
+        "the sheet holds more than {} cells with something in them (or more than {} MB of text); provisio stops there, as a sheet this large is more often damaged or built to exhaust memory than real data. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
         limits.max_cells,
+        limits.max_cells.saturating_mul(TEXT_BYTES_PER_CELL) / 1_000_000,
         SheetLimits::CELLS_VAR
     )
 }
@@ -724,12 +743,17 @@ fn read_cells<RS: Read + Seek>(
 ) -> std::result::Result<Vec<StoredRow>, String> {
     let mut rows: Vec<StoredRow> = Vec::new();
     let mut kept = 0usize;
+    let mut text = 0usize;
     let mut keep = |rows: &mut Vec<StoredRow>, (r, c): (u32, u32), d: Data| {
         if is_empty(&d) {
             return Ok(());
         }
         kept += 1;
-        if kept > limits.max_cells {
+        if let Data::String(t) = &d {
+            text += t.len();
+        }
+        // Text counts too: a cell of long distinct text costs many cells.
+        if kept > limits.max_cells || text / TEXT_BYTES_PER_CELL > limits.max_cells {
             return Err(too_many_cells(limits));
         }
         match rows.last_mut() {
