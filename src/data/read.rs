@@ -248,7 +248,18 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
     let mut rows = Collector::new(options, "line");
     while let Some(line) = records.next_record().map_err(text_err)? {
         let fields = records.fields();
-        match csv_row_problem(line, &fields, &columns) {
+        let problem = csv_row_problem(line, &fields, &columns);
+        if problem.is_none() && records.open_quote {
+            rows.reject(
+                line,
+                None,
+                String::new(),
+                "a quote (\") opened on this line is never closed before the end of the file, so the rest of the file would be one value; close the quote, or remove it".to_string(),
+                fields.joined(delimiter),
+            );
+            continue;
+        }
+        match problem {
             Some(reason) => {
                 rows.reject(line, None, String::new(), reason, fields.joined(delimiter))
             }
@@ -1072,6 +1083,13 @@ fn parse_row(
                         Some(n) => (n.trim(), true),
                         None => (t, false),
                     };
+                    if percent && num.is_empty() {
+                        return Err(problem(
+                            "reporting_rate",
+                            t,
+                            "reporting_rate is a % sign with no number; write the rate (85%), or leave the cell empty when it is not known".to_string(),
+                        ));
+                    }
                     let v = parse_number(num, options.numbers)
                         .map_err(|m| problem("reporting_rate", t, m))?;
                     (v, t.to_string(), percent)
@@ -1397,6 +1415,44 @@ mod tests {
         // Tabs and line breaks stay allowed in quoted names.
         let d = read("product,month,consumed\n\"a\tb\nc\",2024-01,5\n").unwrap();
         assert_eq!(&*d.rows[0].product, "a\tb\nc");
+    }
+
+    #[test]
+    fn a_quote_left_open_on_the_last_line_rejects_that_row() {
+        for text in [
+            "product,month,consumed\nA,2024-01,5\nA,\"2024-02,6\n",
+            "product,month,consumed\nA,2024-01,5\nA,\"2024-02,6",
+        ] {
+            let d = read(text).unwrap();
+            assert_eq!(d.rows.len(), 1, "{text:?}");
+            assert_eq!(d.rejected.len(), 1, "{text:?}");
+            assert_eq!(d.rejected[0].line, 3);
+            assert!(d.rejected[0]
+                .reason
+                .contains("never closed before the end of the file"));
+        }
+        // A closed quote on the last line, with or without a line end, is fine.
+        for text in [
+            "product,month,consumed\nA,2024-01,5\n\"A\",2024-02,6\n",
+            "product,month,consumed\nA,2024-01,5\n\"A \"\"x\"\"\",2024-02,6",
+        ] {
+            let d = read(text).unwrap();
+            assert_eq!((d.rows.len(), d.rejected.len()), (2, 0), "{text:?}");
+        }
+    }
+
+    #[test]
+    fn a_lone_percent_sign_is_refused_not_read_as_no_rate() {
+        let d = read(
+            "product,month,consumed,reporting_rate\nA,2024-01,5,%\nA,2024-02,5, % \nA,2024-03,5,\n",
+        )
+        .unwrap();
+        assert_eq!(
+            d.rejected.iter().map(|r| r.line).collect::<Vec<_>>(),
+            [2, 3]
+        );
+        assert!(d.rejected[0].reason.contains("a % sign with no number"));
+        assert_eq!(d.rows[0].reporting_rate, None);
     }
 
     #[test]

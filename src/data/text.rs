@@ -172,6 +172,9 @@ pub(crate) struct Records<R> {
     pub(crate) delimiter: u8,
     /// Whether a UTF-8 byte-order mark was skipped.
     pub(crate) had_bom: bool,
+    /// Whether the record last read is the file's last and a quote opened
+    /// in it is never closed (the reader then takes the rest as one value).
+    pub(crate) open_quote: bool,
 }
 
 impl<R: Read> Records<R> {
@@ -194,6 +197,7 @@ impl<R: Read> Records<R> {
             text_ends: Vec::new(),
             delimiter: b',',
             had_bom: false,
+            open_quote: false,
         };
         r.sniff()?;
         Ok(r)
@@ -315,6 +319,8 @@ impl<R: Read> Records<R> {
         }
         let start = self.line;
         let (mut nout, mut nends, mut taken) = (0usize, 0usize, 0usize);
+        let mut quotes = 0usize;
+        let mut last_byte = 0u8;
         loop {
             if self.pos == self.len && !self.eof {
                 self.refill()?;
@@ -325,6 +331,10 @@ impl<R: Read> Records<R> {
                 self.core
                     .read_record(input, &mut self.out[nout..], &mut self.ends[nends..]);
             self.line += line_breaks(&input[..nin], &mut self.after_cr);
+            quotes += input[..nin].iter().filter(|&&b| b == b'"').count();
+            if let Some(&b) = input[..nin].last() {
+                last_byte = b;
+            }
             self.pos += nin;
             nout += o;
             nends += e;
@@ -354,6 +364,14 @@ impl<R: Read> Records<R> {
                 }
                 csv_core::ReadRecordResult::Record => {
                     self.decode(start, nout, nends)?;
+                    // An odd number of quotes in the last record, with a line
+                    // break taken into a value or no line end at all: the
+                    // quote was never closed.
+                    let at_end = self.eof && self.pos == self.len;
+                    self.open_quote = at_end
+                        && quotes % 2 == 1
+                        && (self.text.contains(['\n', '\r'])
+                            || !matches!(last_byte, b'\n' | b'\r'));
                     return Ok(Some(start));
                 }
                 csv_core::ReadRecordResult::End => return Ok(None),
