@@ -759,3 +759,18 @@ fn shared_strings_past_their_share_of_the_limit_are_refused() {
     let o = w(&[]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
 }
+
+#[test]
+fn a_cut_short_workbook_is_called_damaged_not_a_misnamed_csv() {
+    let dir = tempfile::tempdir().unwrap();
+    let whole = std::fs::read(common::repo("tests/data/bad/hidden_first_sheet.xlsx")).unwrap();
+    std::fs::write(dir.path().join("cut.xlsx"), &whole[..whole.len() / 2]).unwrap();
+    let o = run_in(dir.path(), &["inspect", "cut.xlsx"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("cut.xlsx: the workbook is damaged or cut short"),
+        "{out}"
+    );
+    assert!(!out.contains("name it .csv"), "{out}");
+}

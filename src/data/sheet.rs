@@ -280,13 +280,22 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         };
     let active = check_unpacked(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
     let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| {
+        // A zip or an old-style workbook that fails to open is damaged or
+        // cut short; only other bytes may be a CSV with the wrong name.
+        let workbook_bytes = bytes.starts_with(b"PK") || bytes.starts_with(b"\xD0\xCF\x11\xE0");
         file_err(
             None,
             0,
             None,
-            format!(
-                "cannot be read as a workbook ({e}); provisio reads .xlsx, .xlsm, .xls and .ods workbooks by their extension, and other files as CSV: if this is a CSV file, name it .csv"
-            ),
+            if workbook_bytes {
+                format!(
+                    "the workbook is damaged or cut short ({e}); open it in a spreadsheet program and save it again, or copy it again from where it came"
+                )
+            } else {
+                format!(
+                    "cannot be read as a workbook ({e}); provisio reads .xlsx, .xlsm, .xls and .ods workbooks by their extension, and other files as CSV: if this is a CSV file, name it .csv"
+                )
+            },
         )
     })?;
     let sheets = book.sheet_names();

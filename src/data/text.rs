@@ -259,6 +259,11 @@ impl<R: Read> Records<R> {
                 message: message.to_string(),
             })
         };
+        if head.starts_with(b"\xFF\xFE\x00\x00") || head.starts_with(b"\x00\x00\xFE\xFF") {
+            return refuse(
+                "the file is UTF-32 text (it starts with a UTF-32 byte-order mark); save it as \"CSV UTF-8\" instead",
+            );
+        }
         if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
             return refuse(
                 "the file is UTF-16 text (it starts with a UTF-16 byte-order mark), as spreadsheets write \"Unicode text\"; save it as \"CSV UTF-8\" instead",
@@ -580,6 +585,19 @@ mod tests {
                 }
                 other => panic!("{word}: {other:?}"),
             }
+        }
+    }
+
+    #[test]
+    fn utf32_is_named_utf32_not_utf16() {
+        // The UTF-32 little-endian byte-order mark FF FE 00 00 begins with
+        // UTF-16's FF FE (Unicode Standard, section 23.8).
+        let bytes = b"\xFF\xFE\x00\x00p\x00\x00\x00";
+        match Records::open(&bytes[..], Encoding::Utf8) {
+            Err(TextError::Input { message, .. }) => {
+                assert!(message.contains("UTF-32"), "{message}")
+            }
+            _ => panic!("UTF-32 accepted"),
         }
     }
 
