@@ -241,8 +241,25 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
         ));
     };
     let header_names: Vec<&str> = records.fields().iter().collect();
-    let (mut columns, extra_columns) =
-        map_header(&header_names).map_err(|m| input_err(header_line, None, m))?;
+    let (mut columns, extra_columns) = map_header(&header_names).map_err(|m| {
+        // One column whose name holds another separator: the file is
+        // delimited by a character provisio does not read, and renaming
+        // the header would not help.
+        let other = match header_names.as_slice() {
+            [only] => ['|', '^', '~', ':'].into_iter().find(|c| only.contains(*c)),
+            _ => None,
+        };
+        match other {
+            Some(c) => input_err(
+                header_line,
+                None,
+                format!(
+                    "the header is one column holding '{c}' between names: the file seems to be delimited by '{c}', and provisio reads commas, semicolons and tabs; save it as CSV with commas"
+                ),
+            ),
+            None => input_err(header_line, None, m),
+        }
+    })?;
     columns.delimiter = delimiter;
 
     let mut rows = Collector::new(options, "line");
@@ -1439,6 +1456,14 @@ mod tests {
             let d = read(text).unwrap();
             assert_eq!((d.rows.len(), d.rejected.len()), (2, 0), "{text:?}");
         }
+    }
+
+    #[test]
+    fn a_pipe_delimited_file_is_told_its_delimiter_not_to_rename_its_header() {
+        let e = read("product|month|consumed\nA|2024-01|5\n")
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("delimited by '|'"), "{e}");
     }
 
     #[test]
