@@ -760,7 +760,14 @@ pub fn holdout_check_with(
     Some(HoldoutResult {
         product: series.product.clone(),
         selected: r.selection.chosen,
-        actual: series.values[cut..].to_vec(),
+        // A month flagged as an outlier in the hidden part is scored at its
+        // reported value, not at the replacement the cleaning computed.
+        actual: (cut..n)
+            .map(|t| match series.reported[t] {
+                Some(r) if series.outlier[t] => r,
+                _ => series.values[t],
+            })
+            .collect(),
         selected_forecast: selected_ranges.point.clone(),
         selected_ranges,
         model_ranges: r.model_ranges,

@@ -189,6 +189,8 @@ const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
     ("month_in_the_future.csv", &[], RowRejected, "month_in_the_future.csv:3: column 'month': month 2099-02 is after the current month ("),
     ("stockout_days_over_month.csv", &[], RowRejected, "stockout_days_over_month.csv:3: column 'stockout_days': stockout_days 30 is outside 0-28 (2023-02 has 28 days)"),
     ("reporting_rate_over_100.csv", &[], RowRejected, "reporting_rate_over_100.csv:3: column 'reporting_rate': reporting_rate 120% is outside 0-100%"),
+    // One 95 among thirty-five 0.9s is refused; the 0.9s are not reread as 0.9%.
+    ("reporting_rate_mixed_scale.csv", &[], RowRejected, "reporting_rate_mixed_scale.csv:22: column 'reporting_rate': reporting_rate 95: the plain reporting rates of ORS mix fractions 0-1 (lines 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, and 25 more) and percentages above 1 (lines 22)"),
     ("reporting_rate_negative.csv", &[], RowRejected, "reporting_rate_negative.csv:3: column 'reporting_rate': reporting_rate -0.2 is outside 0-100%"),
     ("reporting_rate_zero.csv", &[], RowRejected, "reporting_rate_zero.csv:3: column 'reporting_rate': reporting_rate is 0 but consumed is 120: a month with no reports cannot have consumption; leave consumed empty or correct the rate"),
     ("duplicate_rows.csv", &[], RowRejected, "duplicate_rows.csv:4: duplicate of line 3 (product 'ORS', site 'North', month 2024-02) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"),

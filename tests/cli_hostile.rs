@@ -415,3 +415,364 @@ fn results_do_not_depend_on_the_number_of_threads() {
         );
     }
 }
+
+/// Runs `provisio inspect FILE` on a file of tests/data/bad/ with the
+/// address space capped at 1 GB (`ulimit -v`), so a read that sizes memory
+/// by a sheet's bounding box or unpacks a bomb fails the test instead of
+/// the machine.
+fn inspect_capped(file: &str, env: &[(&str, &str)]) -> (Option<i32>, String) {
+    let w = tempfile::tempdir().unwrap();
+    let src = common::repo(&format!("tests/data/bad/{file}"));
+    std::fs::copy(&src, w.path().join(file)).unwrap();
+    let mut c = std::process::Command::new("sh");
+    c.current_dir(w.path())
+        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
+        .arg(env!("CARGO_BIN_EXE_provisio"))
+        .args(["inspect", file])
+        .env_remove("NO_COLOR");
+    for (k, v) in env {
+        c.env(k, v);
+    }
+    let o = c.output().unwrap();
+    (o.status.code(), text(&o))
+}
+
+#[test]
+fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
+    // One stray cell at XFD1048576, the last column and row of a sheet
+    // (limits from the Office Open XML format, common practice): read as one
+    // more row, which is rejected with its place; no grid is laid out.
+    let (code, out) = inspect_capped("far_cell.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 4 = 3 used as reported"), "{out}");
+    assert!(
+        out.contains("sheet 'Data', row 1048576, column A (product)"),
+        "{out}"
+    );
+    // The same with a formula far away and an empty consumed cell, which
+    // makes the reader look at formulas.
+    let (code, out) = inspect_capped("far_formula.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 3"), "{out}");
+    // OpenDocument repeats: a million empty rows then a cell in column
+    // 16384 would be laid out as 17 billion cells; refused before calamine
+    // expands them, naming the file and how to raise the limit.
+    let (code, out) = inspect_capped("far_cell.ods", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("far_cell.ods: the workbook's sheets span 17179869196 cells"),
+        "{out}"
+    );
+    assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    // Unpacked size: read under the default limit, refused under a lower one.
+    let (code, out) = inspect_capped("unpacks_large.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 2400 = 2400 used"), "{out}");
+    let (code, out) = inspect_capped("unpacks_large.xlsx", &[("PROVISIO_MAX_UNPACKED_MIB", "4")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("unpacks_large.xlsx: the workbook unpacks to more than 4 MiB (stopped in its part xl/worksheets/sheet1.xml)"),
+        "{out}"
+    );
+    assert!(out.contains("PROVISIO_MAX_UNPACKED_MIB=MIB"), "{out}");
+    // Cells kept: read under the default limit, refused under a lower one.
+    let (code, out) = inspect_capped("many_cells.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("rows read: 20004 = 20004 used"), "{out}");
+    let (code, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "1000")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("many_cells.xlsx: sheet 'Data': the sheet holds more than 1000 cells"),
+        "{out}"
+    );
+    // A value that is not a number is not silently taken as a limit.
+    let (_, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "lots")]);
+    assert!(
+        out.contains("PROVISIO_MAX_SHEET_CELLS=\"lots\" is not a whole number"),
+        "{out}"
+    );
+}
+
+#[test]
+fn the_active_visible_sheet_is_read_and_named_not_a_hidden_first_one() {
+    let (code, out) = inspect_capped("hidden_first_sheet.xlsx", &[]);
+    assert_eq!(code, Some(0), "{out}");
+    assert!(out.contains("ORS "), "{out}");
+    assert!(!out.contains("OLD"), "the hidden sheet was read:\n{out}");
+    assert!(
+        out.contains("sheet 'Data' was read (the active sheet); the workbook's sheets are 'Old' (hidden), 'Data'; choose another with --sheet"),
+        "{out}"
+    );
+}
+
+#[test]
+fn data_text_never_reaches_the_terminal_raw() {
+    // ESC ] 0 ; X BEL sets a terminal's title; a NUL in a name; a
+    // right-to-left override (U+202E) that reverses what follows on screen.
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from(
+        "product,month,consumed\nORS,2024-01,5\nORS,2024-02,\u{1b}]0;X\u{7}\nOR\0S,2024-03,5\n",
+    );
+    for m in 1..=12 {
+        input.push_str(&format!("\u{202e}LOOC,2024-{m:02},{}\n", 10 + m));
+    }
+    std::fs::write(dir.path().join("e.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "e.csv"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(0), "{out}");
+    for bad in ['\u{1b}', '\u{7}', '\0', '\u{202e}'] {
+        assert!(!out.contains(bad), "{bad:?} printed raw:\n{out:?}");
+    }
+    // Shown visibly instead, so the user can find and fix them.
+    assert!(out.contains("\"<U+001B>]0;X<U+0007>\""), "{out}");
+    assert!(out.contains("<U+202E>LOOC"), "{out}");
+    // The NUL is refused with its line and column, not made a product.
+    assert!(
+        out.contains(
+            "e.csv:4: column 'product': product holds the control character U+0000 at character 3"
+        ),
+        "{out}"
+    );
+    assert!(
+        out.contains("rows read: 15 = 13 used as reported + 0 adjusted + 2 rejected"),
+        "{out}"
+    );
+}
+
+/// Runs the binary and kills it if it has not finished within `secs`.
+fn run_with_deadline(mut c: std::process::Command, secs: u64) -> Option<std::process::Output> {
+    let mut child = c
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let start = Instant::now();
+    while start.elapsed() < Duration::from_secs(secs) {
+        if child.try_wait().unwrap().is_some() {
+            return Some(child.wait_with_output().unwrap());
+        }
+        std::thread::sleep(Duration::from_millis(50));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    None
+}
+
+const WITH_DUPLICATES: &str =
+    "product,month,consumed\nORS,2024-01,5\nORS,2024-01,6\nORS,2024-02,7\n";
+
+#[test]
+fn a_named_pipe_or_standard_input_is_read_once() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("in.csv");
+    let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+    if made.map_or(true, |s| !s.success()) {
+        eprintln!("SKIPPED: mkfifo not available");
+        return;
+    }
+    // The writer opens the pipe once and writes the file once; a reader
+    // that opened it again to reread the duplicate rows would wait forever.
+    let writer = {
+        let fifo = fifo.clone();
+        std::thread::spawn(move || std::fs::write(&fifo, WITH_DUPLICATES))
+    };
+    let mut c = command(dir.path());
+    c.args(["clean", "in.csv", "--out", "o"]);
+    let o = run_with_deadline(c, 60).expect("clean on a named pipe hung");
+    writer.join().unwrap().unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let (_, rejected) = read_csv_file(&dir.path().join("o/rejected.csv"));
+    assert_eq!(rejected.len(), 2, "both conflicting rows rejected");
+    // Each rejected row keeps its text (the last field of rejected.csv).
+    for r in &rejected {
+        assert!(r.iter().any(|f| f.starts_with("ORS,2024-01,")), "{r:?}");
+    }
+
+    // Standard input: the same, and the rejected rows keep their text.
+    let mut c = command(dir.path());
+    c.args(["clean", "/dev/stdin", "--out", "s"])
+        .stdin(std::process::Stdio::piped());
+    let mut child = c
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    {
+        use std::io::Write;
+        let mut stdin = child.stdin.take().unwrap();
+        stdin.write_all(WITH_DUPLICATES.as_bytes()).unwrap();
+    }
+    let o = child.wait_with_output().unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let (_, rejected) = read_csv_file(&dir.path().join("s/rejected.csv"));
+    assert_eq!(rejected.len(), 2);
+    for r in &rejected {
+        assert!(r.iter().any(|f| f.starts_with("ORS,2024-01,")), "{r:?}");
+    }
+}
+
+#[test]
+fn a_file_growing_while_it_is_read_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("in.csv");
+    let mut body = String::from("product,month,consumed\n");
+    for p in 0..20_000 {
+        for m in 1..=12 {
+            body.push_str(&format!("P{p},2024-{m:02},{}\n", m + p % 7));
+        }
+    }
+    std::fs::write(&path, &body).unwrap();
+    // Another program appends to the file all the time the run reads it.
+    let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let appender = {
+        let (path, stop) = (path.clone(), stop.clone());
+        std::thread::spawn(move || {
+            use std::io::Write;
+            let mut f = std::fs::OpenOptions::new()
+                .append(true)
+                .open(&path)
+                .unwrap();
+            let mut n = 0u64;
+            while !stop.load(std::sync::atomic::Ordering::Relaxed) {
+                writeln!(f, "Q{n},2024-01,1").unwrap();
+                n += 1;
+                std::thread::sleep(Duration::from_micros(200));
+            }
+        })
+    };
+    let o = run_in(dir.path(), &["inspect", "in.csv"]);
+    stop.store(true, std::sync::atomic::Ordering::Relaxed);
+    appender.join().unwrap();
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("in.csv: the file changed while it was read"),
+        "{out}"
+    );
+}
+
+#[test]
+fn too_many_products_for_a_sheet_are_refused_before_the_work_naming_no_workbook() {
+    // 210,000 products × 5 rows + 3 > 1,048,576 rows, the sheet limit of
+    // Office Open XML (common practice).
+    let dir = tempfile::tempdir().unwrap();
+    let mut body = String::from("product,month,consumed\n");
+    for p in 0..210_000 {
+        body.push_str(&format!("P{p},2024-01,5\n"));
+    }
+    std::fs::write(dir.path().join("many.csv"), body).unwrap();
+    let t = Instant::now();
+    let o = run_in(
+        dir.path(),
+        &["forecast", "many.csv", "--out", "o", "--no-report"],
+    );
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("the data has 210000 products: the Forecast sheet of forecast.xlsx would need 1050003 rows, more than the 1048576 a spreadsheet holds; give --no-workbook"),
+        "{out}"
+    );
+    assert!(
+        !dir.path().join("o/forecast.csv").exists(),
+        "refused before writing"
+    );
+    eprintln!("refused after {:.1} s", t.elapsed().as_secs_f64());
+}
+
+#[test]
+fn output_folder_leftovers_links_and_inputs_are_handled() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    std::fs::write(
+        d.join("in.csv"),
+        "product,month,consumed\nORS,2024-01,5\nORS,2024-02,6\n",
+    )
+    .unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+
+    // A temporary file a killed run left in a subfolder is removed by the next run.
+    std::fs::create_dir_all(d.join("o/charts")).unwrap();
+    std::fs::write(d.join("o/charts/.provisio-4242-0.tmp"), "half a chart").unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(!d.join("o/charts/.provisio-4242-0.tmp").exists());
+
+    // A symbolic link to a folder elsewhere is refused, not followed.
+    std::fs::remove_dir_all(d.join("o/charts")).unwrap();
+    std::fs::create_dir(d.join("elsewhere")).unwrap();
+    std::os::unix::fs::symlink(d.join("elsewhere"), d.join("o/charts")).unwrap();
+    let o = run_in(d, &["clean", "in.csv", "--out", "o"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("'charts' in the output folder is a symbolic link to a folder"),
+        "{out}"
+    );
+    assert_eq!(std::fs::read_dir(d.join("elsewhere")).unwrap().count(), 0);
+    std::fs::remove_file(d.join("o/charts")).unwrap();
+
+    // An input that sits in the output folder under an output's name is
+    // never replaced, even with --overwrite.
+    let before = std::fs::read(d.join("o/cleaned.csv")).unwrap();
+    let o = run_in(d, &["clean", "o/cleaned.csv", "--out", "o", "--overwrite"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("the input file o/cleaned.csv is in the output folder"),
+        "{out}"
+    );
+    assert_eq!(std::fs::read(d.join("o/cleaned.csv")).unwrap(), before);
+}
+
+#[test]
+fn shared_strings_past_their_share_of_the_limit_are_refused() {
+    // rust_xlsxwriter stores text cells as shared strings: 10,000 distinct
+    // names make a shared-strings part of about 380 KB, past 1/16 of a 4 MiB
+    // limit, while the whole workbook stays under 4 MiB.
+    let dir = tempfile::tempdir().unwrap();
+    let mut book = rust_xlsxwriter::Workbook::new();
+    let ws = book.add_worksheet();
+    for (c, h) in ["product", "month", "consumed"].iter().enumerate() {
+        ws.write_string(0, c as u16, *h).unwrap();
+    }
+    for r in 1..=10_000u32 {
+        ws.write_string(r, 0, format!("product number {r:08}"))
+            .unwrap();
+        ws.write_string(r, 1, "2024-01").unwrap();
+        ws.write_number(r, 2, 5.0).unwrap();
+    }
+    book.save(dir.path().join("s.xlsx")).unwrap();
+    let w = |env: &[(&str, &str)]| {
+        let mut c = command(dir.path());
+        c.args(["inspect", "s.xlsx"]);
+        for (k, v) in env {
+            c.env(k, v);
+        }
+        c.output().unwrap()
+    };
+    let o = w(&[("PROVISIO_MAX_UNPACKED_MIB", "4")]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("s.xlsx: the workbook's shared strings (its part xl/sharedStrings.xml) unpack to more than 256 KiB"),
+        "{out}"
+    );
+    let o = w(&[]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+}
+
+#[test]
+fn a_cut_short_workbook_is_called_damaged_not_a_misnamed_csv() {
+    let dir = tempfile::tempdir().unwrap();
+    let whole = std::fs::read(common::repo("tests/data/bad/hidden_first_sheet.xlsx")).unwrap();
+    std::fs::write(dir.path().join("cut.xlsx"), &whole[..whole.len() / 2]).unwrap();
+    let o = run_in(dir.path(), &["inspect", "cut.xlsx"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("cut.xlsx: the workbook is damaged or cut short"),
+        "{out}"
+    );
+    assert!(!out.contains("name it .csv"), "{out}");
+}

@@ -33,6 +33,7 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
     }
     let (config_file, config_sha256) = super::forecast::LoadedConfig::manifest(config.as_ref());
     let out = output::OutputDir::check(&a.out, a.overwrite)?;
+    out.refuse_input_inside(&a.data)?;
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     out.prepare()?;
     let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;

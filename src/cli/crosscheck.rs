@@ -81,11 +81,9 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
                 .map(|c| format!(": column '{c}'"))
                 .unwrap_or_default();
             eprintln!(
-                "{} {}:{}{col}: {}",
+                "{} {}",
                 super::prefix("rejected", 33),
-                d.source,
-                r.line,
-                r.reason
+                super::terminal_text(&format!("{}:{}{col}: {}", d.source, r.line, r.reason))
             );
         }
         if d.rejected.len() > 5 {

@@ -29,6 +29,9 @@ pub struct EvaluateArgs {
     /// Also write the comparison as CSV.
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
+    /// Also write one row per product: the model selected, its MASE on the hidden months and the fixed combination's, and the warnings it carried.
+    #[arg(long, value_name = "FILE")]
+    per_product: Option<PathBuf>,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -254,6 +257,9 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             })).collect::<Vec<_>>(),
         })
     });
+    if let Some(path) = &a.per_product {
+        write_per_product(path, &results)?;
+    }
     if let Some(path) = &a.csv {
         output::write_atomic(path, |w| {
             let mut c = csv::Writer::from_writer(w);
@@ -454,4 +460,48 @@ fn print_warnings(warned: &[WarningTally], n: usize) {
             fmt3(w.others.mase())
         );
     }
+}
+
+/// One row per product: what was selected and how it did on the hidden
+/// months beside the fixed combination.
+fn write_per_product(
+    path: &std::path::Path,
+    results: &[provisio::pipeline::HoldoutResult],
+) -> anyhow::Result<()> {
+    let mase = |a: &[f64], f: &[f64], s: Option<f64>| {
+        s.and_then(|s| provisio::metrics::mase(a, f, s))
+            .map(|v| format!("{v:.4}"))
+            .unwrap_or_default()
+    };
+    output::write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(w);
+        let e = std::io::Error::other;
+        c.write_record([
+            "product",
+            "selected",
+            "selected_mase",
+            "combination_mase",
+            "warnings",
+        ])
+        .map_err(e)?;
+        for r in results {
+            let combo = r
+                .single
+                .iter()
+                .find(|(n, _)| n == provisio::backtest::COMBINATION)
+                .and_then(|(_, f)| f.as_ref())
+                .map(|f| mase(&r.actual, f, r.scale))
+                .unwrap_or_default();
+            c.write_record([
+                output::csv_text(&r.product).as_ref(),
+                r.selected.as_str(),
+                &mase(&r.actual, &r.selected_forecast, r.scale),
+                &combo,
+                &r.warnings.join(" | "),
+            ])
+            .map_err(e)?;
+        }
+        c.flush()
+    })?;
+    Ok(())
 }

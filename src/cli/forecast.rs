@@ -62,7 +62,7 @@ pub struct EvalArgs {
     #[arg(long, value_enum, default_value_t = ScoreArg::Mase)]
     select_by: ScoreArg,
     /// Relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins.
-    #[arg(long, default_value_t = 0.10, value_name = "SHARE")]
+    #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
     tie_margin: f64,
     /// Backtest forecasts written to backtest.csv and scores_by_horizon.csv: `chosen` model only, `compared` (chosen model, runner-up, combination) or `all` models.
     #[arg(long, value_enum, default_value_t = DetailArg::Chosen)]
@@ -457,6 +457,7 @@ fn run_eval(
     until: Option<YearMonth>,
     cfg: Option<&LoadedConfig>,
     given: &Given,
+    workbook: bool,
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
     let fs = with_silence(eval, horizon, silence_limit);
@@ -468,6 +469,11 @@ fn run_eval(
     let pinned: Vec<String> = pins.keys().cloned().collect();
     let options = product_options(cfg, pins, given.cli("pin"));
     let (ds, cleaned) = load_until(data, read, clean, until)?;
+    if workbook {
+        let products: std::collections::HashSet<&str> =
+            cleaned.series.iter().map(|s| s.product.as_ref()).collect();
+        provisio::output::check_workbook_fits(products.len()).map_err(anyhow::Error::msg)?;
+    }
     let known = |p: &str| cleaned.series.iter().any(|s| s.product == p);
     for p in &pinned {
         if !known(p) {
@@ -708,6 +714,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         )
     })?;
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
+    out.refuse_input_inside(&data)?;
     // The changes file is read before the long work, so a mistake in it
     // is said at once; its products and months are checked after.
     let changes = a
@@ -724,6 +731,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         a.until,
         config.as_ref(),
         given,
+        !a.no_workbook,
     )?;
     let applied = match &changes {
         Some(c) => Some(super::changes::apply(c, &results)?),
@@ -1030,6 +1038,9 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         Some(out) => Some(output::OutputDir::check(out, a.overwrite)?),
         None => None,
     };
+    if let Some(o) = &out_dir {
+        o.refuse_input_inside(&a.data)?;
+    }
     let (ds, cleaned, results, _, secs) = run_eval(
         &a.data,
         &a.read,
@@ -1039,6 +1050,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         None,
         config.as_ref(),
         given,
+        false,
     )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);

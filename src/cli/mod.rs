@@ -92,9 +92,14 @@ fn json_summary(value: impl FnOnce() -> serde_json::Value) {
 
 /// `println!` for the human summary: silent with --quiet or --json.
 macro_rules! say {
+    () => {
+        if $crate::cli::human() {
+            println!();
+        }
+    };
     ($($t:tt)*) => {
         if $crate::cli::human() {
-            println!($($t)*);
+            println!("{}", $crate::cli::terminal_text(&format!($($t)*)));
         }
     };
 }
@@ -102,7 +107,7 @@ macro_rules! say {
 macro_rules! note {
     ($($t:tt)*) => {
         if $crate::cli::chatty() {
-            eprintln!($($t)*);
+            eprintln!("{}", $crate::cli::terminal_text(&format!($($t)*)));
         }
     };
 }
@@ -136,7 +141,43 @@ fn prefix(word: &str, code: u8) -> String {
 
 /// Prints a warning on standard error (also with --quiet).
 fn warn(message: &str) {
-    eprintln!("{} {message}", prefix("warning", 33));
+    eprintln!("{} {}", prefix("warning", 33), terminal_text(message));
+}
+
+/// Whether a character is shown as `<U+XXXX>` on a terminal: control
+/// characters other than tab and line feed (ESC starts terminal commands,
+/// BEL rings, NUL and CR hide text), and the invisible format characters
+/// that reorder or hide text (bidirectional overrides and isolates,
+/// zero-width spaces and joiners, the byte-order mark).
+fn is_hidden_on_terminal(c: char) -> bool {
+    (c.is_control() && c != '\n' && c != '\t')
+        || matches!(
+            c,
+            '\u{061C}'
+                | '\u{200B}'..='\u{200F}'
+                | '\u{202A}'..='\u{202E}'
+                | '\u{2060}'..='\u{2069}'
+                | '\u{FEFF}'
+        )
+}
+
+/// The one sanitiser for text printed to a terminal: every message, table
+/// cell and warning that may hold data goes through it (`say!`, `note!`,
+/// `warn`, errors, rejected rows, table cells), so data can neither send
+/// terminal commands nor hide or reorder what is shown.
+pub(crate) fn terminal_text(s: &str) -> std::borrow::Cow<'_, str> {
+    if !s.chars().any(is_hidden_on_terminal) {
+        return std::borrow::Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 16);
+    for c in s.chars() {
+        if is_hidden_on_terminal(c) {
+            out.push_str(&format!("<U+{:04X}>", c as u32));
+        } else {
+            out.push(c);
+        }
+    }
+    std::borrow::Cow::Owned(out)
 }
 
 #[derive(Subcommand, Debug)]
@@ -300,8 +341,35 @@ impl ReadArgs {
             },
             latest_month: current_month(),
             sheet: self.sheet.clone(),
+            limits: sheet_limits(),
         }
     }
+}
+
+/// The workbook limits, raised by environment variables when a genuine
+/// workbook is larger than the defaults allow.
+fn sheet_limits() -> provisio::data::SheetLimits {
+    use provisio::data::SheetLimits;
+    let mut limits = SheetLimits::default();
+    let read = |var: &str| -> Option<u64> {
+        let v = std::env::var(var).ok()?;
+        match v.trim().parse::<u64>() {
+            Ok(n) if n > 0 => Some(n),
+            _ => {
+                warn(&format!(
+                    "{var}={v:?} is not a whole number above 0; the default limit is used"
+                ));
+                None
+            }
+        }
+    };
+    if let Some(n) = read(SheetLimits::CELLS_VAR) {
+        limits.max_cells = usize::try_from(n).unwrap_or(usize::MAX);
+    }
+    if let Some(n) = read(SheetLimits::UNPACKED_VAR) {
+        limits.max_unpacked_bytes = n.saturating_mul(1 << 20);
+    }
+    limits
 }
 
 /// The current calendar month (UTC): rows for later months are refused.
@@ -461,7 +529,7 @@ pub fn run() -> i32 {
             code
         }
         Err(e) => {
-            eprintln!("{} {}", prefix("error", 31), error_text(&e));
+            eprintln!("{} {}", prefix("error", 31), terminal_text(&error_text(&e)));
             EXIT_REFUSED
         }
     }
@@ -578,10 +646,9 @@ fn print_accounting(
     }
     for rej in ds.rejected.iter().take(quiet_rows) {
         eprintln!(
-            "{} {}: {}",
+            "{} {}",
             prefix("rejected", 33),
-            ds.place(rej),
-            rej.reason
+            terminal_text(&format!("{}: {}", ds.place(rej), rej.reason))
         );
     }
     if ds.rejected.len() > quiet_rows {
@@ -635,10 +702,11 @@ fn name_width<S: AsRef<str>>(names: impl IntoIterator<Item = S>) -> usize {
         .clamp(7, 40)
 }
 
-/// Text for a terminal table cell: control characters shown as spaces,
+/// Text for a terminal table cell: hidden characters made visible
+/// ([`terminal_text`]), tabs and line breaks shown as spaces,
 /// cut to `n` characters with an ellipsis.
 fn truncate(s: &str, n: usize) -> String {
-    provisio::chart::cut(s, n)
+    provisio::chart::cut(&terminal_text(s), n)
 }
 
 /// Pads text with spaces to `n` characters.

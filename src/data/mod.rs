@@ -10,7 +10,9 @@ mod text;
 mod values;
 
 pub(crate) use read::{missing_columns_message, normalise_name};
-pub use read::{read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, MAX_QUANTITY};
+pub use read::{
+    read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, SheetLimits, MAX_QUANTITY,
+};
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
 pub use sheet::{
     column_letter, is_workbook, read_bytes, read_path, read_sheet_bytes, WORKBOOK_EXTENSIONS,

@@ -3,7 +3,7 @@
 //! names are shared between rows), so memory grows with the number of rows
 //! but not with the size of the file's text.
 
-use std::collections::{BTreeSet, HashMap, HashSet};
+use std::collections::{BTreeMap, BTreeSet, HashMap, HashSet};
 use std::io::Read;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -41,6 +41,40 @@ pub struct ReadOptions {
     /// Sheet to read from a workbook (`None`: the first sheet). Refused
     /// for a CSV file.
     pub sheet: Option<String>,
+    /// How much of a workbook may be unpacked and stored.
+    pub limits: SheetLimits,
+}
+
+/// Limits on what a workbook may cost to read. A workbook is compressed:
+/// a file of a few megabytes can unpack to gigabytes, so reading stops at
+/// these limits with a message naming them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SheetLimits {
+    /// Most cells holding something that are kept from the sheet read.
+    pub max_cells: usize,
+    /// Most bytes the workbook's parts may unpack to, all together.
+    pub max_unpacked_bytes: u64,
+}
+
+impl SheetLimits {
+    /// Environment variable the command line reads to raise [`SheetLimits::max_cells`].
+    pub const CELLS_VAR: &'static str = "PROVISIO_MAX_SHEET_CELLS";
+    /// Environment variable the command line reads to raise
+    /// [`SheetLimits::max_unpacked_bytes`] (in MiB).
+    pub const UNPACKED_VAR: &'static str = "PROVISIO_MAX_UNPACKED_MIB";
+}
+
+impl Default for SheetLimits {
+    /// 2,000,000 cells (400,000 rows of five columns; about 150 MB kept at
+    /// most) and 512 MiB unpacked:
+    /// well above a national monthly dataset, well below the memory of a
+    /// laptop.
+    fn default() -> Self {
+        SheetLimits {
+            max_cells: 2_000_000,
+            max_unpacked_bytes: 512 << 20,
+        }
+    }
 }
 
 /// Largest quantity accepted in one row. Far above any real monthly
@@ -75,6 +109,7 @@ impl ReadOptions {
                 YearMonth::new(2024, 6)
             },
             sheet: None,
+            limits: SheetLimits::default(),
         }
     }
 }
@@ -85,8 +120,41 @@ const OPTIONAL: [&str; 3] = ["stockout_days", "reporting_rate", "site"];
 /// Reads an input file from disk, streaming, and hashes it on the way.
 /// See [`read_csv_bytes`] for what is checked.
 pub fn read_csv_path(path: &Path, options: &ReadOptions) -> Result<Dataset> {
+    let source = path.display().to_string();
+    let io_err = |source: std::io::Error| Error::Io {
+        path: path.to_path_buf(),
+        action: "cannot read input",
+        source,
+    };
+    let before = std::fs::metadata(path).map_err(io_err)?;
+    if !before.is_file() {
+        // A named pipe, standard input or a device can be read only once:
+        // read it whole, then work from the bytes (rejected rows are read
+        // again from them, not from the pipe).
+        let mut bytes = Vec::new();
+        std::fs::File::open(path)
+            .and_then(|mut f| f.read_to_end(&mut bytes))
+            .map_err(io_err)?;
+        return read_csv_bytes(&source, &bytes, options);
+    }
     let open = || -> std::io::Result<Box<dyn Read>> { Ok(Box::new(std::fs::File::open(path)?)) };
-    read_from(&path.display().to_string(), path, &open, options)
+    let ds = read_from(&source, path, &open, options)?;
+    // A file written or cut while it was read gives rows of neither
+    // version and a hash of neither: refuse it rather than forecast from it.
+    let after = std::fs::metadata(path).map_err(io_err)?;
+    if after.len() != before.len() || after.modified().ok() != before.modified().ok() {
+        return Err(Error::Input {
+            file: source,
+            line: 0,
+            column: None,
+            message: format!(
+                "the file changed while it was read ({} bytes before, {} after); run again once the program writing it has finished",
+                before.len(),
+                after.len()
+            ),
+        });
+    }
+    Ok(ds)
 }
 
 /// Reads the long CSV contract from bytes. `source` names the file in
@@ -173,14 +241,42 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
         ));
     };
     let header_names: Vec<&str> = records.fields().iter().collect();
-    let (mut columns, extra_columns) =
-        map_header(&header_names).map_err(|m| input_err(header_line, None, m))?;
+    let (mut columns, extra_columns) = map_header(&header_names).map_err(|m| {
+        // One column whose name holds another separator: the file is
+        // delimited by a character provisio does not read, and renaming
+        // the header would not help.
+        let other = match header_names.as_slice() {
+            [only] => ['|', '^', '~', ':'].into_iter().find(|c| only.contains(*c)),
+            _ => None,
+        };
+        match other {
+            Some(c) => input_err(
+                header_line,
+                None,
+                format!(
+                    "the header is one column holding '{c}' between names: the file seems to be delimited by '{c}', and provisio reads commas, semicolons and tabs; save it as CSV with commas"
+                ),
+            ),
+            None => input_err(header_line, None, m),
+        }
+    })?;
     columns.delimiter = delimiter;
 
     let mut rows = Collector::new(options, "line");
     while let Some(line) = records.next_record().map_err(text_err)? {
         let fields = records.fields();
-        match csv_row_problem(line, &fields, &columns) {
+        let problem = csv_row_problem(line, &fields, &columns);
+        if problem.is_none() && records.open_quote {
+            rows.reject(
+                line,
+                None,
+                String::new(),
+                "a quote (\") opened on this line is never closed before the end of the file, so the rest of the file would be one value; close the quote, or remove it".to_string(),
+                fields.joined(delimiter),
+            );
+            continue;
+        }
+        match problem {
             Some(reason) => {
                 rows.reject(line, None, String::new(), reason, fields.joined(delimiter))
             }
@@ -264,6 +360,10 @@ pub(crate) trait RowCells {
     fn width(&self) -> usize;
     /// Value `i` (`Cell::Empty` past the end).
     fn cell(&self, i: usize) -> Cell<'_>;
+    /// Whether every value is blank.
+    fn is_blank(&self) -> bool {
+        (0..self.width()).all(|i| self.cell(i).is_blank())
+    }
 }
 
 impl RowCells for Fields<'_> {
@@ -296,7 +396,6 @@ pub(crate) struct Collector<'o> {
     /// fraction, or as a percentage when any plain value in the column
     /// exceeds 1, which is known only at the end.
     plain_rate: Vec<usize>,
-    rate_above_one: bool,
     rejected: Vec<RejectedRow>,
     rows_read: usize,
 }
@@ -309,7 +408,6 @@ impl<'o> Collector<'o> {
             names: Interned::default(),
             rows: Vec::new(),
             plain_rate: Vec::new(),
-            rate_above_one: false,
             rejected: Vec::new(),
             rows_read: 0,
         }
@@ -343,11 +441,6 @@ impl<'o> Collector<'o> {
         raw: impl FnOnce() -> String,
     ) {
         self.rows_read += 1;
-        if let Some(c) = columns.reporting_rate {
-            if plain_rate_above_one(cells.cell(c), self.options.numbers) {
-                self.rate_above_one = true;
-            }
-        }
         match parse_row(line, cells, columns, self.options, &mut self.names) {
             Ok((row, plain)) => {
                 if plain {
@@ -379,20 +472,14 @@ impl<'o> Collector<'o> {
             unit,
             rows,
             plain_rate,
-            rate_above_one,
             mut rejected,
             rows_read,
             options,
             ..
         } = self;
-        let mut rows = rows;
-        if rate_above_one {
-            for &i in &plain_rate {
-                if let Some(r) = rows[i].reporting_rate.as_mut() {
-                    *r /= 100.0;
-                }
-            }
-        }
+        let mut warnings = Vec::new();
+        let (mut rows, percent) =
+            settle_rate_scale(rows, &plain_rate, unit, &mut rejected, &mut warnings);
         drop(plain_rate);
         rows.shrink_to_fit();
 
@@ -417,13 +504,6 @@ impl<'o> Collector<'o> {
         rejected.sort_by_key(|r| r.line);
         merged.sort_by_key(|m| m.line);
 
-        let mut warnings = Vec::new();
-        if rate_above_one {
-            warnings.push(
-                "reporting_rate has values above 1, so plain numbers in that column are read as percentages (80 = 80%)"
-                    .to_string(),
-            );
-        }
         if !layout.extra_columns.is_empty() {
             warnings.push(format!(
                 "extra columns kept in the file but not used: {}",
@@ -455,7 +535,7 @@ impl<'o> Collector<'o> {
                 format!("no usable rows: all {rows_read} data rows were rejected{first}"),
             ));
         }
-        layout.reporting_rate_as_percent = rate_above_one;
+        layout.reporting_rate_as_percent = percent;
         Ok(Dataset {
             source: source.to_string(),
             input_sha256,
@@ -469,17 +549,120 @@ impl<'o> Collector<'o> {
     }
 }
 
-/// Whether a reporting rate written without a % sign exceeds 1 (so the
-/// column is in percent).
-fn plain_rate_above_one(cell: Cell<'_>, numbers: NumberFormat) -> bool {
-    match cell {
-        Cell::Number(x) => x > 1.0,
-        Cell::Text(t) => {
-            let v = t.trim();
-            !v.ends_with('%') && parse_number(v, numbers).is_ok_and(|x| x.is_some_and(|x| x > 1.0))
-        }
-        _ => false,
+/// Lines as a short list: the first ten, then how many more.
+fn some_lines(lines: &[u64]) -> String {
+    let mut out: Vec<String> = lines.iter().take(10).map(u64::to_string).collect();
+    if lines.len() > 10 {
+        out.push(format!("and {} more", lines.len() - 10));
     }
+    out.join(", ")
+}
+
+/// Settles, product by product, the scale of reporting rates written as
+/// plain numbers (no % sign): fractions (0.9) unless the product's plain
+/// rates are above 1 (90), then percentages. A product whose plain rates
+/// mix the two (0.9 and 95) is not reread either way: the rates of the
+/// smaller group are refused, naming the lines of both (on a tie, all of
+/// them), so one typing slip never rescales a column. A rate of 0 is 0 on
+/// either scale. Returns the rows kept and whether any product's plain
+/// rates were read as percentages.
+fn settle_rate_scale(
+    mut rows: Vec<InputRow>,
+    plain: &[usize],
+    unit: &str,
+    rejected: &mut Vec<RejectedRow>,
+    warnings: &mut Vec<String>,
+) -> (Vec<InputRow>, bool) {
+    // Per product: rows with a plain rate in (0, 1] and above 1.
+    let mut by_product: BTreeMap<Arc<str>, (Vec<usize>, Vec<usize>)> = BTreeMap::new();
+    for &i in plain {
+        let Some(r) = rows[i].reporting_rate else {
+            continue;
+        };
+        if r == 0.0 {
+            continue;
+        }
+        let e = by_product.entry(rows[i].product.clone()).or_default();
+        if r > 1.0 {
+            e.1.push(i);
+        } else {
+            e.0.push(i);
+        }
+    }
+    let mut refuse = vec![false; rows.len()];
+    let mut percent_products = Vec::new();
+    for (product, (fractions, percents)) in &by_product {
+        if percents.is_empty() {
+            continue;
+        }
+        let lines =
+            |ix: &[usize]| some_lines(&ix.iter().map(|&i| rows[i].line).collect::<Vec<_>>());
+        if !fractions.is_empty() {
+            let (f, p) = (lines(fractions), lines(percents));
+            let what = format!(
+                "the plain reporting rates of {product} mix fractions 0-1 ({unit}s {f}) and percentages above 1 ({unit}s {p})"
+            );
+            let bad: Vec<usize> = match fractions.len().cmp(&percents.len()) {
+                std::cmp::Ordering::Greater => percents.clone(),
+                std::cmp::Ordering::Less => fractions.clone(),
+                std::cmp::Ordering::Equal => fractions.iter().chain(percents).copied().collect(),
+            };
+            for &i in &bad {
+                refuse[i] = true;
+                let v = rows[i].reporting_rate.unwrap_or(0.0);
+                rejected.push(RejectedRow {
+                    line: rows[i].line,
+                    column: Some("reporting_rate".to_string()),
+                    value: format_number(v),
+                    reason: format!(
+                        "reporting_rate {}: {what}; the fewer are refused rather than rescaled: write a fraction (0.95) or a percentage with its sign (95%)",
+                        format_number(v)
+                    ),
+                    raw: String::new(),
+                });
+            }
+            warnings.push(format!(
+                "{what}: {} {unit}(s) refused, the others read as {}",
+                bad.len(),
+                match fractions.len().cmp(&percents.len()) {
+                    std::cmp::Ordering::Greater => "fractions",
+                    std::cmp::Ordering::Less => "percentages",
+                    std::cmp::Ordering::Equal => "neither (as many of each)",
+                }
+            ));
+            if fractions.len() >= percents.len() {
+                continue;
+            }
+        }
+        percent_products.push(product.to_string());
+    }
+    // Percent products: every plain rate of theirs, zeros included, is /100.
+    let percent_set: HashSet<&str> = percent_products.iter().map(String::as_str).collect();
+    for &i in plain {
+        if !refuse[i] && percent_set.contains(&*rows[i].product) {
+            if let Some(r) = rows[i].reporting_rate.as_mut() {
+                *r /= 100.0;
+            }
+        }
+    }
+    if !percent_products.is_empty() {
+        let mut names: Vec<String> = percent_products.iter().take(5).cloned().collect();
+        if percent_products.len() > 5 {
+            names.push(format!("and {} more", percent_products.len() - 5));
+        }
+        warnings.push(format!(
+            "reporting_rate: plain numbers are read as percentages (80 = 80%) for {}, whose plain rates are above 1; as fractions (0.8 = 80%) elsewhere",
+            names.join(", ")
+        ));
+    }
+    if refuse.iter().any(|&r| r) {
+        let mut k = 0;
+        rows.retain(|_| {
+            k += 1;
+            !refuse[k - 1]
+        });
+    }
+    (rows, !percent_products.is_empty())
 }
 
 /// Cleaning lays every site of a product on the product's whole calendar,
@@ -742,10 +925,33 @@ fn name_cell<'a>(
     if let Some(why) = cell_refusal(cell, "a name") {
         return Err(problem(col, &cell.shown(), why));
     }
-    Ok(match cell {
+    let text = match cell {
         Cell::Text(t) => std::borrow::Cow::Borrowed(t.trim()),
         other => std::borrow::Cow::Owned(other.shown()),
-    })
+    };
+    if let Some((at, c)) = text
+        .chars()
+        .enumerate()
+        .find(|(_, c)| is_refused_control(*c))
+    {
+        return Err(problem(
+            col,
+            &text,
+            format!(
+                "{col} holds the control character U+{:04X} at character {}; a name may hold any printable text, tabs and line breaks, but not control characters (they corrupt terminals and other programs): remove it",
+                c as u32,
+                at + 1
+            ),
+        ));
+    }
+    Ok(text)
+}
+
+/// A control character refused in names: C0 and C1 controls and DEL,
+/// except tab, line feed and carriage return (a quoted CSV name may hold
+/// them, and the outputs quote them).
+pub(crate) fn is_refused_control(c: char) -> bool {
+    c.is_control() && !matches!(c, '\t' | '\n' | '\r')
 }
 
 /// A quantity and its text as found: text is read in the declared number
@@ -792,7 +998,7 @@ fn parse_row(
     options: &ReadOptions,
     names: &mut Interned,
 ) -> std::result::Result<(InputRow, bool), RowProblem> {
-    if (0..rec.width()).all(|i| rec.cell(i).is_blank()) {
+    if rec.is_blank() {
         return Err((None, String::new(), "the row is empty".to_string()));
     }
     let problem =
@@ -894,6 +1100,13 @@ fn parse_row(
                         Some(n) => (n.trim(), true),
                         None => (t, false),
                     };
+                    if percent && num.is_empty() {
+                        return Err(problem(
+                            "reporting_rate",
+                            t,
+                            "reporting_rate is a % sign with no number; write the rate (85%), or leave the cell empty when it is not known".to_string(),
+                        ));
+                    }
                     let v = parse_number(num, options.numbers)
                         .map_err(|m| problem("reporting_rate", t, m))?;
                     (v, t.to_string(), percent)
@@ -1123,124 +1336,158 @@ mod tests {
             .unwrap();
         assert_eq!(d.rows[0].reporting_rate, Some(0.8));
         assert!((d.rows[1].reporting_rate.unwrap() - 0.9).abs() < 1e-12);
-        let d =
-            read("product,month,consumed,reporting_rate\nA,2024-01,5,80\nA,2024-02,5,1\n").unwrap();
+        let d = read(
+            "product,month,consumed,reporting_rate\nA,2024-01,5,80\nA,2024-02,,0\nB,2024-01,5,0.5\n",
+        )
+        .unwrap();
         assert!(d.layout.reporting_rate_as_percent);
         assert!((d.rows[0].reporting_rate.unwrap() - 0.8).abs() < 1e-12);
-        assert!((d.rows[1].reporting_rate.unwrap() - 0.01).abs() < 1e-12);
+        assert_eq!(d.rows[1].reporting_rate, Some(0.0));
+        // Another product's plain rates keep their own scale.
+        assert_eq!(d.rows[2].reporting_rate, Some(0.5));
     }
 
     #[test]
-    fn missing_column_is_fatal_and_named() {
-        let e = read("product,month,consumption\nA,2024-01,5\n")
-            .unwrap_err()
-            .to_string();
-        assert!(e.contains("t.csv:1"), "{e}");
-        assert!(e.contains("'consumed'"), "{e}");
-        assert!(e.contains("did you mean to name 'consumption'"), "{e}");
-    }
-
-    #[test]
-    fn bad_values_are_rejected_with_line_and_column() {
-        let d = read(
-            "product,month,consumed,stockout_days\nA,2024-01,5,0\nA,2024-02,x,0\nA,2024-13,5,0\nA,2024-03,-1,0\nA,2023-02,5,29\nA,2024-04,inf,0\n",
-        )
-        .unwrap();
-        assert_eq!(d.rows.len(), 1);
-        let lines: Vec<u64> = d.rejected.iter().map(|r| r.line).collect();
-        assert_eq!(lines, vec![3, 4, 5, 6, 7]);
-        assert_eq!(d.rejected[0].column.as_deref(), Some("consumed"));
-        assert_eq!(d.rejected[1].column.as_deref(), Some("month"));
-        assert!(
-            d.rejected[3].reason.contains("outside 0-28"),
-            "{}",
-            d.rejected[3].reason
+    fn one_rate_on_the_other_scale_is_refused_not_used_to_rescale_the_product() {
+        // 36 months at 0.9 and one 95: the 95 is refused with the lines of
+        // both groups; the 0.9s stay 0.9 (issue 20, item 3).
+        let mut text = String::from("product,month,consumed,reporting_rate\n");
+        for m in 0..36 {
+            let rate = if m == 20 { "95" } else { "0.9" };
+            text.push_str(&format!(
+                "ORS,{}-{:02},100,{rate}\n",
+                2021 + m / 12,
+                m % 12 + 1
+            ));
+        }
+        text.push_str("ZINC,2021-01,5,95\nZINC,2021-02,5,80\n");
+        let d = read(&text).unwrap();
+        assert_eq!(d.rejected.len(), 1);
+        let r = &d.rejected[0];
+        assert_eq!(
+            (r.line, r.column.as_deref(), r.value.as_str()),
+            (22, Some("reporting_rate"), "95")
         );
+        assert!(r.reason.contains("mix fractions 0-1 (lines 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, and 25 more) and percentages above 1 (lines 22)"), "{}", r.reason);
+        assert!(r.raw.contains("ORS,2022-09,100,95"), "{}", r.raw);
+        let ors: Vec<f64> = d
+            .rows
+            .iter()
+            .filter(|r| &*r.product == "ORS")
+            .filter_map(|r| r.reporting_rate)
+            .collect();
+        assert_eq!(ors.len(), 35);
+        assert!(ors.iter().all(|&r| r == 0.9));
+        // ZINC's plain rates are all above 1: percentages.
+        let zinc: Vec<f64> = d
+            .rows
+            .iter()
+            .filter(|r| &*r.product == "ZINC")
+            .filter_map(|r| r.reporting_rate)
+            .collect();
+        assert!((zinc[0] - 0.95).abs() < 1e-12 && (zinc[1] - 0.8).abs() < 1e-12);
+        assert!(
+            d.warnings.iter().any(|w| w.contains("for ZINC")),
+            "{:?}",
+            d.warnings
+        );
+        // One 1.5 among 0.9s: the 1.5 row is refused, naming the column.
+        let d = read("product,month,consumed,reporting_rate\nA,2024-01,5,0.9\nA,2024-02,5,1.5\nA,2024-03,5,0.9\n").unwrap();
+        assert_eq!(d.rejected.len(), 1);
+        assert_eq!(d.rejected[0].line, 3);
+        assert!(d.rejected[0].reason.starts_with("reporting_rate 1.5: "));
+        // Two above 1 against one fraction: the fraction is refused.
+        let d = read("product,month,consumed,reporting_rate\nA,2024-01,5,0.9\nA,2024-02,5,90\nA,2024-03,5,5\n").unwrap();
+        assert_eq!(d.rejected.iter().map(|r| r.line).collect::<Vec<_>>(), [2]);
+        assert!((d.rows[0].reporting_rate.unwrap() - 0.9).abs() < 1e-12);
+        assert!((d.rows[1].reporting_rate.unwrap() - 0.05).abs() < 1e-12);
+        // As many of each: neither scale is guessed, both are refused.
+        let d = read("product,month,consumed,reporting_rate\nA,2024-01,5,0.9\nA,2024-02,5,90\nA,2024-03,5,\n").unwrap();
+        assert_eq!(
+            d.rejected.iter().map(|r| r.line).collect::<Vec<_>>(),
+            [2, 3]
+        );
+        assert!(!d.layout.reporting_rate_as_percent);
     }
 
     #[test]
-    fn duplicates_rejected_or_summed() {
-        let text = "product,month,consumed\nA,2024-01,5\nA,2024-01,7\nA,2024-02,3\nA,2024-02,3\n";
-        let d = read(text).unwrap();
-        assert_eq!(d.rows.len(), 1); // only 2024-02 first copy
-        assert_eq!(d.rejected.len(), 3);
-        assert_eq!(d.rows_accepted() + d.rejected.len(), d.rows_read);
-        let d = read_csv_bytes(
-            "t.csv",
-            text.as_bytes(),
-            &ReadOptions {
-                duplicates: DuplicatePolicy::Sum,
-                ..ReadOptions::default()
-            },
-        )
-        .unwrap();
-        assert_eq!(d.rows[0].consumed, Some(12.0));
-        assert_eq!(d.rows[1].consumed, Some(6.0));
-        assert_eq!(d.merged.len(), 2);
-        assert_eq!(d.rows_accepted() + d.rejected.len(), d.rows_read);
+    fn control_characters_in_names_are_refused_with_line_and_column() {
+        // A NUL inside a product name (issue 20, item 5) and an ESC in a site.
+        let d = read("product,month,consumed,site\nOR\0S,2024-01,5,A\nORS,2024-02,5,B\u{1b}]0;X\u{7}\nORS,2024-03,5,A\n").unwrap();
+        assert_eq!(d.rows.len(), 1);
+        let r = &d.rejected;
+        assert_eq!((r[0].line, r[0].column.as_deref()), (2, Some("product")));
+        assert!(
+            r[0].reason
+                .contains("control character U+0000 at character 3"),
+            "{}",
+            r[0].reason
+        );
+        assert_eq!((r[1].line, r[1].column.as_deref()), (3, Some("site")));
+        assert!(
+            r[1].reason.contains("U+001B at character 2"),
+            "{}",
+            r[1].reason
+        );
+        // Tabs and line breaks stay allowed in quoted names.
+        let d = read("product,month,consumed\n\"a\tb\nc\",2024-01,5\n").unwrap();
+        assert_eq!(&*d.rows[0].product, "a\tb\nc");
     }
 
     #[test]
-    fn not_utf8_names_line() {
-        let mut bytes = b"product,month,consumed\nA,2024-01,5\n".to_vec();
-        bytes.extend_from_slice(b"Caf\xE9,2024-01,5\n");
-        let e = read_csv_bytes("t.csv", &bytes, &ReadOptions::default())
+    fn a_quote_left_open_on_the_last_line_rejects_that_row() {
+        for text in [
+            "product,month,consumed\nA,2024-01,5\nA,\"2024-02,6\n",
+            "product,month,consumed\nA,2024-01,5\nA,\"2024-02,6",
+        ] {
+            let d = read(text).unwrap();
+            assert_eq!(d.rows.len(), 1, "{text:?}");
+            assert_eq!(d.rejected.len(), 1, "{text:?}");
+            assert_eq!(d.rejected[0].line, 3);
+            assert!(d.rejected[0]
+                .reason
+                .contains("never closed before the end of the file"));
+        }
+        // A closed quote on the last line, with or without a line end, is fine.
+        for text in [
+            "product,month,consumed\nA,2024-01,5\n\"A\",2024-02,6\n",
+            "product,month,consumed\nA,2024-01,5\n\"A \"\"x\"\"\",2024-02,6",
+        ] {
+            let d = read(text).unwrap();
+            assert_eq!((d.rows.len(), d.rejected.len()), (2, 0), "{text:?}");
+        }
+    }
+
+    #[test]
+    fn a_pipe_delimited_file_is_told_its_delimiter_not_to_rename_its_header() {
+        let e = read("product|month|consumed\nA|2024-01|5\n")
             .unwrap_err()
             .to_string();
-        assert!(e.contains("t.csv:3"), "{e}");
-        assert!(e.contains("not UTF-8"), "{e}");
+        assert!(e.contains("delimited by '|'"), "{e}");
     }
 
     #[test]
-    fn empty_and_header_only() {
-        assert!(read("").unwrap_err().to_string().contains("empty"));
-        assert!(read("product,month,consumed\n")
-            .unwrap_err()
-            .to_string()
-            .contains("no data rows"));
+    fn a_lone_percent_sign_is_refused_not_read_as_no_rate() {
+        let d = read(
+            "product,month,consumed,reporting_rate\nA,2024-01,5,%\nA,2024-02,5, % \nA,2024-03,5,\n",
+        )
+        .unwrap();
+        assert_eq!(
+            d.rejected.iter().map(|r| r.line).collect::<Vec<_>>(),
+            [2, 3]
+        );
+        assert!(d.rejected[0].reason.contains("a % sign with no number"));
+        assert_eq!(d.rows[0].reporting_rate, None);
     }
 
     #[test]
-    fn quoted_fields_with_delimiters_and_newlines() {
-        let d = read("product,month,consumed\n\"Tabs, 10 mg\nbox\",2024-01,5\n").unwrap();
-        assert_eq!(&*d.rows[0].product, "Tabs, 10 mg\nbox");
-    }
-
-    #[test]
-    fn duplicate_rows_keep_their_text_as_read() {
-        let d = read("product;month;consumed\nA;2024-01;5\nB;2024-01;1\r\nA;2024-01;7\n").unwrap();
-        let raws: Vec<(u64, &str)> = d
-            .rejected
-            .iter()
-            .map(|r| (r.line, r.raw.as_str()))
-            .collect();
-        assert_eq!(raws, vec![(2, "A;2024-01;5"), (4, "A;2024-01;7")]);
-        assert_eq!(d.rows.len(), 1);
-    }
-
-    #[test]
-    fn hash_is_of_the_file_bytes() {
-        let text = "\u{feff}product,month,consumed\nA,2024-01,5\n";
-        let d = read(text).unwrap();
-        assert_eq!(d.input_sha256, crate::output::sha256_hex(text.as_bytes()));
-    }
-
-    #[test]
-    fn crlf_lines_are_exact_in_rejections() {
-        let d = read("product,month,consumed\r\nA,2024-01,5\r\n\r\nA,2024-02,x\r\n").unwrap();
-        assert_eq!(d.rejected[0].line, 4);
-        assert_eq!(d.rows_read, 2);
-    }
-
-    #[test]
-    fn plain_rates_become_percentages_when_one_exceeds_1() {
-        // The 120 row is rejected, yet it still shows that the column is in
-        // percent, as before reading was streamed.
+    fn a_rate_above_100_is_refused_and_does_not_rescale_the_others() {
+        // 120 is refused on either scale; the 0.9 stays a fraction.
         let d = read("product,month,consumed,reporting_rate\nA,2024-01,5,0.9\nA,2024-02,5,120\nA,2024-03,5,90%\n")
             .unwrap();
-        assert!(d.layout.reporting_rate_as_percent);
+        assert!(!d.layout.reporting_rate_as_percent);
         assert_eq!(d.rejected.len(), 1);
-        assert!((d.rows[0].reporting_rate.unwrap() - 0.009).abs() < 1e-12);
+        assert_eq!(d.rows[0].reporting_rate, Some(0.9));
         assert!((d.rows[1].reporting_rate.unwrap() - 0.9).abs() < 1e-12);
     }
 

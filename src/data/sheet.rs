@@ -8,8 +8,11 @@ use std::collections::{BTreeSet, HashMap};
 use std::io::Cursor;
 use std::path::Path;
 
-use calamine::{Data, Range, Reader};
+use std::io::{Read, Seek};
 
+use calamine::{Data, Reader, Sheet, SheetType, SheetVisible, Sheets};
+
+use super::read::SheetLimits;
 use super::read::{map_header, Cell, Collector, RowCells, REQUIRED};
 use super::{read_csv_path, Dataset, Layout, ReadOptions, SheetInfo};
 use crate::error::{Error, Result};
@@ -141,58 +144,132 @@ fn cell(d: &Data) -> Cell<'_> {
     }
 }
 
+/// Formulas of a sheet by 0-based (row, column), only the non-empty ones.
+type Formulas = HashMap<(u32, u32), String>;
+
+/// One row of a sheet as stored: only the cells that hold something, by
+/// 0-based column, in column order. Memory follows the cells that exist,
+/// never the sheet's bounding box (one stray cell at XFD1048576 costs one
+/// cell, not a grid of 17 billion).
+struct StoredRow {
+    /// 0-based absolute row.
+    row: u32,
+    cells: Vec<(u32, Data)>,
+}
+
 /// One row of the sheet, with the formulas of its empty cells when known.
+#[derive(Clone, Copy)]
 struct SheetRow<'a> {
-    cells: &'a [Data],
-    formulas: Option<&'a Range<String>>,
-    /// 0-based absolute row and first column of the range.
+    cells: &'a [(u32, Data)],
+    formulas: Option<&'a Formulas>,
+    /// 0-based absolute row, and the first column of the sheet's data.
     row: u32,
     first_col: u32,
 }
 
 impl RowCells for SheetRow<'_> {
     fn width(&self) -> usize {
-        self.cells.len()
+        self.cells
+            .last()
+            .map_or(0, |(c, _)| (c - self.first_col) as usize + 1)
     }
     fn cell(&self, i: usize) -> Cell<'_> {
-        let Some(d) = self.cells.get(i) else {
+        let Some(col) = u32::try_from(i)
+            .ok()
+            .and_then(|i| self.first_col.checked_add(i))
+        else {
             return Cell::Empty;
         };
-        if let (true, Some(f)) = (is_empty(d), self.formulas) {
-            if let Some(text) = f.get_value((self.row, self.first_col + i as u32)) {
-                if !text.is_empty() {
-                    return Cell::Uncalculated(text);
-                }
+        let value = self
+            .cells
+            .binary_search_by_key(&col, |(c, _)| *c)
+            .ok()
+            .map(|k| &self.cells[k].1);
+        if value.map_or(true, is_empty) {
+            if let Some(text) = self.formulas.and_then(|f| f.get(&(self.row, col))) {
+                return Cell::Uncalculated(text);
             }
         }
-        cell(d)
+        value.map_or(Cell::Empty, cell)
+    }
+    fn is_blank(&self) -> bool {
+        SheetRow::is_blank(self)
     }
 }
 
 impl SheetRow<'_> {
+    /// Whether every cell that exists is blank (looking only at the cells
+    /// stored, so a far-away cell costs nothing).
     fn is_blank(&self) -> bool {
-        (0..self.width()).all(|i| match self.cell(i) {
-            Cell::Empty => true,
-            Cell::Text(t) => t.trim().is_empty(),
-            _ => false,
-        })
+        self.cells
+            .iter()
+            .all(|(c, _)| match self.cell((c - self.first_col) as usize) {
+                Cell::Empty => true,
+                Cell::Text(t) => t.trim().is_empty(),
+                _ => false,
+            })
     }
 
-    /// The row as read: the shown values, joined by tabs.
-    fn raw(&self) -> String {
-        let shown: Vec<String> = (0..self.width()).map(|i| self.cell(i).shown()).collect();
-        let end = shown
-            .iter()
-            .rposition(|s| !s.is_empty())
-            .map_or(0, |p| p + 1);
-        shown[..end].join("\t")
+    /// The row as read: the shown values, joined by tabs, up to `width`
+    /// columns (the header's); a cell beyond them is added as
+    /// `LETTER=value`, so a stray far cell does not become thousands of tabs.
+    fn raw(&self, width: usize) -> String {
+        let mut out = String::new();
+        let mut at = 0usize;
+        for (c, _) in self.cells {
+            let i = (c - self.first_col) as usize;
+            let shown = self.cell(i).shown();
+            if shown.is_empty() {
+                continue;
+            }
+            if i < width {
+                while at < i {
+                    out.push('\t');
+                    at += 1;
+                }
+                out.push_str(&shown);
+            } else {
+                if !out.is_empty() || at > 0 {
+                    out.push('\t');
+                }
+                out.push_str(&column_letter(*c));
+                out.push('=');
+                out.push_str(&shown);
+                at = width;
+            }
+        }
+        out
     }
 }
 
 /// Reads the input contract from a sheet of a workbook given as bytes
-/// (the first sheet unless `options.sheet` names one). The manifest's hash
-/// is of the workbook's bytes.
+/// (the active sheet, or the first visible one, unless `options.sheet`
+/// names one). The manifest's hash is of the workbook's bytes.
 pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
+    // calamine panics on some damaged files (a cut-short .xls, found by
+    // tests/hostile_props.rs): such a file is refused like any other.
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        read_sheet_unguarded(source, bytes, options)
+    }))
+    .unwrap_or_else(|panic| {
+        let why = panic
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| panic.downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        Err(Error::Sheet {
+            file: source.to_string(),
+            sheet: None,
+            row: 0,
+            column: None,
+            message: format!(
+                "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+            ),
+        })
+    })
+}
+
+fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
     let file_err =
         |sheet: Option<&str>, row: u64, column: Option<String>, message: String| Error::Sheet {
             file: source.to_string(),
@@ -201,26 +278,39 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             column,
             message,
         };
+    let active = check_unpacked(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
     let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| {
+        // A zip or an old-style workbook that fails to open is damaged or
+        // cut short; only other bytes may be a CSV with the wrong name.
+        let workbook_bytes = bytes.starts_with(b"PK") || bytes.starts_with(b"\xD0\xCF\x11\xE0");
         file_err(
             None,
             0,
             None,
-            format!(
-                "cannot be read as a workbook ({e}); provisio reads .xlsx, .xlsm, .xls and .ods workbooks by their extension, and other files as CSV: if this is a CSV file, name it .csv"
-            ),
+            if workbook_bytes {
+                format!(
+                    "the workbook is damaged or cut short ({e}); open it in a spreadsheet program and save it again, or copy it again from where it came"
+                )
+            } else {
+                format!(
+                    "cannot be read as a workbook ({e}); provisio reads .xlsx, .xlsm, .xls and .ods workbooks by their extension, and other files as CSV: if this is a CSV file, name it .csv"
+                )
+            },
         )
     })?;
     let sheets = book.sheet_names();
+    let meta = book.sheets_metadata().to_vec();
     let listed = || {
-        sheets
-            .iter()
-            .map(|s| format!("'{s}'"))
+        meta.iter()
+            .map(|s| match s.visible {
+                SheetVisible::Visible => format!("'{}'", s.name),
+                _ => format!("'{}' (hidden)", s.name),
+            })
             .collect::<Vec<_>>()
             .join(", ")
     };
-    let name = match &options.sheet {
-        None => sheets.first().cloned().ok_or_else(|| {
+    let (name, why) = match &options.sheet {
+        None => default_sheet(&meta, active).ok_or_else(|| {
             file_err(None, 0, None, "the workbook has no sheets".to_string())
         })?,
         Some(wanted) => sheets
@@ -228,6 +318,7 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             .find(|s| *s == wanted)
             .or_else(|| sheets.iter().find(|s| s.eq_ignore_ascii_case(wanted)))
             .cloned()
+            .map(|n| (n, "named by --sheet"))
             .ok_or_else(|| {
                 file_err(
                     None,
@@ -243,9 +334,8 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
     let sheet_err = |row: u64, column: Option<String>, message: String| {
         file_err(Some(&name), row, column, message)
     };
-    let range = book
-        .worksheet_range(&name)
-        .map_err(|e| sheet_err(0, None, format!("cannot read the sheet: {e}")))?;
+    let stored =
+        read_cells(&mut book, &name, &options.limits).map_err(|m| sheet_err(0, None, m))?;
     let empty = || {
         sheet_err(
             0,
@@ -264,16 +354,19 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             ),
         )
     };
-    let Some((first_row, first_col)) = range.start() else {
+    let Some(first_col) = stored
+        .iter()
+        .filter_map(|r| r.cells.first().map(|(c, _)| *c))
+        .min()
+    else {
         return Err(empty());
     };
-    let rows: Vec<SheetRow<'_>> = range
-        .rows()
-        .enumerate()
-        .map(|(i, cells)| SheetRow {
-            cells,
+    let rows: Vec<SheetRow<'_>> = stored
+        .iter()
+        .map(|r| SheetRow {
+            cells: &r.cells,
             formulas: None,
-            row: first_row + i as u32,
+            row: r.row,
             first_col,
         })
         .collect();
@@ -331,15 +424,14 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         !r.is_blank()
             && contract
                 .iter()
-                .any(|(_, c)| r.cells.get(*c).map_or(true, is_empty))
+                .any(|(_, c)| matches!(r.cell(*c), Cell::Empty | Cell::Text("")))
     });
     let formulas = if any_empty {
-        book.worksheet_formula(&name)
-            .ok()
-            .filter(|f| f.start().is_some())
+        read_formulas(&mut book, &name, &options.limits).filter(|f| !f.is_empty())
     } else {
         None
     };
+    let header_width = rows[header_at].width();
 
     let letters: Vec<(String, String)> = contract
         .iter()
@@ -358,7 +450,7 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         if r.is_blank() {
             continue;
         }
-        collector.add(line_of(&r), &r, &columns, || r.raw());
+        collector.add(line_of(&r), &r, &columns, || r.raw(header_width));
     }
     let layout = Layout {
         delimiter: '\t',
@@ -376,7 +468,7 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
     let reread = |wanted: &BTreeSet<u64>| -> HashMap<u64, String> {
         rows.iter()
             .filter(|r| wanted.contains(&line_of(r)))
-            .map(|r| (line_of(r), r.raw()))
+            .map(|r| (line_of(r), r.raw(header_width)))
             .collect()
     };
     let mut ds = collector.finish(
@@ -400,6 +492,15 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             ),
         );
     }
+    if options.sheet.is_none() && sheets.len() > 1 {
+        ds.warnings.insert(
+            0,
+            format!(
+                "sheet '{name}' was read ({why}); the workbook's sheets are {}; choose another with --sheet",
+                listed()
+            ),
+        );
+    }
     if options.encoding != super::Encoding::Utf8 {
         ds.warnings.push(format!(
             "--encoding {} applies to CSV files only; a workbook stores its own text encoding",
@@ -407,6 +508,348 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         ));
     }
     Ok(ds)
+}
+
+/// The sheet read when none is named: the active sheet when it is a
+/// visible worksheet, else the first visible worksheet, else the first.
+fn default_sheet(meta: &[Sheet], active: Option<usize>) -> Option<(String, &'static str)> {
+    let shown = |i: &usize| {
+        meta.get(*i)
+            .is_some_and(|s| s.visible == SheetVisible::Visible && s.typ == SheetType::WorkSheet)
+    };
+    let (i, why) = active
+        .filter(shown)
+        .map(|i| (i, "the active sheet"))
+        .or_else(|| {
+            (0..meta.len())
+                .find(shown)
+                .map(|i| (i, "the first visible sheet"))
+        })
+        .or_else(|| (!meta.is_empty()).then_some((0, "the first sheet; no sheet is visible")))?;
+    Some((meta[i].name.clone(), why))
+}
+
+/// Unpacks every part of a zipped workbook (.xlsx, .xlsm, .ods) once,
+/// counting bytes without keeping them, and refuses it past the limit:
+/// a few megabytes of repetitive XML can unpack to gigabytes. Returns the
+/// active sheet's position from `xl/workbook.xml` when there is one. A file
+/// that is not a readable zip is left to calamine to name.
+fn check_unpacked(
+    bytes: &[u8],
+    limits: &SheetLimits,
+) -> std::result::Result<Option<usize>, String> {
+    if !bytes.starts_with(b"PK") {
+        return Ok(None);
+    }
+    let Ok(mut zip) = zip::ZipArchive::new(Cursor::new(bytes)) else {
+        return Ok(None);
+    };
+    let limit = limits.max_unpacked_bytes;
+    let too_large = |name: &str| {
+        format!(
+            "the workbook unpacks to more than {} MiB (stopped in its part {name}); a workbook this large is more often damaged or built to exhaust memory than real data. If it is genuine, raise the limit with the environment variable {}=MIB, or save the sheet as a CSV file",
+            limit >> 20,
+            SheetLimits::UNPACKED_VAR
+        )
+    };
+    let mut total = 0u64;
+    let mut active = None;
+    let is_ods = zip.by_name("content.xml").is_ok();
+    for i in 0..zip.len() {
+        let Ok(part) = zip.by_index(i) else {
+            continue;
+        };
+        let name = part.name().to_string();
+        let mut counted = Counted {
+            inner: part,
+            total: &mut total,
+            limit,
+        };
+        if is_ods && name == "content.xml" {
+            let grid = ods_grid(&mut counted);
+            if *counted.total > limit {
+                return Err(too_large(&name));
+            }
+            if grid > limits.max_cells as u64 {
+                return Err(format!(
+                    "the workbook's sheets span {grid} cells once their repeated rows and columns are laid out (a cell far from the data, or a repeat count in the millions); provisio stops at {} cells. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
+                    limits.max_cells,
+                    SheetLimits::CELLS_VAR
+                ));
+            }
+            continue;
+        }
+        let keep = name == "xl/workbook.xml";
+        let mut kept = Vec::new();
+        let mut buf = [0u8; 1 << 14];
+        let start = *counted.total;
+        loop {
+            match counted.read(&mut buf) {
+                Ok(0) | Err(_) => break,
+                Ok(n) if keep && kept.len() < 1 << 20 => kept.extend_from_slice(&buf[..n]),
+                Ok(_) => {}
+            }
+        }
+        if *counted.total > limit {
+            return Err(too_large(&name));
+        }
+        // calamine keeps every shared string in memory, not streamed.
+        let strings_limit = limit / SHARED_STRINGS_SHARE;
+        if name == "xl/sharedStrings.xml" && *counted.total - start > strings_limit {
+            return Err(format!(
+                "the workbook's shared strings (its part {name}) unpack to more than {} KiB, one {SHARED_STRINGS_SHARE}th of the workbook limit, and are all kept in memory; if the workbook is genuine, raise the limit with the environment variable {}=MIB, or save the sheet as a CSV file",
+                strings_limit >> 10,
+                SheetLimits::UNPACKED_VAR
+            ));
+        }
+        if keep {
+            active = active_tab(&kept);
+        }
+    }
+    Ok(active)
+}
+
+/// The share of the unpacked limit the shared strings of an .xlsx may
+/// take: calamine holds them all in memory (32 MiB by default).
+const SHARED_STRINGS_SHARE: u64 = 16;
+
+/// A reader that adds what it reads to a running total and fails once the
+/// total passes the limit.
+struct Counted<'t, R> {
+    inner: R,
+    total: &'t mut u64,
+    limit: u64,
+}
+
+impl<R: Read> Read for Counted<'_, R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        if *self.total > self.limit {
+            return Err(std::io::Error::other("unpack limit reached"));
+        }
+        let n = self.inner.read(buf)?;
+        *self.total += n as u64;
+        Ok(n)
+    }
+}
+
+/// How many cells calamine lays out for the sheets of an OpenDocument
+/// `content.xml`: it expands repeated cells and rows into a grid from the
+/// first to the last row holding something, as wide as the widest such
+/// row, and keeps each row's cells up to its last value on the way. An
+/// upper estimate; stops counting at a malformed part (calamine names it).
+fn ods_grid(part: impl Read) -> u64 {
+    use quick_xml::events::Event;
+    let repeat = |e: &quick_xml::events::BytesStart<'_>, key: &[u8]| -> u64 {
+        e.try_get_attribute(key)
+            .ok()
+            .flatten()
+            .and_then(|a| std::str::from_utf8(&a.value).ok()?.trim().parse().ok())
+            .unwrap_or(1)
+    };
+    let mut xml = quick_xml::Reader::from_reader(std::io::BufReader::new(part));
+    let mut buf = Vec::new();
+    let mut total = 0u64;
+    // Per sheet: rows laid out so far, first and end of the rows holding
+    // something, widest such row; per row: its repeat, column reached,
+    // empty cells waiting for a value, last column holding something.
+    let (mut row_at, mut first, mut end, mut widest) = (0u64, None::<u64>, 0u64, 0u64);
+    let (mut rows_repeated, mut col, mut waiting, mut last) = (1u64, 0u64, 0u64, None::<u64>);
+    loop {
+        buf.clear();
+        let (e, open) = match xml.read_event_into(&mut buf) {
+            Ok(Event::Start(e)) => (e, true),
+            Ok(Event::Empty(e)) => (e, false),
+            Ok(Event::End(e)) => {
+                match e.name().as_ref() {
+                    b"table:table-row" => {
+                        if let Some(l) = last {
+                            first.get_or_insert(row_at);
+                            end = row_at.saturating_add(rows_repeated);
+                            widest = widest.max(l + 1);
+                        }
+                        row_at = row_at.saturating_add(rows_repeated);
+                    }
+                    b"table:table" => {
+                        if let Some(f) = first {
+                            total = total.saturating_add((end - f).saturating_mul(widest));
+                        }
+                        (row_at, first, end, widest) = (0, None, 0, 0);
+                    }
+                    _ => {}
+                }
+                continue;
+            }
+            Ok(Event::Eof) | Err(_) => break,
+            Ok(_) => continue,
+        };
+        match e.name().as_ref() {
+            b"table:table-row" => {
+                rows_repeated = repeat(&e, b"table:number-rows-repeated").max(1);
+                (col, waiting, last) = (0, 0, None);
+                if !open {
+                    row_at = row_at.saturating_add(rows_repeated);
+                }
+            }
+            b"table:table-cell" | b"table:covered-table-cell" => {
+                let n = repeat(&e, b"table:number-columns-repeated").max(1);
+                let holds = open
+                    || e.try_get_attribute(b"office:value-type")
+                        .ok()
+                        .flatten()
+                        .is_some()
+                    || e.try_get_attribute(b"table:formula")
+                        .ok()
+                        .flatten()
+                        .is_some();
+                if holds {
+                    total = total.saturating_add(waiting.saturating_add(n));
+                    waiting = 0;
+                    last = Some(col.saturating_add(n - 1));
+                } else {
+                    waiting = waiting.saturating_add(n);
+                }
+                col = col.saturating_add(n);
+            }
+            _ => {}
+        }
+    }
+    total
+}
+
+/// The `activeTab` of the workbook view in `xl/workbook.xml` (absent: 0).
+fn active_tab(xml: &[u8]) -> Option<usize> {
+    let key = b"activeTab=\"";
+    let at = xml.windows(key.len()).position(|w| w == key)? + key.len();
+    let digits: Vec<u8> = xml[at..]
+        .iter()
+        .take_while(|b| b.is_ascii_digit())
+        .copied()
+        .collect();
+    std::str::from_utf8(&digits).ok()?.parse().ok()
+}
+
+/// Bytes of cell text that count as one cell against the limit (a cell
+/// kept costs about 40 bytes before its text).
+const TEXT_BYTES_PER_CELL: usize = 16;
+
+/// The message when a sheet holds more cells than the limit.
+fn too_many_cells(limits: &SheetLimits) -> String {
+    format!(
+        "the sheet holds more than {} cells with something in them (or more than {} MB of text); provisio stops there, as a sheet this large is more often damaged or built to exhaust memory than real data. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
+        limits.max_cells,
+        limits.max_cells.saturating_mul(TEXT_BYTES_PER_CELL) / 1_000_000,
+        SheetLimits::CELLS_VAR
+    )
+}
+
+/// Reads the cells of a sheet that hold something, row by row. An .xlsx
+/// sheet is streamed cell by cell; other formats go through calamine's
+/// range (their parts were size-checked first).
+fn read_cells<RS: Read + Seek>(
+    book: &mut Sheets<RS>,
+    name: &str,
+    limits: &SheetLimits,
+) -> std::result::Result<Vec<StoredRow>, String> {
+    let mut rows: Vec<StoredRow> = Vec::new();
+    let mut kept = 0usize;
+    let mut text = 0usize;
+    let mut keep = |rows: &mut Vec<StoredRow>, (r, c): (u32, u32), d: Data| {
+        if is_empty(&d) {
+            return Ok(());
+        }
+        kept += 1;
+        if let Data::String(t) = &d {
+            text += t.len();
+        }
+        // Text counts too: a cell of long distinct text costs many cells.
+        if kept > limits.max_cells || text / TEXT_BYTES_PER_CELL > limits.max_cells {
+            return Err(too_many_cells(limits));
+        }
+        match rows.last_mut() {
+            Some(last) if last.row == r => last.cells.push((c, d)),
+            _ => rows.push(StoredRow {
+                row: r,
+                cells: vec![(c, d)],
+            }),
+        }
+        Ok(())
+    };
+    match book {
+        Sheets::Xlsx(x) => {
+            let mut cells = x
+                .worksheet_cells_reader(name)
+                .map_err(|e| format!("cannot read the sheet: {e}"))?;
+            while let Some(c) = cells
+                .next_cell()
+                .map_err(|e| format!("cannot read the sheet: {e}"))?
+            {
+                let at = c.get_position();
+                keep(&mut rows, at, Data::from(c.get_value().clone()))?;
+            }
+        }
+        other => {
+            let range = other
+                .worksheet_range(name)
+                .map_err(|e| format!("cannot read the sheet: {e}"))?;
+            let (r0, c0) = range.start().unwrap_or((0, 0));
+            for (r, c, d) in range.used_cells() {
+                keep(&mut rows, (r0 + r as u32, c0 + c as u32), d.clone())?;
+            }
+        }
+    }
+    // Rows and cells are in order in every file seen; a file that lists
+    // them otherwise is put in order, a later cell at the same place winning.
+    if !rows.windows(2).all(|w| w[0].row < w[1].row) {
+        rows.sort_by_key(|r| r.row);
+        let mut merged: Vec<StoredRow> = Vec::with_capacity(rows.len());
+        for r in rows {
+            match merged.last_mut() {
+                Some(last) if last.row == r.row => last.cells.extend(r.cells),
+                _ => merged.push(r),
+            }
+        }
+        rows = merged;
+    }
+    for r in &mut rows {
+        if !r.cells.windows(2).all(|w| w[0].0 < w[1].0) {
+            r.cells.reverse();
+            r.cells.sort_by_key(|(c, _)| *c);
+            r.cells.dedup_by_key(|(c, _)| *c);
+        }
+        r.cells.shrink_to_fit();
+    }
+    rows.shrink_to_fit();
+    Ok(rows)
+}
+
+/// The non-empty formulas of a sheet, streamed for .xlsx; at most the cell
+/// limit of them are kept.
+fn read_formulas<RS: Read + Seek>(
+    book: &mut Sheets<RS>,
+    name: &str,
+    limits: &SheetLimits,
+) -> Option<Formulas> {
+    let mut out = Formulas::new();
+    match book {
+        Sheets::Xlsx(x) => {
+            let mut cells = x.worksheet_cells_reader(name).ok()?;
+            while let Ok(Some(c)) = cells.next_formula() {
+                if !c.get_value().is_empty() && out.len() < limits.max_cells {
+                    out.insert(c.get_position(), c.get_value().clone());
+                }
+            }
+        }
+        other => {
+            let range = other.worksheet_formula(name).ok()?;
+            let (r0, c0) = range.start()?;
+            for (r, c, f) in range.used_cells() {
+                if !f.is_empty() && out.len() < limits.max_cells {
+                    out.insert((r0 + r as u32, c0 + c as u32), f.clone());
+                }
+            }
+        }
+    }
+    Some(out)
 }
 
 #[cfg(test)]

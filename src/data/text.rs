@@ -172,6 +172,9 @@ pub(crate) struct Records<R> {
     pub(crate) delimiter: u8,
     /// Whether a UTF-8 byte-order mark was skipped.
     pub(crate) had_bom: bool,
+    /// Whether the record last read is the file's last and a quote opened
+    /// in it is never closed (the reader then takes the rest as one value).
+    pub(crate) open_quote: bool,
 }
 
 impl<R: Read> Records<R> {
@@ -194,6 +197,7 @@ impl<R: Read> Records<R> {
             text_ends: Vec::new(),
             delimiter: b',',
             had_bom: false,
+            open_quote: false,
         };
         r.sniff()?;
         Ok(r)
@@ -255,6 +259,11 @@ impl<R: Read> Records<R> {
                 message: message.to_string(),
             })
         };
+        if head.starts_with(b"\xFF\xFE\x00\x00") || head.starts_with(b"\x00\x00\xFE\xFF") {
+            return refuse(
+                "the file is UTF-32 text (it starts with a UTF-32 byte-order mark); save it as \"CSV UTF-8\" instead",
+            );
+        }
         if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
             return refuse(
                 "the file is UTF-16 text (it starts with a UTF-16 byte-order mark), as spreadsheets write \"Unicode text\"; save it as \"CSV UTF-8\" instead",
@@ -315,6 +324,8 @@ impl<R: Read> Records<R> {
         }
         let start = self.line;
         let (mut nout, mut nends, mut taken) = (0usize, 0usize, 0usize);
+        let mut quotes = 0usize;
+        let mut last_byte = 0u8;
         loop {
             if self.pos == self.len && !self.eof {
                 self.refill()?;
@@ -325,6 +336,10 @@ impl<R: Read> Records<R> {
                 self.core
                     .read_record(input, &mut self.out[nout..], &mut self.ends[nends..]);
             self.line += line_breaks(&input[..nin], &mut self.after_cr);
+            quotes += input[..nin].iter().filter(|&&b| b == b'"').count();
+            if let Some(&b) = input[..nin].last() {
+                last_byte = b;
+            }
             self.pos += nin;
             nout += o;
             nends += e;
@@ -354,6 +369,14 @@ impl<R: Read> Records<R> {
                 }
                 csv_core::ReadRecordResult::Record => {
                     self.decode(start, nout, nends)?;
+                    // An odd number of quotes in the last record, with a line
+                    // break taken into a value or no line end at all: the
+                    // quote was never closed.
+                    let at_end = self.eof && self.pos == self.len;
+                    self.open_quote = at_end
+                        && quotes % 2 == 1
+                        && (self.text.contains(['\n', '\r'])
+                            || !matches!(last_byte, b'\n' | b'\r'));
                     return Ok(Some(start));
                 }
                 csv_core::ReadRecordResult::End => return Ok(None),
@@ -562,6 +585,19 @@ mod tests {
                 }
                 other => panic!("{word}: {other:?}"),
             }
+        }
+    }
+
+    #[test]
+    fn utf32_is_named_utf32_not_utf16() {
+        // The UTF-32 little-endian byte-order mark FF FE 00 00 begins with
+        // UTF-16's FF FE (Unicode Standard, section 23.8).
+        let bytes = b"\xFF\xFE\x00\x00p\x00\x00\x00";
+        match Records::open(&bytes[..], Encoding::Utf8) {
+            Err(TextError::Input { message, .. }) => {
+                assert!(message.contains("UTF-32"), "{message}")
+            }
+            _ => panic!("UTF-32 accepted"),
         }
     }
 

@@ -211,8 +211,29 @@ impl OutputDir {
         let entries = std::fs::read_dir(&self.path).map_err(io("cannot open the output folder"))?;
         for entry in entries.flatten() {
             let name = entry.file_name().to_string_lossy().into_owned();
-            if is_temp_name(&name) && entry.file_type().is_ok_and(|t| t.is_file()) {
+            let Ok(kind) = entry.file_type() else {
+                continue;
+            };
+            if is_temp_name(&name) && kind.is_file() {
                 let _ = std::fs::remove_file(entry.path());
+            } else if kind.is_symlink() && entry.path().is_dir() {
+                // Writing charts/ through a link would write outside --out.
+                return Err(Error::Output {
+                    path: self.path.clone(),
+                    message: format!(
+                        "'{name}' in the output folder is a symbolic link to a folder; provisio writes only inside --out and does not follow it: remove the link or choose another folder"
+                    ),
+                });
+            } else if kind.is_dir() {
+                // Temporary files of a killed run in a subfolder (charts/).
+                if let Ok(inner) = std::fs::read_dir(entry.path()) {
+                    for e in inner.flatten() {
+                        let n = e.file_name().to_string_lossy().into_owned();
+                        if is_temp_name(&n) && e.file_type().is_ok_and(|t| t.is_file()) {
+                            let _ = std::fs::remove_file(e.path());
+                        }
+                    }
+                }
             }
         }
         let marker = self.path.join(OUTPUT_MARKER);
@@ -229,6 +250,28 @@ impl OutputDir {
     /// The folder.
     pub fn path(&self) -> &Path {
         &self.path
+    }
+
+    /// Refuses an input file that sits directly in the output folder:
+    /// provisio replaces its own files there, and `--overwrite` would
+    /// replace the input while it is the data of the run.
+    pub fn refuse_input_inside(&self, input: &Path) -> Result<()> {
+        let (Ok(out), Ok(file)) = (
+            std::fs::canonicalize(&self.path),
+            std::fs::canonicalize(input),
+        ) else {
+            return Ok(());
+        };
+        if file.parent() == Some(out.as_path()) {
+            return Err(Error::Output {
+                path: self.path.clone(),
+                message: format!(
+                    "the input file {} is in the output folder, where provisio writes and replaces files; move it out of the folder or choose another --out",
+                    input.display()
+                ),
+            });
+        }
+        Ok(())
     }
 
     /// A file in the folder.
@@ -370,6 +413,25 @@ pub fn fmt_num(v: f64) -> String {
 /// Formats an optional quantity; empty when missing.
 pub fn fmt_opt(v: Option<f64>) -> String {
     v.map(fmt_num).unwrap_or_default()
+}
+
+/// Most rows a spreadsheet sheet holds (the Office Open XML limit, common
+/// practice: 2^20).
+pub const SHEET_MAX_ROWS: usize = 1_048_576;
+
+/// Checks, before any work, that the Forecast sheet of `forecast.xlsx`
+/// (three rows of titles, then five rows per product and per adjusted
+/// product) fits in a sheet; the refusal names `--no-workbook`.
+pub fn check_workbook_fits(products: usize) -> std::result::Result<(), String> {
+    let rows = products
+        .saturating_mul(workbook::FORECAST_ROW_LABELS.len())
+        .saturating_add(3);
+    if rows > SHEET_MAX_ROWS {
+        return Err(format!(
+            "the data has {products} products: the Forecast sheet of forecast.xlsx would need {rows} rows, more than the {SHEET_MAX_ROWS} a spreadsheet holds; give --no-workbook (the CSV files hold every value) or forecast the products in several runs"
+        ));
+    }
+    Ok(())
 }
 
 #[cfg(test)]

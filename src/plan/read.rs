@@ -86,7 +86,7 @@ pub const STOCK_COLUMNS: [(&str, bool, &str); 12] = [
     (
         "pack_size",
         true,
-        "base units per pack (above 0); orders are whole packs",
+        "base units per pack (0.01 to 10^9); orders are whole packs",
     ),
     (
         "unit_cost",
@@ -359,6 +359,12 @@ fn names(known: &[(&str, bool, &str)], required: bool) -> String {
         .join(", ")
 }
 
+/// Smallest pack size: orders are whole packs, and the number of packs of
+/// the largest need (10^15 units a month for 120 months) must stay a whole
+/// number a computer can count; a pack size such as 1e-320 gave
+/// 18446744073709551615 packs of cost 0.
+const MIN_PACK_SIZE: f64 = 0.01;
+
 /// Reads a stock file, its numbers written as `numbers` says (the
 /// `--numbers` rules of the consumption data). Returns its rows and
 /// warnings (ignored columns).
@@ -403,8 +409,8 @@ pub fn read_stock(
             line,
             row,
             "max_months",
-            |x| x > 0.0 && x <= 120.0,
-            "give months of stock above 0, at most 120",
+            |x| (0.1..=120.0).contains(&x),
+            "give months of stock from 0.1 to 120",
         )?;
         if min_months > max_months {
             return Err(sheet.err(
@@ -427,8 +433,8 @@ pub fn read_stock(
             line,
             row,
             "pack_size",
-            |x| x > 0.0 && x <= 1e9,
-            "give the base units in one pack, above 0 (1 when ordered by the unit)",
+            |x| (MIN_PACK_SIZE..=1e9).contains(&x),
+            "give the base units in one pack, from 0.01 to 1,000,000,000 (1 when ordered by the unit)",
         )?;
         let unit_cost = sheet.required_number(
             line,
@@ -441,8 +447,8 @@ pub fn read_stock(
             line,
             row,
             "shelf_life_months",
-            |x| x > 0.0 && x <= 600.0,
-            "give months above 0, or leave empty",
+            |x| (0.1..=600.0).contains(&x),
+            "give months from 0.1 to 600, or leave empty",
         )?;
         let emergency_months = sheet.number(
             line,
@@ -699,4 +705,41 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         adjusted,
         pack_sizes,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const HEADER: &str = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost,shelf_life_months\n";
+
+    fn stock(row: &str) -> Result<(Vec<StockRow>, Vec<String>)> {
+        read_stock(
+            "stock.csv",
+            format!("{HEADER}{row}\n").as_bytes(),
+            NumberFormat::Plain,
+        )
+    }
+
+    #[test]
+    fn numeric_fields_outside_their_range_are_refused_with_line_and_column() {
+        assert!(stock("ORS,100,2024-06,3,2,4,1,10,0.5,24").is_ok());
+        // (issue 20, item 11) A subnormal pack size used to give
+        // u64::MAX packs at cost 0; each field past its range is refused.
+        for (row, column) in [
+            ("ORS,100,2024-06,3,2,4,1,1e-320,0.5,24", "pack_size"),
+            ("ORS,100,2024-06,3,2,4,1,0.001,0.5,24", "pack_size"),
+            ("ORS,100,2024-06,3,2,1e-320,1,10,0.5,24", "max_months"),
+            ("ORS,100,2024-06,3,0,4,1,10,0.5,1e-320", "shelf_life_months"),
+            ("ORS,1e300,2024-06,3,2,4,1,10,0.5,24", "stock_on_hand"),
+            ("ORS,100,2024-06,3,2,4,1,10,1e300,24", "unit_cost"),
+            ("ORS,100,2024-06,3,2,4,1,NaN,0.5,24", "pack_size"),
+        ] {
+            let e = stock(row).unwrap_err().to_string();
+            assert!(
+                e.contains("stock.csv") && e.contains(":2") && e.contains(column),
+                "{row}: {e}"
+            );
+        }
+    }
 }

@@ -1,0 +1,190 @@
+"""Writes the hostile workbooks of tests/data/bad/ (catalogued in its
+README, checked by tests/cli_hostile.rs). Plain Python: the .xlsx and .ods
+parts are written by hand with zipfile, so each file holds exactly the
+problem it is named for. The products and numbers are invented test data.
+
+    python3 tests/reference/bad_workbooks.py
+
+Files:
+  far_cell.xlsx         the contract in A1:C4 and one stray cell at
+                        XFD1048576 (the last column and row); the sheet's
+                        dimension claims A1:XFD1048576
+  far_formula.xlsx      the same with a formula in the stray cell and an
+                        empty consumed cell (so formulas are read)
+  unpacks_large.xlsx    ~6 MiB of repetitive sheet XML compressed to 30 KB
+                        (refused with PROVISIO_MAX_UNPACKED_MIB=4; read by default)
+  many_cells.xlsx       60,000 cells in 20,000 rows (refused with
+                        PROVISIO_MAX_SHEET_CELLS=1000; read by default)
+  hidden_first_sheet.xlsx  sheet 1 "Old" is hidden and holds other data;
+                        sheet 2 "Data" is visible and active
+  far_cell.ods          the contract in A1:C4, then 1,048,570 empty rows
+                        repeated, then one cell at column 16384
+"""
+
+import pathlib
+import zipfile
+
+OUT = pathlib.Path(__file__).resolve().parents[1] / "data" / "bad"
+
+CT = """<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+<Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">
+<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>
+<Default Extension="xml" ContentType="application/xml"/>
+<Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>
+{sheets}
+</Types>"""
+RELS = """<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">
+<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" Target="xl/workbook.xml"/>
+</Relationships>"""
+NS = 'xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships"'
+
+
+def col(n):
+    s = ""
+    n += 1
+    while n:
+        n, r = divmod(n - 1, 26)
+        s = chr(65 + r) + s
+    return s
+
+
+def cell(r, c, v):
+    ref = f"{col(c)}{r + 1}"
+    if isinstance(v, str) and v.startswith("="):
+        return f'<c r="{ref}"><f>{v[1:]}</f></c>'
+    if isinstance(v, str):
+        return f'<c r="{ref}" t="inlineStr"><is><t>{v}</t></is></c>'
+    return f'<c r="{ref}"><v>{v}</v></c>'
+
+
+def sheet_xml(rows, dimension):
+    """rows: list of (row index, [(col index, value)])."""
+    body = "".join(
+        f'<row r="{r + 1}">' + "".join(cell(r, c, v) for c, v in cells) + "</row>"
+        for r, cells in rows
+    )
+    return f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<worksheet {NS}><dimension ref="{dimension}"/><sheetData>{body}</sheetData></worksheet>'
+
+
+def xlsx(name, sheets, active=0):
+    """sheets: list of (sheet name, state, sheet xml)."""
+    wb_sheets = "".join(
+        f'<sheet name="{n}" sheetId="{i + 1}" state="{st}" r:id="rId{i + 1}"/>'
+        for i, (n, st, _) in enumerate(sheets)
+    )
+    wb = f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<workbook {NS}><bookViews><workbookView activeTab="{active}"/></bookViews><sheets>{wb_sheets}</sheets></workbook>'
+    wb_rels = (
+        '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
+        + "".join(
+            f'<Relationship Id="rId{i + 1}" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet{i + 1}.xml"/>'
+            for i in range(len(sheets))
+        )
+        + "</Relationships>"
+    )
+    ct = CT.format(
+        sheets="\n".join(
+            f'<Override PartName="/xl/worksheets/sheet{i + 1}.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
+            for i in range(len(sheets))
+        )
+    )
+    with zipfile.ZipFile(OUT / name, "w", zipfile.ZIP_DEFLATED, compresslevel=9) as z:
+        for part, text in [
+            ("[Content_Types].xml", ct),
+            ("_rels/.rels", RELS),
+            ("xl/workbook.xml", wb),
+            ("xl/_rels/workbook.xml.rels", wb_rels),
+        ] + [(f"xl/worksheets/sheet{i + 1}.xml", x) for i, (_, _, x) in enumerate(sheets)]:
+            info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            z.writestr(info, text)
+
+
+CONTRACT = [
+    (0, [(0, "product"), (1, "month"), (2, "consumed")]),
+    (1, [(0, "ORS"), (1, "2024-01"), (2, 5)]),
+    (2, [(0, "ORS"), (1, "2024-02"), (2, 7)]),
+    (3, [(0, "ORS"), (1, "2024-03"), (2, 6)]),
+]
+
+
+def main():
+    xlsx(
+        "far_cell.xlsx",
+        [("Data", "visible", sheet_xml(CONTRACT + [(1048575, [(16383, "x")])], "A1:XFD1048576"))],
+    )
+    rows = [r for r in CONTRACT]
+    rows[3] = (3, [(0, "ORS"), (1, "2024-03")])
+    xlsx(
+        "far_formula.xlsx",
+        [("Data", "visible", sheet_xml(rows + [(1048575, [(16383, "=1+1")])], "A1:XFD1048576"))],
+    )
+    big = [(0, [(0, "product"), (1, "month"), (2, "consumed")])]
+    n = 1
+    for p in range(1, 201):
+        for m in range(1, 13):
+            # A long note in column Z of every row: big text, little information.
+            big.append((n, [(0, f"P{p:04d}"), (1, f"2023-{m:02d}"), (2, 10 + m), (25, "x" * 2500)]))
+            n += 1
+    xlsx("unpacks_large.xlsx", [("Data", "visible", sheet_xml(big, f"A1:Z{n}"))])
+    many = [(0, [(0, "product"), (1, "month"), (2, "consumed")])]
+    n = 1
+    for p in range(1, 1668):
+        for m in range(1, 13):
+            many.append((n, [(0, f"P{p:04d}"), (1, f"2023-{m:02d}"), (2, 10 + m)]))
+            n += 1
+    xlsx("many_cells.xlsx", [("Data", "visible", sheet_xml(many, f"A1:C{n}"))])
+    old = [
+        (0, [(0, "product"), (1, "month"), (2, "consumed")]),
+        (1, [(0, "OLD"), (1, "2020-01"), (2, 1)]),
+    ]
+    xlsx(
+        "hidden_first_sheet.xlsx",
+        [
+            ("Old", "hidden", sheet_xml(old, "A1:C2")),
+            ("Data", "visible", sheet_xml(CONTRACT, "A1:C4")),
+        ],
+        active=1,
+    )
+    ods_far()
+
+
+def ods_far():
+    rows = []
+    for r, cells in CONTRACT:
+        tds = ""
+        for _, v in cells:
+            if isinstance(v, str):
+                tds += f'<table:table-cell office:value-type="string"><text:p>{v}</text:p></table:table-cell>'
+            else:
+                tds += f'<table:table-cell office:value-type="float" office:value="{v}"><text:p>{v}</text:p></table:table-cell>'
+        rows.append(f"<table:table-row>{tds}</table:table-row>")
+    rows.append(
+        '<table:table-row table:number-rows-repeated="1048570"><table:table-cell table:number-columns-repeated="3"/></table:table-row>'
+    )
+    rows.append(
+        '<table:table-row><table:table-cell table:number-columns-repeated="16383"/><table:table-cell office:value-type="string"><text:p>x</text:p></table:table-cell></table:table-row>'
+    )
+    content = (
+        '<?xml version="1.0" encoding="UTF-8"?>\n<office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" '
+        'xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2">'
+        '<office:body><office:spreadsheet><table:table table:name="Data">'
+        + "".join(rows)
+        + "</table:table></office:spreadsheet></office:body></office:document-content>"
+    )
+    manifest = (
+        '<?xml version="1.0" encoding="UTF-8"?>\n<manifest:manifest xmlns:manifest="urn:oasis:names:tc:opendocument:xmlns:manifest:1.0" manifest:version="1.2">'
+        '<manifest:file-entry manifest:full-path="/" manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/>'
+        '<manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/></manifest:manifest>'
+    )
+    with zipfile.ZipFile(OUT / "far_cell.ods", "w") as z:
+        info = zipfile.ZipInfo("mimetype", date_time=(2024, 1, 1, 0, 0, 0))
+        z.writestr(info, "application/vnd.oasis.opendocument.spreadsheet")
+        for part, text in [("content.xml", content), ("META-INF/manifest.xml", manifest)]:
+            info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            z.writestr(info, text)
+
+
+if __name__ == "__main__":
+    main()
