@@ -445,7 +445,7 @@ mod tests {
     fn mape() -> SelectSettings {
         SelectSettings {
             score: Score::Mape,
-            ..SelectSettings::default()
+            tie_margin: 0.1,
         }
     }
 

@@ -525,7 +525,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
     let w = super::name_width(results.iter().map(|r| &r.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     println!(
-        "{}  {:<34} {:>8} {:>8} {:>10}{}",
+        "{}  {:<34} {:>11} {:>8} {:>30}{}",
         cut("product"),
         "chosen model",
         "score",
@@ -541,7 +541,12 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
         let s = &r.selection;
         let sc = s.chosen_scores.as_ref().and_then(|x| x.get(s.score));
         let score = sc
-            .map(|v| format!("{} {v:.1}", s.score.name()))
+            .map(|v| match s.score {
+                provisio::metrics::Score::Mase | provisio::metrics::Score::Rmsse => {
+                    format!("{} {v:.3}", s.score.name())
+                }
+                _ => format!("{} {v:.1}", s.score.name()),
+            })
             .unwrap_or_else(|| "-".into());
         let bias = s
             .chosen_scores
@@ -550,8 +555,10 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             .map(|b| format!("{b:+.1}%"))
             .unwrap_or_else(|| "-".into());
         let margin = s
-            .margin_pct
-            .map(|m| format!("{m:+.1}%"))
+            .runner_up
+            .as_ref()
+            .zip(s.margin_pct)
+            .map(|((name, _), m)| format!("{name} {m:+.1}%"))
             .unwrap_or_else(|| "-".into());
         let next = r
             .projection
@@ -567,7 +574,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             chosen.push_str(" (not backtested)");
         }
         println!(
-            "{}  {:<34} {:>8} {:>8} {:>10}{}",
+            "{}  {:<34} {:>11} {:>8} {:>30}{}",
             cut(&r.product),
             chosen,
             score,
@@ -576,7 +583,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             if horizon_shown { next } else { String::new() }
         );
     }
-    println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: its score above the chosen one; negative when the chosen model won a near-tie)");
+    println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: the best other model and its score against the chosen one, negative when it scored better but without clear evidence — selection.csv's reason says why)");
 }
 
 /// The machine-readable summary of one product (see README, "JSON summary").

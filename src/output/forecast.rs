@@ -203,6 +203,8 @@ pub fn write_selection(path: &Path, results: &[ProductForecast]) -> Result<()> {
             "total_months_1_12",
             "total_months_13_24",
             "reason",
+            "ranges",
+            "warnings",
         ]);
         c.write_record(&header).map_err(io_err)?;
         for r in results {
@@ -231,6 +233,16 @@ pub fn write_selection(path: &Path, results: &[ProductForecast]) -> Result<()> {
             row.push(fmt_opt(p.and_then(|p| p.totals.first().copied())));
             row.push(fmt_opt(p.and_then(|p| p.totals.get(1).copied())));
             row.push(s.reason.clone());
+            row.push(r.ranges.describe());
+            // The product's forecast warnings, without the product name
+            // each carries for the terminal.
+            let prefix = format!("product '{}': ", r.product);
+            let warnings: Vec<&str> = r
+                .warnings
+                .iter()
+                .map(|w| w.strip_prefix(&prefix).unwrap_or(w))
+                .collect();
+            row.push(csv_text(&warnings.join(" | ")).into_owned());
             c.write_record(&row).map_err(io_err)?;
         }
         c.flush()

