@@ -511,8 +511,11 @@ pub fn suspect_warnings(
 ) -> Vec<String> {
     let mut out = Vec::new();
     let chosen = &selection.chosen;
+    // Month-by-month errors of intermittent demand (scored by RMSSE) are
+    // large by nature: a WAPE above 100% there says nothing new.
+    let intermittent = selection.score == crate::metrics::Score::Rmsse;
     if let Some(w) = selection.chosen_scores.and_then(|s| s.wape) {
-        if w > WARN_WAPE_PCT {
+        if w > WARN_WAPE_PCT && !intermittent {
             out.push(format!(
                 "product '{product}': the chosen model {chosen} missed by {w:.0}% of volume in the backtest (WAPE above {WARN_WAPE_PCT:.0}%); check the history for breaks and consider pinning a simpler model or setting the quantity by hand"
             ));

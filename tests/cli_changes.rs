@@ -622,7 +622,7 @@ fn crosscheck_and_the_report_use_the_adjusted_forecast() {
 
     // The report: the section, the adjusted line on D's chart (not on A's,
     // which no change touched), and a chart of the new product H.
-    let o = w.run(&["report", "out"]);
+    let o = w.run(&["report", "out", "--chart-files", "all"]);
     assert!(o.status.success(), "{}", text(&o));
     let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
     assert!(html.contains("Known changes ahead"), "no section");

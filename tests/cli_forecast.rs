@@ -415,3 +415,81 @@ fn write_one_demo_product(path: &Path) {
         .collect();
     std::fs::write(path, format!("{header}\n{}\n", keep.join("\n"))).unwrap();
 }
+
+/// Issue 15, measured: on `provisio generate --products 1000 --sites 1
+/// --months 60 --seed 3`, 22 products that consumed in their last 12 months
+/// (among them "Product 00009", 32.6 a month) were projected at zero for all
+/// 24 months. The first 60 products of that set, which include it, are
+/// forecast here: no product in use may be projected at zero in every month.
+#[test]
+fn no_product_in_use_is_projected_at_zero() {
+    let w = common::Workdir::new();
+    let o = w.run(&[
+        "generate",
+        "--products",
+        "1000",
+        "--sites",
+        "1",
+        "--months",
+        "60",
+        "--seed",
+        "3",
+        "--out",
+        "all.csv",
+    ]);
+    assert!(o.status.success(), "{}", common::text(&o));
+    let all = std::fs::read_to_string(w.path("all.csv")).unwrap();
+    let mut lines = all.lines();
+    let mut part = String::from(lines.next().unwrap());
+    part.push('\n');
+    for l in lines.filter(|l| {
+        l.split(',')
+            .next()
+            .and_then(|p| p.strip_prefix("Product "))
+            .and_then(|n| n.parse::<u32>().ok())
+            .is_some_and(|n| n <= 60)
+    }) {
+        part.push_str(l);
+        part.push('\n');
+    }
+    w.write("part.csv", &part);
+    let o = w.run(&[
+        "forecast",
+        "part.csv",
+        "--out",
+        "out",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    assert!(o.status.success(), "{}", common::text(&o));
+    let (ch, cleaned) = read_csv_file(&w.path("out/cleaned.csv"));
+    let (fh, forecast) = read_csv_file(&w.path("out/forecast.csv"));
+    let col = |h: &[String], name: &str| h.iter().position(|c| c == name).unwrap();
+    let (cp, cv) = (col(&ch, "product"), col(&ch, "cleaned"));
+    let (fp, fv) = (col(&fh, "product"), col(&fh, "forecast"));
+    let mut products: Vec<String> = cleaned.iter().map(|r| r[cp].to_string()).collect();
+    products.dedup();
+    assert!(products.iter().any(|p| p == "Product 00009"));
+    let mut in_use = 0;
+    for p in &products {
+        let hist: Vec<f64> = cleaned
+            .iter()
+            .filter(|r| &r[cp] == p)
+            .map(|r| r[cv].parse().unwrap_or(0.0))
+            .collect();
+        if !hist[hist.len().saturating_sub(12)..]
+            .iter()
+            .any(|&v| v > 0.0)
+        {
+            continue;
+        }
+        in_use += 1;
+        let top = forecast
+            .iter()
+            .filter(|r| &r[fp] == p)
+            .map(|r| r[fv].parse::<f64>().unwrap())
+            .fold(0.0, f64::max);
+        assert!(top > 0.0, "{p} is in use but projected at zero");
+    }
+    assert!(in_use > 50, "{in_use}");
+}
