@@ -43,7 +43,7 @@
 //!    statsforecast's order, one step at a time: P ± 1, Q ± 1, both, p ± 1,
 //!    q ± 1, both, the constant toggled; moving to the first neighbour that
 //!    lowers AICc, until none does (at most 94 models).
-//! 4. AICc = −2 log L + 2k + 2k(k+1)/(n* − k − 1), k = p+q+P+Q+[c]+1,
+//! 4. AICc = −2 log L + 2k + 2k(k+1)/(n* − k − 1), k = p+q+P+Q+c+1 (c = 1 with a constant or drift),
 //!    n* = n − d − 12D. A model whose AR or MA polynomial has a root of
 //!    modulus below 1.01 is rejected, as in statsforecast and R forecast.
 //!
