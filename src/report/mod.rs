@@ -955,7 +955,7 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Selection",
         escape(&format!(
-            "lowest {}; models within {} of the best count as tied",
+            "by {}: each product keeps the default (the fixed combination of ets-auto, arima-auto and theta; SBA for intermittent demand, scored by RMSSE) unless another model's score is more than {} lower and it is better at 10 of 12 backtest origins",
             fs(&["select", "score"]).to_uppercase(),
             fs(&["select", "tie_margin"])
                 .parse::<f64>()
