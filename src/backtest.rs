@@ -408,49 +408,68 @@ pub fn run(
 }
 
 fn combination_run(bt: &Backtest) -> ModelRun {
+    // Members that forecast at any origin: a member may not apply at the
+    // earliest origins (too little history) and still apply later, as it
+    // does on the whole history the projection is fitted to.
     let members: Vec<usize> = COMBINATION_MEMBERS
         .iter()
         .filter_map(|name| {
-            (0..bt.runs.len())
-                .find(|&i| bt.runs[i].model == *name && bt.runs[i].status == RunStatus::Complete)
+            (0..bt.runs.len()).find(|&i| {
+                bt.runs[i].model == *name && bt.runs[i].forecasts.iter().any(Option::is_some)
+            })
         })
         .collect();
-    let names: Vec<String> = members.iter().map(|&i| bt.runs[i].model.clone()).collect();
+    let mut forecasts = Vec::with_capacity(bt.origins.len());
+    let mut names = Vec::with_capacity(bt.origins.len());
+    for k in 0..bt.origins.len() {
+        let present: Vec<usize> = members
+            .iter()
+            .copied()
+            .filter(|&i| bt.runs[i].forecasts.get(k).is_some_and(Option::is_some))
+            .collect();
+        if present.len() >= COMBINATION_MIN_MEMBERS {
+            let fcs: Vec<&Forecast> = present
+                .iter()
+                .filter_map(|&i| bt.runs[i].forecasts[k].as_ref())
+                .collect();
+            forecasts.push(mean_forecast(&fcs));
+            names.push(present.iter().map(|&i| bt.runs[i].model.clone()).collect());
+        } else {
+            forecasts.push(None);
+            names.push(Vec::new());
+        }
+    }
+    let done = forecasts.iter().filter(|f| f.is_some()).count();
     let status = if bt.origins.is_empty() {
         RunStatus::NotApplicable("the series is too short for any backtest origin".to_string())
-    } else if members.len() < COMBINATION_MIN_MEMBERS {
+    } else if done == 0 {
         RunStatus::NotApplicable(format!(
-            "needs at least {COMBINATION_MIN_MEMBERS} of its members ({}) complete, has {}",
-            COMBINATION_MEMBERS.join(", "),
-            members.len()
+            "needs at least {COMBINATION_MIN_MEMBERS} of its members ({}) at an origin",
+            COMBINATION_MEMBERS.join(", ")
         ))
+    } else if done < bt.origins.len() {
+        RunStatus::Incomplete {
+            failed: bt.origins.len() - done,
+            first: format!(
+                "fewer than {COMBINATION_MIN_MEMBERS} of its members ({}) at the earliest origins",
+                COMBINATION_MEMBERS.join(", ")
+            ),
+        }
     } else {
         RunStatus::Complete
-    };
-    let forecasts = if status == RunStatus::Complete {
-        (0..bt.origins.len())
-            .map(|k| {
-                let fcs: Vec<&Forecast> = members
-                    .iter()
-                    .filter_map(|&i| bt.runs[i].forecasts.get(k).and_then(Option::as_ref))
-                    .collect();
-                mean_forecast(&fcs)
-            })
-            .collect()
-    } else {
-        vec![None; bt.origins.len()]
     };
     ModelRun {
         model: COMBINATION.to_string(),
         status,
         forecasts,
-        members: vec![names; bt.origins.len()],
+        members: names,
     }
 }
 
-/// Mean of several forecasts: points and interval bounds averaged
-/// (a simple, common way to combine intervals; it tends to be slightly
-/// conservative). `None` when given none.
+/// Mean of several forecasts: points and interval bounds averaged, each
+/// member clipped at zero first, as each is a forecast of a quantity that
+/// cannot be negative (a simple, common way to combine intervals; it tends
+/// to be slightly conservative). `None` when given none.
 pub fn mean_forecast(fcs: &[&Forecast]) -> Option<Forecast> {
     let first = fcs.first()?;
     let h = fcs.iter().map(|f| f.point.len()).min()?;
@@ -460,7 +479,7 @@ pub fn mean_forecast(fcs: &[&Forecast]) -> Option<Forecast> {
         for f in fcs {
             let v = get(f)?;
             for (o, x) in out.iter_mut().zip(v) {
-                *o += x / n;
+                *o += x.max(0.0) / n;
             }
         }
         Some(out)

@@ -30,9 +30,31 @@
 //! per month ahead are too few to estimate a 95% quantile. Months 13–24
 //! use the same factor as months 1–12.
 //!
-//! With fewer than [`MIN_POINTS`] scored backtest points, or when the
-//! quantile is not finite (a model whose interval has no width on the side
-//! the errors fell), the model's own interval is kept, and
+//! # Partial pooling across products
+//!
+//! A 95% quantile from one product's ~144 backtest errors — errors of 12
+//! overlapping origins, far from independent — is noisy: some products get
+//! ranges far too narrow, others far too wide. So a run pools: the same
+//! quantile is taken over the scores of every product of the same demand
+//! class (smooth, erratic, intermittent, lumpy; all products together when a
+//! class has fewer than [`POOL_MIN_PRODUCTS`]), and each product's factor is
+//! the mean of its own factor and the pooled one (equal-weight shrinkage
+//! toward the group, the partial pooling of hierarchical models; Gelman &
+//! Hill, *Data Analysis Using Regression and Multilevel/Hierarchical
+//! Models*, 2007, ch. 12). A product with too few points of its own takes
+//! the pooled factor alone.
+//!
+//! Measured on the development benchmarks (README, "Ranges"), scored on the
+//! hidden months: M1 monthly (h = 18) inside 80% / 95% and MSIS —
+//! models' own 73.5 / 87.4 / 9.34, own-product conformal 76.7 / 89.7 / 9.80,
+//! pooled only 82.2 / 95.4 / 8.40, partial pooling 81.3 / 94.2 / 8.55;
+//! tourism monthly (h = 24): 79.3 / 91.4 / 12.28, 80.5 / 93.3 / 11.27,
+//! 83.5 / 95.5 / 12.10, 83.2 / 95.6 / 11.20. Partial pooling is the one
+//! within 80 ± 5 and 95 ± 3 with MSIS better than the models' own on both.
+//!
+//! With fewer than [`MIN_POINTS`] scored backtest points and no pool, or
+//! when the quantile is not finite (a model whose interval has no width on
+//! the side the errors fell), the model's own interval is kept, and
 //! [`RangeMethod::Model`] says so.
 
 use crate::backtest::Point;
@@ -41,34 +63,52 @@ use crate::models::{Forecast, Interval};
 /// Fewest scored backtest points for a calibrated range.
 pub const MIN_POINTS: usize = 24;
 
+/// Fewest products with scores of their own for a pool of their demand
+/// class (else all products pool together; with fewer in all, no pool).
+pub const POOL_MIN_PRODUCTS: usize = 10;
+
 /// How a projection's ranges were made.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum RangeMethod {
-    /// Calibrated on the product's backtest errors.
+    /// Calibrated on the backtest errors: the product's own, pooled with
+    /// other products' where a pool exists.
     Calibrated {
         /// Factor applied to the 80% half-widths.
         factor80: f64,
         /// Factor applied to the 95% half-widths.
         factor95: f64,
-        /// Backtest points the factors were learnt from.
+        /// The product's own backtest points the factors were learnt from
+        /// (0: pooled factors alone).
         points: usize,
+        /// Products whose errors were pooled (0: the product's own alone).
+        pooled: usize,
     },
     /// The model's own interval (too few backtest errors).
     Model,
 }
 
 impl RangeMethod {
-    /// Plain words for outputs, e.g. `calibrated ×1.42 / ×1.31 on 144 backtest errors`.
+    /// Plain words for outputs, e.g. `calibrated on 144 backtest errors
+    /// and a pool of 300 products: 80% range ×1.42, 95% range ×1.31 the
+    /// model's own`.
     pub fn describe(&self) -> String {
         match self {
             RangeMethod::Calibrated {
                 factor80,
                 factor95,
                 points,
-            } => format!(
-                "calibrated on {points} backtest errors: 80% range ×{factor80:.2}, 95% range ×{factor95:.2} the model's own"
-            ),
+                pooled,
+            } => {
+                let on = match (*points, *pooled) {
+                    (n, 0) => format!("{n} backtest errors"),
+                    (0, k) => format!("the pooled backtest errors of {k} products"),
+                    (n, k) => format!("{n} backtest errors and the pooled errors of {k} products"),
+                };
+                format!(
+                    "calibrated on {on}: 80% range ×{factor80:.2}, 95% range ×{factor95:.2} the model's own"
+                )
+            }
             RangeMethod::Model => format!(
                 "the model's own interval (fewer than {MIN_POINTS} backtest errors to calibrate on)"
             ),
@@ -93,9 +133,9 @@ fn score(p: &Point, lower: f64, upper: f64) -> f64 {
     }
 }
 
-/// The conformal factor at `level` from the scored points, or `None`.
-pub fn factor(points: &[Point], level: f64) -> Option<f64> {
-    let mut r: Vec<f64> = points
+/// The finite nonconformity scores of the scored points at `level`.
+pub fn scores_at(points: &[Point], level: f64) -> Vec<f64> {
+    points
         .iter()
         .filter(|p| p.scored)
         .map(|p| {
@@ -105,15 +145,121 @@ pub fn factor(points: &[Point], level: f64) -> Option<f64> {
                 score(p, p.lower95, p.upper95)
             }
         })
-        .collect();
+        .filter(|r| r.is_finite())
+        .collect()
+}
+
+/// The finite-sample conformal quantile of `r` at `level` (sorts `r`).
+fn conformal_quantile(r: &mut [f64], level: f64) -> Option<f64> {
     let n = r.len();
-    if n < MIN_POINTS {
+    if n == 0 {
         return None;
     }
     r.sort_by(f64::total_cmp);
     let k = (((n + 1) as f64) * level).ceil() as usize;
     let q = r[k.clamp(1, n) - 1];
     q.is_finite().then_some(q)
+}
+
+/// The conformal factor at `level` from the scored points, or `None`.
+pub fn factor(points: &[Point], level: f64) -> Option<f64> {
+    let scored = points.iter().filter(|p| p.scored).count();
+    if scored < MIN_POINTS {
+        return None;
+    }
+    let mut r = scores_at(points, level);
+    // A point whose interval has no width on the side its error fell
+    // makes the quantile infinite when it reaches it.
+    r.resize(scored, f64::INFINITY);
+    conformal_quantile(&mut r, level)
+}
+
+/// One product's contribution to a pool: its demand class and its scores
+/// at 80% and 95%.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PoolEntry {
+    /// Demand class name (products pool with their class).
+    pub class: String,
+    /// Scores at 80%.
+    pub r80: Vec<f64>,
+    /// Scores at 95%.
+    pub r95: Vec<f64>,
+}
+
+/// Pooled factors per demand class, and over all products.
+#[derive(Debug, Clone, Default)]
+pub struct Pool {
+    by_class: Vec<(String, [f64; 2], usize)>,
+    all: Option<([f64; 2], usize)>,
+}
+
+impl Pool {
+    /// Builds the pool from every product's entry (products with fewer than
+    /// [`MIN_POINTS`] scores do not contribute).
+    pub fn build<'a>(entries: impl IntoIterator<Item = &'a PoolEntry>) -> Pool {
+        let entries: Vec<&PoolEntry> = entries
+            .into_iter()
+            .filter(|e| e.r80.len() >= MIN_POINTS && e.r95.len() >= MIN_POINTS)
+            .collect();
+        let quantiles = |group: &[&PoolEntry]| -> Option<[f64; 2]> {
+            let mut r80: Vec<f64> = group.iter().flat_map(|e| e.r80.iter().copied()).collect();
+            let mut r95: Vec<f64> = group.iter().flat_map(|e| e.r95.iter().copied()).collect();
+            Some([
+                conformal_quantile(&mut r80, 0.80)?,
+                conformal_quantile(&mut r95, 0.95)?,
+            ])
+        };
+        let mut classes: Vec<&str> = entries.iter().map(|e| e.class.as_str()).collect();
+        classes.sort_unstable();
+        classes.dedup();
+        let by_class = classes
+            .into_iter()
+            .filter_map(|c| {
+                let group: Vec<&PoolEntry> =
+                    entries.iter().copied().filter(|e| e.class == c).collect();
+                (group.len() >= POOL_MIN_PRODUCTS)
+                    .then(|| quantiles(&group).map(|q| (c.to_string(), q, group.len())))
+                    .flatten()
+            })
+            .collect();
+        let all = (entries.len() >= POOL_MIN_PRODUCTS)
+            .then(|| quantiles(&entries).map(|q| (q, entries.len())))
+            .flatten();
+        Pool { by_class, all }
+    }
+
+    /// The pooled factors for a class (its own pool, else all products')
+    /// and the number of products pooled.
+    pub fn factors(&self, class: &str) -> Option<([f64; 2], usize)> {
+        self.by_class
+            .iter()
+            .find(|(c, _, _)| c == class)
+            .map(|(_, q, n)| (*q, *n))
+            .or(self.all)
+    }
+}
+
+/// Calibrates a forecast carrying the model's own ranges, from the
+/// product's own factors (if any) and the pool's (if any): their mean when
+/// both exist (see the module docs).
+pub fn calibrate_pooled(
+    forecast: &mut Forecast,
+    own: Option<([f64; 2], usize)>,
+    pooled: Option<([f64; 2], usize)>,
+) -> RangeMethod {
+    let (f, points, products) = match (own, pooled) {
+        (Some((o, n)), Some((p, k))) => ([0.5 * (o[0] + p[0]), 0.5 * (o[1] + p[1])], n, k),
+        (Some((o, n)), None) => (o, n, 0),
+        (None, Some((p, k))) => (p, 0, k),
+        (None, None) => return RangeMethod::Model,
+    };
+    apply(forecast, f[0], f[1]);
+    RangeMethod::Calibrated {
+        factor80: f[0],
+        factor95: f[1],
+        points,
+        pooled: products,
+    }
 }
 
 /// Rescales one interval around the point forecast by `c`.
@@ -136,12 +282,19 @@ fn rescale(point: &[f64], i: &Interval, c: f64) -> Interval {
 }
 
 /// Calibrates a forecast's 80% and 95% ranges on backtest points of the
-/// same model; returns the method used. The point forecast is unchanged.
+/// same model alone; returns the method used. The point forecast is
+/// unchanged.
 pub fn calibrate(forecast: &mut Forecast, points: &[Point]) -> RangeMethod {
     let (Some(f80), Some(f95)) = (factor(points, 0.80), factor(points, 0.95)) else {
         return RangeMethod::Model;
     };
-    // The 95% range must stay at least as wide as the 80% one.
+    let n = points.iter().filter(|p| p.scored).count();
+    calibrate_pooled(forecast, Some(([f80, f95], n)), None)
+}
+
+/// Rescales a forecast's ranges by the factors; the 95% range stays at
+/// least as wide as the 80% one.
+fn apply(forecast: &mut Forecast, f80: f64, f95: f64) {
     let point = forecast.point.clone();
     for i in forecast.intervals.iter_mut() {
         let c = if i.level < 0.9 { f80 } else { f95 };
@@ -168,11 +321,6 @@ pub fn calibrate(forecast: &mut Forecast, points: &[Point]) -> RangeMethod {
             i.lower = lower;
             i.upper = upper;
         }
-    }
-    RangeMethod::Calibrated {
-        factor80: f80,
-        factor95: f95,
-        points: points.iter().filter(|p| p.scored).count(),
     }
 }
 
@@ -250,5 +398,91 @@ mod tests {
         let i95 = fc.interval(0.95).unwrap();
         assert!(i95.upper[0] >= i80.upper[0] && i95.lower[0] <= i80.lower[0]);
         assert!(i80.lower.iter().all(|&v| v >= 0.0));
+    }
+
+    fn entry(class: &str, scale: f64) -> PoolEntry {
+        // 40 scores k/40 × scale, k = 1..40: the conformal quantile at 80% is
+        // the ⌈41 × 0.8⌉ = 33rd smallest (33/40 × scale), at 95% the 39th.
+        let r: Vec<f64> = (1..=40).map(|k| k as f64 / 40.0 * scale).collect();
+        PoolEntry {
+            class: class.to_string(),
+            r80: r.clone(),
+            r95: r,
+        }
+    }
+
+    #[test]
+    fn pool_by_class_and_over_all() {
+        // Ten smooth products with scale 1 and ten with scale 3 pool to 800
+        // scores; the expected quantile is the ⌈(n + 1) × level⌉-th smallest
+        // of the group's scores, found by sorting them all (`brute`).
+        let mut entries: Vec<PoolEntry> = (0..10).map(|_| entry("smooth", 1.0)).collect();
+        entries.extend((0..10).map(|_| entry("smooth", 3.0)));
+        // Four intermittent products: too few for a class pool of their own.
+        entries.extend((0..4).map(|_| entry("intermittent", 2.0)));
+        let pool = Pool::build(&entries);
+        let brute = |es: &[&PoolEntry], level: f64| {
+            let mut all: Vec<f64> = es.iter().flat_map(|e| e.r80.clone()).collect();
+            all.sort_by(f64::total_cmp);
+            all[(((all.len() + 1) as f64) * level).ceil() as usize - 1]
+        };
+        let smooth: Vec<&PoolEntry> = entries.iter().filter(|e| e.class == "smooth").collect();
+        let everyone: Vec<&PoolEntry> = entries.iter().collect();
+        let (q, n) = pool.factors("smooth").unwrap();
+        assert_eq!(n, 20);
+        assert!((q[0] - brute(&smooth, 0.80)).abs() < 1e-12);
+        assert!((q[1] - brute(&smooth, 0.95)).abs() < 1e-12);
+        // The intermittent class falls back to the pool over all 24.
+        let (q, n) = pool.factors("intermittent").unwrap();
+        assert_eq!(n, 24);
+        assert!((q[0] - brute(&everyone, 0.80)).abs() < 1e-12);
+        // Fewer than POOL_MIN_PRODUCTS products in all: no pool.
+        assert!(Pool::build(&entries[..POOL_MIN_PRODUCTS - 1])
+            .factors("smooth")
+            .is_none());
+    }
+
+    #[test]
+    fn partial_pooling_takes_the_mean_of_own_and_pooled_factors() {
+        let band = |level: f64, half: f64| Interval {
+            level,
+            lower: vec![100.0 - half; 2],
+            upper: vec![100.0 + half; 2],
+        };
+        let fresh = || Forecast {
+            point: vec![100.0; 2],
+            intervals: vec![band(0.80, 10.0), band(0.95, 20.0)],
+        };
+        let mut fc = fresh();
+        let m = calibrate_pooled(&mut fc, Some(([2.0, 1.0], 144)), Some(([1.0, 2.0], 30)));
+        assert_eq!(
+            m,
+            RangeMethod::Calibrated {
+                factor80: 1.5,
+                factor95: 1.5,
+                points: 144,
+                pooled: 30
+            }
+        );
+        assert!((fc.interval(0.80).unwrap().upper[0] - 115.0).abs() < 1e-9);
+        assert!((fc.interval(0.95).unwrap().lower[1] - 70.0).abs() < 1e-9);
+        assert!(m
+            .describe()
+            .contains("144 backtest errors and the pooled errors of 30 products"));
+        // Pooled alone (too few own errors), own alone, neither.
+        let mut fc = fresh();
+        let m = calibrate_pooled(&mut fc, None, Some(([1.2, 1.1], 30)));
+        assert!(matches!(
+            m,
+            RangeMethod::Calibrated {
+                points: 0,
+                pooled: 30,
+                ..
+            }
+        ));
+        assert!((fc.interval(0.80).unwrap().upper[0] - 112.0).abs() < 1e-9);
+        let mut fc = fresh();
+        assert_eq!(calibrate_pooled(&mut fc, None, None), RangeMethod::Model);
+        assert_eq!(fc, fresh());
     }
 }

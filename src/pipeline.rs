@@ -9,7 +9,7 @@ use crate::backtest::{
     self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
 };
 use crate::calendar::YearMonth;
-use crate::calibrate::{calibrate, RangeMethod};
+use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod};
 use crate::clean::CleanSeries;
 use crate::error::Result;
 use crate::models::Forecast;
@@ -190,6 +190,9 @@ pub struct ProductForecast {
     /// The projection's forecast with the model's own, uncalibrated ranges
     /// (kept for `evaluate`'s comparison of the two).
     pub model_ranges: Option<Forecast>,
+    /// The chosen model's backtest scores for calibration pooled across the
+    /// run ([`calibrate_run`]); emptied once used.
+    pub pool_entry: Option<PoolEntry>,
     /// Problems met.
     pub warnings: Vec<String>,
 }
@@ -434,15 +437,11 @@ pub fn forecast_product_with(
     };
     let members_of = |name: &str| -> Vec<&dyn AnyModel> {
         if name == COMBINATION {
-            // The combination's fixed members that completed the backtest
-            // (without a backtest: those that can be fitted).
-            let names = bt
-                .run(COMBINATION)
-                .filter(|r| r.status == RunStatus::Complete)
-                .and_then(|r| r.members.first())
-                .filter(|m| !m.is_empty())
-                .unwrap_or(&fitting_members);
-            names.iter().filter_map(|n| find(n)).collect()
+            // The combination's fixed members that can be fitted on the
+            // whole history, as the combination is defined (a member that
+            // missed the earliest backtest origins for want of history
+            // still joins once the history is long enough).
+            fitting_members.iter().filter_map(|n| find(n)).collect()
         } else {
             find(name).into_iter().collect()
         }
@@ -492,9 +491,18 @@ pub fn forecast_product_with(
         warnings.extend(suspect_warnings(&series.product, y, &selection, p, &bt));
     }
     let model_ranges = projection.as_ref().map(|p| p.forecast.clone());
+    let mut pool_entry = None;
     let ranges = match (projection.as_mut(), bt.run(&selection.chosen)) {
         (Some(p), Some(run)) if p.model == selection.chosen => {
-            calibrate(&mut p.forecast, &bt.points(run))
+            let points = bt.points(run);
+            pool_entry = Some(PoolEntry {
+                class: class.name().to_string(),
+                r80: crate::calibrate::scores_at(&points, 0.80),
+                r95: crate::calibrate::scores_at(&points, 0.95),
+            });
+            // The product's own errors alone; [`calibrate_run`] pools them
+            // with the other products' of the run.
+            calibrate(&mut p.forecast, &points)
         }
         _ => RangeMethod::Model,
     };
@@ -535,7 +543,44 @@ pub fn forecast_product_with(
         projection,
         ranges,
         model_ranges,
+        pool_entry,
         warnings,
+    }
+}
+
+/// A product's own calibration factors, from its [`RangeMethod`].
+fn own_factors(r: &RangeMethod) -> Option<([f64; 2], usize)> {
+    match r {
+        RangeMethod::Calibrated {
+            factor80,
+            factor95,
+            points,
+            ..
+        } if *points > 0 => Some(([*factor80, *factor95], *points)),
+        _ => None,
+    }
+}
+
+/// Calibrates every product's ranges on its own backtest errors pooled
+/// with those of the run's other products of its demand class (see
+/// [`crate::calibrate`], "Partial pooling"), starting again from the
+/// model's own ranges.
+pub fn calibrate_run(results: &mut [ProductForecast]) {
+    let pool = Pool::build(results.iter().filter_map(|r| r.pool_entry.as_ref()));
+    for r in results.iter_mut() {
+        let (Some(entry), Some(own), Some(p)) = (
+            r.pool_entry.take(),
+            r.model_ranges.as_ref(),
+            r.projection.as_mut(),
+        ) else {
+            continue;
+        };
+        p.forecast = own.clone();
+        r.ranges = calibrate_pooled(
+            &mut p.forecast,
+            own_factors(&r.ranges),
+            pool.factors(&entry.class),
+        );
     }
 }
 
@@ -716,7 +761,7 @@ pub fn forecast_all_with(
             .max();
     }
     let settings = &common;
-    series
+    let mut results: Vec<ProductForecast> = series
         .par_iter()
         .map_init(candidates, |models, s| {
             let o = options.get(&s.product).unwrap_or(&none);
@@ -724,7 +769,9 @@ pub fn forecast_all_with(
             progress();
             r
         })
-        .collect()
+        .collect();
+    calibrate_run(&mut results);
+    results
 }
 
 /// Out-of-sample check of the whole procedure on one series: the last
@@ -751,6 +798,42 @@ pub struct HoldoutResult {
     pub single: Vec<(String, Option<Vec<f64>>)>,
     /// MASE scale of the shortened history (seasonal-naive in-sample MAE).
     pub scale: Option<f64>,
+    /// How the selected projection's ranges were made.
+    pub ranges: RangeMethod,
+    /// Scores for calibration pooled across the run; emptied once used.
+    pub pool_entry: Option<PoolEntry>,
+}
+
+impl HoldoutResult {
+    /// Keeps the hidden months where `keep` is true (in every forecast and
+    /// range), e.g. to score only the months whose true demand is known.
+    pub fn retain_months(&mut self, keep: &[bool]) {
+        fn retain(v: &mut Vec<f64>, keep: &[bool]) {
+            let mut k = 0;
+            v.retain(|_| {
+                k += 1;
+                keep.get(k - 1).copied().unwrap_or(false)
+            });
+        }
+        fn retain_fc(f: &mut Forecast, keep: &[bool]) {
+            retain(&mut f.point, keep);
+            for i in &mut f.intervals {
+                retain(&mut i.lower, keep);
+                retain(&mut i.upper, keep);
+            }
+        }
+        retain(&mut self.actual, keep);
+        retain(&mut self.selected_forecast, keep);
+        retain_fc(&mut self.selected_ranges, keep);
+        if let Some(m) = &mut self.model_ranges {
+            retain_fc(m, keep);
+        }
+        for (_, f) in &mut self.single {
+            if let Some(f) = f {
+                retain(f, keep);
+            }
+        }
+    }
 }
 
 /// Runs [`HoldoutResult`] for one series; `None` when the series is not
@@ -793,6 +876,7 @@ pub fn holdout_check_with(
     let mut s = settings.clone();
     s.horizon = holdout;
     let r = forecast_product_with(&short, models, &s, opts);
+    let (ranges, pool_entry) = (r.ranges, r.pool_entry);
     let selected_ranges = r.projection.map(|p| p.forecast)?;
     let mut single: Vec<(String, Option<Vec<f64>>)> = models
         .iter()
@@ -835,6 +919,8 @@ pub fn holdout_check_with(
         warnings: r.warnings,
         single,
         scale: crate::metrics::mase_scale(&short.values, crate::models::PERIOD),
+        ranges,
+        pool_entry,
     })
 }
 
@@ -855,14 +941,28 @@ pub fn holdout_all_with(
     options: &HashMap<String, ProductOptions>,
 ) -> Vec<HoldoutResult> {
     let none = ProductOptions::default();
-    series
+    let mut results: Vec<HoldoutResult> = series
         .par_iter()
         .map_init(candidates, |models, s| {
             let o = options.get(&s.product).unwrap_or(&none);
             holdout_check_with(s, models, settings, holdout, o)
         })
         .flatten()
-        .collect()
+        .collect();
+    // Ranges pooled across the products, as `forecast` does.
+    let pool = Pool::build(results.iter().filter_map(|r| r.pool_entry.as_ref()));
+    for r in results.iter_mut() {
+        let (Some(entry), Some(own)) = (r.pool_entry.take(), r.model_ranges.as_ref()) else {
+            continue;
+        };
+        r.selected_ranges = own.clone();
+        r.ranges = calibrate_pooled(
+            &mut r.selected_ranges,
+            own_factors(&r.ranges),
+            pool.factors(&entry.class),
+        );
+    }
+    results
 }
 
 #[cfg(test)]

@@ -114,8 +114,30 @@ pub fn project(
 ) -> Result<Projection> {
     let bridged = last.months_until(end).max(0) as usize;
     let mut fcs = Vec::with_capacity(models.len());
+    let mut used = Vec::with_capacity(models.len());
+    let mut first_err = None;
     for m in models {
-        fcs.push(m.fit_any(y)?.forecast(bridged + horizon, &LEVELS)?);
+        match m
+            .fit_any(y)
+            .and_then(|f| f.forecast(bridged + horizon, &LEVELS))
+        {
+            Ok(f) => {
+                fcs.push(f);
+                used.push(m.name());
+            }
+            // A combination goes on without a member that fails, as long
+            // as it keeps enough members; a single model cannot.
+            Err(e) if models.len() == 1 => return Err(e),
+            Err(e) => {
+                first_err.get_or_insert(e);
+            }
+        }
+    }
+    if models.len() > 1 && fcs.len() < crate::backtest::COMBINATION_MIN_MEMBERS {
+        return Err(first_err.unwrap_or_else(|| Error::Model {
+            model: name.to_string(),
+            message: "too few members to combine".to_string(),
+        }));
     }
     let refs: Vec<&Forecast> = fcs.iter().collect();
     let forecast = mean_forecast(&refs).ok_or_else(|| Error::Model {
@@ -130,11 +152,7 @@ pub fn project(
     let totals = ahead.chunks(12).map(|c| c.iter().sum()).collect();
     Ok(Projection {
         model: name.to_string(),
-        members: if models.len() > 1 {
-            models.iter().map(|m| m.name()).collect()
-        } else {
-            Vec::new()
-        },
+        members: if models.len() > 1 { used } else { Vec::new() },
         start: last.plus(1),
         bridged,
         forecast,

@@ -493,3 +493,55 @@ fn no_product_in_use_is_projected_at_zero() {
     }
     assert!(in_use > 50, "{in_use}");
 }
+
+/// `evaluate --truth` scores the hidden months against the `true_demand`
+/// column. Check by identity on three open series (datasets/open, real
+/// data from R and Python packages): with true demand set to twice the reported
+/// consumption, the bias against the truth must be (1 + b) / 2 − 1, where b
+/// is the bias against the reported values.
+#[test]
+fn evaluate_truth_scores_against_the_true_demand_column() {
+    let dir = tempfile::tempdir().unwrap();
+    let open = Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets/open/monthly.csv");
+    let text = std::fs::read_to_string(&open).unwrap();
+    let mut doubled = String::from("product,month,consumed,true_demand\n");
+    // Three series keep the (debug-build) run short.
+    let keep = ["AirPassengers,", "wineind,", "PBS immune sera,"];
+    for line in text
+        .lines()
+        .filter(|l| keep.iter().any(|k| l.starts_with(k)))
+    {
+        // A month without a report has no known truth either.
+        let truth = match line.rsplit(',').next().unwrap().parse::<f64>() {
+            Ok(v) => (2.0 * v).to_string(),
+            Err(_) => String::new(),
+        };
+        doubled.push_str(&format!("{line},{truth}\n"));
+    }
+    std::fs::write(dir.path().join("t.csv"), doubled).unwrap();
+    let json = |extra: &[&str]| -> serde_json::Value {
+        let mut args = vec!["evaluate", "t.csv", "--holdout", "12", "--json"];
+        args.extend_from_slice(extra);
+        let o = run_in(dir.path(), &args);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let plain = json(&[]);
+    let truth = json(&["--truth"]);
+    let bias = |v: &serde_json::Value| v["methods"][0]["bias_pct"].as_f64().unwrap() / 100.0;
+    let (b0, b1) = (bias(&plain), bias(&truth));
+    assert!(((1.0 + b0) / 2.0 - 1.0 - b1).abs() < 1e-9, "{b0} {b1}");
+    assert!(
+        b1 < -0.4,
+        "forecasts of the reported values are half the truth: {b1}"
+    );
+    // Without the column: a clear refusal naming it.
+    std::fs::copy(&open, dir.path().join("plain.csv")).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["evaluate", "plain.csv", "--holdout", "12", "--truth"],
+    );
+    assert!(!o.status.success());
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert!(e.contains("true_demand") && e.contains("line 1"), "{e}");
+}

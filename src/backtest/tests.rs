@@ -142,6 +142,62 @@ fn combination_is_the_mean_of_its_fixed_members() {
     ));
 }
 
+/// A named model forecasting the last value plus a constant, applicable
+/// only from `min` months of history.
+struct Late(&'static str, f64, usize);
+
+impl Model for Late {
+    type Fitted = SpyFit;
+    fn name(&self) -> String {
+        self.0.into()
+    }
+    fn description(&self) -> String {
+        "test model".into()
+    }
+    fn needs(&self) -> Needs {
+        Needs {
+            min_months: self.2,
+            positive: false,
+            seasonal: false,
+        }
+    }
+    fn fit(&self, y: &[f64]) -> Result<SpyFit> {
+        if y.len() < self.2 {
+            return Err(Error::NotApplicable {
+                model: self.0.into(),
+                reason: "too short".into(),
+            });
+        }
+        Ok(SpyFit(y.last().copied().unwrap_or(0.0) + self.1))
+    }
+}
+
+#[test]
+fn a_member_missing_early_origins_joins_the_combination_where_it_applies() {
+    let y: Vec<f64> = (0..30).map(|t| 100.0 + (t % 7) as f64).collect();
+    let models: Vec<Box<dyn AnyModel>> = vec![
+        Box::new(Shifted("ets-auto", 0.0)),
+        Box::new(Late("arima-auto", 30.0, 25)),
+        Box::new(Shifted("theta", 6.0)),
+    ];
+    let bt = run(&y, &[true; 30], &models, &checked(6, 3));
+    let arima = bt.run("arima-auto").unwrap();
+    assert!(matches!(arima.status, RunStatus::Incomplete { .. }));
+    let combo = bt.run(COMBINATION).unwrap();
+    // Two members at every origin: the combination is complete.
+    assert_eq!(combo.status, RunStatus::Complete);
+    for (k, &o) in bt.origins.iter().enumerate() {
+        let f = combo.forecasts[k].as_ref().unwrap();
+        if o + 1 >= 25 {
+            assert_eq!(combo.members[k], vec!["ets-auto", "arima-auto", "theta"]);
+            assert!(f.point.iter().all(|&v| (v - (y[o] + 12.0)).abs() < 1e-12));
+        } else {
+            assert_eq!(combo.members[k], vec!["ets-auto", "theta"]);
+            assert!(f.point.iter().all(|&v| (v - (y[o] + 3.0)).abs() < 1e-12));
+        }
+    }
+}
+
 #[test]
 fn settings_errors_name_the_value() {
     let e = BacktestSettings {

@@ -32,6 +32,9 @@ pub struct EvaluateArgs {
     /// Also write one row per product: the model selected, its MASE on the hidden months and the fixed combination's, and the warnings it carried.
     #[arg(long, value_name = "FILE")]
     per_product: Option<PathBuf>,
+    /// Score the hidden months against the data's `true_demand` column (a CSV written by `provisio generate --true-demand`) instead of the cleaned consumption: product-months summed over sites; months where a site wrote no row or a blank true_demand are left out.
+    #[arg(long)]
+    truth: bool,
     #[command(flatten)]
     eval: EvalArgs,
     #[command(flatten)]
@@ -137,8 +140,21 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         None => HashMap::new(),
     };
     let options = product_options(config.as_ref(), pins, given.cli("pin"));
-    let results =
+    let mut results =
         provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
+    if a.truth {
+        let truth = read_truth(&a.data)?;
+        let left_out = score_against_truth(&mut results, &cleaned.series, &truth, a.holdout);
+        say!(
+            "scored against the true demand in {}{}",
+            a.data.display(),
+            if left_out > 0 {
+                format!(" ({left_out} hidden product-month(s) left out: a site wrote no row or no true demand)")
+            } else {
+                String::new()
+            }
+        );
+    }
     print_accounting(&ds, &cleaned, 5);
     if results.is_empty() {
         anyhow::bail!(
@@ -504,4 +520,109 @@ fn write_per_product(
         c.flush()
     })?;
     Ok(())
+}
+
+/// True demand per product and month, summed over the rows (sites) that
+/// carry it, and the number of sites each product has.
+struct Truth {
+    demand: HashMap<(String, String), (f64, usize)>,
+    sites: HashMap<String, usize>,
+}
+
+/// Reads the `true_demand` column of a generated CSV.
+fn read_truth(path: &std::path::Path) -> anyhow::Result<Truth> {
+    let what = "`--truth` reads the `true_demand` column of a CSV written by `provisio generate --true-demand`";
+    let mut r = csv::ReaderBuilder::new()
+        .flexible(true)
+        .from_path(path)
+        .map_err(|e| anyhow::anyhow!("{}: cannot read: {e}; {what}", path.display()))?;
+    let header = r
+        .headers()
+        .map_err(|e| anyhow::anyhow!("{}: line 1: {e}; {what}", path.display()))?
+        .clone();
+    let col = |name: &str| header.iter().position(|h| h.trim() == name);
+    let (Some(pc), Some(mc), Some(tc)) = (col("product"), col("month"), col("true_demand")) else {
+        anyhow::bail!(
+            "{}: line 1: needs columns product, month and true_demand (has {}); {what}",
+            path.display(),
+            header.iter().collect::<Vec<_>>().join(", ")
+        );
+    };
+    let sc = col("site");
+    let mut demand: HashMap<(String, String), (f64, usize)> = HashMap::new();
+    let mut sites: HashMap<String, std::collections::HashSet<String>> = HashMap::new();
+    for (i, rec) in r.records().enumerate() {
+        let line = i + 2;
+        let rec = rec.map_err(|e| anyhow::anyhow!("{}: line {line}: {e}", path.display()))?;
+        let field = |c: usize| rec.get(c).unwrap_or("").trim();
+        let raw = field(tc);
+        let product = field(pc).to_string();
+        sites
+            .entry(product.clone())
+            .or_default()
+            .insert(sc.map(|c| field(c).to_string()).unwrap_or_default());
+        if raw.is_empty() {
+            // Unknown: the product-month is left out of the scoring.
+            continue;
+        }
+        let v: f64 = raw
+            .parse()
+            .ok()
+            .filter(|v: &f64| v.is_finite() && *v >= 0.0)
+            .ok_or_else(|| {
+                anyhow::anyhow!(
+                    "{}: line {line}, column {} (true_demand): '{}' is not a number of 0 or more (or blank when unknown)",
+                    path.display(),
+                    tc + 1,
+                    raw
+                )
+            })?;
+        let e = demand
+            .entry((product, field(mc).to_string()))
+            .or_insert((0.0, 0));
+        e.0 += v;
+        e.1 += 1;
+    }
+    Ok(Truth {
+        demand,
+        sites: sites.into_iter().map(|(p, s)| (p, s.len())).collect(),
+    })
+}
+
+/// Replaces each result's hidden actuals by the true demand, leaving out
+/// months whose truth is incomplete; returns how many were left out.
+fn score_against_truth(
+    results: &mut [provisio::pipeline::HoldoutResult],
+    series: &[provisio::clean::CleanSeries],
+    truth: &Truth,
+    holdout: usize,
+) -> usize {
+    let by_name: HashMap<&str, &provisio::clean::CleanSeries> =
+        series.iter().map(|s| (s.product.as_str(), s)).collect();
+    let mut left_out = 0;
+    for r in results.iter_mut() {
+        let Some(s) = by_name.get(r.product.as_str()) else {
+            continue;
+        };
+        let sites = truth.sites.get(&r.product).copied().unwrap_or(0);
+        let n = s.len();
+        let keep: Vec<bool> = (n - holdout..n)
+            .map(|t| {
+                let key = (r.product.clone(), s.month(t).to_string());
+                truth
+                    .demand
+                    .get(&key)
+                    .is_some_and(|&(_, rows)| sites > 0 && rows == sites)
+            })
+            .collect();
+        for (k, t) in (n - holdout..n).enumerate() {
+            if keep[k] {
+                let key = (r.product.clone(), s.month(t).to_string());
+                r.actual[k] = truth.demand[&key].0;
+            }
+        }
+        left_out += keep.iter().filter(|k| !**k).count();
+        r.retain_months(&keep);
+    }
+    left_out
 }
