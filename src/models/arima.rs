@@ -155,7 +155,7 @@ const ROOT_LIMIT: f64 = 1.01;
 /// KPSS 5% critical value, level stationarity (Kwiatkowski et al. 1992, Table 1).
 const KPSS_CRIT_5: f64 = 0.463;
 /// Seasonal-strength threshold for D = 1 (statsforecast / R forecast `nsdiffs`).
-const SEAS_THRESHOLD: f64 = 0.64;
+pub const SEAS_THRESHOLD: f64 = 0.64;
 /// At most this many orders (best CSS AICc first) are fitted by ML
 /// before falling back to (0,d,0)(0,D,0).
 const MAX_ML_TRIES: usize = 4;
