@@ -293,3 +293,31 @@ fn theta_estimated_is_close_to_statsforecast() {
         }
     }
 }
+
+// Short seasonal series: the first 25–36 months of AirPassengers and
+// wineind (open datasets shipped by R and pmdarima) are plainly seasonal
+// (both are seasonal on their whole length by statsforecast's own test,
+// above). Where the autocorrelation test misses it on the short window, the
+// STL seasonal-strength test (Wang, Smith & Hyndman 2006; threshold 0.64 of
+// R forecast's nsdiffs) must catch it, so theta is seasonally adjusted.
+#[test]
+fn theta_adjusts_short_seasonal_series_the_acf_test_misses() {
+    let limit = 1.6448536269514722; // z at 90% two-sided (standard normal tables)
+    let mut missed = 0;
+    for name in ["AirPassengers", "wineind"] {
+        let y = dataset(name);
+        for n in 25..=36 {
+            let window = &y[..n];
+            let fit = Theta::new().fit(window).unwrap();
+            if seasonality_ratio(window).is_some_and(|r| r <= limit) {
+                missed += 1;
+            }
+            assert!(
+                fit.decomposition().is_some(),
+                "{name} first {n} months: not adjusted"
+            );
+        }
+    }
+    // The case the second test exists for does occur in these windows.
+    assert!(missed > 0, "the autocorrelation test caught every window");
+}
