@@ -994,6 +994,69 @@ mod tests {
         CleanSeries::observed("P", crate::calendar::YearMonth::known(2020, 1), values)
     }
 
+    #[test]
+    fn pooled_ranges_are_the_model_ranges_times_the_stated_factors() {
+        // Twelve seasonal series of different noise: enough for a pool
+        // (POOL_MIN_PRODUCTS = 10). The stated factors (selection.csv's
+        // `ranges` column) must be the ones applied to the model's own
+        // half-widths, and the 95% range must hold the 80% one.
+        let series: Vec<CleanSeries> = (0..12)
+            .map(|k| {
+                let values: Vec<f64> = (0..60)
+                    .map(|t| {
+                        let season = 40.0 * (2.0 * std::f64::consts::PI * t as f64 / 12.0).sin();
+                        200.0 + season + ((t * (7 + k)) % (5 + 3 * k)) as f64
+                    })
+                    .collect();
+                CleanSeries::observed(
+                    &format!("P{k}"),
+                    crate::calendar::YearMonth::known(2020, 1),
+                    values,
+                )
+            })
+            .collect();
+        let settings = ForecastSettings::default().check().unwrap();
+        let results = forecast_all(&series, &settings, &HashMap::new(), &|| {});
+        for r in &results {
+            let RangeMethod::Calibrated {
+                factor80,
+                factor95,
+                pooled,
+                ..
+            } = r.ranges
+            else {
+                panic!("{}: {:?}", r.product, r.ranges);
+            };
+            assert!(pooled >= crate::calibrate::POOL_MIN_PRODUCTS, "{pooled}");
+            let (p, own) = (
+                r.projection.as_ref().unwrap(),
+                r.model_ranges.as_ref().unwrap(),
+            );
+            for (level, c) in [(0.80, factor80), (0.95, factor95)] {
+                let (i, o) = (
+                    p.forecast.interval(level).unwrap(),
+                    own.interval(level).unwrap(),
+                );
+                for t in 0..o.upper.len() {
+                    let f = own.point[t];
+                    let want = f + c * (o.upper[t] - f);
+                    // The 95% range may be widened to hold the 80% one.
+                    assert!(i.upper[t] >= want - 1e-9, "{} {level} t={t}", r.product);
+                    if level < 0.9 {
+                        assert!((i.upper[t] - want).abs() < 1e-9, "{} t={t}", r.product);
+                    }
+                }
+            }
+            let (i80, i95) = (
+                p.forecast.interval(0.80).unwrap(),
+                p.forecast.interval(0.95).unwrap(),
+            );
+            assert!(i80.upper.iter().zip(&i95.upper).all(|(a, b)| b >= a));
+            assert!(i80.lower.iter().zip(&i95.lower).all(|(a, b)| b <= a));
+            assert!(r.pool_entry.is_none(), "pool entries are dropped once used");
+        }
+    }
+
     fn run(series: &CleanSeries, opts: &ProductOptions) -> ProductForecast {
         let settings = ForecastSettings::default().check().unwrap();
         forecast_product_with(series, &candidates(), &settings, opts)

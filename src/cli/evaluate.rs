@@ -133,7 +133,12 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     }
     let fs = settings(&a.eval, a.holdout);
     let checked = fs.check()?;
-    let (ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
+    let (mut ds, cleaned) = super::load(&a.data, &a.read, &a.clean)?;
+    if a.truth {
+        // The true demand column is used here, by the scoring.
+        ds.warnings
+            .retain(|w| !w.ends_with("extra columns kept in the file but not used: true_demand"));
+    }
     let t0 = Instant::now();
     let pins = match &a.eval.pin {
         Some(p) => read_pins(p)?,
