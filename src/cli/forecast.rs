@@ -74,7 +74,7 @@ pub struct EvalArgs {
 
 #[derive(Args, Debug)]
 pub struct ForecastArgs {
-    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site; may instead come from the configuration file.
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet); long layout (product, month, consumed, optional stockout_days, reporting_rate, site) or wide (product, optional site, a column per month; see --layout); may instead come from the configuration file.
     data: Option<PathBuf>,
     /// Directory for the outputs (created if needed); may instead come from the configuration file.
     #[arg(long, value_name = "DIR")]

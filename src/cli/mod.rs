@@ -705,11 +705,16 @@ fn print_accounting(
 ) {
     let r = cleaned.rows;
     note!(
-        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}",
+        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}{}",
         r.read,
         r.used,
         r.adjusted,
         r.rejected,
+        if ds.layout.wide.is_some() {
+            " (wide layout: each counted here is one value, a product, site and month with something in its cell)"
+        } else {
+            ""
+        },
         if r.balances() {
             ""
         } else {

@@ -425,6 +425,8 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         }
     }
     if let Some((header_at, header)) = wide_found {
+        let header_line = line_of(&rows[header_at]);
+        let all_rows = &rows;
         let rows: Vec<SheetRow<'_>> = rows[header_at + 1..].to_vec();
         let formulas = read_formulas(&mut book, &name, &options.limits).filter(|f| !f.is_empty());
         let companions = load_companions(source, options, Some(&mut book))?;
@@ -458,6 +460,21 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             &input_err,
             &reread,
         )?;
+        let above: Vec<String> = non_blank
+            .iter()
+            .map(|&i| line_of(&all_rows[i]))
+            .filter(|&l| l < header_line)
+            .map(|l| l.to_string())
+            .collect();
+        if !above.is_empty() {
+            ds.warnings.insert(
+                0,
+                format!(
+                    "sheet '{name}': row(s) {} above the header row {header_line} were not read (titles?)",
+                    above.join(", ")
+                ),
+            );
+        }
         add_sheet_warnings(&mut ds, options, &name, why, sheets.len(), &listed());
         return Ok(ds);
     }
@@ -469,7 +486,7 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         None => {
             let names = header_of(first);
             let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-            let message = match map_header(&refs) {
+            let mut message = match map_header(&refs) {
                 Err(_) if options.layout == TableLayout::Wide => format!(
                     "--layout wide: no header row with a 'product' column and month columns ({}) in the first {MAX_TITLE_ROWS} rows",
                     wide::MONTH_HEADERS
@@ -477,6 +494,29 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
                 Err(m) => m,
                 Ok(_) => "no header row found".to_string(),
             };
+            // A row of one cell is a title, not a header to correct.
+            let filled = names.iter().filter(|n| !n.trim().is_empty()).count();
+            if sheets.len() > 1 || filled < 2 {
+                let this = format!(
+                    "no header row in the first {MAX_TITLE_ROWS} rows of this sheet names the columns {} (long layout) or a 'product' column and month columns (wide layout); its first cells are {}",
+                    REQUIRED.join(", "),
+                    first_cells(&rows[first])
+                );
+                message = if filled >= 2 {
+                    format!(
+                        "{this}; if row {} is meant as the header: {message}",
+                        line_of(&rows[first])
+                    )
+                } else {
+                    this
+                };
+                if sheets.len() > 1 {
+                    let listing = describe_sheets(&mut book, &meta, &name, options);
+                    message = format!(
+                        "{message}. The workbook's sheets: {listing}. Choose the sheet that holds the data with --sheet NAME"
+                    );
+                }
+            }
             return Err(sheet_err(line_of(&rows[first]), None, message));
         }
     };
@@ -591,6 +631,89 @@ fn add_sheet_warnings(
             options.encoding.name()
         ));
     }
+}
+
+/// The first cells of a row that hold something, quoted (at most four,
+/// each cut to 40 characters).
+fn first_cells(row: &SheetRow<'_>) -> String {
+    let cells: Vec<String> = row
+        .cells
+        .iter()
+        .map(|(c, _)| row.get((c - row.first_col) as usize).shown())
+        .filter(|t| !t.is_empty())
+        .take(4)
+        .map(|t| format!("\"{}\"", crate::chart::cut(&t, 40)))
+        .collect();
+    if cells.is_empty() {
+        "empty".to_string()
+    } else {
+        cells.join(", ")
+    }
+}
+
+/// Each sheet of the workbook with its first cells, and whether a header
+/// provisio reads is on it: `'Data': "product", "month", "consumed" (a
+/// header provisio reads, row 1)`.
+fn describe_sheets<RS: Read + Seek>(
+    book: &mut Sheets<RS>,
+    meta: &[Sheet],
+    current: &str,
+    options: &ReadOptions,
+) -> String {
+    let mut out = Vec::new();
+    for sheet in meta {
+        let mut text = format!("'{}'", sheet.name);
+        if sheet.visible != SheetVisible::Visible {
+            text.push_str(" (hidden)");
+        }
+        if sheet.name == current {
+            text.push_str(" (this one)");
+        }
+        match read_cells(book, &sheet.name, &options.limits) {
+            Err(_) => text.push_str(": cannot be read"),
+            Ok(stored) => {
+                let first_col = stored
+                    .iter()
+                    .filter_map(|r| r.cells.first().map(|(c, _)| *c))
+                    .min()
+                    .unwrap_or(0);
+                let rows: Vec<SheetRow<'_>> = stored
+                    .iter()
+                    .map(|r| SheetRow {
+                        cells: &r.cells,
+                        formulas: None,
+                        row: r.row,
+                        first_col,
+                    })
+                    .filter(|r| !r.is_blank())
+                    .take(MAX_TITLE_ROWS)
+                    .collect();
+                match rows.first() {
+                    None => text.push_str(": empty"),
+                    Some(r) => text.push_str(&format!(": {}", first_cells(r))),
+                }
+                let letter = |i: usize| column_letter(first_col.saturating_add(i as u32));
+                let header = rows.iter().find_map(|r| {
+                    let wide = matches!(wide::classify(r, &letter, false), wide::Header::Wide(_));
+                    let names: Vec<String> = (0..r.width()).map(|c| r.get(c).shown()).collect();
+                    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+                    let long = map_header(&refs).is_ok();
+                    (wide || long).then(|| {
+                        format!(
+                            " (a header provisio reads, {} layout, row {})",
+                            if wide { "wide" } else { "long" },
+                            r.row as u64 + 1
+                        )
+                    })
+                });
+                if let Some(h) = header {
+                    text.push_str(&h);
+                }
+            }
+        }
+        out.push(text);
+    }
+    out.join("; ")
 }
 
 /// Widest row, for the rows' text in the rejected-row log.
