@@ -73,6 +73,8 @@ const fn key(
 pub const DUPLICATES: [&str; 2] = ["reject", "sum"];
 /// Valid names of `input.numbers`.
 pub const NUMBERS: [&str; 3] = ["plain", "grouped", "decimal-comma"];
+/// Valid names of `input.layout`.
+pub const LAYOUTS: [&str; 3] = ["auto", "long", "wide"];
 /// Valid names of `input.encoding`.
 pub const ENCODINGS: [&str; 3] = ["utf-8", "latin1", "windows-1252"];
 /// Valid names of `selection.select_by`.
@@ -100,6 +102,11 @@ pub const KEYS: &[KeyDoc] = &[
     key("input", "numbers", "text", "\"plain\"", "\"plain\", \"grouped\", \"decimal-comma\"", "how numbers are written in the file", "\"plain\""),
     key("input", "encoding", "text", "\"utf-8\"", "\"utf-8\", \"latin1\", \"windows-1252\"", "text encoding of the file", "\"utf-8\""),
     key("input", "sheet", "text", "the first sheet", "a sheet name of the workbook", "sheet to read when the input is a workbook (.xlsx, .xlsm, .xls, .ods)", "\"Consumption\""),
+    key("input", "layout", "text", "\"auto\"", "\"auto\", \"long\", \"wide\"", "how the table is laid out: a row per product and month (long), a row per product (and site) and a column per month (wide), or found from the header (auto)", "\"wide\""),
+    key("input", "stockout_file", "text (path)", "not set", "a CSV file or workbook", "wide layout: stockout days as a table of the same shape; relative to the folder of the configuration file", "\"stockout_days.csv\""),
+    key("input", "stockout_sheet", "text", "not set", "a sheet name", "wide layout: the sheet of stockout days (of stockout_file when set, else of the input workbook)", "\"Stockout days\""),
+    key("input", "rate_file", "text (path)", "not set", "a CSV file or workbook", "wide layout: reporting rates as a table of the same shape; relative to the folder of the configuration file", "\"reporting_rates.csv\""),
+    key("input", "rate_sheet", "text", "not set", "a sheet name", "wide layout: the sheet of reporting rates (of rate_file when set, else of the input workbook)", "\"Reporting rates\""),
     key("cleaning", "max_stockout_days", "number", "15.0", "0 to 31", "a month with more stockout days is treated as missing", "15.0"),
     key("cleaning", "reporting_floor", "number", "0.5", "above 0, at most 1", "a month reported below this rate (fraction) is treated as missing", "0.5"),
     key("cleaning", "nonreporting_weight", "number", "1.0", "0 to 1", "k: consumption assumed for non-reporting facilities relative to reporting ones (1 = divide by the rate)", "1.0"),
@@ -149,6 +156,16 @@ pub struct InputSection {
     pub encoding: Option<String>,
     /// Sheet of a workbook input (default: the first sheet).
     pub sheet: Option<String>,
+    /// Table layout name (see [`LAYOUTS`]).
+    pub layout: Option<String>,
+    /// Wide layout: file of stockout days, relative to the configuration file's folder.
+    pub stockout_file: Option<String>,
+    /// Wide layout: sheet of stockout days.
+    pub stockout_sheet: Option<String>,
+    /// Wide layout: file of reporting rates, relative to the configuration file's folder.
+    pub rate_file: Option<String>,
+    /// Wide layout: sheet of reporting rates.
+    pub rate_sheet: Option<String>,
 }
 
 /// `[cleaning]`: the fields of [`CleanSettings`].
@@ -466,6 +483,7 @@ impl RunConfig {
         one_of("input", "duplicates", &self.input.duplicates, &DUPLICATES)?;
         one_of("input", "numbers", &self.input.numbers, &NUMBERS)?;
         one_of("input", "encoding", &self.input.encoding, &ENCODINGS)?;
+        one_of("input", "layout", &self.input.layout, &LAYOUTS)?;
         one_of("selection", "select_by", &self.selection.select_by, &SCORES)?;
         one_of(
             "backtest",
@@ -695,6 +713,11 @@ mod tests {
                 numbers: Some("decimal-comma".into()),
                 encoding: Some("latin1".into()),
                 sheet: Some("Consumption 2025".into()),
+                layout: Some("wide".into()),
+                stockout_file: Some("stockout_days.csv".into()),
+                stockout_sheet: None,
+                rate_file: Some("rates.xlsx".into()),
+                rate_sheet: Some("Rates".into()),
             },
             cleaning: CleaningSection {
                 max_stockout_days: Some(12.0),

@@ -201,6 +201,15 @@ const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
     ("all_zeros_product.csv", &[], Accepted, "Condoms: fit with care: 12 months reported: fewer than 24, so seasonality cannot be estimated; intermittent: 100% of reported months are zero"),
     ("odd_product_names.csv", &[], Accepted, "<script>alert(1)</script>: not fit"),
     ("long_product_name.csv", &[], Accepted, "rows read: 3 = 3 used as reported + 0 adjusted + 0 rejected"),
+    // The wide layout: a row per product, a column per month; values counted one by one.
+    ("wide_duplicate_month.csv", &[], Refused, "wide_duplicate_month.csv:1: column D (2024-01): the month 2024-01 has two columns, column B (Jan 2024) and column D (2024-01); each month must have one column"),
+    ("wide_unreadable_month.csv", &[], Refused, "wide_unreadable_month.csv:1: column C (Febuary 2024): the header \"Febuary 2024\" looks like a month but cannot be read as one; month columns are headed like 2024-03"),
+    ("wide_no_product.csv", &[], Refused, "wide_no_product.csv:1: the header has 3 month columns (the wide layout: one row per product, one column per month) but no column named 'product'"),
+    ("wide_bad_number.csv", &[], RowRejected, "wide_bad_number.csv: line 3, column D (Mar 2024): \"12a\" is not a number"),
+    ("wide_totals_row.csv", &[], RowRejected, "wide_totals_row.csv: line 4, column B (Jan 2024): the row's product is 'Grand total', a totals row of the table, not a product"),
+    // Blank cells are months not reported: 4 values, not 8 (and no zeros).
+    ("wide_blank_cells.csv", &[], Accepted, "rows read: 4 = 4 used as reported + 0 adjusted + 0 rejected (wide layout"),
+    ("wide_blank_cells.csv", &["--layout", "long"], Refused, "wide_blank_cells.csv:1: missing required columns 'month', 'consumed'"),
 ];
 
 #[test]

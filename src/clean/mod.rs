@@ -265,11 +265,17 @@ pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
             Err(reason) => unusable.push((r.product, reason)),
         }
     }
-    let changed: HashSet<u64> = log
+    // Keyed by line and month: in the wide layout one line holds a value
+    // for each month.
+    let changed: HashSet<(u64, YearMonth)> = log
         .iter()
         .filter(|a| a.rule.changes_value())
-        .filter_map(|a| a.line)
-        .chain(data.merged.iter().flat_map(|m| [m.line, m.into_line]))
+        .filter_map(|a| a.line.map(|l| (l, a.month)))
+        .chain(
+            data.merged
+                .iter()
+                .flat_map(|m| [(m.line, m.month), (m.into_line, m.month)]),
+        )
         .collect();
     // Counted per row, not per distinct line, so the accounting holds
     // whatever the line numbers are.
@@ -277,8 +283,8 @@ pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
     let adjusted = data
         .rows
         .iter()
-        .map(|r| r.line)
-        .chain(data.merged.iter().map(|m| m.line))
+        .map(|r| (r.line, r.month))
+        .chain(data.merged.iter().map(|m| (m.line, m.month)))
         .filter(|l| changed.contains(l))
         .count();
     let rows = RowAccount {

@@ -9,7 +9,7 @@ use provisio::output;
 
 #[derive(Args, Debug)]
 pub struct CleanCmdArgs {
-    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site.
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet); long layout (product, month, consumed, optional stockout_days, reporting_rate, site) or wide (product, optional site, a column per month; see --layout).
     data: PathBuf,
     /// Directory for the outputs (created if needed).
     #[arg(long, value_name = "DIR")]

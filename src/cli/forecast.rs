@@ -74,7 +74,7 @@ pub struct EvalArgs {
 
 #[derive(Args, Debug)]
 pub struct ForecastArgs {
-    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site; may instead come from the configuration file.
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet); long layout (product, month, consumed, optional stockout_days, reporting_rate, site) or wide (product, optional site, a column per month; see --layout); may instead come from the configuration file.
     data: Option<PathBuf>,
     /// Directory for the outputs (created if needed); may instead come from the configuration file.
     #[arg(long, value_name = "DIR")]
@@ -170,7 +170,7 @@ impl LoadedConfig {
         read: &mut ReadArgs,
         clean: &mut CleanArgs,
     ) -> anyhow::Result<()> {
-        read.apply_config(&self.cfg.input, given)?;
+        read.apply_config(&self.cfg.input, given, &self.dir)?;
         clean.apply_config(&self.cfg.cleaning, given);
         clean.apply_products(&self.cfg);
         Ok(())
@@ -230,7 +230,7 @@ impl LoadedConfig {
 
 /// A path as written into a configuration file in `dir`: relative to that
 /// folder (with `..` as needed), absolute when they share no root.
-fn path_for_config(p: &Path, dir: &Path) -> String {
+pub(super) fn path_for_config(p: &Path, dir: &Path) -> String {
     use std::path::Component;
     let abs = |x: &Path| std::path::absolute(x).unwrap_or_else(|_| x.to_path_buf());
     // Lexical: `a/./b` and `a/../b` folded so the common prefix is found.
@@ -664,7 +664,7 @@ fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> R
     };
     cfg.input.data = a.data.as_ref().map(|p| path_for_config(p, dir));
     cfg.input.until = a.until.map(|m| m.to_string());
-    a.read.to_config(&mut cfg.input);
+    a.read.to_config(&mut cfg.input, dir);
     cfg.cleaning = a.clean.to_config();
     a.eval.to_config(&mut cfg, dir);
     cfg.projection.horizon = Some(a.horizon);

@@ -8,7 +8,7 @@ use super::{load, pad, print_accounting, truncate, CleanArgs, ReadArgs};
 
 #[derive(Args, Debug)]
 pub struct InspectArgs {
-    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet), long format: product, month, consumed, optional stockout_days, reporting_rate, site.
+    /// Input data: a CSV, or a workbook (.xlsx, .xlsm, .xls, .ods; see --sheet); long layout (product, month, consumed, optional stockout_days, reporting_rate, site) or wide (product, optional site, one column per month; see --layout).
     data: PathBuf,
     /// Also write the profile as CSV to this file.
     #[arg(long, value_name = "FILE")]
@@ -44,6 +44,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
         serde_json::json!({
             "command": "inspect",
             "input": ds.source,
+            "layout": if ds.layout.wide.is_some() { "wide" } else { "long" },
             "rows": cleaned.rows,
             "products": products,
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
@@ -86,6 +87,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
         super::say!("{}: {}", truncate(&p.product, 60), p.verdict_text());
     }
     super::say!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
+    super::note!("layout: {}", layout_text(&ds));
     print_accounting(&ds, &cleaned, 20);
     if let Some(path) = &a.csv {
         provisio::output::write_quality(path, &profiles)?;
@@ -96,4 +98,12 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
         super::note!("wrote {}", path.display());
     }
     Ok(())
+}
+
+/// The layout read, in words.
+fn layout_text(ds: &provisio::data::Dataset) -> String {
+    match &ds.layout.wide {
+        Some(w) => w.describe(),
+        None => "long: one row per product (and site) and month".to_string(),
+    }
 }

@@ -258,6 +258,31 @@ pub struct ReadArgs {
     /// Sheet to read from a workbook (.xlsx, .xlsm, .xls, .ods); default: the first sheet.
     #[arg(long, value_name = "NAME")]
     sheet: Option<String>,
+    /// How the table is laid out: long (a row per product and month), wide (a row per product, or product and site, and a column per month), or auto (found from the header).
+    #[arg(long, value_enum, default_value_t = Layout::Auto)]
+    layout: Layout,
+    /// Wide layout: stockout days as a table of the same shape (product rows, month columns) in this file, CSV or workbook.
+    #[arg(long, value_name = "FILE")]
+    stockout_file: Option<std::path::PathBuf>,
+    /// Wide layout: stockout days on this sheet (of --stockout-file when given, else of the input workbook).
+    #[arg(long, value_name = "NAME")]
+    stockout_sheet: Option<String>,
+    /// Wide layout: reporting rates as a table of the same shape in this file, CSV or workbook.
+    #[arg(long, value_name = "FILE")]
+    rate_file: Option<std::path::PathBuf>,
+    /// Wide layout: reporting rates on this sheet (of --rate-file when given, else of the input workbook).
+    #[arg(long, value_name = "NAME")]
+    rate_sheet: Option<String>,
+}
+
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum Layout {
+    /// Found from the header: wide when it has a product column, no month column, and mostly months as columns.
+    Auto,
+    /// One row per product (and site) and month.
+    Long,
+    /// One row per product (and site), one column per month.
+    Wide,
 }
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -298,6 +323,7 @@ impl ReadArgs {
         &mut self,
         c: &provisio::config::InputSection,
         given: &Given,
+        dir: &std::path::Path,
     ) -> anyhow::Result<()> {
         if let (Some(v), false) = (&c.duplicates, given.cli("duplicates")) {
             self.duplicates = enum_value(v)?;
@@ -311,16 +337,46 @@ impl ReadArgs {
         if let (Some(v), false) = (&c.sheet, given.cli("sheet")) {
             self.sheet = Some(v.clone());
         }
+        if let (Some(v), false) = (&c.layout, given.cli("layout")) {
+            self.layout = enum_value(v)?;
+        }
+        let path = |p: &String| {
+            let p = std::path::Path::new(p);
+            if p.is_absolute() {
+                p.to_path_buf()
+            } else {
+                dir.join(p)
+            }
+        };
+        if let (Some(v), false) = (&c.stockout_file, given.cli("stockout_file")) {
+            self.stockout_file = Some(path(v));
+        }
+        if let (Some(v), false) = (&c.stockout_sheet, given.cli("stockout_sheet")) {
+            self.stockout_sheet = Some(v.clone());
+        }
+        if let (Some(v), false) = (&c.rate_file, given.cli("rate_file")) {
+            self.rate_file = Some(path(v));
+        }
+        if let (Some(v), false) = (&c.rate_sheet, given.cli("rate_sheet")) {
+            self.rate_sheet = Some(v.clone());
+        }
         Ok(())
     }
 
     /// The `[input]` values in effect.
-    fn to_config(&self, c: &mut provisio::config::InputSection) {
+    fn to_config(&self, c: &mut provisio::config::InputSection, dir: &std::path::Path) {
         let o = self.options();
         c.duplicates = Some(format!("{:?}", o.duplicates).to_lowercase());
         c.numbers = Some(o.numbers.name().to_string());
         c.encoding = Some(o.encoding.name().to_string());
         c.sheet = self.sheet.clone();
+        c.layout = Some(o.layout.name().to_string());
+        let path =
+            |p: &Option<std::path::PathBuf>| p.as_ref().map(|p| forecast::path_for_config(p, dir));
+        c.stockout_file = path(&self.stockout_file);
+        c.stockout_sheet = self.stockout_sheet.clone();
+        c.rate_file = path(&self.rate_file);
+        c.rate_sheet = self.rate_sheet.clone();
     }
 
     fn options(&self) -> provisio::data::ReadOptions {
@@ -342,8 +398,27 @@ impl ReadArgs {
             latest_month: current_month(),
             sheet: self.sheet.clone(),
             limits: sheet_limits(),
+            layout: match self.layout {
+                Layout::Auto => provisio::data::TableLayout::Auto,
+                Layout::Long => provisio::data::TableLayout::Long,
+                Layout::Wide => provisio::data::TableLayout::Wide,
+            },
+            stockout: companion(&self.stockout_file, &self.stockout_sheet),
+            rate: companion(&self.rate_file, &self.rate_sheet),
         }
     }
+}
+
+/// A table of stockout days or reporting rates (wide layout), when a file
+/// or a sheet is named.
+fn companion(
+    file: &Option<std::path::PathBuf>,
+    sheet: &Option<String>,
+) -> Option<provisio::data::Companion> {
+    (file.is_some() || sheet.is_some()).then(|| provisio::data::Companion {
+        file: file.clone(),
+        sheet: sheet.clone(),
+    })
 }
 
 /// The workbook limits, raised by environment variables when a genuine
@@ -630,11 +705,16 @@ fn print_accounting(
 ) {
     let r = cleaned.rows;
     note!(
-        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}",
+        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}{}",
         r.read,
         r.used,
         r.adjusted,
         r.rejected,
+        if ds.layout.wide.is_some() {
+            " (wide layout: each counted here is one value, a product, site and month with something in its cell)"
+        } else {
+            ""
+        },
         if r.balances() {
             ""
         } else {
@@ -763,6 +843,11 @@ mod tests {
             .filter_map(|x| x.to_possible_value())
             .collect();
         assert_eq!(names(&e), c::ENCODINGS);
+        let l: Vec<_> = Layout::value_variants()
+            .iter()
+            .filter_map(|x| x.to_possible_value())
+            .collect();
+        assert_eq!(names(&l), c::LAYOUTS);
         let d: Vec<_> = Duplicates::value_variants()
             .iter()
             .filter_map(|x| x.to_possible_value())

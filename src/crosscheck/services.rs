@@ -266,6 +266,7 @@ fn as_dataset(data: &ServicesData) -> Dataset {
             reporting_rate_as_percent: false,
             extra_columns: Vec::new(),
             sheet: None,
+            wide: None,
         },
     }
 }

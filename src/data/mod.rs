@@ -8,10 +8,12 @@ mod series;
 mod sheet;
 mod text;
 mod values;
+mod wide;
 
 pub(crate) use read::{missing_columns_message, normalise_name};
 pub use read::{
-    read_csv_bytes, read_csv_path, DuplicatePolicy, ReadOptions, SheetLimits, MAX_QUANTITY,
+    read_csv_bytes, read_csv_path, Companion, DuplicatePolicy, ReadOptions, SheetLimits,
+    TableLayout, MAX_QUANTITY,
 };
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
 pub use sheet::{
@@ -66,6 +68,8 @@ pub struct MergedRow {
     pub line: u64,
     /// Line of the row that now carries its quantity.
     pub into_line: u64,
+    /// Month of both (in the wide layout a line holds many months).
+    pub month: YearMonth,
 }
 
 /// What was read from one input file.
@@ -109,6 +113,64 @@ pub struct Layout {
     pub extra_columns: Vec<String>,
     /// For a workbook: the sheet read and where the contract's columns are.
     pub sheet: Option<SheetInfo>,
+    /// For the wide layout (one row per product, one column per month):
+    /// where the month columns are and where stockout days and reporting
+    /// rates came from. `None`: the long layout.
+    pub wide: Option<WideInfo>,
+}
+
+/// The wide layout as read: one row per product (and site), one column
+/// per month. A "row" of the row accounting is then one value: one
+/// product, site and month with something in its cell.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WideInfo {
+    /// The month columns: header as written, spreadsheet letter, month.
+    pub months: Vec<(String, String, YearMonth)>,
+    /// Letter of the `product` column.
+    pub product_column: String,
+    /// Letter of the `site` column, when there is one.
+    pub site_column: Option<String>,
+    /// Where stockout days were read from (`stockouts.csv`, `sheet
+    /// 'Stockouts'`), when given.
+    pub stockout_source: Option<String>,
+    /// Where reporting rates were read from, when given.
+    pub rate_source: Option<String>,
+}
+
+impl WideInfo {
+    /// The spreadsheet letter of a month column, by its header as written.
+    pub fn letter(&self, header: &str) -> Option<&str> {
+        self.months
+            .iter()
+            .find(|(h, _, _)| h == header)
+            .map(|(_, l, _)| l.as_str())
+    }
+
+    /// One line for `inspect`: the layout read and what a counted value is.
+    pub fn describe(&self) -> String {
+        let span = match (self.months.first(), self.months.last()) {
+            (Some(a), Some(b)) => format!(", columns {} to {}", a.1, b.1),
+            _ => String::new(),
+        };
+        let mut extra = Vec::new();
+        if let Some(s) = &self.stockout_source {
+            extra.push(format!("stockout days from {s}"));
+        }
+        if let Some(s) = &self.rate_source {
+            extra.push(format!("reporting rates from {s}"));
+        }
+        format!(
+            "wide: one row per product{}, one column per month ({} month columns{span}){}; values are counted one per product{} and month with something in its cell",
+            if self.site_column.is_some() { " and site" } else { "" },
+            self.months.len(),
+            if extra.is_empty() {
+                String::new()
+            } else {
+                format!("; {}", extra.join("; "))
+            },
+            if self.site_column.is_some() { ", site" } else { "" },
+        )
+    }
 }
 
 /// Where the data was found in a workbook.
@@ -142,8 +204,26 @@ impl SheetInfo {
 impl Dataset {
     /// Where a rejected row is, for messages: `data.csv:14: column
     /// 'consumed'`, or for a workbook `data.xlsx: sheet 'Data', row 14,
-    /// column C (consumed)`.
+    /// column C (consumed)`; in the wide layout `data.csv: line 7, column
+    /// F (Mar 2024)`.
     pub fn place(&self, row: &RejectedRow) -> String {
+        if let Some(wide) = &self.layout.wide {
+            let col = row
+                .column
+                .as_deref()
+                .map(|c| match wide.letter(c) {
+                    Some(l) => format!(", column {l} ({c})"),
+                    None => format!(", column '{c}'"),
+                })
+                .unwrap_or_default();
+            return match &self.layout.sheet {
+                None => format!("{}: line {}{col}", self.source, row.line),
+                Some(sheet) => format!(
+                    "{}: sheet '{}', row {}{col}",
+                    self.source, sheet.name, row.line
+                ),
+            };
+        }
         match &self.layout.sheet {
             None => {
                 let col = row
@@ -167,6 +247,17 @@ impl Dataset {
         }
     }
 
+    /// The cell of a rejected row's value (`F7`), when its column is known:
+    /// in a workbook, or in the wide layout.
+    pub fn cell_of(&self, row: &RejectedRow) -> Option<String> {
+        let col = row.column.as_deref()?;
+        match (&self.layout.wide, &self.layout.sheet) {
+            (Some(w), _) => w.letter(col).map(|l| format!("{l}{}", row.line)),
+            (None, Some(s)) => s.cell(row.line, col),
+            (None, None) => None,
+        }
+    }
+
     /// Rows accepted (used as they are or merged into another row).
     pub fn rows_accepted(&self) -> usize {
         self.rows.len() + self.merged.len()
@@ -177,19 +268,15 @@ impl Dataset {
     /// accounting still adds up, and a warning says how many; rejected rows
     /// stay rejected. Returns the number left out.
     pub fn keep_until(&mut self, last: YearMonth) -> usize {
-        let late: std::collections::HashSet<u64> = self
-            .rows
-            .iter()
-            .filter(|r| r.month > last)
-            .map(|r| r.line)
-            .collect();
-        if late.is_empty() {
+        // A row and the rows merged into it share its month.
+        let late = self.rows.iter().filter(|r| r.month > last).count();
+        if late == 0 {
             return 0;
         }
-        self.rows.retain(|r| !late.contains(&r.line));
+        self.rows.retain(|r| r.month <= last);
         let merged_before = self.merged.len();
-        self.merged.retain(|m| !late.contains(&m.into_line));
-        let left_out = late.len() + merged_before - self.merged.len();
+        self.merged.retain(|m| m.month <= last);
+        let left_out = late + merged_before - self.merged.len();
         self.rows_read -= left_out;
         self.warnings.push(format!(
             "{left_out} row(s) dated after {last} left out as asked (until {last}); the row accounting covers the other {} row(s)",

@@ -10,6 +10,7 @@ use std::sync::Arc;
 
 use super::text::{Encoding, Fields, Hashing, Records, TextError};
 use super::values::{parse_month, parse_number, NumberFormat};
+use super::wide;
 use super::{Dataset, InputRow, Layout, MergedRow, RejectedRow};
 use crate::calendar::YearMonth;
 use crate::error::{Error, Result};
@@ -43,6 +44,49 @@ pub struct ReadOptions {
     pub sheet: Option<String>,
     /// How much of a workbook may be unpacked and stored.
     pub limits: SheetLimits,
+    /// Long layout (a row per product and month), wide (a column per
+    /// month), or found from the header.
+    pub layout: TableLayout,
+    /// Stockout days in the wide layout: a sheet or file of the same shape.
+    pub stockout: Option<Companion>,
+    /// Reporting rates in the wide layout: a sheet or file of the same shape.
+    pub rate: Option<Companion>,
+}
+
+/// How the input table is laid out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum TableLayout {
+    /// Found from the header: wide when it has a `product` column, no
+    /// `month` column, and its other columns are mostly months.
+    #[default]
+    Auto,
+    /// One row per product (and site) and month.
+    Long,
+    /// One row per product (and site), one column per month.
+    Wide,
+}
+
+impl TableLayout {
+    /// The name used on the command line and in the configuration.
+    pub fn name(self) -> &'static str {
+        match self {
+            TableLayout::Auto => "auto",
+            TableLayout::Long => "long",
+            TableLayout::Wide => "wide",
+        }
+    }
+}
+
+/// Where a wide table of stockout days or reporting rates is: a sheet of
+/// the input workbook, a separate file (CSV or workbook), or a sheet of a
+/// separate workbook. Its rows and month columns are matched with the
+/// consumption table's by product (and site) and month.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct Companion {
+    /// A separate file; `None`: the input workbook itself.
+    pub file: Option<PathBuf>,
+    /// The sheet to read (of `file` when given, else of the input workbook).
+    pub sheet: Option<String>,
 }
 
 /// Limits on what a workbook may cost to read. A workbook is compressed:
@@ -110,6 +154,9 @@ impl ReadOptions {
             },
             sheet: None,
             limits: SheetLimits::default(),
+            layout: TableLayout::Auto,
+            stockout: None,
+            rate: None,
         }
     }
 }
@@ -240,6 +287,57 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
             ),
         ));
     };
+    if options.layout != TableLayout::Long {
+        let fields = records.fields();
+        let letter = |i: usize| super::column_letter(u32::try_from(i).unwrap_or(u32::MAX));
+        match wide::classify(&fields, &letter, options.layout == TableLayout::Wide) {
+            wide::Header::Wide(header) => {
+                let companions = super::sheet::load_companions(source, options, None)?;
+                let mut warnings = Vec::new();
+                let table = wide::MainTable {
+                    source: source.to_string(),
+                    sheet: None,
+                    first_col: 0,
+                };
+                let mut reader =
+                    wide::WideReader::new(table, header, companions, options, &mut warnings)?;
+                while let Some(line) = records.next_record().map_err(text_err)? {
+                    let fields = records.fields();
+                    reader.add_row(line, &fields, &|| fields.joined(delimiter));
+                }
+                drop(records);
+                let reread = |wanted: &BTreeSet<u64>| reread_rows(open, options.encoding, wanted);
+                let mut ds = reader.finish(hashing.hex(), warnings, &input_err, &reread)?;
+                ds.layout.delimiter = delimiter;
+                ds.layout.had_bom = had_bom;
+                return Ok(ds);
+            }
+            wide::Header::Bad { column, message } => {
+                return Err(input_err(
+                    header_line,
+                    None,
+                    match column {
+                        Some(c) => format!("{c}: {message}"),
+                        None => message,
+                    },
+                ))
+            }
+            wide::Header::NotWide if options.layout == TableLayout::Wide => {
+                return Err(input_err(
+                    header_line,
+                    None,
+                    format!(
+                        "--layout wide: the header has neither a 'product' column nor month columns; the wide layout has one row per product (a 'product' column, optionally 'site') and one column per month, headed like {}",
+                        wide::MONTH_HEADERS
+                    ),
+                ))
+            }
+            wide::Header::NotWide => {}
+        }
+    }
+    if let Some(m) = wide::companions_need_wide(options) {
+        return Err(input_err(0, None, m));
+    }
     let header_names: Vec<&str> = records.fields().iter().collect();
     let (mut columns, extra_columns) = map_header(&header_names).map_err(|m| {
         // One column whose name holds another separator: the file is
@@ -293,6 +391,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
         reporting_rate_as_percent: false,
         extra_columns,
         sheet: None,
+        wide: None,
     };
     // Rows rejected as duplicates carry their text, read again from the
     // file: keeping the text of every row in case it has a duplicate would
@@ -398,6 +497,9 @@ pub(crate) struct Collector<'o> {
     plain_rate: Vec<usize>,
     rejected: Vec<RejectedRow>,
     rows_read: usize,
+    /// In the wide layout, the header of each month's column: rejections
+    /// settled at the end name it as their column.
+    month_columns: Option<HashMap<YearMonth, String>>,
 }
 
 impl<'o> Collector<'o> {
@@ -410,7 +512,35 @@ impl<'o> Collector<'o> {
             plain_rate: Vec::new(),
             rejected: Vec::new(),
             rows_read: 0,
+            month_columns: None,
         }
+    }
+
+    /// A collector for the wide layout: rejections name the month's column.
+    pub(crate) fn wide(
+        options: &'o ReadOptions,
+        unit: &'static str,
+        month_columns: HashMap<YearMonth, String>,
+    ) -> Self {
+        Collector {
+            month_columns: Some(month_columns),
+            ..Collector::new(options, unit)
+        }
+    }
+
+    /// Rows (values) read so far.
+    pub(crate) fn rows_read(&self) -> usize {
+        self.rows_read
+    }
+
+    /// Rejections so far.
+    pub(crate) fn rejected_len(&self) -> usize {
+        self.rejected.len()
+    }
+
+    /// The rejection made last, to say more about where it is.
+    pub(crate) fn last_rejected_mut(&mut self) -> Option<&mut RejectedRow> {
+        self.rejected.last_mut()
     }
 
     /// Counts a row that is refused before its values are read.
@@ -475,17 +605,38 @@ impl<'o> Collector<'o> {
             mut rejected,
             rows_read,
             options,
+            month_columns,
             ..
         } = self;
+        // The column a rejection settled here names: the contract's column,
+        // or in the wide layout the month's column.
+        let column_of = |row: &InputRow, contract: Option<&str>| -> Option<String> {
+            match &month_columns {
+                Some(m) => m.get(&row.month).cloned(),
+                None => contract.map(str::to_string),
+            }
+        };
         let mut warnings = Vec::new();
-        let (mut rows, percent) =
-            settle_rate_scale(rows, &plain_rate, unit, &mut rejected, &mut warnings);
+        let (mut rows, percent) = settle_rate_scale(
+            rows,
+            &plain_rate,
+            unit,
+            &mut rejected,
+            &mut warnings,
+            &column_of,
+        );
         drop(plain_rate);
         rows.shrink_to_fit();
 
         let mut merged = Vec::new();
-        let mut rows =
-            resolve_duplicates(rows, options.duplicates, unit, &mut rejected, &mut merged);
+        let mut rows = resolve_duplicates(
+            rows,
+            options.duplicates,
+            unit,
+            &mut rejected,
+            &mut merged,
+            &column_of,
+        );
         rows.shrink_to_fit();
         check_span(&rows).map_err(|(line, m)| input_err(line, None, m))?;
         let wanted: BTreeSet<u64> = rejected
@@ -549,6 +700,9 @@ impl<'o> Collector<'o> {
     }
 }
 
+/// The column a rejection names, from its row and the contract's column.
+type ColumnOf<'a> = dyn Fn(&InputRow, Option<&str>) -> Option<String> + 'a;
+
 /// Lines as a short list: the first ten, then how many more.
 fn some_lines(lines: &[u64]) -> String {
     let mut out: Vec<String> = lines.iter().take(10).map(u64::to_string).collect();
@@ -572,6 +726,7 @@ fn settle_rate_scale(
     unit: &str,
     rejected: &mut Vec<RejectedRow>,
     warnings: &mut Vec<String>,
+    column_of: &ColumnOf<'_>,
 ) -> (Vec<InputRow>, bool) {
     // Per product: rows with a plain rate in (0, 1] and above 1.
     let mut by_product: BTreeMap<Arc<str>, (Vec<usize>, Vec<usize>)> = BTreeMap::new();
@@ -612,7 +767,7 @@ fn settle_rate_scale(
                 let v = rows[i].reporting_rate.unwrap_or(0.0);
                 rejected.push(RejectedRow {
                     line: rows[i].line,
-                    column: Some("reporting_rate".to_string()),
+                    column: column_of(&rows[i], Some("reporting_rate")),
                     value: format_number(v),
                     reason: format!(
                         "reporting_rate {}: {what}; the fewer are refused rather than rescaled: write a fraction (0.95) or a percentage with its sign (95%)",
@@ -757,6 +912,22 @@ pub(crate) struct Columns {
 }
 
 impl Columns {
+    /// Positions in a row built from one value of the wide layout:
+    /// product, month, consumed, stockout days, reporting rate, site.
+    pub(crate) fn wide_row(in_sheet: bool, has_site: bool) -> Columns {
+        Columns {
+            product: 0,
+            month: 1,
+            consumed: 2,
+            stockout_days: Some(3),
+            reporting_rate: Some(4),
+            site: has_site.then_some(5),
+            width: 6,
+            delimiter: ',',
+            in_sheet,
+        }
+    }
+
     /// The contract's columns present, with their positions.
     pub(crate) fn present(&self) -> Vec<(&'static str, usize)> {
         let mut v = vec![
@@ -1201,6 +1372,7 @@ fn resolve_duplicates(
     unit: &str,
     rejected: &mut Vec<RejectedRow>,
     merged: &mut Vec<MergedRow>,
+    column_of: &ColumnOf<'_>,
 ) -> Vec<InputRow> {
     let mut first_of: HashMap<Key, usize> = HashMap::with_capacity(rows.len());
     let mut keep: Vec<Option<InputRow>> = Vec::with_capacity(rows.len());
@@ -1225,7 +1397,7 @@ fn resolve_duplicates(
                 match policy {
                     DuplicatePolicy::Reject if same => rejected.push(RejectedRow {
                         line: row.line,
-                        column: None,
+                        column: column_of(&row, None),
                         value: String::new(),
                         reason: format!(
                             "exact duplicate of {unit} {first_line} ({what}); the first copy is used"
@@ -1236,7 +1408,7 @@ fn resolve_duplicates(
                         conflicted[idx] = true;
                         rejected.push(RejectedRow {
                             line: row.line,
-                            column: None,
+                            column: column_of(&row, None),
                             value: String::new(),
                             reason: format!(
                                 "duplicate of {unit} {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
@@ -1259,11 +1431,12 @@ fn resolve_duplicates(
                             merged.push(MergedRow {
                                 line: row.line,
                                 into_line: first_line,
+                                month: row.month,
                             });
                         } else {
                             rejected.push(RejectedRow {
                                 line: row.line,
-                                column: None,
+                                column: column_of(&row, None),
                                 value: String::new(),
                                 reason: format!(
                                     "duplicate of {unit} {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
@@ -1283,7 +1456,7 @@ fn resolve_duplicates(
             let what = describe_key(&row);
             rejected.push(RejectedRow {
                 line: row.line,
-                column: None,
+                column: column_of(&row, None),
                 value: String::new(),
                 reason: format!("has a duplicate with different values later in the file ({what}); both rejected, the month is treated as missing"),
                 raw: String::new(),

@@ -14,7 +14,8 @@ use calamine::{Data, Reader, Sheet, SheetType, SheetVisible, Sheets};
 
 use super::read::SheetLimits;
 use super::read::{map_header, Cell, Collector, RowCells, REQUIRED};
-use super::{read_csv_path, Dataset, Layout, ReadOptions, SheetInfo};
+use super::wide;
+use super::{read_csv_path, Companion, Dataset, Layout, ReadOptions, SheetInfo, TableLayout};
 use crate::error::{Error, Result};
 
 /// File extensions read as workbooks (case-insensitive).
@@ -22,7 +23,7 @@ pub const WORKBOOK_EXTENSIONS: [&str; 4] = ["xlsx", "xlsm", "xls", "ods"];
 
 /// How many non-blank rows at the top of a sheet may be titles above the
 /// header row.
-const MAX_TITLE_ROWS: usize = 20;
+pub(crate) const MAX_TITLE_ROWS: usize = 20;
 
 /// Whether the file's extension marks it as a workbook.
 pub fn is_workbook(path: &Path) -> bool {
@@ -145,26 +146,26 @@ fn cell(d: &Data) -> Cell<'_> {
 }
 
 /// Formulas of a sheet by 0-based (row, column), only the non-empty ones.
-type Formulas = HashMap<(u32, u32), String>;
+pub(crate) type Formulas = HashMap<(u32, u32), String>;
 
 /// One row of a sheet as stored: only the cells that hold something, by
 /// 0-based column, in column order. Memory follows the cells that exist,
 /// never the sheet's bounding box (one stray cell at XFD1048576 costs one
 /// cell, not a grid of 17 billion).
-struct StoredRow {
+pub(crate) struct StoredRow {
     /// 0-based absolute row.
-    row: u32,
-    cells: Vec<(u32, Data)>,
+    pub(crate) row: u32,
+    pub(crate) cells: Vec<(u32, Data)>,
 }
 
 /// One row of the sheet, with the formulas of its empty cells when known.
 #[derive(Clone, Copy)]
-struct SheetRow<'a> {
-    cells: &'a [(u32, Data)],
-    formulas: Option<&'a Formulas>,
+pub(crate) struct SheetRow<'a> {
+    pub(crate) cells: &'a [(u32, Data)],
+    pub(crate) formulas: Option<&'a Formulas>,
     /// 0-based absolute row, and the first column of the sheet's data.
-    row: u32,
-    first_col: u32,
+    pub(crate) row: u32,
+    pub(crate) first_col: u32,
 }
 
 impl RowCells for SheetRow<'_> {
@@ -174,6 +175,16 @@ impl RowCells for SheetRow<'_> {
             .map_or(0, |(c, _)| (c - self.first_col) as usize + 1)
     }
     fn cell(&self, i: usize) -> Cell<'_> {
+        self.get(i)
+    }
+    fn is_blank(&self) -> bool {
+        SheetRow::is_blank(self)
+    }
+}
+
+impl<'a> SheetRow<'a> {
+    /// Value `i` (0-based from the first column), borrowed from the sheet.
+    pub(crate) fn get(&self, i: usize) -> Cell<'a> {
         let Some(col) = u32::try_from(i)
             .ok()
             .and_then(|i| self.first_col.checked_add(i))
@@ -191,9 +202,6 @@ impl RowCells for SheetRow<'_> {
             }
         }
         value.map_or(Cell::Empty, cell)
-    }
-    fn is_blank(&self) -> bool {
-        SheetRow::is_blank(self)
     }
 }
 
@@ -213,7 +221,7 @@ impl SheetRow<'_> {
     /// The row as read: the shown values, joined by tabs, up to `width`
     /// columns (the header's); a cell beyond them is added as
     /// `LETTER=value`, so a stray far cell does not become thousands of tabs.
-    fn raw(&self, width: usize) -> String {
+    pub(crate) fn raw(&self, width: usize) -> String {
         let mut out = String::new();
         let mut at = 0usize;
         for (c, _) in self.cells {
@@ -390,7 +398,25 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             .collect()
     };
     let mut found = None;
+    let mut wide_found = None;
+    let letter =
+        |i: usize| column_letter(first_col.saturating_add(u32::try_from(i).unwrap_or(u32::MAX)));
     for &i in &non_blank {
+        if options.layout != TableLayout::Long {
+            match wide::classify(&rows[i], &letter, options.layout == TableLayout::Wide) {
+                wide::Header::Wide(h) => {
+                    wide_found = Some((i, h));
+                    break;
+                }
+                wide::Header::Bad { column, message } => {
+                    return Err(sheet_err(line_of(&rows[i]), column, message))
+                }
+                wide::Header::NotWide => {}
+            }
+            if options.layout == TableLayout::Wide {
+                continue;
+            }
+        }
         let names = header_of(i);
         let refs: Vec<&str> = names.iter().map(String::as_str).collect();
         if let Ok(m) = map_header(&refs) {
@@ -398,15 +424,99 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             break;
         }
     }
+    if let Some((header_at, header)) = wide_found {
+        let header_line = line_of(&rows[header_at]);
+        let all_rows = &rows;
+        let rows: Vec<SheetRow<'_>> = rows[header_at + 1..].to_vec();
+        let formulas = read_formulas(&mut book, &name, &options.limits).filter(|f| !f.is_empty());
+        let companions = load_companions(source, options, Some(&mut book))?;
+        let mut warnings = Vec::new();
+        let table = wide::MainTable {
+            source: source.to_string(),
+            sheet: Some(name.clone()),
+            first_col,
+        };
+        let mut reader = wide::WideReader::new(table, header, companions, options, &mut warnings)?;
+        let width = header_width_of(&rows);
+        for r in &rows {
+            let r = SheetRow {
+                formulas: formulas.as_ref(),
+                ..*r
+            };
+            reader.add_row(line_of(&r), &r, &|| r.raw(width));
+        }
+        let input_err = |row: u64, column: Option<&str>, message: String| {
+            sheet_err(row, column.map(str::to_string), message)
+        };
+        let reread = |wanted: &BTreeSet<u64>| -> HashMap<u64, String> {
+            rows.iter()
+                .filter(|r| wanted.contains(&line_of(r)))
+                .map(|r| (line_of(r), r.raw(width)))
+                .collect()
+        };
+        let mut ds = reader.finish(
+            crate::output::sha256_hex(bytes),
+            warnings,
+            &input_err,
+            &reread,
+        )?;
+        let above: Vec<String> = non_blank
+            .iter()
+            .map(|&i| line_of(&all_rows[i]))
+            .filter(|&l| l < header_line)
+            .map(|l| l.to_string())
+            .collect();
+        if !above.is_empty() {
+            ds.warnings.insert(
+                0,
+                format!(
+                    "sheet '{name}': row(s) {} above the header row {header_line} were not read (titles?)",
+                    above.join(", ")
+                ),
+            );
+        }
+        add_sheet_warnings(&mut ds, options, &name, why, sheets.len(), &listed());
+        return Ok(ds);
+    }
+    if let Some(m) = wide::companions_need_wide(options) {
+        return Err(sheet_err(0, None, m));
+    }
     let (header_at, (mut columns, extra_columns)) = match found {
         Some(f) => f,
         None => {
             let names = header_of(first);
             let refs: Vec<&str> = names.iter().map(String::as_str).collect();
-            let message = match map_header(&refs) {
+            let mut message = match map_header(&refs) {
+                Err(_) if options.layout == TableLayout::Wide => format!(
+                    "--layout wide: no header row with a 'product' column and month columns ({}) in the first {MAX_TITLE_ROWS} rows",
+                    wide::MONTH_HEADERS
+                ),
                 Err(m) => m,
                 Ok(_) => "no header row found".to_string(),
             };
+            // A row of one cell is a title, not a header to correct.
+            let filled = names.iter().filter(|n| !n.trim().is_empty()).count();
+            if sheets.len() > 1 || filled < 2 {
+                let this = format!(
+                    "no header row in the first {MAX_TITLE_ROWS} rows of this sheet names the columns {} (long layout) or a 'product' column and month columns (wide layout); its first cells are {}",
+                    REQUIRED.join(", "),
+                    first_cells(&rows[first])
+                );
+                message = if filled >= 2 {
+                    format!(
+                        "{this}; if row {} is meant as the header: {message}",
+                        line_of(&rows[first])
+                    )
+                } else {
+                    this
+                };
+                if sheets.len() > 1 {
+                    let listing = describe_sheets(&mut book, &meta, &name, options);
+                    message = format!(
+                        "{message}. The workbook's sheets: {listing}. Choose the sheet that holds the data with --sheet NAME"
+                    );
+                }
+            }
             return Err(sheet_err(line_of(&rows[first]), None, message));
         }
     };
@@ -461,6 +571,7 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         reporting_rate_as_percent: false,
         extra_columns,
         sheet: Some(info.clone()),
+        wide: None,
     };
     let input_err = |row: u64, column: Option<&str>, message: String| {
         sheet_err(row, column.map(|c| info.column(c)), message)
@@ -492,12 +603,25 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             ),
         );
     }
-    if options.sheet.is_none() && sheets.len() > 1 {
+    add_sheet_warnings(&mut ds, options, &name, why, sheets.len(), &listed());
+    Ok(ds)
+}
+
+/// The warnings every sheet read may carry: which sheet was read when the
+/// workbook has several, and an encoding that does not apply.
+fn add_sheet_warnings(
+    ds: &mut Dataset,
+    options: &ReadOptions,
+    name: &str,
+    why: &str,
+    sheets: usize,
+    listed: &str,
+) {
+    if options.sheet.is_none() && sheets > 1 {
         ds.warnings.insert(
             0,
             format!(
-                "sheet '{name}' was read ({why}); the workbook's sheets are {}; choose another with --sheet",
-                listed()
+                "sheet '{name}' was read ({why}); the workbook's sheets are {listed}; choose another with --sheet"
             ),
         );
     }
@@ -507,7 +631,213 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             options.encoding.name()
         ));
     }
-    Ok(ds)
+}
+
+/// The first cells of a row that hold something, quoted (at most four,
+/// each cut to 40 characters).
+fn first_cells(row: &SheetRow<'_>) -> String {
+    let cells: Vec<String> = row
+        .cells
+        .iter()
+        .map(|(c, _)| row.get((c - row.first_col) as usize).shown())
+        .filter(|t| !t.is_empty())
+        .take(4)
+        .map(|t| format!("\"{}\"", crate::chart::cut(&t, 40)))
+        .collect();
+    if cells.is_empty() {
+        "empty".to_string()
+    } else {
+        cells.join(", ")
+    }
+}
+
+/// Each sheet of the workbook with its first cells, and whether a header
+/// provisio reads is on it: `'Data': "product", "month", "consumed" (a
+/// header provisio reads, row 1)`.
+fn describe_sheets<RS: Read + Seek>(
+    book: &mut Sheets<RS>,
+    meta: &[Sheet],
+    current: &str,
+    options: &ReadOptions,
+) -> String {
+    let mut out = Vec::new();
+    for sheet in meta {
+        let mut text = format!("'{}'", sheet.name);
+        if sheet.visible != SheetVisible::Visible {
+            text.push_str(" (hidden)");
+        }
+        if sheet.name == current {
+            text.push_str(" (this one)");
+        }
+        match read_cells(book, &sheet.name, &options.limits) {
+            Err(_) => text.push_str(": cannot be read"),
+            Ok(stored) => {
+                let first_col = stored
+                    .iter()
+                    .filter_map(|r| r.cells.first().map(|(c, _)| *c))
+                    .min()
+                    .unwrap_or(0);
+                let rows: Vec<SheetRow<'_>> = stored
+                    .iter()
+                    .map(|r| SheetRow {
+                        cells: &r.cells,
+                        formulas: None,
+                        row: r.row,
+                        first_col,
+                    })
+                    .filter(|r| !r.is_blank())
+                    .take(MAX_TITLE_ROWS)
+                    .collect();
+                match rows.first() {
+                    None => text.push_str(": empty"),
+                    Some(r) => text.push_str(&format!(": {}", first_cells(r))),
+                }
+                let letter = |i: usize| column_letter(first_col.saturating_add(i as u32));
+                let header = rows.iter().find_map(|r| {
+                    let wide = matches!(wide::classify(r, &letter, false), wide::Header::Wide(_));
+                    let names: Vec<String> = (0..r.width()).map(|c| r.get(c).shown()).collect();
+                    let refs: Vec<&str> = names.iter().map(String::as_str).collect();
+                    let long = map_header(&refs).is_ok();
+                    (wide || long).then(|| {
+                        format!(
+                            " (a header provisio reads, {} layout, row {})",
+                            if wide { "wide" } else { "long" },
+                            r.row as u64 + 1
+                        )
+                    })
+                });
+                if let Some(h) = header {
+                    text.push_str(&h);
+                }
+            }
+        }
+        out.push(text);
+    }
+    out.join("; ")
+}
+
+/// Widest row, for the rows' text in the rejected-row log.
+fn header_width_of(rows: &[SheetRow<'_>]) -> usize {
+    rows.iter().map(|r| r.width()).max().unwrap_or(0)
+}
+
+type Book<'b> = Sheets<Cursor<&'b [u8]>>;
+
+/// Loads the tables of stockout days and reporting rates the options name
+/// (wide layout): sheets of the input workbook (`main`), or other files.
+pub(crate) fn load_companions(
+    source: &str,
+    options: &ReadOptions,
+    mut main: Option<&mut Book<'_>>,
+) -> Result<wide::Companions> {
+    let mut load = |c: &Option<Companion>, what: &str| -> Result<Option<wide::Grid>> {
+        let Some(c) = c else {
+            return Ok(None);
+        };
+        match &c.file {
+            Some(path) if is_workbook(path) => {
+                let file = path.display().to_string();
+                let bytes = std::fs::read(path).map_err(|source| Error::Io {
+                    path: path.clone(),
+                    action: "cannot read the file",
+                    source,
+                })?;
+                let err = |m: String| Error::Sheet {
+                    file: file.clone(),
+                    sheet: None,
+                    row: 0,
+                    column: None,
+                    message: m,
+                };
+                let active = check_unpacked(&bytes, &options.limits).map_err(err)?;
+                let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(&bytes[..]))
+                    .map_err(|e| err(format!("cannot be read as a workbook ({e})")))?;
+                let name = match &c.sheet {
+                    Some(s) => find_sheet(&book, s).ok_or_else(|| {
+                        err(format!(
+                            "the workbook has no sheet named '{s}' ({what}); its sheets are {}",
+                            book.sheet_names().join(", ")
+                        ))
+                    })?,
+                    None => default_sheet(book.sheets_metadata(), active)
+                        .map(|(n, _)| n)
+                        .ok_or_else(|| err("the workbook has no sheets".to_string()))?,
+                };
+                sheet_grid(&mut book, &file, &name, options).map(Some)
+            }
+            Some(path) => wide::companion_csv(c, path, options).map(Some),
+            None => {
+                let sheet = c.sheet.clone().unwrap_or_default();
+                match main.as_mut() {
+                    Some(book) => {
+                        let name = find_sheet(book, &sheet).ok_or_else(|| Error::Sheet {
+                            file: source.to_string(),
+                            sheet: None,
+                            row: 0,
+                            column: None,
+                            message: format!(
+                                "the workbook has no sheet named '{sheet}' ({what}); its sheets are {}",
+                                book.sheet_names().join(", ")
+                            ),
+                        })?;
+                        sheet_grid(book, source, &name, options).map(Some)
+                    }
+                    None => Err(Error::Input {
+                        file: source.to_string(),
+                        line: 0,
+                        column: None,
+                        message: format!(
+                            "{what}: the sheet '{sheet}' is named, and the input is a CSV file, not a workbook; give the file that holds the table with {}",
+                            if what == "stockout days" { "--stockout-file" } else { "--rate-file" }
+                        ),
+                    }),
+                }
+            }
+        }
+    };
+    Ok(wide::Companions {
+        stockout: load(&options.stockout, "stockout days")?,
+        rate: load(&options.rate, "reporting rates")?,
+    })
+}
+
+/// A sheet's name as the workbook spells it: exact, or ignoring case.
+fn find_sheet<RS: Read + Seek>(book: &Sheets<RS>, wanted: &str) -> Option<String> {
+    let names = book.sheet_names();
+    names
+        .iter()
+        .find(|s| *s == wanted)
+        .or_else(|| names.iter().find(|s| s.eq_ignore_ascii_case(wanted)))
+        .cloned()
+}
+
+/// A sheet read whole as a grid (a table of stockout days or rates).
+fn sheet_grid<RS: Read + Seek>(
+    book: &mut Sheets<RS>,
+    file: &str,
+    name: &str,
+    options: &ReadOptions,
+) -> Result<wide::Grid> {
+    let rows = read_cells(book, name, &options.limits).map_err(|m| Error::Sheet {
+        file: file.to_string(),
+        sheet: Some(name.to_string()),
+        row: 0,
+        column: None,
+        message: m,
+    })?;
+    let first_col = rows
+        .iter()
+        .filter_map(|r| r.cells.first().map(|(c, _)| *c))
+        .min()
+        .unwrap_or(0);
+    let formulas = read_formulas(book, name, &options.limits).filter(|f| !f.is_empty());
+    Ok(wide::Grid {
+        name: format!("{file}, sheet '{name}'"),
+        in_sheet: true,
+        first_col,
+        rows,
+        formulas,
+    })
 }
 
 /// The sheet read when none is named: the active sheet when it is a

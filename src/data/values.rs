@@ -205,6 +205,76 @@ fn suggest_month(t: &str) -> Option<YearMonth> {
     YearMonth::new(i32::try_from(year).ok()?, month)
 }
 
+/// Reads a column header of the wide layout as a month: every form
+/// [`parse_month`] reads or suggests (`2024-03`, `2024-03-01`, `2024/03`,
+/// `03/2024`, `Mar 2024`, `March 2024`, `Mar-2024`, `202403`), and a month
+/// name with a two-digit year (`Mar-24`, `Mar 24`: 2024), the way
+/// spreadsheets show a date cell formatted as month and year. Day-month-year
+/// dates (`01/03/2024`) are not read: the order of day and month cannot be
+/// told from one header.
+pub(crate) fn parse_month_header(text: &str) -> Option<YearMonth> {
+    let t = text.trim();
+    if let Ok(m) = YearMonth::parse(t) {
+        return Some(m);
+    }
+    if let Some(m) = suggest_month(t) {
+        return Some(m);
+    }
+    let parts: Vec<&str> = t
+        .split(['/', '-', '.', ' ', '_', '\''])
+        .filter(|p| !p.is_empty())
+        .collect();
+    match parts.as_slice() {
+        [name, yy] if yy.len() == 2 && yy.bytes().all(|b| b.is_ascii_digit()) => {
+            let month = month_name(name)?;
+            let year: i32 = yy.parse().ok()?;
+            YearMonth::new(2000 + year, month)
+        }
+        _ => None,
+    }
+}
+
+/// The month number of a month name or its abbreviation (three letters
+/// or more: `Mar`, `Sept`, `March`).
+fn month_name(s: &str) -> Option<u32> {
+    let s = s.to_lowercase();
+    (s.chars().count() >= 3 && s.chars().all(char::is_alphabetic))
+        .then(|| MONTH_NAMES.iter().position(|m| m.starts_with(&s)))
+        .flatten()
+        .map(|i| i as u32 + 1)
+}
+
+/// Whether a column header that is not read as a month was probably meant
+/// as one: it holds a month name, or a year 1900-2100 with another number
+/// or a word that starts like a month name (`Febuary 2024`).
+/// Headers of totals (`Total 2024`) are not.
+pub(crate) fn looks_like_month(text: &str) -> bool {
+    let t = text.trim().to_lowercase();
+    if t.contains("total") || t.contains("sum") || t.contains("average") || t.contains("mean") {
+        return false;
+    }
+    let words: Vec<&str> = t
+        .split(|c: char| !c.is_alphanumeric())
+        .filter(|p| !p.is_empty())
+        .collect();
+    // A month name, or a word that starts like one (`Febuary`, `Marhc`).
+    let named = words.iter().any(|w| month_name(w).is_some());
+    let near_name = words.iter().any(|w| {
+        let head: String = w.chars().take(3).collect();
+        head.chars().count() == 3
+            && head.chars().all(char::is_alphabetic)
+            && MONTH_NAMES.iter().any(|m| m.starts_with(&head))
+    });
+    let year = words
+        .iter()
+        .any(|w| w.len() == 4 && w.parse::<i32>().is_ok_and(|y| (1900..=2100).contains(&y)));
+    let numbers = words
+        .iter()
+        .filter(|w| w.bytes().all(|b| b.is_ascii_digit()))
+        .count();
+    named || (year && (near_name || numbers >= 2))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -299,5 +369,55 @@ mod tests {
             assert!(!m(t).contains("means"), "{t}: {}", m(t));
         }
         assert_eq!(parse_month("2024-03").unwrap(), YearMonth::known(2024, 3));
+    }
+
+    #[test]
+    fn month_headers_of_the_wide_layout() {
+        let ym = YearMonth::known;
+        for (t, want) in [
+            ("2024-01", ym(2024, 1)),
+            ("2024-01-01", ym(2024, 1)),
+            ("Jan 2024", ym(2024, 1)),
+            ("January 2024", ym(2024, 1)),
+            ("01/2024", ym(2024, 1)),
+            ("1/2024", ym(2024, 1)),
+            ("2024/01", ym(2024, 1)),
+            ("Sept 2023", ym(2023, 9)),
+            ("Sep-23", ym(2023, 9)),
+            ("mar 24", ym(2024, 3)),
+            ("Dec'24", ym(2024, 12)),
+            ("202412", ym(2024, 12)),
+            (" 2024-02 ", ym(2024, 2)),
+        ] {
+            assert_eq!(parse_month_header(t), Some(want), "{t}");
+        }
+        for t in [
+            "01/03/2024",
+            "Total",
+            "product",
+            "2024",
+            "Febuary 2024",
+            "2024-13",
+            "Ma 24",
+            "45292",
+            "",
+        ] {
+            assert_eq!(parse_month_header(t), None, "{t}");
+        }
+        // Meant as months, but unreadable: refused, not taken as extra columns.
+        for t in ["Febuary 2024", "Marhc 2024", "01/03/2024", "2024-13", "Jan"] {
+            assert!(looks_like_month(t), "{t}");
+        }
+        for t in [
+            "Total 2024",
+            "unit",
+            "code",
+            "Grand total",
+            "2024",
+            "notes",
+            "Market",
+        ] {
+            assert!(!looks_like_month(t), "{t}");
+        }
     }
 }

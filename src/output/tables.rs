@@ -75,13 +75,19 @@ pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
 
 /// `rejected.csv`: rows not used, with the reason and the row as read.
 pub fn write_rejected(path: &Path, source: &str, rejected: &[RejectedRow]) -> Result<()> {
-    write_rejected_rows(path, source, None, rejected)
+    write_rejected_rows(path, source, None, rejected, &|_| None)
 }
 
 /// `rejected.csv` of a dataset: for a workbook, `line` is the sheet row,
 /// and the `sheet` and `cell` (`C14`) columns say where the value is.
 pub fn write_rejected_of(path: &Path, ds: &Dataset) -> Result<()> {
-    write_rejected_rows(path, &ds.source, ds.layout.sheet.as_ref(), &ds.rejected)
+    write_rejected_rows(
+        path,
+        &ds.source,
+        ds.layout.sheet.as_ref(),
+        &ds.rejected,
+        &|r| ds.cell_of(r),
+    )
 }
 
 fn write_rejected_rows(
@@ -89,6 +95,7 @@ fn write_rejected_rows(
     source: &str,
     sheet: Option<&SheetInfo>,
     rejected: &[RejectedRow],
+    cell_of: &dyn Fn(&RejectedRow) -> Option<String>,
 ) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv_writer(w);
@@ -97,10 +104,7 @@ fn write_rejected_rows(
         ])
         .map_err(io_err)?;
         for r in rejected {
-            let cell = sheet
-                .zip(r.column.as_deref())
-                .and_then(|(s, col)| s.cell(r.line, col))
-                .unwrap_or_default();
+            let cell = cell_of(r).unwrap_or_default();
             c.write_record([
                 &*csv_text(source),
                 &r.line.to_string(),
