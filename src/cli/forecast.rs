@@ -552,13 +552,13 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             .chosen_scores
             .as_ref()
             .and_then(|x| x.bias)
-            .map(|b| format!("{b:+.1}%"))
+            .map(|b| format!("{}%", provisio::chart::fmt_signed(b)))
             .unwrap_or_else(|| "-".into());
         let margin = s
             .runner_up
             .as_ref()
             .zip(s.margin_pct)
-            .map(|((name, _), m)| format!("{name} {m:+.1}%"))
+            .map(|((name, _), m)| format!("{name} {}%", provisio::chart::fmt_signed(m)))
             .unwrap_or_else(|| "-".into());
         let next = r
             .projection

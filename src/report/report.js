@@ -190,7 +190,7 @@
       lx += 40 + 7 * l[0].length;
     });
     root.appendChild(svg("text", { x: lx, y: TOP - 18, "font-size": 12, fill: C.muted },
-      "dots: adjusted · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges"));
+      "dots: changed by cleaning beyond the usual · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges"));
     if (BOTTOM) {
       var o0 = c.bt[0][0], hmax = 0;
       c.bt.forEach(function (b) { for (var j = 1; j < b[1].length; j += 2) { if (b[1][j] > hmax) { hmax = b[1][j]; } } });
