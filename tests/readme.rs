@@ -440,6 +440,31 @@ fn forecast_on_the_demo() {
         ],
         0,
     );
+    // The reporting-rate uplift the terminal summarises, recomputed from the
+    // output files: Σ(after − before) of the reporting-scaled entries of
+    // adjustments.csv ÷ Σ reported of cleaned.csv, per product.
+    let mut added: std::collections::BTreeMap<String, f64> = Default::default();
+    for r in csv_rows(&s.read("demo-output/adjustments.csv")) {
+        if r["rule"] == "reporting-scaled" {
+            *added.entry(r["product"].clone()).or_default() += num(&r, "after") - num(&r, "before");
+        }
+    }
+    let mut reported: std::collections::BTreeMap<String, f64> = Default::default();
+    for r in csv_rows(&s.read("demo-output/cleaned.csv")) {
+        if let Ok(v) = r["reported"].parse::<f64>() {
+            *reported.entry(r["product"].clone()).or_default() += v;
+        }
+    }
+    let mut up: Vec<f64> = added.iter().map(|(p, a)| 100.0 * a / reported[p]).collect();
+    up.sort_by(f64::total_cmp);
+    let (lo, hi) = (up[0], up[up.len() - 1]);
+    assert!(
+        out.contains(&format!(
+            "added {lo:.1}–{hi:.1}% to the reported volume ({} of 12 products",
+            up.len()
+        )),
+        "{lo:.1}–{hi:.1}%:\n{out}"
+    );
     check(vec![
         Block::new("forecast-demo", out),
         Block::new("forecast-json", abridged_json(&json)),
