@@ -124,6 +124,29 @@ impl fmt::Display for YearMonth {
     }
 }
 
+/// A set of months in words, with their count, so the count and the range
+/// cannot be misread: "1 month: 2026-12", "3 months: 2026-12 to 2027-02"
+/// (consecutive), "2 months: 2026-12, 2027-02" (not consecutive, up to
+/// four listed), "5 of the 9 months 2026-12 to 2027-08" (more, with gaps).
+/// `months` is in order; empty gives "no month".
+pub fn describe_months(months: &[YearMonth]) -> String {
+    let (Some(&a), Some(&z)) = (months.first(), months.last()) else {
+        return "no month".to_string();
+    };
+    let n = months.len();
+    let span = a.months_until(z) + 1;
+    if n == 1 {
+        format!("1 month: {a}")
+    } else if span == n as i64 {
+        format!("{n} months: {a} to {z}")
+    } else if n <= 4 {
+        let list: Vec<String> = months.iter().map(|m| m.to_string()).collect();
+        format!("{n} months: {}", list.join(", "))
+    } else {
+        format!("{n} of the {span} months {a} to {z}")
+    }
+}
+
 /// Gregorian leap year.
 pub fn is_leap_year(year: i32) -> bool {
     (year % 4 == 0 && year % 100 != 0) || year % 400 == 0
@@ -146,6 +169,28 @@ pub const AVERAGE_DAYS_PER_MONTH: f64 = 30.4;
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn months_described_with_count_and_range_that_agree() {
+        let m = |y, mo| YearMonth::known(y, mo);
+        assert_eq!(describe_months(&[]), "no month");
+        assert_eq!(describe_months(&[m(2026, 12)]), "1 month: 2026-12");
+        // Two months with a gap are listed, never written as a range that
+        // reads as three.
+        assert_eq!(
+            describe_months(&[m(2026, 12), m(2027, 2)]),
+            "2 months: 2026-12, 2027-02"
+        );
+        assert_eq!(
+            describe_months(&[m(2026, 12), m(2027, 1), m(2027, 2)]),
+            "3 months: 2026-12 to 2027-02"
+        );
+        let gappy: Vec<_> = [1, 2, 4, 6, 9].iter().map(|&x| m(2027, x)).collect();
+        assert_eq!(
+            describe_months(&gappy),
+            "5 of the 9 months 2027-01 to 2027-09"
+        );
+    }
+
     use super::*;
     use chrono::NaiveDate;
 

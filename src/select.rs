@@ -284,14 +284,15 @@ pub fn select(
         .find(|r| r.0 != pick.0)
         .map(|r| (r.0.clone(), r.1));
     if let Some(b) = pick.2.bias {
-        reason.push_str(&format!(
-            "; bias {b:+.1}% ({})",
-            if b >= 0.0 {
-                "over-forecast"
-            } else {
-                "under-forecast"
-            }
-        ));
+        // Rounded before it is signed and named: a bias that shows as 0.0%
+        // is neither an over- nor an under-forecast.
+        let shown = crate::chart::fmt_signed(b);
+        let direction = match shown.chars().next() {
+            Some('+') => " (over-forecast)",
+            Some('-') => " (under-forecast)",
+            _ => "",
+        };
+        reason.push_str(&format!("; bias {shown}%{direction}"));
     }
     reason.push_str(&note);
     let margin_pct = runner

@@ -329,3 +329,161 @@ document.body.setAttribute('data-charted',String(!!s.querySelector('svg path')))
     assert!(dom.contains("data-charted=\"true\""), "no chart drawn");
     assert!(open_ms < 1000.0, "opening took {open_ms} ms");
 }
+
+/// The page's own measurements, taken by a probe in a frame `width` CSS
+/// pixels wide holding the report (its policy removed so the probe may
+/// read it): the JSON the probe writes into `data-probe`.
+fn layout_probe(browser: &Path, page: &Path, width: u32) -> serde_json::Value {
+    let html = std::fs::read_to_string(page).unwrap();
+    let csp_start = html
+        .find("<meta http-equiv=\"Content-Security-Policy\"")
+        .unwrap();
+    let csp_end = csp_start + html[csp_start..].find('>').unwrap() + 1;
+    let report = format!("{}{}", &html[..csp_start], &html[csp_end..]);
+    // The report as a JavaScript string that cannot close the probe's
+    // own script element.
+    let doc = serde_json::to_string(&report)
+        .unwrap()
+        .replace("</", "<\\/");
+    // For every link of the menu: follow it as the browser does (the
+    // fragment of the frame's address), then compare where its target
+    // stands with the bottom of the sticky menu.
+    let probe = format!(
+        r##"<!DOCTYPE html><html><body style="margin:0"><iframe id="f" style="width:{width}px;height:900px;border:0"></iframe><script>
+var f=document.getElementById('f');
+f.onload=function(){{var d=f.contentDocument,w=f.contentWindow,r={{vw:w.innerWidth,jumps:[]}};
+var plan=d.getElementById('plan'),t=null,n=plan;
+while(n&&!t){{n=n.nextElementSibling;if(n&&n.querySelector){{t=n.querySelector('table');}}}}
+if(t){{var wrap=t.parentNode,cells=t.tHead.rows[0].cells,last=cells[cells.length-1];
+r.planLastRight=last.getBoundingClientRect().right;r.planWrapRight=wrap.getBoundingClientRect().right;
+r.planWrapScroll=wrap.scrollWidth;r.planWrapClient=wrap.clientWidth;r.planWrapOverflow=w.getComputedStyle(wrap).overflowX;}}
+r.pageScroll=d.documentElement.scrollWidth;
+var svg=d.querySelector('section.product figure.chart svg');r.chartWidth=svg?svg.getBoundingClientRect().width:-1;
+var nav=d.querySelector('nav.jump');
+Array.prototype.forEach.call(nav.querySelectorAll('a[href^="#"]'),function(a){{
+var id=a.getAttribute('href').slice(1),target=d.getElementById(id);
+w.location.hash=id;
+r.jumps.push({{id:id,top:target?target.getBoundingClientRect().top:null,menu:nav.getBoundingClientRect().bottom,scrolled:w.scrollY}});}});
+document.body.setAttribute('data-probe',JSON.stringify(r));}};
+f.srcdoc={doc};
+</script></body></html>"##
+    );
+    let probe_page = page.with_file_name(format!("layout-{width}.html"));
+    std::fs::write(&probe_page, probe).unwrap();
+    let (dom, stderr) = run(
+        browser,
+        &probe_page,
+        &[
+            "--dump-dom".to_string(),
+            "--window-size=1400,1000".to_string(),
+        ],
+    );
+    assert!(console_lines(&stderr).is_empty(), "{stderr}");
+    let at = dom
+        .find("data-probe=\"")
+        .unwrap_or_else(|| panic!("the layout probe wrote nothing at {width} px:\n{stderr}"))
+        + "data-probe=\"".len();
+    let raw = &dom[at..at + dom[at..].find('"').unwrap()];
+    let json = raw
+        .replace("&quot;", "\"")
+        .replace("&lt;", "<")
+        .replace("&gt;", ">")
+        .replace("&amp;", "&");
+    serde_json::from_str(&json).unwrap_or_else(|e| panic!("{e}: {json}"))
+}
+
+/// The report's layout at a laptop's width (1366 px) and a phone's
+/// (390 px), on the demo with its supply plan: the plan table shows its
+/// last column (cost) without sideways scrolling at 1366, a heading
+/// reached from the menu is not under the sticky menu, the page never
+/// scrolls sideways, and on the phone a product chart takes at least 90%
+/// of the width (not a thumbnail). The thresholds are our own.
+#[test]
+fn report_layout_at_laptop_and_phone_widths() {
+    let Some(browser) = browser() else {
+        if std::env::var_os("CI").is_some() {
+            panic!("no chromium found under CI; .ci/run must install it");
+        }
+        eprintln!("SKIPPED report_layout_at_laptop_and_phone_widths: no chromium on PATH");
+        return;
+    };
+    let w = common::Workdir::new();
+    let demo = |f: &str| common::repo(&format!("datasets/demo/{f}"));
+    let o = common::run_in(
+        &w.path(""),
+        &[
+            "forecast",
+            demo("consumption.csv").to_str().unwrap(),
+            "--out",
+            "out",
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", common::text(&o));
+    let o = common::run_in(
+        &w.path(""),
+        &[
+            "plan",
+            "out",
+            "--stock",
+            demo("stock.csv").to_str().unwrap(),
+            "--on-order",
+            demo("on_order.csv").to_str().unwrap(),
+            "--quiet",
+        ],
+    );
+    assert!(o.status.success(), "{}", common::text(&o));
+    let page = w.path("out/report.html");
+    for width in [1366u32, 390] {
+        let r = layout_probe(&browser, &page, width);
+        let f = |k: &str| r[k].as_f64().unwrap_or_else(|| panic!("{k} in {r}"));
+        assert_eq!(f("vw"), width as f64, "{r}");
+        assert!(
+            f("pageScroll") <= width as f64 + 1.0,
+            "{width} px: the page scrolls sideways ({} px wide): {r}",
+            f("pageScroll")
+        );
+        let jumps = r["jumps"].as_array().unwrap();
+        assert!(jumps.len() >= 4, "{r}");
+        for j in jumps {
+            let top = j["top"]
+                .as_f64()
+                .unwrap_or_else(|| panic!("no target: {j}"));
+            let menu = j["menu"].as_f64().unwrap();
+            assert!(
+                top >= menu - 0.5,
+                "{width} px: the heading reached by #{} is under the menu (top {top}, menu ends at {menu})",
+                j["id"]
+            );
+        }
+        // The menu's jump to the plan really scrolled (the check above
+        // would pass on a page that never moves).
+        let plan = jumps
+            .iter()
+            .find(|j| j["id"] == "plan")
+            .expect("a menu link to the plan");
+        assert!(plan["scrolled"].as_f64().unwrap() > 500.0, "{plan}");
+        if width == 1366 {
+            assert!(
+                f("planLastRight") <= f("planWrapRight") + 0.5,
+                "1366 px: the plan table's last column is cut off (its right edge at {}, the table's box ends at {}): {r}",
+                f("planLastRight"),
+                f("planWrapRight")
+            );
+        } else {
+            // On a phone the plan table may scroll inside its box, never
+            // the page.
+            assert!(
+                f("planLastRight") <= f("planWrapRight") + 0.5
+                    || (r["planWrapOverflow"] == "auto"
+                        && f("planWrapScroll") > f("planWrapClient")),
+                "{r}"
+            );
+            assert!(
+                f("chartWidth") >= 0.9 * width as f64,
+                "390 px: a product chart is {} px wide, under 90% of the screen: {r}",
+                f("chartWidth")
+            );
+        }
+    }
+}

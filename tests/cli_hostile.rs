@@ -534,7 +534,7 @@ fn data_text_never_reaches_the_terminal_raw() {
         "{out}"
     );
     assert!(
-        out.contains("rows read: 15 = 13 used as reported + 0 adjusted + 2 rejected"),
+        out.contains("rows read: 15 = 13 used as reported + 0 corrected by cleaning + 2 rejected"),
         "{out}"
     );
 }

@@ -23,8 +23,8 @@ pub use crosscheck::{crosscheck_png, crosscheck_svg, CrossCheckChart, EstimateBa
 pub use overview::{overview_png, overview_svg, ScoreBar};
 pub use plan::{stock_png, stock_svg, StockChart, StockMonth};
 pub use product::{
-    product_png, product_svg, BacktestPanel, BacktestPath, HistoryMonth, ProductChart,
-    ProjectedMonth,
+    changed_by_cleaning, product_png, product_svg, typical_change, BacktestPanel, BacktestPath,
+    HistoryMonth, ProductChart, ProjectedMonth, MARKED_CHANGE,
 };
 
 use crate::calendar::YearMonth;
@@ -91,6 +91,18 @@ pub fn month_label(m: YearMonth) -> String {
         .copied()
         .unwrap_or("?");
     format!("{name} {}", m.year())
+}
+
+/// A signed number with one decimal, rounded first and signed after: "+2.3",
+/// "-0.4", and "0.0" for anything that rounds to zero (never "-0.0" or
+/// "+0.0", which would claim a direction that is not there).
+pub fn fmt_signed(v: f64) -> String {
+    let s = format!("{v:+.1}");
+    if s[1..].chars().all(|c| c == '0' || c == '.') {
+        "0.0".to_string()
+    } else {
+        s
+    }
 }
 
 /// A quantity for an axis or a label: thousands grouped with commas,
@@ -365,6 +377,16 @@ pub fn cut(s: &str, n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn signed_numbers_round_before_the_sign() {
+        assert_eq!(fmt_signed(-0.04), "0.0");
+        assert_eq!(fmt_signed(0.049), "0.0");
+        assert_eq!(fmt_signed(-0.0), "0.0");
+        assert_eq!(fmt_signed(-0.06), "-0.1");
+        assert_eq!(fmt_signed(2.345), "+2.3");
+        assert_eq!(fmt_signed(-13.27), "-13.3");
+    }
 
     #[test]
     fn cut_keeps_both_ends_so_pack_sizes_stay_apart() {

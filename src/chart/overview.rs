@@ -246,11 +246,7 @@ fn draw<DB: DrawingBackend>(
         let (px, py) = chart.backend_coord(&(b, y(i)));
         let (ox, oy) = right.get_base_pixel();
         // "-0.0%" reads as a sign that is not there.
-        let text = if b.abs() < 0.05 {
-            "0.0%".to_string()
-        } else {
-            format!("{b:+.1}%")
-        };
+        let text = format!("{}%", super::fmt_signed(b));
         let (tw, _) = right.estimate_text_size(&text, &label_font).msg()?;
         let tx = if b >= 0.0 {
             px - ox + 5

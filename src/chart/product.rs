@@ -1,5 +1,5 @@
 //! The chart of one product: its history (reported and cleaned, with the
-//! adjusted, filled and outlier months marked), the projection with its 80%
+//! months cleaning changed markedly, filled and outlier months marked), the projection with its 80%
 //! and 95% ranges, and optionally a backtest panel beneath.
 
 use std::path::Path;
@@ -65,6 +65,58 @@ pub struct BacktestPanel {
     pub model: String,
     /// One path per origin.
     pub paths: Vec<BacktestPath>,
+}
+
+/// How far, in points of the reported value, a month's change by cleaning
+/// must stand from the product's typical change to be marked on the chart
+/// (our choice: below it the month moved with the rest, mostly the routine
+/// scaling for incomplete reporting, which the grey and blue lines show).
+pub const MARKED_CHANGE: f64 = 0.10;
+
+/// The product's typical change by cleaning: the median of cleaned ÷
+/// reported − 1 over the months with both (reported above zero); `None`
+/// when there is no such month. On data with reporting rates below 100%
+/// this is mostly the reporting-rate uplift.
+pub fn typical_change(history: &[HistoryMonth]) -> Option<f64> {
+    let mut r: Vec<f64> = history
+        .iter()
+        .filter_map(|h| match (h.reported, h.cleaned) {
+            (Some(rep), Some(c)) if rep > 0.0 && c.is_finite() => Some(c / rep - 1.0),
+            _ => None,
+        })
+        .collect();
+    if r.is_empty() {
+        return None;
+    }
+    r.sort_by(f64::total_cmp);
+    let n = r.len();
+    Some(if n % 2 == 1 {
+        r[n / 2]
+    } else {
+        (r[n / 2 - 1] + r[n / 2]) / 2.0
+    })
+}
+
+/// Which months were **changed by cleaning** materially, for the dot on the
+/// chart: months of status `adjusted` whose cleaned ÷ reported − 1 is more
+/// than [`MARKED_CHANGE`] away from the product's [`typical_change`] (a
+/// reported zero made non-zero counts as changed). Filled and imputed
+/// months have marks of their own and are not included.
+pub fn changed_by_cleaning(history: &[HistoryMonth]) -> Vec<bool> {
+    let typical = typical_change(history).unwrap_or(0.0);
+    history
+        .iter()
+        .map(|h| {
+            h.status == MonthStatus::Adjusted
+                && match (h.reported, h.cleaned) {
+                    (Some(rep), Some(c)) if rep > 0.0 => {
+                        (c / rep - 1.0 - typical).abs() > MARKED_CHANGE
+                    }
+                    (Some(_), Some(c)) => c > 0.0,
+                    _ => false,
+                }
+        })
+        .collect()
 }
 
 /// Everything the chart of one product shows. Units are base units per
@@ -359,13 +411,25 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
             .filter(move |h| h.status == status)
             .filter_map(move |h| h.cleaned.map(|v| (x(h.month), v)))
     };
-    if marked(MonthStatus::Adjusted).next().is_some() {
+    let changed: Vec<(f64, f64)> = c
+        .history
+        .iter()
+        .zip(changed_by_cleaning(&c.history))
+        .filter(|(_, on)| *on)
+        .filter_map(|(h, _)| h.cleaned.map(|v| (x(h.month), v)))
+        .collect();
+    if !changed.is_empty() {
         chart
             .draw_series(
-                marked(MonthStatus::Adjusted).map(|p| Circle::new(p, 3, ADJUSTED.filled())),
+                changed
+                    .iter()
+                    .map(|&p| Circle::new(p, 3, ADJUSTED.filled())),
             )
             .msg()?;
-        items.push((Glyph::Dot(ADJUSTED), "adjusted month".to_string()));
+        items.push((
+            Glyph::Dot(ADJUSTED),
+            "changed by cleaning (beyond the usual)".to_string(),
+        ));
     }
     if marked(MonthStatus::PartlyFilled).next().is_some() {
         chart
@@ -642,15 +706,50 @@ mod tests {
     }
 
     #[test]
+    fn only_months_changed_beyond_the_usual_are_marked() {
+        // Every month scaled up 20% (as for an 83% reporting rate), one
+        // scaled 50% and one moved 25%: the usual uplift is not marked, the
+        // two that stand more than 10 points from it are.
+        let scaled = |t: i64, r: f64, c: f64| HistoryMonth {
+            month: ym(2024, 1).plus(t),
+            reported: Some(r),
+            cleaned: Some(c),
+            status: MonthStatus::Adjusted,
+            outlier: false,
+        };
+        let mut h: Vec<_> = (0..10).map(|t| scaled(t, 100.0, 120.0)).collect();
+        h.push(scaled(10, 100.0, 150.0));
+        h.push(scaled(11, 100.0, 95.0));
+        h.push(scaled(12, 100.0, 129.0));
+        h.push(scaled(13, 0.0, 0.0));
+        h.push(scaled(14, 0.0, 10.0));
+        let t = typical_change(&h).unwrap();
+        assert!((t - 0.2).abs() < 1e-12, "{t}");
+        let marked: Vec<usize> = changed_by_cleaning(&h)
+            .iter()
+            .enumerate()
+            .filter(|(_, m)| **m)
+            .map(|(i, _)| i)
+            .collect();
+        assert_eq!(marked, vec![10, 11, 14]);
+        // A partly filled month keeps its own mark, never the dot.
+        let mut p = scaled(0, 100.0, 300.0);
+        p.status = MonthStatus::PartlyFilled;
+        assert_eq!(changed_by_cleaning(&[p]), vec![false]);
+    }
+
+    #[test]
     fn legend_names_only_the_marks_present() {
+        let mut doubled = month(2, Some(7.0), MonthStatus::Adjusted);
+        doubled.cleaned = Some(14.0);
         let h = vec![
             month(0, Some(5.0), MonthStatus::Reported),
             month(1, Some(6.0), MonthStatus::Imputed),
-            month(2, Some(7.0), MonthStatus::Adjusted),
+            doubled,
         ];
         let svg = product_svg(&chart(h, vec![])).unwrap();
         assert!(svg.contains("imputed month"));
-        assert!(svg.contains("adjusted month"));
+        assert!(svg.contains("changed by cleaning"));
         assert!(!svg.contains("partly filled"));
         assert!(!svg.contains("outlier flagged"));
     }

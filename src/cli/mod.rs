@@ -705,7 +705,7 @@ fn print_accounting(
 ) {
     let r = cleaned.rows;
     note!(
-        "rows read: {} = {} used as reported + {} adjusted + {} rejected{}{}",
+        "rows read: {} = {} used as reported + {} corrected by cleaning + {} rejected{}{}",
         r.read,
         r.used,
         r.adjusted,

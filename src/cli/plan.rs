@@ -402,6 +402,16 @@ fn expiry_note(p: &plan::SeriesPlan, policy: &plan::Policy) -> Option<String> {
     ))
 }
 
+/// The projected stockout months of a series in words ("none" without).
+fn stockout_text(s: &PlannedSeries) -> String {
+    let out: Vec<_> = s.plan.stockout_months().map(|m| m.month).collect();
+    if out.is_empty() {
+        "none".to_string()
+    } else {
+        provisio::calendar::describe_months(&out)
+    }
+}
+
 fn print_summary(planned: &[PlannedSeries]) {
     let name = |s: &PlannedSeries| match &s.site {
         Some(site) => format!("{} @ {site}", s.product),
@@ -409,8 +419,14 @@ fn print_summary(planned: &[PlannedSeries]) {
     };
     let w = super::name_width(planned.iter().map(name));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
+    let sw = planned
+        .iter()
+        .map(|s| stockout_text(s).chars().count())
+        .max()
+        .unwrap_or(0)
+        .max(8);
     super::say!(
-        "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
+        "{}  {:>9} {:>6}  {:<sw$} {:>9} {:>5} {:>6} {:>10} {:>12}",
         cut("product"),
         "on hand",
         "MOS",
@@ -423,12 +439,7 @@ fn print_summary(planned: &[PlannedSeries]) {
     );
     for s in planned {
         let m = &s.plan.months;
-        let out: Vec<_> = s.plan.stockout_months().map(|m| m.month).collect();
-        let stockout = match (out.first(), out.last()) {
-            (Some(a), Some(z)) if a == z => a.to_string(),
-            (Some(a), Some(z)) => format!("{} ({a}..{z})", out.len()),
-            _ => "none".into(),
-        };
+        let stockout = stockout_text(s);
         let mos0 = m
             .first()
             .and_then(|f| plan::months_of_stock(f.opening, f.amc))
@@ -439,7 +450,7 @@ fn print_summary(planned: &[PlannedSeries]) {
             .filter(|x| x.flags.contains(&plan::Flag::AboveMax))
             .count();
         super::say!(
-            "{}  {:>9} {:>6}  {:<21} {:>9} {:>5} {:>6} {:>10} {:>12}",
+            "{}  {:>9} {:>6}  {:<sw$} {:>9} {:>5} {:>6} {:>10} {:>12}",
             cut(&name(s)),
             provisio::chart::fmt_quantity(s.policy.stock_on_hand),
             mos0,

@@ -213,7 +213,7 @@ fn print_summary(r: &review::Review, limit: f64) {
     let w = super::name_width(r.products.iter().map(|p| &p.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     let f = |v: Option<f64>, plus: bool| match v {
-        Some(x) if plus => format!("{x:+.1}"),
+        Some(x) if plus => provisio::chart::fmt_signed(x),
         Some(x) => format!("{x:.1}"),
         None => "-".into(),
     };

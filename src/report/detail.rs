@@ -161,8 +161,9 @@ struct ChartData {
     /// Reported and cleaned values per history month (null: none).
     rep: Vec<Option<Q>>,
     cl: Vec<Option<Q>>,
-    /// Status per history month: r reported, a adjusted, p partly filled,
-    /// i imputed.
+    /// Status per history month: r reported (or changed no more than the
+    /// product's usual), a changed by cleaning beyond the usual
+    /// ([`chart::changed_by_cleaning`]), p partly filled, i imputed.
     st: String,
     /// Offsets of flagged outliers.
     out: Vec<usize>,
@@ -216,7 +217,8 @@ fn chart_data(p: &ProductResult) -> ChartData {
     let mut cl = vec![None; n];
     let mut st = vec![b'r'; n];
     let mut out = Vec::new();
-    for h in &p.history {
+    let changed = chart::changed_by_cleaning(&p.history);
+    for (h, changed) in p.history.iter().zip(changed) {
         let Ok(i) = usize::try_from(off(h.month)) else {
             continue;
         };
@@ -227,7 +229,9 @@ fn chart_data(p: &ProductResult) -> ChartData {
         cl[i] = q4o(h.cleaned);
         st[i] = match h.status {
             MonthStatus::Reported => b'r',
-            MonthStatus::Adjusted => b'a',
+            // Only a month changed beyond the product's usual gets the dot.
+            MonthStatus::Adjusted if changed => b'a',
+            MonthStatus::Adjusted => b'r',
             MonthStatus::PartlyFilled => b'p',
             MonthStatus::Imputed => b'i',
         };
@@ -313,6 +317,22 @@ struct Detail<'a> {
     chart: ChartData,
 }
 
+/// What scaling for incomplete reporting added to a product's history:
+/// Σ(after − before) of its `reporting-scaled` log entries ÷ its reported
+/// volume. `None` when nothing was scaled or nothing was reported.
+pub fn reporting_uplift(p: &ProductResult) -> Option<f64> {
+    let reported: f64 = p.history.iter().filter_map(|h| h.reported).sum();
+    let mut any = false;
+    let added: f64 = p
+        .adjustments
+        .iter()
+        .filter(|a| a.rule == "reporting-scaled")
+        .filter_map(|a| Some(a.after? - a.before?))
+        .inspect(|_| any = true)
+        .sum();
+    (any && reported > 0.0).then(|| added / reported)
+}
+
 /// The detail record of one product, as JSON safe to put inside a
 /// `<script type="application/json">` element. A `large_run` lists only
 /// the latest [`LARGE_RUN_ADJUSTMENT_ROWS`] adjustments, a small one the
@@ -353,6 +373,13 @@ pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> Str
             .unwrap_or_else(dash),
         "runner-up: its score against the chosen (below 0: it scored better, without clear evidence; see the reason)".to_string(),
     ));
+    if let Some(u) = reporting_uplift(p) {
+        keys.push((
+            format!("{}%", chart::fmt_signed(100.0 * u)),
+            "added for incomplete reporting (reporting-rate scaling, share of the reported volume)"
+                .to_string(),
+        ));
+    }
     let quality = p.quality.as_ref().map(|q| {
         (
             format!(

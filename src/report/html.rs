@@ -58,6 +58,7 @@ nav.jump .inner{max-width:1240px;margin:0 auto;padding:8px 20px;display:flex;gap
 nav.jump a{color:var(--accent);text-decoration:none;font-weight:600}
 nav.jump a:hover{text-decoration:underline}
 h2{font-size:21px;margin:34px 0 10px;padding-bottom:6px;border-bottom:2px solid var(--ink)}
+[id]{scroll-margin-top:64px}
 h3{font-size:16px;margin:22px 0 8px}
 a{color:var(--accent)}
 .caution{border:2px solid var(--care);background:var(--care-bg);padding:12px 16px;margin:20px 0;border-radius:6px}
@@ -69,7 +70,7 @@ code,.mono{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:13px}
 .table-wrap{overflow-x:auto;background:var(--card);border:1px solid var(--line);border-radius:6px}
 table{border-collapse:collapse;width:100%;font-size:14px}
 th,td{padding:6px 10px;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
-th{background:#f1f3f5;font-weight:650;white-space:nowrap}
+th{background:#f1f3f5;font-weight:650;min-width:4.5em}
 td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}
 tbody tr:hover{background:#f6f8fa}
 tr.chosen td{background:#e6f0f7;font-weight:600}
@@ -113,6 +114,17 @@ form.find{display:flex;flex-wrap:wrap;gap:16px;align-items:center;margin:8px 0}
 form.find input[type=search]{font:inherit;padding:5px 10px;min-width:280px;border:1px solid var(--line);border-radius:6px}
 form.find select{font:inherit;padding:4px}
 button#index-more{font:inherit;padding:5px 14px;cursor:pointer}
+@media (max-width:700px){
+nav.jump .inner{flex-wrap:nowrap;overflow-x:auto;gap:14px;padding:8px 10px}
+nav.jump a{white-space:nowrap}
+header.top{padding:16px 10px 14px}
+main{padding:0 6px 32px}
+section.product{padding:4px 8px 14px;border-left-width:4px}
+section.product figure.chart{margin-left:-8px;margin-right:-8px}
+.key{min-width:0;flex:1 1 140px}
+form.find input[type=search]{min-width:0;width:100%}
+.attention{grid-template-columns:1fr}
+}
 @media print{nav.jump{display:none}section.product{break-inside:avoid-page}}
 "#;
 

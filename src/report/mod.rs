@@ -122,7 +122,7 @@ fn subtitle(s: &Selection) -> String {
         let _ = write!(subtitle, " · backtest {name} {v}");
     }
     if let Some(b) = s.scores.bias {
-        let _ = write!(subtitle, " · bias {b:+.1}%");
+        let _ = write!(subtitle, " · bias {}%", chart::fmt_signed(b));
     }
     if let Some(t) = s.total_1_12 {
         let _ = write!(subtitle, " · next 12 months: {}", chart::fmt_quantity(t));
@@ -324,11 +324,7 @@ fn pct(v: f64) -> String {
 }
 
 fn signed_pct(v: f64) -> String {
-    if v.abs() < 0.05 {
-        "0.0%".into()
-    } else {
-        format!("{v:+.1}%")
-    }
+    format!("{}%", chart::fmt_signed(v))
 }
 
 fn verdict_class(v: Option<&str>) -> &'static str {
@@ -922,7 +918,7 @@ fn summary(b: &mut String, run: &ForecastRun) {
         (
             "Rows read",
             escape(&format!(
-                "{} = {} used as reported + {} adjusted + {} rejected",
+                "{} = {} used as reported + {} corrected by cleaning + {} rejected",
                 rows("read"),
                 rows("used"),
                 rows("adjusted"),

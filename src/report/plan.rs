@@ -6,7 +6,7 @@ use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
-use crate::calendar::YearMonth;
+use crate::calendar::{describe_months, YearMonth};
 use crate::chart::{self, StockChart, StockMonth};
 use crate::error::Result;
 use crate::plan::read::SeriesKey;
@@ -290,14 +290,6 @@ fn q(v: f64) -> String {
     chart::fmt_quantity(v)
 }
 
-fn span(months: &[YearMonth]) -> String {
-    match (months.first(), months.last()) {
-        (Some(a), Some(z)) if a == z => a.to_string(),
-        (Some(a), Some(z)) => format!("{a} to {z}"),
-        _ => String::new(),
-    }
-}
-
 /// The note that replaces the section when the forecast has changed since
 /// the plan was made.
 pub const STALE_NOTE: &str = "The plan files in this folder (plan.csv, orders.csv) were made from an earlier forecast.csv: its SHA-256 differs from the one recorded in plan.json. They are not shown; run `provisio plan` again on this folder.";
@@ -392,11 +384,10 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
             } else {
                 Cell::html(
                     format!(
-                        "<span class=\"pill bad\">stockout</span> {} month(s): {}",
-                        out.len(),
-                        escape(&span(&out))
+                        "<span class=\"pill bad\">stockout</span> {}",
+                        escape(&describe_months(&out))
                     ),
-                    &span(&out),
+                    &describe_months(&out),
                 )
             },
             Cell::num(Some(s.months.iter().map(|m| m.short).sum()), q),

@@ -148,16 +148,31 @@
     }
     if (up) { root.appendChild(svg("path", { d: up + down + "Z", fill: C.fc, "fill-opacity": opacity, stroke: "none" })); }
   }
+  // A narrow screen (a phone) gets a narrower drawing, so its text is not
+  // shrunk to a third when the chart is fitted to the screen's width.
+  function chartWidth() {
+    var w = document.documentElement.clientWidth || 1200;
+    return w < 700 ? 640 : 1200;
+  }
   function chart(d) {
-    var c = d.chart, W = 1200, TOP = 470, BOTTOM = c.bt.length ? 300 : 0;
+    var c = d.chart, W = chartWidth(), narrow = W < 1200;
+    var TOP = narrow ? 500 : 470, BOTTOM = c.bt.length ? 300 : 0;
     var root = svg("svg", { viewBox: "0 0 " + W + " " + (TOP + BOTTOM), width: W, height: TOP + BOTTOM, role: "img" });
     root.appendChild(svg("rect", { x: 0, y: 0, width: W, height: TOP + BOTTOM, fill: "#fff" }));
     root.appendChild(svg("text", { x: 20, y: 28, "font-size": 20, "font-weight": 600, fill: C.ink }, d.name));
-    root.appendChild(svg("text", { x: 20, y: 50, "font-size": 13, fill: C.muted }, d.subtitle));
+    if (narrow) {
+      // The subtitle in two lines, split between its parts.
+      var parts = d.subtitle.split(" · "), half = Math.ceil(parts.length / 2);
+      root.appendChild(svg("text", { x: 20, y: 48, "font-size": 13, fill: C.muted }, parts.slice(0, half).join(" · ")));
+      root.appendChild(svg("text", { x: 20, y: 66, "font-size": 13, fill: C.muted }, parts.slice(half).join(" · ")));
+    } else {
+      root.appendChild(svg("text", { x: 20, y: 50, "font-size": 13, fill: C.muted }, d.subtitle));
+    }
     var n = c.cl.length, last = Math.max(n - 1, c.p0 + c.p.length - 1, 1);
     var ymax = 0;
     [c.rep, c.cl, c.p, c.u95, c.u80].forEach(function (a) { a.forEach(function (v) { if (v !== null && v > ymax) { ymax = v; } }); });
-    var s = panel(root, c, [90, 70, W - 120, TOP - 130], 0, last, ymax);
+    var s = narrow ? panel(root, c, [70, 84, W - 90, TOP - 162], 0, last, ymax)
+      : panel(root, c, [90, 70, W - 120, TOP - 130], 0, last, ymax);
     band(root, s, c, c.l95, c.u95, 0.12);
     band(root, s, c, c.l80, c.u80, 0.25);
     var pt = function (arr, i0) { return arr.map(function (v, i) { return v === null ? null : [s.x(i0 + i), s.y(v)]; }); };
@@ -178,26 +193,29 @@
     });
     if (c.p.length) {
       var xs = s.x(c.p0 - 0.5);
-      line(root, [[xs, 70], [xs, TOP - 60]], C.muted, 1.2, { "stroke-dasharray": "5 4" });
+      line(root, [[xs, narrow ? 84 : 70], [xs, TOP - (narrow ? 78 : 60)]], C.muted, 1.2, { "stroke-dasharray": "5 4" });
       line(root, pt(c.p, c.p0), C.fc, 2.2);
     }
     var legend = [["reported", C.reported], ["cleaned", C.cleaned], [c.pl, C.fc]];
-    var lx = 90;
+    var lx = narrow ? 20 : 90, ly = narrow ? TOP - 40 : TOP - 18;
     legend.forEach(function (l) {
-      line(root, [[lx, TOP - 22], [lx + 22, TOP - 22]], l[1], 3);
-      var t = svg("text", { x: lx + 28, y: TOP - 18, "font-size": 12, fill: C.ink }, l[0]);
+      line(root, [[lx, ly - 4], [lx + 22, ly - 4]], l[1], 3);
+      var t = svg("text", { x: lx + 28, y: ly, "font-size": 12, fill: C.ink }, l[0]);
       root.appendChild(t);
       lx += 40 + 7 * l[0].length;
     });
-    root.appendChild(svg("text", { x: lx, y: TOP - 18, "font-size": 12, fill: C.muted },
-      "dots: adjusted · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges"));
+    // On a narrow drawing the marks' key takes a line of its own.
+    if (narrow) { lx = 20; ly += 20; }
+    root.appendChild(svg("text", { x: lx, y: ly, "font-size": 12, fill: C.muted },
+      narrow ? "dots: changed by cleaning · rings: partly filled · squares: imputed · crosses: outliers"
+        : "dots: changed by cleaning beyond the usual · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges"));
     if (BOTTOM) {
       var o0 = c.bt[0][0], hmax = 0;
       c.bt.forEach(function (b) { for (var j = 1; j < b[1].length; j += 2) { if (b[1][j] > hmax) { hmax = b[1][j]; } } });
       c.cl.forEach(function (v, j) { if (j >= o0 && v !== null && v > hmax) { hmax = v; } });
       root.appendChild(svg("text", { x: 20, y: TOP + 22, "font-size": 14, "font-weight": 600, fill: C.ink },
         "Backtest: what " + c.btm + " would have forecast from each origin"));
-      var b2 = panel(root, c, [90, TOP + 36, W - 120, BOTTOM - 80], o0, n - 1, hmax);
+      var b2 = panel(root, c, [narrow ? 70 : 90, TOP + 36, W - (narrow ? 90 : 120), BOTTOM - 80], o0, n - 1, hmax);
       line(root, c.cl.map(function (v, j) { return j < o0 || v === null ? null : [b2.x(j), b2.y(v)]; }), C.cleaned, 2);
       c.bt.forEach(function (b) {
         var pts = [];

@@ -19,11 +19,7 @@ use crate::review::{Audit, PastForecast, ProductReview, Review};
 pub const HISTORY_SHOWN: usize = 24;
 
 fn signed(v: f64) -> String {
-    if v.abs() < 0.05 {
-        "0.0".into()
-    } else {
-        format!("{v:+.1}")
-    }
+    crate::chart::fmt_signed(v)
 }
 
 /// The chart of one reviewed product: the last [`HISTORY_SHOWN`] months

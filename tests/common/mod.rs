@@ -55,7 +55,7 @@ pub fn read_csv_file(path: &Path) -> (Vec<String>, Vec<csv::StringRecord>) {
     (h, rows)
 }
 
-/// The counts of the line "rows read: N = U used as reported + A adjusted +
+/// The counts of the line "rows read: N = U used as reported + A corrected by cleaning +
 /// R rejected" that `clean` and `inspect` print: [N, U, A, R].
 pub fn accounting(out: &str) -> [usize; 4] {
     let line = out
