@@ -959,6 +959,12 @@ fn summary(b: &mut String, run: &ForecastRun) {
                 .unwrap_or_else(|_| fs(&["select", "tie_margin"]))
         )),
     ));
+    facts.push((
+        "Ranges",
+        escape(
+            "80% and 95%, calibrated on the backtest errors: each product's factor is the mean of its own and the one pooled over the run's products of its demand class (selection.csv, column ranges)",
+        ),
+    ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
     if !run.files.is_empty() {
         let links: Vec<String> = run
