@@ -30,6 +30,7 @@ use std::sync::Mutex;
 const BLOCKS: &[&str] = &[
     "forecast-demo",
     "forecast-json",
+    "config-refusal",
     "workbook-forecast",
     "workbook-rejections",
     "changes-demo",
@@ -517,6 +518,24 @@ fn forecast_on_the_demo() {
         Block::new("forecast-demo", out),
         Block::new("forecast-json", abridged_json(&json)),
     ]);
+}
+
+/// A run configuration with a misspelt key, refused with its place.
+#[test]
+fn configuration_refusal() {
+    let s = Sandbox::new();
+    // As the README describes it: `horizn = 24` on the third line, under
+    // [projection].
+    fs::write(
+        s.path("run.toml"),
+        "[projection]\nhorizon = 12\nhorizn = 24\n",
+    )
+    .expect("run.toml");
+    let out = s.run(&["forecast", "--config", "run.toml"], 1);
+    check(vec![Block::new(
+        "config-refusal",
+        lines_starting(&out, &["error:"]),
+    )]);
 }
 
 /// The JSON summary cut to one product (its reason to its first clause) and
