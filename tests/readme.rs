@@ -514,6 +514,12 @@ fn forecast_on_the_demo() {
         )),
         "{lo:.1}–{hi:.1}%:\n{out}"
     );
+    // No sign on a figure that rounds to zero, anywhere a person reads it.
+    for f in ["demo-output/selection.csv", "demo-output/report.html"] {
+        let text = s.read(f);
+        assert!(!text.contains("-0.0%") && !text.contains("+0.0%"), "{f}");
+    }
+    assert!(!out.contains("-0.0%") && !out.contains("+0.0%"), "{out}");
     check(vec![
         Block::new("forecast-demo", out),
         Block::new("forecast-json", abridged_json(&json)),
