@@ -21,7 +21,7 @@ mod common;
 
 use std::collections::BTreeSet;
 use std::fs;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::sync::Mutex;
 
@@ -30,6 +30,7 @@ use std::sync::Mutex;
 const BLOCKS: &[&str] = &[
     "forecast-demo",
     "forecast-json",
+    "config-refusal",
     "workbook-forecast",
     "workbook-rejections",
     "changes-demo",
@@ -373,6 +374,40 @@ fn check(blocks: Vec<Block>) {
     );
 }
 
+/// The chart image the README shows (`docs/NAME`) is the one the run drew:
+/// the PNG files are deterministic (embedded font), so their bytes are
+/// compared; [`UPDATE_VAR`] copies the new one over.
+fn check_image(readme_name: &str, charts: &Path, prefix: &str) {
+    let drawn = fs::read_dir(charts)
+        .unwrap_or_else(|e| panic!("{}: {e}", charts.display()))
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .find(|p| {
+            p.extension().is_some_and(|x| x == "png")
+                && p.file_name()
+                    .and_then(|n| n.to_str())
+                    .is_some_and(|n| n.starts_with(prefix))
+        })
+        .unwrap_or_else(|| panic!("no chart {prefix}*.png in {}", charts.display()));
+    let shown = common::repo(&format!("docs/{readme_name}"));
+    let readme = fs::read_to_string(readme_path()).expect("README.md");
+    assert!(
+        readme.contains(&format!("](docs/{readme_name})")),
+        "README.md no longer shows docs/{readme_name}"
+    );
+    let new = fs::read(&drawn).expect("chart");
+    if fs::read(&shown).ok().as_deref() == Some(new.as_slice()) {
+        return;
+    }
+    if std::env::var_os(UPDATE_VAR).is_some() {
+        fs::write(&shown, &new).expect("write the README's chart");
+        return;
+    }
+    panic!(
+        "docs/{readme_name} is not the chart the README's commands draw now ({}); after an intended change: {UPDATE_VAR}=1 cargo test --test readme, and look at the new image",
+        drawn.display()
+    );
+}
+
 #[test]
 fn every_marked_block_is_checked() {
     let readme = fs::read_to_string(readme_path()).expect("README.md");
@@ -430,6 +465,20 @@ fn forecast_on_the_demo() {
         ],
         0,
     );
+    s.run(
+        &[
+            "report",
+            "demo-output",
+            "--chart-files",
+            "Malaria rapid diagnostic test",
+        ],
+        0,
+    );
+    check_image(
+        "chart-malaria-rdt.png",
+        &s.path("demo-output/charts"),
+        "malaria-rapid-diagnostic-test",
+    );
     let json = s.run(
         &[
             "--json",
@@ -465,10 +514,34 @@ fn forecast_on_the_demo() {
         )),
         "{lo:.1}–{hi:.1}%:\n{out}"
     );
+    // No sign on a figure that rounds to zero, anywhere a person reads it.
+    for f in ["demo-output/selection.csv", "demo-output/report.html"] {
+        let text = s.read(f);
+        assert!(!text.contains("-0.0%") && !text.contains("+0.0%"), "{f}");
+    }
+    assert!(!out.contains("-0.0%") && !out.contains("+0.0%"), "{out}");
     check(vec![
         Block::new("forecast-demo", out),
         Block::new("forecast-json", abridged_json(&json)),
     ]);
+}
+
+/// A run configuration with a misspelt key, refused with its place.
+#[test]
+fn configuration_refusal() {
+    let s = Sandbox::new();
+    // As the README describes it: `horizn = 24` on the third line, under
+    // [projection].
+    fs::write(
+        s.path("run.toml"),
+        "[projection]\nhorizon = 12\nhorizn = 24\n",
+    )
+    .expect("run.toml");
+    let out = s.run(&["forecast", "--config", "run.toml"], 1);
+    check(vec![Block::new(
+        "config-refusal",
+        lines_starting(&out, &["error:"]),
+    )]);
 }
 
 /// The JSON summary cut to one product (its reason to its first clause) and
@@ -539,6 +612,20 @@ fn known_changes_on_the_demo() {
         0,
     );
     let table = lines_between(&out, "applied ", "forecast ");
+    s.run(
+        &[
+            "report",
+            "demo-changes",
+            "--chart-files",
+            "HIV rapid test kit (newly scaled up)",
+        ],
+        0,
+    );
+    check_image(
+        "changes-hiv-rapid-test.png",
+        &s.path("demo-changes/charts"),
+        "hiv-rapid-test-kit",
+    );
     let applied = s.read("demo-changes/changes_applied.csv");
     let mut lines = applied.lines();
     let header = lines.next().unwrap_or("").to_string();
@@ -731,6 +818,11 @@ fn crosscheck_and_plan_on_the_demo() {
         "Artemether-lumefantrine 20/120 mg tablet x24:",
     );
     let cc_csv = s.read("demo-output/crosscheck.csv");
+    check_image(
+        "crosscheck-artemether-lumefantrine.png",
+        &s.path("demo-output/charts"),
+        "crosscheck-artemether-lumefantrine",
+    );
     let cc_figures = crosscheck_figures(&cc_csv);
     // A population file with a bad rate on line 3: refused whole.
     let pop = s.read("datasets/demo/population.csv");
@@ -754,6 +846,11 @@ fn crosscheck_and_plan_on_the_demo() {
         0,
     );
     let plan_table = lines_between(&plan, "product ", "warning:");
+    check_image(
+        "plan-hiv-rapid-test.png",
+        &s.path("demo-output/charts"),
+        "plan-hiv-rapid-test-kit",
+    );
     let orders = orders_table(
         &s.read("demo-output/orders.csv"),
         "HIV rapid test kit (newly scaled up)",

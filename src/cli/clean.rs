@@ -90,6 +90,7 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
     for (rule, n) in &by_rule {
         super::say!("  {rule:<18} {n}");
     }
+    super::print_reporting_uplift(&cleaned, "adjustments.csv");
     super::say!(
         "wrote cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
         a.out.display()

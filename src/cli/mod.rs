@@ -697,6 +697,59 @@ fn load_until(
     Ok((ds, cleaned))
 }
 
+/// What scaling for incomplete reporting added to each product's history:
+/// Σ(after − before) of its `reporting-scaled` log entries ÷ its reported
+/// volume, for the products where it did anything.
+fn reporting_uplift(cleaned: &provisio::clean::Cleaned) -> Vec<(&str, f64)> {
+    let mut added: std::collections::HashMap<&str, f64> = std::collections::HashMap::new();
+    for a in &cleaned.log {
+        if a.rule == provisio::clean::Rule::ReportingScaled {
+            if let (Some(b), Some(x)) = (a.before, a.after) {
+                *added.entry(a.product.as_str()).or_default() += x - b;
+            }
+        }
+    }
+    cleaned
+        .series
+        .iter()
+        .filter_map(|s| {
+            let up = *added.get(s.product.as_str())?;
+            let reported: f64 = s.reported.iter().flatten().sum();
+            (reported > 0.0).then(|| (s.product.as_str(), up / reported))
+        })
+        .collect()
+}
+
+/// One line on the largest routine change cleaning makes: scaling up for
+/// incomplete reporting, its range over the products and the largest.
+pub(super) fn print_reporting_uplift(cleaned: &provisio::clean::Cleaned, where_: &str) {
+    let mut up = reporting_uplift(cleaned);
+    if up.is_empty() {
+        return;
+    }
+    up.sort_by(|a, b| a.1.total_cmp(&b.1));
+    let pct = |v: f64| format!("{:.1}%", 100.0 * v);
+    let (lo, hi) = (up[0], up[up.len() - 1]);
+    let median = up[up.len() / 2].1;
+    let range = if up.len() == 1 {
+        format!("{} to the reported volume of {}", pct(hi.1), hi.0)
+    } else {
+        format!(
+            "{:.1}–{} to the reported volume ({} of {} products; median {}, the most: {} {})",
+            100.0 * lo.1,
+            pct(hi.1),
+            up.len(),
+            cleaned.series.len(),
+            pct(median),
+            hi.0,
+            pct(hi.1)
+        )
+    };
+    say!(
+        "scaling for incomplete reporting added {range}; per product: {where_} (rule reporting-scaled)"
+    );
+}
+
 /// Prints the row accounting line and the reading warnings.
 fn print_accounting(
     ds: &provisio::data::Dataset,

@@ -258,7 +258,7 @@ fn print_summary(r: &review::Review, limit: f64) {
             });
         }
         if p.history_audit.flagged || p.period_audit.flagged {
-            flags.push("adjusted");
+            flags.push("heavily-cleaned");
         }
         let closest = r
             .comparisons
@@ -290,7 +290,7 @@ fn print_summary(r: &review::Review, limit: f64) {
         );
     }
     super::say!(
-        "(months: scored/with actuals; bias > 0 = over-forecast; TS: tracking signal, flagged beyond ±2.46 √months, the 5% chance bound (8.5 over 12 months); FVA-nv / FVA-sn: WAPE of the naive (same as the last month) / seasonal naive (same month a year before) forecast made at the same time minus the model's, > 0 = the model added value; naive-better / seasonal-naive-better: lower WAPE and closer in more months than chance explains (sign test p ≤ 0.05); adjusted: over {:.0}% of volume not as reported)",
+        "(months: scored/with actuals; bias > 0 = over-forecast; TS: tracking signal, flagged beyond ±2.46 √months, the 5% chance bound (8.5 over 12 months); FVA-nv / FVA-sn: WAPE of the naive (same as the last month) / seasonal naive (same month a year before) forecast made at the same time minus the model's, > 0 = the model added value; naive-better / seasonal-naive-better: lower WAPE and closer in more months than chance explains (sign test p ≤ 0.05); heavily-cleaned: over {:.0}% of the volume changed by cleaning, not as reported)",
         100.0 * limit
     );
 }

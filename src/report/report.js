@@ -197,18 +197,19 @@
       line(root, pt(c.p, c.p0), C.fc, 2.2);
     }
     var legend = [["reported", C.reported], ["cleaned", C.cleaned], [c.pl, C.fc]];
-    var lx = narrow ? 20 : 90, ly = narrow ? TOP - 40 : TOP - 18;
+    var lx = narrow ? 20 : 90, ly = narrow ? TOP - 40 : TOP - 24;
     legend.forEach(function (l) {
       line(root, [[lx, ly - 4], [lx + 22, ly - 4]], l[1], 3);
       var t = svg("text", { x: lx + 28, y: ly, "font-size": 12, fill: C.ink }, l[0]);
       root.appendChild(t);
       lx += 40 + 7 * l[0].length;
     });
-    // On a narrow drawing the marks' key takes a line of its own.
-    if (narrow) { lx = 20; ly += 20; }
-    root.appendChild(svg("text", { x: lx, y: ly, "font-size": 12, fill: C.muted },
-      narrow ? "dots: changed by cleaning · rings: partly filled · squares: imputed · crosses: outliers"
-        : "dots: changed by cleaning beyond the usual · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges"));
+    var key = narrow ? "dots: changed by cleaning · rings: partly filled · squares: imputed · crosses: outliers"
+      : "dots: changed by cleaning beyond the usual · rings: partly filled · squares: imputed · crosses: outliers · shaded: 80% and 95% ranges";
+    // The marks' key takes a line of its own when it would not fit (about
+    // 6.6 px a character at this size).
+    if (lx + 6.6 * key.length > W - 10) { lx = narrow ? 20 : 90; ly += 18; }
+    root.appendChild(svg("text", { x: lx, y: ly, "font-size": 12, fill: C.muted }, key));
     if (BOTTOM) {
       var o0 = c.bt[0][0], hmax = 0;
       c.bt.forEach(function (b) { for (var j = 1; j < b[1].length; j += 2) { if (b[1][j] > hmax) { hmax = b[1][j]; } } });

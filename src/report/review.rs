@@ -335,7 +335,7 @@ fn flags(r: &ProductReview) -> Vec<&'static str> {
         });
     }
     if r.history_audit.flagged || r.period_audit.flagged {
-        f.push("heavily adjusted");
+        f.push("heavily cleaned");
     }
     f
 }
@@ -368,7 +368,7 @@ fn products_table(b: &mut String, review: &Review, stems: &[String]) {
         ("tracking signal", Kind::Num),
         ("added vs naive", Kind::Num),
         ("added vs seasonal naive", Kind::Num),
-        ("history adjusted", Kind::Num),
+        ("history changed by cleaning", Kind::Num),
         ("flags", Kind::Text),
     ]);
     let mut t = Table::new(&cols, true);
@@ -399,7 +399,7 @@ fn products_table(b: &mut String, review: &Review, stems: &[String]) {
         ]);
         t.row(None, cells);
     }
-    b.push_str("<h2 id=\"products\">Products</h2>\n<p class=\"note\">Click a column heading to sort. Value added in WAPE points (above 0: the model beat the simple rule). History adjusted: share of the volume the forecast was made from that is not as reported.</p>\n");
+    b.push_str("<h2 id=\"products\">Products</h2>\n<p class=\"note\">Click a column heading to sort. Value added in WAPE points (above 0: the model beat the simple rule). History changed by cleaning: share of the volume the forecast was made from that is not as reported.</p>\n");
     b.push_str(&t.html());
 }
 
@@ -521,7 +521,7 @@ fn product_section(
     );
     let findings = r.findings(page.adjustment_limit);
     if findings.is_empty() {
-        b.push_str("<p class=\"note\">Nothing stands out: tracking signal within its limit, ranges not short of their nominal coverage, no worse than the simple rules, data adjusted within the limit.</p>\n");
+        b.push_str("<p class=\"note\">Nothing stands out: tracking signal within its limit, ranges not short of their nominal coverage, no worse than the simple rules, data changed by cleaning within the limit.</p>\n");
     } else {
         b.push_str("<ul class=\"warn\">");
         for f in &findings {
