@@ -957,3 +957,26 @@ fn a_cut_short_workbook_is_called_damaged_not_a_misnamed_csv() {
     );
     assert!(!out.contains("name it .csv"), "{out}");
 }
+
+#[test]
+fn a_long_line_without_a_quote_is_not_blamed_on_a_quote() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let mut data = b"product,month,consumed\nORS,2024-01,5\nORS,2024-02,".to_vec();
+    data.extend(vec![b'7'; 1_200_000]);
+    data.extend(b"\nORS,2024-03,6\n");
+    std::fs::write(d.join("long.csv"), &data).unwrap();
+    let o = run_in(d, &["inspect", "long.csv"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("error: long.csv:3: the row starting here is longer than 1 MiB with no quote left open: a line this long is not a data row"),
+        "{out}"
+    );
+    assert!(!out.contains("never closed"), "{out}");
+    // With a quote opened on that line, the quote is named.
+    data.splice(35..35, *b"\"");
+    std::fs::write(d.join("long.csv"), &data).unwrap();
+    let out = text(&run_in(d, &["inspect", "long.csv"]));
+    assert!(out.contains("is probably never closed"), "{out}");
+}
