@@ -602,9 +602,15 @@ fn results_do_not_depend_on_the_number_of_threads() {
 /// by a sheet's bounding box or unpacks a bomb fails the test instead of
 /// the machine.
 fn inspect_capped(file: &str, env: &[(&str, &str)]) -> (Option<i32>, String) {
+    inspect_capped_path(&common::repo(&format!("tests/data/bad/{file}")), env)
+}
+
+/// [`inspect_capped`] of any file.
+fn inspect_capped_path(src: &Path, env: &[(&str, &str)]) -> (Option<i32>, String) {
     let w = tempfile::tempdir().unwrap();
-    let src = common::repo(&format!("tests/data/bad/{file}"));
-    std::fs::copy(&src, w.path().join(file)).unwrap();
+    let name = src.file_name().unwrap().to_str().unwrap();
+    let file = name;
+    std::fs::copy(src, w.path().join(file)).unwrap();
     let mut c = std::process::Command::new("sh");
     c.current_dir(w.path())
         .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
@@ -666,6 +672,40 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
         out.contains("many_cells.xlsx: sheet 'Data': the sheet holds more than 1000 cells"),
         "{out}"
     );
+    // Old-style .xls (tests/reference/bad_xls.py): the cells' box, the
+    // declared dimensions and the sectors are sized before the workbook
+    // reader lays anything out. Without that each of these aborts the
+    // process, asking for 137 GB, 344 GB and 1.1 TB (seen before the check).
+    let (code, out) = inspect_capped("far_cell.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("far_cell.xls: the cells of sheet 1 of the workbook span rows 1 to 65536 and columns A to CRXP (4294967296 cells once laid out"),
+        "{out}"
+    );
+    assert!(out.contains("provisio stops at 2000000 cells"), "{out}");
+    assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    let (code, out) = inspect_capped("huge_dimensions.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains(
+            "huge_dimensions.xls: sheet 1 of the workbook declares dimensions of 8589934588 cells"
+        ),
+        "{out}"
+    );
+    let (code, out) = inspect_capped("bad_sector.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("bad_sector.xls: the .xls workbook is damaged (the directory runs to sector 2147483632, past the end of the file)"),
+        "{out}"
+    );
+    // The sound workbook they were made from reads under the same cap, and
+    // under a cell limit just above its box (4 columns × 7 rows).
+    let sound = common::repo("tests/data/sheets/xlwt.xls");
+    let (code, out) = inspect_capped_path(&sound, &[("PROVISIO_MAX_SHEET_CELLS", "28")]);
+    assert_eq!(code, Some(0), "{out}");
+    let (code, out) = inspect_capped_path(&sound, &[("PROVISIO_MAX_SHEET_CELLS", "27")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(out.contains("xlwt.xls: sheet 1 of the workbook declares dimensions of 28 cells; provisio stops at 27 cells"), "{out}");
     // A value that is not a number is not silently taken as a limit.
     let (_, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "lots")]);
     assert!(

@@ -8,6 +8,7 @@ mod series;
 mod sheet;
 mod text;
 mod values;
+pub(crate) mod xls;
 
 pub(crate) use read::{missing_columns_message, normalise_name};
 pub use read::{
