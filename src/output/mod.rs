@@ -202,7 +202,8 @@ impl OutputDir {
             if name == OUTPUT_MARKER {
                 return Ok(ok);
             }
-            if !is_temp_name(&name) {
+            // A run writing in place keeps its lock inside the folder.
+            if !is_temp_name(&name) && name != staging::INNER_LOCK {
                 found.push(name);
             }
         }

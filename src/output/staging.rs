@@ -27,7 +27,7 @@ use crate::error::{Error, Result};
 /// End of the lock file's name: `PARENT/.NAME.provisio-lock`.
 const LOCK_SUFFIX: &str = ".provisio-lock";
 /// Lock file inside the folder when the run writes in place.
-const INNER_LOCK: &str = ".provisio-lock";
+pub(super) const INNER_LOCK: &str = ".provisio-lock";
 /// Part of the staging copy's name: `PARENT/.NAME.provisio-new-PID`.
 const NEW_TAG: &str = ".provisio-new-";
 /// Part of the earlier folder's name while it is swapped out.
