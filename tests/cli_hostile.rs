@@ -356,6 +356,33 @@ fn a_failure_half_way_leaves_the_earlier_folder_unchanged() {
     two_inputs(d);
     let o = run_in(d, &["forecast", "a.csv", "--out", "o", "--origins", "2"]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let o = run_in(
+        d,
+        &[
+            "forecast",
+            "a.csv",
+            "--out",
+            "past",
+            "--origins",
+            "2",
+            "--until",
+            "2023-12",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    // Invented stock and population for the two products.
+    std::fs::write(
+        d.join("stock.csv"),
+        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\n\
+         ORS,300,2024-06,2,3,6,2,50,0.5\nZinc,100,2024-06,2,3,6,2,10,0.2\n",
+    )
+    .unwrap();
+    std::fs::write(
+        d.join("pop.csv"),
+        "product,group,method,population,group_share,rate,care_seeking,treated,quantity_per_course\n\
+         ORS,all,morbidity,100000,1,0.3,0.6,0.9,2\n",
+    )
+    .unwrap();
     let before = tree(&d.join("o"));
     assert!(before.contains_key("report.html") && before.contains_key("forecast.xlsx"));
     let top = |d: &Path| {
@@ -381,6 +408,16 @@ fn a_failure_half_way_leaves_the_earlier_folder_unchanged() {
         ),
         (vec!["clean", "b.csv", "--out", "o"], "manifest.json"),
         (vec!["report", "o"], "report.html"),
+        (vec!["plan", "o", "--stock", "stock.csv"], "orders.csv"),
+        (vec!["plan", "o", "--stock", "stock.csv"], "forecast.xlsx"),
+        (
+            vec!["crosscheck", "o", "--population", "pop.csv"],
+            "crosscheck.json",
+        ),
+        (
+            vec!["review", "past", "--actuals", "a.csv", "--out", "o"],
+            "review.json",
+        ),
     ] {
         let o = command(d)
             .args(&args)
@@ -402,6 +439,16 @@ fn a_failure_half_way_leaves_the_earlier_folder_unchanged() {
             "{args:?} left files beside the folder"
         );
     }
+    // Without the failure, the same commands go through.
+    for args in [
+        vec!["plan", "o", "--stock", "stock.csv"],
+        vec!["crosscheck", "o", "--population", "pop.csv"],
+    ] {
+        let o = run_in(d, &args);
+        assert_eq!(o.status.code(), Some(0), "{args:?}: {}", text(&o));
+    }
+    assert!(d.join("o/orders.csv").exists() && d.join("o/crosscheck.json").exists());
+    let listing_before = top(d);
     // `report` finds a damaged scores.csv after it rebuilt the workbook:
     // the folder keeps its workbook and report as they were.
     let scores = d.join("o/scores.csv");
