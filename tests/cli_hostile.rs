@@ -468,10 +468,17 @@ fn a_second_run_into_a_folder_being_written_is_refused_naming_the_first() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     two_inputs(d);
-    // A live process holds the lock: this test's own.
+    // A live provisio process holds the lock: one waiting for its input.
     let lock = d.join(".o.provisio-lock");
     let host = std::fs::read_to_string("/proc/sys/kernel/hostname").unwrap_or_default();
-    let me = std::process::id();
+    let mut holder = command(d)
+        .args(["inspect", "/dev/stdin"])
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let me = holder.id();
     std::fs::write(
         &lock,
         format!(
@@ -500,6 +507,8 @@ fn a_second_run_into_a_folder_being_written_is_refused_naming_the_first() {
         );
     }
     assert!(lock.exists(), "another run's lock is never removed");
+    let _ = holder.kill();
+    let _ = holder.wait();
 
     // A lock left by a run that was killed (its process is gone) is taken over.
     let mut gone = std::process::Command::new("true").spawn().unwrap();

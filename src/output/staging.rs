@@ -88,13 +88,21 @@ fn host_name() -> String {
         .unwrap_or_default()
 }
 
-/// Whether the process holding a lock still runs: known only on Linux
-/// (`/proc`), and only for a process of this host.
+/// Whether the run holding a lock still runs: known only on Linux
+/// (`/proc`), and only for a process of this host. A process id taken
+/// since by another program (its name is not provisio's) is not the run.
 fn holder_alive(h: &LockHolder) -> Option<bool> {
     if !Path::new("/proc/self").exists() || h.host != host_name() {
         return None;
     }
-    Some(Path::new(&format!("/proc/{}", h.pid)).exists())
+    let proc = PathBuf::from(format!("/proc/{}", h.pid));
+    if !proc.exists() {
+        return Some(false);
+    }
+    match std::fs::read_to_string(proc.join("comm")) {
+        Ok(name) => Some(name.trim_end().starts_with("provisio")),
+        Err(_) => Some(true),
+    }
 }
 
 /// A folder's lock, held until dropped.
@@ -686,6 +694,21 @@ mod tests {
         let now = LockHolder::parse(&std::fs::read_to_string(&lock).unwrap()).unwrap();
         assert_eq!(now.pid, std::process::id());
         drop(run);
+        assert!(!lock.exists());
+        // A live process that is not provisio (its pid reused since).
+        let mut other_program = std::process::Command::new("sleep")
+            .arg("30")
+            .spawn()
+            .unwrap();
+        let reused = LockHolder {
+            pid: other_program.id(),
+            ..stale.clone()
+        };
+        std::fs::write(&lock, reused.to_text()).unwrap();
+        let run = FolderRun::start(&out);
+        let _ = other_program.kill();
+        let _ = other_program.wait();
+        drop(run.unwrap());
         assert!(!lock.exists());
         // A lock from another host cannot be checked: refused, with the way out.
         let other = LockHolder {
