@@ -565,9 +565,9 @@ fn error_text(e: &anyhow::Error) -> String {
 /// stand for: a message names the output folder, not the staging copy.
 static STAGED: std::sync::Mutex<Vec<(String, String)>> = std::sync::Mutex::new(Vec::new());
 
-/// Starts writing the output folder `out`: takes its lock and prepares
-/// the staging copy (see [`provisio::output::FolderRun`]). Returns the run
-/// and the folder to write into.
+/// Prepares the staging copy of a run's output folder (see
+/// [`provisio::output::FolderRun`]) and returns the folder to write into;
+/// messages from then on name the output folder, not the copy.
 fn stage(run: &mut provisio::output::FolderRun) -> anyhow::Result<std::path::PathBuf> {
     let dir = run.prepare()?;
     if dir != run.target() {
