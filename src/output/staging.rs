@@ -391,6 +391,15 @@ impl FolderRun {
             });
         }
         self.stage = None;
+        // The renames reach the disk with the folder that holds them.
+        let listed = if parent.as_os_str().is_empty() {
+            Path::new(".")
+        } else {
+            parent.as_path()
+        };
+        if let Ok(d) = std::fs::File::open(listed) {
+            let _ = d.sync_all();
+        }
         if had_old {
             let _ = std::fs::remove_dir_all(&aside);
         }
