@@ -14,10 +14,11 @@
 //! leaves it, and the next run into the folder removes it (and puts the
 //! earlier folder back if the kill came between the two renames).
 //!
-//! Where the swap cannot work, the run writes into the folder itself, file
-//! by file (each file still whole, the lock still held): when the folder is
-//! a mount point, the current folder or one of its parents, or its parent
-//! folder cannot be written.
+//! Where the swap cannot work or is not worth it, the run writes into the
+//! folder itself, file by file (each file still whole, the lock still
+//! held): when the folder is a mount point, the current folder or one of
+//! its parents, holds files provisio did not write (`--overwrite`), or its
+//! parent folder cannot be written (the lock then goes inside the folder).
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -228,18 +229,22 @@ fn busy_unknown(folder: &Path, h: &LockHolder, lock: &Path) -> Error {
     }
 }
 
-/// How a run writes its folder.
+/// Where a run's lock is and how it writes its folder.
 #[derive(Debug, Clone, PartialEq, Eq)]
 enum Mode {
-    /// Into a staging copy beside the folder, swapped in at the end.
-    Staged {
+    /// Lock beside the folder; `staged`: writing into a staging copy
+    /// beside it, swapped in at the end (otherwise into the folder itself).
+    Beside {
         /// The folder that holds the output folder.
         parent: PathBuf,
         /// The output folder's name.
         name: String,
+        /// Whether the run writes into a staging copy.
+        staged: bool,
     },
-    /// Into the folder itself, file by file.
-    InPlace,
+    /// Lock inside the folder (its parent cannot be written); written in
+    /// place, file by file.
+    Inside,
 }
 
 /// A run writing one output folder: holds its lock from [`FolderRun::start`]
@@ -260,8 +265,8 @@ impl FolderRun {
     /// beside it. Refuses, naming the other run, when another run is
     /// writing the folder.
     pub fn start(target: &Path) -> Result<FolderRun> {
-        let target = resolve_link(target);
-        if let Some((parent, name)) = staging_place(&target) {
+        let target = resolve(target);
+        if let Some((parent, name)) = sibling_place(&target) {
             let listed = if parent.as_os_str().is_empty() {
                 Path::new(".")
             } else {
@@ -275,17 +280,26 @@ impl FolderRun {
             let lock_path = parent.join(format!(".{name}{LOCK_SUFFIX}"));
             match RunLock::acquire(lock_path.clone(), &target) {
                 Ok(lock) => {
-                    let run = FolderRun {
+                    let mut run = FolderRun {
                         target: target.clone(),
-                        mode: Mode::Staged { parent, name },
+                        mode: Mode::Beside {
+                            parent,
+                            name,
+                            staged: false,
+                        },
                         stage: None,
                         _lock: lock,
                     };
                     run.recover()?;
+                    // Decided under the lock, after the repair.
+                    let can = can_stage(&run.target);
+                    if let Mode::Beside { staged, .. } = &mut run.mode {
+                        *staged = can;
+                    }
                     return Ok(run);
                 }
                 Err(LockError::Busy(e)) => return Err(e),
-                // The parent folder cannot be written: write in place.
+                // The parent folder cannot be written: lock inside.
                 Err(LockError::Io(e)) if e.kind() == std::io::ErrorKind::PermissionDenied => {}
                 Err(LockError::Io(source)) => {
                     return Err(Error::Io {
@@ -312,7 +326,7 @@ impl FolderRun {
         })?;
         Ok(FolderRun {
             target,
-            mode: Mode::InPlace,
+            mode: Mode::Inside,
             stage: None,
             _lock: lock,
         })
@@ -331,7 +345,12 @@ impl FolderRun {
         if let Some(stage) = &self.stage {
             return Ok(stage.clone());
         }
-        let Mode::Staged { parent, name } = &self.mode else {
+        let Mode::Beside {
+            parent,
+            name,
+            staged: true,
+        } = &self.mode
+        else {
             super::OutputDir {
                 path: self.target.clone(),
             }
@@ -367,7 +386,8 @@ impl FolderRun {
     /// Makes the files written appear in the output folder, all at once;
     /// on failure the folder is left as it was.
     pub fn commit(mut self) -> Result<()> {
-        let (Mode::Staged { parent, name }, Some(stage)) = (&self.mode, self.stage.clone()) else {
+        let (Mode::Beside { parent, name, .. }, Some(stage)) = (&self.mode, self.stage.clone())
+        else {
             return Ok(());
         };
         let aside = parent.join(format!(".{name}{OLD_TAG}{}", std::process::id()));
@@ -410,7 +430,7 @@ impl FolderRun {
     /// moved aside but not replaced is put back; staging copies and
     /// earlier folders left over are removed. Runs under the lock.
     fn recover(&self) -> Result<()> {
-        let Mode::Staged { parent, name } = &self.mode else {
+        let Mode::Beside { parent, name, .. } = &self.mode else {
             return Ok(());
         };
         let listed = if parent.as_os_str().is_empty() {
@@ -468,33 +488,51 @@ fn remove_leftover(p: &Path) {
     }
 }
 
-/// A link given as the output folder is resolved, so the folder it points
-/// to is replaced, not the link.
-fn resolve_link(target: &Path) -> PathBuf {
-    match std::fs::symlink_metadata(target) {
-        Ok(m) if m.file_type().is_symlink() => {
-            std::fs::canonicalize(target).unwrap_or_else(|_| target.to_path_buf())
-        }
-        _ => target.to_path_buf(),
+/// The output folder as the run names it: a link given is resolved, so
+/// the folder it points to is replaced, not the link; so is a name without
+/// a last part (`.`, `..`), so its lock goes beside it like any other.
+fn resolve(target: &Path) -> PathBuf {
+    let link = std::fs::symlink_metadata(target).is_ok_and(|m| m.file_type().is_symlink());
+    if link || target.file_name().is_none() {
+        std::fs::canonicalize(target).unwrap_or_else(|_| target.to_path_buf())
+    } else {
+        target.to_path_buf()
     }
 }
 
-/// Where the staging copy goes (the parent folder and the folder's name),
-/// or `None` when the folder must be written in place.
-fn staging_place(target: &Path) -> Option<(PathBuf, String)> {
+/// The folder beside which the lock goes, and the folder's name; `None`
+/// for the root of the file system.
+fn sibling_place(target: &Path) -> Option<(PathBuf, String)> {
     let name = target.file_name()?.to_str()?.to_string();
     let parent = target.parent()?.to_path_buf();
+    Some((parent, name))
+}
+
+/// Whether the folder can be written as a staging copy swapped in at the
+/// end: it does not exist yet, is empty, or is provisio's (marked, or
+/// holding a run manifest from before folders were marked); and renaming
+/// it is safe: it is not the current folder or one above it (the shell
+/// that started the run would be left in a removed folder) nor a mount
+/// point (it cannot be renamed). A folder of other files given with
+/// `--overwrite` is written in place: copying a tree that may be large and
+/// span file systems is not worth the swap.
+fn can_stage(target: &Path) -> bool {
+    let Ok(mut entries) = std::fs::read_dir(target) else {
+        return std::fs::symlink_metadata(target).is_err();
+    };
+    let ours = target.join(super::OUTPUT_MARKER).is_file()
+        || super::written_by_provisio(&target.join("manifest.json"))
+        || entries.next().is_none();
+    if !ours {
+        return false;
+    }
     if let (Ok(t), Ok(cwd)) = (std::fs::canonicalize(target), std::env::current_dir()) {
-        // The current folder or one above it: renaming it would leave the
-        // shell that started the run in a removed folder.
         if cwd.starts_with(&t) {
-            return None;
+            return false;
         }
     }
-    if is_mount_point(target, &parent) {
-        return None;
-    }
-    Some((parent, name))
+    let parent = target.parent().unwrap_or(Path::new(""));
+    !is_mount_point(target, parent)
 }
 
 #[cfg(unix)]
@@ -627,6 +665,7 @@ mod tests {
         let d = tempfile::tempdir().unwrap();
         let out = d.path().join("out");
         std::fs::create_dir(&out).unwrap();
+        std::fs::write(out.join(super::super::OUTPUT_MARKER), "").unwrap();
         std::fs::write(out.join("a.csv"), "old a").unwrap();
         std::fs::write(out.join("notes.txt"), "mine").unwrap();
         let mut run = FolderRun::start(&out).unwrap();
@@ -651,6 +690,7 @@ mod tests {
         let d = tempfile::tempdir().unwrap();
         let out = d.path().join("out");
         std::fs::create_dir(&out).unwrap();
+        std::fs::write(out.join(super::super::OUTPUT_MARKER), "").unwrap();
         std::fs::write(out.join("a.csv"), "old a").unwrap();
         let before = read_all(&out);
         {
@@ -661,6 +701,25 @@ mod tests {
         }
         assert_eq!(read_all(&out), before);
         assert_eq!(std::fs::read_dir(d.path()).unwrap().count(), 1);
+    }
+
+    #[test]
+    fn a_folder_of_other_files_is_written_in_place_under_the_same_lock() {
+        let d = tempfile::tempdir().unwrap();
+        let out = d.path().join("theirs");
+        std::fs::create_dir(&out).unwrap();
+        std::fs::write(out.join("notes.txt"), "mine").unwrap();
+        let mut run = FolderRun::start(&out).unwrap();
+        assert_eq!(run.prepare().unwrap(), out);
+        assert!(FolderRun::start(&out)
+            .unwrap_err()
+            .to_string()
+            .contains("another provisio run is writing"));
+        run.commit().unwrap();
+        assert_eq!(std::fs::read(out.join("notes.txt")).unwrap(), b"mine");
+        // Once marked as provisio's, the next run is staged.
+        let mut run = FolderRun::start(&out).unwrap();
+        assert_ne!(run.prepare().unwrap(), out);
     }
 
     #[test]
