@@ -93,6 +93,13 @@ pub enum Error {
         /// What was wrong and what would be valid.
         message: String,
     },
+    /// Another run is writing the same output folder (or its lock cannot
+    /// be checked); the message names that run and the way out.
+    #[error("{message}")]
+    Busy {
+        /// Which run holds the folder, and what to do.
+        message: String,
+    },
     /// Writing CSV or JSON output failed.
     #[error("{path}: cannot write output: {message}")]
     Output {

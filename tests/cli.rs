@@ -196,6 +196,14 @@ const CATALOGUE: &[(&str, &[&str], Outcome, &str)] = &[
     ("duplicate_rows.csv", &[], RowRejected, "duplicate_rows.csv:4: duplicate of line 3 (product 'ORS', site 'North', month 2024-02) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"),
     ("duplicate_rows.csv", &["--duplicates", "sum"], Accepted, "rows read: 4 = 2 used as reported + 2 corrected by cleaning + 0 rejected"),
     ("exact_duplicate_rows.csv", &[], RowRejected, "exact_duplicate_rows.csv:4: exact duplicate of line 3 (product 'ORS', month 2024-02); the first copy is used"),
+    // Told its delimiter, not to rename its header.
+    ("pipe_delimited.csv", &[], Refused, "pipe_delimited.csv:1: the header is one column holding '|' between names: the file seems to be delimited by '|', and provisio reads commas, semicolons and tabs; save it as CSV with commas"),
+    // Not blamed on an empty month.
+    ("rows_other_delimiter.csv", &[], RowRejected, "rows_other_delimiter.csv:3: the row is one field holding ';' between values, but the header is delimited by ',': the rows and the header use different delimiters; save the file with one delimiter throughout"),
+    ("header_invisible_character.csv", &[], Refused, "header_invisible_character.csv:1: missing required column 'consumed'; the header has: product, month, con<U+200B>sumed; required: product, month, consumed (optional: stockout_days, reporting_rate, site); the header's 'consumed' holds the invisible character(s) U+200B (shown as <U+...>): delete that name and type it again"),
+    // The value quoted as written, with both signs and the space.
+    ("reporting_rate_double_percent.csv", &[], RowRejected, "reporting_rate_double_percent.csv:3: column 'reporting_rate': \"85%%\" has more than one % sign; write one, as in 85%"),
+    ("reporting_rate_space_inside.csv", &[], RowRejected, "reporting_rate_space_inside.csv:3: column 'reporting_rate': \"8 5%\" has a space between its digits; a reporting rate has no digit groups: write it without the space (85%, if that is the rate), as in 85%"),
     ("too_many_fields.csv", &[], RowRejected, "too_many_fields.csv:3: the row has 4 fields but the header has 3"),
     ("single_month_product.csv", &[], Accepted, "Zinc: not fit: only 1 month(s) reported; at least 12 are needed to forecast"),
     ("all_zeros_product.csv", &[], Accepted, "Condoms: fit with care: 12 months reported: fewer than 24, so seasonality cannot be estimated; intermittent: 100% of reported months are zero"),

@@ -25,10 +25,6 @@ fn files(dir: &Path) -> BTreeMap<String, Vec<u8>> {
         .collect()
 }
 
-fn is_temp(name: &str) -> bool {
-    name.starts_with(".provisio-") && name.ends_with(".tmp")
-}
-
 #[test]
 fn odd_product_names_flow_through_forecast_unchanged() {
     let dir = tempfile::tempdir().unwrap();
@@ -178,44 +174,38 @@ fn a_folder_provisio_did_not_create_is_refused_unless_overwrite() {
     }
 }
 
-/// Names, sizes and modification times of the files in a folder.
-fn listing(dir: &Path) -> Vec<(String, u64, Option<std::time::SystemTime>)> {
-    let mut v: Vec<_> = std::fs::read_dir(dir)
-        .map(|d| {
-            d.filter_map(Result::ok)
-                .filter_map(|e| {
-                    let m = e.metadata().ok()?;
-                    Some((
-                        e.file_name().to_string_lossy().into_owned(),
-                        m.len(),
-                        m.modified().ok(),
-                    ))
-                })
-                .collect()
-        })
-        .unwrap_or_default();
+/// Names in `dir` that a run into `out` keeps beside it while it works:
+/// its lock, its staging copy, the earlier folder while swapped out.
+fn beside(dir: &Path, out: &str) -> Vec<String> {
+    let prefix = format!(".{out}.provisio-");
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .filter_map(Result::ok)
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(&prefix))
+        .collect();
     v.sort();
     v
 }
 
-/// Starts `clean` into `out`, waits until it starts writing there (the
-/// folder's listing changes), waits `delay` more, and kills it. Returns
-/// whether the process was still running when killed.
+/// Starts `clean` into `out`, waits until it starts writing (its staging
+/// copy appears beside the folder), waits `delay` more, and kills it.
+/// Returns whether the process was still running when killed.
 fn kill_while_writing(dir: &Path, out: &str, delay: Duration) -> bool {
-    let target = dir.join(out);
-    let before = listing(&target);
     let mut child = command(dir)
         .args(["clean", "in.csv", "--out", out])
         .stdout(std::process::Stdio::null())
         .stderr(std::process::Stdio::null())
         .spawn()
         .unwrap();
+    let stage = format!(".{out}.provisio-new-");
     let t0 = Instant::now();
     loop {
         if child.try_wait().unwrap().is_some() {
             return false;
         }
-        if listing(&target) != before || t0.elapsed() > Duration::from_secs(60) {
+        let writing = beside(dir, out).iter().any(|n| n.starts_with(&stage));
+        if writing || t0.elapsed() > Duration::from_secs(60) {
             break;
         }
         std::thread::sleep(Duration::from_millis(1));
@@ -235,7 +225,7 @@ fn copy_dir(from: &Path, to: &Path) {
 }
 
 #[test]
-fn a_killed_run_leaves_whole_files_only() {
+fn a_killed_run_leaves_the_whole_earlier_folder_or_the_whole_new_one() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     // About 10,000 rows: a 1 MB adjustment log, so writing takes a moment.
@@ -276,7 +266,7 @@ fn a_killed_run_leaves_whole_files_only() {
     assert_ne!(reference["cleaned.csv"], previous["cleaned.csv"]);
 
     let mut interrupted = 0;
-    let mut partial_states = 0;
+    let mut before_swap = 0;
     for (i, ms) in [0u64, 2, 8, 25, 60].iter().enumerate() {
         for with_previous in [true, false] {
             let out = format!("run{i}{}", if with_previous { "p" } else { "f" });
@@ -286,43 +276,290 @@ fn a_killed_run_leaves_whole_files_only() {
             if kill_while_writing(d, &out, Duration::from_millis(*ms)) {
                 interrupted += 1;
             }
-            let left = files(&d.join(&out));
-            let mut all_new = true;
-            for (name, bytes) in &left {
-                if is_temp(name) {
-                    // Hidden, and removed by the next run (checked below).
-                    all_new = false;
-                    continue;
-                }
-                let new = reference.get(name) == Some(bytes);
-                let old = with_previous && previous.get(name) == Some(bytes);
-                assert!(
-                    new || old,
-                    "{out}/{name} (killed {ms} ms into writing) is neither the new nor the previous complete file"
-                );
-                all_new &= new;
+            let target = d.join(&out);
+            let left = if target.exists() {
+                files(&target)
+            } else {
+                BTreeMap::new()
+            };
+            let state = if left == reference {
+                "new"
+            } else if with_previous && left == previous {
+                "previous"
+            } else if left.is_empty() && !with_previous {
+                "none"
+            } else if left.is_empty()
+                && beside(d, &out)
+                    .iter()
+                    .any(|n| n.starts_with(&format!(".{out}.provisio-old-")))
+            {
+                // Killed between the two renames: put back by the next run.
+                "previous, moved aside"
+            } else {
+                panic!(
+                    "{out} (killed {ms} ms into writing) holds a mix: {:?}",
+                    left.keys().collect::<Vec<_>>()
+                )
+            };
+            if state != "new" {
+                before_swap += 1;
             }
-            if left.keys().filter(|n| !is_temp(n)).count() < reference.len() {
-                all_new = false;
-            }
-            if !all_new {
-                partial_states += 1;
-            }
-            // The next run cleans up and completes.
+            // The next run cleans up beside the folder and completes.
             let o = run_in(d, &["clean", "in.csv", "--out", &out]);
             assert!(o.status.success(), "{}", text(&o));
-            assert_eq!(files(&d.join(&out)), reference, "{out} after a full run");
+            assert_eq!(files(&target), reference, "{out} after a full run");
+            assert_eq!(beside(d, &out), Vec::<String>::new(), "{out}: left beside");
         }
     }
-    eprintln!(
-        "{interrupted} of 10 runs killed while running; {partial_states} left partial states"
-    );
+    eprintln!("{interrupted} of 10 runs killed while running; {before_swap} before the swap");
     // The kills did land while files were being written.
     assert!(interrupted >= 4, "only {interrupted} runs were interrupted");
-    assert!(
-        partial_states >= 2,
-        "only {partial_states} partial states seen"
+    assert!(before_swap >= 2, "only {before_swap} kills before the swap");
+}
+
+/// Every file under a folder, path → bytes (recursive).
+fn tree(dir: &Path) -> BTreeMap<String, Vec<u8>> {
+    let mut out = BTreeMap::new();
+    let mut todo = vec![dir.to_path_buf()];
+    while let Some(p) = todo.pop() {
+        for e in std::fs::read_dir(&p).unwrap() {
+            let e = e.unwrap();
+            if e.file_type().unwrap().is_dir() {
+                todo.push(e.path());
+            } else {
+                let rel = e.path().strip_prefix(dir).unwrap().display().to_string();
+                out.insert(rel, std::fs::read(e.path()).unwrap());
+            }
+        }
+    }
+    out
+}
+
+/// Two small invented inputs with different products, to tell runs apart.
+fn two_inputs(d: &Path) {
+    let mut a = String::from("product,month,consumed\n");
+    let mut b = a.clone();
+    for m in 1..=30 {
+        let (y, mm) = (2022 + (m - 1) / 12, (m - 1) % 12 + 1);
+        a.push_str(&format!("ORS,{y}-{mm:02},{}\n", 100 + (m * 7) % 23));
+        a.push_str(&format!("Zinc,{y}-{mm:02},{}\n", 50 + (m * 5) % 11));
+        b.push_str(&format!("Amoxicillin,{y}-{mm:02},{}\n", 200 + (m * 3) % 17));
+    }
+    std::fs::write(d.join("a.csv"), a).unwrap();
+    std::fs::write(d.join("b.csv"), b).unwrap();
+}
+
+#[test]
+fn a_failure_half_way_leaves_the_earlier_folder_unchanged() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    two_inputs(d);
+    let o = run_in(d, &["forecast", "a.csv", "--out", "o", "--origins", "2"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    let o = run_in(
+        d,
+        &[
+            "forecast",
+            "a.csv",
+            "--out",
+            "past",
+            "--origins",
+            "2",
+            "--until",
+            "2023-12",
+        ],
     );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    // Invented stock and population for the two products.
+    std::fs::write(
+        d.join("stock.csv"),
+        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\n\
+         ORS,300,2024-06,2,3,6,2,50,0.5\nZinc,100,2024-06,2,3,6,2,10,0.2\n",
+    )
+    .unwrap();
+    std::fs::write(
+        d.join("pop.csv"),
+        "product,group,method,population,group_share,rate,care_seeking,treated,quantity_per_course\n\
+         ORS,all,morbidity,100000,1,0.3,0.6,0.9,2\n",
+    )
+    .unwrap();
+    let before = tree(&d.join("o"));
+    assert!(before.contains_key("report.html") && before.contains_key("forecast.xlsx"));
+    let top = |d: &Path| {
+        let mut v: Vec<_> = std::fs::read_dir(d)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        v.sort();
+        v
+    };
+    let listing_before = top(d);
+    // A write that fails half-way (a full disk, simulated by the test hook)
+    // in each command that writes the folder: nothing of the failed run
+    // shows, and nothing is left beside the folder.
+    for (args, fails) in [
+        (
+            vec!["forecast", "b.csv", "--out", "o", "--origins", "2"],
+            "scores.csv",
+        ),
+        (
+            vec!["forecast", "b.csv", "--out", "o", "--origins", "2"],
+            "report.html",
+        ),
+        (vec!["clean", "b.csv", "--out", "o"], "manifest.json"),
+        (vec!["report", "o"], "report.html"),
+        (vec!["plan", "o", "--stock", "stock.csv"], "orders.csv"),
+        (vec!["plan", "o", "--stock", "stock.csv"], "forecast.xlsx"),
+        (
+            vec!["crosscheck", "o", "--population", "pop.csv"],
+            "crosscheck.json",
+        ),
+        (
+            vec!["review", "past", "--actuals", "a.csv", "--out", "o"],
+            "review.json",
+        ),
+    ] {
+        let o = command(d)
+            .args(&args)
+            .env("PROVISIO_TEST_FAIL_WRITE", fails)
+            .output()
+            .unwrap();
+        let out = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{args:?}: {out}");
+        assert!(
+            out.contains(&format!(
+                "error: o/{fails}: cannot write: no space left on device"
+            )),
+            "{args:?}: the message names the output folder's file, not the staging copy: {out}"
+        );
+        assert!(tree(&d.join("o")) == before, "{args:?} changed the folder");
+        assert_eq!(
+            top(d),
+            listing_before,
+            "{args:?} left files beside the folder"
+        );
+    }
+    // Without the failure, the same commands go through.
+    for args in [
+        vec!["plan", "o", "--stock", "stock.csv"],
+        vec!["crosscheck", "o", "--population", "pop.csv"],
+    ] {
+        let o = run_in(d, &args);
+        assert_eq!(o.status.code(), Some(0), "{args:?}: {}", text(&o));
+    }
+    assert!(d.join("o/orders.csv").exists() && d.join("o/crosscheck.json").exists());
+    let listing_before = top(d);
+    // `report` finds a damaged scores.csv after it rebuilt the workbook:
+    // the folder keeps its workbook and report as they were.
+    let scores = d.join("o/scores.csv");
+    let mut damaged = std::fs::read_to_string(&scores).unwrap();
+    damaged.push_str("ORS,\"unclosed\n");
+    std::fs::write(&scores, &damaged).unwrap();
+    let before = tree(&d.join("o"));
+    let o = run_in(d, &["report", "o"]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    assert!(text(&o).contains("o/scores.csv"), "{}", text(&o));
+    assert!(tree(&d.join("o")) == before, "report changed the folder");
+    assert_eq!(top(d), listing_before);
+}
+
+#[test]
+fn a_second_run_into_a_folder_being_written_is_refused_naming_the_first() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    two_inputs(d);
+    // A live provisio process holds the lock: one waiting for its input.
+    let lock = d.join(".o.provisio-lock");
+    let host = std::fs::read_to_string("/proc/sys/kernel/hostname").unwrap_or_default();
+    let mut holder = command(d)
+        .args(["inspect", "/dev/stdin"])
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let me = holder.id();
+    std::fs::write(
+        &lock,
+        format!(
+            "provisio run lock\npid {me}\nstarted 2026-12-04T10:00:00Z\nhost {}\n",
+            host.trim()
+        ),
+    )
+    .unwrap();
+    for args in [
+        vec!["forecast", "a.csv", "--out", "o"],
+        vec!["clean", "a.csv", "--out", "o"],
+        vec!["backtest", "a.csv", "--out", "o"],
+    ] {
+        let o = run_in(d, &args);
+        let out = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{out}");
+        assert!(
+            out.contains(&format!(
+                "error: another provisio run is writing o (pid {me}, started 2026-12-04T10:00:00Z); wait for it to finish, or choose another folder"
+            )),
+            "{out}"
+        );
+        assert!(
+            !d.join("o").exists(),
+            "{args:?} wrote while another run held the folder"
+        );
+    }
+    assert!(lock.exists(), "another run's lock is never removed");
+    let _ = holder.kill();
+    let _ = holder.wait();
+
+    // A lock left by a run that was killed (its process is gone) is taken over.
+    let mut gone = std::process::Command::new("true").spawn().unwrap();
+    let pid = gone.id();
+    gone.wait().unwrap();
+    std::fs::write(
+        &lock,
+        format!(
+            "provisio run lock\npid {pid}\nstarted 2026-12-04T10:00:00Z\nhost {}\n",
+            host.trim()
+        ),
+    )
+    .unwrap();
+    let o = run_in(d, &["clean", "a.csv", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o));
+    assert!(!lock.exists(), "the run removes its lock");
+
+    // Two runs started together: each succeeds or is refused by name, and
+    // the folder holds one run's files, all of them.
+    for round in 0..3 {
+        let spawn = |input: &str| {
+            command(d)
+                .args(["clean", input, "--out", "race"])
+                .stdout(std::process::Stdio::piped())
+                .stderr(std::process::Stdio::piped())
+                .spawn()
+                .unwrap()
+        };
+        let (a, b) = (spawn("a.csv"), spawn("b.csv"));
+        let (a, b) = (a.wait_with_output().unwrap(), b.wait_with_output().unwrap());
+        for o in [&a, &b] {
+            assert!(
+                o.status.success()
+                    || text(o).contains("another provisio run is writing race (pid "),
+                "round {round}: {}",
+                text(o)
+            );
+        }
+        assert!(a.status.success() || b.status.success(), "round {round}");
+        let manifest = std::fs::read_to_string(d.join("race/manifest.json")).unwrap();
+        let cleaned = std::fs::read_to_string(d.join("race/cleaned.csv")).unwrap();
+        let from_a = manifest.contains("a.csv");
+        assert!(from_a || manifest.contains("b.csv"), "{manifest}");
+        assert_eq!(
+            cleaned.contains("ORS"),
+            from_a,
+            "round {round}: cleaned.csv and manifest.json come from different runs"
+        );
+        assert_eq!(cleaned.contains("Amoxicillin"), !from_a);
+        assert_eq!(beside(d, "race"), Vec::<String>::new());
+    }
 }
 
 /// Runs `forecast` with `threads` rayon threads; returns its output files,
@@ -421,9 +658,15 @@ fn results_do_not_depend_on_the_number_of_threads() {
 /// by a sheet's bounding box or unpacks a bomb fails the test instead of
 /// the machine.
 fn inspect_capped(file: &str, env: &[(&str, &str)]) -> (Option<i32>, String) {
+    inspect_capped_path(&common::repo(&format!("tests/data/bad/{file}")), env)
+}
+
+/// [`inspect_capped`] of any file.
+fn inspect_capped_path(src: &Path, env: &[(&str, &str)]) -> (Option<i32>, String) {
     let w = tempfile::tempdir().unwrap();
-    let src = common::repo(&format!("tests/data/bad/{file}"));
-    std::fs::copy(&src, w.path().join(file)).unwrap();
+    let name = src.file_name().unwrap().to_str().unwrap();
+    let file = name;
+    std::fs::copy(src, w.path().join(file)).unwrap();
     let mut c = std::process::Command::new("sh");
     c.current_dir(w.path())
         .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
@@ -485,6 +728,40 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
         out.contains("many_cells.xlsx: sheet 'Data': the sheet holds more than 1000 cells"),
         "{out}"
     );
+    // Old-style .xls (tests/reference/bad_xls.py): the cells' box, the
+    // declared dimensions and the sectors are sized before the workbook
+    // reader lays anything out. Without that each of these aborts the
+    // process, asking for 137 GB, 344 GB and 1.1 TB (seen before the check).
+    let (code, out) = inspect_capped("far_cell.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("far_cell.xls: the cells of sheet 1 of the workbook span rows 1 to 65536 and columns A to CRXP (4294967296 cells once laid out"),
+        "{out}"
+    );
+    assert!(out.contains("provisio stops at 2000000 cells"), "{out}");
+    assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    let (code, out) = inspect_capped("huge_dimensions.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains(
+            "huge_dimensions.xls: sheet 1 of the workbook declares dimensions of 8589934588 cells"
+        ),
+        "{out}"
+    );
+    let (code, out) = inspect_capped("bad_sector.xls", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("bad_sector.xls: the .xls workbook is damaged (the directory runs to sector 2147483632, past the end of the file)"),
+        "{out}"
+    );
+    // The sound workbook they were made from reads under the same cap, and
+    // under a cell limit just above its box (4 columns × 7 rows).
+    let sound = common::repo("tests/data/sheets/xlwt.xls");
+    let (code, out) = inspect_capped_path(&sound, &[("PROVISIO_MAX_SHEET_CELLS", "28")]);
+    assert_eq!(code, Some(0), "{out}");
+    let (code, out) = inspect_capped_path(&sound, &[("PROVISIO_MAX_SHEET_CELLS", "27")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(out.contains("xlwt.xls: sheet 1 of the workbook declares dimensions of 28 cells; provisio stops at 27 cells"), "{out}");
     // A value that is not a number is not silently taken as a limit.
     let (_, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "lots")]);
     assert!(
@@ -775,4 +1052,64 @@ fn a_cut_short_workbook_is_called_damaged_not_a_misnamed_csv() {
         "{out}"
     );
     assert!(!out.contains("name it .csv"), "{out}");
+}
+
+#[test]
+fn a_long_line_without_a_quote_is_not_blamed_on_a_quote() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let mut data = b"product,month,consumed\nORS,2024-01,5\nORS,2024-02,".to_vec();
+    data.extend(vec![b'7'; 1_200_000]);
+    data.extend(b"\nORS,2024-03,6\n");
+    std::fs::write(d.join("long.csv"), &data).unwrap();
+    let o = run_in(d, &["inspect", "long.csv"]);
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains("error: long.csv:3: the row starting here is longer than 1 MiB with no quote left open: a line this long is not a data row"),
+        "{out}"
+    );
+    assert!(!out.contains("never closed"), "{out}");
+    // With a quote opened on that line, the quote is named.
+    data.splice(35..35, *b"\"");
+    std::fs::write(d.join("long.csv"), &data).unwrap();
+    let out = text(&run_in(d, &["inspect", "long.csv"]));
+    assert!(out.contains("is probably never closed"), "{out}");
+}
+
+#[test]
+fn a_changes_workbook_in_old_style_xls_is_sized_before_it_is_read() {
+    // The changes file goes through its own workbook reading: the same
+    // check of an .xls applies (without it this run aborted asking for
+    // 137 GB; tests/reference/bad_xls.py).
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    two_inputs(d);
+    std::fs::copy(
+        common::repo("tests/data/bad/far_cell.xls"),
+        d.join("far_cell.xls"),
+    )
+    .unwrap();
+    let mut c = std::process::Command::new("sh");
+    c.current_dir(d)
+        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
+        .arg(env!("CARGO_BIN_EXE_provisio"))
+        .args([
+            "forecast",
+            "a.csv",
+            "--out",
+            "o",
+            "--changes",
+            "far_cell.xls",
+        ]);
+    let o = c.output().unwrap();
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains(
+            "error: far_cell.xls: the cells of sheet 1 of the workbook span rows 1 to 65536"
+        ),
+        "{out}"
+    );
+    assert!(!d.join("o").exists(), "{out}");
 }

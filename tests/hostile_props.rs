@@ -435,10 +435,9 @@ fn seed_workbooks() -> Vec<(String, Vec<u8>)> {
         for entry in std::fs::read_dir(root.join(dir)).unwrap() {
             let path = entry.unwrap().path();
             let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("");
-            // Not .xls: calamine's reader of the old binary format
-            // allocates what a damaged size field says (1.7 TB seen), which
-            // provisio cannot check before it; known and open.
-            if ["xlsx", "ods"].contains(&ext) {
+            // .xls too: its sizes are checked before calamine allocates
+            // what a damaged field says (1.7 TB seen before the check).
+            if ["xlsx", "ods", "xls"].contains(&ext) {
                 out.push((format!("in.{ext}"), std::fs::read(&path).unwrap()));
             }
         }

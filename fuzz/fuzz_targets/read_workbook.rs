@@ -1,9 +1,10 @@
 //! Arbitrary bytes read as a workbook, through the same entry point as
 //! `read_clean`. The first byte picks the read options and, by its top bit,
 //! whether the bytes are named .xlsx or .ods (calamine picks the reader by
-//! content either way); the limits are set low so that a small input that
+//! content either way, so an .xls seed is read as .xls); the limits are set low so that a small input that
 //! unpacks or lays out large is refused quickly, as it must be. Seed the
-//! corpus with the workbooks of tests/data/bad/ and tests/data/sheets/.
+//! corpus with the workbooks of tests/data/bad/ and tests/data/sheets/,
+//! the .xls ones too.
 
 #![no_main]
 

@@ -465,6 +465,9 @@ fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, Header, Vec<Row>)> {
         column: None,
         message,
     };
+    // An .xls is sized before calamine lays it out (see data::xls).
+    crate::data::xls::check_xls(bytes, &crate::data::SheetLimits::default())
+        .map_err(|m| err(None, 0, m))?;
     let mut wb = calamine::open_workbook_auto_from_rs(Cursor::new(bytes))
         .map_err(|e| err(None, 0, format!("cannot open the workbook: {e}")))?;
     let names = wb.sheet_names();

@@ -34,9 +34,10 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
     let (config_file, config_sha256) = super::forecast::LoadedConfig::manifest(config.as_ref());
     let out = output::OutputDir::check(&a.out, a.overwrite)?;
     out.refuse_input_inside(&a.data)?;
+    let mut run = out.start()?;
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
-    out.prepare()?;
-    let (by_rule, warnings) = super::write_clean_outputs(&a.out, &ds, &cleaned)?;
+    let dir = super::stage(&mut run)?;
+    let (by_rule, warnings) = super::write_clean_outputs(&dir, &ds, &cleaned)?;
     let manifest = output::CleanManifest {
         tool: format!("provisio {}", env!("CARGO_PKG_VERSION")),
         command: "clean".to_string(),
@@ -55,7 +56,8 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
         config_file,
         config_sha256,
     };
-    output::write_clean_manifest(&a.out.join("manifest.json"), &manifest)?;
+    output::write_clean_manifest(&dir.join("manifest.json"), &manifest)?;
+    run.commit()?;
     print_accounting(&ds, &cleaned, 10);
     super::json_summary(|| {
         let files = [

@@ -39,6 +39,9 @@ pub struct CrossCheckArgs {
 
 pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     let threshold = crosscheck::check_threshold(a.threshold)?;
+    // Held from here: the forecast read and the files written belong to
+    // one version of the folder.
+    let mut folder = super::start_existing(&a.dir)?;
     let fc = read::read_forecast_dir(&a.dir)?;
     let start = match &a.start {
         Some(s) => YearMonth::parse(s).map_err(|e| {
@@ -98,7 +101,10 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     let cc = crosscheck::build(&fc.products, start, &estimates, rows, threshold);
     warnings.extend(cc.warnings.iter().cloned());
 
-    let dir = &a.dir;
+    // Written into a staging copy of the folder that replaces it at the
+    // end: the tables, the report and its charts together.
+    let staged = super::stage_existing(&mut folder, &a.dir)?;
+    let dir = &staged;
     output::write_crosscheck(&dir.join("crosscheck.csv"), &cc)?;
     if let Some(d) = &sv {
         output::write_crosscheck_services(&dir.join("crosscheck_services.csv"), &cc)?;
@@ -148,6 +154,18 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     });
     output::write_json(&dir.join("crosscheck.json"), &json)?;
 
+    let mut report = None;
+    if !a.no_report {
+        let w = provisio::report::write_report(dir)?;
+        report = Some((
+            a.dir.join("report.html").display().to_string(),
+            w.charts.len(),
+        ));
+    }
+    if let Some(f) = folder {
+        f.commit()?;
+    }
+    let dir = &a.dir;
     print_summary(&cc);
     for w in &warnings {
         super::warn(w);
@@ -167,16 +185,12 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         wrote.join(", "),
         dir.display()
     );
-    let mut report = None;
-    if !a.no_report {
-        let w = provisio::report::write_report(dir)?;
-        report = Some(w.report.display().to_string());
+    if let Some((shown, charts)) = &report {
         super::say!(
-            "rebuilt {} with the cross-check section, and {} chart files (charts/)",
-            w.report.display(),
-            w.charts.len()
+            "rebuilt {shown} with the cross-check section, and {charts} chart files (charts/)"
         );
     }
+    let report = report.map(|r| r.0);
     super::say!("Decision support only: review with the responsible programme staff; national guidelines and local regulations take precedence.");
     super::json_summary(|| {
         serde_json::json!({

@@ -722,6 +722,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     })?;
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
     out.refuse_input_inside(&data)?;
+    // Held from here: a second run into the same folder is refused at once.
+    let mut run = out.start()?;
     // The changes file is read before the long work, so a mistake in it
     // is said at once; its products and months are checked after.
     let changes = a
@@ -744,8 +746,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         Some(c) => Some(super::changes::apply(c, &results)?),
         None => None,
     };
-    out.prepare()?;
-    let a_out = out_path.clone();
+    // Everything is written into a staging copy of the folder, which
+    // replaces it at the end: the outputs appear together or not at all.
+    let a_out = super::stage(&mut run)?;
     let starts: Vec<_> = cleaned
         .series
         .iter()
@@ -879,13 +882,13 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         serde_json::json!({
             "command": "forecast",
             "input": ds.source,
-            "out": a_out.display().to_string(),
             "horizon": a.horizon,
             "config_file": LoadedConfig::manifest(config.as_ref()).0,
             "rows": cleaned.rows,
             "products": results.iter().map(product_json).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
-            "files": forecast_files(&a_out, !a.no_report, !a.no_workbook, applied.is_some()),
+            "out": out_path.display().to_string(),
+            "files": forecast_files(&out_path, !a.no_report, !a.no_workbook, applied.is_some()),
             "changes": applied.as_ref().map(super::changes::changes_json),
             "seconds": secs,
         })
@@ -925,6 +928,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         None => (None, 0.0),
     };
     let report = report.transpose()?;
+    run.commit()?;
+    let a_out = out_path;
     if let Some(v) = summary {
         super::json_summary(|| v);
     }
@@ -1049,6 +1054,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
     if let Some(o) = &out_dir {
         o.refuse_input_inside(&a.data)?;
     }
+    let mut run = out_dir.as_ref().map(|o| o.start()).transpose()?;
     let (ds, cleaned, results, _, secs) = run_eval(
         &a.data,
         &a.read,
@@ -1062,8 +1068,8 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
     )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
-    if let (Some(out), Some(dir)) = (&a.out, &out_dir) {
-        dir.prepare()?;
+    if let (Some(shown), Some(mut run)) = (&a.out, run.take()) {
+        let out = super::stage(&mut run)?;
         let starts: Vec<_> = cleaned
             .series
             .iter()
@@ -1074,9 +1080,10 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         output::write_scores_by_horizon(&out.join("scores_by_horizon.csv"), &results, rows)?;
         output::write_backtest(&out.join("backtest.csv"), &results, &starts, rows)?;
         output::write_selection(&out.join("selection.csv"), &results)?;
+        run.commit()?;
         say!(
             "wrote scores.csv, scores_by_horizon.csv, backtest.csv, selection.csv in {}",
-            out.display()
+            shown.display()
         );
     }
     say!(

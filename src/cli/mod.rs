@@ -141,7 +141,11 @@ fn prefix(word: &str, code: u8) -> String {
 
 /// Prints a warning on standard error (also with --quiet).
 fn warn(message: &str) {
-    eprintln!("{} {}", prefix("warning", 33), terminal_text(message));
+    eprintln!(
+        "{} {}",
+        prefix("warning", 33),
+        terminal_text(&shown_paths(message))
+    );
 }
 
 /// Whether a character is shown as `<U+XXXX>` on a terminal: control
@@ -574,6 +578,9 @@ pub fn run() -> i32 {
         quiet: cli.quiet,
         json: cli.json,
     });
+    if let Some(name) = std::env::var_os("PROVISIO_TEST_FAIL_WRITE") {
+        provisio::output::simulate_write_failure(&name.to_string_lossy());
+    }
     let sub = matches
         .subcommand()
         .map(|(_, m)| m.clone())
@@ -604,7 +611,8 @@ pub fn run() -> i32 {
             code
         }
         Err(e) => {
-            eprintln!("{} {}", prefix("error", 31), terminal_text(&error_text(&e)));
+            let text = shown_paths(&error_text(&e));
+            eprintln!("{} {}", prefix("error", 31), terminal_text(&text));
             EXIT_REFUSED
         }
     }
@@ -624,6 +632,59 @@ fn error_text(e: &anyhow::Error) -> String {
             out.push_str(": ");
         }
         out.push_str(&text);
+    }
+    out
+}
+
+/// Staging folders of the runs in progress and the output folders they
+/// stand for: a message names the output folder, not the staging copy.
+static STAGED: std::sync::Mutex<Vec<(String, String)>> = std::sync::Mutex::new(Vec::new());
+
+/// Prepares the staging copy of a run's output folder (see
+/// [`provisio::output::FolderRun`]) and returns the folder to write into;
+/// messages from then on name the output folder, not the copy.
+fn stage(run: &mut provisio::output::FolderRun) -> anyhow::Result<std::path::PathBuf> {
+    let dir = run.prepare()?;
+    if dir != run.target() {
+        if let Ok(mut v) = STAGED.lock() {
+            v.push((
+                dir.display().to_string(),
+                run.target().display().to_string(),
+            ));
+        }
+    }
+    Ok(dir)
+}
+
+/// For a command that adds files to an existing output folder: its lock,
+/// when the folder exists (when not, the command's own reading says so).
+fn start_existing(dir: &std::path::Path) -> anyhow::Result<Option<provisio::output::FolderRun>> {
+    Ok(if dir.is_dir() {
+        Some(provisio::output::FolderRun::start(dir)?)
+    } else {
+        None
+    })
+}
+
+/// The folder to write into for a run from [`start_existing`].
+fn stage_existing(
+    run: &mut Option<provisio::output::FolderRun>,
+    dir: &std::path::Path,
+) -> anyhow::Result<std::path::PathBuf> {
+    match run {
+        Some(r) => stage(r),
+        None => Ok(dir.to_path_buf()),
+    }
+}
+
+/// `text` with each staging folder replaced by the output folder it
+/// stands for.
+fn shown_paths(text: &str) -> String {
+    let mut out = text.to_string();
+    if let Ok(v) = STAGED.lock() {
+        for (stage, target) in v.iter() {
+            out = out.replace(stage.as_str(), target);
+        }
     }
     out
 }

@@ -65,6 +65,8 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     .check()?;
     require_forecast(&a.dir)?;
     let out = output::OutputDir::check(&a.dir, false)?;
+    // Held from here: no other run writes the folder while it is planned.
+    let mut folder = out.start()?;
     let forecast = read::read_forecast(&a.dir)?;
     let numbers = match a.numbers {
         super::Numbers::Plain => provisio::data::NumberFormat::Plain,
@@ -237,16 +239,18 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         );
     }
 
-    out.prepare()?;
+    // Written into a staging copy of the folder that replaces it at the
+    // end: the plan, the charts, the report and the workbook together.
+    let dir = super::stage(&mut folder)?;
     let rule = settings.get().safety.rule();
-    output::write_plan(&out.join("plan.csv"), &planned)?;
+    output::write_plan(&dir.join("plan.csv"), &planned)?;
     output::write_orders(
-        &out.join("orders.csv"),
+        &dir.join("orders.csv"),
         &planned,
         settings.get().safety.name(),
     )?;
-    output::write_order_totals(&out.join("order_totals.csv"), &planned)?;
-    output::write_plan_log(&out.join("plan_log.csv"), &log)?;
+    output::write_order_totals(&dir.join("order_totals.csv"), &planned)?;
+    output::write_plan_log(&dir.join("plan_log.csv"), &log)?;
     let amc_rule = format!(
         "AMC at the end of a month = mean forecast consumption of the next {} month(s) (near the end of the horizon, the last {} forecast months); plan.csv names the months (amc_from, amc_to); months of stock = closing stock ÷ AMC",
         settings.get().amc_months, settings.get().amc_months
@@ -279,28 +283,29 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         "log_entries": log.len(),
         "warnings": warnings,
     });
-    output::write_json(&out.join("plan.json"), &run)?;
+    output::write_json(&dir.join("plan.json"), &run)?;
     let charts = if a.no_report {
-        let charts_dir = a.dir.join("charts");
+        let charts_dir = dir.join("charts");
         std::fs::create_dir_all(&charts_dir)
             .map_err(|e| anyhow::anyhow!("{}: cannot create: {e}", charts_dir.display()))?;
-        match provisio::report::plan::read_plan(&a.dir)? {
+        match provisio::report::plan::read_plan(&dir)? {
             Some(p) => provisio::report::plan::draw_charts(&p, &charts_dir)?
                 .1
                 .len(),
             None => 0,
         }
     } else {
-        provisio::report::write_report(&a.dir)?;
+        provisio::report::write_report(&dir)?;
         planned.len() * 2
     };
     // The planner's workbook gets the plan's sheets (Supply plan, Orders,
     // Order totals) when the forecast wrote one.
-    let workbook = a.dir.join(provisio::report::workbook::WORKBOOK_FILE);
+    let workbook = dir.join(provisio::report::workbook::WORKBOOK_FILE);
     let rebuilt_workbook = workbook.is_file();
     if rebuilt_workbook {
-        provisio::report::workbook::write_workbook(&a.dir)?;
+        provisio::report::workbook::write_workbook(&dir)?;
     }
+    folder.commit()?;
     print_summary(&planned);
     super::json_summary(|| {
         let files = [

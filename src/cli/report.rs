@@ -18,16 +18,29 @@ pub struct ReportArgs {
 }
 
 pub fn run(a: ReportArgs) -> anyhow::Result<()> {
+    // Both are written into a staging copy of the folder that replaces it
+    // at the end: a refusal half-way (a damaged scores.csv found after the
+    // workbook was built) leaves the folder as it was.
+    let mut folder = super::start_existing(&a.dir)?;
+    let dir = super::stage_existing(&mut folder, &a.dir)?;
     // The workbook first, so that the report links to it.
-    let book = provisio::report::workbook::write_workbook(&a.dir)?;
-    super::say!("wrote {}", book.display());
+    provisio::report::workbook::write_workbook(&dir)?;
+    let book = a.dir.join(provisio::report::workbook::WORKBOOK_FILE);
     let mut written = None;
     if !a.workbook_only {
         let options = provisio::report::ReportOptions {
             chart_files: provisio::report::ChartFiles::from_values(&a.chart_files),
             workbook_linked: true,
         };
-        let w = provisio::report::write_report_with(&a.dir, &options)?;
+        let mut w = provisio::report::write_report_with(&dir, &options)?;
+        w.report = a.dir.join("report.html");
+        written = Some(w);
+    }
+    if let Some(f) = folder {
+        f.commit()?;
+    }
+    super::say!("wrote {}", book.display());
+    if let Some(w) = &written {
         if w.charts.is_empty() {
             super::say!("wrote {} ({} products)", w.report.display(), w.products);
         } else {
@@ -39,7 +52,6 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
                 a.dir.join("charts").display()
             );
         }
-        written = Some(w);
     }
     super::json_summary(|| {
         serde_json::json!({

@@ -3,7 +3,6 @@
 
 use std::path::PathBuf;
 
-use anyhow::Context;
 use clap::Args;
 
 use super::print_accounting;
@@ -115,11 +114,13 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
             n.product, result.vintages[n.vintage].name, n.reason
         ));
     }
-    std::fs::create_dir_all(&a.out)
-        .with_context(|| format!("{}: cannot create output directory", a.out.display()))?;
+    // Written into a staging copy of the folder that replaces it at the
+    // end, under the folder's lock: the review's files appear together.
+    let mut folder = output::FolderRun::start(&a.out)?;
+    let out = super::stage(&mut folder)?;
     let limit = settings.get().adjustment_limit;
-    output::write_review(&a.out.join("review.csv"), &result, limit)?;
-    output::write_review_months(&a.out.join("review_months.csv"), &result)?;
+    output::write_review(&out.join("review.csv"), &result, limit)?;
+    output::write_review_months(&out.join("review_months.csv"), &result)?;
     let run = serde_json::json!({
         "tool": format!("provisio {}", env!("CARGO_PKG_VERSION")),
         "command": "review",
@@ -131,7 +132,7 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         "warnings": warnings,
     });
     output::write_json(
-        &a.out.join("review.json"),
+        &out.join("review.json"),
         &output::review_json(&result, limit, run),
     )?;
     let ordered: Vec<&PastForecast> = result
@@ -150,11 +151,12 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         tool: &tool,
         warnings: &warnings,
     };
-    let written = provisio::report::review::write_review_report(&a.out, &page)?;
-    let changes_json = super::changes::review(&pasts, &result, &a.out)?;
+    let written = provisio::report::review::write_review_report(&out, &page)?;
+    let changes_json = super::changes::review(&pasts, &result, &out)?;
     if changes_json.is_some() {
         super::say!("wrote review_changes.csv: the statistical and the adjusted forecast scored, per product and per change");
     }
+    folder.commit()?;
     print_summary(&result, limit);
     super::json_summary(|| {
         let products: Vec<serde_json::Value> = result

@@ -9,6 +9,7 @@ mod sheet;
 mod text;
 mod values;
 mod wide;
+pub(crate) mod xls;
 
 pub(crate) use read::{missing_columns_message, normalise_name};
 pub use read::{

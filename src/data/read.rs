@@ -1009,6 +1009,12 @@ pub(crate) fn map_header(header: &[&str]) -> std::result::Result<(Columns, Vec<S
         let shown: Vec<&str> = header.iter().map(|h| h.trim()).collect();
         let mut msg = missing_columns_message(&missing, &shown, &REQUIRED, &OPTIONAL);
         for m in &missing {
+            if let Some(codes) = names.iter().find_map(|n| invisible_in(n, m)) {
+                msg.push_str(&format!(
+                    "; the header's '{m}' holds the invisible character(s) {codes} (shown as <U+...>): delete that name and type it again"
+                ));
+                continue;
+            }
             if let Some(near) = names.iter().find(|n| is_near(n, m)) {
                 msg.push_str(&format!("; did you mean to name '{near}' as '{m}'?"));
             }
@@ -1029,6 +1035,42 @@ pub(crate) fn map_header(header: &[&str]) -> std::result::Result<(Columns, Vec<S
         },
         extra,
     ))
+}
+
+/// Why a reporting rate written with a % sign is not a number, quoting the
+/// value as written (with its sign).
+fn percent_problem(t: &str, num: &str, why: String) -> String {
+    if num.ends_with('%') {
+        return format!("\"{t}\" has more than one % sign; write one, as in 85%");
+    }
+    let joined: String = num.chars().filter(|c| !c.is_whitespace()).collect();
+    if joined != num
+        && !joined.is_empty()
+        && joined.bytes().all(|b| b.is_ascii_digit() || b == b'.')
+    {
+        return format!(
+            "\"{t}\" has a space between its digits; a reporting rate has no digit groups: write it without the space ({joined}%, if that is the rate), as in 85%"
+        );
+    }
+    why.replace(&format!("\"{num}\""), &format!("\"{t}\""))
+}
+
+/// Characters that show as nothing: zero-width spaces and joiners, the
+/// soft hyphen, direction marks, overrides and isolates, the byte-order mark.
+fn is_invisible(c: char) -> bool {
+    matches!(c, '\u{ad}' | '\u{200b}'..='\u{200f}' | '\u{202a}'..='\u{202e}' | '\u{2060}'..='\u{2064}' | '\u{2066}'..='\u{2069}' | '\u{feff}')
+}
+
+/// When `name` is `wanted` with invisible characters in it, those
+/// characters' code points ("U+200B").
+fn invisible_in(name: &str, wanted: &str) -> Option<String> {
+    let codes: Vec<String> = name
+        .chars()
+        .filter(|c| is_invisible(*c))
+        .map(|c| format!("U+{:04X}", c as u32))
+        .collect();
+    let visible: String = name.chars().filter(|c| !is_invisible(*c)).collect();
+    (!codes.is_empty() && visible == wanted).then(|| codes.join(", "))
 }
 
 /// Loose match for suggesting a column name: shared prefix of four letters.
@@ -1053,6 +1095,29 @@ fn csv_row_problem(line: u64, rec: &Fields<'_>, cols: &Columns) -> Option<String
             "a quoted value runs over {n} lines (lines {line}-{}) and holds delimiters: a quote (\") is probably opened and never closed, so those lines were read as one value; close or remove the quote",
             line + n as u64 - 1
         ));
+    }
+    // One field holding another delimiter, under a header with several:
+    // the rows are delimited differently from the header.
+    let filled: Vec<&str> = rec.iter().filter(|f| !f.trim().is_empty()).collect();
+    if let ([only], true) = (filled.as_slice(), cols.width > 1 && !cols.in_sheet) {
+        let other = [';', '\t', ',', '|']
+            .into_iter()
+            .find(|&c| c != cols.delimiter && only.matches(c).count() + 1 >= cols.width);
+        if let Some(c) = other {
+            let shown = if c == '\t' {
+                "tab".to_string()
+            } else {
+                format!("'{c}'")
+            };
+            let header = if cols.delimiter == '\t' {
+                "tab".to_string()
+            } else {
+                format!("'{}'", cols.delimiter)
+            };
+            return Some(format!(
+                "the row is one field holding {shown} between values, but the header is delimited by {header}: the rows and the header use different delimiters; save the file with one delimiter throughout"
+            ));
+        }
     }
     if rec.len() > cols.width && rec.iter().skip(cols.width).any(|f| !f.trim().is_empty()) {
         return Some(format!(
@@ -1278,8 +1343,14 @@ fn parse_row(
                             "reporting_rate is a % sign with no number; write the rate (85%), or leave the cell empty when it is not known".to_string(),
                         ));
                     }
-                    let v = parse_number(num, options.numbers)
-                        .map_err(|m| problem("reporting_rate", t, m))?;
+                    let v = parse_number(num, options.numbers).map_err(|m| {
+                        let why = if percent {
+                            percent_problem(t, num, m)
+                        } else {
+                            m
+                        };
+                        problem("reporting_rate", t, why)
+                    })?;
                     (v, t.to_string(), percent)
                 }
                 // A cell formatted as a percentage holds the fraction.

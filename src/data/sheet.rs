@@ -287,6 +287,7 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             message,
         };
     let active = check_unpacked(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
+    super::xls::check_xls(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
     let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| {
         // A zip or an old-style workbook that fails to open is damaged or
         // cut short; only other bytes may be a CSV with the wrong name.

@@ -345,12 +345,20 @@ impl<R: Read> Records<R> {
             nends += e;
             taken += nin;
             if taken > MAX_ROW_BYTES {
-                return Err(TextError::Input {
-                    line: start,
-                    message: format!(
+                let message = if quotes % 2 == 1 {
+                    format!(
                         "the row starting here is longer than {} MiB; a quote (\") opened in a field is probably never closed, so the rest of the file reads as one value",
                         MAX_ROW_BYTES >> 20
-                    ),
+                    )
+                } else {
+                    format!(
+                        "the row starting here is longer than {} MiB with no quote left open: a line this long is not a data row (a file without line breaks, or not a table?); check that this is the right file",
+                        MAX_ROW_BYTES >> 20
+                    )
+                };
+                return Err(TextError::Input {
+                    line: start,
+                    message,
                 });
             }
             match res {
@@ -609,6 +617,21 @@ mod tests {
             Err(TextError::Input { line, message }) => {
                 assert_eq!(line, 2);
                 assert!(message.contains("never closed"), "{message}");
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn a_long_row_without_a_quote_is_not_blamed_on_a_quote() {
+        let mut data = b"p,m\nORS,".to_vec();
+        data.extend(vec![b'7'; MAX_ROW_BYTES + 10]);
+        data.extend(b"\nORS,1\n");
+        match records(&data, Encoding::Utf8) {
+            Err(TextError::Input { line, message }) => {
+                assert_eq!(line, 2);
+                assert!(message.contains("no quote left open"), "{message}");
+                assert!(!message.contains("never closed"), "{message}");
             }
             other => panic!("{other:?}"),
         }

@@ -6,6 +6,7 @@ mod crosscheck;
 mod forecast;
 mod plan;
 mod review;
+mod staging;
 mod tables;
 mod workbook;
 
@@ -20,6 +21,8 @@ pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COL
 pub use plan::{
     write_order_totals, write_orders, write_plan, write_plan_log, ORDER_COLUMNS, PLAN_COLUMNS,
 };
+
+pub use staging::{FolderRun, LockHolder};
 
 pub use review::{review_json, write_review, write_review_months};
 
@@ -123,10 +126,32 @@ where
         fill(&mut w).map_err(io("cannot write"))?;
         w.flush().map_err(io("cannot write"))?;
         drop(w);
+        if simulated_failure(path) {
+            return Err(io("cannot write")(std::io::Error::other(
+                "no space left on device (simulated for a test)",
+            )));
+        }
         file.sync_all().map_err(io("cannot write"))?;
     }
     tmp.persist(path).map_err(io("cannot move into place"))?;
     Ok(())
+}
+
+/// File name whose writing fails, for tests of failures half-way through a
+/// run (set once by the command line from `PROVISIO_TEST_FAIL_WRITE`).
+static FAIL_WRITE: std::sync::OnceLock<String> = std::sync::OnceLock::new();
+
+/// Makes every later write of a file named `name` fail after its bytes are
+/// written, as a full disk would: a test hook, so that tests can check
+/// what a run leaves when it fails half-way.
+pub fn simulate_write_failure(name: &str) {
+    let _ = FAIL_WRITE.set(name.to_string());
+}
+
+fn simulated_failure(path: &Path) -> bool {
+    FAIL_WRITE
+        .get()
+        .is_some_and(|n| path.file_name().is_some_and(|f| f == n.as_str()))
 }
 
 /// Name of the small file that marks a folder as provisio's output folder.
@@ -177,7 +202,8 @@ impl OutputDir {
             if name == OUTPUT_MARKER {
                 return Ok(ok);
             }
-            if !is_temp_name(&name) {
+            // A run writing in place keeps its lock inside the folder.
+            if !is_temp_name(&name) && name != staging::INNER_LOCK {
                 found.push(name);
             }
         }
@@ -245,6 +271,11 @@ impl OutputDir {
             })?;
         }
         Ok(())
+    }
+
+    /// Takes the folder's lock for a run that writes it: see [`FolderRun`].
+    pub fn start(&self) -> Result<FolderRun> {
+        FolderRun::start(&self.path)
     }
 
     /// The folder.
