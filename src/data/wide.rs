@@ -152,7 +152,14 @@ pub(crate) fn classify(
     let at = |i: usize, h: &str| format!("column {} ({h})", letter(i));
     let bad = |column: Option<String>, message: String| Header::Bad { column, message };
     if has_month_column {
-        return bad(None, "the header has a 'month' column, as in the long layout (one row per product and month), besides month columns; use one layout: drop the month columns, or the 'month' column".to_string());
+        return bad(
+            None,
+            if months.is_empty() {
+                "--layout wide: the header has a 'month' column, so the table is in the long layout (one row per product and month); read it with --layout long or auto".to_string()
+            } else {
+                "the header has a 'month' column, as in the long layout (one row per product and month), besides month columns; use one layout: drop the month columns, or the 'month' column".to_string()
+            },
+        );
     }
     if let Some((i, shown)) = bad_date {
         return bad(
@@ -998,5 +1005,113 @@ mod tests {
         let (col, m) = bad(vec!["item", "Jan 2024", "Feb 2024", "Mar 2024"]);
         assert_eq!(col, None);
         assert!(m.contains("no column named 'product'"), "{m}");
+    }
+
+    fn read(text: &str, options: &ReadOptions) -> Dataset {
+        super::super::read_csv_bytes("w.csv", text.as_bytes(), options).unwrap()
+    }
+
+    #[test]
+    fn values_are_rows_of_the_long_layout_placed_by_line_and_column() {
+        let d = read(
+            "product,site,Jan 2024,Feb 2024,Mar 2024,notes\nORS,North,10,,12,x\nORS,South,4,x5,6,\n",
+            &ReadOptions::default(),
+        );
+        // Five values read (the blank is a month not reported, not a value).
+        assert_eq!(d.rows_read, 5);
+        assert_eq!(d.rows.len(), 4);
+        let r = &d.rejected[0];
+        assert_eq!((r.line, r.column.as_deref()), (3, Some("Feb 2024")));
+        assert_eq!(d.place(r), "w.csv: line 3, column D (Feb 2024)");
+        assert_eq!(d.cell_of(r).as_deref(), Some("D3"));
+        assert_eq!(r.raw, "ORS,South,4,x5,6,");
+        let north: Vec<(String, Option<f64>)> = d
+            .rows
+            .iter()
+            .filter(|r| r.site.as_deref() == Some("North"))
+            .map(|r| (r.month.to_string(), r.consumed))
+            .collect();
+        assert_eq!(
+            north,
+            [
+                ("2024-01".to_string(), Some(10.0)),
+                ("2024-03".to_string(), Some(12.0))
+            ]
+        );
+        assert_eq!(d.layout.extra_columns, ["notes"]);
+        assert!(d.layout.wide.is_some() && d.layout.has_site);
+    }
+
+    #[test]
+    fn keeping_months_up_to_a_date_cuts_values_not_whole_lines() {
+        // Every value of a line shares the line: the cut goes by month.
+        let mut d = read(
+            "product,2024-01,2024-02,2024-03\nORS,1,2,3\nZinc,4,5,6\n",
+            &ReadOptions::default(),
+        );
+        assert_eq!(d.keep_until(YearMonth::known(2024, 2)), 2);
+        assert_eq!(d.rows_read, 4);
+        assert_eq!(d.rows.len(), 4);
+        assert!(d.rows.iter().all(|r| r.month <= YearMonth::known(2024, 2)));
+    }
+
+    #[test]
+    fn a_product_on_two_rows_is_a_duplicate_of_each_month() {
+        let text = "product,2024-01,2024-02\nORS,1,2\nORS,10,\n";
+        let d = read(text, &ReadOptions::default());
+        // January conflicts (both rejected); February has one value.
+        assert_eq!(d.rows_read, 3);
+        assert_eq!(d.rows.len(), 1);
+        assert_eq!(d.rejected.len(), 2);
+        assert!(d
+            .rejected
+            .iter()
+            .all(|r| r.column.as_deref() == Some("2024-01")));
+        assert_eq!(d.place(&d.rejected[0]), "w.csv: line 2, column B (2024-01)");
+        let sum = ReadOptions {
+            duplicates: super::super::DuplicatePolicy::Sum,
+            ..ReadOptions::default()
+        };
+        let d = read(text, &sum);
+        assert_eq!(d.merged.len(), 1);
+        assert_eq!(d.merged[0].month, YearMonth::known(2024, 1));
+        let jan = d.rows.iter().find(|r| r.month == YearMonth::known(2024, 1));
+        assert_eq!(jan.and_then(|r| r.consumed), Some(11.0));
+        // The accounting holds when one line carries values of many months.
+        let settings = crate::clean::CleanSettings::default().check().unwrap();
+        let cleaned = crate::clean::clean(&d, &settings);
+        assert!(cleaned.verify(&d).is_ok());
+        // The two January values were merged (counted adjusted); February is used as reported.
+        assert_eq!((cleaned.rows.used, cleaned.rows.adjusted), (1, 2));
+    }
+
+    #[test]
+    fn the_layout_can_be_forced() {
+        let long = ReadOptions {
+            layout: TableLayout::Long,
+            ..ReadOptions::default()
+        };
+        let e = super::super::read_csv_bytes("w.csv", b"product,2024-01,2024-02\nORS,1,2\n", &long)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("missing required columns 'month', 'consumed'"),
+            "{e}"
+        );
+        let wide = ReadOptions {
+            layout: TableLayout::Wide,
+            ..ReadOptions::default()
+        };
+        // One month column is enough when the layout is named.
+        let d = read("product,2024-01\nORS,1\n", &wide);
+        assert_eq!(d.rows.len(), 1);
+        let e = super::super::read_csv_bytes(
+            "w.csv",
+            b"product,month,consumed\nORS,2024-01,1\n",
+            &wide,
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("--layout wide: the header has a 'month' column, so the table is in the long layout"), "{e}");
     }
 }
