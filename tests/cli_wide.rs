@@ -503,3 +503,35 @@ fn a_workbook_with_its_data_on_another_sheet_lists_the_sheets() {
     let o = w.run(&["inspect", "book.xlsx", "--sheet", "Data"]);
     assert!(o.status.success(), "{}", text(&o));
 }
+
+/// The README's wide-table example is these files, and its output is what
+/// the run prints (so the README cannot drift from the tool).
+#[test]
+fn the_readme_example_is_a_real_run() {
+    let readme = std::fs::read_to_string(repo("README.md")).unwrap();
+    let consumption = "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,410,385,,402\nORS sachet,South,220,231,240,0\nZinc 20 mg tablet,North,96,,88,91\n";
+    let stockout = "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,0,0,0,0\nORS sachet,South,0,0,0,30\nZinc 20 mg tablet,North,0,7,0,0\n";
+    assert!(readme.contains(&format!("```csv\n{consumption}```")));
+    assert!(readme.contains(&format!("```csv\n{stockout}```")));
+    let w = Workdir::new();
+    w.write("consumption_wide.csv", consumption);
+    w.write("stockout_wide.csv", stockout);
+    let cmd = "provisio inspect consumption_wide.csv --stockout-file stockout_wide.csv";
+    assert!(readme.contains(cmd));
+    let args: Vec<&str> = cmd.split(' ').skip(1).collect();
+    let o = w.run(&args);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    let at = readme.find(cmd).unwrap();
+    let shown = readme[at..]
+        .split("```\n")
+        .nth(2)
+        .expect("the output block after the command");
+    for line in shown.lines() {
+        assert!(
+            out.contains(line),
+            "README shows\n  {line}\nthe run printed\n{out}"
+        );
+    }
+    assert_eq!(shown.lines().count(), 2, "{shown}");
+}
