@@ -449,6 +449,14 @@ fn stockout_and_rate_tables_adjust_their_months_and_mismatches_are_warned() {
     let m = w.manifest("o");
     let warnings = m["warnings"].to_string();
     assert!(warnings.contains("Cotrimoxazole"), "{warnings}");
+    // The tables read beside the consumption table are in the manifest, hashed.
+    assert_eq!(m["wide"]["layout"], "wide");
+    assert_eq!(m["wide"]["stockout_days_from"], "s.csv");
+    assert_eq!(
+        m["wide"]["stockout_days_sha256"],
+        provisio::output::sha256_hex(&std::fs::read(w.path("s.csv")).unwrap())
+    );
+    assert_eq!(m["wide"]["reporting_rates_from"], "r.csv");
 
     // A bad stockout value rejects its month, naming both places.
     w.write("s2.csv", "product,2024-04\nORS,40\nZinc,0\n");

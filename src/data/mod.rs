@@ -133,8 +133,12 @@ pub struct WideInfo {
     /// Where stockout days were read from (`stockouts.csv`, `sheet
     /// 'Stockouts'`), when given.
     pub stockout_source: Option<String>,
+    /// SHA-256 of the file stockout days were read from.
+    pub stockout_sha256: Option<String>,
     /// Where reporting rates were read from, when given.
     pub rate_source: Option<String>,
+    /// SHA-256 of the file reporting rates were read from.
+    pub rate_sha256: Option<String>,
 }
 
 impl WideInfo {
@@ -144,6 +148,19 @@ impl WideInfo {
             .iter()
             .find(|(h, _, _)| h == header)
             .map(|(_, l, _)| l.as_str())
+    }
+
+    /// The run manifest's record of the layout and of the tables read
+    /// beside the consumption table, with their hashes.
+    pub fn manifest(&self) -> serde_json::Value {
+        serde_json::json!({
+            "layout": "wide",
+            "month_columns": self.months.len(),
+            "stockout_days_from": self.stockout_source,
+            "stockout_days_sha256": self.stockout_sha256,
+            "reporting_rates_from": self.rate_source,
+            "reporting_rates_sha256": self.rate_sha256,
+        })
     }
 
     /// One line for `inspect`: the layout read and what a counted value is.

@@ -292,7 +292,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
         let letter = |i: usize| super::column_letter(u32::try_from(i).unwrap_or(u32::MAX));
         match wide::classify(&fields, &letter, options.layout == TableLayout::Wide) {
             wide::Header::Wide(header) => {
-                let companions = super::sheet::load_companions(source, options, None)?;
+                let companions = super::sheet::load_companions(source, "", options, None)?;
                 let mut warnings = Vec::new();
                 let table = wide::MainTable {
                     source: source.to_string(),

@@ -252,6 +252,8 @@ pub(crate) struct Grid {
     pub(crate) first_col: u32,
     pub(crate) rows: Vec<StoredRow>,
     pub(crate) formulas: Option<super::sheet::Formulas>,
+    /// SHA-256 of the file's bytes, for the run manifest.
+    pub(crate) sha256: String,
 }
 
 impl Grid {
@@ -336,12 +338,14 @@ pub(crate) fn csv_grid(path: &Path, options: &ReadOptions) -> Result<Grid> {
             cells,
         });
     }
+    drop(records);
     Ok(Grid {
         name,
         in_sheet: false,
         first_col: 0,
         rows,
         formulas: None,
+        sha256: hashing.hex(),
     })
 }
 
@@ -816,6 +820,7 @@ impl<'o> WideReader<'o> {
                 if unnamed_lines.len() >= LISTED { ", ..." } else { "" }
             ));
         }
+        let side_of = |what: &str| sides.iter().find(|s| s.what == what);
         let info = WideInfo {
             months: header
                 .months
@@ -824,14 +829,10 @@ impl<'o> WideReader<'o> {
                 .collect(),
             product_column: table.letter(header.product),
             site_column: header.site.map(|s| table.letter(s)),
-            stockout_source: sides
-                .iter()
-                .find(|s| s.what == "stockout days")
-                .map(|s| s.grid.name.clone()),
-            rate_source: sides
-                .iter()
-                .find(|s| s.what == "reporting rates")
-                .map(|s| s.grid.name.clone()),
+            stockout_source: side_of("stockout days").map(|s| s.grid.name.clone()),
+            stockout_sha256: side_of("stockout days").map(|s| s.grid.sha256.clone()),
+            rate_source: side_of("reporting rates").map(|s| s.grid.name.clone()),
+            rate_sha256: side_of("reporting rates").map(|s| s.grid.sha256.clone()),
         };
         let mut id_columns = vec![("product".to_string(), info.product_column.clone())];
         if let Some(s) = &info.site_column {
