@@ -93,6 +93,7 @@ pub(crate) fn classify(
     forced: bool,
 ) -> Header {
     let width = row.width();
+    let order = date_order(row);
     let mut product = Vec::new();
     let mut site = Vec::new();
     let mut has_month_column = false;
@@ -112,7 +113,14 @@ pub(crate) fn classify(
                     None
                 }
             },
-            Cell::Text(t) => parse_month_header(t),
+            Cell::Text(t) => parse_month_header(t).or_else(|| {
+                let (a, b, y) = dated(t)?;
+                let month = match order? {
+                    DateOrder::DayFirst => b,
+                    DateOrder::MonthFirst => a,
+                };
+                YearMonth::new(y, month)
+            }),
             Cell::Number(_) => parse_month_header(&shown),
             _ => None,
         };
@@ -137,14 +145,18 @@ pub(crate) fn classify(
             }
         }
     }
-    let named_others = extra.len();
+    // Headers meant as months count as months here, so that a table of
+    // misspelt or ambiguous months is refused with the reason, not read as
+    // a long table with missing columns.
+    let monthly = months.len() + unreadable.len();
+    let named_others = extra.len() - unreadable.len();
     let wide = if forced {
-        !product.is_empty() || !months.is_empty()
+        !product.is_empty() || monthly > 0
     } else {
         !has_month_column
-            && months.len() >= 2
-            && months.len() > named_others
-            && (product.len() + site.len() + named_others) > 0
+            && monthly >= 2
+            && monthly > named_others
+            && (product.len() + site.len() + extra.len()) > 0
     };
     if !wide {
         return Header::NotWide;
@@ -200,6 +212,14 @@ pub(crate) fn classify(
         );
     }
     if let Some((i, shown)) = unreadable.first() {
+        if dated(shown).is_some() {
+            return bad(
+                Some(at(*i, shown)),
+                format!(
+                    "the month headers are dates such as \"{shown}\" whose order of day and month cannot be told from the header (each order gives valid dates); write the months as 2024-03 or Mar 2024, or as date cells in a workbook"
+                ),
+            );
+        }
         return bad(
             Some(at(*i, shown)),
             format!(
@@ -239,6 +259,61 @@ pub(crate) fn classify(
         unnamed,
         width,
     })
+}
+
+/// The order of day and month in a header's dates (`01/03/2024`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum DateOrder {
+    /// `01/03/2024` is 1 March.
+    DayFirst,
+    /// `03/01/2024` is 1 March.
+    MonthFirst,
+}
+
+/// The two leading numbers and the year of a date written `a/b/yyyy`
+/// (also with `-` or `.`).
+fn dated(t: &str) -> Option<(u32, u32, i32)> {
+    let parts: Vec<&str> = t.trim().split(['/', '-', '.']).collect();
+    let [a, b, y] = parts.as_slice() else {
+        return None;
+    };
+    let digits = |s: &str, n: std::ops::RangeInclusive<usize>| {
+        n.contains(&s.len()) && s.bytes().all(|c| c.is_ascii_digit())
+    };
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && digits(y, 4..=4)) {
+        return None;
+    }
+    Some((a.parse().ok()?, b.parse().ok()?, y.parse().ok()?))
+}
+
+/// The order of day and month in a header of dates such as `01/03/2024`
+/// (a spreadsheet's date cells saved as CSV), told from the header as a
+/// whole: a number above 12 is a day; otherwise, the first of the month,
+/// the day stays the same from column to column while the month changes.
+/// `None` when it cannot be told (one such date, or both numbers vary).
+fn date_order(row: &dyn RowCells) -> Option<DateOrder> {
+    let dates: Vec<(u32, u32)> = (0..row.width())
+        .filter_map(|i| match row.cell(i) {
+            Cell::Text(t) => dated(t).map(|(a, b, _)| (a, b)),
+            _ => None,
+        })
+        .collect();
+    let day_first = dates.iter().any(|&(a, _)| a > 12);
+    let month_first = dates.iter().any(|&(_, b)| b > 12);
+    match (day_first, month_first) {
+        (true, false) => return Some(DateOrder::DayFirst),
+        (false, true) => return Some(DateOrder::MonthFirst),
+        (true, true) => return None,
+        (false, false) => {}
+    }
+    let (&(a0, b0), rest) = dates.split_first()?;
+    let a_same = rest.iter().all(|&(a, _)| a == a0);
+    let b_same = rest.iter().all(|&(_, b)| b == b0);
+    match (a_same, b_same) {
+        (true, false) => Some(DateOrder::DayFirst),
+        (false, true) => Some(DateOrder::MonthFirst),
+        _ => None,
+    }
 }
 
 /// A table of stockout days or reporting rates in the wide layout, kept
@@ -984,6 +1059,46 @@ mod tests {
             panic!()
         };
         assert!(message.contains("'month' column"), "{message}");
+    }
+
+    #[test]
+    fn dates_as_headers_are_read_when_their_order_shows() {
+        let months = |cells: Vec<&'static str>| -> Vec<String> {
+            match classify_text(cells, false) {
+                Header::Wide(h) => h.months.iter().map(|m| m.month.to_string()).collect(),
+                other => panic!("{other:?}"),
+            }
+        };
+        // Day first (the day stays 01), month first (US exports), and a day
+        // above 12 (month-end dates) settle the order.
+        let want = ["2024-01", "2024-02", "2024-03"];
+        assert_eq!(
+            months(vec!["product", "01/01/2024", "01/02/2024", "01/03/2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "1/1/2024", "2/1/2024", "3/1/2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "31.01.2024", "29.02.2024", "31.03.2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "1/31/2024", "2/29/2024", "3/31/2024"]),
+            want
+        );
+        // Both numbers change: refused, not guessed.
+        let Header::Bad { message, .. } = classify_text(
+            vec!["product", "01/02/2024", "02/03/2024", "03/04/2024"],
+            false,
+        ) else {
+            panic!()
+        };
+        assert!(
+            message.contains("order of day and month cannot be told"),
+            "{message}"
+        );
     }
 
     #[test]
