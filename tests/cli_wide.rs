@@ -543,3 +543,64 @@ fn the_readme_example_is_a_real_run() {
     }
     assert_eq!(shown.lines().count(), 2, "{shown}");
 }
+
+/// The wide options go through the run configuration (paths relative to
+/// its folder), and `--until` cuts values by month, not whole lines.
+#[test]
+fn wide_options_round_trip_through_the_configuration_and_until_cuts_by_month() {
+    let w = Workdir::new();
+    w.write(
+        "c.csv",
+        "product,2024-01,2024-02,2024-03\nORS,10,11,12\nZinc,5,6,7\n",
+    );
+    w.write(
+        "s.csv",
+        "product,2024-01,2024-02,2024-03\nORS,0,3,0\nZinc,0,0,0\n",
+    );
+    let o = w.run(&[
+        "forecast",
+        "c.csv",
+        "--layout",
+        "wide",
+        "--stockout-file",
+        "s.csv",
+        "--write-config",
+        "cfg/run.toml",
+        "--out",
+        "o",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let toml = std::fs::read_to_string(w.path("cfg/run.toml")).unwrap();
+    assert!(toml.contains("layout = \"wide\""), "{toml}");
+    assert!(toml.contains("stockout_file = \"../s.csv\""), "{toml}");
+    let o = w.run(&["inspect", "c.csv", "--config", "cfg/run.toml"]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(out.contains("stockout days from cfg/../s.csv"), "{out}");
+    // Two lines, three months: --until 2024-02 keeps four values of six.
+    let o = w.run(&[
+        "forecast",
+        "c.csv",
+        "--until",
+        "2024-02",
+        "--out",
+        "u",
+        "--no-report",
+    ]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(
+        out.contains("2 row(s) dated after 2024-02 left out as asked"),
+        "{out}"
+    );
+    assert_eq!(accounting(&out), [4, 4, 0, 0]);
+    let months: Vec<String> = w
+        .read_csv_maps("u/cleaned.csv")
+        .iter()
+        .map(|r| format!("{} {}", r["product"], r["month"]))
+        .collect();
+    assert_eq!(
+        months,
+        ["ORS 2024-01", "ORS 2024-02", "Zinc 2024-01", "Zinc 2024-02"]
+    );
+}
