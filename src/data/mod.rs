@@ -166,8 +166,16 @@ impl WideInfo {
     /// One line for `inspect`: the layout read and what a counted value is.
     pub fn describe(&self) -> String {
         let span = match (self.months.first(), self.months.last()) {
-            (Some(a), Some(b)) => format!(", columns {} to {}", a.1, b.1),
-            _ => String::new(),
+            (Some(a), Some(b)) if self.months.len() > 1 => {
+                format!(
+                    "{} month columns, columns {} to {}",
+                    self.months.len(),
+                    a.1,
+                    b.1
+                )
+            }
+            (Some(a), _) => format!("1 month column, column {}", a.1),
+            _ => "no month column".to_string(),
         };
         let mut extra = Vec::new();
         if let Some(s) = &self.stockout_source {
@@ -177,9 +185,8 @@ impl WideInfo {
             extra.push(format!("reporting rates from {s}"));
         }
         format!(
-            "wide: one row per product{}, one column per month ({} month columns{span}){}; values are counted one per product{} and month with something in its cell",
+            "wide: one row per product{}, one column per month ({span}){}; values are counted one per product{} and month with something in its cell",
             if self.site_column.is_some() { " and site" } else { "" },
-            self.months.len(),
             if extra.is_empty() {
                 String::new()
             } else {

@@ -496,7 +496,7 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
                     "--layout wide: no header row with a 'product' column and month columns ({}) in the first {MAX_TITLE_ROWS} rows",
                     wide::MONTH_HEADERS
                 ),
-                Err(m) => m,
+                Err(m) => format!("{m}{}", super::read::wide_hint(&refs)),
                 Ok(_) => "no header row found".to_string(),
             };
             // A row of one cell is a title, not a header to correct.

@@ -1218,6 +1218,16 @@ mod tests {
             layout: TableLayout::Wide,
             ..ReadOptions::default()
         };
+        // Auto: one month column is too few to tell, and the refusal says
+        // which option reads it.
+        let e = super::super::read_csv_bytes(
+            "w.csv",
+            b"product,2024-01\nORS,1\n",
+            &ReadOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.ends_with("the header has 1 month column(s) (2024-01): a table with one row per product and a column per month is read with --layout wide"), "{e}");
         // One month column is enough when the layout is named.
         let d = read("product,2024-01\nORS,1\n", &wide);
         assert_eq!(d.rows.len(), 1);
