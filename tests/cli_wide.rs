@@ -604,3 +604,57 @@ fn wide_options_round_trip_through_the_configuration_and_until_cuts_by_month() {
         ["ORS 2024-01", "ORS 2024-02", "Zinc 2024-01", "Zinc 2024-02"]
     );
 }
+
+/// `review --actuals` reads actuals in the wide layout, with their stockout
+/// and rate tables, and scores the past forecast exactly as from the same
+/// actuals in long form.
+#[test]
+fn review_reads_wide_actuals_as_it_reads_long_ones() {
+    let w = Workdir::new();
+    let long = repo("datasets/demo/consumption.csv");
+    let p = pivot(&long);
+    w.write("wide.csv", p.csv("consumed"));
+    w.write("stockout.csv", p.csv("stockout_days"));
+    w.write("rate.csv", p.csv("reporting_rate"));
+    // A forecast made six months before the demo's last month.
+    let last = p.months.last().unwrap().clone();
+    let (y, m): (i32, i32) = (last[..4].parse().unwrap(), last[5..7].parse().unwrap());
+    let k = y * 12 + m - 1 - 6;
+    let until = format!("{}-{:02}", k / 12, k % 12 + 1);
+    let mut args = vec![
+        "forecast",
+        long.to_str().unwrap(),
+        "--until",
+        &until,
+        "--out",
+        "past",
+    ];
+    args.extend(SHORT);
+    let o = w.run(&args);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&[
+        "review",
+        "past",
+        "--actuals",
+        long.to_str().unwrap(),
+        "--out",
+        "r-long",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&[
+        "review",
+        "past",
+        "--actuals",
+        "wide.csv",
+        "--stockout-file",
+        "stockout.csv",
+        "--rate-file",
+        "rate.csv",
+        "--out",
+        "r-wide",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    for f in ["review.csv", "review_months.csv"] {
+        same_file(&w, "r-long", "r-wide", f);
+    }
+}
