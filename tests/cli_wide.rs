@@ -449,6 +449,14 @@ fn stockout_and_rate_tables_adjust_their_months_and_mismatches_are_warned() {
     let m = w.manifest("o");
     let warnings = m["warnings"].to_string();
     assert!(warnings.contains("Cotrimoxazole"), "{warnings}");
+    // The tables read beside the consumption table are in the manifest, hashed.
+    assert_eq!(m["wide"]["layout"], "wide");
+    assert_eq!(m["wide"]["stockout_days_from"], "s.csv");
+    assert_eq!(
+        m["wide"]["stockout_days_sha256"],
+        provisio::output::sha256_hex(&std::fs::read(w.path("s.csv")).unwrap())
+    );
+    assert_eq!(m["wide"]["reporting_rates_from"], "r.csv");
 
     // A bad stockout value rejects its month, naming both places.
     w.write("s2.csv", "product,2024-04\nORS,40\nZinc,0\n");
@@ -502,4 +510,151 @@ fn a_workbook_with_its_data_on_another_sheet_lists_the_sheets() {
     assert!(!out.contains("did you mean"), "{out}");
     let o = w.run(&["inspect", "book.xlsx", "--sheet", "Data"]);
     assert!(o.status.success(), "{}", text(&o));
+}
+
+/// The README's wide-table example is these files, and its output is what
+/// the run prints (so the README cannot drift from the tool).
+#[test]
+fn the_readme_example_is_a_real_run() {
+    let readme = std::fs::read_to_string(repo("README.md")).unwrap();
+    let consumption = "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,410,385,,402\nORS sachet,South,220,231,240,0\nZinc 20 mg tablet,North,96,,88,91\n";
+    let stockout = "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,0,0,0,0\nORS sachet,South,0,0,0,30\nZinc 20 mg tablet,North,0,7,0,0\n";
+    assert!(readme.contains(&format!("```csv\n{consumption}```")));
+    assert!(readme.contains(&format!("```csv\n{stockout}```")));
+    let w = Workdir::new();
+    w.write("consumption_wide.csv", consumption);
+    w.write("stockout_wide.csv", stockout);
+    let cmd = "provisio inspect consumption_wide.csv --stockout-file stockout_wide.csv";
+    assert!(readme.contains(cmd));
+    let args: Vec<&str> = cmd.split(' ').skip(1).collect();
+    let o = w.run(&args);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    let at = readme.find(cmd).unwrap();
+    let shown = readme[at..]
+        .split("```\n")
+        .nth(2)
+        .expect("the output block after the command");
+    for line in shown.lines() {
+        assert!(
+            out.contains(line),
+            "README shows\n  {line}\nthe run printed\n{out}"
+        );
+    }
+    assert_eq!(shown.lines().count(), 2, "{shown}");
+}
+
+/// The wide options go through the run configuration (paths relative to
+/// its folder), and `--until` cuts values by month, not whole lines.
+#[test]
+fn wide_options_round_trip_through_the_configuration_and_until_cuts_by_month() {
+    let w = Workdir::new();
+    w.write(
+        "c.csv",
+        "product,2024-01,2024-02,2024-03\nORS,10,11,12\nZinc,5,6,7\n",
+    );
+    w.write(
+        "s.csv",
+        "product,2024-01,2024-02,2024-03\nORS,0,3,0\nZinc,0,0,0\n",
+    );
+    let o = w.run(&[
+        "forecast",
+        "c.csv",
+        "--layout",
+        "wide",
+        "--stockout-file",
+        "s.csv",
+        "--write-config",
+        "cfg/run.toml",
+        "--out",
+        "o",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let toml = std::fs::read_to_string(w.path("cfg/run.toml")).unwrap();
+    assert!(toml.contains("layout = \"wide\""), "{toml}");
+    assert!(toml.contains("stockout_file = \"../s.csv\""), "{toml}");
+    let o = w.run(&["inspect", "c.csv", "--config", "cfg/run.toml"]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(out.contains("stockout days from cfg/../s.csv"), "{out}");
+    // Two lines, three months: --until 2024-02 keeps four values of six.
+    let o = w.run(&[
+        "forecast",
+        "c.csv",
+        "--until",
+        "2024-02",
+        "--out",
+        "u",
+        "--no-report",
+    ]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(
+        out.contains("2 row(s) dated after 2024-02 left out as asked"),
+        "{out}"
+    );
+    assert_eq!(accounting(&out), [4, 4, 0, 0]);
+    let months: Vec<String> = w
+        .read_csv_maps("u/cleaned.csv")
+        .iter()
+        .map(|r| format!("{} {}", r["product"], r["month"]))
+        .collect();
+    assert_eq!(
+        months,
+        ["ORS 2024-01", "ORS 2024-02", "Zinc 2024-01", "Zinc 2024-02"]
+    );
+}
+
+/// `review --actuals` reads actuals in the wide layout, with their stockout
+/// and rate tables, and scores the past forecast exactly as from the same
+/// actuals in long form.
+#[test]
+fn review_reads_wide_actuals_as_it_reads_long_ones() {
+    let w = Workdir::new();
+    let long = repo("datasets/demo/consumption.csv");
+    let p = pivot(&long);
+    w.write("wide.csv", p.csv("consumed"));
+    w.write("stockout.csv", p.csv("stockout_days"));
+    w.write("rate.csv", p.csv("reporting_rate"));
+    // A forecast made six months before the demo's last month.
+    let last = p.months.last().unwrap().clone();
+    let (y, m): (i32, i32) = (last[..4].parse().unwrap(), last[5..7].parse().unwrap());
+    let k = y * 12 + m - 1 - 6;
+    let until = format!("{}-{:02}", k / 12, k % 12 + 1);
+    let mut args = vec![
+        "forecast",
+        long.to_str().unwrap(),
+        "--until",
+        &until,
+        "--out",
+        "past",
+    ];
+    args.extend(SHORT);
+    let o = w.run(&args);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&[
+        "review",
+        "past",
+        "--actuals",
+        long.to_str().unwrap(),
+        "--out",
+        "r-long",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&[
+        "review",
+        "past",
+        "--actuals",
+        "wide.csv",
+        "--stockout-file",
+        "stockout.csv",
+        "--rate-file",
+        "rate.csv",
+        "--out",
+        "r-wide",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    for f in ["review.csv", "review_months.csv"] {
+        same_file(&w, "r-long", "r-wide", f);
+    }
 }

@@ -48,6 +48,7 @@ pub fn run(mut a: CleanCmdArgs, given: &super::Given) -> anyhow::Result<()> {
         numbers: a.read.options().numbers.name().to_string(),
         encoding: a.read.options().encoding.name().to_string(),
         sheet: ds.layout.sheet.as_ref().map(|s| s.name.clone()),
+        wide: ds.layout.wide.as_ref().map(|w| w.manifest()),
         rows: cleaned.rows,
         products: cleaned.series.len(),
         products_unusable: cleaned.unusable.len(),

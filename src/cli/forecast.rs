@@ -849,6 +849,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "numbers": a.read.options().numbers.name(),
         "encoding": a.read.options().encoding.name(),
         "sheet": ds.layout.sheet.as_ref().map(|s| s.name.clone()),
+        "wide": ds.layout.wide.as_ref().map(|w| w.manifest()),
         "forecast_settings": fs,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "changes_file": changes.as_ref().map(|c| c.file.clone()),

@@ -824,10 +824,10 @@ fn print_accounting(
         r.used,
         r.adjusted,
         r.rejected,
-        if ds.layout.wide.is_some() {
-            " (wide layout: each counted here is one value, a product, site and month with something in its cell)"
-        } else {
-            ""
+        match &ds.layout.wide {
+            Some(w) if w.site_column.is_some() => " (wide layout: each counted here is one value, a product, site and month with something in its cell)",
+            Some(_) => " (wide layout: each counted here is one value, a product and month with something in its cell)",
+            None => "",
         },
         if r.balances() {
             ""

@@ -31,6 +31,18 @@ pub struct ReviewArgs {
     /// Sheet of an actuals workbook to read (default: the sheet the past run read, or the first sheet).
     #[arg(long, value_name = "NAME")]
     sheet: Option<String>,
+    /// Actuals in the wide layout: stockout days as a table of the same shape in this file.
+    #[arg(long, value_name = "FILE")]
+    stockout_file: Option<PathBuf>,
+    /// Actuals in the wide layout: stockout days on this sheet (of --stockout-file, else of the actuals workbook).
+    #[arg(long, value_name = "NAME")]
+    stockout_sheet: Option<String>,
+    /// Actuals in the wide layout: reporting rates as a table of the same shape in this file.
+    #[arg(long, value_name = "FILE")]
+    rate_file: Option<PathBuf>,
+    /// Actuals in the wide layout: reporting rates on this sheet (of --rate-file, else of the actuals workbook).
+    #[arg(long, value_name = "NAME")]
+    rate_sheet: Option<String>,
 }
 
 pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
@@ -67,8 +79,17 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         match same {
             Some(k) => which.push(k),
             None => {
-                let (ds, cleaned) =
-                    review::clean_actuals(&source, &bytes, &p.manifest, a.sheet.as_deref())?;
+                let tables = [
+                    super::companion(&a.stockout_file, &a.stockout_sheet),
+                    super::companion(&a.rate_file, &a.rate_sheet),
+                ];
+                let (ds, cleaned) = review::clean_actuals_with(
+                    &source,
+                    &bytes,
+                    &p.manifest,
+                    a.sheet.as_deref(),
+                    tables,
+                )?;
                 which.push(cleanings.len());
                 cleanings.push((i, ds, cleaned));
             }

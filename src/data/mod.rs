@@ -134,8 +134,12 @@ pub struct WideInfo {
     /// Where stockout days were read from (`stockouts.csv`, `sheet
     /// 'Stockouts'`), when given.
     pub stockout_source: Option<String>,
+    /// SHA-256 of the file stockout days were read from.
+    pub stockout_sha256: Option<String>,
     /// Where reporting rates were read from, when given.
     pub rate_source: Option<String>,
+    /// SHA-256 of the file reporting rates were read from.
+    pub rate_sha256: Option<String>,
 }
 
 impl WideInfo {
@@ -147,11 +151,32 @@ impl WideInfo {
             .map(|(_, l, _)| l.as_str())
     }
 
+    /// The run manifest's record of the layout and of the tables read
+    /// beside the consumption table, with their hashes.
+    pub fn manifest(&self) -> serde_json::Value {
+        serde_json::json!({
+            "layout": "wide",
+            "month_columns": self.months.len(),
+            "stockout_days_from": self.stockout_source,
+            "stockout_days_sha256": self.stockout_sha256,
+            "reporting_rates_from": self.rate_source,
+            "reporting_rates_sha256": self.rate_sha256,
+        })
+    }
+
     /// One line for `inspect`: the layout read and what a counted value is.
     pub fn describe(&self) -> String {
         let span = match (self.months.first(), self.months.last()) {
-            (Some(a), Some(b)) => format!(", columns {} to {}", a.1, b.1),
-            _ => String::new(),
+            (Some(a), Some(b)) if self.months.len() > 1 => {
+                format!(
+                    "{} month columns, columns {} to {}",
+                    self.months.len(),
+                    a.1,
+                    b.1
+                )
+            }
+            (Some(a), _) => format!("1 month column, column {}", a.1),
+            _ => "no month column".to_string(),
         };
         let mut extra = Vec::new();
         if let Some(s) = &self.stockout_source {
@@ -161,9 +186,8 @@ impl WideInfo {
             extra.push(format!("reporting rates from {s}"));
         }
         format!(
-            "wide: one row per product{}, one column per month ({} month columns{span}){}; values are counted one per product{} and month with something in its cell",
+            "wide: one row per product{}, one column per month ({span}){}; values are counted one per product{} and month with something in its cell",
             if self.site_column.is_some() { " and site" } else { "" },
-            self.months.len(),
             if extra.is_empty() {
                 String::new()
             } else {

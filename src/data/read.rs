@@ -292,7 +292,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
         let letter = |i: usize| super::column_letter(u32::try_from(i).unwrap_or(u32::MAX));
         match wide::classify(&fields, &letter, options.layout == TableLayout::Wide) {
             wide::Header::Wide(header) => {
-                let companions = super::sheet::load_companions(source, options, None)?;
+                let companions = super::sheet::load_companions(source, "", options, None)?;
                 let mut warnings = Vec::new();
                 let table = wide::MainTable {
                     source: source.to_string(),
@@ -355,7 +355,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
                     "the header is one column holding '{c}' between names: the file seems to be delimited by '{c}', and provisio reads commas, semicolons and tabs; save it as CSV with commas"
                 ),
             ),
-            None => input_err(header_line, None, m),
+            None => input_err(header_line, None, format!("{m}{}", wide_hint(&header_names))),
         }
     })?;
     columns.delimiter = delimiter;
@@ -398,6 +398,24 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
     // cost more memory than the rows themselves.
     let reread = |wanted: &BTreeSet<u64>| reread_rows(open, options.encoding, wanted);
     rows.finish(source, input_sha256, layout, &input_err, &reread)
+}
+
+/// For a header refused as the long layout's: when it has month columns,
+/// the option that reads a table with a column per month.
+pub(crate) fn wide_hint(header: &[&str]) -> String {
+    let months: Vec<&str> = header
+        .iter()
+        .copied()
+        .filter(|h| super::values::parse_month_header(h).is_some())
+        .collect();
+    if months.is_empty() {
+        return String::new();
+    }
+    format!(
+        "; the header has {} month column(s) ({}): a table with one row per product and a column per month is read with --layout wide",
+        months.len(),
+        months.iter().take(3).map(|m| m.trim()).collect::<Vec<_>>().join(", ")
+    )
 }
 
 /// One value of an input row as found: a CSV field is text; a workbook's

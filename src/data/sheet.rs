@@ -430,7 +430,12 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
         let all_rows = &rows;
         let rows: Vec<SheetRow<'_>> = rows[header_at + 1..].to_vec();
         let formulas = read_formulas(&mut book, &name, &options.limits).filter(|f| !f.is_empty());
-        let companions = load_companions(source, options, Some(&mut book))?;
+        let companions = load_companions(
+            source,
+            &crate::output::sha256_hex(bytes),
+            options,
+            Some(&mut book),
+        )?;
         let mut warnings = Vec::new();
         let table = wide::MainTable {
             source: source.to_string(),
@@ -492,7 +497,7 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
                     "--layout wide: no header row with a 'product' column and month columns ({}) in the first {MAX_TITLE_ROWS} rows",
                     wide::MONTH_HEADERS
                 ),
-                Err(m) => m,
+                Err(m) => format!("{m}{}", super::read::wide_hint(&refs)),
                 Ok(_) => "no header row found".to_string(),
             };
             // A row of one cell is a title, not a header to correct.
@@ -728,6 +733,7 @@ type Book<'b> = Sheets<Cursor<&'b [u8]>>;
 /// (wide layout): sheets of the input workbook (`main`), or other files.
 pub(crate) fn load_companions(
     source: &str,
+    input_sha256: &str,
     options: &ReadOptions,
     mut main: Option<&mut Book<'_>>,
 ) -> Result<wide::Companions> {
@@ -764,7 +770,9 @@ pub(crate) fn load_companions(
                         .map(|(n, _)| n)
                         .ok_or_else(|| err("the workbook has no sheets".to_string()))?,
                 };
-                sheet_grid(&mut book, &file, &name, options).map(Some)
+                let mut grid = sheet_grid(&mut book, &file, &name, options)?;
+                grid.sha256 = crate::output::sha256_hex(&bytes);
+                Ok(Some(grid))
             }
             Some(path) => wide::companion_csv(c, path, options).map(Some),
             None => {
@@ -781,7 +789,9 @@ pub(crate) fn load_companions(
                                 book.sheet_names().join(", ")
                             ),
                         })?;
-                        sheet_grid(book, source, &name, options).map(Some)
+                        let mut grid = sheet_grid(book, source, &name, options)?;
+                        grid.sha256 = input_sha256.to_string();
+                        Ok(Some(grid))
                     }
                     None => Err(Error::Input {
                         file: source.to_string(),
@@ -838,6 +848,7 @@ fn sheet_grid<RS: Read + Seek>(
         first_col,
         rows,
         formulas,
+        sha256: String::new(),
     })
 }
 

@@ -93,6 +93,7 @@ pub(crate) fn classify(
     forced: bool,
 ) -> Header {
     let width = row.width();
+    let order = date_order(row);
     let mut product = Vec::new();
     let mut site = Vec::new();
     let mut has_month_column = false;
@@ -112,7 +113,14 @@ pub(crate) fn classify(
                     None
                 }
             },
-            Cell::Text(t) => parse_month_header(t),
+            Cell::Text(t) => parse_month_header(t).or_else(|| {
+                let (a, b, y) = dated(t)?;
+                let month = match order? {
+                    DateOrder::DayFirst => b,
+                    DateOrder::MonthFirst => a,
+                };
+                YearMonth::new(y, month)
+            }),
             Cell::Number(_) => parse_month_header(&shown),
             _ => None,
         };
@@ -137,14 +145,18 @@ pub(crate) fn classify(
             }
         }
     }
-    let named_others = extra.len();
+    // Headers meant as months count as months here, so that a table of
+    // misspelt or ambiguous months is refused with the reason, not read as
+    // a long table with missing columns.
+    let monthly = months.len() + unreadable.len();
+    let named_others = extra.len() - unreadable.len();
     let wide = if forced {
-        !product.is_empty() || !months.is_empty()
+        !product.is_empty() || monthly > 0
     } else {
         !has_month_column
-            && months.len() >= 2
-            && months.len() > named_others
-            && (product.len() + site.len() + named_others) > 0
+            && monthly >= 2
+            && monthly > named_others
+            && (product.len() + site.len() + extra.len()) > 0
     };
     if !wide {
         return Header::NotWide;
@@ -152,7 +164,14 @@ pub(crate) fn classify(
     let at = |i: usize, h: &str| format!("column {} ({h})", letter(i));
     let bad = |column: Option<String>, message: String| Header::Bad { column, message };
     if has_month_column {
-        return bad(None, "the header has a 'month' column, as in the long layout (one row per product and month), besides month columns; use one layout: drop the month columns, or the 'month' column".to_string());
+        return bad(
+            None,
+            if months.is_empty() {
+                "--layout wide: the header has a 'month' column, so the table is in the long layout (one row per product and month); read it with --layout long or auto".to_string()
+            } else {
+                "the header has a 'month' column, as in the long layout (one row per product and month), besides month columns; use one layout: drop the month columns, or the 'month' column".to_string()
+            },
+        );
     }
     if let Some((i, shown)) = bad_date {
         return bad(
@@ -193,6 +212,14 @@ pub(crate) fn classify(
         );
     }
     if let Some((i, shown)) = unreadable.first() {
+        if dated(shown).is_some() {
+            return bad(
+                Some(at(*i, shown)),
+                format!(
+                    "the month headers are dates such as \"{shown}\" whose order of day and month cannot be told from the header (each order gives valid dates); write the months as 2024-03 or Mar 2024, or as date cells in a workbook"
+                ),
+            );
+        }
         return bad(
             Some(at(*i, shown)),
             format!(
@@ -234,6 +261,61 @@ pub(crate) fn classify(
     })
 }
 
+/// The order of day and month in a header's dates (`01/03/2024`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum DateOrder {
+    /// `01/03/2024` is 1 March.
+    DayFirst,
+    /// `03/01/2024` is 1 March.
+    MonthFirst,
+}
+
+/// The two leading numbers and the year of a date written `a/b/yyyy`
+/// (also with `-` or `.`).
+fn dated(t: &str) -> Option<(u32, u32, i32)> {
+    let parts: Vec<&str> = t.trim().split(['/', '-', '.']).collect();
+    let [a, b, y] = parts.as_slice() else {
+        return None;
+    };
+    let digits = |s: &str, n: std::ops::RangeInclusive<usize>| {
+        n.contains(&s.len()) && s.bytes().all(|c| c.is_ascii_digit())
+    };
+    if !(digits(a, 1..=2) && digits(b, 1..=2) && digits(y, 4..=4)) {
+        return None;
+    }
+    Some((a.parse().ok()?, b.parse().ok()?, y.parse().ok()?))
+}
+
+/// The order of day and month in a header of dates such as `01/03/2024`
+/// (a spreadsheet's date cells saved as CSV), told from the header as a
+/// whole: a number above 12 is a day; otherwise, the first of the month,
+/// the day stays the same from column to column while the month changes.
+/// `None` when it cannot be told (one such date, or both numbers vary).
+fn date_order(row: &dyn RowCells) -> Option<DateOrder> {
+    let dates: Vec<(u32, u32)> = (0..row.width())
+        .filter_map(|i| match row.cell(i) {
+            Cell::Text(t) => dated(t).map(|(a, b, _)| (a, b)),
+            _ => None,
+        })
+        .collect();
+    let day_first = dates.iter().any(|&(a, _)| a > 12);
+    let month_first = dates.iter().any(|&(_, b)| b > 12);
+    match (day_first, month_first) {
+        (true, false) => return Some(DateOrder::DayFirst),
+        (false, true) => return Some(DateOrder::MonthFirst),
+        (true, true) => return None,
+        (false, false) => {}
+    }
+    let (&(a0, b0), rest) = dates.split_first()?;
+    let a_same = rest.iter().all(|&(a, _)| a == a0);
+    let b_same = rest.iter().all(|&(_, b)| b == b0);
+    match (a_same, b_same) {
+        (true, false) => Some(DateOrder::DayFirst),
+        (false, true) => Some(DateOrder::MonthFirst),
+        _ => None,
+    }
+}
+
 /// A table of stockout days or reporting rates in the wide layout, kept
 /// whole: its rows are looked up by product (and site).
 pub(crate) struct Grid {
@@ -245,6 +327,8 @@ pub(crate) struct Grid {
     pub(crate) first_col: u32,
     pub(crate) rows: Vec<StoredRow>,
     pub(crate) formulas: Option<super::sheet::Formulas>,
+    /// SHA-256 of the file's bytes, for the run manifest.
+    pub(crate) sha256: String,
 }
 
 impl Grid {
@@ -329,12 +413,14 @@ pub(crate) fn csv_grid(path: &Path, options: &ReadOptions) -> Result<Grid> {
             cells,
         });
     }
+    drop(records);
     Ok(Grid {
         name,
         in_sheet: false,
         first_col: 0,
         rows,
         formulas: None,
+        sha256: hashing.hex(),
     })
 }
 
@@ -809,6 +895,7 @@ impl<'o> WideReader<'o> {
                 if unnamed_lines.len() >= LISTED { ", ..." } else { "" }
             ));
         }
+        let side_of = |what: &str| sides.iter().find(|s| s.what == what);
         let info = WideInfo {
             months: header
                 .months
@@ -817,14 +904,10 @@ impl<'o> WideReader<'o> {
                 .collect(),
             product_column: table.letter(header.product),
             site_column: header.site.map(|s| table.letter(s)),
-            stockout_source: sides
-                .iter()
-                .find(|s| s.what == "stockout days")
-                .map(|s| s.grid.name.clone()),
-            rate_source: sides
-                .iter()
-                .find(|s| s.what == "reporting rates")
-                .map(|s| s.grid.name.clone()),
+            stockout_source: side_of("stockout days").map(|s| s.grid.name.clone()),
+            stockout_sha256: side_of("stockout days").map(|s| s.grid.sha256.clone()),
+            rate_source: side_of("reporting rates").map(|s| s.grid.name.clone()),
+            rate_sha256: side_of("reporting rates").map(|s| s.grid.sha256.clone()),
         };
         let mut id_columns = vec![("product".to_string(), info.product_column.clone())];
         if let Some(s) = &info.site_column {
@@ -979,6 +1062,46 @@ mod tests {
     }
 
     #[test]
+    fn dates_as_headers_are_read_when_their_order_shows() {
+        let months = |cells: Vec<&'static str>| -> Vec<String> {
+            match classify_text(cells, false) {
+                Header::Wide(h) => h.months.iter().map(|m| m.month.to_string()).collect(),
+                other => panic!("{other:?}"),
+            }
+        };
+        // Day first (the day stays 01), month first (US exports), and a day
+        // above 12 (month-end dates) settle the order.
+        let want = ["2024-01", "2024-02", "2024-03"];
+        assert_eq!(
+            months(vec!["product", "01/01/2024", "01/02/2024", "01/03/2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "1/1/2024", "2/1/2024", "3/1/2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "31.01.2024", "29.02.2024", "31.03.2024"]),
+            want
+        );
+        assert_eq!(
+            months(vec!["product", "1/31/2024", "2/29/2024", "3/31/2024"]),
+            want
+        );
+        // Both numbers change: refused, not guessed.
+        let Header::Bad { message, .. } = classify_text(
+            vec!["product", "01/02/2024", "02/03/2024", "03/04/2024"],
+            false,
+        ) else {
+            panic!()
+        };
+        assert!(
+            message.contains("order of day and month cannot be told"),
+            "{message}"
+        );
+    }
+
+    #[test]
     fn header_problems_name_the_column() {
         let bad = |cells| match classify_text(cells, false) {
             Header::Bad { column, message } => (column, message),
@@ -998,5 +1121,123 @@ mod tests {
         let (col, m) = bad(vec!["item", "Jan 2024", "Feb 2024", "Mar 2024"]);
         assert_eq!(col, None);
         assert!(m.contains("no column named 'product'"), "{m}");
+    }
+
+    fn read(text: &str, options: &ReadOptions) -> Dataset {
+        super::super::read_csv_bytes("w.csv", text.as_bytes(), options).unwrap()
+    }
+
+    #[test]
+    fn values_are_rows_of_the_long_layout_placed_by_line_and_column() {
+        let d = read(
+            "product,site,Jan 2024,Feb 2024,Mar 2024,notes\nORS,North,10,,12,x\nORS,South,4,x5,6,\n",
+            &ReadOptions::default(),
+        );
+        // Five values read (the blank is a month not reported, not a value).
+        assert_eq!(d.rows_read, 5);
+        assert_eq!(d.rows.len(), 4);
+        let r = &d.rejected[0];
+        assert_eq!((r.line, r.column.as_deref()), (3, Some("Feb 2024")));
+        assert_eq!(d.place(r), "w.csv: line 3, column D (Feb 2024)");
+        assert_eq!(d.cell_of(r).as_deref(), Some("D3"));
+        assert_eq!(r.raw, "ORS,South,4,x5,6,");
+        let north: Vec<(String, Option<f64>)> = d
+            .rows
+            .iter()
+            .filter(|r| r.site.as_deref() == Some("North"))
+            .map(|r| (r.month.to_string(), r.consumed))
+            .collect();
+        assert_eq!(
+            north,
+            [
+                ("2024-01".to_string(), Some(10.0)),
+                ("2024-03".to_string(), Some(12.0))
+            ]
+        );
+        assert_eq!(d.layout.extra_columns, ["notes"]);
+        assert!(d.layout.wide.is_some() && d.layout.has_site);
+    }
+
+    #[test]
+    fn keeping_months_up_to_a_date_cuts_values_not_whole_lines() {
+        // Every value of a line shares the line: the cut goes by month.
+        let mut d = read(
+            "product,2024-01,2024-02,2024-03\nORS,1,2,3\nZinc,4,5,6\n",
+            &ReadOptions::default(),
+        );
+        assert_eq!(d.keep_until(YearMonth::known(2024, 2)), 2);
+        assert_eq!(d.rows_read, 4);
+        assert_eq!(d.rows.len(), 4);
+        assert!(d.rows.iter().all(|r| r.month <= YearMonth::known(2024, 2)));
+    }
+
+    #[test]
+    fn a_product_on_two_rows_is_a_duplicate_of_each_month() {
+        let text = "product,2024-01,2024-02\nORS,1,2\nORS,10,\n";
+        let d = read(text, &ReadOptions::default());
+        // January conflicts (both rejected); February has one value.
+        assert_eq!(d.rows_read, 3);
+        assert_eq!(d.rows.len(), 1);
+        assert_eq!(d.rejected.len(), 2);
+        assert!(d
+            .rejected
+            .iter()
+            .all(|r| r.column.as_deref() == Some("2024-01")));
+        assert_eq!(d.place(&d.rejected[0]), "w.csv: line 2, column B (2024-01)");
+        let sum = ReadOptions {
+            duplicates: super::super::DuplicatePolicy::Sum,
+            ..ReadOptions::default()
+        };
+        let d = read(text, &sum);
+        assert_eq!(d.merged.len(), 1);
+        assert_eq!(d.merged[0].month, YearMonth::known(2024, 1));
+        let jan = d.rows.iter().find(|r| r.month == YearMonth::known(2024, 1));
+        assert_eq!(jan.and_then(|r| r.consumed), Some(11.0));
+        // The accounting holds when one line carries values of many months.
+        let settings = crate::clean::CleanSettings::default().check().unwrap();
+        let cleaned = crate::clean::clean(&d, &settings);
+        assert!(cleaned.verify(&d).is_ok());
+        // The two January values were merged (counted adjusted); February is used as reported.
+        assert_eq!((cleaned.rows.used, cleaned.rows.adjusted), (1, 2));
+    }
+
+    #[test]
+    fn the_layout_can_be_forced() {
+        let long = ReadOptions {
+            layout: TableLayout::Long,
+            ..ReadOptions::default()
+        };
+        let e = super::super::read_csv_bytes("w.csv", b"product,2024-01,2024-02\nORS,1,2\n", &long)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("missing required columns 'month', 'consumed'"),
+            "{e}"
+        );
+        let wide = ReadOptions {
+            layout: TableLayout::Wide,
+            ..ReadOptions::default()
+        };
+        // Auto: one month column is too few to tell, and the refusal says
+        // which option reads it.
+        let e = super::super::read_csv_bytes(
+            "w.csv",
+            b"product,2024-01\nORS,1\n",
+            &ReadOptions::default(),
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.ends_with("the header has 1 month column(s) (2024-01): a table with one row per product and a column per month is read with --layout wide"), "{e}");
+        // One month column is enough when the layout is named.
+        let d = read("product,2024-01\nORS,1\n", &wide);
+        assert_eq!(d.rows.len(), 1);
+        let e = super::super::read_csv_bytes(
+            "w.csv",
+            b"product,month,consumed\nORS,2024-01,1\n",
+            &wide,
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("--layout wide: the header has a 'month' column, so the table is in the long layout"), "{e}");
     }
 }

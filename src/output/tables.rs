@@ -197,6 +197,9 @@ pub struct CleanManifest {
     /// The sheet read, when the input is a workbook.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub sheet: Option<String>,
+    /// The wide layout's record ([`crate::data::WideInfo::manifest`]), when read so.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub wide: Option<serde_json::Value>,
     /// Row accounting.
     pub rows: RowAccount,
     /// Products cleaned.

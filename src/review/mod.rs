@@ -114,6 +114,19 @@ pub fn clean_actuals(
     manifest: &PastManifest,
     sheet: Option<&str>,
 ) -> Result<(Dataset, Cleaned)> {
+    clean_actuals_with(source, bytes, manifest, sheet, [None, None])
+}
+
+/// [`clean_actuals`] for actuals in the wide layout with their tables of
+/// stockout days and reporting rates (`[stockout, rate]`, see
+/// [`crate::data::Companion`]).
+pub fn clean_actuals_with(
+    source: &str,
+    bytes: &[u8],
+    manifest: &PastManifest,
+    sheet: Option<&str>,
+    [stockout, rate]: [Option<crate::data::Companion>; 2],
+) -> Result<(Dataset, Cleaned)> {
     let workbook = crate::data::is_workbook(std::path::Path::new(source));
     let options = ReadOptions {
         duplicates: manifest.duplicate_policy(),
@@ -122,6 +135,8 @@ pub fn clean_actuals(
         sheet: sheet
             .map(str::to_string)
             .or_else(|| manifest.sheet.clone().filter(|_| workbook)),
+        stockout,
+        rate,
         ..ReadOptions::default()
     };
     let ds = crate::data::read_bytes(source, bytes, &options)?;
