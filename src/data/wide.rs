@@ -125,10 +125,16 @@ pub(crate) fn classify(
             _ => None,
         };
         if let Some(month) = month {
+            // A date cell is named by its month (its display format is not
+            // known): `2024-03`, not `2024-03-01`.
+            let header = match cell {
+                Cell::Date(..) => month.to_string(),
+                _ => shown,
+            };
             months.push(MonthColumn {
                 col: i,
                 month,
-                header: shown,
+                header,
             });
             continue;
         }
