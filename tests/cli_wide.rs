@@ -658,3 +658,38 @@ fn review_reads_wide_actuals_as_it_reads_long_ones() {
         same_file(&w, "r-long", "r-wide", f);
     }
 }
+
+/// Tables given beside the consumption table that cannot be matched with
+/// it are refused, naming the file and what would be valid.
+#[test]
+fn tables_that_cannot_be_matched_are_refused() {
+    let w = Workdir::new();
+    w.write("c.csv", "product,site,Jan 2025,Feb 2025\nORS,North,4,5\n");
+    w.write("r.csv", "product,Jan 2025,Feb 2025\nORS,90%,95%\n");
+    w.write("empty.csv", "");
+    let cases: [(&[&str], &str); 4] = [
+        (
+            &["--rate-file", "r.csv"],
+            "r.csv: line 1: reporting rates (--rate-file / --rate-sheet): the table has no 'site' column and the consumption table has one",
+        ),
+        (
+            &["--rate-file", "empty.csv"],
+            "empty.csv: reporting rates (--rate-file / --rate-sheet): no header row with a 'product' column and month columns",
+        ),
+        (
+            &["--stockout-sheet", "Stockouts"],
+            "c.csv: stockout days: the sheet 'Stockouts' is named, and the input is a CSV file, not a workbook; give the file that holds the table with --stockout-file",
+        ),
+        (
+            &["--rate-file", "r.csv", "--rate-sheet", "Rates"],
+            "r.csv: a sheet ('Rates') is named for this file, and it is read as a CSV file",
+        ),
+    ];
+    for (extra, message) in cases {
+        let mut args = vec!["inspect", "c.csv"];
+        args.extend(extra);
+        let o = w.run(&args);
+        assert_eq!(o.status.code(), Some(1), "{extra:?}: {}", text(&o));
+        assert!(text(&o).contains(message), "{extra:?}: {}", text(&o));
+    }
+}

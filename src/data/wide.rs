@@ -515,9 +515,12 @@ impl Side {
                 grid.line(at),
                 None,
                 format!(
-                    "{what} ({option}): the table {} a 'site' column and the consumption table {}; both need the same rows, by product and site or by product alone",
-                    if header.site.is_some() { "has" } else { "has no" },
-                    if main.site.is_some() { "has" } else { "has none" },
+                    "{what} ({option}): {}; both need the same rows, by product and site or by product alone",
+                    if header.site.is_some() {
+                        "the table has a 'site' column and the consumption table has none"
+                    } else {
+                        "the table has no 'site' column and the consumption table has one"
+                    },
                 ),
             ));
         }
