@@ -534,7 +534,7 @@ impl Side {
             let key = key_of(&row, &header);
             if let Some(&first) = by_key.get(&key) {
                 twice.push(format!(
-                    "'{}' on lines {} and {}",
+                    "'{}' on {unit}s {} and {}",
                     key.0,
                     grid.line(first),
                     grid.line(i)
@@ -609,7 +609,8 @@ impl Side {
                 } else {
                     format!(", site '{s}'")
                 };
-                format!("'{p}'{site} (line {})", self.grid.line(i))
+                let unit = if self.grid.in_sheet { "row" } else { "line" };
+                format!("'{p}'{site} ({unit} {})", self.grid.line(i))
             })
             .collect();
         warnings.push(format!(
@@ -767,7 +768,12 @@ impl<'o> WideReader<'o> {
                     } else {
                         format!(", site '{}'", key.1)
                     };
-                    self.unmatched[k].push(format!("'{}'{site} (line {line})", key.0));
+                    let unit = if self.table.sheet.is_some() {
+                        "row"
+                    } else {
+                        "line"
+                    };
+                    self.unmatched[k].push(format!("'{}'{site} ({unit} {line})", key.0));
                 }
                 None => {}
             }
