@@ -384,7 +384,7 @@ fn a_bad_value_is_rejected_by_line_and_column_in_csv_and_workbook() {
     assert!(o.status.success(), "{out}");
     assert!(
         out.contains(
-            "rejected: t.xlsx: sheet 'Data', row 3, column D (2024-02-01): \"n/a\" is not a number"
+            "rejected: t.xlsx: sheet 'Data', row 3, column D (2024-02): \"n/a\" is not a number"
         ),
         "{out}"
     );
@@ -657,4 +657,84 @@ fn review_reads_wide_actuals_as_it_reads_long_ones() {
     for f in ["review.csv", "review_months.csv"] {
         same_file(&w, "r-long", "r-wide", f);
     }
+}
+
+/// Tables given beside the consumption table that cannot be matched with
+/// it are refused, naming the file and what would be valid.
+#[test]
+fn tables_that_cannot_be_matched_are_refused() {
+    let w = Workdir::new();
+    w.write("c.csv", "product,site,Jan 2025,Feb 2025\nORS,North,4,5\n");
+    w.write("r.csv", "product,Jan 2025,Feb 2025\nORS,90%,95%\n");
+    w.write("empty.csv", "");
+    let cases: [(&[&str], &str); 4] = [
+        (
+            &["--rate-file", "r.csv"],
+            "r.csv: line 1: reporting rates (--rate-file / --rate-sheet): the table has no 'site' column and the consumption table has one",
+        ),
+        (
+            &["--rate-file", "empty.csv"],
+            "empty.csv: reporting rates (--rate-file / --rate-sheet): no header row with a 'product' column and month columns",
+        ),
+        (
+            &["--stockout-sheet", "Stockouts"],
+            "c.csv: stockout days: the sheet 'Stockouts' is named, and the input is a CSV file, not a workbook; give the file that holds the table with --stockout-file",
+        ),
+        (
+            &["--rate-file", "r.csv", "--rate-sheet", "Rates"],
+            "r.csv: a sheet ('Rates') is named for this file, and it is read as a CSV file",
+        ),
+    ];
+    for (extra, message) in cases {
+        let mut args = vec!["inspect", "c.csv"];
+        args.extend(extra);
+        let o = w.run(&args);
+        assert_eq!(o.status.code(), Some(1), "{extra:?}: {}", text(&o));
+        assert!(text(&o).contains(message), "{extra:?}: {}", text(&o));
+    }
+}
+
+/// A wide table in an OpenDocument spreadsheet made by odfpy 1.4.1
+/// (tests/reference/workbook_wide_odfpy.py): months as date cells, a title
+/// row, stockout days on another sheet whose months are text.
+#[test]
+fn a_wide_ods_made_by_odfpy_is_read_with_its_stockout_sheet() {
+    let w = Workdir::new();
+    let book = repo("tests/data/sheets/wide_odfpy.ods");
+    std::fs::copy(&book, w.path("wide.ods")).unwrap();
+    let o = w.run(&[
+        "clean",
+        "wide.ods",
+        "--sheet",
+        "Consumption",
+        "--stockout-sheet",
+        "Stockout days",
+        "--out",
+        "o",
+    ]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    // Source: the script's docstring. 11 consumption cells and the stockout
+    // 0 of ORS North in March (its consumption cell empty): 12 values; the
+    // "n/a" is refused; ORS North April (stockout-scaled) and March (no
+    // quantity, filled) are adjusted.
+    assert_eq!(accounting(&out), [12, 9, 2, 1], "{out}");
+    assert!(out.contains("rejected: wide.ods: sheet 'Consumption', row 5, column F (2024-04): \"n/a\" is not a number"), "{out}");
+    assert!(
+        out.contains("sheet 'Consumption': row(s) 1 above the header row 3 were not read"),
+        "{out}"
+    );
+    assert!(out.contains("have no row in wide.ods, sheet 'Stockout days' (stockout days), and are read with no stockout days: 'Zinc', site 'North' (row 6)"), "{out}");
+    // 10 of April's 30 days out of stock: 320 × 30 / 20 = 480 (the
+    // stockout rule the README states; common practice).
+    let adj = w.read_csv_maps("o/adjustments.csv");
+    let april = adj
+        .iter()
+        .find(|a| a["site"] == "North" && a["month"] == "2024-04")
+        .expect("April adjusted");
+    assert_eq!(
+        (april["before"].as_str(), april["after"].as_str()),
+        ("320", "480")
+    );
+    assert_eq!(april["rule"], "stockout-scaled");
 }

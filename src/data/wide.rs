@@ -125,10 +125,16 @@ pub(crate) fn classify(
             _ => None,
         };
         if let Some(month) = month {
+            // A date cell is named by its month (its display format is not
+            // known): `2024-03`, not `2024-03-01`.
+            let header = match cell {
+                Cell::Date(..) => month.to_string(),
+                _ => shown,
+            };
             months.push(MonthColumn {
                 col: i,
                 month,
-                header: shown,
+                header,
             });
             continue;
         }
@@ -509,9 +515,12 @@ impl Side {
                 grid.line(at),
                 None,
                 format!(
-                    "{what} ({option}): the table {} a 'site' column and the consumption table {}; both need the same rows, by product and site or by product alone",
-                    if header.site.is_some() { "has" } else { "has no" },
-                    if main.site.is_some() { "has" } else { "has none" },
+                    "{what} ({option}): {}; both need the same rows, by product and site or by product alone",
+                    if header.site.is_some() {
+                        "the table has a 'site' column and the consumption table has none"
+                    } else {
+                        "the table has no 'site' column and the consumption table has one"
+                    },
                 ),
             ));
         }
@@ -525,7 +534,7 @@ impl Side {
             let key = key_of(&row, &header);
             if let Some(&first) = by_key.get(&key) {
                 twice.push(format!(
-                    "'{}' on lines {} and {}",
+                    "'{}' on {unit}s {} and {}",
                     key.0,
                     grid.line(first),
                     grid.line(i)
@@ -600,7 +609,8 @@ impl Side {
                 } else {
                     format!(", site '{s}'")
                 };
-                format!("'{p}'{site} (line {})", self.grid.line(i))
+                let unit = if self.grid.in_sheet { "row" } else { "line" };
+                format!("'{p}'{site} ({unit} {})", self.grid.line(i))
             })
             .collect();
         warnings.push(format!(
@@ -758,7 +768,12 @@ impl<'o> WideReader<'o> {
                     } else {
                         format!(", site '{}'", key.1)
                     };
-                    self.unmatched[k].push(format!("'{}'{site} (line {line})", key.0));
+                    let unit = if self.table.sheet.is_some() {
+                        "row"
+                    } else {
+                        "line"
+                    };
+                    self.unmatched[k].push(format!("'{}'{site} ({unit} {line})", key.0));
                 }
                 None => {}
             }
