@@ -3,8 +3,9 @@
 //! warm-started across origins as in the pipeline) and its fit on the
 //! whole history (the projection's refit), timed on one thread.
 //!
-//! Run: `cargo run --release --example time_per_model -- FILE.csv`
-//! (a `provisio generate` file or any consumption file the CLI reads).
+//! Run: `cargo run --release --example time_per_model -- FILE.csv [MODEL,...]`
+//! (a `provisio generate` file or any consumption file the CLI reads; the
+//! optional list keeps only the models named).
 
 use std::time::Instant;
 
@@ -42,14 +43,24 @@ fn main() {
             std::process::exit(1);
         }
     };
-    let models = candidates();
+    let only: Option<Vec<String>> = std::env::args()
+        .nth(2)
+        .map(|l| l.split(',').map(str::to_string).collect());
+    let keep = |name: &str| only.as_ref().map_or(true, |o| o.iter().any(|m| m == name));
+    let models: Vec<_> = candidates()
+        .into_iter()
+        .filter(|m| keep(&m.name()))
+        .collect();
     let mut backtest_s = vec![0.0; models.len()];
     let mut refit_s = vec![0.0; models.len()];
     for s in &cleaned.series {
         let y = &s.values;
         let mask = vec![true; y.len()];
         for (i, m) in models.iter().enumerate() {
-            let one = vec![candidates().swap_remove(i)];
+            let Some(spec) = candidates().into_iter().find(|c| c.name() == m.name()) else {
+                continue;
+            };
+            let one = vec![spec];
             let t = Instant::now();
             let bt = backtest::run(y, &mask, &one, &bs);
             backtest_s[i] += t.elapsed().as_secs_f64();
