@@ -1549,6 +1549,9 @@ fn fallback(
     Ok(finish(y, o, par, start, ssq, slf, scale, work))
 }
 
+/// The fitted model at `par`. `work` must hold the exact pass at `par`
+/// (residuals and state): every caller has just run it, so it is not
+/// repeated here.
 #[allow(clippy::too_many_arguments)]
 fn finish(
     y: &[f64],
@@ -1560,8 +1563,6 @@ fn finish(
     scale: f64,
     work: &mut Work,
 ) -> FittedArima {
-    // Refresh the state at the optimum.
-    let _ = exact_pass(&o, &par, work);
     let nw = work.w.len();
     let r = o.pf().max(o.qf() + 1);
     let state: Vec<f64> = work.a[..r].iter().map(|v| v * scale).collect();
