@@ -102,22 +102,25 @@
 //! # Warm start across backtest origins
 //!
 //! [`Model::fit_warm`] keeps the previous origin's orders (d, D, p, q, P,
-//! Q, constant) and its CSS and ML coefficients. At the next origin d and
-//! D are tested afresh on the data up to that origin only.
+//! Q, constant) and its CSS and ML coefficients.
 //!
-//! * [`AutoArima::new`] (the candidate): if d and D are unchanged, the
-//!   previous order is kept and only its coefficients are re-estimated, by
-//!   CSS started from the previous CSS optimum and kept to roots of modulus
-//!   ≥ 1.01; one exact Kalman pass at those coefficients then gives the
-//!   likelihood and the state the forecasts start from. The stepwise
-//!   search and the ML fit run only at a cold fit (the first origin, the
-//!   final refit on the whole history) or when d or D change or the kept
-//!   order cannot be refitted. So backtest forecasts at later origins use
-//!   CSS coefficients while the final projection uses ML ones; the cost in
+//! * [`AutoArima::new`] (the candidate): d and D are tested at the first
+//!   origin of the backtest, on the data up to it, and kept at the later
+//!   ones (the seasonal-strength test runs an STL decomposition, as costly
+//!   as a refit). At the first origin the stepwise search runs and the
+//!   best order by CSS AICc is used with its CSS coefficients (no ML fit).
+//!   At a later origin the previous order is kept and only its
+//!   coefficients are re-estimated, by CSS started from the previous CSS
+//!   optimum and kept to roots of modulus ≥ 1.01. At every origin one
+//!   exact Kalman pass at those coefficients gives the likelihood and the
+//!   state the forecasts start from. The stepwise search runs again only
+//!   when the kept order cannot be refitted. So backtest forecasts use CSS
+//!   coefficients, while the fit on the whole history ([`Model::fit`], the
+//!   projection) tests d and D, searches, and fits by ML; the cost in
 //!   accuracy is measured by `examples/arima_origins.rs` (README,
-//!   "Automatic ARIMA").
-//! * [`AutoArima::searching_every_origin`]: the stepwise search runs at
-//!   every origin, starting from the previous order (fitted from its
+//!   "Automatic ARIMA") and on M1 and tourism monthly (README, "Speed").
+//! * [`AutoArima::searching_every_origin`]: d and D are tested and the
+//!   stepwise search runs at every origin, starting from the previous order (fitted from its
 //!   previous CSS coefficients) instead of the four starting models, and
 //!   the ML fit of the chosen order starts from the previous ML optimum
 //!   when the order is the same.
@@ -215,8 +218,8 @@ pub struct AutoArima {
 }
 
 impl AutoArima {
-    /// The candidate: at a warm-started origin the previous order is kept
-    /// while d and D are unchanged (module docs, "Warm start").
+    /// The candidate: at a warm-started origin the previous differences and
+    /// order are kept (module docs, "Warm start").
     pub const fn new() -> Self {
         AutoArima { search_warm: false }
     }
@@ -232,6 +235,8 @@ impl AutoArima {
 #[derive(Debug, Clone)]
 struct ArimaWarm {
     order: Order,
+    /// Whether d and D of `order` came from the tests (not a constant series).
+    tested: bool,
     css: Vec<f64>,
     ml: Vec<f64>,
 }
@@ -258,7 +263,8 @@ impl Model for AutoArima {
     }
 
     fn fit(&self, y: &[f64]) -> Result<FittedArima> {
-        self.fit_warm(y, &mut None)
+        self.needs().check(NAME, y)?;
+        auto_arima(y, None, self.search_warm, true)
     }
 
     fn fit_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<FittedArima> {
@@ -267,9 +273,10 @@ impl Model for AutoArima {
             .as_ref()
             .and_then(|w| w.downcast_ref::<ArimaWarm>())
             .cloned();
-        let fit = auto_arima(y, previous.as_ref(), self.search_warm)?;
+        let fit = auto_arima(y, previous.as_ref(), self.search_warm, false)?;
         *warm = Some(Box::new(ArimaWarm {
             order: fit.order,
+            tested: fit.loglik.is_finite(),
             css: fit.css.clone(),
             ml: fit.coef.clone(),
         }));
@@ -1368,15 +1375,29 @@ fn adapt(from: &CssFit, to: &Order, w: &[f64]) -> Vec<f64> {
     s
 }
 
-/// The full procedure of the module docs.
-fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>, search_warm: bool) -> Result<FittedArima> {
+/// The full procedure of the module docs: `whole` for the fit on the
+/// whole history, otherwise an origin of the backtest.
+fn auto_arima(
+    y: &[f64],
+    previous: Option<&ArimaWarm>,
+    search_warm: bool,
+    whole: bool,
+) -> Result<FittedArima> {
     let n = y.len();
     if is_constant(y) {
         return constant_fit(y, 0, 0, true);
     }
-    let sd = nsdiffs(y);
+    // In the backtest (the candidate) d and D are tested at the first
+    // origin and kept at the later ones.
+    let (d, sd) = match previous.filter(|p| !search_warm && p.tested) {
+        Some(p) => (p.order.d, p.order.sd),
+        None => {
+            let sd = nsdiffs(y);
+            let dx = differenced(y, 0, sd);
+            (ndiffs(&dx), sd)
+        }
+    };
     let dx = differenced(y, 0, sd);
-    let d = ndiffs(&dx);
     let w = differenced(&dx, d, 0);
     if w.len() < 3 {
         return constant_fit(y, d, sd, d + sd <= 1);
@@ -1425,6 +1446,25 @@ fn auto_arima(y: &[f64], previous: Option<&ArimaWarm>, search_warm: bool) -> Res
     // ML in order of CSS AICc until one passes the root check.
     let mut ranked: Vec<&CssFit> = search.iter().filter(|f| f.ic.is_finite()).collect();
     ranked.sort_by(|a, b| a.ic.total_cmp(&b.ic));
+    if !whole && !search_warm {
+        // First origin of the backtest: the CSS coefficients of the best
+        // order, as at the later origins.
+        if let Some(best) = ranked.first() {
+            if let Some(k) = exact_pass(&best.order, &best.par, &mut work) {
+                let (o, par) = (best.order, best.par.clone());
+                return Ok(finish(
+                    y,
+                    o,
+                    par.clone(),
+                    par,
+                    k.ssq,
+                    k.sum_log_f,
+                    scale,
+                    &mut work,
+                ));
+            }
+        }
+    }
     if let Some(fit) = fit_ranked(y, &ranked, previous, scale, &mut work) {
         return Ok(fit);
     }
@@ -1509,6 +1549,9 @@ fn fallback(
     Ok(finish(y, o, par, start, ssq, slf, scale, work))
 }
 
+/// The fitted model at `par`. `work` must hold the exact pass at `par`
+/// (residuals and state): every caller has just run it, so it is not
+/// repeated here.
 #[allow(clippy::too_many_arguments)]
 fn finish(
     y: &[f64],
@@ -1520,8 +1563,6 @@ fn finish(
     scale: f64,
     work: &mut Work,
 ) -> FittedArima {
-    // Refresh the state at the optimum.
-    let _ = exact_pass(&o, &par, work);
     let nw = work.w.len();
     let r = o.pf().max(o.qf() + 1);
     let state: Vec<f64> = work.a[..r].iter().map(|v| v * scale).collect();
