@@ -359,6 +359,8 @@ r.planLastRight=last.getBoundingClientRect().right;r.planWrapRight=wrap.getBound
 r.planWrapScroll=wrap.scrollWidth;r.planWrapClient=wrap.clientWidth;r.planWrapOverflow=w.getComputedStyle(wrap).overflowX;}}
 r.pageScroll=d.documentElement.scrollWidth;
 var svg=d.querySelector('section.product figure.chart svg');r.chartWidth=svg?svg.getBoundingClientRect().width:-1;
+var drawn=Array.prototype.filter.call(d.querySelectorAll('figure.chart>svg'),function(e){{return !e.closest('section.product');}})[0];
+if(drawn){{var fig=drawn.parentNode;r.drawnWidth=drawn.getBoundingClientRect().width;r.drawnFigScroll=fig.scrollWidth;r.drawnFigClient=fig.clientWidth;r.drawnFigOverflow=w.getComputedStyle(fig).overflowX;}}
 var nav=d.querySelector('nav.jump');
 Array.prototype.forEach.call(nav.querySelectorAll('a[href^="#"]'),function(a){{
 var id=a.getAttribute('href').slice(1),target=d.getElementById(id);
@@ -464,6 +466,11 @@ fn report_layout_at_laptop_and_phone_widths() {
             .expect("a menu link to the plan");
         assert!(plan["scrolled"].as_f64().unwrap() > 500.0, "{plan}");
         if width == 1366 {
+            // On a laptop a drawn chart fits its frame.
+            assert!(
+                f("drawnFigScroll") <= f("drawnFigClient") + 1.0,
+                "1366 px: a drawn chart overflows its frame: {r}"
+            );
             assert!(
                 f("planLastRight") <= f("planWrapRight") + 0.5,
                 "1366 px: the plan table's last column is cut off (its right edge at {}, the table's box ends at {}): {r}",
@@ -483,6 +490,16 @@ fn report_layout_at_laptop_and_phone_widths() {
                 f("chartWidth") >= 0.9 * width as f64,
                 "390 px: a product chart is {} px wide, under 90% of the screen: {r}",
                 f("chartWidth")
+            );
+            // Charts drawn 1200 wide (the stock chart, the overview) keep a
+            // readable size and scroll inside their frame, not shrink to a
+            // third of the screen.
+            assert!(
+                f("drawnWidth") >= 800.0
+                    && r["drawnFigOverflow"] == "auto"
+                    && f("drawnFigScroll") > f("drawnFigClient"),
+                "390 px: a drawn chart is shrunk to {} px: {r}",
+                f("drawnWidth")
             );
         }
     }

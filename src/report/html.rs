@@ -121,6 +121,9 @@ header.top{padding:16px 10px 14px}
 main{padding:0 6px 32px}
 section.product{padding:4px 8px 14px;border-left-width:4px}
 section.product figure.chart{margin-left:-8px;margin-right:-8px}
+figure.chart{overflow-x:auto}
+figure.chart>svg{min-width:840px}
+section.product figure.chart svg{min-width:0}
 .key{min-width:0;flex:1 1 140px}
 form.find input[type=search]{min-width:0;width:100%}
 .attention{grid-template-columns:1fr}
