@@ -575,13 +575,21 @@ pub fn calibrate_run(results: &mut [ProductForecast]) {
         ) else {
             continue;
         };
-        p.forecast = own.clone();
-        r.ranges = calibrate_pooled(
-            &mut p.forecast,
-            own_factors(&r.ranges),
-            pool.factors(&entry.class),
-        );
+        recalibrate(&pool, &entry, own, &mut p.forecast, &mut r.ranges);
     }
+}
+
+/// Sets `target` to the model's own ranges `own` calibrated with the
+/// product's own factors (from `ranges`) pooled with `pool`'s.
+fn recalibrate(
+    pool: &Pool,
+    entry: &PoolEntry,
+    own: &Forecast,
+    target: &mut Forecast,
+    ranges: &mut RangeMethod,
+) {
+    target.clone_from(own);
+    *ranges = calibrate_pooled(target, own_factors(ranges), pool.factors(&entry.class));
 }
 
 /// Backtest WAPE of the chosen model above which its forecast is suspect.
@@ -955,12 +963,7 @@ pub fn holdout_all_with(
         let (Some(entry), Some(own)) = (r.pool_entry.take(), r.model_ranges.as_ref()) else {
             continue;
         };
-        r.selected_ranges = own.clone();
-        r.ranges = calibrate_pooled(
-            &mut r.selected_ranges,
-            own_factors(&r.ranges),
-            pool.factors(&entry.class),
-        );
+        recalibrate(&pool, &entry, own, &mut r.selected_ranges, &mut r.ranges);
     }
     results
 }

@@ -1879,6 +1879,29 @@ mod tests {
         }
     }
 
+    /// The ten open series of tests/reference/ets_seasonal_statsforecast.json.
+    fn reference_series() -> Vec<Vec<f64>> {
+        let path = format!(
+            "{}/tests/reference/ets_seasonal_statsforecast.json",
+            env!("CARGO_MANIFEST_DIR")
+        );
+        let r: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+        r["series"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|s| {
+                s["values"]
+                    .as_array()
+                    .unwrap()
+                    .iter()
+                    .map(|v| v.as_f64().unwrap())
+                    .collect()
+            })
+            .collect()
+    }
+
     #[test]
     fn refitting_only_the_best_few_rarely_changes_the_choice() {
         // Backtest use on the ten open series of
@@ -1888,20 +1911,8 @@ mod tests {
         // forms are re-estimated at a warm origin against re-estimating all
         // nine. Seen (WARM_REFIT = 2): the same form at 119 of 120 origins, the
         // largest AICc given up 3.05.
-        let path = format!(
-            "{}/tests/reference/ets_seasonal_statsforecast.json",
-            env!("CARGO_MANIFEST_DIR")
-        );
-        let r: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
         let (mut same, mut total, mut worst) = (0, 0, 0.0_f64);
-        for s in r["series"].as_array().unwrap() {
-            let all: Vec<f64> = s["values"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_f64().unwrap())
-                .collect();
+        for all in reference_series() {
             let y = &all[all.len() - 60..];
             let (mut few, mut every): (WarmStart, WarmStart) = (None, None);
             for end in 37..=48 {
@@ -1930,20 +1941,8 @@ mod tests {
         // exploration, against refining all nine from two starts (the fit on
         // the whole history). Seen (BACKTEST_REFINED = 3): the same form at
         // 130 of 130 cuts, the largest AICc given up 0.064.
-        let path = format!(
-            "{}/tests/reference/ets_seasonal_statsforecast.json",
-            env!("CARGO_MANIFEST_DIR")
-        );
-        let r: serde_json::Value =
-            serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
         let (mut same, mut total, mut worst) = (0, 0, 0.0_f64);
-        for s in r["series"].as_array().unwrap() {
-            let all: Vec<f64> = s["values"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_f64().unwrap())
-                .collect();
+        for all in reference_series() {
             let y = &all[all.len() - 60..];
             for end in 36..=48 {
                 let few = EtsAuto
