@@ -52,6 +52,25 @@
 //! 83.5 / 95.5 / 12.10, 83.2 / 95.6 / 11.20. Partial pooling is the one
 //! within 80 ± 5 and 95 ± 3 with MSIS better than the models' own on both.
 //!
+//! # Never narrower at 95%
+//!
+//! Where the backtest errors were small against the model's own 95%
+//! half-width, the conformal factor is below one and would narrow the
+//! range. That step leans hardest on the assumption conformal prediction
+//! needs and a time series breaks — that the errors of 12 overlapping
+//! recent origins are exchangeable with the next year's — and a too-narrow
+//! 95% range is the costly failure for a safety stock. So the 95% factor
+//! is at least one (the 80% one may narrow). Measured on the hidden months
+//! (inside 80% / 95%, MSIS; before → after): M1 81.2 / 94.1, 8.44 →
+//! 81.2 / 94.7, 8.37; tourism 83.2 / 95.8, 11.04 → 83.2 / 96.1, 11.25;
+//! the 19 open series 77.2 / 91.7, 3.30 → 77.2 / 95.2, 3.58 (models' own
+//! 86.8 / 95.2, 3.58); 1,000 generated products (`generate --seed 3`)
+//! 79.6 / 94.2, 8.20 → 79.6 / 95.1, 8.15 (own 80.3 / 93.0, 8.26); scored
+//! against true demand, `generate --products 300 --sites 3 --true-demand`
+//! seed 11: 78.7 / 93.6, 4.89 → 78.7 / 94.7, 4.80 (own 4.90); seed 11
+//! with 1% entry errors 5.30 → 5.00 (own 5.09); seed 5 with 1% entry
+//! errors 79.2 / 94.0, 5.65 → 79.2 / 95.3, 5.60 (own 78.2 / 92.8, 5.35).
+//!
 //! With fewer than [`MIN_POINTS`] scored backtest points and no pool, or
 //! when the quantile is not finite (a model whose interval has no width on
 //! the side the errors fell), the model's own interval is kept, and
@@ -253,6 +272,9 @@ pub fn calibrate_pooled(
         (None, Some((p, k))) => (p, 0, k),
         (None, None) => return RangeMethod::Model,
     };
+    // The 95% range is never made narrower than the model's own (module
+    // docs, "Never narrower at 95%").
+    let f = [f[0], f[1].max(1.0)];
     apply(forecast, f[0], f[1]);
     RangeMethod::Calibrated {
         factor80: f[0],
@@ -484,5 +506,18 @@ mod tests {
         let mut fc = fresh();
         assert_eq!(calibrate_pooled(&mut fc, None, None), RangeMethod::Model);
         assert_eq!(fc, fresh());
+        // Factors below one: the 80% range narrows (×0.6), the 95% range
+        // keeps the model's own width (module docs, "Never narrower at 95%").
+        let mut fc = fresh();
+        let m = calibrate_pooled(&mut fc, Some(([0.5, 0.4], 144)), Some(([0.7, 0.6], 30)));
+        let RangeMethod::Calibrated {
+            factor80, factor95, ..
+        } = m
+        else {
+            panic!("{m:?}");
+        };
+        assert!((factor80 - 0.6).abs() < 1e-12 && factor95 == 1.0, "{m:?}");
+        assert!((fc.interval(0.80).unwrap().upper[0] - 106.0).abs() < 1e-9);
+        assert_eq!(fc.interval(0.95), fresh().interval(0.95));
     }
 }

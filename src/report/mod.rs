@@ -962,7 +962,7 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Ranges",
         escape(
-            "80% and 95%, calibrated on the backtest errors: each product's factor is the mean of its own and the one pooled over the run's products of its demand class (selection.csv, column ranges)",
+            "80% and 95%, calibrated on the backtest errors: each product's factor is the mean of its own and the one pooled over the run's products of its demand class; the 95% range is never narrower than the model's own (selection.csv, column ranges)",
         ),
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
