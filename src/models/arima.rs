@@ -724,17 +724,39 @@ fn css_resid(
     expand_into(o, par, phi, theta);
     let c = if o.constant { par[o.ncoef() - 1] } else { 0.0 };
     let n = w.len();
+    // The expanded seasonal polynomials are mostly zeros: keep the nonzero
+    // lags (in increasing order, so each sum adds the same terms in the
+    // same order as a loop over every lag skipping zeros).
+    // (p ≤ 5 and P ≤ 2, so at most 5 + 24 lags: module docs.)
+    const LAGS: usize = 5 + 2 * M;
+    if pf > LAGS || qf > LAGS {
+        return None;
+    }
+    let mut ar = [(0usize, 0.0f64); LAGS];
+    let mut ma = [(0usize, 0.0f64); LAGS];
+    let (mut na, mut nm) = (0, 0);
+    for (j, &f) in phi.iter().enumerate() {
+        if f != 0.0 {
+            ar[na] = (j + 1, f);
+            na += 1;
+        }
+    }
+    for (j, &th) in theta.iter().enumerate() {
+        if th != 0.0 {
+            ma[nm] = (j + 1, th);
+            nm += 1;
+        }
+    }
+    let (ar, ma) = (&ar[..na], &ma[..nm]);
     for t in pf..n {
         let mut e = w[t] - c;
-        for (j, &f) in phi.iter().enumerate() {
-            if f != 0.0 {
-                e -= f * (w[t - j - 1] - c);
-            }
+        for &(lag, f) in ar {
+            e -= f * (w[t - lag] - c);
         }
         let k = t - pf;
-        for (j, &th) in theta.iter().enumerate() {
-            if th != 0.0 && k > j {
-                e -= th * out[k - j - 1];
+        for &(lag, th) in ma {
+            if k >= lag {
+                e -= th * out[k - lag];
             }
         }
         out[k] = e;
