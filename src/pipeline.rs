@@ -13,7 +13,7 @@ use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod
 use crate::clean::CleanSeries;
 use crate::error::Result;
 use crate::models::Forecast;
-use crate::models::{candidates, AnyModel};
+use crate::models::{candidates, with_season, AnyModel, Season};
 use crate::project::{check_horizon, project, silence_warning, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
 
@@ -265,24 +265,30 @@ pub fn forecast_product_with(
     let class = demand_class(y);
     let mut warnings = Vec::new();
     let mut notes = String::new();
-    let keep = |pick: &dyn Fn(&dyn AnyModel) -> bool| -> Vec<Box<dyn AnyModel>> {
-        candidates()
-            .into_iter()
-            .filter(|m| pick(m.as_ref()))
-            .filter(|m| models.iter().any(|x| x.name() == m.name()))
-            .collect()
-    };
     let subset: Vec<Box<dyn AnyModel>>;
     let forced_seasonal = opts.seasonal == Some(true) && y.len() >= SEASONAL_MIN_MONTHS;
+    // The automatic models that test for seasonality themselves compete
+    // under the product's rule instead of being left out, so the default
+    // combination stays available.
+    let restricted = |season: Season, fixed_kind: bool| -> Vec<Box<dyn AnyModel>> {
+        candidates()
+            .into_iter()
+            .filter(|m| models.iter().any(|x| x.name() == m.name()))
+            .filter_map(|m| match with_season(&m.name(), season) {
+                Some(r) => Some(r),
+                None => (is_seasonal_model(m.as_ref()) == fixed_kind).then_some(m),
+            })
+            .collect()
+    };
     let models: &[Box<dyn AnyModel>] = match opts.seasonal {
         Some(false) => {
-            subset = keep(&|m| !is_seasonal_model(m));
-            notes.push_str("; seasonal = false for this product, so no seasonal model competed");
+            subset = restricted(Season::Never, false);
+            notes.push_str("; seasonal = false for this product, so no seasonal model competed (ets-auto, arima-auto and theta in their non-seasonal forms)");
             &subset
         }
         Some(true) if forced_seasonal => {
-            subset = keep(&|m| is_seasonal_model(m));
-            notes.push_str("; seasonal = true for this product, so only seasonal models competed");
+            subset = restricted(Season::Always, true);
+            notes.push_str("; seasonal = true for this product, so only seasonal models competed (ets-auto, arima-auto and theta in their seasonal forms)");
             &subset
         }
         Some(true) => {
@@ -429,9 +435,12 @@ pub fn forecast_product_with(
         end,
         settings.silence,
     ));
+    // The product's own (possibly season-restricted) models first; a
+    // pinned model may be one that did not compete.
     let find = |name: &str| {
-        offered
+        models
             .iter()
+            .chain(offered.iter())
             .find(|m| m.name() == name)
             .map(|m| m.as_ref())
     };
@@ -1097,12 +1106,49 @@ mod tests {
             },
         );
         assert!(!competed(&off).is_empty());
+        // The automatic models that test for seasonality compete in their
+        // non-seasonal forms (so the default combination stays); no other
+        // seasonal model competes.
+        let restricted = ["ets-auto", "arima-auto", "theta"];
         assert!(
-            competed(&off).iter().all(|m| !seasonal.contains(m)),
+            competed(&off)
+                .iter()
+                .all(|m| !seasonal.contains(m) || restricted.contains(&m.as_str())),
             "{:?}",
             competed(&off)
         );
-        assert!(!seasonal.contains(&off.selection.chosen));
+        assert!(competed(&off).iter().any(|m| m == "arima-auto"));
+        assert!(off.scores.iter().any(|s| s.model == COMBINATION));
+        // The series swings ±40 with the months; the combination of the
+        // non-seasonal forms of ets-auto, theta and arima-auto swings less
+        // (only arima-auto's AR terms can follow a cycle).
+        let swing = |p: &[f64]| {
+            p.iter().cloned().fold(f64::MIN, f64::max) - p.iter().cloned().fold(f64::MAX, f64::min)
+        };
+        let pinned = |seasonal| {
+            run(
+                &s,
+                &ProductOptions {
+                    seasonal,
+                    model: Some(COMBINATION.to_string()),
+                    ..ProductOptions::default()
+                },
+            )
+            .projection
+            .unwrap()
+            .forecast
+            .point[..12]
+                .to_vec()
+        };
+        let (never, tested, always) = (pinned(Some(false)), pinned(None), pinned(Some(true)));
+        assert!(swing(&tested) > 60.0, "{}", swing(&tested));
+        assert!(swing(&always) > 60.0, "{}", swing(&always));
+        assert!(
+            swing(&never) < 0.5 * swing(&tested),
+            "{} {}",
+            swing(&never),
+            swing(&tested)
+        );
         assert!(
             off.selection.reason.contains("seasonal = false"),
             "{}",
@@ -1116,7 +1162,9 @@ mod tests {
             },
         );
         assert!(
-            competed(&on).iter().all(|m| seasonal.contains(m)),
+            competed(&on)
+                .iter()
+                .all(|m| seasonal.contains(m) || m == "ets-auto"),
             "{:?}",
             competed(&on)
         );

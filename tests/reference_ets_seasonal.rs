@@ -104,7 +104,7 @@ fn chosen_form_and_forecasts_match_statsforecast() {
         let name = s["name"].as_str().unwrap();
         let y = floats(&s["values"]);
         let a = &s["auto"];
-        let fit = EtsAuto.fit(&y).unwrap();
+        let fit = EtsAuto::new().fit(&y).unwrap();
         let theirs = a["method"].as_str().unwrap();
         let their_aicc = a["aicc"].as_f64().unwrap();
         let f = fit.forecast(24, &[0.8, 0.95]).unwrap();

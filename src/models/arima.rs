@@ -148,7 +148,7 @@
 //! Like statsforecast's stepwise search, the total order p+q+P+Q is not
 //! capped (`max_order` applies only to its exhaustive search).
 
-use super::{Fitted, Forecast, Model, Needs, WarmStart, PERIOD};
+use super::{Fitted, Forecast, Model, Needs, Season, WarmStart, PERIOD};
 use crate::error::{Error, Result};
 
 const NAME: &str = "arima-auto";
@@ -215,19 +215,37 @@ impl Order {
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct AutoArima {
     search_warm: bool,
+    season: Season,
 }
 
 impl AutoArima {
     /// The candidate: at a warm-started origin the previous differences and
     /// order are kept (module docs, "Warm start").
     pub const fn new() -> Self {
-        AutoArima { search_warm: false }
+        AutoArima {
+            search_warm: false,
+            season: Season::Tested,
+        }
     }
 
     /// The same model, but repeating the stepwise search at every origin
     /// (from the previous order); slower, for comparing accuracy.
     pub const fn searching_every_origin() -> Self {
-        AutoArima { search_warm: true }
+        AutoArima {
+            search_warm: true,
+            season: Season::Tested,
+        }
+    }
+
+    /// The candidate with its seasonal part set rather than tested:
+    /// [`Season::Never`] has no seasonal difference and no seasonal AR or MA
+    /// terms; [`Season::Always`] takes one seasonal difference (D = 1), the
+    /// usual way to impose a seasonal pattern on an ARIMA model.
+    pub const fn with_season(season: Season) -> Self {
+        AutoArima {
+            search_warm: false,
+            season,
+        }
     }
 }
 
@@ -264,7 +282,7 @@ impl Model for AutoArima {
 
     fn fit(&self, y: &[f64]) -> Result<FittedArima> {
         self.needs().check(NAME, y)?;
-        auto_arima(y, None, self.search_warm, true)
+        auto_arima(y, None, self.search_warm, true, self.season)
     }
 
     fn fit_warm(&self, y: &[f64], warm: &mut WarmStart) -> Result<FittedArima> {
@@ -273,7 +291,7 @@ impl Model for AutoArima {
             .as_ref()
             .and_then(|w| w.downcast_ref::<ArimaWarm>())
             .cloned();
-        let fit = auto_arima(y, previous.as_ref(), self.search_warm, false)?;
+        let fit = auto_arima(y, previous.as_ref(), self.search_warm, false, self.season)?;
         *warm = Some(Box::new(ArimaWarm {
             order: fit.order,
             tested: fit.loglik.is_finite(),
@@ -1404,6 +1422,7 @@ fn auto_arima(
     previous: Option<&ArimaWarm>,
     search_warm: bool,
     whole: bool,
+    season: Season,
 ) -> Result<FittedArima> {
     let n = y.len();
     if is_constant(y) {
@@ -1414,7 +1433,12 @@ fn auto_arima(
     let (d, sd) = match previous.filter(|p| !search_warm && p.tested) {
         Some(p) => (p.order.d, p.order.sd),
         None => {
-            let sd = nsdiffs(y);
+            let sd = match season {
+                Season::Tested => nsdiffs(y),
+                Season::Never => 0,
+                // Enough months to difference and still fit (needs: 24).
+                Season::Always => usize::from(y.len() > 2 * M),
+            };
             let dx = differenced(y, 0, sd);
             (ndiffs(&dx), sd)
         }
@@ -1429,7 +1453,11 @@ fn auto_arima(
     }
     let max_p = 5usize.min(n / 3).min(M - 1);
     let max_q = max_p;
-    let max_sp = 2usize.min(n / 3 / M);
+    let max_sp = if season == Season::Never {
+        0
+    } else {
+        2usize.min(n / 3 / M)
+    };
     let max_sq = max_sp;
     let allow_c = d + sd <= 1;
     let Some((scale, ws)) = scaled(&w) else {

@@ -167,7 +167,7 @@
 //! 0.016763, and γ's to one minus it.
 
 use super::ets::{Ets, FittedEts, Trend};
-use super::{z_for_level, Fitted, Forecast, Model, Needs, WarmStart, PERIOD};
+use super::{z_for_level, Fitted, Forecast, Model, Needs, Season, WarmStart, PERIOD};
 use crate::error::{Error, Result};
 use rand::SeedableRng;
 use rand_distr::{Distribution, StandardNormal};
@@ -343,12 +343,23 @@ struct AutoWarm {
 
 /// `ets-auto`: the automatic choice over the ETS family (module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub struct EtsAuto;
+pub struct EtsAuto {
+    season: Season,
+}
 
 impl EtsAuto {
-    /// The spec.
+    /// The spec: every form competes.
     pub fn new() -> Self {
-        EtsAuto
+        EtsAuto {
+            season: Season::Tested,
+        }
+    }
+
+    /// Only the non-seasonal forms ([`Season::Never`]) or only the seasonal
+    /// ones ([`Season::Always`]; the non-seasonal forms stand in when no
+    /// seasonal form can be fitted, e.g. too short a history).
+    pub fn with_season(season: Season) -> Self {
+        EtsAuto { season }
     }
 
     /// Fits re-estimating `refit` seasonal forms at a warm origin and, at
@@ -370,10 +381,21 @@ impl EtsAuto {
                 seasonal: [None; 9],
             },
         };
-        let non = Ets::auto().fit_named(NAME, y, &mut memory.non_seasonal);
-        let seasonal = fit_seasonal(y, &mut memory.seasonal, refit, refine_forms);
+        let seasonal = if self.season == Season::Never {
+            Default::default()
+        } else {
+            fit_seasonal(y, &mut memory.seasonal, refit, refine_forms)
+        };
+        let any_seasonal = seasonal.iter().any(Option::is_some);
+        let non = if self.season == Season::Always && any_seasonal {
+            None
+        } else {
+            Ets::auto()
+                .fit_named(NAME, y, &mut memory.non_seasonal)
+                .ok()
+        };
         *warm = Some(Box::new(memory));
-        let mut best: Option<FittedEtsAuto> = non.ok().map(FittedEtsAuto::NonSeasonal);
+        let mut best: Option<FittedEtsAuto> = non.map(FittedEtsAuto::NonSeasonal);
         for fit in seasonal.into_iter().flatten() {
             let better = match &best {
                 None => true,
@@ -1760,7 +1782,7 @@ fn finish(kind: Kind, q: &[f64; D], scale: f64) -> Start {
 }
 
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
     use crate::models::DEFAULT_LEVELS;
 
@@ -1863,7 +1885,7 @@ mod tests {
 
     #[test]
     fn air_passengers_is_seasonal_and_keeps_the_contract() {
-        let fit = EtsAuto.fit(&AIR).unwrap();
+        let fit = EtsAuto::new().fit(&AIR).unwrap();
         assert!(fit.method().ends_with(",M)"), "{}", fit.method());
         let f = fit.forecast(24, &DEFAULT_LEVELS).unwrap();
         for i in &f.intervals {
@@ -1910,10 +1932,12 @@ mod tests {
             let y = &all[all.len() - 60..];
             let (mut few, mut every): (WarmStart, WarmStart) = (None, None);
             for end in 37..=48 {
-                let a = EtsAuto
+                let a = EtsAuto::new()
                     .fit_refitting(&y[..end], &mut few, WARM_REFIT, 9)
                     .unwrap();
-                let b = EtsAuto.fit_refitting(&y[..end], &mut every, 9, 9).unwrap();
+                let b = EtsAuto::new()
+                    .fit_refitting(&y[..end], &mut every, 9, 9)
+                    .unwrap();
                 total += 1;
                 if a.method() == b.method() {
                     same += 1;
@@ -1939,10 +1963,10 @@ mod tests {
         for all in reference_series() {
             let y = &all[all.len() - 60..];
             for end in 36..=48 {
-                let few = EtsAuto
+                let few = EtsAuto::new()
                     .fit_refitting(&y[..end], &mut None, WARM_REFIT, REFINED_FORMS)
                     .unwrap();
-                let every = EtsAuto
+                let every = EtsAuto::new()
                     .fit_refitting(&y[..end], &mut None, WARM_REFIT, 9)
                     .unwrap();
                 total += 1;
@@ -1962,10 +1986,10 @@ mod tests {
         let mut warm: WarmStart = None;
         let mut again: WarmStart = None;
         for end in 48..=60 {
-            let w = EtsAuto.fit_warm(&AIR[..end], &mut warm).unwrap();
-            let w2 = EtsAuto.fit_warm(&AIR[..end], &mut again).unwrap();
+            let w = EtsAuto::new().fit_warm(&AIR[..end], &mut warm).unwrap();
+            let w2 = EtsAuto::new().fit_warm(&AIR[..end], &mut again).unwrap();
             assert_eq!(w.aicc(), w2.aicc());
-            let c = EtsAuto.fit(&AIR[..end]).unwrap();
+            let c = EtsAuto::new().fit(&AIR[..end]).unwrap();
             // Warm never worse than cold by more than 1 AICc point here.
             assert!(
                 w.aicc() <= c.aicc() + 1.0,

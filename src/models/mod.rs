@@ -231,6 +231,31 @@ impl<M: Model> AnyModel for M {
     }
 }
 
+/// Whether a model may, must or must not describe a seasonal pattern: a
+/// product's `seasonal` setting (unset: the model's own tests decide).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Season {
+    /// The model's own tests decide.
+    #[default]
+    Tested,
+    /// No seasonal pattern (`seasonal = false`).
+    Never,
+    /// A seasonal pattern (`seasonal = true`).
+    Always,
+}
+
+/// The automatic models that choose for themselves whether a series is
+/// seasonal, restricted by `season`; `None` for any other name (their
+/// seasonality is fixed by what they are).
+pub fn with_season(name: &str, season: Season) -> Option<Box<dyn AnyModel>> {
+    match name {
+        "ets-auto" => Some(Box::new(ets_seasonal::EtsAuto::with_season(season))),
+        "arima-auto" => Some(Box::new(arima::AutoArima::with_season(season))),
+        "theta" => Some(Box::new(theta::Theta::with_season(season))),
+        _ => None,
+    }
+}
+
 /// The default candidate set, in the order reports list them.
 pub fn candidates() -> Vec<Box<dyn AnyModel>> {
     // Each model family registers its specs here.
@@ -254,7 +279,7 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
             list.push(Box::new(spec));
         }
     }
-    list.push(Box::new(ets_seasonal::EtsAuto));
+    list.push(Box::new(ets_seasonal::EtsAuto::new()));
     list.push(Box::new(decomposition::MstlEts));
     list.push(Box::new(arima::AutoArima::new()));
     list
@@ -263,6 +288,55 @@ pub fn candidates() -> Vec<Box<dyn AnyModel>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_seasonal_setting_restricts_the_automatic_models() {
+        // AirPassengers (statsforecast 2.1.1, tests/reference/datasets.json):
+        // strongly seasonal, so the unrestricted ets-auto picks a seasonal
+        // form, arima-auto a seasonal difference and theta a seasonal
+        // adjustment (tests/reference_*.rs check those choices against
+        // statsforecast). Never removes the seasonal part from each; Always
+        // keeps it on a trend-only series, where the tests find none.
+        let air = &ets_seasonal::tests::AIR[..72];
+        let ets = |s| ets_seasonal::EtsAuto::with_season(s).fit(air).unwrap();
+        assert!(
+            ets(Season::Tested).method().ends_with(",M)")
+                || ets(Season::Tested).method().ends_with(",A)")
+        );
+        assert!(
+            ets(Season::Never).method().ends_with(",N)"),
+            "{}",
+            ets(Season::Never).method()
+        );
+        let arima = |s| arima::AutoArima::with_season(s).fit(air).unwrap().order();
+        let o = arima(Season::Never);
+        assert_eq!((o.sd, o.sp, o.sq), (0, 0, 0), "{}", o.label());
+        let theta = |s, y: &[f64]| theta::Theta::with_season(s).fit(y).unwrap();
+        assert!(theta(Season::Tested, air).decomposition().is_some());
+        assert!(theta(Season::Never, air).decomposition().is_none());
+        let trend: Vec<f64> = (0..48)
+            .map(|t| 100.0 + 2.0 * t as f64 + ((t * 7) % 5) as f64)
+            .collect();
+        assert!(theta(Season::Tested, &trend).decomposition().is_none());
+        assert!(theta(Season::Always, &trend).decomposition().is_some());
+        assert_eq!(
+            arima::AutoArima::with_season(Season::Always)
+                .fit(&trend)
+                .unwrap()
+                .order()
+                .sd,
+            1
+        );
+        let e = ets_seasonal::EtsAuto::with_season(Season::Always)
+            .fit(&trend)
+            .unwrap();
+        assert!(!e.method().ends_with(",N)"), "{}", e.method());
+        // Only these three have a choice to restrict.
+        assert!(with_season("holt-winters-additive", Season::Never).is_none());
+        for name in ["ets-auto", "arima-auto", "theta"] {
+            assert_eq!(with_season(name, Season::Never).unwrap().name(), name);
+        }
+    }
 
     #[test]
     fn z_values() {

@@ -41,7 +41,7 @@
 //! statsforecast's α and ℓ₀, the forecast formula reproduces its forecasts
 //! (see `tests/reference_baseline.rs`).
 
-use super::{z_for_level, Fitted, Forecast, Model, Needs, PERIOD};
+use super::{z_for_level, Fitted, Forecast, Model, Needs, Season, PERIOD};
 use crate::error::{Error, Result};
 
 /// Search range of the smoothing constant α.
@@ -62,12 +62,25 @@ pub const MIN_MONTHS: usize = 6;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Theta {
     fixed: Option<(f64, f64)>,
+    season: Season,
 }
 
 impl Theta {
     /// Theta with α and ℓ₀ estimated from the data.
     pub fn new() -> Self {
-        Self { fixed: None }
+        Self {
+            fixed: None,
+            season: Season::Tested,
+        }
+    }
+
+    /// Theta whose seasonal adjustment follows `season` rather than the
+    /// tests: never, or always (the indices still estimated from the data).
+    pub fn with_season(season: Season) -> Self {
+        Self {
+            fixed: None,
+            season,
+        }
     }
 
     /// Theta with fixed α and initial level ℓ₀ (of the seasonally adjusted
@@ -88,6 +101,7 @@ impl Theta {
         }
         Ok(Self {
             fixed: Some((alpha, initial_level)),
+            season: Season::Tested,
         })
     }
 }
@@ -190,8 +204,14 @@ fn seasonal_indices(y: &[f64], kind: Decomposition) -> [f64; PERIOD] {
 }
 
 /// Chooses and computes the seasonal adjustment (see the module docs).
-fn choose_season(y: &[f64]) -> Result<Option<(Decomposition, [f64; PERIOD])>> {
+fn choose_season(y: &[f64], rule: Season) -> Result<Option<(Decomposition, [f64; PERIOD])>> {
     let limit = z_for_level(0.90)?;
+    let forced = match rule {
+        Season::Never => return Ok(None),
+        // Indices need two full years.
+        Season::Always => y.len() >= 2 * PERIOD,
+        Season::Tested => false,
+    };
     let by_acf = seasonality_ratio(y).is_some_and(|r| r > limit);
     // The autocorrelation test has little power on short series (with 25–36
     // months a plainly seasonal series often fails it); a strong seasonal
@@ -201,7 +221,7 @@ fn choose_season(y: &[f64]) -> Result<Option<(Decomposition, [f64; PERIOD])>> {
         y.len() > 2 * PERIOD
             && super::arima::seasonal_strength(y).is_some_and(|s| s > super::arima::SEAS_THRESHOLD)
     };
-    if !by_acf && !by_strength() {
+    if !forced && !by_acf && !by_strength() {
         return Ok(None);
     }
     if y.iter().all(|&v| v > 0.0) {
@@ -356,7 +376,7 @@ impl Model for Theta {
             });
         }
 
-        let season = choose_season(y)?;
+        let season = choose_season(y, self.season)?;
         let x: Vec<f64> = match &season {
             None => y.to_vec(),
             Some((kind, idx)) => y
