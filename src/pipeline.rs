@@ -650,7 +650,15 @@ pub fn suspect_warnings(
             let jump = next / last - 1.0;
             let hist = if prev > 0.0 { last / prev - 1.0 } else { 0.0 };
             let backed = jump.signum() == hist.signum() && hist.abs() >= jump.abs() / 2.0;
-            if jump.abs() > WARN_JUMP && !backed {
+            if jump.abs() > WARN_JUMP && !backed && intermittent {
+                // A smoothed rate of occasional demands lags a fall (or a
+                // rise) in how often the product is asked for.
+                out.push(format!(
+                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}% after a change of {:+.0}% year on year; the intermittent-demand rate may lag a real change in how often the product is used: check whether demand has stopped, moved or picked up",
+                    jump * 100.0,
+                    hist * 100.0
+                ));
+            } else if jump.abs() > WARN_JUMP && !backed {
                 out.push(format!(
                     "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}%, more than the history's own trend ({:+.0}% year on year) supports; check for a recent break or an outlier at the end of the history",
                     jump * 100.0,

@@ -1,0 +1,129 @@
+//! End-to-end: each warning on a suspect forecast reaches the terminal and
+//! `selection.csv`'s `warnings` column. The series are AirPassengers (Box &
+//! Jenkins; `datasets/open/monthly.csv`, as statsforecast 2.1.1 ships it)
+//! bent by the test so that each condition holds: a fall to a tenth for the
+//! last two years (the backtest misses by more than the volume), the first
+//! 14 months alone (a short history whose naive ranges cannot be
+//! calibrated), consumption that stops for the last 8 months with `naive`
+//! pinned (a product in use projected at zero, and a jump no trend backs),
+//! and demand in one month of three that fades out (an intermittent-demand
+//! rate lagging the change). The thresholds are the project's own
+//! (src/pipeline.rs, `WARN_*`); "a WAPE above 100%" and "fewer than 24
+//! months" are common practice.
+
+mod common;
+
+use common::{repo, text, Workdir};
+
+fn air() -> Vec<f64> {
+    let (_, rows) = common::read_csv_file(&repo("datasets/open/monthly.csv"));
+    let air: Vec<f64> = rows
+        .iter()
+        .filter(|r| &r[0] == "AirPassengers")
+        .map(|r| r[2].parse().unwrap())
+        .collect();
+    assert_eq!(air.len(), 144);
+    air
+}
+
+/// Rows of `product` ending 1956-12.
+fn rows(product: &str, values: &[f64]) -> String {
+    let n = values.len();
+    let mut s = String::new();
+    for (k, v) in values.iter().enumerate() {
+        let t = 1956 * 12 + 11 + k as i64 - (n as i64 - 1);
+        s.push_str(&format!("{product},{}-{:02},{v}\n", t / 12, t % 12 + 1));
+    }
+    s
+}
+
+fn data(w: &Workdir) {
+    let a = air();
+    let mut s = String::from("product,month,consumed\n");
+    let drop: Vec<f64> = (0..96)
+        .map(|t| if t < 72 { a[t] } else { a[t] * 0.1 })
+        .collect();
+    s.push_str(&rows("Air drop", &drop));
+    s.push_str(&rows("Air short", &a[..14]));
+    let stop: Vec<f64> = (0..60).map(|t| if t < 52 { a[t] } else { 0.0 }).collect();
+    s.push_str(&rows("Air stop", &stop));
+    let sparse: Vec<f64> = (0..60)
+        .map(|t| {
+            if (t % 3 == 0 && t < 48) || t == 50 {
+                a[t]
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    s.push_str(&rows("Air sparse", &sparse));
+    w.write("d.csv", s);
+    w.write(
+        "run.toml",
+        "[products.\"Air short\"]\nmodel = \"naive\"\n[products.\"Air stop\"]\nmodel = \"naive\"\n",
+    );
+}
+
+#[test]
+fn each_suspect_forecast_is_warned_where_the_planner_looks() {
+    let w = Workdir::new();
+    data(&w);
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--config",
+        "run.toml",
+        "--out",
+        "o",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let expected: [(&str, &[&str]); 4] = [
+        (
+            "Air drop",
+            &["missed by", "WAPE above 100%", "check the history for breaks"],
+        ),
+        (
+            "Air short",
+            &[
+                "range held only",
+                "too few backtest errors to widen it",
+                "only 14 months of history (fewer than 24)",
+            ],
+        ),
+        (
+            "Air stop",
+            &[
+                "projected at zero for every month although it consumed in its last 12 months (the pinned model)",
+                "the next 12 months (0) differ from the last 12",
+                "more than the history's own trend",
+            ],
+        ),
+        (
+            "Air sparse",
+            &["the intermittent-demand rate may lag a real change"],
+        ),
+    ];
+    let sel = w.read_csv_maps("o/selection.csv");
+    for (product, phrases) in expected {
+        let column = &sel.iter().find(|r| r["product"] == product).unwrap()["warnings"];
+        for p in phrases {
+            assert!(
+                t.contains(&format!("warning: product '{product}'")) && t.contains(p),
+                "terminal lacks {product}: {p}\n{t}"
+            );
+            assert!(column.contains(p), "{product}: {p} not in {column}");
+        }
+    }
+    // The intermittent product is not told about a trend, and no warning
+    // falls on a product whose condition does not hold.
+    let sparse = &sel.iter().find(|r| r["product"] == "Air sparse").unwrap()["warnings"];
+    assert!(!sparse.contains("own trend"), "{sparse}");
+    let drop = &sel.iter().find(|r| r["product"] == "Air drop").unwrap()["warnings"];
+    assert!(
+        !drop.contains("fewer than 24") && !drop.contains("projected at zero"),
+        "{drop}"
+    );
+}
