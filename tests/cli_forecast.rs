@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{read_csv_file, run_in};
+use common::{read_csv_file, repo, run_in, text, Workdir};
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 
@@ -544,4 +544,94 @@ fn evaluate_truth_scores_against_the_true_demand_column() {
     assert!(!o.status.success());
     let e = String::from_utf8_lossy(&o.stderr);
     assert!(e.contains("true_demand") && e.contains("line 1"), "{e}");
+}
+
+/// `evaluate`'s ranges table, recomputed by another route: the demo
+/// forecast with `--until` twelve months before its end, its ranges scored
+/// against the cleaned months `clean` writes for the whole file (a month
+/// flagged as an outlier at its reported value, as evaluate scores it). The
+/// two routes clean the training months separately (the cut file alone, or
+/// the whole file then cut), so a point may fall differently: the shares
+/// agree within 1.5 points of 144. Nesting (95% ≥ 80%) must hold exactly.
+#[test]
+fn evaluate_reports_range_coverage_that_a_forecast_reproduces() {
+    let w = Workdir::new();
+    let demo = repo("datasets/demo");
+    let data = demo.join("consumption.csv");
+    let config = demo.join("run.toml");
+    let (data, config) = (data.to_str().unwrap(), config.to_str().unwrap());
+    let o = w.run(&[
+        "evaluate",
+        data,
+        "--config",
+        config,
+        "--holdout",
+        "12",
+        "--json",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let ranges = j["ranges"].as_array().unwrap();
+    assert_eq!(ranges.len(), 2);
+    for r in ranges {
+        let (i80, i95) = (
+            r["inside_80_pct"].as_f64().unwrap(),
+            r["inside_95_pct"].as_f64().unwrap(),
+        );
+        assert!(i95 >= i80 && i80 > 0.0 && i95 <= 100.0, "{r}");
+        assert!(r["msis_95"].as_f64().unwrap() > 0.0, "{r}");
+    }
+    let o = w.run(&[
+        "forecast",
+        data,
+        "--config",
+        config,
+        "--until",
+        "2025-10",
+        "--horizon",
+        "12",
+        "--out",
+        "fc",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["clean", data, "--config", config, "--out", "cl"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let cleaned: std::collections::HashMap<(String, String), f64> = w
+        .read_csv_maps("cl/cleaned.csv")
+        .into_iter()
+        .map(|r| {
+            let v = if r["outlier"] == "yes" && !r["reported"].is_empty() {
+                &r["reported"]
+            } else {
+                &r["cleaned"]
+            };
+            (
+                (r["product"].clone(), r["month"].clone()),
+                v.parse().unwrap(),
+            )
+        })
+        .collect();
+    let (mut inside, mut n) = ([0usize; 2], 0usize);
+    for r in w.read_csv_maps("fc/forecast.csv") {
+        let a = cleaned[&(r["product"].clone(), r["month"].clone())];
+        let within = |lo: &str, hi: &str| {
+            r[lo].parse::<f64>().unwrap() <= a && a <= r[hi].parse::<f64>().unwrap()
+        };
+        n += 1;
+        inside[0] += usize::from(within("lower_80", "upper_80"));
+        inside[1] += usize::from(within("lower_95", "upper_95"));
+    }
+    assert_eq!(n, 144, "12 products × 12 hidden months");
+    let calibrated = &ranges[0];
+    assert_eq!(calibrated["ranges"], "calibrated on the backtest (default)");
+    for (k, key) in ["inside_80_pct", "inside_95_pct"].iter().enumerate() {
+        let mine = 100.0 * inside[k] as f64 / n as f64;
+        let theirs = calibrated[key].as_f64().unwrap();
+        assert!(
+            (mine - theirs).abs() <= 1.5,
+            "{key}: forecast route {mine:.1}, evaluate {theirs:.1}"
+        );
+    }
 }

@@ -631,3 +631,18 @@ fn score_against_truth(
     }
     left_out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::msis;
+
+    #[test]
+    fn interval_score_by_hand() {
+        // Interval score of Gneiting & Raftery (JASA 2007, eq. 43):
+        // (u − l) + 2/α (l − y)⁺ + 2/α (y − u)⁺. A 95% range [10, 20]:
+        // inside (y = 15) scores its width 10; 5 above or below scores
+        // 10 + 40 × 5 = 210. Mean over the three: 430 / 3.
+        let s = msis(&[15.0, 25.0, 5.0], &[10.0; 3], &[20.0; 3], 0.05);
+        assert!((s - 430.0 / 3.0).abs() < 1e-12, "{s}");
+    }
+}
