@@ -101,7 +101,7 @@ pub fn profile_all(cleaned: &Cleaned) -> Vec<QualityProfile> {
     let mut log: std::collections::HashMap<&str, Vec<&crate::clean::Adjustment>> =
         std::collections::HashMap::new();
     for a in &cleaned.log {
-        log.entry(a.product.as_str()).or_default().push(a);
+        log.entry(&*a.product).or_default().push(a);
     }
     cleaned
         .inputs
@@ -193,7 +193,7 @@ fn profile_one(
     for a in entries {
         let t = month_pos(a.month);
         if t < n {
-            match a.rule {
+            match a.rule() {
                 Rule::StockoutMissing => too_long[t] = true,
                 Rule::ReportingMissing => low_rate[t] = true,
                 _ => {}

@@ -317,7 +317,7 @@ proptest! {
         prop_assert_eq!(r.used + r.adjusted + r.rejected, r.read);
         let usable: BTreeSet<&str> = cleaned.series.iter().map(|s| s.product.as_str()).collect();
         let reported: f64 = g.reported.iter().filter(|(p, _)| usable.contains(p.as_str())).map(|(_, v)| v).sum();
-        let logged: f64 = cleaned.log.iter().filter(|a| usable.contains(a.product.as_str())).map(|a| a.delta()).sum();
+        let logged: f64 = cleaned.log.iter().filter(|a| usable.contains(&*a.product)).map(|a| a.delta()).sum();
         let total: f64 = cleaned.series.iter().flat_map(|s| s.values.iter()).sum();
         prop_assert!((total - (reported + logged)).abs() <= 1e-6 * total.abs().max(1.0),
             "cleaned {} != reported {} + logged {}", total, reported, logged);
