@@ -39,7 +39,34 @@ B,2024-04,7,2,0.8
 B,2024-05,6,31,1
 B,2024-06,6,,1
 CSV
+# Copies of a row: exact, with other values, three of one key, out of order.
+cat >"$WORK/copies.csv" <<'CSV'
+product,site,month,consumed,stockout_days,reporting_rate
+A,north,2024-01,10,,
+A,north,2024-02,12,,
+A,north,2024-01,10,,
+B,south,2024-03,5,,
+A,north,2024-02,13,,
+A,north,2024-02,14,2,
+A,south,2024-01,7,,0.9
+B,south,2024-03,6,,
+A,south,2024-01,8,,0.9
+A,north,2024-03,9,,
+B,south,2024-01,4,,
+A,south,2024-01,8,1,0.9
+CSV
+# The wide layout, one product on two lines.
+cat >"$WORK/wide.csv" <<'CSV'
+product,2024-01,2024-02,2024-03,2024-04
+A,10,12,,11
+B,5,6,7,8
+A,10,13,9,
+CSV
 cases=(
+    "wide-reject|$WORK/wide.csv|"
+    "wide-sum|$WORK/wide.csv|--duplicates sum"
+    "copies-reject|$WORK/copies.csv|"
+    "copies-sum|$WORK/copies.csv|--duplicates sum"
     "every-rule|$WORK/rules.csv|--site-trailing-fill 0"
     "every-rule-no-site|$WORK/rules-no-site.csv|"
     "demo|datasets/demo/consumption.csv|"
