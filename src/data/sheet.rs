@@ -1084,9 +1084,9 @@ fn too_many_cells(limits: &SheetLimits) -> String {
     )
 }
 
-/// Reads the cells of a sheet that hold something, row by row. An .xlsx
-/// sheet is streamed cell by cell; other formats go through calamine's
-/// range (their parts were size-checked first).
+/// Reads the cells of a sheet that hold something, row by row. An .xlsx or
+/// .xlsb sheet is streamed cell by cell; .xls and .ods go through
+/// calamine's range (their laid-out size was checked first).
 fn read_cells<RS: Read + Seek>(
     book: &mut Sheets<RS>,
     name: &str,
@@ -1118,6 +1118,20 @@ fn read_cells<RS: Read + Seek>(
     };
     match book {
         Sheets::Xlsx(x) => {
+            let mut cells = x
+                .worksheet_cells_reader(name)
+                .map_err(|e| format!("cannot read the sheet: {e}"))?;
+            while let Some(c) = cells
+                .next_cell()
+                .map_err(|e| format!("cannot read the sheet: {e}"))?
+            {
+                let at = c.get_position();
+                keep(&mut rows, at, Data::from(c.get_value().clone()))?;
+            }
+        }
+        // A binary workbook (.xlsb, also when saved under an .xlsx name):
+        // calamine's range would lay out the sheet's whole bounding box.
+        Sheets::Xlsb(x) => {
             let mut cells = x
                 .worksheet_cells_reader(name)
                 .map_err(|e| format!("cannot read the sheet: {e}"))?;
@@ -1164,8 +1178,8 @@ fn read_cells<RS: Read + Seek>(
     Ok(rows)
 }
 
-/// The non-empty formulas of a sheet, streamed for .xlsx; at most the cell
-/// limit of them are kept.
+/// The non-empty formulas of a sheet, streamed for .xlsx and .xlsb; at
+/// most the cell limit of them are kept.
 fn read_formulas<RS: Read + Seek>(
     book: &mut Sheets<RS>,
     name: &str,
@@ -1174,6 +1188,14 @@ fn read_formulas<RS: Read + Seek>(
     let mut out = Formulas::new();
     match book {
         Sheets::Xlsx(x) => {
+            let mut cells = x.worksheet_cells_reader(name).ok()?;
+            while let Ok(Some(c)) = cells.next_formula() {
+                if !c.get_value().is_empty() && out.len() < limits.max_cells {
+                    out.insert(c.get_position(), c.get_value().clone());
+                }
+            }
+        }
+        Sheets::Xlsb(x) => {
             let mut cells = x.worksheet_cells_reader(name).ok()?;
             while let Ok(Some(c)) = cells.next_formula() {
                 if !c.get_value().is_empty() && out.len() < limits.max_cells {

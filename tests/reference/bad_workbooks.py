@@ -19,9 +19,14 @@ Files:
                         sheet 2 "Data" is visible and active
   far_cell.ods          the contract in A1:C4, then 1,048,570 empty rows
                         repeated, then one cell at column 16384
+  xlsb_named_xlsx.xlsx  a binary workbook (.xlsb: BIFF12 records, MS-XLSB)
+                        saved under an .xlsx name: the contract in A1:C4, one
+                        stray cell at XFD1048576 and a formula's saved value
+                        beside it; the sheet's dimension claims A1:XFD1048576
 """
 
 import pathlib
+import struct
 import zipfile
 
 OUT = pathlib.Path(__file__).resolve().parents[1] / "data" / "bad"
@@ -147,6 +152,85 @@ def main():
         active=1,
     )
     ods_far()
+    xlsb_far()
+
+
+def record(typ, payload=b""):
+    """One BIFF12 record (MS-XLSB 2.1.4): type and size as variable-length
+    integers of 7 bits a byte, then the payload."""
+    out = bytearray()
+    if typ < 0x80:
+        out.append(typ)
+    else:
+        out += bytes([(typ & 0x7F) | 0x80, typ >> 7])
+    n = len(payload)
+    while True:
+        b, n = n & 0x7F, n >> 7
+        out.append(b | (0x80 if n else 0))
+        if not n:
+            break
+    return bytes(out) + payload
+
+
+def wide(s):
+    """XLWideString (MS-XLSB 2.5.168): a character count, then UTF-16LE."""
+    return struct.pack("<I", len(s)) + s.encode("utf-16-le")
+
+
+def xlsb_far():
+    # BrtBundleSh (0x009C): visible, tab 1, relationship rId1, name Data;
+    # BrtEndBundleShs (0x0090); BrtCalcProp (0x009D) ends the names.
+    workbook = (
+        record(0x0083)
+        + record(0x008F)
+        + record(0x009C, struct.pack("<II", 0, 1) + wide("rId1") + wide("Data"))
+        + record(0x0090)
+        + record(0x009D, b"\0" * 8)
+        + record(0x0084)
+    )
+    cells = b""
+    for r, row in CONTRACT + [(1048575, [(16383, "x")])]:
+        cells += record(0x0000, struct.pack("<I", r) + b"\0" * 13)  # BrtRowHdr
+        for c, v in row:
+            if isinstance(v, str):
+                cells += record(0x0006, struct.pack("<II", c, 0) + wide(v))  # BrtCellSt
+            else:
+                cells += record(0x0005, struct.pack("<IId", c, 0, float(v)))  # BrtCellReal
+    # A formula's saved number (BrtFmlaNum, 0x0009) at XFD1048575, with an
+    # empty formula, so the reader's formula pass meets a far cell too.
+    cells += record(0x0000, struct.pack("<I", 1048574) + b"\0" * 13)
+    cells += record(0x0009, struct.pack("<IIdH", 16383, 0, 2.0, 0) + struct.pack("<I", 0))
+    sheet = (
+        record(0x0081)  # BrtBeginSheet
+        + record(0x0094, struct.pack("<IIII", 0, 1048575, 0, 16383))  # BrtWsDim
+        + record(0x0091)  # BrtBeginSheetData
+        + cells
+        + record(0x0092)  # BrtEndSheetData
+        + record(0x0082)  # BrtEndSheet
+    )
+    ct = """<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+<Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">
+<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>
+<Default Extension="bin" ContentType="application/vnd.ms-excel.sheet.binary.macroEnabled.main"/>
+<Override PartName="/xl/worksheets/sheet1.bin" ContentType="application/vnd.ms-excel.worksheet"/>
+</Types>"""
+    rels = RELS.replace("xl/workbook.xml", "xl/workbook.bin")
+    wb_rels = (
+        '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
+        '<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet1.bin"/>'
+        "</Relationships>"
+    )
+    with zipfile.ZipFile(OUT / "xlsb_named_xlsx.xlsx", "w") as z:
+        for part, data in [
+            ("[Content_Types].xml", ct.encode()),
+            ("_rels/.rels", rels.encode()),
+            ("xl/workbook.bin", workbook),
+            ("xl/_rels/workbook.bin.rels", wb_rels.encode()),
+            ("xl/worksheets/sheet1.bin", sheet),
+        ]:
+            info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            z.writestr(info, data)
 
 
 def ods_far():
