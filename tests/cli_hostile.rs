@@ -722,6 +722,15 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
         "{out}"
     );
     assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    // The same OpenDocument archive after 600 bytes of text: the zip reader
+    // finds it anyway, so the size checks must run too (found by the fuzz
+    // target read_workbook; it ran out of memory before).
+    let (code, out) = inspect_capped("zip_after_text.xlsx", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("zip_after_text.xlsx: the workbook's sheets span 17179869196 cells"),
+        "{out}"
+    );
     // Unpacked size: read under the default limit, refused under a lower one.
     let (code, out) = inspect_capped("unpacks_large.xlsx", &[]);
     assert_eq!(code, Some(0), "{out}");

@@ -880,9 +880,8 @@ fn check_unpacked(
     bytes: &[u8],
     limits: &SheetLimits,
 ) -> std::result::Result<Option<usize>, String> {
-    if !bytes.starts_with(b"PK") {
-        return Ok(None);
-    }
+    // Not only files that start as a zip: the zip reader (and calamine
+    // with it) finds an archive after other bytes too.
     let Ok(mut zip) = zip::ZipArchive::new(Cursor::new(bytes)) else {
         return Ok(None);
     };

@@ -19,6 +19,8 @@ Files:
                         sheet 2 "Data" is visible and active
   far_cell.ods          the contract in A1:C4, then 1,048,570 empty rows
                         repeated, then one cell at column 16384
+  zip_after_text.xlsx   far_cell.ods after 600 bytes of text: zip readers
+                        find an archive that does not start the file
   xlsb_named_xlsx.xlsx  a binary workbook (.xlsb: BIFF12 records, MS-XLSB)
                         saved under an .xlsx name: the contract in A1:C4, one
                         stray cell at XFD1048576 and a formula's saved value
@@ -268,6 +270,10 @@ def ods_far():
             info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
             info.compress_type = zipfile.ZIP_DEFLATED
             z.writestr(info, text)
+    # The same archive after some text, as a file damaged in transfer or
+    # built to pass a check of the first bytes.
+    prefix = ("not a workbook: " * 40)[:600].encode()
+    (OUT / "zip_after_text.xlsx").write_bytes(prefix + (OUT / "far_cell.ods").read_bytes())
 
 
 if __name__ == "__main__":
