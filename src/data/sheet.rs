@@ -893,6 +893,14 @@ fn check_unpacked(
             SheetLimits::UNPACKED_VAR
         )
     };
+    // A binary workbook (.xlsb), whatever its name: calamine would open it,
+    // but its .xlsb reader stops with a panic on many damaged files (found
+    // by the read_workbook fuzz target), so it is refused by name.
+    if zip.by_name("xl/workbook.bin").is_ok() && zip.by_name("xl/workbook.xml").is_err() {
+        return Err(
+            "the file is a binary workbook (.xlsb), which provisio does not read; it reads .xlsx, .xlsm, .xls and .ods workbooks and CSV files: open it in the spreadsheet program and save it as an .xlsx workbook or as CSV".to_string(),
+        );
+    }
     let mut total = 0u64;
     let mut active = None;
     let is_ods = zip.by_name("content.xml").is_ok();
@@ -1128,8 +1136,9 @@ fn read_cells<RS: Read + Seek>(
                 keep(&mut rows, at, Data::from(c.get_value().clone()))?;
             }
         }
-        // A binary workbook (.xlsb, also when saved under an .xlsx name):
-        // calamine's range would lay out the sheet's whole bounding box.
+        // A binary workbook (.xlsb) is refused before it is opened (see
+        // check_unpacked); should one get through, its cells are streamed
+        // too, as calamine's range would lay out the whole bounding box.
         Sheets::Xlsb(x) => {
             let mut cells = x
                 .worksheet_cells_reader(name)
