@@ -732,6 +732,18 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
         out.contains("zip_after_text.xlsx: the workbook's sheets span 17179869196 cells"),
         "{out}"
     );
+    // The far cell again, after repeated rows written as an empty element
+    // and a stray end tag: calamine reads past the stray tag, a count that
+    // stopped there let it lay out the grid (found by fuzzing); refused as
+    // damaged, naming the part.
+    let (code, out) = inspect_capped("loose_tags.ods", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains(
+            "loose_tags.ods: the workbook is damaged: its part content.xml cannot be read"
+        ),
+        "{out}"
+    );
     // Unpacked size: read under the default limit, refused under a lower one.
     let (code, out) = inspect_capped("unpacks_large.xlsx", &[]);
     assert_eq!(code, Some(0), "{out}");

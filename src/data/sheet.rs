@@ -919,6 +919,9 @@ fn check_unpacked(
             if *counted.total > limit {
                 return Err(too_large(&name));
             }
+            let grid = grid.map_err(|e| format!(
+                "the workbook is damaged: its part {name} cannot be read ({e}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+            ))?;
             if grid > limits.max_cells as u64 {
                 return Err(format!(
                     "the workbook's sheets span {grid} cells once their repeated rows and columns are laid out (a cell far from the data, or a repeat count in the millions); provisio stops at {} cells. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
@@ -985,8 +988,11 @@ impl<R: Read> Read for Counted<'_, R> {
 /// `content.xml`: it expands repeated cells and rows into a grid from the
 /// first to the last row holding something, as wide as the widest such
 /// row, and keeps each row's cells up to its last value on the way. An
-/// upper estimate; stops counting at a malformed part (calamine names it).
-fn ods_grid(part: impl Read) -> u64 {
+/// upper estimate, read as leniently as calamine reads it (end tags not
+/// matched to their start); a part that cannot be read even so (not XML,
+/// cut short, a checksum that fails) is an error, as a count that stopped
+/// there would let calamine lay out what follows (found by fuzzing).
+fn ods_grid(part: impl Read) -> std::result::Result<u64, String> {
     use quick_xml::events::Event;
     let repeat = |e: &quick_xml::events::BytesStart<'_>, key: &[u8]| -> u64 {
         e.try_get_attribute(key)
@@ -996,6 +1002,9 @@ fn ods_grid(part: impl Read) -> u64 {
             .unwrap_or(1)
     };
     let mut xml = quick_xml::Reader::from_reader(std::io::BufReader::new(part));
+    let config = xml.config_mut();
+    config.check_end_names = false;
+    config.check_comments = false;
     let mut buf = Vec::new();
     let mut total = 0u64;
     // Per sheet: rows laid out so far, first and end of the rows holding
@@ -1028,7 +1037,8 @@ fn ods_grid(part: impl Read) -> u64 {
                 }
                 continue;
             }
-            Ok(Event::Eof) | Err(_) => break,
+            Ok(Event::Eof) => break,
+            Err(e) => return Err(e.to_string()),
             Ok(_) => continue,
         };
         match e.name().as_ref() {
@@ -1062,7 +1072,7 @@ fn ods_grid(part: impl Read) -> u64 {
             _ => {}
         }
     }
-    total
+    Ok(total)
 }
 
 /// The `activeTab` of the workbook view in `xl/workbook.xml` (absent: 0).

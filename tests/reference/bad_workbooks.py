@@ -19,6 +19,9 @@ Files:
                         sheet 2 "Data" is visible and active
   far_cell.ods          the contract in A1:C4, then 1,048,570 empty rows
                         repeated, then one cell at column 16384
+  loose_tags.ods        far_cell.ods with its repeated rows written as an
+                        empty element followed by a stray end tag, which
+                        calamine reads past (a stricter count stopped there)
   zip_after_text.xlsx   far_cell.ods after 600 bytes of text: zip readers
                         find an archive that does not start the file
   xlsb_named_xlsx.xlsx  a binary workbook (.xlsb: BIFF12 records, MS-XLSB)
@@ -154,6 +157,10 @@ def main():
         active=1,
     )
     ods_far()
+    ods_far(
+        "loose_tags.ods",
+        '<table:table-row table:number-rows-repeated="1048570"/></table:table-row>',
+    )
     xlsb_far()
 
 
@@ -235,7 +242,7 @@ def xlsb_far():
             z.writestr(info, data)
 
 
-def ods_far():
+def ods_far(name="far_cell.ods", repeated=None):
     rows = []
     for r, cells in CONTRACT:
         tds = ""
@@ -246,7 +253,8 @@ def ods_far():
                 tds += f'<table:table-cell office:value-type="float" office:value="{v}"><text:p>{v}</text:p></table:table-cell>'
         rows.append(f"<table:table-row>{tds}</table:table-row>")
     rows.append(
-        '<table:table-row table:number-rows-repeated="1048570"><table:table-cell table:number-columns-repeated="3"/></table:table-row>'
+        repeated
+        or '<table:table-row table:number-rows-repeated="1048570"><table:table-cell table:number-columns-repeated="3"/></table:table-row>'
     )
     rows.append(
         '<table:table-row><table:table-cell table:number-columns-repeated="16383"/><table:table-cell office:value-type="string"><text:p>x</text:p></table:table-cell></table:table-row>'
@@ -263,13 +271,15 @@ def ods_far():
         '<manifest:file-entry manifest:full-path="/" manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/>'
         '<manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/></manifest:manifest>'
     )
-    with zipfile.ZipFile(OUT / "far_cell.ods", "w") as z:
+    with zipfile.ZipFile(OUT / name, "w") as z:
         info = zipfile.ZipInfo("mimetype", date_time=(2024, 1, 1, 0, 0, 0))
         z.writestr(info, "application/vnd.oasis.opendocument.spreadsheet")
         for part, text in [("content.xml", content), ("META-INF/manifest.xml", manifest)]:
             info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
             info.compress_type = zipfile.ZIP_DEFLATED
             z.writestr(info, text)
+    if name != "far_cell.ods":
+        return
     # The same archive after some text, as a file damaged in transfer or
     # built to pass a check of the first bytes.
     prefix = ("not a workbook: " * 40)[:600].encode()
