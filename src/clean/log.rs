@@ -320,7 +320,8 @@ impl AdjustmentLog {
         self.len == 0
     }
 
-    /// Each product's entries as one slice, products in order.
+    /// Each product's entries as one slice, products in order (a product
+    /// without entries has none).
     pub fn by_product(&self) -> impl Iterator<Item = &[Adjustment]> + '_ {
         self.parts.iter().map(Vec::as_slice)
     }
@@ -332,21 +333,5 @@ impl<'a> IntoIterator for &'a AdjustmentLog {
 
     fn into_iter(self) -> Self::IntoIter {
         self.parts.iter().flatten()
-    }
-}
-
-impl FromIterator<Adjustment> for AdjustmentLog {
-    /// One part per run of entries of the same product.
-    fn from_iter<I: IntoIterator<Item = Adjustment>>(entries: I) -> Self {
-        let mut log = AdjustmentLog::default();
-        let mut part: Vec<Adjustment> = Vec::new();
-        for a in entries {
-            if part.last().is_some_and(|p| p.product != a.product) {
-                log.push_product(std::mem::take(&mut part));
-            }
-            part.push(a);
-        }
-        log.push_product(part);
-        log
     }
 }
