@@ -98,17 +98,18 @@ pub fn profile_all(cleaned: &Cleaned) -> Vec<QualityProfile> {
         .iter()
         .map(|s| (s.product.as_str(), s))
         .collect();
-    let mut log: std::collections::HashMap<&str, Vec<&crate::clean::Adjustment>> =
-        std::collections::HashMap::new();
-    for a in &cleaned.log {
-        log.entry(a.product.as_str()).or_default().push(a);
-    }
+    // The log is kept by product: one slice each, nothing copied.
+    let log: std::collections::HashMap<&str, &[crate::clean::Adjustment]> = cleaned
+        .log
+        .by_product()
+        .filter_map(|part| Some((&*part.first()?.product, part)))
+        .collect();
     cleaned
         .inputs
         .iter()
         .map(|p| {
             let key = p.product.as_str();
-            let entries = log.get(key).map(Vec::as_slice).unwrap_or_default();
+            let entries = log.get(key).copied().unwrap_or_default();
             profile_one(p, series.get(key).copied(), entries, data_end)
         })
         .collect()
@@ -117,7 +118,7 @@ pub fn profile_all(cleaned: &Cleaned) -> Vec<QualityProfile> {
 fn profile_one(
     p: &crate::data::ProductData,
     series: Option<&crate::clean::CleanSeries>,
-    entries: &[&crate::clean::Adjustment],
+    entries: &[crate::clean::Adjustment],
     data_end: Option<YearMonth>,
 ) -> QualityProfile {
     let n = p.len();
@@ -193,7 +194,7 @@ fn profile_one(
     for a in entries {
         let t = month_pos(a.month);
         if t < n {
-            match a.rule {
+            match a.rule() {
                 Rule::StockoutMissing => too_long[t] = true,
                 Rule::ReportingMissing => low_rate[t] = true,
                 _ => {}

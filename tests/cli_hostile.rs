@@ -697,6 +697,22 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
     let (code, out) = inspect_capped("far_formula.xlsx", &[]);
     assert_eq!(code, Some(0), "{out}");
     assert!(out.contains("rows read: 3"), "{out}");
+    // A binary workbook (.xlsb) saved under an .xlsx name, with the same
+    // stray cell and a formula's saved value beside it: calamine opens it
+    // by its content as .xlsb, whose range is the whole bounding box (it
+    // aborted asking for the grid), and whose reader panics on damaged
+    // files (found by fuzzing); refused by name with what would be valid.
+    let (code, out) = inspect_capped("xlsb_named_xlsx.xlsx", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("xlsb_named_xlsx.xlsx: the file is a binary workbook (.xlsb), which provisio does not read"),
+        "{out}"
+    );
+    assert!(
+        out.contains("save it as an .xlsx workbook or as CSV"),
+        "{out}"
+    );
+    assert!(!out.contains("panicked"), "{out}");
     // OpenDocument repeats: a million empty rows then a cell in column
     // 16384 would be laid out as 17 billion cells; refused before calamine
     // expands them, naming the file and how to raise the limit.
@@ -707,6 +723,27 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
         "{out}"
     );
     assert!(out.contains("PROVISIO_MAX_SHEET_CELLS=N"), "{out}");
+    // The same OpenDocument archive after 600 bytes of text: the zip reader
+    // finds it anyway, so the size checks must run too (found by the fuzz
+    // target read_workbook; it ran out of memory before).
+    let (code, out) = inspect_capped("zip_after_text.xlsx", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("zip_after_text.xlsx: the workbook's sheets span 17179869196 cells"),
+        "{out}"
+    );
+    // The far cell again, after repeated rows written as an empty element
+    // and a stray end tag: calamine reads past the stray tag, a count that
+    // stopped there let it lay out the grid (found by fuzzing); refused as
+    // damaged, naming the part.
+    let (code, out) = inspect_capped("loose_tags.ods", &[]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains(
+            "loose_tags.ods: the workbook is damaged: its part content.xml cannot be read"
+        ),
+        "{out}"
+    );
     // Unpacked size: read under the default limit, refused under a lower one.
     let (code, out) = inspect_capped("unpacks_large.xlsx", &[]);
     assert_eq!(code, Some(0), "{out}");

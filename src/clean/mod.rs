@@ -7,9 +7,10 @@ pub mod outliers;
 pub mod reporting;
 pub mod stockout;
 
-pub use log::{Adjustment, Rule};
+pub use log::{Adjustment, AdjustmentLog, FillCause, Reason, Rule};
 
 use std::collections::{BTreeMap, HashSet};
+use std::sync::Arc;
 
 use rayon::prelude::*;
 
@@ -235,7 +236,7 @@ pub struct Cleaned {
     /// The per-product input series the cleaning started from.
     pub inputs: Vec<ProductData>,
     /// Every change made, in product, site and month order.
-    pub log: Vec<Adjustment>,
+    pub log: AdjustmentLog,
     /// Warnings about products and sites (not tied to one row).
     pub warnings: Vec<String>,
     /// Products with no usable month, with the reason.
@@ -246,47 +247,59 @@ pub struct Cleaned {
 
 /// Cleans every product of a dataset (in parallel).
 pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
-    let inputs = build_series(&data.rows);
+    clean_inputs(build_series(&data.rows), data.rows.len(), data, settings)
+}
+
+/// [`clean`], moving the accepted rows out of `data` into the cleaned
+/// inputs (`Cleaned::inputs` holds the same values by product and month)
+/// instead of holding both: `data.rows` is left empty. For a caller that
+/// has no use for the rows afterwards; on a national file they are a
+/// sixth of the memory.
+pub fn clean_taking_rows(data: &mut Dataset, settings: &CheckedCleanSettings) -> Cleaned {
+    let rows = std::mem::take(&mut data.rows);
+    let accepted = rows.len();
+    let inputs = build_series(&rows);
+    drop(rows);
+    clean_inputs(inputs, accepted, data, settings)
+}
+
+/// Cleans the per-product series built from `data`'s `accepted` rows.
+fn clean_inputs(
+    inputs: Vec<ProductData>,
+    accepted: usize,
+    data: &Dataset,
+    settings: &CheckedCleanSettings,
+) -> Cleaned {
     let results: Vec<ProductResult> = inputs
         .par_iter()
         .map(|p| clean_product(p, settings.get()))
         .collect();
+    // Keyed by line and month: in the wide layout one line holds a value
+    // for each month.
+    let merged_keys: HashSet<(u64, YearMonth)> = data
+        .merged
+        .iter()
+        .flat_map(|m| [(m.line, m.month), (m.into_line, m.month)])
+        .collect();
     let mut series = Vec::new();
-    // Sized exactly: on a million-row file the log is the largest thing in
-    // memory, and growing it by doubling would hold up to twice its size.
-    let mut log = Vec::with_capacity(results.iter().map(|r| r.log.len()).sum());
+    let mut log = AdjustmentLog::default();
     let mut warnings = Vec::new();
     let mut unusable = Vec::new();
-    for r in results {
-        log.extend(r.log);
+    // Every merged row was changed (folded into another); of the accepted
+    // rows, those with a value-changing entry or a row merged into them.
+    // Counted per row, not per distinct line, so the accounting holds
+    // whatever the line numbers are.
+    let mut adjusted = data.merged.len();
+    for (p, r) in inputs.iter().zip(results) {
+        adjusted += changed_rows(p, &r.log, &merged_keys);
+        log.push_product(r.log);
         warnings.extend(r.warnings);
         match r.series {
             Ok(s) => series.push(s),
             Err(reason) => unusable.push((r.product, reason)),
         }
     }
-    // Keyed by line and month: in the wide layout one line holds a value
-    // for each month.
-    let changed: HashSet<(u64, YearMonth)> = log
-        .iter()
-        .filter(|a| a.rule.changes_value())
-        .filter_map(|a| a.line.map(|l| (l, a.month)))
-        .chain(
-            data.merged
-                .iter()
-                .flat_map(|m| [(m.line, m.month), (m.into_line, m.month)]),
-        )
-        .collect();
-    // Counted per row, not per distinct line, so the accounting holds
-    // whatever the line numbers are.
-    let accepted = data.rows.len() + data.merged.len();
-    let adjusted = data
-        .rows
-        .iter()
-        .map(|r| (r.line, r.month))
-        .chain(data.merged.iter().map(|m| (m.line, m.month)))
-        .filter(|l| changed.contains(l))
-        .count();
+    let accepted = accepted + data.merged.len();
     let rows = RowAccount {
         read: data.rows_read,
         used: accepted - adjusted,
@@ -301,6 +314,29 @@ pub fn clean(data: &Dataset, settings: &CheckedCleanSettings) -> Cleaned {
         unusable,
         rows,
     }
+}
+
+/// Rows of one product whose value cleaning changed (by the product's own
+/// log entries) or that another row was merged into.
+fn changed_rows(p: &ProductData, log: &[Adjustment], merged: &HashSet<(u64, YearMonth)>) -> usize {
+    let mut changed: Vec<(u64, YearMonth)> = log
+        .iter()
+        .filter(|a| a.rule().changes_value())
+        .filter_map(|a| a.line.map(|l| (l, a.month)))
+        .collect();
+    changed.sort_unstable();
+    changed.dedup();
+    let mut n = 0;
+    for site in &p.sites {
+        for (k, m) in site.months.iter().enumerate() {
+            let Some(line) = m.line else { continue };
+            let key = (line, site.start.plus(k as i64));
+            if changed.binary_search(&key).is_ok() || merged.contains(&key) {
+                n += 1;
+            }
+        }
+    }
+    n
 }
 
 /// Reads an input file given as bytes and cleans it: the whole path from
@@ -337,7 +373,7 @@ impl Cleaned {
         }
         let mut delta: std::collections::HashMap<&str, f64> = std::collections::HashMap::new();
         for a in &self.log {
-            *delta.entry(a.product.as_str()).or_default() += a.delta();
+            *delta.entry(&*a.product).or_default() += a.delta();
         }
         for s in &self.series {
             if let Some(t) = s.values.iter().position(|v| !v.is_finite() || *v < 0.0) {
@@ -384,14 +420,6 @@ struct SiteClean {
     replaced: Vec<bool>,
 }
 
-fn fmt_q(v: f64) -> String {
-    if v.fract() == 0.0 && v.abs() < 1e15 {
-        format!("{v:.0}")
-    } else {
-        format!("{v:.2}")
-    }
-}
-
 fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
     // A product's own stockout threshold replaces the run's.
     let own;
@@ -409,10 +437,12 @@ fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
     let mut log = Vec::new();
     let mut warnings = Vec::new();
     let n = p.len();
+    // One copy of the name, shared by every log entry of the product.
+    let name: Arc<str> = Arc::from(p.product.as_str());
     let has_sites = p.sites.iter().any(|x| x.site.is_some());
     let mut site_cleans = Vec::with_capacity(p.sites.len());
     for site in &p.sites {
-        match clean_site(p, site, s, &mut log, &mut warnings) {
+        match clean_site(p, &name, site, s, &mut log, &mut warnings) {
             Some(c) => site_cleans.push(c),
             None => {
                 if has_sites {
@@ -486,17 +516,16 @@ fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
                     if total[t].is_none() {
                         filled_amount[t] = vals[t];
                         log.push(Adjustment {
-                            product: p.product.clone(),
+                            product: name.clone(),
                             site: None,
                             month: p.start.plus(t as i64),
                             line: None,
                             before: None,
                             after: Some(vals[t]),
-                            rule: Rule::Imputed,
-                            reason: format!(
-                                "no site covers this month; filled by {}",
-                                method.describe()
-                            ),
+                            why: Reason::Imputed {
+                                cause: FillCause::NoSiteCovers,
+                                method,
+                            },
                         });
                     }
                 }
@@ -553,6 +582,7 @@ fn unreachable_total(total: &[Option<f64>]) -> Vec<f64> {
 
 fn clean_site(
     p: &ProductData,
+    name: &Arc<str>,
     site: &SiteSeries,
     s: &CleanSettings,
     log: &mut Vec<Adjustment>,
@@ -583,20 +613,19 @@ fn clean_site(
     let span = site.months.len() + fill_after;
     let mut vals: Vec<Option<f64>> = Vec::with_capacity(span);
     let mut adjusted = vec![false; span];
+    let site_name: Option<Arc<str>> = site.site.as_deref().map(Arc::from);
     let entry = |month: YearMonth,
                  line: Option<u64>,
                  before: Option<f64>,
                  after: Option<f64>,
-                 rule: Rule,
-                 reason: String| Adjustment {
-        product: p.product.clone(),
-        site: site.site.clone(),
+                 why: Reason| Adjustment {
+        product: name.clone(),
+        site: site_name.clone(),
         month,
         line,
         before,
         after,
-        rule,
-        reason,
+        why,
     };
     for (k, adjusted_k) in adjusted.iter_mut().enumerate() {
         let month = site.start.plus(k as i64);
@@ -617,12 +646,10 @@ fn clean_site(
                     obs.line,
                     Some(v),
                     None,
-                    Rule::StockoutMissing,
-                    format!(
-                        "out of stock {} of {days} days (limit {}): consumption does not show demand; treated as missing",
-                        fmt_q(sd),
-                        fmt_q(s.max_stockout_days)
-                    ),
+                    Reason::StockoutMissing {
+                        days_out: sd,
+                        limit: s.max_stockout_days,
+                    },
                 ));
                 vals.push(None);
                 continue;
@@ -634,13 +661,7 @@ fn clean_site(
                         obs.line,
                         Some(v),
                         Some(a),
-                        Rule::StockoutScaled,
-                        format!(
-                            "out of stock {} of {days} days: {} × {days} ÷ {}",
-                            fmt_q(sd),
-                            fmt_q(v),
-                            fmt_q(days as f64 - sd)
-                        ),
+                        Reason::StockoutScaled { days_out: sd },
                     ));
                     v = a;
                     *adjusted_k = true;
@@ -654,35 +675,25 @@ fn clean_site(
                     obs.line,
                     Some(v),
                     None,
-                    Rule::ReportingMissing,
-                    format!(
-                        "reporting rate {:.0}% is below the floor {:.0}%: too few reports to trust; treated as missing",
-                        c * 100.0,
-                        s.reporting_floor * 100.0
-                    ),
+                    Reason::ReportingMissing {
+                        rate: c,
+                        floor: s.reporting_floor,
+                    },
                 ));
                 vals.push(None);
                 continue;
             }
             if c < 1.0 && v > 0.0 {
                 let a = reporting::adjust(v, c, s.nonreporting_weight);
-                let formula = if s.nonreporting_weight == 1.0 {
-                    format!("{} ÷ {:.4}", fmt_q(v), c)
-                } else {
-                    format!(
-                        "{0} + {0} × (1/{1:.4} − 1) × {2}",
-                        fmt_q(v),
-                        c,
-                        s.nonreporting_weight
-                    )
-                };
                 log.push(entry(
                     month,
                     obs.line,
                     Some(v),
                     Some(a),
-                    Rule::ReportingScaled,
-                    format!("reporting rate {:.1}%: {formula}", c * 100.0),
+                    Reason::ReportingScaled {
+                        rate: c,
+                        weight: s.nonreporting_weight,
+                    },
                 ));
                 v = a;
                 *adjusted_k = true;
@@ -718,58 +729,36 @@ fn clean_site(
         let month = site.start.plus(k as i64);
         let line = site.months.get(k).and_then(|m| m.line);
         let v = dense[k];
-        let why = format!(
-            "{:.1} interquartile ranges {} the usual spread of the seasonal decomposition's remainder (limit {:.1}); expected about {} from neighbouring months",
-            o.score.abs(),
-            if o.score > 0.0 { "above" } else { "below" },
-            s.outlier_threshold,
-            fmt_q(filled[k])
-        );
-        log.push(entry(
-            month,
-            line,
-            Some(v),
-            Some(v),
-            Rule::OutlierFlagged,
-            format!("{why}; kept (replace only on request)"),
-        ));
+        let why = |replaced| Reason::Outlier {
+            score: o.score,
+            limit: s.outlier_threshold,
+            expected: filled[k],
+            replaced,
+        };
+        log.push(entry(month, line, Some(v), Some(v), why(false)));
         out.outlier[off + k] = true;
         if s.replace_outliers {
-            log.push(entry(
-                month,
-                line,
-                Some(v),
-                Some(filled[k]),
-                Rule::OutlierReplaced,
-                format!("{why}; replaced on request"),
-            ));
+            log.push(entry(month, line, Some(v), Some(filled[k]), why(true)));
             out.replaced[off + k] = true;
             adjusted[k] = true;
         }
     }
-    let rule = if site.site.is_some() {
-        Rule::SiteFilled
-    } else {
-        Rule::Imputed
-    };
     for k in 0..span {
         let month = site.start.plus(k as i64);
         let value = if vals[k].is_none() {
             let line = site.months.get(k).and_then(|m| m.line);
-            let why = match site.months.get(k) {
-                None => "no row for this month".to_string(),
-                Some(m) if m.line.is_none() => "no row for this month".to_string(),
-                Some(m) if m.consumed.is_none() => "quantity not reported".to_string(),
-                Some(_) => "value treated as missing above".to_string(),
+            let cause = match site.months.get(k) {
+                None => FillCause::NoRow,
+                Some(m) if m.line.is_none() => FillCause::NoRow,
+                Some(m) if m.consumed.is_none() => FillCause::NotReported,
+                Some(_) => FillCause::TreatedMissing,
             };
-            let reason = match &site.site {
-                Some(name) => format!(
-                    "{why}; site '{name}' filled from its own history by {}",
-                    method.describe()
-                ),
-                None => format!("{why}; filled by {}", method.describe()),
+            let why = if site.site.is_some() {
+                Reason::SiteFilled { cause, method }
+            } else {
+                Reason::Imputed { cause, method }
             };
-            log.push(entry(month, line, None, Some(filled[k]), rule, reason));
+            log.push(entry(month, line, None, Some(filled[k]), why));
             out.filled[off + k] = true;
             filled[k]
         } else if out.replaced[off + k] {

@@ -38,7 +38,7 @@ fn stockout_scaling_and_missing() {
     assert_eq!(s.status[0], MonthStatus::Adjusted);
     assert_eq!(s.status[1], MonthStatus::Imputed); // 20 > 15 days: missing, then filled
     assert!((s.values[1] - 450.0).abs() < 1e-9); // linear between 600 and 300
-    let rules: Vec<Rule> = c.log.iter().map(|a| a.rule).collect();
+    let rules: Vec<Rule> = c.log.iter().map(|a| a.rule()).collect();
     assert_eq!(
         rules,
         vec![Rule::StockoutScaled, Rule::StockoutMissing, Rule::Imputed]
@@ -88,7 +88,7 @@ fn site_filling_keeps_site_share() {
     let fill: Vec<_> = c
         .log
         .iter()
-        .filter(|a| a.rule == Rule::SiteFilled)
+        .filter(|a| a.rule() == Rule::SiteFilled)
         .collect();
     assert_eq!(fill.len(), 1);
     assert_eq!(fill[0].site.as_deref(), Some("b"));
@@ -163,7 +163,7 @@ fn outliers_replaced_by_default_and_flagged_only_on_request() {
     let r = c2
         .log
         .iter()
-        .find(|a| a.rule == Rule::OutlierReplaced)
+        .find(|a| a.rule() == Rule::OutlierReplaced)
         .unwrap();
     assert_eq!(r.before, Some(5000.0));
     assert_eq!(r.after, Some(c2.series[0].values[20]));
@@ -288,7 +288,7 @@ proptest! {
         for (a, b) in once.series.iter().zip(&twice.series) {
             prop_assert_eq!(&a.values, &b.values);
         }
-        prop_assert!(twice.log.iter().all(|e| e.rule == Rule::OutlierFlagged));
+        prop_assert!(twice.log.iter().all(|e| e.rule() == Rule::OutlierFlagged));
     }
 }
 
@@ -322,9 +322,9 @@ fn a_product_stockout_threshold_replaces_the_run_threshold() {
     let b = &c.series[1];
     assert_eq!((a.product.as_str(), b.product.as_str()), ("A", "B"));
     assert_eq!(a.status[0], MonthStatus::Imputed);
-    assert!(c.log.iter().any(|e| e.product == "A"
-        && e.rule == Rule::StockoutMissing
-        && e.reason.contains("limit 8")));
+    assert!(c.log.iter().any(|e| &*e.product == "A"
+        && e.rule() == Rule::StockoutMissing
+        && e.reason().contains("limit 8")));
     // B keeps the run's limit: 210 × 31 ÷ 21 (the monthly stockout formula).
     assert!((b.values[0] - 210.0 * 31.0 / 21.0).abs() < 1e-9);
     reconciles(&ds, &c);

@@ -743,7 +743,8 @@ fn load_until(
             );
         }
     }
-    let cleaned = provisio::clean::clean(&ds, &settings);
+    // The rows move into the cleaned inputs: no command reads them after.
+    let cleaned = provisio::clean::clean_taking_rows(&mut ds, &settings);
     if cleaned.series.is_empty() {
         let why = cleaned
             .unusable
@@ -764,9 +765,9 @@ fn load_until(
 fn reporting_uplift(cleaned: &provisio::clean::Cleaned) -> Vec<(&str, f64)> {
     let mut added: std::collections::HashMap<&str, f64> = std::collections::HashMap::new();
     for a in &cleaned.log {
-        if a.rule == provisio::clean::Rule::ReportingScaled {
+        if a.rule() == provisio::clean::Rule::ReportingScaled {
             if let (Some(b), Some(x)) = (a.before, a.after) {
-                *added.entry(a.product.as_str()).or_default() += x - b;
+                *added.entry(&*a.product).or_default() += x - b;
             }
         }
     }
@@ -878,7 +879,7 @@ fn write_clean_outputs(
     output::write_quality(&out.join("quality.csv"), &profiles)?;
     let mut by_rule = std::collections::BTreeMap::new();
     for e in &cleaned.log {
-        *by_rule.entry(e.rule.name().to_string()).or_default() += 1;
+        *by_rule.entry(e.rule().name().to_string()).or_default() += 1;
     }
     let mut warnings = ds.warnings.clone();
     warnings.extend(cleaned.warnings.iter().cloned());

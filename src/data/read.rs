@@ -1455,106 +1455,123 @@ fn key_of(row: &InputRow) -> Key {
 
 /// Settles rows with the same key. Rejected rows get an empty `raw`, filled
 /// in by the caller.
+///
+/// The rows are settled in place: the copies of a key are found by sorting
+/// row numbers by key (8 bytes a row) rather than with a map from key to
+/// row and a second list of the rows, which on a national file took more
+/// memory than the rows themselves. Copies are settled in file order, as
+/// the messages and sums depend on it.
 fn resolve_duplicates(
-    rows: Vec<InputRow>,
+    mut rows: Vec<InputRow>,
     policy: DuplicatePolicy,
     unit: &str,
     rejected: &mut Vec<RejectedRow>,
     merged: &mut Vec<MergedRow>,
     column_of: &ColumnOf<'_>,
 ) -> Vec<InputRow> {
-    let mut first_of: HashMap<Key, usize> = HashMap::with_capacity(rows.len());
-    let mut keep: Vec<Option<InputRow>> = Vec::with_capacity(rows.len());
-    let mut conflicted: Vec<bool> = Vec::with_capacity(rows.len());
-    for row in rows {
-        let key = key_of(&row);
-        match first_of.get(&key) {
-            None => {
-                first_of.insert(key, keep.len());
-                keep.push(Some(row));
-                conflicted.push(false);
-            }
-            Some(&idx) => {
-                let first_line = keep[idx].as_ref().map(|r| r.line).unwrap_or(0);
-                let what = describe_key(&row);
-                let first = keep[idx].as_ref();
-                let same = first.is_some_and(|f| {
-                    f.consumed == row.consumed
-                        && f.stockout_days == row.stockout_days
-                        && f.reporting_rate == row.reporting_rate
-                });
-                match policy {
-                    DuplicatePolicy::Reject if same => rejected.push(RejectedRow {
-                        line: row.line,
-                        column: column_of(&row, None),
-                        value: String::new(),
-                        reason: format!(
-                            "exact duplicate of {unit} {first_line} ({what}); the first copy is used"
-                        ),
-                        raw: String::new(),
-                    }),
-                    DuplicatePolicy::Reject => {
-                        conflicted[idx] = true;
-                        rejected.push(RejectedRow {
-                            line: row.line,
-                            column: column_of(&row, None),
-                            value: String::new(),
-                            reason: format!(
-                                "duplicate of {unit} {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
-                            ),
-                            raw: String::new(),
-                        });
+    let mut order: Vec<usize> = (0..rows.len()).collect();
+    order.sort_unstable_by_key(|&i| (key_of(&rows[i]), i));
+    let mut dropped = vec![false; rows.len()];
+    // Settled copies, by row number, put in file order below.
+    let mut later: Vec<(usize, RejectedRow)> = Vec::new();
+    let mut folded: Vec<(usize, MergedRow)> = Vec::new();
+    let mut conflicted: Vec<usize> = Vec::new();
+    let mut start = 0;
+    while start < order.len() {
+        let idx = order[start];
+        let key = key_of(&rows[idx]);
+        let mut end = start + 1;
+        while end < order.len() && key_of(&rows[order[end]]) == key {
+            end += 1;
+        }
+        let copies = &order[start + 1..end];
+        start = end;
+        for &j in copies {
+            dropped[j] = true;
+            let (first, row) = (&rows[idx], &rows[j]);
+            let first_line = first.line;
+            let what = describe_key(row);
+            let same = first.consumed == row.consumed
+                && first.stockout_days == row.stockout_days
+                && first.reporting_rate == row.reporting_rate;
+            let reject = |reason: String| RejectedRow {
+                line: row.line,
+                column: column_of(row, None),
+                value: String::new(),
+                reason,
+                raw: String::new(),
+            };
+            match policy {
+                DuplicatePolicy::Reject if same => later.push((
+                    j,
+                    reject(format!(
+                        "exact duplicate of {unit} {first_line} ({what}); the first copy is used"
+                    )),
+                )),
+                DuplicatePolicy::Reject => {
+                    if conflicted.last() != Some(&idx) {
+                        conflicted.push(idx);
                     }
-                    DuplicatePolicy::Sum => {
-                        let agree = first.is_some_and(|f| {
-                            f.stockout_days == row.stockout_days
-                                && f.reporting_rate == row.reporting_rate
-                        });
-                        if agree {
-                            if let Some(f) = keep[idx].as_mut() {
-                                f.consumed = match (f.consumed, row.consumed) {
-                                    (None, None) => None,
-                                    (a, b) => Some(a.unwrap_or(0.0) + b.unwrap_or(0.0)),
-                                };
-                            }
-                            merged.push(MergedRow {
-                                line: row.line,
+                    later.push((
+                        j,
+                        reject(format!(
+                            "duplicate of {unit} {first_line} ({what}) with different values; both rejected, the month is treated as missing (use --duplicates sum to add them)"
+                        )),
+                    ));
+                }
+                DuplicatePolicy::Sum => {
+                    let agree = first.stockout_days == row.stockout_days
+                        && first.reporting_rate == row.reporting_rate;
+                    if agree {
+                        let (line, month, consumed) = (row.line, row.month, row.consumed);
+                        let f = &mut rows[idx];
+                        f.consumed = match (f.consumed, consumed) {
+                            (None, None) => None,
+                            (a, b) => Some(a.unwrap_or(0.0) + b.unwrap_or(0.0)),
+                        };
+                        folded.push((
+                            j,
+                            MergedRow {
+                                line,
                                 into_line: first_line,
-                                month: row.month,
-                            });
-                        } else {
-                            rejected.push(RejectedRow {
-                                line: row.line,
-                                column: column_of(&row, None),
-                                value: String::new(),
-                                reason: format!(
-                                    "duplicate of {unit} {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
-                                ),
-                                raw: String::new(),
-                            });
-                        }
+                                month,
+                            },
+                        ));
+                    } else {
+                        later.push((
+                            j,
+                            reject(format!(
+                                "duplicate of {unit} {first_line} ({what}) with different stockout_days or reporting_rate, so the quantities cannot be added"
+                            )),
+                        ));
                     }
                 }
             }
         }
     }
-    let mut out = Vec::with_capacity(keep.len());
-    for (row, bad) in keep.into_iter().zip(conflicted) {
-        let Some(row) = row else { continue };
-        if bad {
-            let what = describe_key(&row);
-            rejected.push(RejectedRow {
-                line: row.line,
-                column: column_of(&row, None),
-                value: String::new(),
-                reason: format!("has a duplicate with different values later in the file ({what}); both rejected, the month is treated as missing"),
-                raw: String::new(),
-            });
-        } else {
-            out.push(row);
-        }
+    later.sort_unstable_by_key(|(j, _)| *j);
+    rejected.extend(later.into_iter().map(|(_, r)| r));
+    folded.sort_unstable_by_key(|(j, _)| *j);
+    merged.extend(folded.into_iter().map(|(_, m)| m));
+    conflicted.sort_unstable();
+    for idx in conflicted {
+        dropped[idx] = true;
+        let row = &rows[idx];
+        let what = describe_key(row);
+        rejected.push(RejectedRow {
+            line: row.line,
+            column: column_of(row, None),
+            value: String::new(),
+            reason: format!("has a duplicate with different values later in the file ({what}); both rejected, the month is treated as missing"),
+            raw: String::new(),
+        });
     }
-    out
+    let mut k = 0;
+    rows.retain(|_| {
+        k += 1;
+        !dropped[k - 1]
+    });
+    rows
 }
 
 fn describe_key(row: &InputRow) -> String {

@@ -880,9 +880,8 @@ fn check_unpacked(
     bytes: &[u8],
     limits: &SheetLimits,
 ) -> std::result::Result<Option<usize>, String> {
-    if !bytes.starts_with(b"PK") {
-        return Ok(None);
-    }
+    // Not only files that start as a zip: the zip reader (and calamine
+    // with it) finds an archive after other bytes too.
     let Ok(mut zip) = zip::ZipArchive::new(Cursor::new(bytes)) else {
         return Ok(None);
     };
@@ -894,6 +893,14 @@ fn check_unpacked(
             SheetLimits::UNPACKED_VAR
         )
     };
+    // A binary workbook (.xlsb), whatever its name: calamine would open it,
+    // but its .xlsb reader stops with a panic on many damaged files (found
+    // by the read_workbook fuzz target), so it is refused by name.
+    if zip.by_name("xl/workbook.bin").is_ok() && zip.by_name("xl/workbook.xml").is_err() {
+        return Err(
+            "the file is a binary workbook (.xlsb), which provisio does not read; it reads .xlsx, .xlsm, .xls and .ods workbooks and CSV files: open it in the spreadsheet program and save it as an .xlsx workbook or as CSV".to_string(),
+        );
+    }
     let mut total = 0u64;
     let mut active = None;
     let is_ods = zip.by_name("content.xml").is_ok();
@@ -912,6 +919,9 @@ fn check_unpacked(
             if *counted.total > limit {
                 return Err(too_large(&name));
             }
+            let grid = grid.map_err(|e| format!(
+                "the workbook is damaged: its part {name} cannot be read ({e}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+            ))?;
             if grid > limits.max_cells as u64 {
                 return Err(format!(
                     "the workbook's sheets span {grid} cells once their repeated rows and columns are laid out (a cell far from the data, or a repeat count in the millions); provisio stops at {} cells. If it is genuine, raise the limit with the environment variable {}=N, or save the sheet as a CSV file",
@@ -978,8 +988,11 @@ impl<R: Read> Read for Counted<'_, R> {
 /// `content.xml`: it expands repeated cells and rows into a grid from the
 /// first to the last row holding something, as wide as the widest such
 /// row, and keeps each row's cells up to its last value on the way. An
-/// upper estimate; stops counting at a malformed part (calamine names it).
-fn ods_grid(part: impl Read) -> u64 {
+/// upper estimate, read as leniently as calamine reads it (end tags not
+/// matched to their start); a part that cannot be read even so (not XML,
+/// cut short, a checksum that fails) is an error, as a count that stopped
+/// there would let calamine lay out what follows (found by fuzzing).
+fn ods_grid(part: impl Read) -> std::result::Result<u64, String> {
     use quick_xml::events::Event;
     let repeat = |e: &quick_xml::events::BytesStart<'_>, key: &[u8]| -> u64 {
         e.try_get_attribute(key)
@@ -989,6 +1002,9 @@ fn ods_grid(part: impl Read) -> u64 {
             .unwrap_or(1)
     };
     let mut xml = quick_xml::Reader::from_reader(std::io::BufReader::new(part));
+    let config = xml.config_mut();
+    config.check_end_names = false;
+    config.check_comments = false;
     let mut buf = Vec::new();
     let mut total = 0u64;
     // Per sheet: rows laid out so far, first and end of the rows holding
@@ -1021,7 +1037,8 @@ fn ods_grid(part: impl Read) -> u64 {
                 }
                 continue;
             }
-            Ok(Event::Eof) | Err(_) => break,
+            Ok(Event::Eof) => break,
+            Err(e) => return Err(e.to_string()),
             Ok(_) => continue,
         };
         match e.name().as_ref() {
@@ -1055,7 +1072,7 @@ fn ods_grid(part: impl Read) -> u64 {
             _ => {}
         }
     }
-    total
+    Ok(total)
 }
 
 /// The `activeTab` of the workbook view in `xl/workbook.xml` (absent: 0).
@@ -1084,9 +1101,9 @@ fn too_many_cells(limits: &SheetLimits) -> String {
     )
 }
 
-/// Reads the cells of a sheet that hold something, row by row. An .xlsx
-/// sheet is streamed cell by cell; other formats go through calamine's
-/// range (their parts were size-checked first).
+/// Reads the cells of a sheet that hold something, row by row. An .xlsx or
+/// .xlsb sheet is streamed cell by cell; .xls and .ods go through
+/// calamine's range (their laid-out size was checked first).
 fn read_cells<RS: Read + Seek>(
     book: &mut Sheets<RS>,
     name: &str,
@@ -1118,6 +1135,21 @@ fn read_cells<RS: Read + Seek>(
     };
     match book {
         Sheets::Xlsx(x) => {
+            let mut cells = x
+                .worksheet_cells_reader(name)
+                .map_err(|e| format!("cannot read the sheet: {e}"))?;
+            while let Some(c) = cells
+                .next_cell()
+                .map_err(|e| format!("cannot read the sheet: {e}"))?
+            {
+                let at = c.get_position();
+                keep(&mut rows, at, Data::from(c.get_value().clone()))?;
+            }
+        }
+        // A binary workbook (.xlsb) is refused before it is opened (see
+        // check_unpacked); should one get through, its cells are streamed
+        // too, as calamine's range would lay out the whole bounding box.
+        Sheets::Xlsb(x) => {
             let mut cells = x
                 .worksheet_cells_reader(name)
                 .map_err(|e| format!("cannot read the sheet: {e}"))?;
@@ -1164,8 +1196,8 @@ fn read_cells<RS: Read + Seek>(
     Ok(rows)
 }
 
-/// The non-empty formulas of a sheet, streamed for .xlsx; at most the cell
-/// limit of them are kept.
+/// The non-empty formulas of a sheet, streamed for .xlsx and .xlsb; at
+/// most the cell limit of them are kept.
 fn read_formulas<RS: Read + Seek>(
     book: &mut Sheets<RS>,
     name: &str,
@@ -1174,6 +1206,14 @@ fn read_formulas<RS: Read + Seek>(
     let mut out = Formulas::new();
     match book {
         Sheets::Xlsx(x) => {
+            let mut cells = x.worksheet_cells_reader(name).ok()?;
+            while let Ok(Some(c)) = cells.next_formula() {
+                if !c.get_value().is_empty() && out.len() < limits.max_cells {
+                    out.insert(c.get_position(), c.get_value().clone());
+                }
+            }
+        }
+        Sheets::Xlsb(x) => {
             let mut cells = x.worksheet_cells_reader(name).ok()?;
             while let Ok(Some(c)) = cells.next_formula() {
                 if !c.get_value().is_empty() && out.len() < limits.max_cells {

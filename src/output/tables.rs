@@ -49,14 +49,21 @@ pub fn write_cleaned(path: &Path, series: &[CleanSeries]) -> Result<()> {
 }
 
 /// `adjustments.csv`: the adjustment log.
-pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
+pub fn write_adjustments<'a>(
+    path: &Path,
+    log: impl IntoIterator<Item = &'a Adjustment>,
+) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv_writer(w);
         c.write_record([
             "product", "site", "month", "line", "before", "after", "rule", "reason",
         ])
         .map_err(io_err)?;
+        // The reason is formatted here, into one reused buffer.
+        let mut reason = String::new();
         for a in log {
+            reason.clear();
+            a.write_reason(&mut reason);
             c.write_record([
                 &*csv_text(&a.product),
                 &csv_text(a.site.as_deref().unwrap_or("")),
@@ -64,8 +71,8 @@ pub fn write_adjustments(path: &Path, log: &[Adjustment]) -> Result<()> {
                 &a.line.map(|l| l.to_string()).unwrap_or_default(),
                 &fmt_opt(a.before),
                 &fmt_opt(a.after),
-                a.rule.name(),
-                a.reason.as_str(),
+                a.rule().name(),
+                reason.as_str(),
             ])
             .map_err(io_err)?;
         }

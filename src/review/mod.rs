@@ -642,7 +642,7 @@ pub fn review_all(
                 .cleaned
                 .log
                 .iter()
-                .filter(|a| a.product == p.product)
+                .filter(|a| *a.product == *p.product)
                 .collect();
             match review_product(p, v, series, &scorable, &log, settings) {
                 Ok(r) => {
@@ -801,7 +801,9 @@ pub fn review_product(
     let period_months: Vec<YearMonth> = months.iter().map(|m| m.month).collect();
     let mut period_changes: BTreeMap<String, f64> = BTreeMap::new();
     for a in log.iter().filter(|a| period_months.contains(&a.month)) {
-        *period_changes.entry(a.rule.name().to_string()).or_default() += a.delta();
+        *period_changes
+            .entry(a.rule().name().to_string())
+            .or_default() += a.delta();
     }
     let period_audit = Audit::new(
         &months.iter().map(|m| m.actual).collect::<Vec<_>>(),

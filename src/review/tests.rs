@@ -1,5 +1,5 @@
 use super::*;
-use crate::clean::{MonthStatus, Rule};
+use crate::clean::{MonthStatus, Reason};
 
 fn ym(s: &str) -> YearMonth {
     YearMonth::parse(s).unwrap()
@@ -154,8 +154,7 @@ fn period_audit_uses_the_actuals_log() {
         line: Some(2),
         before: Some(100.0),
         after: Some(125.0),
-        rule: Rule::StockoutScaled,
-        reason: String::new(),
+        why: Reason::StockoutScaled { days_out: 6.2 },
     };
     let r = review_product(&p, 0, &s, &[true; 3], &[&entry], &settings()).unwrap();
     assert!((r.period_audit.share.unwrap() - 25.0 / 325.0).abs() < 1e-12);

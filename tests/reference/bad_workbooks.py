@@ -19,9 +19,19 @@ Files:
                         sheet 2 "Data" is visible and active
   far_cell.ods          the contract in A1:C4, then 1,048,570 empty rows
                         repeated, then one cell at column 16384
+  loose_tags.ods        far_cell.ods with its repeated rows written as an
+                        empty element followed by a stray end tag, which
+                        calamine reads past (a stricter count stopped there)
+  zip_after_text.xlsx   far_cell.ods after 600 bytes of text: zip readers
+                        find an archive that does not start the file
+  xlsb_named_xlsx.xlsx  a binary workbook (.xlsb: BIFF12 records, MS-XLSB)
+                        saved under an .xlsx name: the contract in A1:C4, one
+                        stray cell at XFD1048576 and a formula's saved value
+                        beside it; the sheet's dimension claims A1:XFD1048576
 """
 
 import pathlib
+import struct
 import zipfile
 
 OUT = pathlib.Path(__file__).resolve().parents[1] / "data" / "bad"
@@ -147,9 +157,92 @@ def main():
         active=1,
     )
     ods_far()
+    ods_far(
+        "loose_tags.ods",
+        '<table:table-row table:number-rows-repeated="1048570"/></table:table-row>',
+    )
+    xlsb_far()
 
 
-def ods_far():
+def record(typ, payload=b""):
+    """One BIFF12 record (MS-XLSB 2.1.4): type and size as variable-length
+    integers of 7 bits a byte, then the payload."""
+    out = bytearray()
+    if typ < 0x80:
+        out.append(typ)
+    else:
+        out += bytes([(typ & 0x7F) | 0x80, typ >> 7])
+    n = len(payload)
+    while True:
+        b, n = n & 0x7F, n >> 7
+        out.append(b | (0x80 if n else 0))
+        if not n:
+            break
+    return bytes(out) + payload
+
+
+def wide(s):
+    """XLWideString (MS-XLSB 2.5.168): a character count, then UTF-16LE."""
+    return struct.pack("<I", len(s)) + s.encode("utf-16-le")
+
+
+def xlsb_far():
+    # BrtBundleSh (0x009C): visible, tab 1, relationship rId1, name Data;
+    # BrtEndBundleShs (0x0090); BrtCalcProp (0x009D) ends the names.
+    workbook = (
+        record(0x0083)
+        + record(0x008F)
+        + record(0x009C, struct.pack("<II", 0, 1) + wide("rId1") + wide("Data"))
+        + record(0x0090)
+        + record(0x009D, b"\0" * 8)
+        + record(0x0084)
+    )
+    cells = b""
+    for r, row in CONTRACT + [(1048575, [(16383, "x")])]:
+        cells += record(0x0000, struct.pack("<I", r) + b"\0" * 13)  # BrtRowHdr
+        for c, v in row:
+            if isinstance(v, str):
+                cells += record(0x0006, struct.pack("<II", c, 0) + wide(v))  # BrtCellSt
+            else:
+                cells += record(0x0005, struct.pack("<IId", c, 0, float(v)))  # BrtCellReal
+    # A formula's saved number (BrtFmlaNum, 0x0009) at XFD1048575, with an
+    # empty formula, so the reader's formula pass meets a far cell too.
+    cells += record(0x0000, struct.pack("<I", 1048574) + b"\0" * 13)
+    cells += record(0x0009, struct.pack("<IIdH", 16383, 0, 2.0, 0) + struct.pack("<I", 0))
+    sheet = (
+        record(0x0081)  # BrtBeginSheet
+        + record(0x0094, struct.pack("<IIII", 0, 1048575, 0, 16383))  # BrtWsDim
+        + record(0x0091)  # BrtBeginSheetData
+        + cells
+        + record(0x0092)  # BrtEndSheetData
+        + record(0x0082)  # BrtEndSheet
+    )
+    ct = """<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
+<Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">
+<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>
+<Default Extension="bin" ContentType="application/vnd.ms-excel.sheet.binary.macroEnabled.main"/>
+<Override PartName="/xl/worksheets/sheet1.bin" ContentType="application/vnd.ms-excel.worksheet"/>
+</Types>"""
+    rels = RELS.replace("xl/workbook.xml", "xl/workbook.bin")
+    wb_rels = (
+        '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
+        '<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet1.bin"/>'
+        "</Relationships>"
+    )
+    with zipfile.ZipFile(OUT / "xlsb_named_xlsx.xlsx", "w") as z:
+        for part, data in [
+            ("[Content_Types].xml", ct.encode()),
+            ("_rels/.rels", rels.encode()),
+            ("xl/workbook.bin", workbook),
+            ("xl/_rels/workbook.bin.rels", wb_rels.encode()),
+            ("xl/worksheets/sheet1.bin", sheet),
+        ]:
+            info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            z.writestr(info, data)
+
+
+def ods_far(name="far_cell.ods", repeated=None):
     rows = []
     for r, cells in CONTRACT:
         tds = ""
@@ -160,7 +253,8 @@ def ods_far():
                 tds += f'<table:table-cell office:value-type="float" office:value="{v}"><text:p>{v}</text:p></table:table-cell>'
         rows.append(f"<table:table-row>{tds}</table:table-row>")
     rows.append(
-        '<table:table-row table:number-rows-repeated="1048570"><table:table-cell table:number-columns-repeated="3"/></table:table-row>'
+        repeated
+        or '<table:table-row table:number-rows-repeated="1048570"><table:table-cell table:number-columns-repeated="3"/></table:table-row>'
     )
     rows.append(
         '<table:table-row><table:table-cell table:number-columns-repeated="16383"/><table:table-cell office:value-type="string"><text:p>x</text:p></table:table-cell></table:table-row>'
@@ -177,13 +271,19 @@ def ods_far():
         '<manifest:file-entry manifest:full-path="/" manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/>'
         '<manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/></manifest:manifest>'
     )
-    with zipfile.ZipFile(OUT / "far_cell.ods", "w") as z:
+    with zipfile.ZipFile(OUT / name, "w") as z:
         info = zipfile.ZipInfo("mimetype", date_time=(2024, 1, 1, 0, 0, 0))
         z.writestr(info, "application/vnd.oasis.opendocument.spreadsheet")
         for part, text in [("content.xml", content), ("META-INF/manifest.xml", manifest)]:
             info = zipfile.ZipInfo(part, date_time=(2024, 1, 1, 0, 0, 0))
             info.compress_type = zipfile.ZIP_DEFLATED
             z.writestr(info, text)
+    if name != "far_cell.ods":
+        return
+    # The same archive after some text, as a file damaged in transfer or
+    # built to pass a check of the first bytes.
+    prefix = ("not a workbook: " * 40)[:600].encode()
+    (OUT / "zip_after_text.xlsx").write_bytes(prefix + (OUT / "far_cell.ods").read_bytes())
 
 
 if __name__ == "__main__":
