@@ -33,22 +33,33 @@ Model mapping (provisio candidate -> statsforecast 2.1.1):
 | holt-winters-multiplicative | AutoETS(model="MAM", damped=False) |
 | holt-winters-multiplicative-damped | AutoETS(model="MAM", damped=True) |
 | ets-simple / ets-holt / ets-damped | AutoETS(model="ANN" / "AAN" / "AAN" damped) |
-| ets-auto | AutoETS(season_length=1) (model="ZZZ": best non-seasonal form by AICc) |
+| ets-auto | AutoETS(season_length=12) (model="ZZZ": best of its seasonal and non-seasonal forms by AICc) |
 | mstl-ets | MSTL(season_length=12, trend_forecaster=AutoETS(model="ZZN")) |
-| combination | none (statsforecast has no combination candidate) |
+| arima-auto | AutoARIMA(season_length=12) (stepwise search by AICc, KPSS and seasonal-strength tests) |
+| combination | mean of the AutoETS(season_length=12), AutoARIMA and Theta forecasts above, each clipped at zero first as provisio's members are (derived from their outputs: no fit of its own) |
+
+The candidate list is `provisio models` (19 models) plus the combination.
 
 Differences: provisio's Holt-Winters is fitted by least squares from heuristic
 initial states; statsforecast's seasonal ETS maximises the likelihood with
 estimated states (MAM: multiplicative errors), so those four are near
-equivalents, not the same estimator. WindowAverage, the Croston family and
+equivalents, not the same estimator. `ets-auto` and AutoETS(season_length=12)
+both choose among the 15 ETS forms by AICc, and `arima-auto` and
+AutoARIMA(season_length=12) both run a stepwise AICc search after unit-root
+and seasonal-strength tests, but starting values, optimisers, parameter
+bounds and search details differ, so these two pairs (and the combination
+built on them) are near equivalents too, not the same estimators; their
+scores are compared side by side, as for Holt-Winters. WindowAverage, the Croston family and
 TSB have no intervals of their own in statsforecast; they get
 ConformalIntervals(h=12, n_windows=2) (statsforecast's own way), which adds
-two extra fits per window. provisio also runs selection and the combination;
-statsforecast does not select. Forecasts are clipped at zero before scoring,
+two extra fits per window. provisio also runs selection; statsforecast does
+not select. Forecasts are clipped at zero before scoring,
 as provisio clips them. A model that fails on a series (MAM on data with
 zeros: provisio calls it not applicable) is replaced by statsforecast's
 `fallback_model=Naive()` so one series cannot stop the run; those scores are
-left out of the comparison.
+left out of the comparison. Each use of the fallback is counted per model
+(`fallbacks` in the results) so that no other model's scores are silently
+the fallback's.
 
 Scores are provisio's (README, "Backtest"): per series and model over all
 origins and horizons, MAPE = mean |F - A| / A over A > 0; WAPE = sum|F - A| /
@@ -64,9 +75,12 @@ scored on the hidden months the way `provisio evaluate --holdout 12` scores
 its per-product selection (MAPE per series then mean and median; MASE with
 the scale of the training months; WAPE over all).
 
-Timing: wall clock (time.perf_counter) of cross_validation + forecast, with
-n_jobs=1 and n_jobs=2, after a warm-up call on two series that pays numba's
-JIT compilation (its time is reported separately); provisio: the release
+Timing: wall clock (time.perf_counter) of cross_validation + forecast (and
+the combination's mean), with n_jobs=1 and n_jobs=2 (`--n-jobs`), after a
+warm-up call on two series that pays the first call's one-off costs (its
+time is reported separately; statsforecast 2.1.1 needs no numba, so there
+is no JIT compilation to exclude); the 1-, 5- and 15-minute load averages
+are recorded before and after every timed run; provisio: the release
 binary `provisio forecast DATA --out DIR --no-report --no-workbook -q`, wall
 clock of the whole process (reading, cleaning, backtest, selection,
 projection, writing every CSV).
@@ -74,12 +88,12 @@ projection, writing every CSV).
 Run (from the repository root, after `cargo build --release`):
 
     target/release/provisio generate --products 1000 --sites 1 --months 60 --seed 3 --out /tmp/big1000.csv
-    /tmp/refvenv/bin/python tests/reference/speed_statsforecast.py \
+    python3 tests/reference/speed_statsforecast.py \
         --provisio target/release/provisio --big /tmp/big1000.csv --big-limit 100 \
         --out tests/reference/speed_statsforecast.json
     # then, with the machine quiet, provisio alone on all 1,000 series:
     cargo bench --bench throughput --no-run   # prints the bench binary's path
-    /tmp/refvenv/bin/python tests/reference/speed_statsforecast.py \
+    python3 tests/reference/speed_statsforecast.py \
         --provisio target/release/provisio --big /tmp/big1000.csv \
         --quiet-runs target/release/deps/throughput-<hash> --out tests/reference/speed_statsforecast.json
 """
@@ -142,13 +156,64 @@ def models(h=H):
         AutoETS(season_length=1, model="ANN", alias="ets-simple"),
         AutoETS(season_length=1, model="AAN", damped=False, alias="ets-holt"),
         AutoETS(season_length=1, model="AAN", damped=True, alias="ets-damped"),
-        AutoETS(season_length=1, model="ZZZ", alias="ets-auto"),
+        AutoETS(season_length=PERIOD, model="ZZZ", alias="ets-auto"),
         MSTL(season_length=PERIOD, trend_forecaster=AutoETS(model="ZZN"), alias="mstl-ets"),
+        AutoARIMA(season_length=PERIOD, alias="arima-auto"),
     ]
 
 
+COMBINATION = "combination"
+COMBINATION_MEMBERS = ["ets-auto", "arima-auto", "theta"]  # provisio's src/backtest.rs
+
+
 def model_names():
-    return [m.alias for m in models()]
+    return [m.alias for m in models()] + [COMBINATION]
+
+
+def add_combination(frame):
+    """The combination's columns (point and every interval bound): the mean of
+    its members' columns, each clipped at zero first, as provisio's
+    `mean_forecast` does (src/backtest.rs)."""
+    suffixes = [""] + [f"-{side}-{lv}" for lv in LEVELS for side in ("lo", "hi")]
+    combined = {
+        COMBINATION + sfx: frame[[m + sfx for m in COMBINATION_MEMBERS]].clip(lower=0.0).mean(axis=1, skipna=False)
+        for sfx in suffixes
+    }
+    return pd.concat([frame, pd.DataFrame(combined, index=frame.index)], axis=1)
+
+
+class CountedNaive(Naive):
+    """statsforecast's Naive as the fallback, noting in FALLBACK_LOG which
+    model failed each time it stands in (statsforecast's fallback is silent).
+    The failing model is read from the caller's frame (statsforecast 2.1.1's
+    core.py calls the fallback with that model in its local `model`)."""
+
+    def _note(self):
+        path = os.environ.get("PROVISIO_SPEED_FALLBACK_LOG")
+        if not path:
+            return
+        try:
+            name = repr(sys._getframe(2).f_locals.get("model", "unknown"))
+        except (ValueError, AttributeError):
+            name = "unknown"
+        with open(path, "a") as f:
+            f.write(name + "\n")
+
+    def forecast(self, *args, **kwargs):
+        self._note()
+        return super().forecast(*args, **kwargs)
+
+    def fit(self, *args, **kwargs):
+        self._note()
+        return super().fit(*args, **kwargs)
+
+
+def fallback_counts(path):
+    if not os.path.exists(path):
+        return {}
+    with open(path) as f:
+        names = [line.strip() for line in f if line.strip()]
+    return {n: names.count(n) for n in sorted(set(names))}
 
 
 def run_provisio(binary, data, out):
@@ -178,11 +243,11 @@ def cleaned_long(folder):
 def sf_run(df, n_jobs):
     """The protocol in statsforecast; returns (cv, forecast, seconds cv, seconds forecast)."""
     t0 = time.perf_counter()
-    sf = StatsForecast(models=models(H), freq="MS", n_jobs=n_jobs, fallback_model=Naive())
-    cv = sf.cross_validation(df=df, h=H, n_windows=K, step_size=1, level=LEVELS)
+    sf = StatsForecast(models=models(H), freq="MS", n_jobs=n_jobs, fallback_model=CountedNaive())
+    cv = add_combination(sf.cross_validation(df=df, h=H, n_windows=K, step_size=1, level=LEVELS))
     t1 = time.perf_counter()
-    sf = StatsForecast(models=models(PROJECTION), freq="MS", n_jobs=n_jobs, fallback_model=Naive())
-    fc = sf.forecast(df=df, h=PROJECTION, level=LEVELS)
+    sf = StatsForecast(models=models(PROJECTION), freq="MS", n_jobs=n_jobs, fallback_model=CountedNaive())
+    fc = add_combination(sf.forecast(df=df, h=PROJECTION, level=LEVELS))
     t2 = time.perf_counter()
     return cv, fc, t1 - t0, t2 - t1
 
@@ -331,34 +396,42 @@ def machine():
 
 
 def load():
-    return os.getloadavg()[0]
+    """The 1-, 5- and 15-minute load averages (as `uptime` shows them)."""
+    return [round(x, 2) for x in os.getloadavg()]
 
 
 def time_dataset(label, data, repeats):
     """Times provisio and statsforecast on one dataset; returns the timing record and the cleaned frame."""
     tmp = tempfile.mkdtemp(prefix=f"speed_{label}_")
     pv_out = os.path.join(tmp, "provisio")
-    rec = {"data": data, "provisio_s": [], "load_before": []}
+    rec = {"data": data, "provisio_s": [], "load_before": [], "load_after": []}
     for _ in range(repeats):
-        rec["load_before"].append(round(load(), 2))
+        rec["load_before"].append(load())
         rec["provisio_s"].append(round(run_provisio(ARGS.provisio, data, pv_out), 3))
+        rec["load_after"].append(load())
     df = cleaned_long(pv_out)
     rec["series"] = int(df["unique_id"].nunique())
     rec["months_total"] = int(len(df))
     sdf = df[["unique_id", "ds", "y"]]
     cv = None
-    for n_jobs in (1, 2):
+    for n_jobs in ARGS.n_jobs:
         key = f"statsforecast_n_jobs_{n_jobs}"
         rec[key] = []
         for _ in range(repeats):
+            log = os.path.join(tmp, f"fallbacks_{n_jobs}_{len(rec[key])}.txt")
+            os.environ["PROVISIO_SPEED_FALLBACK_LOG"] = log
             before = load()
             cv, fc, t_cv, t_fc = sf_run(sdf, n_jobs)
+            after = load()
+            os.environ.pop("PROVISIO_SPEED_FALLBACK_LOG")
             rec[key].append(
                 {
                     "cross_validation_s": round(t_cv, 2),
                     "forecast_s": round(t_fc, 2),
                     "total_s": round(t_cv + t_fc, 2),
-                    "load_before": round(before, 2),
+                    "load_before": before,
+                    "load_after": after,
+                    "fallbacks": fallback_counts(log),
                 }
             )
             print(label, key, rec[key][-1], file=sys.stderr, flush=True)
@@ -367,9 +440,32 @@ def time_dataset(label, data, repeats):
 
 
 def main():
-    result = {"machine": machine(), "protocol": {"origins": K, "backtest_horizon": H, "projection": PROJECTION,
-                                                 "levels": LEVELS}}
-    # warm-up: numba JIT of the statsforecast models, on two open series
+    if ARGS.skip_open:
+        with open(ARGS.out) as f:
+            result = json.load(f)
+    else:
+        result = {"machine": machine(), "protocol": {"origins": K, "backtest_horizon": H,
+                                                     "projection": PROJECTION, "levels": LEVELS}}
+    result["warm_up" if not ARGS.skip_open else "warm_up_big"] = warm_up()
+    if not ARGS.skip_open:
+        open_part(result)
+        write(result)  # the open set's results are kept even if the --big part is stopped
+    if ARGS.big:
+        big_part(result)
+        write(result)
+
+
+def write(result):
+    tmp = ARGS.out + ".tmp"
+    with open(tmp, "w") as f:
+        json.dump(result, f, indent=1)
+        f.write("\n")
+    os.replace(tmp, ARGS.out)
+
+
+def warm_up():
+    """Pays statsforecast's one-off first-call costs on two open series and
+    times a second call for comparison."""
     open_tmp = tempfile.mkdtemp(prefix="speed_warm_")
     run_provisio(ARGS.provisio, ARGS.open, open_tmp)
     warm = cleaned_long(open_tmp)
@@ -380,48 +476,49 @@ def main():
     t0 = time.perf_counter()
     sf_run(warm, 1)
     second = time.perf_counter() - t0
-    result["warm_up"] = {
+    rec = {
         "series": 2,
         "first_call_s": round(first, 2),
         "second_call_s": round(second, 2),
-        "jit_compilation_s_about": round(first - second, 2),
+        "first_call_overhead_s_about": round(first - second, 2),
     }
-    print("warm-up", result["warm_up"], file=sys.stderr, flush=True)
+    print("warm-up", rec, file=sys.stderr, flush=True)
+    return rec
 
+
+def open_part(result):
     rec, df, cv, pv_out = time_dataset("open", ARGS.open, ARGS.repeats)
     result["open_timing"] = rec
     sf_scores = backtest_scores(df, cv)
     result["open_backtest_comparison"] = compare_scores(sf_scores, pv_out)
-    sf_scores.to_csv(os.path.join(ARGS.scores_dir, "speed_statsforecast_open_scores.csv"), index=False,
-                     float_format="%.6g") if ARGS.scores_dir else None
-
+    if ARGS.scores_dir:
+        sf_scores.to_csv(os.path.join(ARGS.scores_dir, "speed_statsforecast_open_scores.csv"), index=False,
+                         float_format="%.6g")
     table, secs = holdout_statsforecast(df)
     result["open_holdout_statsforecast"] = table
     result["open_holdout_statsforecast_fit_s"] = round(secs, 2)
     result["open_holdout_provisio"] = holdout_provisio(ARGS.provisio, ARGS.open)
 
-    if ARGS.big:
-        full = {"data": ARGS.big, "provisio_s": [], "load_before": []}
-        big_tmp = tempfile.mkdtemp(prefix="speed_bigfull_")
-        for _ in range(ARGS.repeats):
-            full["load_before"].append(round(load(), 2))
-            full["provisio_s"].append(round(run_provisio(ARGS.provisio, ARGS.big, big_tmp), 3))
-        print("big full provisio", full, file=sys.stderr, flush=True)
-        result["big_full_provisio"] = full
-        data = ARGS.big
-        if ARGS.big_limit:
-            raw = pd.read_csv(ARGS.big, dtype=str, keep_default_na=False)
-            first = sorted(raw["product"].unique())[: ARGS.big_limit]
-            data = os.path.join(big_tmp, f"first{ARGS.big_limit}.csv")
-            raw[raw["product"].isin(first)].to_csv(data, index=False)
-        rec, df_big, cv_big, pv_big = time_dataset("big", data, ARGS.repeats)
-        rec["subset_of"] = ARGS.big if ARGS.big_limit else None
-        result["big_timing"] = rec
-        cmp = compare_scores(backtest_scores(df_big, cv_big), pv_big)
-        result["big_backtest_comparison"] = cmp
-    with open(ARGS.out, "w") as f:
-        json.dump(result, f, indent=1)
-        f.write("\n")
+
+def big_part(result):
+    full = {"data": ARGS.big, "provisio_s": [], "load_before": [], "load_after": []}
+    big_tmp = tempfile.mkdtemp(prefix="speed_bigfull_")
+    for _ in range(ARGS.repeats):
+        full["load_before"].append(load())
+        full["provisio_s"].append(round(run_provisio(ARGS.provisio, ARGS.big, big_tmp), 3))
+        full["load_after"].append(load())
+    print("big full provisio", full, file=sys.stderr, flush=True)
+    result["big_full_provisio"] = full
+    data = ARGS.big
+    if ARGS.big_limit:
+        raw = pd.read_csv(ARGS.big, dtype=str, keep_default_na=False)
+        first = sorted(raw["product"].unique())[: ARGS.big_limit]
+        data = os.path.join(big_tmp, f"first{ARGS.big_limit}.csv")
+        raw[raw["product"].isin(first)].to_csv(data, index=False)
+    rec, df_big, cv_big, pv_big = time_dataset("big", data, ARGS.repeats)
+    rec["subset_of"] = ARGS.big if ARGS.big_limit else None
+    result["big_timing"] = rec
+    result["big_backtest_comparison"] = compare_scores(backtest_scores(df_big, cv_big), pv_big)
 
 
 def quiet_runs():
@@ -438,12 +535,12 @@ def quiet_runs():
         n, t_clean, t_fc, per_s, ms, peak = out.strip().splitlines()[-1].split()
         rec["bench"].append({"series": int(n), "clean_s": float(t_clean), "forecast_s": float(t_fc),
                              "series_per_s": float(per_s), "peak_mb": float(peak),
-                             "load_before": round(before, 2)})
+                             "load_before": before})
     tmp = tempfile.mkdtemp(prefix="speed_quiet_")
     for _ in range(ARGS.repeats):
         before = load()
         rec["provisio_cli"].append({"data": ARGS.big, "wall_s": round(run_provisio(ARGS.provisio, ARGS.big, tmp), 3),
-                                    "load_before": round(before, 2)})
+                                    "load_before": before})
     result["quiet_runs"] = rec
     print(json.dumps(rec, indent=1), file=sys.stderr)
     with open(ARGS.out, "w") as f:
@@ -459,6 +556,10 @@ if __name__ == "__main__":
     ap.add_argument("--big-limit", type=int, default=None,
                     help="time both tools on only the first N products of --big (statsforecast is slow)")
     ap.add_argument("--repeats", type=int, default=2)
+    ap.add_argument("--n-jobs", type=lambda v: [int(x) for x in v.split(",")], default=[1, 2],
+                    help="statsforecast's n_jobs values to time, comma-separated (default 1,2)")
+    ap.add_argument("--skip-open", action="store_true",
+                    help="keep the open-set results already in --out and time only --big")
     ap.add_argument("--scores-dir", default=None)
     ap.add_argument("--out", default="tests/reference/speed_statsforecast.json")
     ap.add_argument("--quiet-runs", default=None, metavar="BENCH_BINARY",
