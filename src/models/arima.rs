@@ -701,6 +701,20 @@ struct Work {
 }
 
 const MAX_PF: usize = 5 + 2 * M + 5;
+
+/// The (lag, coefficient) pairs of the nonzero coefficients of an expanded
+/// polynomial (`coef[k]` at lag k + 1), in increasing lag, written into
+/// `out` (at least `coef.len()` long); returns them.
+fn nonzero_lags<'a>(coef: &[f64], out: &'a mut [(usize, f64); MAX_PF]) -> &'a [(usize, f64)] {
+    let mut n = 0;
+    for (k, &c) in coef.iter().enumerate() {
+        if c != 0.0 {
+            out[n] = (k + 1, c);
+            n += 1;
+        }
+    }
+    &out[..n]
+}
 const MAX_R: usize = MAX_PF + 1;
 const MAX_K: usize = 15;
 
@@ -745,27 +759,11 @@ fn css_resid(
     // The expanded seasonal polynomials are mostly zeros: keep the nonzero
     // lags (in increasing order, so each sum adds the same terms in the
     // same order as a loop over every lag skipping zeros).
-    // (p ≤ 5 and P ≤ 2, so at most 5 + 24 lags: module docs.)
-    const LAGS: usize = 5 + 2 * M;
-    if pf > LAGS || qf > LAGS {
+    if pf > MAX_PF || qf > MAX_PF {
         return None;
     }
-    let mut ar = [(0usize, 0.0f64); LAGS];
-    let mut ma = [(0usize, 0.0f64); LAGS];
-    let (mut na, mut nm) = (0, 0);
-    for (j, &f) in phi.iter().enumerate() {
-        if f != 0.0 {
-            ar[na] = (j + 1, f);
-            na += 1;
-        }
-    }
-    for (j, &th) in theta.iter().enumerate() {
-        if th != 0.0 {
-            ma[nm] = (j + 1, th);
-            nm += 1;
-        }
-    }
-    let (ar, ma) = (&ar[..na], &ma[..nm]);
+    let (mut ar, mut ma) = ([(0usize, 0.0f64); MAX_PF], [(0usize, 0.0f64); MAX_PF]);
+    let (ar, ma) = (nonzero_lags(phi, &mut ar), nonzero_lags(theta, &mut ma));
     for t in pf..n {
         let mut e = w[t] - c;
         for &(lag, f) in ar {
@@ -866,23 +864,8 @@ fn initial_cov(
     }
     // State element i (0-based) = Σ_{m≥1} φ_{i+m−1} y_{t−m} + Σ_{m≥0} θ_{i+m} ε_{t−m}
     // for i ≥ 1, and y_t for i = 0; sums over the non-zero coefficients only.
-    let mut nzf = [(0usize, 0.0f64); MAX_PF];
-    let mut nzt = [(0usize, 0.0f64); MAX_PF];
-    let mut nf = 0;
-    let mut nt = 0;
-    for (k, &f) in phi.iter().enumerate() {
-        if f != 0.0 {
-            nzf[nf] = (k + 1, f);
-            nf += 1;
-        }
-    }
-    for (k, &t) in theta.iter().enumerate() {
-        if t != 0.0 {
-            nzt[nt] = (k + 1, t);
-            nt += 1;
-        }
-    }
-    let (nzf, nzt) = (&nzf[..nf], &nzt[..nt]);
+    let (mut nzf, mut nzt) = ([(0usize, 0.0f64); MAX_PF], [(0usize, 0.0f64); MAX_PF]);
+    let (nzf, nzt) = (nonzero_lags(phi, &mut nzf), nonzero_lags(theta, &mut nzt));
     let th = |k: usize| {
         if k >= 1 && k <= theta.len() {
             theta[k - 1]
