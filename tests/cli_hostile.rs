@@ -1148,5 +1148,34 @@ fn a_changes_workbook_in_old_style_xls_is_sized_before_it_is_read() {
         ),
         "{out}"
     );
+    // The same sheet with a stray cell at XFD1048576 (.xlsx) given as the
+    // changes file: read cell by cell like a data sheet, so its columns are
+    // checked and named (without it this run aborted asking for 512 GiB).
+    std::fs::copy(
+        common::repo("tests/data/bad/far_cell.xlsx"),
+        d.join("far_cell.xlsx"),
+    )
+    .unwrap();
+    let mut c = std::process::Command::new("sh");
+    c.current_dir(d)
+        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
+        .arg(env!("CARGO_BIN_EXE_provisio"))
+        .args([
+            "forecast",
+            "a.csv",
+            "--out",
+            "o2",
+            "--changes",
+            "far_cell.xlsx",
+        ]);
+    let o = c.output().unwrap();
+    let out = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{out}");
+    assert!(
+        out.contains(
+            "error: far_cell.xlsx: sheet 'Data', row 1, column B (month): unknown column 'month'"
+        ),
+        "{out}"
+    );
     assert!(!d.join("o").exists(), "{out}");
 }

@@ -7,10 +7,9 @@
 //! (a day, or a date cell, is accepted and ignored). Errors name the file,
 //! the line (or sheet row) and the column.
 
-use std::io::Cursor;
 use std::path::Path;
 
-use calamine::{Data, Reader};
+use calamine::Data;
 
 use super::{Change, Kind, KINDS};
 use crate::calendar::YearMonth;
@@ -465,39 +464,32 @@ fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, Header, Vec<Row>)> {
         column: None,
         message,
     };
-    // An .xls is sized before calamine lays it out (see data::xls).
-    crate::data::xls::check_xls(bytes, &crate::data::SheetLimits::default())
-        .map_err(|m| err(None, 0, m))?;
-    let mut wb = calamine::open_workbook_auto_from_rs(Cursor::new(bytes))
-        .map_err(|e| err(None, 0, format!("cannot open the workbook: {e}")))?;
-    let names = wb.sheet_names();
-    let name = names
-        .iter()
-        .find(|n| n.trim().eq_ignore_ascii_case("changes"))
-        .or_else(|| names.first())
-        .cloned()
-        .ok_or_else(|| err(None, 0, "the workbook has no sheet".into()))?;
-    let range = wb
-        .worksheet_range(&name)
-        .map_err(|e| err(Some(&name), 0, format!("cannot read the sheet: {e}")))?;
-    let (r0, c0) = range.start().unwrap_or((0, 0));
+    // Read as the data reader reads a sheet: sizes checked first, only the
+    // cells with something in them kept (a stray far cell costs one cell).
+    let pick = |names: &[String]| {
+        names
+            .iter()
+            .find(|n| n.trim().eq_ignore_ascii_case("changes"))
+            .or_else(|| names.first())
+            .cloned()
+    };
+    let (name, stored) =
+        crate::data::read_sheet_cells(bytes, &crate::data::SheetLimits::default(), &pick)
+            .map_err(|(sheet, m)| err(sheet.as_deref(), 0, m))?;
     let mut header: Option<(u64, Vec<String>)> = None;
     let mut rows = Vec::new();
-    for (i, row) in range.rows().enumerate() {
-        let number = (r0 as u64) + i as u64 + 1;
-        let mut cells = vec![String::new(); c0 as usize];
-        for (j, d) in row.iter().enumerate() {
-            let c = sheet_cell(d).map_err(|m| Error::Sheet {
+    for row in stored {
+        let number = u64::from(row.row) + 1;
+        let width = row.cells.last().map_or(0, |(c, _)| *c as usize + 1);
+        let mut cells = vec![String::new(); width];
+        for (col, d) in &row.cells {
+            cells[*col as usize] = sheet_cell(d).map_err(|m| Error::Sheet {
                 file: file.to_string(),
                 sheet: Some(name.clone()),
                 row: number,
-                column: Some(format!(
-                    "column {}",
-                    crate::data::column_letter(c0 + j as u32)
-                )),
+                column: Some(format!("column {}", crate::data::column_letter(*col))),
                 message: format!("{m}; give a plain value"),
             })?;
-            cells.push(c);
         }
         if cells.iter().all(|c| c.trim().is_empty()) {
             continue;

@@ -17,6 +17,7 @@ pub use read::{
     TableLayout, MAX_QUANTITY,
 };
 pub use series::{build_series, MonthObs, ProductData, SiteSeries};
+pub(crate) use sheet::read_sheet_cells;
 pub use sheet::{
     column_letter, is_workbook, read_bytes, read_path, read_sheet_bytes, WORKBOOK_EXTENSIONS,
 };

@@ -277,6 +277,43 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
     })
 }
 
+/// A sheet of another workbook input (the changes file), read as the data
+/// reader reads it: the unpacked size and an .xls's laid-out size checked
+/// first, only the cells with something in them kept (within the cell
+/// limit, so memory follows the cells, not the sheet's extent), and a
+/// panic of the workbook reader turned into an error. `pick` chooses the
+/// sheet from the workbook's sheet names. Returns the sheet's name and its
+/// rows; an error carries the sheet's name when one was chosen.
+pub(crate) fn read_sheet_cells(
+    bytes: &[u8],
+    limits: &SheetLimits,
+    pick: &dyn Fn(&[String]) -> Option<String>,
+) -> std::result::Result<(String, Vec<StoredRow>), (Option<String>, String)> {
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        check_unpacked(bytes, limits).map_err(|m| (None, m))?;
+        super::xls::check_xls(bytes, limits).map_err(|m| (None, m))?;
+        let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes))
+            .map_err(|e| (None, format!("cannot open the workbook: {e}")))?;
+        let name = pick(&book.sheet_names())
+            .ok_or_else(|| (None, "the workbook has no sheet".to_string()))?;
+        let rows = read_cells(&mut book, &name, limits).map_err(|m| (Some(name.clone()), m))?;
+        Ok((name, rows))
+    }))
+    .unwrap_or_else(|panic| {
+        let why = panic
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| panic.downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        Err((
+            None,
+            format!(
+                "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+            ),
+        ))
+    })
+}
+
 fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
     let file_err =
         |sheet: Option<&str>, row: u64, column: Option<String>, message: String| Error::Sheet {
