@@ -1122,26 +1122,25 @@ fn a_changes_workbook_in_old_style_xls_is_sized_before_it_is_read() {
     let dir = tempfile::tempdir().unwrap();
     let d = dir.path();
     two_inputs(d);
-    std::fs::copy(
-        common::repo("tests/data/bad/far_cell.xls"),
-        d.join("far_cell.xls"),
-    )
-    .unwrap();
-    let mut c = std::process::Command::new("sh");
-    c.current_dir(d)
-        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
-        .arg(env!("CARGO_BIN_EXE_provisio"))
-        .args([
-            "forecast",
-            "a.csv",
-            "--out",
-            "o",
-            "--changes",
-            "far_cell.xls",
-        ]);
-    let o = c.output().unwrap();
-    let out = text(&o);
-    assert_eq!(o.status.code(), Some(1), "{out}");
+    // `forecast a.csv --changes FILE` (a copy of tests/data/bad/FILE) with
+    // the address space capped at 1 GB.
+    let forecast_with = |file: &str, out: &str| {
+        std::fs::copy(
+            common::repo(&format!("tests/data/bad/{file}")),
+            d.join(file),
+        )
+        .unwrap();
+        let o = std::process::Command::new("sh")
+            .current_dir(d)
+            .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
+            .arg(env!("CARGO_BIN_EXE_provisio"))
+            .args(["forecast", "a.csv", "--out", out, "--changes", file])
+            .output()
+            .unwrap();
+        (o.status.code(), text(&o))
+    };
+    let (code, out) = forecast_with("far_cell.xls", "o");
+    assert_eq!(code, Some(1), "{out}");
     assert!(
         out.contains(
             "error: far_cell.xls: the cells of sheet 1 of the workbook span rows 1 to 65536"
@@ -1151,26 +1150,8 @@ fn a_changes_workbook_in_old_style_xls_is_sized_before_it_is_read() {
     // The same sheet with a stray cell at XFD1048576 (.xlsx) given as the
     // changes file: read cell by cell like a data sheet, so its columns are
     // checked and named (without it this run aborted asking for 512 GiB).
-    std::fs::copy(
-        common::repo("tests/data/bad/far_cell.xlsx"),
-        d.join("far_cell.xlsx"),
-    )
-    .unwrap();
-    let mut c = std::process::Command::new("sh");
-    c.current_dir(d)
-        .args(["-c", "ulimit -v 1000000; exec \"$0\" \"$@\""])
-        .arg(env!("CARGO_BIN_EXE_provisio"))
-        .args([
-            "forecast",
-            "a.csv",
-            "--out",
-            "o2",
-            "--changes",
-            "far_cell.xlsx",
-        ]);
-    let o = c.output().unwrap();
-    let out = text(&o);
-    assert_eq!(o.status.code(), Some(1), "{out}");
+    let (code, out) = forecast_with("far_cell.xlsx", "o2");
+    assert_eq!(code, Some(1), "{out}");
     assert!(
         out.contains(
             "error: far_cell.xlsx: sheet 'Data', row 1, column B (month): unknown column 'month'"

@@ -254,26 +254,31 @@ impl SheetRow<'_> {
 /// (the active sheet, or the first visible one, unless `options.sheet`
 /// names one). The manifest's hash is of the workbook's bytes.
 pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
-    // calamine panics on some damaged files (a cut-short .xls, found by
-    // tests/hostile_props.rs): such a file is refused like any other.
-    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-        read_sheet_unguarded(source, bytes, options)
-    }))
-    .unwrap_or_else(|panic| {
-        let why = panic
-            .downcast_ref::<&str>()
-            .map(|s| s.to_string())
-            .or_else(|| panic.downcast_ref::<String>().cloned())
-            .unwrap_or_default();
+    guarded(|| read_sheet_unguarded(source, bytes, options)).unwrap_or_else(|message| {
         Err(Error::Sheet {
             file: source.to_string(),
             sheet: None,
             row: 0,
             column: None,
-            message: format!(
-                "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
-            ),
+            message,
         })
+    })
+}
+
+/// Runs a workbook read, turning a panic of the workbook reader into the
+/// message that refuses the file: calamine panics on some damaged files (a
+/// cut-short .xls, found by tests/hostile_props.rs), and such a file is
+/// refused like any other.
+fn guarded<T>(read: impl FnOnce() -> T) -> std::result::Result<T, String> {
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(read)).map_err(|panic| {
+        let why = panic
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| panic.downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        format!(
+            "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
+        )
     })
 }
 
@@ -289,7 +294,7 @@ pub(crate) fn read_sheet_cells(
     limits: &SheetLimits,
     pick: &dyn Fn(&[String]) -> Option<String>,
 ) -> std::result::Result<(String, Vec<StoredRow>), (Option<String>, String)> {
-    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+    guarded(|| {
         check_unpacked(bytes, limits).map_err(|m| (None, m))?;
         super::xls::check_xls(bytes, limits).map_err(|m| (None, m))?;
         let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes))
@@ -298,20 +303,8 @@ pub(crate) fn read_sheet_cells(
             .ok_or_else(|| (None, "the workbook has no sheet".to_string()))?;
         let rows = read_cells(&mut book, &name, limits).map_err(|m| (Some(name.clone()), m))?;
         Ok((name, rows))
-    }))
-    .unwrap_or_else(|panic| {
-        let why = panic
-            .downcast_ref::<&str>()
-            .map(|s| s.to_string())
-            .or_else(|| panic.downcast_ref::<String>().cloned())
-            .unwrap_or_default();
-        Err((
-            None,
-            format!(
-                "the workbook is damaged: the workbook reader stopped ({why}); open it in a spreadsheet program and save it again, or save the sheet as a CSV file"
-            ),
-        ))
     })
+    .unwrap_or_else(|message| Err((None, message)))
 }
 
 fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Result<Dataset> {
