@@ -799,6 +799,25 @@ fn hostile_workbooks_are_read_in_bounded_memory_or_refused_with_the_limit() {
     let (code, out) = inspect_capped_path(&sound, &[("PROVISIO_MAX_SHEET_CELLS", "27")]);
     assert_eq!(code, Some(1), "{out}");
     assert!(out.contains("xlwt.xls: sheet 1 of the workbook declares dimensions of 28 cells; provisio stops at 27 cells"), "{out}");
+    // The same workbook cut short at 5,144 of its 5,632 bytes: calamine's
+    // .xls reader panics on it (slice index out of range). The file is
+    // refused as damaged, and the reader's panic text and backtrace do not
+    // reach the terminal.
+    let w = tempfile::tempdir().unwrap();
+    let cut = w.path().join("cut_short.xls");
+    let bytes = std::fs::read(&sound).unwrap();
+    assert_eq!(bytes.len(), 5632);
+    std::fs::write(&cut, &bytes[..5144]).unwrap();
+    let (code, out) = inspect_capped_path(&cut, &[("RUST_BACKTRACE", "1")]);
+    assert_eq!(code, Some(1), "{out}");
+    assert!(
+        out.contains("cut_short.xls: the workbook is damaged: the workbook reader stopped"),
+        "{out}"
+    );
+    assert!(
+        !out.contains("panicked") && !out.contains("backtrace"),
+        "{out}"
+    );
     // A value that is not a number is not silently taken as a limit.
     let (_, out) = inspect_capped("many_cells.xlsx", &[("PROVISIO_MAX_SHEET_CELLS", "lots")]);
     assert!(

@@ -265,12 +265,31 @@ pub fn read_sheet_bytes(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
     })
 }
 
+thread_local! {
+    /// Set while a guarded workbook read runs on this thread.
+    static IN_GUARDED_READ: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
+}
+
 /// Runs a workbook read, turning a panic of the workbook reader into the
 /// message that refuses the file: calamine panics on some damaged files (a
 /// cut-short .xls, found by tests/hostile_props.rs), and such a file is
-/// refused like any other.
+/// refused like any other. The panic's own text and backtrace are not
+/// printed (the refusal says what happened); panics anywhere else still
+/// reach the hook that was installed before.
 fn guarded<T>(read: impl FnOnce() -> T) -> std::result::Result<T, String> {
-    std::panic::catch_unwind(std::panic::AssertUnwindSafe(read)).map_err(|panic| {
+    static QUIET_HOOK: std::sync::Once = std::sync::Once::new();
+    QUIET_HOOK.call_once(|| {
+        let previous = std::panic::take_hook();
+        std::panic::set_hook(Box::new(move |info| {
+            if !IN_GUARDED_READ.with(|g| g.get()) {
+                previous(info);
+            }
+        }));
+    });
+    let outer = IN_GUARDED_READ.with(|g| g.replace(true));
+    let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(read));
+    IN_GUARDED_READ.with(|g| g.set(outer));
+    result.map_err(|panic| {
         let why = panic
             .downcast_ref::<&str>()
             .map(|s| s.to_string())
