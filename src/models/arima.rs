@@ -652,19 +652,7 @@ fn ndiffs(x: &[f64]) -> usize {
 /// Seasonal strength F_S of an STL decomposition with the settings of the
 /// module docs; `None` when STL cannot run on the series.
 pub fn seasonal_strength(x: &[f64]) -> Option<f64> {
-    use augurs::mstl::stlrs;
-    let mut stl = stlrs::params();
-    stl.seasonal_length(11)
-        .seasonal_degree(0)
-        .trend_degree(1)
-        .low_pass_degree(1)
-        .seasonal_jump(1)
-        .trend_jump(1)
-        .low_pass_jump(1)
-        .inner_loops(5)
-        .outer_loops(0);
-    let fit = stl.fit(x, M).ok()?;
-    let s = fit.seasonal_strength();
+    let s = super::stl::decompose(x)?.seasonal_strength();
     s.is_finite().then_some(s)
 }
 

@@ -23,15 +23,16 @@
 //! Bandara, Hyndman & Bergmeir (2021), *MSTL: A Seasonal-Trend
 //! Decomposition Algorithm for Time Series with Multiple Seasonal
 //! Patterns*, arXiv:2107.13462; STL: Cleveland, Cleveland, McRae &
-//! Terpenning (1990), *J. Official Statistics* 6(1). The decomposition is
-//! the MSTL of `augurs-mstl` 0.10 (its `stlrs` 0.4), run in f64 rather than
-//! the f32 of augurs' `MSTLModel` so that large quantities keep their
-//! digits; the ETS step is our own `ets-auto` estimator
+//! Terpenning (1990), *J. Official Statistics* 6(1). With one period MSTL
+//! is one STL run: [`super::stl`], which gives the components of the MSTL
+//! of `augurs-mstl` 0.10 (its `stlrs` 0.4) to the last bit, in f64 rather
+//! than the f32 of augurs' `MSTLModel` so that large quantities keep their
+//! digits, with each smoother's weights computed once instead of at every
+//! pass; the ETS step is our own `ets-auto` estimator
 //! ([`super::ets::Ets`], the likelihood and candidate set of statsforecast's
 //! `AutoETS`). In the backtest ([`Model::fit_warm`]) the decomposition is
 //! redone at every origin and the ETS search starts from its optimum at the
-//! previous origin; the decomposition then costs more than the ETS fit
-//! (see the README's timings).
+//! previous origin.
 //!
 //! # Parameters
 //!
@@ -75,7 +76,8 @@ const NAME: &str = "mstl-ets";
 pub struct MstlEts;
 
 impl MstlEts {
-    /// The MSTL settings of the module docs.
+    /// The MSTL settings of the module docs, for `stlrs` (the reference
+    /// [`super::stl`] is checked against).
     pub fn mstl_params() -> stlrs::MstlParams {
         let mut stl = stlrs::params();
         stl.seasonal_length(11)
@@ -138,18 +140,12 @@ impl Model for MstlEts {
             model: NAME.to_string(),
             message,
         };
-        let decomposition = Self::mstl_params().fit(y, &[PERIOD]).map_err(|e| match e {
-            stlrs::Error::Series(why) => Error::NotApplicable {
-                model: NAME.to_string(),
-                reason: format!("the seasonal decomposition cannot use this series: {why}"),
-            },
-            stlrs::Error::Parameter(why) => {
-                model_error(format!("the seasonal decomposition failed: {why}"))
-            }
+        let decomposition = super::stl::decompose(y).ok_or_else(|| Error::NotApplicable {
+            model: NAME.to_string(),
+            reason: "the seasonal decomposition cannot use this series: series has less than two periods"
+                .to_string(),
         })?;
-        let seasonal = decomposition
-            .seasonal()
-            .first()
+        let seasonal = Some(&decomposition.seasonal)
             .filter(|s| s.len() == y.len() && s.iter().all(|v| v.is_finite()))
             .ok_or_else(|| {
                 model_error("the seasonal decomposition gave non-finite values".to_string())
@@ -158,10 +154,7 @@ impl Model for MstlEts {
         let ets = Ets::auto().fit_named(NAME, &adjusted, warm)?;
         let mut last_year = [0.0; PERIOD];
         last_year.copy_from_slice(&seasonal[y.len() - PERIOD..]);
-        let strength = decomposition
-            .seasonal_strength()
-            .first()
-            .copied()
+        let strength = Some(decomposition.seasonal_strength())
             .filter(|s| s.is_finite())
             .unwrap_or(0.0);
         Ok(FittedMstlEts {

@@ -17,6 +17,7 @@ pub mod ets;
 pub mod ets_seasonal;
 pub mod holt_winters;
 pub mod intermittent;
+pub mod stl;
 pub mod theta;
 
 /// Seasonal period of monthly data.
