@@ -1414,9 +1414,15 @@ fn pass<const DERIV: bool, const ME: bool, const MS: bool, const TREND: u8>(
 
 /// Solves (H + λ diag) x = −g on the free coordinates by Cholesky.
 #[allow(clippy::needless_range_loop)]
-fn damped_step(e: &Eval, free: &[usize], lambda: f64, step: &mut [f64; D]) -> Option<()> {
+fn damped_step(
+    e: &Eval,
+    free: &[usize],
+    lambda: f64,
+    step: &mut [f64; D],
+    a: &mut [[f64; D]; D],
+) -> Option<()> {
+    // `a` is scratch: only its leading m × m block is written and read.
     let m = free.len();
-    let mut a = [[0.0; D]; D];
     let max_diag = free.iter().map(|&i| e.gn[i][i]).fold(0.0, f64::max);
     let floor = 1e-12 * max_diag.max(1e-300);
     for (r, &i) in free.iter().enumerate() {
@@ -1425,11 +1431,13 @@ fn damped_step(e: &Eval, free: &[usize], lambda: f64, step: &mut [f64; D]) -> Op
         }
         a[r][r] += lambda * e.gn[i][i].max(floor) + floor;
     }
+    // Cholesky, A = L Lᵀ in place (lower triangle); the sums run in the
+    // same order as the plain triple loop, over slices.
     for i in 0..m {
         for j in 0..=i {
             let mut s = a[i][j];
-            for k in 0..j {
-                s -= a[i][k] * a[j][k];
+            for (x, y) in a[i][..j].iter().zip(&a[j][..j]) {
+                s -= x * y;
             }
             if i == j {
                 if !(s > 0.0 && s.is_finite()) {
@@ -1444,8 +1452,8 @@ fn damped_step(e: &Eval, free: &[usize], lambda: f64, step: &mut [f64; D]) -> Op
     let mut x = [0.0; D];
     for i in 0..m {
         let mut s = -e.grad[free[i]];
-        for k in 0..i {
-            s -= a[i][k] * x[k];
+        for (l, v) in a[i][..i].iter().zip(&x[..i]) {
+            s -= l * v;
         }
         x[i] = s / a[i][i];
     }
@@ -1485,6 +1493,7 @@ fn optimise(obj: &Objective<'_>, theta0: [f64; D], tol: f64, max_iters: usize) -
     let mut trial = cur;
     let mut lambda = 1e-3;
     let mut step = [0.0; D];
+    let mut chol = [[0.0; D]; D];
     let mut moving = [0usize; D];
     for _ in 0..max_iters {
         let mut m = 0;
@@ -1501,14 +1510,14 @@ fn optimise(obj: &Objective<'_>, theta0: [f64; D], tol: f64, max_iters: usize) -
         }
         let free = &moving[..m];
         if free.is_empty()
-            || (damped_step(&cur, free, 1e-12, &mut step).is_some()
+            || (damped_step(&cur, free, 1e-12, &mut step, &mut chol).is_some()
                 && predicted_decrease(&cur, free, &step) < tol)
         {
             return theta;
         }
         let mut accepted = false;
         while lambda < 1e12 {
-            if damped_step(&cur, free, lambda, &mut step).is_none() {
+            if damped_step(&cur, free, lambda, &mut step, &mut chol).is_none() {
                 lambda = (lambda * 10.0).max(1e-9);
                 continue;
             }
