@@ -102,18 +102,11 @@ fn per_model_point_only(c: &mut Criterion) {
 }
 
 fn mstl_decomposition_alone(c: &mut Criterion) {
-    // The MSTL step of mstl-ets by itself, to separate its cost from the
+    // The STL step of mstl-ets by itself, to separate its cost from the
     // ETS fit's.
-    use provisio::models::decomposition::MstlEts;
     let y = series();
     c.bench_function("mstl_decomposition_60m", |b| {
-        b.iter(|| {
-            black_box(
-                MstlEts::mstl_params()
-                    .fit(black_box(&y), &[12])
-                    .expect("decomposes"),
-            )
-        })
+        b.iter(|| black_box(provisio::models::stl::decompose(black_box(&y)).expect("decomposes")))
     });
 }
 

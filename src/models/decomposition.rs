@@ -62,8 +62,6 @@
 //! forecasts. The decomposition is not robust: an outlier month leaks into
 //! that month's seasonal effect, so outliers should be cleaned first.
 
-use augurs::mstl::stlrs;
-
 use super::ets::{Ets, FittedEts};
 use super::{Fitted, Forecast, Model, Needs, WarmStart, PERIOD};
 use crate::error::{Error, Result};
@@ -74,26 +72,6 @@ const NAME: &str = "mstl-ets";
 /// seasonally adjusted series (module docs).
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub struct MstlEts;
-
-impl MstlEts {
-    /// The MSTL settings of the module docs, for `stlrs` (the reference
-    /// [`super::stl`] is checked against).
-    pub fn mstl_params() -> stlrs::MstlParams {
-        let mut stl = stlrs::params();
-        stl.seasonal_length(11)
-            .seasonal_degree(0)
-            .trend_degree(1)
-            .low_pass_degree(1)
-            .seasonal_jump(1)
-            .trend_jump(1)
-            .low_pass_jump(1)
-            .inner_loops(5)
-            .outer_loops(0);
-        let mut mstl = stlrs::MstlParams::new();
-        mstl.stl_params(stl);
-        mstl
-    }
-}
 
 impl Model for MstlEts {
     type Fitted = FittedMstlEts;
@@ -222,8 +200,26 @@ mod tests {
     use super::*;
     use crate::models::DEFAULT_LEVELS;
     use augurs::ets::AutoETS;
-    use augurs::mstl::MSTLModel;
+    use augurs::mstl::{stlrs, MSTLModel};
     use augurs::{Fit, Predict};
+
+    /// The STL settings of the module docs, for `stlrs` through augurs'
+    /// MSTL (the outside reference).
+    fn mstl_params() -> stlrs::MstlParams {
+        let mut stl = stlrs::params();
+        stl.seasonal_length(11)
+            .seasonal_degree(0)
+            .trend_degree(1)
+            .low_pass_degree(1)
+            .seasonal_jump(1)
+            .trend_jump(1)
+            .low_pass_jump(1)
+            .inner_loops(5)
+            .outer_loops(0);
+        let mut mstl = stlrs::MstlParams::new();
+        mstl.stl_params(stl);
+        mstl
+    }
 
     /// AirPassengers 1956-01..1960-12 (tests/reference/datasets.json,
     /// `AirPassengers_last60`, from statsforecast 2.1.1).
@@ -243,7 +239,7 @@ mod tests {
         // Levenberg–Marquardt) to the same likelihood, so forecasts and
         // interval bounds agree within 0.5% (seen ≤ 0.02%).
         let theirs = MSTLModel::new(vec![PERIOD], AutoETS::non_seasonal().into_trend_model())
-            .mstl_params(MstlEts::mstl_params())
+            .mstl_params(mstl_params())
             .fit(&AIR60)
             .unwrap()
             .predict(24, 0.95)
