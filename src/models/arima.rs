@@ -924,14 +924,12 @@ fn kalman(
 ) -> Option<KalmanOut> {
     let pf = phi.len();
     let r = pf.max(theta.len() + 1);
-    let ph = |i: usize| if i < pf { phi[i] } else { 0.0 };
-    let rr = |i: usize| {
-        if i == 0 {
-            1.0
-        } else {
-            theta.get(i - 1).copied().unwrap_or(0.0)
-        }
-    };
+    // The transition's first column (φ, zero-padded) and R = (1, θ, 0…).
+    let mut ph = [0.0; MAX_R];
+    ph[..pf].copy_from_slice(phi);
+    let mut rr = [0.0; MAX_R];
+    rr[0] = 1.0;
+    rr[1..=theta.len()].copy_from_slice(theta);
     a[..r].iter_mut().for_each(|v| *v = 0.0);
     let mut ssq = 0.0;
     let mut sum_log_f = 0.0;
@@ -945,11 +943,11 @@ fn kalman(
             let a0 = a[0] + v;
             for i in 0..r {
                 let next = if i + 1 < r {
-                    a[i + 1] + rr(i + 1) * v
+                    a[i + 1] + rr[i + 1] * v
                 } else {
                     0.0
                 };
-                a[i] = ph(i) * a0 + next;
+                a[i] = ph[i] * a0 + next;
             }
             continue;
         }
@@ -960,13 +958,16 @@ fn kalman(
         resid[t] = v / f.sqrt();
         ssq += v * v / f;
         sum_log_f += f.ln();
-        // Filtered: a_f = a + P e1 v/F; P_f = P − P e1 e1' P / F.
+        // Filtered: a_f = a + P e1 v/F; P_f = P − P e1 e1' P / F. P is
+        // symmetric to the bit (every update writes both halves), so P_f's
+        // upper triangle is all the prediction reads: its column 0 below
+        // the diagonal equals row 0 (x − x·p/f against x − p·x/f).
         for i in 0..r {
             a[i] += pm[i * r] * v / f;
         }
         for i in 0..r {
             let pi0 = pm[i * r];
-            for j in 0..r {
+            for j in i..r {
                 tmp[i * r + j] = pm[i * r + j] - pi0 * pm[j * r] / f;
             }
         }
@@ -974,24 +975,24 @@ fn kalman(
         let a0 = a[0];
         for i in 0..r {
             let next = if i + 1 < r { a[i + 1] } else { 0.0 };
-            a[i] = ph(i) * a0 + next;
+            a[i] = ph[i] * a0 + next;
         }
         let p00 = tmp[0];
         for i in 0..r {
-            let fi = ph(i);
+            let fi = ph[i];
             for j in i..r {
-                let fj = ph(j);
+                let fj = ph[j];
                 let mut val = fi * fj * p00;
                 if j + 1 < r {
                     val += fi * tmp[j + 1];
                 }
                 if i + 1 < r {
-                    val += fj * tmp[(i + 1) * r];
+                    val += fj * tmp[i + 1];
                 }
                 if i + 1 < r && j + 1 < r {
                     val += tmp[(i + 1) * r + j + 1];
                 }
-                val += rr(i) * rr(j);
+                val += rr[i] * rr[j];
                 pm[i * r + j] = val;
                 pm[j * r + i] = val;
             }
