@@ -190,13 +190,12 @@ fn decompose(x: &[f64], trusted: &[bool]) -> Option<Vec<f64>> {
     // 1. A first trend: the median of the 13 months centred on each month
     //    (a whole year, so the seasonal pattern does not pull it), the
     //    window held at 13 months at the ends.
+    let mut window = Vec::with_capacity(PERIOD + 1);
     let level: Vec<f64> = (0..n)
         .map(|t| {
             let lo = t.saturating_sub(PERIOD / 2).min(n - (PERIOD + 1));
-            let window: Vec<f64> = (lo..lo + PERIOD + 1)
-                .filter(|&u| trusted[u])
-                .map(|u| x[u])
-                .collect();
+            window.clear();
+            window.extend((lo..lo + PERIOD + 1).filter(|&u| trusted[u]).map(|u| x[u]));
             median_of(&window).unwrap_or(x[t])
         })
         .collect();

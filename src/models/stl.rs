@@ -151,7 +151,7 @@ fn moving_average(x: &[f64], len: usize, out: &mut [f64]) {
 }
 
 /// One fitted value: the sum of `weights` times the months from `start`.
-#[derive(Debug)]
+#[derive(Debug, Clone)]
 struct Row {
     start: usize,
     weights: Vec<f64>,
@@ -245,38 +245,25 @@ fn build(n: usize, len: usize, degree: u8) -> Smoother {
 /// values at months 0..=k+1 (0 and k + 1 extrapolated one cycle beyond the
 /// ends; where no weight reaches them, the neighbouring fitted value).
 fn build_cycle(k: usize) -> Smoother {
-    let inner = build(k, SEASONAL_WINDOW, SEASONAL_DEGREE);
-    let mut rows = Vec::with_capacity(k + 2);
+    let mut rows = build(k, SEASONAL_WINDOW, SEASONAL_DEGREE).rows;
     let right = SEASONAL_WINDOW.min(k);
-    let first = weights(k, SEASONAL_WINDOW, SEASONAL_DEGREE, 0.0, 1, right);
     let left = (k as i64 - SEASONAL_WINDOW as i64 + 1).max(1) as usize;
-    let last = weights(k, SEASONAL_WINDOW, SEASONAL_DEGREE, (k + 1) as f64, left, k);
-    let mut inner_rows = inner.rows.into_iter();
-    let second = inner_rows.next().expect("at least one month");
-    rows.push(match first {
+    let first = match weights(k, SEASONAL_WINDOW, SEASONAL_DEGREE, 0.0, 1, right) {
         Some(w) => Row {
             start: 0,
             weights: w,
         },
-        None => Row {
-            start: second.start,
-            weights: second.weights.clone(),
-        },
-    });
-    rows.push(second);
-    rows.extend(inner_rows);
-    let before_last = rows.last().expect("at least one month");
-    let end = match last {
+        None => rows[0].clone(),
+    };
+    let last = match weights(k, SEASONAL_WINDOW, SEASONAL_DEGREE, (k + 1) as f64, left, k) {
         Some(w) => Row {
             start: left - 1,
             weights: w,
         },
-        None => Row {
-            start: before_last.start,
-            weights: before_last.weights.clone(),
-        },
+        None => rows[rows.len() - 1].clone(),
     };
-    rows.push(end);
+    rows.insert(0, first);
+    rows.push(last);
     Smoother { rows }
 }
 
