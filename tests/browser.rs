@@ -411,11 +411,19 @@ fn report_layout_at_laptop_and_phone_widths() {
     };
     let w = common::Workdir::new();
     let demo = |f: &str| common::repo(&format!("datasets/demo/{f}"));
+    // The input under a long folder name with no break opportunity (no
+    // hyphen or space): the report shows the input's path, which must wrap
+    // rather than widen the page (a clone at /tmp/tmp.XXXXXXXXXX once made
+    // the phone view 11 px too wide).
+    let deep = w.path("district_warehouse_monthly_consumption_export_2026_final_checked");
+    std::fs::create_dir_all(&deep).unwrap();
+    let input = deep.join("consumption.csv");
+    std::fs::copy(demo("consumption.csv"), &input).unwrap();
     let o = common::run_in(
         &w.path(""),
         &[
             "forecast",
-            demo("consumption.csv").to_str().unwrap(),
+            input.to_str().unwrap(),
             "--out",
             "out",
             "--quiet",

@@ -66,7 +66,7 @@ a{color:var(--accent)}
 dl.facts{display:grid;grid-template-columns:max-content 1fr;gap:4px 18px;margin:8px 0}
 dl.facts dt{color:var(--muted)}
 dl.facts dd{margin:0;overflow-wrap:anywhere}
-code,.mono{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:13px}
+code,.mono{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:13px;overflow-wrap:anywhere}
 .table-wrap{overflow-x:auto;background:var(--card);border:1px solid var(--line);border-radius:6px}
 table{border-collapse:collapse;width:100%;font-size:14px}
 th,td{padding:6px 10px;border-bottom:1px solid var(--line);text-align:left;vertical-align:top}
