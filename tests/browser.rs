@@ -411,14 +411,16 @@ fn report_layout_at_laptop_and_phone_widths() {
     };
     let w = common::Workdir::new();
     let demo = |f: &str| common::repo(&format!("datasets/demo/{f}"));
-    // The input under a long folder name with no break opportunity (no
-    // hyphen or space): the report shows the input's path, which must wrap
-    // rather than widen the page (a clone at /tmp/tmp.XXXXXXXXXX once made
-    // the phone view 11 px too wide).
+    // The inputs under a long folder name with no break opportunity (no
+    // hyphen or space): the report shows their paths (the run summary, the
+    // plan's warnings), which must wrap rather than widen the page (a clone
+    // at /tmp/tmp.XXXXXXXXXX once made the phone view 11 px too wide).
     let deep = w.path("district_warehouse_monthly_consumption_export_2026_final_checked");
     std::fs::create_dir_all(&deep).unwrap();
+    for f in ["consumption.csv", "stock.csv", "on_order.csv"] {
+        std::fs::copy(demo(f), deep.join(f)).unwrap();
+    }
     let input = deep.join("consumption.csv");
-    std::fs::copy(demo("consumption.csv"), &input).unwrap();
     let o = common::run_in(
         &w.path(""),
         &[
@@ -436,9 +438,9 @@ fn report_layout_at_laptop_and_phone_widths() {
             "plan",
             "out",
             "--stock",
-            demo("stock.csv").to_str().unwrap(),
+            deep.join("stock.csv").to_str().unwrap(),
             "--on-order",
-            demo("on_order.csv").to_str().unwrap(),
+            deep.join("on_order.csv").to_str().unwrap(),
             "--quiet",
         ],
     );

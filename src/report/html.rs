@@ -47,7 +47,7 @@ pub const STYLE: &str = r#"
 --bad:#a3261b;--bad-bg:#f9e0dd}
 *{box-sizing:border-box}
 html{background:var(--paper);color:var(--ink);font:15px/1.5 system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif}
-body{margin:0}
+body{margin:0;overflow-wrap:break-word}
 main{max-width:1240px;margin:0 auto;padding:0 20px 48px}
 header.top{background:var(--ink);color:#fff;padding:22px 20px 18px}
 header.top .inner{max-width:1240px;margin:0 auto}
