@@ -10,8 +10,11 @@
 //! Prints mean MASE, median MAPE and the time of each.
 //! Run: `cargo run --release --example arima_origins -- FILE.csv`
 
-use std::collections::BTreeMap;
 use std::time::Instant;
+
+#[path = "common/series.rs"]
+mod series;
+use series::read;
 
 use provisio::backtest::{self, BacktestSettings};
 use provisio::models::arima::{AutoArima, FittedArima};
@@ -34,23 +37,6 @@ impl Model for Cold {
     fn fit(&self, y: &[f64]) -> provisio::Result<FittedArima> {
         AutoArima::new().fit(y)
     }
-}
-
-fn read(path: &str) -> Result<BTreeMap<String, Vec<f64>>, String> {
-    let text = std::fs::read_to_string(path).map_err(|e| format!("{path}: {e}"))?;
-    let mut out: BTreeMap<String, Vec<f64>> = BTreeMap::new();
-    for (i, line) in text.lines().enumerate().skip(1) {
-        let cols: Vec<&str> = line.rsplitn(3, ',').collect();
-        if cols.len() != 3 {
-            return Err(format!("{path}:{}: expected product,month,consumed", i + 1));
-        }
-        let v: f64 = cols[0]
-            .trim()
-            .parse()
-            .map_err(|_| format!("{path}:{}: consumed {:?} is not a number", i + 1, cols[0]))?;
-        out.entry(cols[2].to_string()).or_default().push(v);
-    }
-    Ok(out)
 }
 
 fn main() {

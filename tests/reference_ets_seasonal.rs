@@ -138,3 +138,44 @@ fn chosen_form_and_forecasts_match_statsforecast() {
     assert!(failures.is_empty(), "{failures:?}");
     assert!(same >= 6, "same form on {same} of {}", series.len());
 }
+
+#[test]
+fn the_seasonal_screen_keeps_every_series_statsforecast_fits_a_season_to() {
+    // Source: statsforecast 2.1.1 AutoETS(season_length=12), chosen forms in
+    // tests/reference/ets_seasonal_statsforecast.json; statsforecast has no
+    // screen and tries every form. Where it chooses a seasonal form, ours
+    // must still try the seasonal forms (strength at or above the screen);
+    // M1 series MRM1, where it chooses ETS(M,Ad,N), is the one series here
+    // the screen leaves out, and the choice is unchanged.
+    use provisio::models::arima::seasonal_strength;
+    use provisio::models::ets_seasonal::{shows_seasonality, SEASONAL_SCREEN};
+    let r = load();
+    let mut screened_out = Vec::new();
+    for s in r["series"].as_array().unwrap() {
+        let name = s["name"].as_str().unwrap();
+        let y = floats(&s["values"]);
+        let theirs = s["auto"]["method"].as_str().unwrap();
+        let seasonal = !theirs.ends_with(",N)");
+        let strength = seasonal_strength(&y).unwrap();
+        println!("{name:14} {theirs:12} seasonal strength {strength:.3}");
+        assert_eq!(shows_seasonality(&y), strength >= SEASONAL_SCREEN, "{name}");
+        if seasonal {
+            assert!(
+                shows_seasonality(&y),
+                "{name}: {theirs}, strength {strength}"
+            );
+        } else {
+            screened_out.push(name.to_string());
+        }
+    }
+    assert_eq!(screened_out, ["M1-MRM1"]);
+    let mrm1 = r["series"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|s| s["name"] == "M1-MRM1")
+        .unwrap();
+    let y = floats(&mrm1["values"]);
+    assert!(!shows_seasonality(&y), "MRM1 is left out by the screen");
+    assert!(EtsAuto::new().fit(&y).unwrap().method().ends_with(",N)"));
+}

@@ -651,9 +651,36 @@ fn ndiffs(x: &[f64]) -> usize {
 
 /// Seasonal strength F_S of an STL decomposition with the settings of the
 /// module docs; `None` when STL cannot run on the series.
+///
+/// `ets-auto`, `arima-auto` and `theta` each test the same history (at the
+/// backtest's first origin and for the projection), so the answers for the
+/// last few series this thread decomposed are kept and reused for an
+/// identical series.
 pub fn seasonal_strength(x: &[f64]) -> Option<f64> {
-    let s = super::stl::decompose(x)?.seasonal_strength();
-    s.is_finite().then_some(s)
+    use std::cell::RefCell;
+    /// Series remembered per thread (a backtest's origins plus the whole
+    /// history fit).
+    const KEPT: usize = 16;
+    thread_local! {
+        static SEEN: RefCell<Vec<(Vec<f64>, Option<f64>)>> = const { RefCell::new(Vec::new()) };
+    }
+    let same = |a: &[f64], b: &[f64]| {
+        a.len() == b.len() && a.iter().zip(b).all(|(p, q)| p.to_bits() == q.to_bits())
+    };
+    if let Some(hit) = SEEN.with(|s| s.borrow().iter().find(|(k, _)| same(k, x)).map(|e| e.1)) {
+        return hit;
+    }
+    let strength = super::stl::decompose(x)
+        .map(|d| d.seasonal_strength())
+        .filter(|s| s.is_finite());
+    SEEN.with(|s| {
+        let mut s = s.borrow_mut();
+        if s.len() == KEPT {
+            s.remove(0);
+        }
+        s.push((x.to_vec(), strength));
+    });
+    strength
 }
 
 /// Number of seasonal differences (statsforecast `nsdiffs`, test "seas", max 1).

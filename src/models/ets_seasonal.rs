@@ -96,6 +96,32 @@
 //!    statsforecast does not impose it, but an optimum with a negative
 //!    seasonal factor of a positive series is an artefact).
 //!
+//! # Which series the seasonal forms are tried on
+//!
+//! The nine seasonal forms are most of a fit's cost and need a seasonal
+//! pattern to win: each carries eleven more initial states and γ, about
+//! 24 points of AICc penalty. So on a series of more than 24 months they
+//! are tried only when its STL decomposition shows at least a weak
+//! seasonal pattern, seasonal strength F_S ≥ [`SEASONAL_SCREEN`] (0.3; the
+//! F_S of Wang, Smith & Hyndman, *Data Min. Knowl. Disc.* 13(3), 2006, as
+//! FPP3 §4.3 defines it, by the STL `arima-auto` tests seasonal
+//! differences with). Below that a seasonal form is seldom chosen, or
+//! seldom by much: `examples/seasonal_screen.rs`, on the training part of
+//! the development benchmarks, found 2 of M1 monthly's 99 series below 0.3
+//! where a seasonal form had the lower AICc (by at most 2.4) and 9 of
+//! tourism monthly's 13 (by at most 26.9; 40 to 1,076 above 0.3). Leaving
+//! them out changed `provisio evaluate`'s mean MASE of `ets-auto` from
+//! 1.062 to 1.062 on M1 (h = 18) and from 1.476 to 1.475 on tourism
+//! (h = 24), and that of the selection not at all (there and on the
+//! benchmark's generated set), with 16% less CPU time on 1,000 generated
+//! series (README, "Speed"). A stricter screen cost
+//! accuracy: 0.4, 0.5 and the 0.64 of seasonal differencing put `ets-auto`
+//! at 1.480, 1.497 and 1.561 mean MASE on tourism monthly (all forms:
+//! 1.476). The test runs at a cold fit (the backtest's first origin and the
+//! projection) and its answer is kept at the later origins, as
+//! `arima-auto` keeps its differences. With `seasonal = true` or `false`
+//! the product's setting decides instead.
+//!
 //! # Warm starts across backtest origins
 //!
 //! A cold fit — the first origin of a backtest ([`Model::fit_warm`] with no
@@ -153,6 +179,7 @@
 //! | σ² (error variance) | Σ errors² / (n − k − 2) | ≥ 0 |
 //! | seasonal forms refined at a warm origin | 2 ([`WARM_REFIT`]) | fixed |
 //! | seasonal forms refined by a cold fit | 3 ([`REFINED_FORMS`]) | fixed |
+//! | seasonal strength below which the seasonal forms are not tried | 0.3 ([`SEASONAL_SCREEN`]) | fixed |
 //!
 //! The non-seasonal forms keep the bounds of [`super::ets`] (β ≤ 0.20006,
 //! as R forecast's `ets`). statsforecast 2.1.1 shares one bounds array
@@ -196,6 +223,9 @@ const WARM_ITERS: usize = 12;
 pub const WARM_REFIT: usize = 2;
 /// Seasonal forms refined after exploration by a cold fit (module docs).
 pub const REFINED_FORMS: usize = 3;
+/// Seasonal strength of a series (more than 24 months) below which the
+/// seasonal forms are not tried (module docs).
+pub const SEASONAL_SCREEN: f64 = 0.3;
 /// Paths of the interval simulation from month 13 on.
 pub const SIM_PATHS: usize = 2000;
 const SIM_SEED: u64 = 0x4554_535f_7365_6173;
@@ -339,6 +369,8 @@ struct Start {
 struct AutoWarm {
     non_seasonal: WarmStart,
     seasonal: [Option<Start>; 9],
+    /// Whether the seasonal forms are tried (decided at the cold fit).
+    try_seasonal: Option<bool>,
 }
 
 /// `ets-auto`: the automatic choice over the ETS family (module docs).
@@ -379,9 +411,17 @@ impl EtsAuto {
             None => AutoWarm {
                 non_seasonal: None,
                 seasonal: [None; 9],
+                try_seasonal: None,
             },
         };
-        let seasonal = if self.season == Season::Never {
+        let try_seasonal = match self.season {
+            Season::Never => false,
+            Season::Always => true,
+            Season::Tested => *memory
+                .try_seasonal
+                .get_or_insert_with(|| shows_seasonality(y)),
+        };
+        let seasonal = if !try_seasonal {
             Default::default()
         } else {
             fit_seasonal(y, &mut memory.seasonal, refit, refine_forms)
@@ -482,6 +522,14 @@ pub fn fit_each_form(y: &[f64]) -> Vec<FormFit> {
         .collect();
     out.sort_by_key(|f| order_rank(&f.method));
     out
+}
+
+/// Whether the seasonal forms are tried on `y` (module docs, "Which series
+/// the seasonal forms are tried on"): always up to 24 months, where STL
+/// cannot run, and from then on when the seasonal strength reaches
+/// [`SEASONAL_SCREEN`].
+pub fn shows_seasonality(y: &[f64]) -> bool {
+    y.len() <= 2 * M || super::arima::seasonal_strength(y).map_or(true, |s| s >= SEASONAL_SCREEN)
 }
 
 /// Whether a seasonal form can be fitted to n months (module docs).
