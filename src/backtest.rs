@@ -266,18 +266,31 @@ pub struct Backtest {
     pub scorable: Vec<bool>,
     /// One run per candidate, in candidate order, then the combination.
     pub runs: Vec<ModelRun>,
+    /// MASE and RMSSE scales of each origin's training months, computed
+    /// on first use (leave it empty: `Default::default()`).
+    pub scales: std::sync::OnceLock<Vec<(Option<f64>, Option<f64>)>>,
 }
 
 impl Backtest {
     /// Points of one run (every origin with a forecast, every horizon).
     pub fn points(&self, run: &ModelRun) -> Vec<Point> {
         let mut out = Vec::with_capacity(self.origins.len() * self.horizon);
+        let scales = self.scales.get_or_init(|| {
+            self.origins
+                .iter()
+                .map(|&o| {
+                    (
+                        metrics::mase_scale(&self.actual[..=o], PERIOD),
+                        metrics::rmsse_scale(&self.actual[..=o]),
+                    )
+                })
+                .collect()
+        });
         for (k, &o) in self.origins.iter().enumerate() {
             let Some(Some(fc)) = run.forecasts.get(k) else {
                 continue;
             };
-            let scale = metrics::mase_scale(&self.actual[..=o], PERIOD);
-            let scale_sq = metrics::rmsse_scale(&self.actual[..=o]);
+            let (scale, scale_sq) = scales[k];
             let i80 = fc.interval(0.80);
             let i95 = fc.interval(0.95);
             for h in 1..=self.horizon {
@@ -312,13 +325,13 @@ impl Backtest {
 
     /// Scores of a run per horizon (index 0 = one month ahead).
     pub fn scores_by_horizon(&self, run: &ModelRun) -> Vec<Scores> {
-        let pts = self.points(run);
-        (1..=self.horizon)
-            .map(|h| {
-                let ph: Vec<Point> = pts.iter().copied().filter(|p| p.horizon == h).collect();
-                Scores::of(&ph)
-            })
-            .collect()
+        let mut by_h: Vec<Vec<Point>> = (0..self.horizon)
+            .map(|_| Vec::with_capacity(self.origins.len()))
+            .collect();
+        for p in self.points(run) {
+            by_h[p.horizon - 1].push(p);
+        }
+        by_h.iter().map(|ph| Scores::of(ph)).collect()
     }
 
     /// The run of a model by name.
@@ -401,6 +414,7 @@ pub fn run(
         actual: y.to_vec(),
         scorable: scorable.to_vec(),
         runs,
+        scales: Default::default(),
     };
     let combo = combination_run(&bt);
     bt.runs.push(combo);

@@ -481,6 +481,7 @@ mod tests {
             actual: actual.clone(),
             scorable: vec![true; 10],
             runs,
+            scales: Default::default(),
         }
     }
 
@@ -564,6 +565,7 @@ mod tests {
             actual: vec![1.0; 5],
             scorable: vec![true; 5],
             runs: vec![],
+            scales: Default::default(),
         };
         let s = select(&bt, &mape(), None, None, "moving-average-3", false);
         assert!(!s.backtested);
@@ -592,6 +594,7 @@ mod tests {
             actual,
             scorable: vec![true; 40],
             runs,
+            scales: Default::default(),
         }
     }
 
