@@ -1100,20 +1100,28 @@ fn levenberg_marquardt(
                 hh = -h;
                 f(&x1[..k], &mut r1[..m])?;
             }
-            for t in 0..m {
-                jac[t * k + j] = (r1[t] - r0[t]) / hh;
+            // Column-major: each coefficient's column is contiguous, so
+            // the sums below run over adjacent values (same order as a
+            // row-major walk, so the same results).
+            for (d, (a1, a0)) in jac[j * m..(j + 1) * m]
+                .iter_mut()
+                .zip(r1.iter().zip(&r0[..m]))
+            {
+                *d = (a1 - a0) / hh;
             }
         }
         for i in 0..k {
+            let ci = &jac[i * m..(i + 1) * m];
             let mut gi = 0.0;
-            for t in 0..m {
-                gi += jac[t * k + i] * r0[t];
+            for (x, r) in ci.iter().zip(&r0[..m]) {
+                gi += x * r;
             }
             g[i] = gi;
             for j in i..k {
+                let cj = &jac[j * m..(j + 1) * m];
                 let mut s = 0.0;
-                for t in 0..m {
-                    s += jac[t * k + i] * jac[t * k + j];
+                for (x, y) in ci.iter().zip(cj) {
+                    s += x * y;
                 }
                 a[i * k + j] = s;
                 a[j * k + i] = s;
