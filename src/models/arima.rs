@@ -57,7 +57,7 @@
 //! fit is constrained to roots of modulus ≥ 1.01 (statsforecast fits
 //! freely and then rejects a model whose roots fall inside, moving to the
 //! next best; we try at most 4 orders that way, then fall back to
-//! (0,d,0)(0,D,0)), and at most 15 Levenberg–Marquardt iterations (stopping at a relative gain below 10⁻⁸); the CSS fits of the search at most 30 (10⁻⁷).
+//! (0,d,0)(0,D,0)), and at most 15 Levenberg–Marquardt iterations (stopping at a relative gain below 10⁻⁵, [`ML_TOL`]); the CSS fits of the search at most 30 (10⁻⁷).
 //! `tests/reference_arima.rs` counts how often the chosen orders agree with
 //! statsforecast's.
 //!
@@ -164,6 +164,13 @@ pub const SEAS_THRESHOLD: f64 = 0.64;
 const MAX_ML_TRIES: usize = 4;
 /// Iteration cap of an ML fit.
 const ML_ITERS: usize = 15;
+/// An ML fit stops when a step lowers the scaled sum of squares by less
+/// than this share (the log-likelihood then moves by under n·10⁻⁵/2).
+/// From 10⁻⁸: the ML step a third faster; `arima-auto`'s mean MASE
+/// 1.127 → 1.126 on M1 monthly (h = 18), 1.466 on tourism monthly
+/// (h = 24) both ways, the selection unchanged on both and on the
+/// benchmark's generated set.
+pub const ML_TOL: f64 = 1e-5;
 /// Model cap of the stepwise search.
 const MAX_MODELS: usize = 94;
 
@@ -1313,7 +1320,7 @@ fn fit_ml(
         &mut r1,
         &mut x1,
         max_iter,
-        if max_iter > ML_ITERS { 1e-10 } else { 1e-8 },
+        if max_iter > ML_ITERS { 1e-10 } else { ML_TOL },
         &mut f,
     );
     work.jac = jac;
