@@ -617,12 +617,8 @@ fn fit_seasonal(
                 continue;
             }
             let previous = memory[slot];
-            let helper = if k.trend == Trend::Damped && previous.is_none() {
-                let undamped = Kind {
-                    trend: Trend::Additive,
-                    ..k
-                };
-                memory[undamped.slot()].map(|p| Start { phi: PHI_HI, ..p })
+            let helper = if previous.is_none() {
+                undamped_start(k, memory)
             } else {
                 None
             };
@@ -659,15 +655,7 @@ fn fit_seasonal(
         keep.sort_by_key(|k| k.trend == Trend::Damped);
         for k in keep {
             let slot = k.slot();
-            let helper = if k.trend == Trend::Damped {
-                let undamped = Kind {
-                    trend: Trend::Additive,
-                    ..k
-                };
-                memory[undamped.slot()].map(|p| Start { phi: PHI_HI, ..p })
-            } else {
-                None
-            };
+            let helper = undamped_start(k, memory);
             let rest: Vec<usize> = ALL_STARTS
                 .iter()
                 .copied()
@@ -706,6 +694,19 @@ fn fit_seasonal(
     }
     share_between_error_types(y, &ys, scale, memory, &mut fits);
     fits
+}
+
+/// For a damped form, the start from its undamped form's optimum with
+/// φ = 0.98 (module docs, step 1); `None` for other forms or without one.
+fn undamped_start(k: Kind, memory: &[Option<Start>; 9]) -> Option<Start> {
+    if k.trend != Trend::Damped {
+        return None;
+    }
+    let undamped = Kind {
+        trend: Trend::Additive,
+        ..k
+    };
+    memory[undamped.slot()].map(|p| Start { phi: PHI_HI, ..p })
 }
 
 /// The additive-season forms with additive and multiplicative errors share
