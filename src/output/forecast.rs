@@ -349,16 +349,18 @@ pub fn write_backtest(
     starts: &[(String, crate::calendar::YearMonth)],
     rows: EvidenceRows,
 ) -> Result<()> {
-    write_atomic(path, |w| {
-        let mut c = csv::Writer::from_writer(w);
-        c.write_record([
-            "product", "model", "origin", "horizon", "month", "actual", "forecast", "lower_80",
-            "upper_80", "lower_95", "upper_95", "scored",
-        ])
-        .map_err(io_err)?;
-        let starts: std::collections::HashMap<&str, crate::calendar::YearMonth> =
-            starts.iter().map(|(p, m)| (p.as_str(), *m)).collect();
-        for r in results {
+    use rayon::prelude::*;
+    // Products formatted in parallel, a window at a time, and written in
+    // their order: the file is the same as one written row by row, while
+    // at most one window's text is held (the file runs to 150 MB at
+    // 10,000 products).
+    const WINDOW: usize = 1024;
+    const CHUNK: usize = 64;
+    let starts: std::collections::HashMap<&str, crate::calendar::YearMonth> =
+        starts.iter().map(|(p, m)| (p.as_str(), *m)).collect();
+    let format = |chunk: &[ProductForecast]| -> std::io::Result<Vec<u8>> {
+        let mut c = csv::Writer::from_writer(Vec::new());
+        for r in chunk {
             let Some(&start) = starts.get(r.product.as_str()) else {
                 continue;
             };
@@ -387,7 +389,26 @@ pub fn write_backtest(
                 }
             }
         }
-        c.flush()
+        c.into_inner()
+            .map_err(|e| std::io::Error::other(e.to_string()))
+    };
+    write_atomic(path, |w| {
+        let mut c = csv::Writer::from_writer(&mut *w);
+        c.write_record([
+            "product", "model", "origin", "horizon", "month", "actual", "forecast", "lower_80",
+            "upper_80", "lower_95", "upper_95", "scored",
+        ])
+        .map_err(io_err)?;
+        c.flush()?;
+        drop(c);
+        for window in results.chunks(WINDOW) {
+            let parts: Vec<std::io::Result<Vec<u8>>> =
+                window.par_chunks(CHUNK).map(format).collect();
+            for part in parts {
+                w.write_all(&part?)?;
+            }
+        }
+        Ok(())
     })
 }
 
