@@ -346,6 +346,20 @@ impl Ets {
         y: &[f64],
         warm: &mut WarmStart,
     ) -> Result<FittedEts> {
+        self.fit_named_refitting(name, y, warm, 6)
+    }
+
+    /// [`Ets::fit_named`], re-estimating at a warm origin only the `refit`
+    /// forms with the lowest AICc at their previous optimum; the others
+    /// keep it (`ets-auto`'s rule for its seasonal forms; see
+    /// [`super::ets_seasonal`]).
+    pub(crate) fn fit_named_refitting(
+        &self,
+        name: &str,
+        y: &[f64],
+        warm: &mut WarmStart,
+        refit: usize,
+    ) -> Result<FittedEts> {
         Model::needs(self).check(name, y)?;
         let mut memory = warm
             .as_ref()
@@ -372,7 +386,7 @@ impl Ets {
             }
             EtsForm::Auto => &AUTO_ORDER,
         };
-        let mut fits = fit_forms(name, y, kinds, &mut memory);
+        let mut fits = fit_forms(name, y, kinds, &mut memory, refit);
         let mut best: Option<FittedEts> = None;
         for &kind in kinds {
             if let Some(fit) = fits[kind.slot()].take() {
@@ -397,7 +411,7 @@ pub(crate) fn fit_each_form(y: &[f64]) -> Vec<FittedEts> {
     if Model::needs(&Ets::auto()).check("ets", y).is_err() {
         return Vec::new();
     }
-    let mut fits = fit_forms("ets", y, &AUTO_ORDER, &mut EtsWarm::default());
+    let mut fits = fit_forms("ets", y, &AUTO_ORDER, &mut EtsWarm::default(), 6);
     AUTO_ORDER
         .iter()
         .filter_map(|k| fits[k.slot()].take())
@@ -412,8 +426,10 @@ fn fit_forms(
     y: &[f64],
     kinds: &[Kind],
     memory: &mut EtsWarm,
+    refit: usize,
 ) -> [Option<FittedEts>; 6] {
     let positive = y.iter().all(|&v| v > 0.0);
+    let allowed = |kind: &Kind| !kind.multiplicative || positive;
     let scale = {
         let m = y.iter().map(|v| v.abs()).sum::<f64>() / y.len() as f64;
         if m > 0.0 && m.is_finite() {
@@ -426,9 +442,31 @@ fn fit_forms(
     ys.extend(y.iter().map(|v| v / scale));
     let mut fits: [Option<FittedEts>; 6] = Default::default();
     let mut optima: [Option<Start>; 6] = [None; 6];
+    // A warm origin: the forms past the `refit` lowest AICc at their
+    // previous optimum keep it.
+    let mut kept = [false; 6];
+    if refit < kinds.len() {
+        let mut ranked: Vec<(f64, usize)> = kinds
+            .iter()
+            .filter(|k| allowed(k))
+            .filter_map(|k| {
+                let p = memory.slots[k.slot()]?;
+                let fit = FittedEts::new(name, *k, y, p)?;
+                let a = fit.aicc();
+                fits[k.slot()] = Some(fit);
+                Some((a, k.slot()))
+            })
+            .collect();
+        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
+        for &(_, slot) in ranked.iter().skip(refit) {
+            kept[slot] = true;
+            optima[slot] = memory.slots[slot];
+        }
+    }
     for pass_damped in [false, true] {
         for &kind in kinds {
-            if (kind.trend == Trend::Damped) != pass_damped || (kind.multiplicative && !positive) {
+            if (kind.trend == Trend::Damped) != pass_damped || !allowed(&kind) || kept[kind.slot()]
+            {
                 continue;
             }
             let previous = memory.slots[kind.slot()];
@@ -1427,7 +1465,7 @@ mod tests {
     /// Fits one form directly (all six, including the multiplicative-error
     /// ones that only `ets-auto` reaches).
     fn fit_kind(kind: Kind, y: &[f64]) -> FittedEts {
-        fit_forms("test", y, &[kind], &mut EtsWarm::default())[kind.slot()]
+        fit_forms("test", y, &[kind], &mut EtsWarm::default(), 6)[kind.slot()]
             .take()
             .unwrap()
     }
@@ -1553,7 +1591,7 @@ mod tests {
                 })
                 .collect();
             // All six together, as ets-auto fits them.
-            let mut ours = fit_forms("test", &y, &AUTO_ORDER, &mut EtsWarm::default());
+            let mut ours = fit_forms("test", &y, &AUTO_ORDER, &mut EtsWarm::default(), 6);
             for kind in AUTO_ORDER {
                 let theirs = augurs_fit(kind, &y);
                 let (a, b) = augurs_alpha_beta(&theirs);
