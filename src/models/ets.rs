@@ -1224,16 +1224,25 @@ fn optimise(obj: &Objective<'_>, theta0: [f64; D], tol: f64, max_iters: usize) -
             }
         }
         let free = &moving[..m];
-        // Converged when even the undamped step promises almost nothing.
-        if free.is_empty()
-            || (damped_step(&cur, free, 1e-12, &mut step).is_some()
-                && predicted_decrease(&cur, free, &step) < tol)
-        {
+        if free.is_empty() {
             return theta;
+        }
+        // Converged when even the undamped step promises almost nothing;
+        // a damped step never promises more, so when the step at the
+        // current λ promises `tol` the test is passed without a second
+        // factorisation, and that step is the first one tried.
+        let mut ready = damped_step(&cur, free, lambda, &mut step).is_some();
+        if !(ready && predicted_decrease(&cur, free, &step) >= tol) {
+            let mut gauss_newton = [0.0; D];
+            if damped_step(&cur, free, 1e-12, &mut gauss_newton).is_some()
+                && predicted_decrease(&cur, free, &gauss_newton) < tol
+            {
+                return theta;
+            }
         }
         let mut accepted = false;
         while lambda < 1e12 {
-            if damped_step(&cur, free, lambda, &mut step).is_none() {
+            if !std::mem::take(&mut ready) && damped_step(&cur, free, lambda, &mut step).is_none() {
                 lambda = (lambda * 10.0).max(1e-9);
                 continue;
             }
