@@ -259,6 +259,11 @@ impl Table {
 
     /// Column accessor for the named columns; the error names the file.
     /// Position of an optional column.
+    /// Each column's name and position.
+    pub(super) fn columns(&self) -> impl Iterator<Item = (&str, usize)> {
+        self.columns.iter().map(|(n, i)| (n.as_str(), *i))
+    }
+
     pub(super) fn col_opt(&self, name: &str) -> Option<usize> {
         self.columns.get(name).copied()
     }

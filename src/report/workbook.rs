@@ -21,7 +21,9 @@ const INPUT_TEXT: [&str; 4] = ["product", "site", "value", "row"];
 
 fn kind_of(column: &str) -> ColumnKind {
     match column {
-        "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" => ColumnKind::Count,
+        "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" | "adjustments" => {
+            ColumnKind::Count
+        }
         "before" | "after" | "rmse" | "runner_up_score" => ColumnKind::Quantity,
         // The supply plan (plan.csv, orders.csv, order_totals.csv) and the
         // annual totals.
@@ -81,6 +83,108 @@ fn table(dir: &Path, file: &str, sheet: &str) -> Result<Option<WorkbookTable>> {
         columns: header.iter().map(|h| (h.clone(), kind_of(h))).collect(),
         rows,
         note,
+    }))
+}
+
+/// The "Adjustments" sheet from `adjustments.csv`: every adjustment when
+/// they fit in `limit` rows; otherwise one row per product and rule (how
+/// many, the months they span, the totals before and after), so every
+/// product keeps its line where a cut list would drop the later ones.
+fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
+    const FILE: &str = "adjustments.csv";
+    let Some(mut t) = super::read::Table::read(dir, FILE)? else {
+        return Ok(None);
+    };
+    let mut header: Vec<(usize, String)> = t.columns().map(|(n, i)| (i, n.to_string())).collect();
+    header.sort();
+    let header: Vec<String> = header.into_iter().map(|(_, n)| n).collect();
+    let [product, month, before, after, rule] =
+        t.cols(["product", "month", "before", "after", "rule"])?;
+    let input: Vec<usize> = header
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| INPUT_TEXT.contains(&h.as_str()))
+        .map(|(i, _)| i)
+        .collect();
+    // (product, rule) in order of first appearance → count, first and
+    // last month, totals before and after.
+    let mut order: Vec<(String, String)> = Vec::new();
+    let mut sums: HashMap<(String, String), (usize, String, String, f64, f64)> = HashMap::new();
+    let mut rows: Vec<Vec<String>> = Vec::new();
+    let mut total = 0usize;
+    t.each(|_, _, rec| {
+        total += 1;
+        if rows.len() < limit {
+            let mut r: Vec<String> = rec.iter().map(str::to_string).collect();
+            for &i in &input {
+                if let Some(v) = r.get_mut(i) {
+                    *v = csv_text_read(v).to_string();
+                }
+            }
+            rows.push(r);
+        }
+        let get = |c: usize| rec.get(c).unwrap_or("");
+        let number = |c: usize| get(c).trim().parse::<f64>().ok().filter(|v| v.is_finite());
+        let key = (
+            csv_text_read(get(product)).to_string(),
+            get(rule).to_string(),
+        );
+        let m = get(month);
+        let e = sums.entry(key).or_insert_with_key(|k| {
+            order.push(k.clone());
+            (0, m.to_string(), m.to_string(), 0.0, 0.0)
+        });
+        e.0 += 1;
+        if m < e.1.as_str() {
+            e.1 = m.to_string();
+        }
+        if m > e.2.as_str() {
+            e.2 = m.to_string();
+        }
+        e.3 += number(before).unwrap_or(0.0);
+        e.4 += number(after).unwrap_or(0.0);
+        Ok(())
+    })?;
+    if total <= limit {
+        return Ok(Some(WorkbookTable {
+            sheet: "Adjustments".to_string(),
+            columns: header.iter().map(|h| (h.clone(), kind_of(h))).collect(),
+            rows,
+            note: None,
+        }));
+    }
+    drop(rows);
+    let columns = [
+        "product",
+        "rule",
+        "adjustments",
+        "first_month",
+        "last_month",
+        "before",
+        "after",
+    ];
+    let rows = order
+        .into_iter()
+        .map(|k| {
+            let (n, first, last, b, a) = sums.remove(&k).unwrap_or_default();
+            vec![
+                k.0,
+                k.1,
+                n.to_string(),
+                first,
+                last,
+                crate::output::fmt_num(b),
+                crate::output::fmt_num(a),
+            ]
+        })
+        .collect();
+    Ok(Some(WorkbookTable {
+        sheet: "Adjustments".to_string(),
+        columns: columns.iter().map(|h| (h.to_string(), kind_of(h))).collect(),
+        rows,
+        note: Some(format!(
+            "{total} adjustments, more than the {limit} rows this sheet lists one by one: one row per product and rule here, before and after as totals (a blank value counts as nothing); {FILE} lists each adjustment"
+        )),
     }))
 }
 
@@ -315,10 +419,12 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
         ("order_totals.csv", "Order totals"),
         ("changes_summary.csv", "Known changes"),
         ("selection.csv", "Selection"),
-        ("adjustments.csv", "Adjustments"),
         ("quality.csv", "Data quality"),
         ("rejected.csv", "Rejected rows"),
     ] {
+        if file == "quality.csv" {
+            tables.extend(adjustments(dir, MAX_TABLE_ROWS)?);
+        }
         if let Some(t) = table(dir, file, sheet)? {
             tables.push(t);
         }
@@ -418,4 +524,78 @@ pub fn write_workbook(dir: &Path) -> Result<PathBuf> {
     let path = dir.join(WORKBOOK_FILE);
     crate::output::write_workbook(&path, &content)?;
     Ok(path)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A hand-written log in the layout `forecast` writes (plumbing only:
+    /// the totals are checked against sums done by hand on these rows).
+    const LOG: &str = "product,site,month,line,before,after,rule,reason\n\
+        A,S1,2024-03,4,10,12.5,reporting-scaled,r\n\
+        A,S1,2024-01,2,,7,site-filled,r\n\
+        A,S1,2024-05,6,20,25,reporting-scaled,r\n\
+        '=B,S2,2024-02,3,5,,stockout-missing,r\n\
+        A,S2,2024-04,5,1,2,reporting-scaled,r\n";
+
+    #[test]
+    fn adjustments_are_summed_per_product_and_rule_past_the_limit() {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("adjustments.csv"), LOG).unwrap();
+        let listed = adjustments(dir.path(), 5).unwrap().unwrap();
+        assert_eq!(listed.rows.len(), 5);
+        assert!(listed.note.is_none());
+        // Formula text quoted in the CSV is shown plain.
+        assert_eq!(listed.rows[3][0], "=B");
+
+        let summed = adjustments(dir.path(), 4).unwrap().unwrap();
+        let names: Vec<&str> = summed.columns.iter().map(|c| c.0.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "product",
+                "rule",
+                "adjustments",
+                "first_month",
+                "last_month",
+                "before",
+                "after"
+            ]
+        );
+        let rows: Vec<Vec<&str>> = summed
+            .rows
+            .iter()
+            .map(|r| r.iter().map(String::as_str).collect())
+            .collect();
+        assert_eq!(
+            rows,
+            [
+                vec![
+                    "A",
+                    "reporting-scaled",
+                    "3",
+                    "2024-03",
+                    "2024-05",
+                    "31",
+                    "39.5"
+                ],
+                vec!["A", "site-filled", "1", "2024-01", "2024-01", "0", "7"],
+                vec![
+                    "=B",
+                    "stockout-missing",
+                    "1",
+                    "2024-02",
+                    "2024-02",
+                    "5",
+                    "0"
+                ],
+            ]
+        );
+        let note = summed.note.unwrap();
+        assert!(
+            note.starts_with("5 adjustments, more than the 4 rows"),
+            "{note}"
+        );
+    }
 }
