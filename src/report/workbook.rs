@@ -86,6 +86,10 @@ fn table(dir: &Path, file: &str, sheet: &str) -> Result<Option<WorkbookTable>> {
     }))
 }
 
+/// Count, first and last month, totals before and after of one product's
+/// adjustments by one rule.
+type AdjustmentSum = (usize, String, String, f64, f64);
+
 /// The "Adjustments" sheet from `adjustments.csv`: every adjustment when
 /// they fit in `limit` rows; otherwise one row per product and rule (how
 /// many, the months they span, the totals before and after), so every
@@ -109,7 +113,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
     // (product, rule) in order of first appearance → count, first and
     // last month, totals before and after.
     let mut order: Vec<(String, String)> = Vec::new();
-    let mut sums: HashMap<(String, String), (usize, String, String, f64, f64)> = HashMap::new();
+    let mut sums: HashMap<(String, String), AdjustmentSum> = HashMap::new();
     let mut rows: Vec<Vec<String>> = Vec::new();
     let mut total = 0usize;
     t.each(|_, _, rec| {
