@@ -31,8 +31,13 @@
 //! pass; the ETS step is our own `ets-auto` estimator
 //! ([`super::ets::Ets`], the likelihood and candidate set of statsforecast's
 //! `AutoETS`). In the backtest ([`Model::fit_warm`]) the decomposition is
-//! redone at every origin and the ETS search starts from its optimum at the
-//! previous origin.
+//! redone at every origin and, as `ets-auto` does, the ETS forms are ranked
+//! at their optimum of the previous origin and only the best
+//! [`super::ets_seasonal::WARM_REFIT`] re-estimated from it (re-estimating
+//! all six changed no mean MASE of the selection on M1, tourism or the
+//! generated set at the third decimal and cost 5% more CPU time for the
+//! whole forecast of 1,000 generated series, one thread: 4.79 s against
+//! 5.03–5.04 s).
 //!
 //! # Parameters
 //!
@@ -129,7 +134,12 @@ impl Model for MstlEts {
                 model_error("the seasonal decomposition gave non-finite values".to_string())
             })?;
         let adjusted: Vec<f64> = y.iter().zip(seasonal).map(|(v, s)| v - s).collect();
-        let ets = Ets::auto().fit_named(NAME, &adjusted, warm)?;
+        let ets = Ets::auto().fit_named_refitting(
+            NAME,
+            &adjusted,
+            warm,
+            super::ets_seasonal::WARM_REFIT,
+        )?;
         let mut last_year = [0.0; PERIOD];
         last_year.copy_from_slice(&seasonal[y.len() - PERIOD..]);
         let strength = Some(decomposition.seasonal_strength())
