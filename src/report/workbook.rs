@@ -54,23 +54,33 @@ fn kind_of(column: &str) -> ColumnKind {
     }
 }
 
+/// Positions of the columns in `header` whose text comes from the input.
+fn input_columns(header: &[String]) -> Vec<usize> {
+    header
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| INPUT_TEXT.contains(&h.as_str()))
+        .map(|(i, _)| i)
+        .collect()
+}
+
+/// Input text in `row` at `input` as read, without the CSV's formula quote.
+fn plain_input_text(row: &mut [String], input: &[usize]) {
+    for &i in input {
+        if let Some(v) = row.get_mut(i) {
+            *v = csv_text_read(v).to_string();
+        }
+    }
+}
+
 /// A CSV output of `dir` as a sheet; `None` when the file is absent.
 fn table(dir: &Path, file: &str, sheet: &str) -> Result<Option<WorkbookTable>> {
     let Some((header, mut rows, total)) = read_text_table(dir, file, MAX_TABLE_ROWS)? else {
         return Ok(None);
     };
-    let input: Vec<usize> = header
-        .iter()
-        .enumerate()
-        .filter(|(_, h)| INPUT_TEXT.contains(&h.as_str()))
-        .map(|(i, _)| i)
-        .collect();
+    let input = input_columns(&header);
     for r in &mut rows {
-        for &i in &input {
-            if let Some(v) = r.get_mut(i) {
-                *v = csv_text_read(v).to_string();
-            }
-        }
+        plain_input_text(r, &input);
     }
     let note = (total > rows.len()).then(|| {
         format!(
@@ -104,12 +114,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
     let header: Vec<String> = header.into_iter().map(|(_, n)| n).collect();
     let [product, month, before, after, rule] =
         t.cols(["product", "month", "before", "after", "rule"])?;
-    let input: Vec<usize> = header
-        .iter()
-        .enumerate()
-        .filter(|(_, h)| INPUT_TEXT.contains(&h.as_str()))
-        .map(|(i, _)| i)
-        .collect();
+    let input = input_columns(&header);
     // (product, rule) in order of first appearance → count, first and
     // last month, totals before and after.
     let mut order: Vec<(String, String)> = Vec::new();
@@ -120,11 +125,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
         total += 1;
         if rows.len() < limit {
             let mut r: Vec<String> = rec.iter().map(str::to_string).collect();
-            for &i in &input {
-                if let Some(v) = r.get_mut(i) {
-                    *v = csv_text_read(v).to_string();
-                }
-            }
+            plain_input_text(&mut r, &input);
             rows.push(r);
         }
         let get = |c: usize| rec.get(c).unwrap_or("");
