@@ -1669,6 +1669,55 @@ mod tests {
     }
 
     #[test]
+    fn a_warm_origin_re_estimates_only_the_best_ranked_forms() {
+        // The rule of `fit_named_refitting` (ets-auto's non-seasonal forms;
+        // src/models/ets_seasonal.rs, "Warm starts"): at a warm origin every
+        // form is scored at its previous optimum on the longer prefix, and
+        // only the `refit` with the lowest AICc there may move; the others
+        // keep their previous parameters to the bit.
+        let y: Vec<f64> = wandering(7, 60).iter().map(|v| v.abs() + 50.0).collect();
+        let spec = Ets::auto();
+        let mut warm: WarmStart = None;
+        spec.fit_named_refitting("t", &y[..48], &mut warm, 2)
+            .unwrap();
+        let before = warm
+            .as_ref()
+            .unwrap()
+            .downcast_ref::<EtsWarm>()
+            .unwrap()
+            .clone();
+        assert_eq!(
+            before.slots.iter().flatten().count(),
+            6,
+            "every form fitted cold"
+        );
+        let mut ranked: Vec<(f64, usize)> = AUTO_ORDER
+            .iter()
+            .map(|k| {
+                let p = before.slots[k.slot()].unwrap();
+                let a = FittedEts::new("t", *k, &y[..49], p).map_or(f64::INFINITY, |f| f.aicc());
+                (a, k.slot())
+            })
+            .collect();
+        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let fit = spec
+            .fit_named_refitting("t", &y[..49], &mut warm, 2)
+            .unwrap();
+        let after = warm.as_ref().unwrap().downcast_ref::<EtsWarm>().unwrap();
+        for &(_, slot) in &ranked[2..] {
+            assert_eq!(after.slots[slot], before.slots[slot], "slot {slot} moved");
+        }
+        // The chosen form is no worse than the best form at its previous
+        // optimum, and the same call again gives the same fit.
+        assert!(fit.aicc() <= ranked[0].0 + 1e-9);
+        let mut again = Some(Box::new(before) as Box<dyn std::any::Any + Send>);
+        let fit2 = spec
+            .fit_named_refitting("t", &y[..49], &mut again, 2)
+            .unwrap();
+        assert_eq!(fit.aicc(), fit2.aicc());
+    }
+
+    #[test]
     fn class2_variance_matches_simulation() {
         // The class-2 formula against a direct simulation of the
         // multiplicative-error model (fixed seed, 40 000 paths): the
