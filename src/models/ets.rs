@@ -346,7 +346,7 @@ impl Ets {
         y: &[f64],
         warm: &mut WarmStart,
     ) -> Result<FittedEts> {
-        self.fit_named_refitting(name, y, warm, 6)
+        self.fit_named_refitting(name, y, warm, AUTO_ORDER.len())
     }
 
     /// [`Ets::fit_named`], re-estimating at a warm origin only the `refit`
@@ -411,7 +411,13 @@ pub(crate) fn fit_each_form(y: &[f64]) -> Vec<FittedEts> {
     if Model::needs(&Ets::auto()).check("ets", y).is_err() {
         return Vec::new();
     }
-    let mut fits = fit_forms("ets", y, &AUTO_ORDER, &mut EtsWarm::default(), 6);
+    let mut fits = fit_forms(
+        "ets",
+        y,
+        &AUTO_ORDER,
+        &mut EtsWarm::default(),
+        AUTO_ORDER.len(),
+    );
     AUTO_ORDER
         .iter()
         .filter_map(|k| fits[k.slot()].take())
@@ -1474,7 +1480,7 @@ mod tests {
     /// Fits one form directly (all six, including the multiplicative-error
     /// ones that only `ets-auto` reaches).
     fn fit_kind(kind: Kind, y: &[f64]) -> FittedEts {
-        fit_forms("test", y, &[kind], &mut EtsWarm::default(), 6)[kind.slot()]
+        fit_forms("test", y, &[kind], &mut EtsWarm::default(), 1)[kind.slot()]
             .take()
             .unwrap()
     }
@@ -1600,7 +1606,13 @@ mod tests {
                 })
                 .collect();
             // All six together, as ets-auto fits them.
-            let mut ours = fit_forms("test", &y, &AUTO_ORDER, &mut EtsWarm::default(), 6);
+            let mut ours = fit_forms(
+                "test",
+                &y,
+                &AUTO_ORDER,
+                &mut EtsWarm::default(),
+                AUTO_ORDER.len(),
+            );
             for kind in AUTO_ORDER {
                 let theirs = augurs_fit(kind, &y);
                 let (a, b) = augurs_alpha_beta(&theirs);

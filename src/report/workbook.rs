@@ -121,7 +121,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
     let mut sums: HashMap<(String, String), AdjustmentSum> = HashMap::new();
     let mut rows: Vec<Vec<String>> = Vec::new();
     let mut total = 0usize;
-    t.each(|_, _, rec| {
+    t.each(|t, line, rec| {
         total += 1;
         if rows.len() < limit {
             let mut r: Vec<String> = rec.iter().map(str::to_string).collect();
@@ -129,7 +129,12 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
             rows.push(r);
         }
         let get = |c: usize| rec.get(c).unwrap_or("");
-        let number = |c: usize| get(c).trim().parse::<f64>().ok().filter(|v| v.is_finite());
+        // A value that is not a number is refused with its line, as the
+        // report refuses it, rather than summed as nothing.
+        let (b, a) = (
+            t.num(line, rec, before, "before")?,
+            t.num(line, rec, after, "after")?,
+        );
         let key = (
             csv_text_read(get(product)).to_string(),
             get(rule).to_string(),
@@ -146,8 +151,8 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
         if m > e.2.as_str() {
             e.2 = m.to_string();
         }
-        e.3 += number(before).unwrap_or(0.0);
-        e.4 += number(after).unwrap_or(0.0);
+        e.3 += b.unwrap_or(0.0);
+        e.4 += a.unwrap_or(0.0);
         Ok(())
     })?;
     if total <= limit {
