@@ -8,7 +8,10 @@
 //! calibrated), consumption that stops for the last 4 months with `naive`
 //! pinned (a product in use projected at zero, and a jump no trend backs),
 //! and demand in one month of three that fades out (an intermittent-demand
-//! rate lagging the change). The thresholds are the project's own
+//! rate lagging the change), and growth of 40% a year over the last 30
+//! months projected flat (a scale-up the projection does not follow; the
+//! same 72 months unbent, growing 10–20% a year, are not warned).
+//! The thresholds are the project's own
 //! (src/pipeline.rs, `WARN_*`); "a WAPE above 100%" and "fewer than 24
 //! months" are common practice.
 
@@ -58,10 +61,18 @@ fn data(w: &Workdir) {
         })
         .collect();
     s.push_str(&rows("Air sparse", &sparse));
+    // A scale-up: +40% a year, compounding, over the last 30 months,
+    // projected flat by a pinned 12-month moving average.
+    let grow: Vec<f64> = (0..72)
+        .map(|t| a[t] * 1.4f64.powf((t as f64 - 41.0).max(0.0) / 12.0))
+        .collect();
+    s.push_str(&rows("Air scale-up", &grow));
+    // AirPassengers itself grows by 10–20% a year: no scale-up warning.
+    s.push_str(&rows("Air plain", &a[..72]));
     w.write("d.csv", s);
     w.write(
         "run.toml",
-        "[products.\"Air short\"]\nmodel = \"naive\"\n[products.\"Air stop\"]\nmodel = \"naive\"\n",
+        "[products.\"Air short\"]\nmodel = \"naive\"\n[products.\"Air stop\"]\nmodel = \"naive\"\n[products.\"Air scale-up\"]\nmodel = \"moving-average-12\"\n[products.\"Air plain\"]\nmodel = \"moving-average-12\"\n",
     );
 }
 
@@ -81,7 +92,7 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
     ]);
     let t = text(&o);
     assert!(o.status.success(), "{t}");
-    let expected: [(&str, &[&str]); 4] = [
+    let expected: [(&str, &[&str]); 5] = [
         (
             "Air drop",
             &["missed by", "WAPE above 100%", "check the history for breaks"],
@@ -106,6 +117,14 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
             "Air sparse",
             &["the intermittent-demand rate may lag a real change"],
         ),
+        (
+            "Air scale-up",
+            &[
+                "year on year, but the next 12 months are projected only",
+                "the models follow a sustained scale-up slowly",
+                "enter it as a known change (--changes)",
+            ],
+        ),
     ];
     let sel = w.read_csv_maps("o/selection.csv");
     for (product, phrases) in expected {
@@ -122,6 +141,10 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
     // falls on a product whose condition does not hold.
     let sparse = &sel.iter().find(|r| r["product"] == "Air sparse").unwrap()["warnings"];
     assert!(!sparse.contains("own trend"), "{sparse}");
+    for product in ["Air plain", "Air drop", "Air sparse", "Air stop"] {
+        let column = &sel.iter().find(|r| r["product"] == product).unwrap()["warnings"];
+        assert!(!column.contains("scale-up"), "{product}: {column}");
+    }
     let drop = &sel.iter().find(|r| r["product"] == "Air drop").unwrap()["warnings"];
     assert!(
         !drop.contains("fewer than 24") && !drop.contains("projected at zero"),

@@ -26,6 +26,18 @@ $BIN generate --products 300 --sites 3 --months 60 --seed 5 --true-demand \
     --entry-errors 0.01 --out target/accuracy/generated_truth.csv --quiet
 $BIN evaluate target/accuracy/generated_truth.csv --holdout 12 --truth \
     > benches/accuracy/provisio_generated_truth.txt 2>&1
+# The same generator on five seeds: does the benchmark seed's result hold?
+{
+    echo "provisio evaluate FILE --holdout 12 --truth on provisio generate --products 300 --sites 3 --months 60 --seed S --true-demand --entry-errors 0.01"
+    echo "seed method products mean_MAPE median_MAPE mean_MASE WAPE bias"
+    for seed in 1 2 3 4 5; do
+        $BIN generate --products 300 --sites 3 --months 60 --seed "$seed" --true-demand \
+            --entry-errors 0.01 --out "target/accuracy/generated_seed$seed.csv" --quiet
+        $BIN evaluate "target/accuracy/generated_seed$seed.csv" --holdout 12 --truth 2>&1 |
+            grep -E '^(selected per product|combination|ets-auto|arima-auto|theta) ' |
+            sed -e 's/^selected per product/selected/' -e "s/^/$seed /" | tr -s ' '
+    done
+} > benches/accuracy/provisio_generated_seeds.txt
 $BIN evaluate datasets/open/monthly.csv --holdout 12 > benches/accuracy/provisio_open.txt 2>&1
 $BIN evaluate datasets/demo/consumption.csv --config datasets/demo/run.toml --holdout 12 \
     > benches/accuracy/provisio_demo.txt 2>&1

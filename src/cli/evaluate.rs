@@ -420,6 +420,8 @@ fn warning_kind(w: &str) -> &'static str {
         "backtest WAPE above 100%"
     } else if w.contains("differ from the last 12") {
         "jump between history and projection"
+    } else if w.contains("scale-up slowly") {
+        "sustained scale-up followed slowly"
     } else if w.contains("range held only") {
         "ranges too narrow in the backtest"
     } else if w.contains("months of history") {
@@ -464,21 +466,26 @@ fn print_warnings(warned: &[WarningTally], n: usize) {
         say!("no product carried a warning");
         return;
     }
-    say!("do warnings point at worse forecasts? mean MASE on the hidden months:");
+    let fmt1 = |v: Option<f64>| v.map(|x| format!("{x:.1}")).unwrap_or_else(|| "-".into());
+    say!("do warnings point at worse forecasts? mean MASE and bias (%) on the hidden months:");
     say!(
-        "{:<42} {:>9} {:>10} {:>14}",
+        "{:<42} {:>9} {:>10} {:>14} {:>7} {:>13}",
         "warning",
         "products",
         "mean MASE",
-        "others' MASE"
+        "others' MASE",
+        "bias",
+        "others' bias"
     );
     for w in warned {
         say!(
-            "{:<42} {:>9} {:>10} {:>14}",
+            "{:<42} {:>9} {:>10} {:>14} {:>7} {:>13}",
             w.kind,
             format!("{}/{n}", w.tally.products),
             fmt3(w.tally.mase()),
-            fmt3(w.others.mase())
+            fmt3(w.others.mase()),
+            fmt1(w.tally.bias()),
+            fmt1(w.others.bias())
         );
     }
 }
