@@ -736,7 +736,7 @@ fn scale_up_warning(product: &str, y: &[f64], jump: f64, intermittent: bool) -> 
     let sustained = g_last.min(g_prev);
     (sustained > WARN_SCALE_UP && jump < sustained / 2.0).then(|| {
         format!(
-            "product '{product}': consumption grew {:+.0}% and then {:+.0}% year on year, but the next 12 months are projected only {:+.0}% above the last 12; the models follow a sustained scale-up slowly: if it goes on, enter it as a known change (--changes)",
+            "product '{product}': consumption grew {:+.0}% and then {:+.0}% year on year, but the next 12 months are projected at {:+.0}% on the last 12; the models follow a sustained scale-up slowly: if it goes on, enter it as a known change (--changes)",
             g_prev * 100.0,
             g_last * 100.0,
             jump * 100.0

@@ -120,7 +120,7 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
         (
             "Air scale-up",
             &[
-                "year on year, but the next 12 months are projected only",
+                "year on year, but the next 12 months are projected at",
                 "the models follow a sustained scale-up slowly",
                 "enter it as a known change (--changes)",
             ],
