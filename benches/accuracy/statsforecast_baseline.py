@@ -33,8 +33,10 @@ def mase_scale(train, m=12):
     return s if s > 0 else None
 
 
-def main():
-    path, h, out = sys.argv[1], int(sys.argv[2]), sys.argv[3]
+def split(path, h):
+    """Reads DATA.csv (product, month, consumed) and hides each series'
+    last h months: the training rows in statsforecast's long layout and
+    the hidden actuals per series."""
     df = pd.read_csv(path)
     df["ds"] = pd.to_datetime(df["month"] + "-01")
     df = df.rename(columns={"product": "unique_id", "consumed": "y"})[["unique_id", "ds", "y"]]
@@ -43,7 +45,12 @@ def main():
         g = g.sort_values("ds")
         train_parts.append(g.iloc[:-h])
         test[uid] = g["y"].to_numpy()[-h:]
-    train = pd.concat(train_parts)
+    return pd.concat(train_parts), test
+
+
+def main():
+    path, h, out = sys.argv[1], int(sys.argv[2]), sys.argv[3]
+    train, test = split(path, h)
     models = [AutoETS(season_length=12), AutoARIMA(season_length=12), Theta(season_length=12)]
     sf = StatsForecast(models=models, freq="MS", n_jobs=1)
     t0 = time.time()

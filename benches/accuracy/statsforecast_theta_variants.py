@@ -16,13 +16,13 @@ forecasts clipped at zero):
     python3 benches/accuracy/statsforecast_theta_variants.py DATA.csv H > OUT.txt
 
 DATA.csv has columns product, month, consumed (export.py writes M1 and
-tourism monthly). Results are in statsforecast_theta_variants_*.txt; the
+tourism monthly; for the generated set, run.sh's generated_truth.csv with
+true_demand summed over sites per product and month as `consumed`). Results are in statsforecast_theta_variants_*.txt; the
 README's accuracy section says what was concluded. M3 monthly is not run.
 """
 import sys
 
 import numpy as np
-import pandas as pd
 from statsforecast import StatsForecast
 from statsforecast.models import (
     AutoARIMA,
@@ -32,25 +32,12 @@ from statsforecast.models import (
     Theta,
 )
 
-
-def mase_scale(train, m=12):
-    lag = m if len(train) > m else 1
-    d = np.abs(train[lag:] - train[:-lag])
-    s = d.mean() if len(d) else 0.0
-    return s if s > 0 else None
+from statsforecast_baseline import mase_scale, split
 
 
 def main():
     path, h = sys.argv[1], int(sys.argv[2])
-    df = pd.read_csv(path)
-    df["ds"] = pd.to_datetime(df["month"] + "-01")
-    df = df.rename(columns={"product": "unique_id", "consumed": "y"})[["unique_id", "ds", "y"]]
-    parts, test = [], {}
-    for uid, g in df.groupby("unique_id", sort=False):
-        g = g.sort_values("ds")
-        parts.append(g.iloc[:-h])
-        test[uid] = g["y"].to_numpy()[-h:]
-    train = pd.concat(parts)
+    train, test = split(path, h)
     models = [
         AutoETS(season_length=12),
         AutoARIMA(season_length=12),
