@@ -58,6 +58,7 @@ pub mod clean;
 pub mod config;
 pub mod crosscheck;
 pub mod data;
+pub mod default_rule;
 pub mod error;
 pub mod generate;
 pub mod metrics;

@@ -11,10 +11,11 @@ use crate::backtest::{
 use crate::calendar::YearMonth;
 use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod};
 use crate::clean::CleanSeries;
+use crate::default_rule::{self, DefaultChoice, DefaultRule, BEST_MEAN};
 use crate::error::Result;
 use crate::models::Forecast;
 use crate::models::{candidates, with_season, AnyModel, Season};
-use crate::project::{check_horizon, project, silence_warning, Projection};
+use crate::project::{check_horizon, project_with, silence_warning, FitCache, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
 
 /// Methods made for intermittent demand only (they compete for no other).
@@ -251,13 +252,35 @@ pub fn forecast_product(
     forecast_product_with(series, models, settings, &opts)
 }
 
-/// [`forecast_product`] with the product's own options.
+/// [`forecast_product`] with the product's own options. The default is
+/// the fixed combination, or the mean of the product's best five when the
+/// settings say so (a run decides between them on its own backtest: see
+/// [`forecast_run`]).
 pub fn forecast_product_with(
     series: &CleanSeries,
     models: &[Box<dyn AnyModel>],
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
 ) -> ProductForecast {
+    let kind = match settings.select.default_rule {
+        DefaultRule::BestMean => BEST_MEAN,
+        _ => COMBINATION,
+    };
+    let (mut v, _) = forecast_product_defaults(series, models, settings, opts, &[kind]);
+    v.swap_remove(0)
+}
+
+/// [`forecast_product_with`] under each default in `defaults`
+/// ([`COMBINATION`] or [`BEST_MEAN`]; one result each, in that order),
+/// with the product's check of the two on its backtest
+/// ([`default_rule::nested_check`], computed only when both are asked for).
+pub fn forecast_product_defaults(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+    defaults: &[&str],
+) -> Alternatives<ProductForecast> {
     let pinned = opts.model.as_deref();
     // Every model the caller offered: a pinned model is used even when the
     // demand pattern or the product's `seasonal` setting kept it out of the
@@ -387,17 +410,157 @@ pub fn forecast_product_with(
         other => other,
     };
     let intermittent = class.is_intermittent() && !forced_seasonal;
+    let check = (defaults.len() > 1 && !intermittent)
+        .then(|| default_rule::nested_check(&bt))
+        .flatten();
+    // The defaults that differ for this product: intermittent demand has
+    // its own, and without enough complete candidates for the pool the
+    // combination stays.
+    let base_scores: Vec<ModelScores> = bt.runs.iter().map(|r| model_scores(&bt, r)).collect();
+    let pool_run = (!intermittent && defaults.contains(&BEST_MEAN)).then(|| {
+        let (score, _) = crate::select::score_for(&bt, &settings.select, intermittent);
+        let overall = |run: &backtest::ModelRun| {
+            base_scores
+                .iter()
+                .find(|m| m.model == run.model)
+                .and_then(|m| m.overall)
+                .and_then(|o| o.get(score))
+        };
+        default_rule::best_mean_run(&bt, &overall)
+    });
+    let pool_ok = pool_run
+        .as_ref()
+        .is_some_and(|r| r.status == RunStatus::Complete);
+    let effective: Vec<&str> = defaults
+        .iter()
+        .map(|&d| {
+            if d == BEST_MEAN && pool_ok {
+                BEST_MEAN
+            } else {
+                COMBINATION
+            }
+        })
+        .collect();
+    let mut unique: Vec<&str> = Vec::with_capacity(2);
+    for &kind in &effective {
+        if !unique.contains(&kind) {
+            unique.push(kind);
+        }
+    }
+    let cache = FitCache::default();
+    let mut done: Vec<(&str, ProductForecast)> = Vec::with_capacity(2);
+    let mut last_bt = Some(bt);
+    for (i, &kind) in unique.iter().enumerate() {
+        let mut bt = if i + 1 == unique.len() {
+            last_bt
+                .take()
+                .expect("the backtest is moved once, at the last default")
+        } else {
+            last_bt
+                .as_ref()
+                .expect("kept until the last default")
+                .clone()
+        };
+        let mut pool_members: Vec<String> = Vec::new();
+        if kind == BEST_MEAN {
+            if let Some(run) = &pool_run {
+                pool_members = run.members.first().cloned().unwrap_or_default();
+                bt.runs.push(run.clone());
+            }
+        }
+        let r = finish_product(
+            series,
+            models,
+            offered,
+            settings,
+            FinishInputs {
+                bt,
+                base_scores: &base_scores,
+                cache: &cache,
+                kind,
+                pool_members,
+                class: &class,
+                intermittent,
+                forced_seasonal,
+                pinned_ok,
+                fallback: &fallback,
+                fitting_members: &fitting_members,
+                too_short,
+                notes: &notes,
+            },
+            warnings.clone(),
+        );
+        done.push((kind, r));
+    }
+    let out = effective
+        .iter()
+        .map(|k| {
+            done.iter()
+                .find(|(d, _)| d == k)
+                .map(|(_, r)| r.clone())
+                .expect("every effective default was computed")
+        })
+        .collect();
+    (out, check)
+}
+
+/// What [`finish_product`] needs from the first part of
+/// [`forecast_product_defaults`].
+struct FinishInputs<'a> {
+    bt: Backtest,
+    /// Scores of the backtest's runs before the pool was added.
+    base_scores: &'a [ModelScores],
+    cache: &'a FitCache,
+    kind: &'a str,
+    pool_members: Vec<String>,
+    class: &'a DemandClass,
+    intermittent: bool,
+    forced_seasonal: bool,
+    pinned_ok: Option<&'a str>,
+    fallback: &'a str,
+    fitting_members: &'a [String],
+    too_short: Option<usize>,
+    notes: &'a str,
+}
+
+/// Selection, projection, warnings and ranges of one product under one
+/// default, from its backtest.
+fn finish_product(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    offered: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    inputs: FinishInputs<'_>,
+    mut warnings: Vec<String>,
+) -> ProductForecast {
+    let FinishInputs {
+        bt,
+        base_scores,
+        cache,
+        kind,
+        pool_members,
+        class,
+        intermittent,
+        forced_seasonal,
+        pinned_ok,
+        fallback,
+        fitting_members,
+        too_short,
+        notes,
+    } = inputs;
+    let _ = forced_seasonal;
+    let y = &series.values;
     let default = if intermittent {
         INTERMITTENT_DEFAULT
     } else {
-        COMBINATION
+        kind
     };
     let mut selection = select(
         &bt,
         &settings.select,
         Some(default),
         pinned_ok,
-        &fallback,
+        fallback,
         intermittent,
     );
     if let Some(p) =
@@ -415,6 +578,7 @@ pub fn forecast_product_with(
         && fallback == COMBINATION
         && !combination_backtested
         && selection.chosen != COMBINATION
+        && selection.chosen != default
     {
         // The history is too short for the combination's members at the
         // earliest origins, so the backtest could not weigh the default
@@ -443,7 +607,7 @@ pub fn forecast_product_with(
             y.len()
         );
     }
-    selection.reason.push_str(&notes);
+    selection.reason.push_str(notes);
     if class.is_intermittent() {
         selection.reason.push_str(&format!(
             "; demand is {} (mean interval between demands {:.2} months > {ADI_CUTOFF}; Syntetos, Boylan & Croston, JORS 56, 2005), so only intermittent-demand methods and moving averages competed",
@@ -469,7 +633,9 @@ pub fn forecast_product_with(
             .map(|m| m.as_ref())
     };
     let members_of = |name: &str| -> Vec<&dyn AnyModel> {
-        if name == COMBINATION {
+        if name == BEST_MEAN {
+            pool_members.iter().filter_map(|n| find(n)).collect()
+        } else if name == COMBINATION {
             // The combination's fixed members that can be fitted on the
             // whole history, as the combination is defined (a member that
             // missed the earliest backtest origins for want of history
@@ -479,27 +645,36 @@ pub fn forecast_product_with(
             find(name).into_iter().collect()
         }
     };
-    let mut projection = project(
+    let mut projection = project_with(
         y,
         last,
         end,
         &selection.chosen,
         &members_of(&selection.chosen),
         settings.horizon,
+        Some(cache),
     );
     if let (Err(e), true) = (&projection, selection.chosen != fallback) {
         warnings.push(format!(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
             series.product, selection.chosen
         ));
-        projection = match find(&fallback) {
-            Some(m) => project(y, last, end, &fallback, &[m], settings.horizon),
+        projection = match find(fallback) {
+            Some(m) => project_with(y, last, end, fallback, &[m], settings.horizon, Some(cache)),
             None => projection,
         };
     }
     if !selection.pinned {
         projection = avoid_zero_projection(y, &bt, &mut selection, projection, &|name| {
-            project(y, last, end, name, &members_of(name), settings.horizon)
+            project_with(
+                y,
+                last,
+                end,
+                name,
+                &members_of(name),
+                settings.horizon,
+                Some(cache),
+            )
         });
     }
     if matches!(&projection, Ok(p) if all_zero(p)) && in_use(y) {
@@ -539,23 +714,12 @@ pub fn forecast_product_with(
         }
         _ => RangeMethod::Model,
     };
-    let scores: Vec<ModelScores> = bt
-        .runs
-        .iter()
-        .map(|run| {
-            let applicable = !matches!(run.status, RunStatus::NotApplicable(_));
-            ModelScores {
-                model: run.model.clone(),
-                status: run.status.clone(),
-                overall: applicable.then(|| bt.scores(run)),
-                by_horizon: if applicable {
-                    bt.scores_by_horizon(run)
-                } else {
-                    Vec::new()
-                },
-            }
-        })
-        .collect();
+    let mut scores = base_scores.to_vec();
+    scores.extend(
+        bt.runs[base_scores.len()..]
+            .iter()
+            .map(|run| model_scores(&bt, run)),
+    );
     let mut bt = bt;
     if settings.raw.backtest_detail == BacktestDetail::Chosen {
         let keep = |m: &str| {
@@ -578,6 +742,21 @@ pub fn forecast_product_with(
         model_ranges,
         pool_entry,
         warnings,
+    }
+}
+
+/// A run's scores over all origins and by months ahead.
+fn model_scores(bt: &Backtest, run: &backtest::ModelRun) -> ModelScores {
+    let applicable = !matches!(run.status, RunStatus::NotApplicable(_));
+    ModelScores {
+        model: run.model.clone(),
+        status: run.status.clone(),
+        overall: applicable.then(|| bt.scores(run)),
+        by_horizon: if applicable {
+            bt.scores_by_horizon(run)
+        } else {
+            Vec::new()
+        },
     }
 }
 
@@ -834,6 +1013,50 @@ pub fn forecast_all_with(
     options: &HashMap<String, ProductOptions>,
     progress: &(dyn Fn() + Sync),
 ) -> Vec<ProductForecast> {
+    forecast_run(series, settings, options, progress).0
+}
+
+/// A product's results under each of the run's defaults, with its check of
+/// the two ([`default_rule::nested_check`]).
+pub type Alternatives<T> = (Vec<T>, Option<(f64, f64)>);
+
+/// The defaults a run computes for every product under its rule.
+fn run_defaults(rule: DefaultRule) -> &'static [&'static str] {
+    match rule {
+        DefaultRule::Auto => &[COMBINATION, BEST_MEAN],
+        DefaultRule::Combination => &[COMBINATION],
+        DefaultRule::BestMean => &[BEST_MEAN],
+    }
+}
+
+/// Picks, from each product's results under the run's defaults, the one
+/// under the default the run chose from the products' checks.
+fn choose_default<T>(
+    rule: DefaultRule,
+    per_product: Vec<Alternatives<T>>,
+) -> (Vec<T>, DefaultChoice) {
+    let defaults = run_defaults(rule);
+    let checks: Vec<(f64, f64)> = per_product.iter().filter_map(|p| p.1).collect();
+    let choice = default_rule::decide(rule, &checks);
+    let k = defaults
+        .iter()
+        .position(|d| *d == choice.default)
+        .unwrap_or(0);
+    let chosen = per_product
+        .into_iter()
+        .filter_map(|(mut v, _)| (k < v.len()).then(|| v.swap_remove(k)))
+        .collect();
+    (chosen, choice)
+}
+
+/// [`forecast_all_with`], with the run's default and the evidence for it
+/// (see [`crate::default_rule`]).
+pub fn forecast_run(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    options: &HashMap<String, ProductOptions>,
+    progress: &(dyn Fn() + Sync),
+) -> (Vec<ProductForecast>, DefaultChoice) {
     let none = ProductOptions::default();
     // One projection start for every product: the month after the latest
     // last month.
@@ -845,17 +1068,19 @@ pub fn forecast_all_with(
             .max();
     }
     let settings = &common;
-    let mut results: Vec<ProductForecast> = series
+    let rule = settings.select.default_rule;
+    let per_product: Vec<Alternatives<ProductForecast>> = series
         .par_iter()
         .map_init(candidates, |models, s| {
             let o = options.get(&s.product).unwrap_or(&none);
-            let r = forecast_product_with(s, models, settings, o);
+            let r = forecast_product_defaults(s, models, settings, o, run_defaults(rule));
             progress();
             r
         })
         .collect();
+    let (mut results, choice) = choose_default(rule, per_product);
     calibrate_run(&mut results);
-    results
+    (results, choice)
 }
 
 /// Out-of-sample check of the whole procedure on one series: the last
@@ -946,6 +1171,25 @@ pub fn holdout_check_with(
     holdout: usize,
     opts: &ProductOptions,
 ) -> Option<HoldoutResult> {
+    let kind = match settings.select.default_rule {
+        DefaultRule::BestMean => BEST_MEAN,
+        _ => COMBINATION,
+    };
+    holdout_check_defaults(series, models, settings, holdout, opts, &[kind])
+        .map(|(mut v, _)| v.swap_remove(0))
+}
+
+/// [`holdout_check_with`] under each default in `defaults`, with the
+/// product's check of the two on the shortened history's backtest (see
+/// [`forecast_product_defaults`]).
+pub fn holdout_check_defaults(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    opts: &ProductOptions,
+    defaults: &[&str],
+) -> Option<Alternatives<HoldoutResult>> {
     let n = series.len();
     if n <= holdout + 24 {
         return None;
@@ -959,9 +1203,7 @@ pub fn holdout_check_with(
     short.outlier.truncate(cut);
     let mut s = settings.clone();
     s.horizon = holdout;
-    let r = forecast_product_with(&short, models, &s, opts);
-    let (ranges, pool_entry) = (r.ranges, r.pool_entry);
-    let selected_ranges = r.projection.map(|p| p.forecast)?;
+    let (rs, check) = forecast_product_defaults(&short, models, &s, opts, defaults);
     let mut single: Vec<(String, Option<Vec<f64>>)> = models
         .iter()
         .map(|m| {
@@ -973,39 +1215,87 @@ pub fn holdout_check_with(
             (m.name(), f)
         })
         .collect();
+    let mean_of = |names: &[String]| -> Option<Vec<f64>> {
+        let fs: Vec<&Vec<f64>> = names
+            .iter()
+            .filter_map(|name| single.iter().find(|(n, _)| n == name))
+            .filter_map(|(_, f)| f.as_ref())
+            .collect();
+        (!fs.is_empty()).then(|| {
+            (0..holdout)
+                .map(|h| fs.iter().map(|f| f[h]).sum::<f64>() / fs.len() as f64)
+                .collect()
+        })
+    };
     // The fixed combination applied to every product: the mean of its
     // members that apply.
-    let members: Vec<&Vec<f64>> = backtest::COMBINATION_MEMBERS
+    let fixed: Vec<String> = backtest::COMBINATION_MEMBERS
         .iter()
-        .filter_map(|name| single.iter().find(|(n, _)| n == name))
-        .filter_map(|(_, f)| f.as_ref())
+        .map(|m| m.to_string())
         .collect();
-    let combo = (members.len() >= backtest::COMBINATION_MIN_MEMBERS).then(|| {
-        (0..holdout)
-            .map(|h| members.iter().map(|f| f[h]).sum::<f64>() / members.len() as f64)
-            .collect()
+    let combo = mean_of(&fixed).filter(|_| {
+        fixed
+            .iter()
+            .filter(|m| single.iter().any(|(n, f)| n == *m && f.is_some()))
+            .count()
+            >= backtest::COMBINATION_MIN_MEMBERS
+    });
+    // The mean of each product's best five applied to every product: its
+    // members from the backtest scores on the shortened history.
+    let pool = rs.first().and_then(|r| {
+        let score = r.selection.score;
+        let mut ranked: Vec<(f64, &str)> = r
+            .scores
+            .iter()
+            .filter(|m| {
+                m.status == RunStatus::Complete && m.model != COMBINATION && m.model != BEST_MEAN
+            })
+            .filter_map(|m| {
+                m.overall
+                    .and_then(|o| o.get(score))
+                    .map(|v| (v, m.model.as_str()))
+            })
+            .filter(|(v, _)| v.is_finite())
+            .collect();
+        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let names: Vec<String> = ranked
+            .iter()
+            .take(default_rule::BEST_MEAN_SIZE)
+            .map(|(_, m)| m.to_string())
+            .collect();
+        (names.len() >= default_rule::BEST_MEAN_MIN)
+            .then(|| mean_of(&names))
+            .flatten()
     });
     single.push((COMBINATION.to_string(), combo));
-    Some(HoldoutResult {
-        product: series.product.clone(),
-        selected: r.selection.chosen,
-        // A month flagged as an outlier in the hidden part is scored at its
-        // reported value, not at the replacement the cleaning computed.
-        actual: (cut..n)
-            .map(|t| match series.reported[t] {
-                Some(r) if series.outlier[t] => r,
-                _ => series.values[t],
-            })
-            .collect(),
-        selected_forecast: selected_ranges.point.clone(),
-        selected_ranges,
-        model_ranges: r.model_ranges,
-        warnings: r.warnings,
-        single,
-        scale: crate::metrics::mase_scale(&short.values, crate::models::PERIOD),
-        ranges,
-        pool_entry,
-    })
+    single.push((BEST_MEAN.to_string(), pool));
+    // A month flagged as an outlier in the hidden part is scored at its
+    // reported value, not at the replacement the cleaning computed.
+    let actual: Vec<f64> = (cut..n)
+        .map(|t| match series.reported[t] {
+            Some(r) if series.outlier[t] => r,
+            _ => series.values[t],
+        })
+        .collect();
+    let scale = crate::metrics::mase_scale(&short.values, crate::models::PERIOD);
+    let mut out = Vec::with_capacity(rs.len());
+    for r in rs {
+        let selected_ranges = r.projection.map(|p| p.forecast)?;
+        out.push(HoldoutResult {
+            product: series.product.clone(),
+            selected: r.selection.chosen,
+            actual: actual.clone(),
+            selected_forecast: selected_ranges.point.clone(),
+            selected_ranges,
+            model_ranges: r.model_ranges,
+            warnings: r.warnings,
+            single: single.clone(),
+            scale,
+            ranges: r.ranges,
+            pool_entry: r.pool_entry,
+        });
+    }
+    Some((out, check))
 }
 
 /// [`holdout_check`] for many series, in parallel.
@@ -1024,15 +1314,28 @@ pub fn holdout_all_with(
     holdout: usize,
     options: &HashMap<String, ProductOptions>,
 ) -> Vec<HoldoutResult> {
+    holdout_run(series, settings, holdout, options).0
+}
+
+/// [`holdout_all_with`], with the default the run chose on the shortened
+/// histories' backtests (as [`forecast_run`] does on the whole ones).
+pub fn holdout_run(
+    series: &[CleanSeries],
+    settings: &CheckedForecastSettings,
+    holdout: usize,
+    options: &HashMap<String, ProductOptions>,
+) -> (Vec<HoldoutResult>, DefaultChoice) {
     let none = ProductOptions::default();
-    let mut results: Vec<HoldoutResult> = series
+    let rule = settings.select.default_rule;
+    let per_product: Vec<Alternatives<HoldoutResult>> = series
         .par_iter()
         .map_init(candidates, |models, s| {
             let o = options.get(&s.product).unwrap_or(&none);
-            holdout_check_with(s, models, settings, holdout, o)
+            holdout_check_defaults(s, models, settings, holdout, o, run_defaults(rule))
         })
         .flatten()
         .collect();
+    let (mut results, choice) = choose_default(rule, per_product);
     // Ranges pooled across the products, as `forecast` does.
     let pool = Pool::build(results.iter().filter_map(|r| r.pool_entry.as_ref()));
     for r in results.iter_mut() {
@@ -1041,7 +1344,7 @@ pub fn holdout_all_with(
         };
         recalibrate(&pool, &entry, own, &mut r.selected_ranges, &mut r.ranges);
     }
-    results
+    (results, choice)
 }
 
 #[cfg(test)]

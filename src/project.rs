@@ -112,15 +112,57 @@ pub fn project(
     models: &[&dyn AnyModel],
     horizon: usize,
 ) -> Result<Projection> {
+    project_with(y, last, end, name, models, horizon, None)
+}
+
+/// Forecasts of models fitted on one product's whole history, kept so that
+/// projecting it under a second default (see [`crate::default_rule`])
+/// does not fit a model twice. Only successful fits are kept (a failure is
+/// met again, with its own message).
+#[derive(Debug, Default)]
+pub struct FitCache {
+    fits: std::cell::RefCell<Vec<(String, usize, Forecast)>>,
+}
+
+impl FitCache {
+    fn forecast(&self, m: &dyn AnyModel, y: &[f64], h: usize) -> Result<Forecast> {
+        let name = m.name();
+        if let Some((_, _, f)) = self
+            .fits
+            .borrow()
+            .iter()
+            .find(|(n, k, _)| *n == name && *k == h)
+        {
+            return Ok(f.clone());
+        }
+        let f = m.fit_any(y).and_then(|f| f.forecast(h, &LEVELS))?;
+        self.fits.borrow_mut().push((name, h, f.clone()));
+        Ok(f)
+    }
+}
+
+/// [`project`], reusing the fits kept in `cache` when given.
+pub fn project_with(
+    y: &[f64],
+    last: YearMonth,
+    end: YearMonth,
+    name: &str,
+    models: &[&dyn AnyModel],
+    horizon: usize,
+    cache: Option<&FitCache>,
+) -> Result<Projection> {
     let bridged = last.months_until(end).max(0) as usize;
     let mut fcs = Vec::with_capacity(models.len());
     let mut used = Vec::with_capacity(models.len());
     let mut first_err = None;
     for m in models {
-        match m
-            .fit_any(y)
-            .and_then(|f| f.forecast(bridged + horizon, &LEVELS))
-        {
+        let fitted = match cache {
+            Some(c) => c.forecast(*m, y, bridged + horizon),
+            None => m
+                .fit_any(y)
+                .and_then(|f| f.forecast(bridged + horizon, &LEVELS)),
+        };
+        match fitted {
             Ok(f) => {
                 fcs.push(f);
                 used.push(m.name());

@@ -46,6 +46,9 @@ pub struct SelectSettings {
     pub score: Score,
     /// Relative gap by which a challenger must beat the default.
     pub tie_margin: f64,
+    /// How the run's default is set (see [`crate::default_rule`]).
+    #[serde(default)]
+    pub default_rule: crate::default_rule::DefaultRule,
 }
 
 impl Default for SelectSettings {
@@ -53,6 +56,7 @@ impl Default for SelectSettings {
         SelectSettings {
             score: Score::Mase,
             tie_margin: 0.5,
+            default_rule: crate::default_rule::DefaultRule::Auto,
         }
     }
 }
@@ -100,7 +104,7 @@ pub fn complexity(model: &str) -> usize {
     match model {
         m if m.starts_with("moving-average") => 0,
         "naive" | "seasonal-naive" => 0,
-        COMBINATION => 0,
+        COMBINATION | crate::default_rule::BEST_MEAN => 0,
         "croston" | "croston-sba" | "ets-simple" => 2,
         "tsb" => 3,
         "theta" | "ets-holt" => 3,
@@ -197,7 +201,11 @@ fn origin_wins(bt: &Backtest, a: &str, b: &str, score: Score) -> (usize, usize) 
 /// The score a product is selected by: `settings.score`, except RMSSE for
 /// intermittent demand and WAPE instead of MAPE when many months are zero.
 /// Returns the score and a note for the reason.
-fn score_for(bt: &Backtest, settings: &SelectSettings, intermittent: bool) -> (Score, String) {
+pub(crate) fn score_for(
+    bt: &Backtest,
+    settings: &SelectSettings,
+    intermittent: bool,
+) -> (Score, String) {
     if intermittent && settings.score != Score::Rmsse {
         return (
             Score::Rmsse,
@@ -340,6 +348,8 @@ fn against_default(
     let n_points = d.2.n;
     let what = if d.0 == COMBINATION {
         "the default, a fixed combination"
+    } else if d.0 == crate::default_rule::BEST_MEAN {
+        "the default, the mean of this product's five best models by backtest"
     } else {
         "the default for intermittent demand"
     };
@@ -455,6 +465,7 @@ mod tests {
         SelectSettings {
             score: Score::Mape,
             tie_margin: 0.1,
+            ..SelectSettings::default()
         }
     }
 
@@ -511,6 +522,7 @@ mod tests {
         let wide = SelectSettings {
             tie_margin: 0.5,
             score: Score::Mape,
+            ..SelectSettings::default()
         };
         let s = select(&bt, &wide, None, None, "naive", false);
         assert_eq!(s.chosen, "holt-winters-additive");

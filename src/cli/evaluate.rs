@@ -145,8 +145,8 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         None => HashMap::new(),
     };
     let options = product_options(config.as_ref(), pins, given.cli("pin"));
-    let mut results =
-        provisio::pipeline::holdout_all_with(&cleaned.series, &checked, a.holdout, &options);
+    let (mut results, default_choice) =
+        provisio::pipeline::holdout_run(&cleaned.series, &checked, a.holdout, &options);
     if a.truth {
         let truth = read_truth(&a.data)?;
         let left_out = score_against_truth(&mut results, &cleaned.series, &truth, a.holdout);
@@ -193,6 +193,10 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     say!(
         "out-of-sample check: last {} months of {n} product(s) hidden; selection ran on the rest",
         a.holdout
+    );
+    say!(
+        "default for smooth and erratic demand: {}",
+        default_choice.reason
     );
     say!(
         "{:<36} {:>9} {:>10} {:>12} {:>10} {:>10} {:>9}",
@@ -263,6 +267,7 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             "input": ds.source,
             "holdout": a.holdout,
             "products": n,
+            "default": default_choice,
             "methods": rows.iter().map(|t| row(t)).collect::<Vec<_>>(),
             "ranges": ranges.iter().map(|r| serde_json::json!({
                 "ranges": r.name,

@@ -13,10 +13,11 @@ use super::{
 use provisio::backtest::BacktestSettings;
 use provisio::calendar::YearMonth;
 use provisio::config::RunConfig;
+use provisio::default_rule::DefaultRule;
 use provisio::metrics::Score;
 use provisio::output;
 use provisio::pipeline::ProductOptions;
-use provisio::pipeline::{forecast_all_with, ForecastSettings, ProductForecast};
+use provisio::pipeline::{forecast_run, ForecastSettings, ProductForecast};
 use provisio::select::SelectSettings;
 
 #[derive(ValueEnum, Debug, Clone, Copy)]
@@ -46,6 +47,17 @@ impl DetailArg {
     }
 }
 
+/// How the run's default is set (see `provisio::default_rule`).
+#[derive(ValueEnum, Debug, Clone, Copy)]
+enum DefaultArg {
+    /// Chosen for the run on its own backtest.
+    Auto,
+    /// The fixed combination of ets-auto, arima-auto and theta.
+    Combination,
+    /// The mean of each product's five best models by backtest.
+    BestFiveMean,
+}
+
 /// Options of the evaluation, shared by `forecast` and `backtest`.
 #[derive(Args, Debug, Clone)]
 pub struct EvalArgs {
@@ -64,6 +76,9 @@ pub struct EvalArgs {
     /// Relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
     tie_margin: f64,
+    /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or `auto`, chosen for the run on its own backtest (the later backtest months test the mean of the best five, chosen on the earlier ones, against the combination).
+    #[arg(long, value_enum, default_value_t = DefaultArg::Auto)]
+    default_model: DefaultArg,
     /// Backtest forecasts written to backtest.csv and scores_by_horizon.csv: `chosen` model only, `compared` (chosen model, runner-up, combination) or `all` models.
     #[arg(long, value_enum, default_value_t = DetailArg::Chosen)]
     backtest_detail: DetailArg,
@@ -302,6 +317,9 @@ impl EvalArgs {
         if let (Some(v), false) = (s.tie_margin, given.cli("tie_margin")) {
             self.tie_margin = v;
         }
+        if let (Some(v), false) = (&s.default_model, given.cli("default_model")) {
+            self.default_model = enum_value(v)?;
+        }
         if let (Some(v), false) = (&s.pin, given.cli("pin")) {
             self.pin = Some(c.resolve(v));
         }
@@ -318,6 +336,7 @@ impl EvalArgs {
         cfg.backtest.backtest_detail = name(&|| self.backtest_detail.to_possible_value());
         cfg.selection.select_by = name(&|| self.select_by.to_possible_value());
         cfg.selection.tie_margin = Some(self.tie_margin);
+        cfg.selection.default_model = name(&|| self.default_model.to_possible_value());
         cfg.selection.pin = self.pin.as_ref().map(|p| path_for_config(p, dir));
     }
 }
@@ -342,6 +361,11 @@ pub fn check_config_names() {
         .map(|x| x.to_possible_value())
         .collect();
     assert_eq!(names(details), provisio::config::DETAILS);
+    let defaults = DefaultArg::value_variants()
+        .iter()
+        .map(|x| x.to_possible_value())
+        .collect();
+    assert_eq!(names(defaults), provisio::config::DEFAULT_MODELS);
 }
 
 pub(super) fn settings(eval: &EvalArgs, horizon: usize) -> ForecastSettings {
@@ -364,6 +388,11 @@ fn with_silence(eval: &EvalArgs, horizon: usize, silence_limit: usize) -> Foreca
                 ScoreArg::Rmsse => Score::Rmsse,
             },
             tie_margin: eval.tie_margin,
+            default_rule: match eval.default_model {
+                DefaultArg::Auto => DefaultRule::Auto,
+                DefaultArg::Combination => DefaultRule::Combination,
+                DefaultArg::BestFiveMean => DefaultRule::BestMean,
+            },
         },
         horizon,
         backtest_detail: match eval.backtest_detail {
@@ -427,6 +456,7 @@ type EvalRun = (
     Vec<ProductForecast>,
     ForecastSettings,
     f64,
+    provisio::default_rule::DefaultChoice,
 );
 
 /// Per-product options: the configuration's `[products]` tables, then the
@@ -503,9 +533,9 @@ fn run_eval(
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
     );
     let progress = || bar.inc(1);
-    let results = forecast_all_with(&cleaned.series, &checked, &options, &progress);
+    let (results, choice) = forecast_run(&cleaned.series, &checked, &options, &progress);
     bar.finish_and_clear();
-    Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64()))
+    Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64(), choice))
 }
 
 /// A product name as a TOML key.
@@ -731,7 +761,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         .as_ref()
         .map(|p| provisio::changes::read_changes(p))
         .transpose()?;
-    let (ds, cleaned, results, fs, secs) = run_eval(
+    let (ds, cleaned, results, fs, secs, choice) = run_eval(
         &data,
         &a.read,
         &a.clean,
@@ -851,6 +881,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         "sheet": ds.layout.sheet.as_ref().map(|s| s.name.clone()),
         "wide": ds.layout.wide.as_ref().map(|w| w.manifest()),
         "forecast_settings": fs,
+        "default_model": choice,
         "pin_file": a.eval.pin.as_ref().map(|p| p.display().to_string()),
         "changes_file": changes.as_ref().map(|c| c.file.clone()),
         "changes_sha256": changes.as_ref().map(|c| c.sha256.clone()),
@@ -874,6 +905,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     let retired = output::retire_derived(&a_out)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
+    say!("default for smooth and erratic demand: {}", choice.reason);
     super::print_reporting_uplift(&cleaned, "report.html, and adjustments.csv");
     if let (Some(c), Some(ap)) = (&changes, &applied) {
         super::changes::print_applied(c, ap);
@@ -891,6 +923,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "out": out_path.display().to_string(),
             "files": forecast_files(&out_path, !a.no_report, !a.no_workbook, applied.is_some()),
             "changes": applied.as_ref().map(super::changes::changes_json),
+            "default_model": choice,
             "seconds": secs,
         })
     });
@@ -1056,7 +1089,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         o.refuse_input_inside(&a.data)?;
     }
     let mut run = out_dir.as_ref().map(|o| o.start()).transpose()?;
-    let (ds, cleaned, results, _, secs) = run_eval(
+    let (ds, cleaned, results, _, secs, choice) = run_eval(
         &a.data,
         &a.read,
         &a.clean,
@@ -1069,6 +1102,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
     )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);
+    say!("default for smooth and erratic demand: {}", choice.reason);
     if let (Some(shown), Some(mut run)) = (&a.out, run.take()) {
         let out = super::stage(&mut run)?;
         let starts: Vec<_> = cleaned

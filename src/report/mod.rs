@@ -951,12 +951,21 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Selection",
         escape(&format!(
-            "by {}: each product keeps the default (the fixed combination of ets-auto, arima-auto and theta; SBA for intermittent demand, scored by RMSSE) unless another model's score is more than {} lower and it is better at 10 of 12 backtest origins",
+            "by {}: each product keeps the default ({}; SBA for intermittent demand, scored by RMSSE) unless another model's score is more than {} lower and it is better at 10 of 12 backtest origins. Default for this run: {}",
             fs(&["select", "score"]).to_uppercase(),
+            if json_str(m, &["default_model", "default"]) == crate::default_rule::BEST_MEAN {
+                "the mean of the product's five best models by backtest"
+            } else {
+                "the fixed combination of ets-auto, arima-auto and theta"
+            },
             fs(&["select", "tie_margin"])
                 .parse::<f64>()
                 .map(|v| format!("{}%", v * 100.0))
-                .unwrap_or_else(|_| fs(&["select", "tie_margin"]))
+                .unwrap_or_else(|_| fs(&["select", "tie_margin"])),
+            match json_str(m, &["default_model", "reason"]) {
+                r if r.is_empty() => "not recorded (a forecast folder written before the choice was made per run)".to_string(),
+                r => r,
+            }
         )),
     ));
     facts.push((

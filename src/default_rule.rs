@@ -1,0 +1,445 @@
+//! Which default a run's products start from — the fixed combination, or
+//! for each product the mean of its five best candidates on the backtest —
+//! decided on the run's own backtest.
+//!
+//! The fixed combination ([`crate::backtest::COMBINATION`]) cannot overfit
+//! the backtest windows, and on some collections nothing the backtest says
+//! about a product carries over to its future: on M1 monthly, every rule
+//! that used a product's backtest ranking to leave the combination lost
+//! out of sample. On others (generated health-consumption sets with
+//! trends) the mean of each product's best models by backtest is clearly
+//! better. Choosing among a pool of the best models rather than a single
+//! one is forecast pooling (Kourentzes, Barrow & Petropoulos, *IJPE* 209,
+//! 2019); deciding for the whole collection rather than per series, on
+//! the collection's own validation errors, is aggregate selection (Fildes
+//! & Petropoulos, *J. Bus. Res.* 68(8), 2015).
+//!
+//! The check, per product with enough origins ([`nested_check`]): the
+//! pool's members are chosen on the earlier half of the backtest origins
+//! only, and both defaults are scored on the later origins' target months
+//! that the earlier origins never saw (targets after the earlier half's
+//! last target month), so the pool's choice of members is tested out of
+//! sample. Across products ([`decide`]), the pool becomes the run's
+//! default only when its mean scaled error is lower with a one-sided
+//! paired t-test at p ≤ [`LEVEL`], over at least [`MIN_PRODUCTS`]
+//! products; otherwise the combination stays.
+
+use crate::backtest::{Backtest, ModelRun, RunStatus, COMBINATION};
+use crate::models::Forecast;
+
+/// Name of the pooled candidate: the mean of a product's best models.
+pub const BEST_MEAN: &str = "best-five-mean";
+/// Members of the pool: the candidates with the lowest backtest score.
+pub const BEST_MEAN_SIZE: usize = 5;
+/// Fewest complete candidates for the pool to apply.
+pub const BEST_MEAN_MIN: usize = 3;
+/// Fewest products with a check for the run to leave the combination.
+pub const MIN_PRODUCTS: usize = 30;
+/// One-sided level of the paired t-test.
+pub const LEVEL: f64 = 0.05;
+/// Fewest backtest origins for a product's check (two halves of at least
+/// three).
+pub const MIN_ORIGINS: usize = 6;
+
+/// How a run's default is set.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum DefaultRule {
+    /// Decided on the run's own backtest ([`decide`]).
+    #[default]
+    Auto,
+    /// Always the fixed combination.
+    Combination,
+    /// Always the mean of each product's best five.
+    BestMean,
+}
+
+impl DefaultRule {
+    /// The name used in settings and on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            DefaultRule::Auto => "auto",
+            DefaultRule::Combination => COMBINATION,
+            DefaultRule::BestMean => BEST_MEAN,
+        }
+    }
+}
+
+/// The run's default and the evidence for it.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct DefaultChoice {
+    /// [`COMBINATION`] or [`BEST_MEAN`].
+    pub default: &'static str,
+    /// Products whose backtest allowed the check.
+    pub products: usize,
+    /// Mean scaled absolute error of the combination on the check's months.
+    pub combination_error: Option<f64>,
+    /// The same for the pool.
+    pub pool_error: Option<f64>,
+    /// One-sided p-value of the paired t-test (pool lower).
+    pub p: Option<f64>,
+    /// Plain-words reason.
+    pub reason: String,
+}
+
+/// The candidates that completed the backtest, best first by `rank`
+/// (lower is better), the combination and the pool left out.
+fn ranked_runs<'a>(bt: &'a Backtest, rank: &dyn Fn(&ModelRun) -> Option<f64>) -> Vec<&'a ModelRun> {
+    let mut r: Vec<(f64, &ModelRun)> = bt
+        .runs
+        .iter()
+        .filter(|r| {
+            r.status == RunStatus::Complete && r.model != COMBINATION && r.model != BEST_MEAN
+        })
+        .filter_map(|r| rank(r).filter(|v| v.is_finite()).map(|v| (v, r)))
+        .collect();
+    r.sort_by(|a, b| a.0.total_cmp(&b.0));
+    r.into_iter().map(|x| x.1).collect()
+}
+
+/// The pooled run: at each origin the mean of the [`BEST_MEAN_SIZE`]
+/// candidates with the lowest backtest `score` (fewer when fewer
+/// completed, down to [`BEST_MEAN_MIN`]); not applicable otherwise.
+/// `score` gives a run's backtest score (lower is better).
+pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) -> ModelRun {
+    let members: Vec<&ModelRun> = ranked_runs(bt, score)
+        .into_iter()
+        .take(BEST_MEAN_SIZE)
+        .collect();
+    if members.len() < BEST_MEAN_MIN {
+        return ModelRun {
+            model: BEST_MEAN.to_string(),
+            status: RunStatus::NotApplicable(format!(
+                "needs at least {BEST_MEAN_MIN} candidates that complete the backtest"
+            )),
+            forecasts: vec![None; bt.origins.len()],
+            members: vec![Vec::new(); bt.origins.len()],
+        };
+    }
+    let names: Vec<String> = members.iter().map(|r| r.model.clone()).collect();
+    let forecasts = (0..bt.origins.len())
+        .map(|k| {
+            let fcs: Vec<&Forecast> = members
+                .iter()
+                .filter_map(|r| r.forecasts.get(k).and_then(Option::as_ref))
+                .collect();
+            crate::backtest::mean_forecast(&fcs)
+        })
+        .collect();
+    ModelRun {
+        model: BEST_MEAN.to_string(),
+        status: RunStatus::Complete,
+        forecasts,
+        members: vec![names; bt.origins.len()],
+    }
+}
+
+/// One product's check: the mean scaled absolute error of the combination
+/// and of the pool (members chosen on the earlier half of the origins by
+/// MASE) on the later origins' target months after the earlier half's
+/// last target. `None` when the product has too few origins, the
+/// combination or enough candidates are missing, or no month is left.
+pub fn nested_check(bt: &Backtest) -> Option<(f64, f64)> {
+    let k = bt.origins.len();
+    if k < MIN_ORIGINS {
+        return None;
+    }
+    let half = k / 2;
+    let cutoff = bt.origins[half - 1] + bt.horizon;
+    let early_mase = |r: &ModelRun| -> Option<f64> {
+        let (mut s, mut n) = (0.0, 0usize);
+        for p in bt.points(r) {
+            if p.origin <= bt.origins[half - 1] && p.scored {
+                s += (p.forecast - p.actual).abs() / p.scale?;
+                n += 1;
+            }
+        }
+        (n > 0).then(|| s / n as f64)
+    };
+    let members: Vec<&ModelRun> = ranked_runs(bt, &early_mase)
+        .into_iter()
+        .take(BEST_MEAN_SIZE)
+        .collect();
+    if members.len() < BEST_MEAN_MIN {
+        return None;
+    }
+    let combo = bt.run(COMBINATION)?;
+    let combo_points = bt.points(combo);
+    let (mut ec, mut ep, mut n) = (0.0, 0.0, 0usize);
+    for c in combo_points
+        .iter()
+        .filter(|p| p.target > cutoff && p.scored && p.origin > bt.origins[half - 1])
+    {
+        let Some(scale) = c.scale else { continue };
+        let Ok(k) = bt.origins.binary_search(&c.origin) else {
+            continue;
+        };
+        let member_forecasts: Option<Vec<f64>> = members
+            .iter()
+            .map(|r| {
+                r.forecasts
+                    .get(k)
+                    .and_then(Option::as_ref)
+                    .and_then(|f| f.point.get(c.horizon - 1))
+                    .map(|v| v.max(0.0))
+            })
+            .collect();
+        let Some(fs) = member_forecasts else { continue };
+        let pooled = fs.iter().sum::<f64>() / fs.len() as f64;
+        ec += (c.forecast - c.actual).abs() / scale;
+        ep += (pooled - c.actual).abs() / scale;
+        n += 1;
+    }
+    (n > 0).then(|| (ec / n as f64, ep / n as f64))
+}
+
+/// The run's default from the products' checks (see the module docs).
+pub fn decide(rule: DefaultRule, checks: &[(f64, f64)]) -> DefaultChoice {
+    let n = checks.len();
+    let mean = |f: &dyn Fn(&(f64, f64)) -> f64| {
+        (n > 0).then(|| checks.iter().map(f).sum::<f64>() / n as f64)
+    };
+    let (ce, pe) = (mean(&|c| c.0), mean(&|c| c.1));
+    let p = paired_t_p(checks);
+    let base = DefaultChoice {
+        default: COMBINATION,
+        products: n,
+        combination_error: ce,
+        pool_error: pe,
+        p,
+        reason: String::new(),
+    };
+    let evidence = match (ce, pe, p) {
+        (Some(c), Some(q), Some(p)) if c > 0.0 => format!(
+            "on the backtest's later months, over {n} products, the mean of each product's best five (chosen on the earlier months) scored {q:.3} mean scaled error against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p = {})",
+            100.0 * (q / c - 1.0),
+            fmt_p(p)
+        ),
+        _ => format!("{n} products allowed the check"),
+    };
+    match rule {
+        DefaultRule::Combination => DefaultChoice {
+            reason: "the fixed combination, as set (--default-model combination)".into(),
+            ..base
+        },
+        DefaultRule::BestMean => DefaultChoice {
+            default: BEST_MEAN,
+            reason: format!(
+                "the mean of each product's best five, as set (--default-model {BEST_MEAN})"
+            ),
+            ..base
+        },
+        DefaultRule::Auto if n < MIN_PRODUCTS => DefaultChoice {
+            reason: format!(
+                "the fixed combination: {n} products allowed the check of the alternative, fewer than the {MIN_PRODUCTS} it needs"
+            ),
+            ..base
+        },
+        DefaultRule::Auto if p.is_some_and(|p| p <= LEVEL) && pe < ce => DefaultChoice {
+            default: BEST_MEAN,
+            reason: format!(
+                "the mean of each product's best five by backtest: {evidence}, below the {LEVEL} level"
+            ),
+            ..base
+        },
+        DefaultRule::Auto => DefaultChoice {
+            reason: format!(
+                "the fixed combination: {evidence}, not clear evidence for the alternative (p ≤ {LEVEL} needed)"
+            ),
+            ..base
+        },
+    }
+}
+
+fn fmt_p(p: f64) -> String {
+    if p < 0.001 {
+        "< 0.001".to_string()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// One-sided p-value that the second of each pair is lower on average:
+/// the paired t-test on the differences (Student 1908). `None` with fewer
+/// than two pairs or no spread.
+pub fn paired_t_p(pairs: &[(f64, f64)]) -> Option<f64> {
+    use statrs::distribution::{ContinuousCDF, StudentsT};
+    let n = pairs.len();
+    if n < 2 {
+        return None;
+    }
+    let d: Vec<f64> = pairs.iter().map(|(c, p)| p - c).collect();
+    let mean = d.iter().sum::<f64>() / n as f64;
+    let var = d.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+    if var <= 0.0 {
+        return None;
+    }
+    let t = mean / (var / n as f64).sqrt();
+    let dist = StudentsT::new(0.0, 1.0, (n - 1) as f64).ok()?;
+    Some(dist.cdf(t))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::models::Forecast;
+
+    /// Student's sleep data (Student, *Biometrika* 6(1), 1908; R's
+    /// `datasets::sleep`): extra hours of sleep of ten patients under two
+    /// drugs. scipy 1.17.1, `ttest_rel(g1, g2, alternative="less")`:
+    /// t = −4.0621, p = 0.0014164 (two-sided 0.002833, the value R's
+    /// `t.test(..., paired = TRUE)` prints).
+    #[test]
+    fn paired_t_test_matches_scipy_on_students_sleep_data() {
+        let g1 = [0.7, -1.6, -0.2, -1.2, -0.1, 3.4, 3.7, 0.8, 0.0, 2.0];
+        let g2 = [1.9, 0.8, 1.1, 0.1, -0.1, 4.4, 5.5, 1.6, 4.6, 3.4];
+        // (the combination's error, the pool's): the pool is g1, lower.
+        let pairs: Vec<(f64, f64)> = g2.iter().zip(&g1).map(|(c, p)| (*c, *p)).collect();
+        let p = paired_t_p(&pairs).unwrap();
+        assert!((p - 0.001_416_445_098_692_136_4).abs() < 1e-9, "{p}");
+        // The other way round the same t is a tail of 1 − p.
+        let flipped: Vec<(f64, f64)> = pairs.iter().map(|(c, p)| (*p, *c)).collect();
+        assert!((paired_t_p(&flipped).unwrap() - (1.0 - p)).abs() < 1e-9);
+        assert_eq!(paired_t_p(&pairs[..1]), None);
+        assert_eq!(paired_t_p(&[(1.0, 0.5), (2.0, 1.5)]), None, "no spread");
+    }
+
+    fn checks(n: usize, gain: f64) -> Vec<(f64, f64)> {
+        // Differences spread around `gain`, so the test has a variance.
+        (0..n)
+            .map(|i| {
+                let c = 1.0 + 0.01 * (i % 7) as f64;
+                (c, c - gain + 0.02 * ((i % 3) as f64 - 1.0))
+            })
+            .collect()
+    }
+
+    #[test]
+    fn the_run_leaves_the_combination_only_on_clear_evidence_over_enough_products() {
+        let clear = decide(DefaultRule::Auto, &checks(40, 0.05));
+        assert_eq!(clear.default, BEST_MEAN);
+        assert!(clear.p.unwrap() < LEVEL);
+        assert!(clear.reason.contains("40 products"), "{}", clear.reason);
+        // The same gain on fewer products than MIN_PRODUCTS: not judged.
+        let few = decide(DefaultRule::Auto, &checks(MIN_PRODUCTS - 1, 0.05));
+        assert_eq!(few.default, COMBINATION);
+        assert!(few.reason.contains("fewer than the 30"), "{}", few.reason);
+        // The pool worse, or no better: the combination stays.
+        assert_eq!(
+            decide(DefaultRule::Auto, &checks(40, -0.05)).default,
+            COMBINATION
+        );
+        assert_eq!(
+            decide(DefaultRule::Auto, &checks(40, 0.0)).default,
+            COMBINATION
+        );
+        // Set by the user, whatever the evidence.
+        assert_eq!(
+            decide(DefaultRule::BestMean, &checks(40, -0.05)).default,
+            BEST_MEAN
+        );
+        assert_eq!(
+            decide(DefaultRule::Combination, &checks(40, 0.05)).default,
+            COMBINATION
+        );
+    }
+
+    fn flat(v: f64, h: usize) -> Forecast {
+        Forecast::normal(vec![v; h], &vec![1.0; h], &crate::backtest::LEVELS).unwrap()
+    }
+
+    /// 12 origins (months 25–36) × 3 months on the series y = 100 + t
+    /// (t = 0..39), whose seasonal-naive MASE scale is 12 at every origin;
+    /// each model forecasts a flat y(origin) + `offset(origin)`.
+    fn backtest(models: &[(&str, &dyn Fn(usize) -> f64)]) -> Backtest {
+        let y = |t: usize| 100.0 + t as f64;
+        let actual: Vec<f64> = (0..40).map(y).collect();
+        let origins: Vec<usize> = (25..37).collect();
+        let runs = models
+            .iter()
+            .map(|(name, offset)| ModelRun {
+                model: name.to_string(),
+                status: RunStatus::Complete,
+                forecasts: origins
+                    .iter()
+                    .map(|&o| Some(flat(y(o) + offset(o), 3)))
+                    .collect(),
+                members: Vec::new(),
+            })
+            .collect();
+        Backtest {
+            origins,
+            horizon: 3,
+            actual,
+            scorable: vec![true; 40],
+            runs,
+            scales: Default::default(),
+        }
+    }
+
+    #[test]
+    fn the_check_chooses_members_on_early_origins_and_scores_unseen_months_only() {
+        // Early origins 25–30 see targets up to month 33; the later origins
+        // 31–36 are scored on months 34–39 only: 1 + 2 + 3 × 4 = 15 points
+        // (origin 31 at 3 months ahead, 32 at 2 and 3, 33–36 at 1–3).
+        // Five models are exact at the origin's level early and 10 high
+        // later; a sixth is 5 high early and exact later. Early errors
+        // |offset − h| average 2 against 3, so the five are the pool; over
+        // the whole backtest the sixth would rank first (2.5 against 5) and
+        // the pool would forecast 8 high instead of 10.
+        let five = |o: usize| if o <= 30 { 0.0 } else { 10.0 };
+        let sixth = |o: usize| if o <= 30 { 5.0 } else { 0.0 };
+        let combo = |_: usize| 0.0;
+        let bt = backtest(&[
+            ("a", &five),
+            ("b", &five),
+            ("c", &five),
+            ("d", &five),
+            ("e", &five),
+            ("f", &sixth),
+            (COMBINATION, &combo),
+        ]);
+        let (c, p) = nested_check(&bt).unwrap();
+        // The combination misses by h: 3 + (2 + 3) + 4 × 6 = 32 in all.
+        assert!((c - 32.0 / 15.0 / 12.0).abs() < 1e-12, "{c}");
+        // The pool misses by 10 − h: 7 + (8 + 7) + 4 × 24 = 118.
+        assert!((p - 118.0 / 15.0 / 12.0).abs() < 1e-12, "{p}");
+        // Too few origins for two halves: no check.
+        let mut short = bt.clone();
+        short.origins.truncate(MIN_ORIGINS - 1);
+        for r in &mut short.runs {
+            r.forecasts.truncate(MIN_ORIGINS - 1);
+        }
+        assert_eq!(nested_check(&short), None);
+    }
+
+    #[test]
+    fn the_pooled_run_is_the_mean_of_the_five_best() {
+        // Offsets −1..−6 (errors k + h rise with k): the pool is the first
+        // five, forecasting y(origin) − 3.
+        let offs: Vec<Box<dyn Fn(usize) -> f64>> = (1..=6)
+            .map(|k| Box::new(move |_| -(k as f64)) as Box<dyn Fn(usize) -> f64>)
+            .collect();
+        let named: Vec<(String, &dyn Fn(usize) -> f64)> = offs
+            .iter()
+            .enumerate()
+            .map(|(i, f)| (format!("m{i}"), f.as_ref()))
+            .collect();
+        let refs: Vec<(&str, &dyn Fn(usize) -> f64)> =
+            named.iter().map(|(n, f)| (n.as_str(), *f)).collect();
+        let bt = backtest(&refs);
+        let score = |r: &ModelRun| bt.scores(r).get(crate::metrics::Score::Mase);
+        let run = best_mean_run(&bt, &score);
+        assert_eq!(run.status, RunStatus::Complete);
+        assert_eq!(run.members[0], ["m0", "m1", "m2", "m3", "m4"]);
+        let f = run.forecasts[0].as_ref().unwrap();
+        assert!((f.point[0] - (125.0 - 3.0)).abs() < 1e-12);
+        // Fewer than BEST_MEAN_MIN complete candidates: not applicable.
+        let two = backtest(&refs[..2]);
+        let score2 = |r: &ModelRun| two.scores(r).get(crate::metrics::Score::Mase);
+        assert!(matches!(
+            best_mean_run(&two, &score2).status,
+            RunStatus::NotApplicable(_)
+        ));
+    }
+}
