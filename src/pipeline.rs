@@ -645,15 +645,35 @@ fn finish_product(
             find(name).into_iter().collect()
         }
     };
-    let mut projection = project_with(
-        y,
-        last,
-        end,
-        &selection.chosen,
-        &members_of(&selection.chosen),
-        settings.horizon,
-        Some(cache),
-    );
+    // The pool's ranges take their width from the fixed combination's
+    // (see [`default_rule::recentre`]).
+    let project_named = |name: &str| {
+        let mut p = project_with(
+            y,
+            last,
+            end,
+            name,
+            &members_of(name),
+            settings.horizon,
+            Some(cache),
+        )?;
+        if name == BEST_MEAN {
+            let fixed = members_of(COMBINATION);
+            if let Ok(c) = project_with(
+                y,
+                last,
+                end,
+                COMBINATION,
+                &fixed,
+                settings.horizon,
+                Some(cache),
+            ) {
+                default_rule::recentre(&mut p.forecast, &c.forecast);
+            }
+        }
+        Ok(p)
+    };
+    let mut projection = project_named(&selection.chosen);
     if let (Err(e), true) = (&projection, selection.chosen != fallback) {
         warnings.push(format!(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
@@ -665,17 +685,7 @@ fn finish_product(
         };
     }
     if !selection.pinned {
-        projection = avoid_zero_projection(y, &bt, &mut selection, projection, &|name| {
-            project_with(
-                y,
-                last,
-                end,
-                name,
-                &members_of(name),
-                settings.horizon,
-                Some(cache),
-            )
-        });
+        projection = avoid_zero_projection(y, &bt, &mut selection, projection, &project_named);
     }
     if matches!(&projection, Ok(p) if all_zero(p)) && in_use(y) {
         warnings.push(format!(

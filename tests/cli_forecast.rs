@@ -635,3 +635,80 @@ fn evaluate_reports_range_coverage_that_a_forecast_reproduces() {
         );
     }
 }
+
+/// `best-five-mean` on open series (the committed datasets/open/monthly.csv:
+/// AirPassengers and other series R and statsmodels ship): the product's
+/// projection is the mean of its five members' own projections, each
+/// pinned in a run of its own, and the run records the default it used.
+#[test]
+fn best_five_mean_projects_the_mean_of_its_members() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/open/monthly.csv");
+    let forecast = |out: &str, extra: &[&str]| -> BTreeMap<(String, String), f64> {
+        let mut args = vec![
+            "forecast",
+            data.to_str().unwrap(),
+            "--out",
+            out,
+            "--horizon",
+            "12",
+        ];
+        args.extend_from_slice(extra);
+        let o = run_in(dir.path(), &args);
+        assert!(o.status.success(), "{}", text(&o));
+        let (h, rows) = read_csv_file(&dir.path().join(out).join("forecast.csv"));
+        let col = |n: &str| h.iter().position(|c| c == n).unwrap();
+        rows.iter()
+            .map(|r| {
+                (
+                    (r[col("product")].to_string(), r[col("month")].to_string()),
+                    r[col("forecast")].parse().unwrap(),
+                )
+            })
+            .collect()
+    };
+    let pooled = forecast("pool", &["--default-model", "best-five-mean"]);
+    let manifest: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.path().join("pool/manifest.json")).unwrap())
+            .unwrap();
+    assert_eq!(manifest["default_model"]["default"], "best-five-mean");
+    let (h, sel) = read_csv_file(&dir.path().join("pool/selection.csv"));
+    let col = |n: &str| h.iter().position(|c| c == n).unwrap();
+    let row = sel
+        .iter()
+        .find(|r| &r[col("product")] == "AirPassengers")
+        .expect("AirPassengers in selection.csv");
+    assert_eq!(&row[col("chosen_model")], "best-five-mean", "{row:?}");
+    assert!(
+        row[col("reason")].contains("the mean of this product's five best models"),
+        "{row:?}"
+    );
+    let members: Vec<&str> = row[col("members")].split(' ').collect();
+    assert_eq!(members.len(), 5, "{members:?}");
+    let mut sum: BTreeMap<String, f64> = BTreeMap::new();
+    for (i, m) in members.iter().enumerate() {
+        std::fs::write(
+            dir.path().join("pin.csv"),
+            format!("product,model\nAirPassengers,{m}\n"),
+        )
+        .unwrap();
+        let out = format!("m{i}");
+        let one = forecast(&out, &["--pin", "pin.csv"]);
+        for ((p, month), v) in one {
+            if p == "AirPassengers" {
+                *sum.entry(month).or_default() += v / 5.0;
+            }
+        }
+    }
+    // Every month of AirPassengers' projection (bridged months too: the
+    // open series end in different years, and every projection starts
+    // after the latest).
+    let months = pooled.keys().filter(|(p, _)| p == "AirPassengers").count();
+    assert!(months >= 12);
+    assert_eq!(sum.len(), months);
+    for (month, mean) in &sum {
+        let got = pooled[&("AirPassengers".to_string(), month.clone())];
+        // forecast.csv rounds to 4 decimals.
+        assert!((got - mean).abs() < 1e-3, "{month}: {got} against {mean}");
+    }
+}

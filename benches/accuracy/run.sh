@@ -34,7 +34,7 @@ $BIN evaluate target/accuracy/generated_truth.csv --holdout 12 --truth \
         $BIN generate --products 300 --sites 3 --months 60 --seed "$seed" --true-demand \
             --entry-errors 0.01 --out "target/accuracy/generated_seed$seed.csv" --quiet
         $BIN evaluate "target/accuracy/generated_seed$seed.csv" --holdout 12 --truth 2>&1 |
-            grep -E '^(selected per product|combination|ets-auto|arima-auto|theta) ' |
+            grep -E '^(selected per product|combination|best-five-mean|ets-auto|arima-auto|theta) ' |
             sed -e 's/^selected per product/selected/' -e "s/^/$seed /" | tr -s ' '
     done
 } > benches/accuracy/provisio_generated_seeds.txt

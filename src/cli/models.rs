@@ -51,6 +51,9 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
         );
     }
     super::note!("{} candidate models", rows.len());
+    super::note!(
+        "and two means of them, the defaults for smooth and erratic demand: combination (ets-auto, arima-auto and theta, fixed) and best-five-mean (each product's five best by backtest); `--default-model` says which, or the run chooses on its own backtest"
+    );
     super::json_summary(|| {
         let models: Vec<serde_json::Value> = rows
             .iter()
