@@ -281,6 +281,109 @@ pub fn forecast_product_defaults(
     opts: &ProductOptions,
     defaults: &[&str],
 ) -> Alternatives<ProductForecast> {
+    match product_stages(series, models, settings, opts, defaults, Stage::All) {
+        Staged::All(v, check) => (v, check),
+        Staged::Pending(r, _, check) => (vec![*r], check),
+    }
+}
+
+/// What the pool's default would do for a product, kept until the run has
+/// chosen its default: the selection under it, its backtest run and
+/// scores. Projected only when the run chooses the pool
+/// ([`finish_pending`]), so a run that keeps the combination projects
+/// each product once.
+#[derive(Debug, Clone)]
+pub struct PendingPool {
+    selection: Selection,
+    run: backtest::ModelRun,
+    scores: ModelScores,
+    members: Vec<String>,
+    /// The whole-history fits made for the combination's projection,
+    /// reused by the pool's.
+    fits: Vec<(String, usize, Forecast)>,
+}
+
+/// How far [`product_stages`] goes.
+enum Stage {
+    /// Every default finished.
+    All,
+    /// The combination finished, the pool's selection kept pending.
+    Staged,
+    /// Finish a pending pool on the finished combination's backtest.
+    Resume(Box<PendingPool>, Box<ProductForecast>),
+}
+
+/// What [`product_stages`] returns.
+enum Staged {
+    All(Vec<ProductForecast>, Option<(f64, f64)>),
+    Pending(
+        Box<ProductForecast>,
+        Option<Box<PendingPool>>,
+        Option<(f64, f64)>,
+    ),
+}
+
+/// The combination's result of a product, its pending pool and its check
+/// (see [`forecast_run`]).
+pub type StagedProduct = (
+    ProductForecast,
+    Option<Box<PendingPool>>,
+    Option<(f64, f64)>,
+);
+
+/// The product under the combination, with the pool's selection pending.
+pub fn forecast_product_staged(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+) -> StagedProduct {
+    match product_stages(
+        series,
+        models,
+        settings,
+        opts,
+        &[COMBINATION, BEST_MEAN],
+        Stage::Staged,
+    ) {
+        Staged::Pending(r, p, check) => (*r, p, check),
+        Staged::All(mut v, check) => (v.swap_remove(0), None, check),
+    }
+}
+
+/// The product under the pool's default, from its result under the
+/// combination and its pending pool ([`forecast_product_staged`]): the
+/// backtest is not run again; the pool's members are fitted on the whole
+/// history.
+pub fn finish_pending(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+    done: ProductForecast,
+    pending: Box<PendingPool>,
+) -> ProductForecast {
+    match product_stages(
+        series,
+        models,
+        settings,
+        opts,
+        &[BEST_MEAN],
+        Stage::Resume(pending, Box::new(done)),
+    ) {
+        Staged::All(mut v, _) => v.swap_remove(0),
+        Staged::Pending(r, _, _) => *r,
+    }
+}
+
+fn product_stages(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+    defaults: &[&str],
+    stage: Stage,
+) -> Staged {
     let pinned = opts.model.as_deref();
     // Every model the caller offered: a pinned model is used even when the
     // demand pattern or the product's `seasonal` setting kept it out of the
@@ -367,10 +470,20 @@ pub fn forecast_product_defaults(
         }
     };
     let too_short = opts.min_months.filter(|&m| y.len() < m);
-    let bt = match too_short {
-        // No model is backtested, so selection falls back below.
-        Some(_) => backtest::run(y, &mask, &[], &settings.backtest),
-        None => backtest::run(y, &mask, models, &settings.backtest),
+    let staged = matches!(stage, Stage::Staged);
+    let (bt, resume) = match stage {
+        Stage::Resume(pending, done) => {
+            let d = *done;
+            (d.backtest, Some((pending, d.scores)))
+        }
+        _ => (
+            match too_short {
+                // No model is backtested, so selection falls back below.
+                Some(_) => backtest::run(y, &mask, &[], &settings.backtest),
+                None => backtest::run(y, &mask, models, &settings.backtest),
+            },
+            None,
+        ),
     };
     // Simplest applicable model, for series too short to backtest.
     let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
@@ -410,31 +523,136 @@ pub fn forecast_product_defaults(
         other => other,
     };
     let intermittent = class.is_intermittent() && !forced_seasonal;
+    let inputs = |bt, base_scores, selection, pool_members, extra_keep, cache| FinishInputs {
+        bt,
+        base_scores,
+        cache,
+        selection,
+        pool_members,
+        extra_keep,
+    };
+    let select_under = |bt: &Backtest, kind: &str| {
+        select_for(
+            series,
+            bt,
+            models,
+            settings,
+            SelectInputs {
+                default: if intermittent {
+                    INTERMITTENT_DEFAULT
+                } else {
+                    kind
+                },
+                class: &class,
+                intermittent,
+                pinned_ok,
+                fallback: &fallback,
+                fitting_members: &fitting_members,
+                too_short,
+                notes: &notes,
+            },
+        )
+    };
+    let finish = |i: FinishInputs<'_>| {
+        finish_product(
+            series,
+            models,
+            offered,
+            settings,
+            i,
+            &fallback,
+            &fitting_members,
+            &class,
+            warnings.clone(),
+        )
+    };
+    if let Some((pending, done_scores)) = resume {
+        let PendingPool {
+            selection,
+            run,
+            scores,
+            members,
+            fits,
+        } = *pending;
+        let mut bt = bt;
+        bt.runs.push(run);
+        let mut all = done_scores;
+        all.push(scores);
+        let cache = FitCache::seeded(fits);
+        let r = finish(inputs(bt, &all, selection, members, Vec::new(), &cache));
+        return Staged::All(vec![r], None);
+    }
     let check = (defaults.len() > 1 && !intermittent)
         .then(|| default_rule::nested_check(&bt))
         .flatten();
-    // The defaults that differ for this product: intermittent demand has
-    // its own, and without enough complete candidates for the pool the
-    // combination stays.
     let base_scores: Vec<ModelScores> = bt.runs.iter().map(|r| model_scores(&bt, r)).collect();
-    let pool_run = (!intermittent && defaults.contains(&BEST_MEAN)).then(|| {
-        let (score, _) = crate::select::score_for(&bt, &settings.select, intermittent);
-        let overall = |run: &backtest::ModelRun| {
-            base_scores
-                .iter()
-                .find(|m| m.model == run.model)
-                .and_then(|m| m.overall)
-                .and_then(|o| o.get(score))
-        };
-        default_rule::best_mean_run(&bt, &overall)
-    });
-    let pool_ok = pool_run
-        .as_ref()
-        .is_some_and(|r| r.status == RunStatus::Complete);
+    // The pool applies to demand that is not intermittent, with enough
+    // complete candidates; otherwise the combination stays.
+    let pool_run = (!intermittent && defaults.contains(&BEST_MEAN))
+        .then(|| {
+            let (score, _) = crate::select::score_for(&bt, &settings.select, intermittent);
+            let overall = |run: &backtest::ModelRun| {
+                base_scores
+                    .iter()
+                    .find(|m| m.model == run.model)
+                    .and_then(|m| m.overall)
+                    .and_then(|o| o.get(score))
+            };
+            default_rule::best_mean_run(&bt, &overall)
+        })
+        .filter(|r| r.status == RunStatus::Complete);
+    let cache = FitCache::default();
+    if staged {
+        // The combination finished; the pool's selection made and kept,
+        // with every run it names, for the run's decision.
+        let selection = select_under(&bt, COMBINATION);
+        let mut bt = bt;
+        let pending = pool_run.map(|run| {
+            let members = run.members.first().cloned().unwrap_or_default();
+            bt.runs.push(run);
+            let selection = select_under(&bt, BEST_MEAN);
+            let run = bt.runs.pop().expect("pushed above");
+            let scores = model_scores(&bt, &run);
+            Box::new(PendingPool {
+                selection,
+                run,
+                scores,
+                members,
+                fits: Vec::new(),
+            })
+        });
+        let keep: Vec<String> = pending
+            .as_ref()
+            .map(|p| {
+                let s = &p.selection;
+                [
+                    Some(s.chosen.clone()),
+                    Some(s.best.clone()),
+                    s.runner_up.as_ref().map(|r| r.0.clone()),
+                ]
+                .into_iter()
+                .flatten()
+                .collect()
+            })
+            .unwrap_or_default();
+        let r = finish(inputs(
+            bt,
+            &base_scores,
+            selection,
+            Vec::new(),
+            keep,
+            &cache,
+        ));
+        let mut pending = pending;
+        if let Some(p) = pending.as_mut() {
+            p.fits = cache.into_fits();
+        }
+        return Staged::Pending(Box::new(r), pending, check);
+    }
     let effective: Vec<&str> = defaults
         .iter()
         .map(|&d| {
-            if d == BEST_MEAN && pool_ok {
+            if d == BEST_MEAN && pool_run.is_some() {
                 BEST_MEAN
             } else {
                 COMBINATION
@@ -447,7 +665,6 @@ pub fn forecast_product_defaults(
             unique.push(kind);
         }
     }
-    let cache = FitCache::default();
     let mut done: Vec<(&str, ProductForecast)> = Vec::with_capacity(2);
     let mut last_bt = Some(bt);
     for (i, &kind) in unique.iter().enumerate() {
@@ -468,28 +685,15 @@ pub fn forecast_product_defaults(
                 bt.runs.push(run.clone());
             }
         }
-        let r = finish_product(
-            series,
-            models,
-            offered,
-            settings,
-            FinishInputs {
-                bt,
-                base_scores: &base_scores,
-                cache: &cache,
-                kind,
-                pool_members,
-                class: &class,
-                intermittent,
-                forced_seasonal,
-                pinned_ok,
-                fallback: &fallback,
-                fitting_members: &fitting_members,
-                too_short,
-                notes: &notes,
-            },
-            warnings.clone(),
-        );
+        let selection = select_under(&bt, kind);
+        let r = finish(inputs(
+            bt,
+            &base_scores,
+            selection,
+            pool_members,
+            Vec::new(),
+            &cache,
+        ));
         done.push((kind, r));
     }
     let out = effective
@@ -501,21 +705,14 @@ pub fn forecast_product_defaults(
                 .expect("every effective default was computed")
         })
         .collect();
-    (out, check)
+    Staged::All(out, check)
 }
 
-/// What [`finish_product`] needs from the first part of
-/// [`forecast_product_defaults`].
-struct FinishInputs<'a> {
-    bt: Backtest,
-    /// Scores of the backtest's runs before the pool was added.
-    base_scores: &'a [ModelScores],
-    cache: &'a FitCache,
-    kind: &'a str,
-    pool_members: Vec<String>,
+/// What [`select_for`] needs from the first part of [`product_stages`].
+struct SelectInputs<'a> {
+    default: &'a str,
     class: &'a DemandClass,
     intermittent: bool,
-    forced_seasonal: bool,
     pinned_ok: Option<&'a str>,
     fallback: &'a str,
     fitting_members: &'a [String],
@@ -523,40 +720,41 @@ struct FinishInputs<'a> {
     notes: &'a str,
 }
 
-/// Selection, projection, warnings and ranges of one product under one
-/// default, from its backtest.
-fn finish_product(
+/// What [`finish_product`] needs besides the product and its models.
+struct FinishInputs<'a> {
+    bt: Backtest,
+    /// Scores of the backtest's runs (runs added after them are scored
+    /// here).
+    base_scores: &'a [ModelScores],
+    cache: &'a FitCache,
+    selection: Selection,
+    pool_members: Vec<String>,
+    /// Runs whose backtest forecasts are kept besides the chosen model's,
+    /// the runner-up's and the combination's (a pending selection's).
+    extra_keep: Vec<String>,
+}
+
+/// The selection of one product under one default, with its reason.
+fn select_for(
     series: &CleanSeries,
+    bt: &Backtest,
     models: &[Box<dyn AnyModel>],
-    offered: &[Box<dyn AnyModel>],
     settings: &CheckedForecastSettings,
-    inputs: FinishInputs<'_>,
-    mut warnings: Vec<String>,
-) -> ProductForecast {
-    let FinishInputs {
-        bt,
-        base_scores,
-        cache,
-        kind,
-        pool_members,
+    inputs: SelectInputs<'_>,
+) -> Selection {
+    let SelectInputs {
+        default,
         class,
         intermittent,
-        forced_seasonal,
         pinned_ok,
         fallback,
         fitting_members,
         too_short,
         notes,
     } = inputs;
-    let _ = forced_seasonal;
     let y = &series.values;
-    let default = if intermittent {
-        INTERMITTENT_DEFAULT
-    } else {
-        kind
-    };
     let mut selection = select(
-        &bt,
+        bt,
         &settings.select,
         Some(default),
         pinned_ok,
@@ -615,6 +813,31 @@ fn finish_product(
             class.adi
         ));
     }
+    selection
+}
+
+/// Projection, warnings and ranges of one product under its selection.
+#[allow(clippy::too_many_arguments)]
+fn finish_product(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    offered: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    inputs: FinishInputs<'_>,
+    fallback: &str,
+    fitting_members: &[String],
+    class: &DemandClass,
+    mut warnings: Vec<String>,
+) -> ProductForecast {
+    let FinishInputs {
+        bt,
+        base_scores,
+        cache,
+        mut selection,
+        pool_members,
+        extra_keep,
+    } = inputs;
+    let y = &series.values;
     let last = series.month(series.len().saturating_sub(1));
     let end = settings.raw.data_end.map_or(last, |e| e.max(last));
     warnings.extend(silence_warning(
@@ -684,8 +907,14 @@ fn finish_product(
             None => projection,
         };
     }
+    let mut scores = base_scores.to_vec();
+    scores.extend(
+        bt.runs[base_scores.len()..]
+            .iter()
+            .map(|run| model_scores(&bt, run)),
+    );
     if !selection.pinned {
-        projection = avoid_zero_projection(y, &bt, &mut selection, projection, &project_named);
+        projection = avoid_zero_projection(y, &scores, &mut selection, projection, &project_named);
     }
     if matches!(&projection, Ok(p) if all_zero(p)) && in_use(y) {
         warnings.push(format!(
@@ -724,18 +953,13 @@ fn finish_product(
         }
         _ => RangeMethod::Model,
     };
-    let mut scores = base_scores.to_vec();
-    scores.extend(
-        bt.runs[base_scores.len()..]
-            .iter()
-            .map(|run| model_scores(&bt, run)),
-    );
     let mut bt = bt;
     if settings.raw.backtest_detail == BacktestDetail::Chosen {
         let keep = |m: &str| {
             m == selection.chosen
                 || m == selection.best
                 || m == COMBINATION
+                || extra_keep.iter().any(|k| k == m)
                 || selection.runner_up.as_ref().is_some_and(|r| r.0 == m)
         };
         for run in bt.runs.iter_mut().filter(|r| !keep(&r.model)) {
@@ -955,7 +1179,7 @@ pub fn all_zero(p: &Projection) -> bool {
 /// the reason says so. (A pinned model is left as the user chose it.)
 fn avoid_zero_projection(
     y: &[f64],
-    bt: &Backtest,
+    scores: &[ModelScores],
     selection: &mut Selection,
     projection: Result<Projection>,
     project_with: &dyn Fn(&str) -> Result<Projection>,
@@ -964,13 +1188,12 @@ fn avoid_zero_projection(
     if !zero || !in_use(y) {
         return projection;
     }
-    let mut ranked: Vec<(f64, &str)> = bt
-        .runs
+    let mut ranked: Vec<(f64, &str)> = scores
         .iter()
         .filter(|r| r.status == RunStatus::Complete && r.model != selection.chosen)
         .filter_map(|r| {
-            bt.scores(r)
-                .get(selection.score)
+            r.overall
+                .and_then(|o| o.get(selection.score))
                 .map(|v| (v, r.model.as_str()))
         })
         .collect();
@@ -986,7 +1209,10 @@ fn avoid_zero_projection(
                 );
                 selection.chosen = name.to_string();
                 selection.best = name.to_string();
-                selection.chosen_scores = bt.run(name).map(|r| bt.scores(r));
+                selection.chosen_scores = scores
+                    .iter()
+                    .find(|m| m.model == name)
+                    .and_then(|m| m.overall);
                 return Ok(p);
             }
         }
@@ -1079,16 +1305,48 @@ pub fn forecast_run(
     }
     let settings = &common;
     let rule = settings.select.default_rule;
-    let per_product: Vec<Alternatives<ProductForecast>> = series
+    if rule != DefaultRule::Auto {
+        let per_product: Vec<Alternatives<ProductForecast>> = series
+            .par_iter()
+            .map_init(candidates, |models, s| {
+                let o = options.get(&s.product).unwrap_or(&none);
+                let r = forecast_product_defaults(s, models, settings, o, run_defaults(rule));
+                progress();
+                r
+            })
+            .collect();
+        let (mut results, choice) = choose_default(rule, per_product);
+        calibrate_run(&mut results);
+        return (results, choice);
+    }
+    // Every product under the combination, the pool's selection kept
+    // pending; the pool projected only if the run chooses it.
+    let staged: Vec<StagedProduct> = series
         .par_iter()
         .map_init(candidates, |models, s| {
             let o = options.get(&s.product).unwrap_or(&none);
-            let r = forecast_product_defaults(s, models, settings, o, run_defaults(rule));
+            let r = forecast_product_staged(s, models, settings, o);
             progress();
             r
         })
         .collect();
-    let (mut results, choice) = choose_default(rule, per_product);
+    let checks: Vec<(f64, f64)> = staged.iter().filter_map(|x| x.2).collect();
+    let choice = default_rule::decide(rule, &checks);
+    let mut results: Vec<ProductForecast> = if choice.default == BEST_MEAN {
+        staged
+            .into_par_iter()
+            .zip(series.par_iter())
+            .map_init(candidates, |models, ((r, pending, _), s)| match pending {
+                Some(p) => {
+                    let o = options.get(&s.product).unwrap_or(&none);
+                    finish_pending(s, models, settings, o, r, p)
+                }
+                None => r,
+            })
+            .collect()
+    } else {
+        staged.into_iter().map(|x| x.0).collect()
+    };
     calibrate_run(&mut results);
     (results, choice)
 }
@@ -1384,6 +1642,35 @@ mod tests {
             })
             .collect();
         CleanSeries::observed("P", crate::calendar::YearMonth::known(2020, 1), values)
+    }
+
+    #[test]
+    fn a_pending_pool_finished_later_is_the_pool_computed_at_once() {
+        // The run keeps the pool's selection pending and projects it only
+        // once it has chosen the pool: the result must be the one
+        // `--default-model best-five-mean` gives directly.
+        let s = seasonal_series(60);
+        let models = candidates();
+        let mut fs = ForecastSettings::default();
+        fs.select.default_rule = DefaultRule::BestMean;
+        let direct_settings = fs.check().unwrap();
+        let auto = ForecastSettings::default().check().unwrap();
+        let none = ProductOptions::default();
+        let direct = forecast_product_with(&s, &models, &direct_settings, &none);
+        let (combo, pending, check) = forecast_product_staged(&s, &models, &auto, &none);
+        assert!(
+            check.is_some(),
+            "60 months give 12 origins, enough for the check"
+        );
+        assert_eq!(combo.selection.chosen, COMBINATION);
+        let later = finish_pending(&s, &models, &auto, &none, combo, pending.unwrap());
+        assert_eq!(direct.selection, later.selection);
+        assert_eq!(direct.selection.chosen, BEST_MEAN);
+        let (d, l) = (direct.projection.unwrap(), later.projection.unwrap());
+        assert_eq!(d.forecast.point, l.forecast.point);
+        assert_eq!(d.members, l.members);
+        assert_eq!(d.members.len(), default_rule::BEST_MEAN_SIZE);
+        assert_eq!(direct.ranges, later.ranges);
     }
 
     #[test]
