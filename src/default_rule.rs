@@ -246,7 +246,7 @@ pub fn decide(rule: DefaultRule, checks: &[(f64, f64)]) -> DefaultChoice {
     };
     let evidence = match (ce, pe, p) {
         (Some(c), Some(q), Some(p)) if c > 0.0 => format!(
-            "on the backtest's later months, over {n} products, the mean of each product's best five (chosen on the earlier months) scored {q:.3} mean scaled error against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p = {})",
+            "on the backtest's later months, over {n} products, the mean of each product's best five (chosen on the earlier months) scored {q:.3} mean scaled error against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p {})",
             100.0 * (q / c - 1.0),
             fmt_p(p)
         ),
@@ -290,7 +290,7 @@ fn fmt_p(p: f64) -> String {
     if p < 0.001 {
         "< 0.001".to_string()
     } else {
-        format!("{p:.3}")
+        format!("= {p:.3}")
     }
 }
 
