@@ -295,6 +295,7 @@ pub fn forecast_product_defaults(
 #[derive(Debug, Clone)]
 pub struct PendingPool {
     selection: Selection,
+    calibration: Option<backtest::ModelRun>,
     run: backtest::ModelRun,
     scores: ModelScores,
     members: Vec<String>,
@@ -523,14 +524,16 @@ fn product_stages(
         other => other,
     };
     let intermittent = class.is_intermittent() && !forced_seasonal;
-    let inputs = |bt, base_scores, selection, pool_members, extra_keep, cache| FinishInputs {
-        bt,
-        base_scores,
-        cache,
-        selection,
-        pool_members,
-        extra_keep,
-    };
+    let inputs =
+        |bt, base_scores, selection, pool_members, extra_keep, cache, calibration| FinishInputs {
+            bt,
+            base_scores,
+            cache,
+            selection,
+            pool_members,
+            extra_keep,
+            calibration,
+        };
     let select_under = |bt: &Backtest, kind: &str| {
         select_for(
             series,
@@ -569,6 +572,7 @@ fn product_stages(
     if let Some((pending, done_scores)) = resume {
         let PendingPool {
             selection,
+            calibration,
             run,
             scores,
             members,
@@ -579,7 +583,15 @@ fn product_stages(
         let mut all = done_scores;
         all.push(scores);
         let cache = FitCache::seeded(fits);
-        let r = finish(inputs(bt, &all, selection, members, Vec::new(), &cache));
+        let r = finish(inputs(
+            bt,
+            &all,
+            selection,
+            members,
+            Vec::new(),
+            &cache,
+            calibration,
+        ));
         return Staged::All(vec![r], None);
     }
     let check = (defaults.len() > 1 && !intermittent)
@@ -615,6 +627,7 @@ fn product_stages(
             let scores = model_scores(&bt, &run);
             Box::new(PendingPool {
                 selection,
+                calibration: default_rule::calibration_run(&bt),
                 run,
                 scores,
                 members,
@@ -642,6 +655,7 @@ fn product_stages(
             Vec::new(),
             keep,
             &cache,
+            None,
         ));
         let mut pending = pending;
         if let Some(p) = pending.as_mut() {
@@ -686,6 +700,9 @@ fn product_stages(
             }
         }
         let selection = select_under(&bt, kind);
+        let calibration = (kind == BEST_MEAN)
+            .then(|| default_rule::calibration_run(&bt))
+            .flatten();
         let r = finish(inputs(
             bt,
             &base_scores,
@@ -693,6 +710,7 @@ fn product_stages(
             pool_members,
             Vec::new(),
             &cache,
+            calibration,
         ));
         done.push((kind, r));
     }
@@ -732,6 +750,9 @@ struct FinishInputs<'a> {
     /// Runs whose backtest forecasts are kept besides the chosen model's,
     /// the runner-up's and the combination's (a pending selection's).
     extra_keep: Vec<String>,
+    /// The pool's backtest forecasts its ranges are calibrated on (see
+    /// [`default_rule::calibration_run`]).
+    calibration: Option<backtest::ModelRun>,
 }
 
 /// The selection of one product under one default, with its reason.
@@ -836,6 +857,7 @@ fn finish_product(
         mut selection,
         pool_members,
         extra_keep,
+        calibration,
     } = inputs;
     let y = &series.values;
     let last = series.month(series.len().saturating_sub(1));
@@ -941,7 +963,10 @@ fn finish_product(
     let mut pool_entry = None;
     let ranges = match (projection.as_mut(), bt.run(&selection.chosen)) {
         (Some(p), Some(run)) if p.model == selection.chosen => {
-            let points = bt.points(run);
+            let points = match &calibration {
+                Some(c) if selection.chosen == BEST_MEAN => bt.points(c),
+                _ => bt.points(run),
+            };
             pool_entry = Some(PoolEntry {
                 class: class.name().to_string(),
                 r80: crate::calibrate::scores_at(&points, 0.80),
