@@ -321,7 +321,7 @@ pub fn decide(rule: DefaultRule, checks: &[(f64, f64)]) -> DefaultChoice {
         },
         DefaultRule::Auto if n < MIN_PRODUCTS => DefaultChoice {
             reason: format!(
-                "the fixed combination: {n} products allowed the check of the alternative, fewer than the {MIN_PRODUCTS} it needs"
+                "the fixed combination: {n} products allowed the check of the alternative (a product needs {MIN_ORIGINS} backtest origins and {BEST_MEAN_MIN} candidates that complete them), fewer than the {MIN_PRODUCTS} it needs"
             ),
             ..base
         },

@@ -266,6 +266,8 @@ fn parameters(manifest: &serde_json::Value) -> Vec<(String, String)> {
         "sheet",
         "input_sha256",
         "until",
+        "default_model.default",
+        "default_model.reason",
     ];
     let mut out: Vec<(String, String)> = first
         .iter()
