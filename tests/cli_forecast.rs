@@ -712,3 +712,59 @@ fn best_five_mean_projects_the_mean_of_its_members() {
         assert!((got - mean).abs() < 1e-3, "{month}: {got} against {mean}");
     }
 }
+
+/// `evaluate --per-product` on the open series: one row per product with
+/// the selected model's MASE on the hidden months, the combination's and
+/// best-five-mean's; the rows' mean MASE is the summary's.
+#[test]
+fn evaluate_per_product_rows_add_up_to_the_summary() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/open/monthly.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "evaluate",
+            data.to_str().unwrap(),
+            "--holdout",
+            "12",
+            "--per-product",
+            "per.csv",
+            "--json",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let summary: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let (h, rows) = read_csv_file(&dir.path().join("per.csv"));
+    assert_eq!(
+        h,
+        [
+            "product",
+            "selected",
+            "selected_mase",
+            "combination_mase",
+            "best_five_mean_mase",
+            "warnings"
+        ]
+    );
+    assert_eq!(rows.len() as u64, summary["products"].as_u64().unwrap());
+    let mean = |col: usize| {
+        let v: Vec<f64> = rows.iter().filter_map(|r| r[col].parse().ok()).collect();
+        v.iter().sum::<f64>() / v.len() as f64
+    };
+    let method = |name: &str| {
+        summary["methods"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|m| m["method"] == name)
+            .and_then(|m| m["mean_mase"].as_f64())
+            .unwrap()
+    };
+    assert!((mean(2) - method("selected per product")).abs() < 1e-3);
+    assert!((mean(3) - method("combination")).abs() < 1e-3);
+    assert!((mean(4) - method("best-five-mean")).abs() < 1e-3);
+    assert!(
+        rows.iter().all(|r| !r[4].is_empty()),
+        "the pool applies to every open series"
+    );
+}

@@ -29,7 +29,7 @@ pub struct EvaluateArgs {
     /// Also write the comparison as CSV.
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
-    /// Also write one row per product: the model selected, its MASE on the hidden months and the fixed combination's, and the warnings it carried.
+    /// Also write one row per product: the model selected, its MASE on the hidden months, the fixed combination's and best-five-mean's, and the warnings it carried.
     #[arg(long, value_name = "FILE")]
     per_product: Option<PathBuf>,
     /// Score the hidden months against the data's `true_demand` column (a CSV written by `provisio generate --true-demand`) instead of the cleaned consumption: product-months summed over sites; months where a site wrote no row or a blank true_demand are left out.
@@ -514,22 +514,25 @@ fn write_per_product(
             "selected",
             "selected_mase",
             "combination_mase",
+            "best_five_mean_mase",
             "warnings",
         ])
         .map_err(e)?;
         for r in results {
-            let combo = r
-                .single
-                .iter()
-                .find(|(n, _)| n == provisio::backtest::COMBINATION)
-                .and_then(|(_, f)| f.as_ref())
-                .map(|f| mase(&r.actual, f, r.scale))
-                .unwrap_or_default();
+            let of = |name: &str| {
+                r.single
+                    .iter()
+                    .find(|(n, _)| n == name)
+                    .and_then(|(_, f)| f.as_ref())
+                    .map(|f| mase(&r.actual, f, r.scale))
+                    .unwrap_or_default()
+            };
             c.write_record([
                 output::csv_text(&r.product).as_ref(),
                 r.selected.as_str(),
                 &mase(&r.actual, &r.selected_forecast, r.scale),
-                &combo,
+                &of(provisio::backtest::COMBINATION),
+                &of(provisio::default_rule::BEST_MEAN),
                 &r.warnings.join(" | "),
             ])
             .map_err(e)?;
