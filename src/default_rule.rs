@@ -31,7 +31,7 @@ use crate::models::Forecast;
 pub const BEST_MEAN: &str = "best-five-mean";
 /// Members of the pool: the candidates with the lowest backtest score.
 pub const BEST_MEAN_SIZE: usize = 5;
-/// Fewest complete candidates for the pool to apply.
+/// Fewest candidates that may join (see [`may_join`]) for the pool to apply.
 pub const BEST_MEAN_MIN: usize = 3;
 /// Fewest products with a check for the run to leave the combination.
 pub const MIN_PRODUCTS: usize = 30;
@@ -82,14 +82,27 @@ pub struct DefaultChoice {
     pub reason: String,
 }
 
-/// The candidates that completed the backtest, best first by `rank`
+/// The candidates that may join the pool ([`may_join`]), best first by `rank`
 /// (lower is better), the combination and the pool left out.
+/// Whether a candidate whose backtest ran with `status` over `origins`
+/// origins may join the pool: it forecast at least half of them (a model
+/// that needs more history than the earliest origins have, such as
+/// `arima-auto` on a short series, still joins, ranked on the origins it
+/// reached).
+pub fn may_join(status: &RunStatus, origins: usize) -> bool {
+    match status {
+        RunStatus::Complete => true,
+        RunStatus::Incomplete { failed, .. } => 2 * failed <= origins,
+        RunStatus::NotApplicable(_) => false,
+    }
+}
+
 fn ranked_runs<'a>(bt: &'a Backtest, rank: &dyn Fn(&ModelRun) -> Option<f64>) -> Vec<&'a ModelRun> {
     let mut r: Vec<(f64, &ModelRun)> = bt
         .runs
         .iter()
         .filter(|r| {
-            r.status == RunStatus::Complete && r.model != COMBINATION && r.model != BEST_MEAN
+            may_join(&r.status, bt.origins.len()) && r.model != COMBINATION && r.model != BEST_MEAN
         })
         .filter_map(|r| rank(r).filter(|v| v.is_finite()).map(|v| (v, r)))
         .collect();
@@ -99,7 +112,7 @@ fn ranked_runs<'a>(bt: &'a Backtest, rank: &dyn Fn(&ModelRun) -> Option<f64>) ->
 
 /// The pooled run: at each origin the mean of the [`BEST_MEAN_SIZE`]
 /// candidates with the lowest backtest `score` (fewer when fewer
-/// completed, down to [`BEST_MEAN_MIN`]); not applicable otherwise.
+/// may join, down to [`BEST_MEAN_MIN`]); not applicable otherwise.
 /// `score` gives a run's backtest score (lower is better).
 pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) -> ModelRun {
     let members: Vec<&ModelRun> = ranked_runs(bt, score)
@@ -110,7 +123,7 @@ pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) ->
         return ModelRun {
             model: BEST_MEAN.to_string(),
             status: RunStatus::NotApplicable(format!(
-                "needs at least {BEST_MEAN_MIN} candidates that complete the backtest"
+                "needs at least {BEST_MEAN_MIN} candidates that forecast at half of the backtest origins or more"
             )),
             forecasts: vec![None; bt.origins.len()],
             members: vec![Vec::new(); bt.origins.len()],
@@ -133,10 +146,18 @@ pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) ->
             }
             Some(f)
         })
-        .collect();
+        .collect::<Vec<Option<Forecast>>>();
+    let failed = forecasts.iter().filter(|f| f.is_none()).count();
     ModelRun {
         model: BEST_MEAN.to_string(),
-        status: RunStatus::Complete,
+        status: if failed == 0 {
+            RunStatus::Complete
+        } else {
+            RunStatus::Incomplete {
+                failed,
+                first: "no member forecast at the earliest origins".to_string(),
+            }
+        },
         forecasts,
         members: vec![names; bt.origins.len()],
     }
@@ -171,7 +192,7 @@ pub fn recentre(pool: &mut Forecast, combination: &Forecast) {
 
 /// The pool's members chosen on the earlier half of the backtest origins
 /// only, by MASE; `None` with fewer than [`MIN_ORIGINS`] origins or
-/// [`BEST_MEAN_MIN`] complete candidates.
+/// [`BEST_MEAN_MIN`] candidates that may join.
 fn early_members(bt: &Backtest) -> Option<Vec<&ModelRun>> {
     let k = bt.origins.len();
     if k < MIN_ORIGINS {
@@ -321,7 +342,7 @@ pub fn decide(rule: DefaultRule, checks: &[(f64, f64)]) -> DefaultChoice {
         },
         DefaultRule::Auto if n < MIN_PRODUCTS => DefaultChoice {
             reason: format!(
-                "the fixed combination: {n} products allowed the check of the alternative (a product needs {MIN_ORIGINS} backtest origins and {BEST_MEAN_MIN} candidates that complete them), fewer than the {MIN_PRODUCTS} it needs"
+                "the fixed combination: {n} products allowed the check of the alternative (a product needs {MIN_ORIGINS} backtest origins and {BEST_MEAN_MIN} candidates that forecast at half of them or more), fewer than the {MIN_PRODUCTS} it needs"
             ),
             ..base
         },
@@ -533,6 +554,18 @@ mod tests {
         assert_eq!(i80.lower[1], 0.0);
         assert!((i80.upper[1] - 1.0 - (c80.upper[1] - 3.0)).abs() < 1e-12);
         assert_eq!(pool.point, vec![10.0, 1.0], "the point is the pool's");
+    }
+
+    #[test]
+    fn a_candidate_joins_the_pool_with_half_the_origins_or_more() {
+        let incomplete = |failed| RunStatus::Incomplete {
+            failed,
+            first: String::new(),
+        };
+        assert!(may_join(&RunStatus::Complete, 12));
+        assert!(may_join(&incomplete(6), 12));
+        assert!(!may_join(&incomplete(7), 12));
+        assert!(!may_join(&RunStatus::NotApplicable(String::new()), 12));
     }
 
     #[test]

@@ -1535,13 +1535,16 @@ pub fn holdout_check_defaults(
     });
     // The mean of each product's best five applied to every product: its
     // members from the backtest scores on the shortened history.
+    let origins = rs.first().map_or(0, |r| r.backtest.origins.len());
     let pool = rs.first().and_then(|r| {
         let score = r.selection.score;
         let mut ranked: Vec<(f64, &str)> = r
             .scores
             .iter()
             .filter(|m| {
-                m.status == RunStatus::Complete && m.model != COMBINATION && m.model != BEST_MEAN
+                default_rule::may_join(&m.status, origins)
+                    && m.model != COMBINATION
+                    && m.model != BEST_MEAN
             })
             .filter_map(|m| {
                 m.overall
