@@ -73,7 +73,7 @@ pub struct EvalArgs {
     /// Score to choose models by (intermittent demand is always scored by RMSSE; MAPE falls back to WAPE when over a third of months are zero).
     #[arg(long, value_enum, default_value_t = ScoreArg::Mase)]
     select_by: ScoreArg,
-    /// Relative gap by which another model must beat the default (the fixed combination; SBA for intermittent demand), besides winning at enough backtest origins.
+    /// Relative gap by which another model must beat the default (the run's default, see --default-model; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
     tie_margin: f64,
     /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or `auto`, chosen for the run on its own backtest (the later backtest months test the mean of the best five, chosen on the earlier ones, against the combination).
