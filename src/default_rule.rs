@@ -397,7 +397,8 @@ mod tests {
 
     /// Student's sleep data (Student, *Biometrika* 6(1), 1908; R's
     /// `datasets::sleep`): extra hours of sleep of ten patients under two
-    /// drugs. scipy 1.17.1, `ttest_rel(g1, g2, alternative="less")`:
+    /// drugs. scipy 1.17.1, `ttest_rel(g1, g2, alternative="less")`
+    /// (tests/reference/paired_t_scipy.py prints it):
     /// t = −4.0621, p = 0.0014164 (two-sided 0.002833, the value R's
     /// `t.test(..., paired = TRUE)` prints).
     #[test]
