@@ -110,6 +110,24 @@ fn ranked_runs<'a>(bt: &'a Backtest, rank: &dyn Fn(&ModelRun) -> Option<f64>) ->
     r.into_iter().map(|x| x.1).collect()
 }
 
+/// The mean of `members`' forecasts at origin `k` (those that forecast
+/// there), with the combination's ranges moved to it ([`recentre`]).
+fn pooled_at(bt: &Backtest, members: &[&ModelRun], k: usize) -> Option<Forecast> {
+    let fcs: Vec<&Forecast> = members
+        .iter()
+        .filter_map(|r| r.forecasts.get(k).and_then(Option::as_ref))
+        .collect();
+    let mut f = crate::backtest::mean_forecast(&fcs)?;
+    let combination = bt
+        .run(COMBINATION)
+        .and_then(|c| c.forecasts.get(k))
+        .and_then(Option::as_ref);
+    if let Some(c) = combination {
+        recentre(&mut f, c);
+    }
+    Some(f)
+}
+
 /// The pooled run: at each origin the mean of the [`BEST_MEAN_SIZE`]
 /// candidates with the lowest backtest `score` (fewer when fewer
 /// may join, down to [`BEST_MEAN_MIN`]); not applicable otherwise.
@@ -130,22 +148,8 @@ pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) ->
         };
     }
     let names: Vec<String> = members.iter().map(|r| r.model.clone()).collect();
-    let combination = bt.run(COMBINATION);
     let forecasts = (0..bt.origins.len())
-        .map(|k| {
-            let fcs: Vec<&Forecast> = members
-                .iter()
-                .filter_map(|r| r.forecasts.get(k).and_then(Option::as_ref))
-                .collect();
-            let mut f = crate::backtest::mean_forecast(&fcs)?;
-            if let Some(c) = combination
-                .and_then(|c| c.forecasts.get(k))
-                .and_then(Option::as_ref)
-            {
-                recentre(&mut f, c);
-            }
-            Some(f)
-        })
+        .map(|k| pooled_at(bt, &members, k))
         .collect::<Vec<Option<Forecast>>>();
     let failed = forecasts.iter().filter(|f| f.is_none()).count();
     ModelRun {
@@ -230,25 +234,8 @@ fn early_members(bt: &Backtest) -> Option<Vec<&ModelRun>> {
 pub fn calibration_run(bt: &Backtest) -> Option<ModelRun> {
     let members = early_members(bt)?;
     let k = bt.origins.len();
-    let combination = bt.run(COMBINATION);
     let forecasts = (0..k)
-        .map(|o| {
-            if o < k / 2 {
-                return None;
-            }
-            let fcs: Vec<&Forecast> = members
-                .iter()
-                .filter_map(|r| r.forecasts.get(o).and_then(Option::as_ref))
-                .collect();
-            let mut f = crate::backtest::mean_forecast(&fcs)?;
-            if let Some(c) = combination
-                .and_then(|c| c.forecasts.get(o))
-                .and_then(Option::as_ref)
-            {
-                recentre(&mut f, c);
-            }
-            Some(f)
-        })
+        .map(|o| (o >= k / 2).then(|| pooled_at(bt, &members, o)).flatten())
         .collect();
     Some(ModelRun {
         model: BEST_MEAN.to_string(),
