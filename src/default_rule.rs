@@ -585,4 +585,47 @@ mod tests {
             RunStatus::NotApplicable(_)
         ));
     }
+
+    proptest::proptest! {
+        /// The check never chooses the pool's members with the months it
+        /// scores them on: changing every month after the earlier
+        /// origins' last target leaves the members as they were.
+        #[test]
+        fn the_checks_members_ignore_the_months_they_are_scored_on(
+            y in proptest::collection::vec(1.0..500.0f64, 40),
+            offsets in proptest::collection::vec(-50.0..50.0f64, 6 * 12),
+            bump in 1.0..400.0f64,
+        ) {
+            let origins: Vec<usize> = (25..37).collect();
+            let runs = (0..6)
+                .map(|m| ModelRun {
+                    model: format!("m{m}"),
+                    status: RunStatus::Complete,
+                    forecasts: origins
+                        .iter()
+                        .enumerate()
+                        .map(|(k, &o)| Some(flat((y[o] + offsets[m * 12 + k]).max(0.0), 3)))
+                        .collect(),
+                    members: Vec::new(),
+                })
+                .collect();
+            let bt = Backtest {
+                origins: origins.clone(),
+                horizon: 3,
+                actual: y.clone(),
+                scorable: vec![true; 40],
+                runs,
+                scales: Default::default(),
+            };
+            let before = calibration_run(&bt).map(|r| r.members[0].clone());
+            // The earlier origins (25–30) see targets up to month 33.
+            let mut later = bt.clone();
+            later.scales = Default::default();
+            for v in &mut later.actual[34..] {
+                *v += bump;
+            }
+            let after = calibration_run(&later).map(|r| r.members[0].clone());
+            proptest::prop_assert_eq!(before, after);
+        }
+    }
 }
