@@ -233,11 +233,34 @@ fn early_members(bt: &Backtest) -> Option<Vec<&ModelRun>> {
 /// 95.7, 10.74; M1 monthly 75.8 / 92.8, 9.24 → 76.9 / 92.8, 9.33.
 pub fn calibration_run(bt: &Backtest) -> Option<ModelRun> {
     let members = early_members(bt)?;
+    Some(calibration_with(bt, &members))
+}
+
+/// [`nested_check`] and [`calibration_run`] from one choice of the
+/// earlier origins' members, each only when wanted.
+pub fn check_and_calibration(
+    bt: &Backtest,
+    check: bool,
+    calibration: bool,
+) -> (Option<(f64, f64)>, Option<ModelRun>) {
+    if !check && !calibration {
+        return (None, None);
+    }
+    let Some(members) = early_members(bt) else {
+        return (None, None);
+    };
+    (
+        check.then(|| check_with(bt, &members)).flatten(),
+        calibration.then(|| calibration_with(bt, &members)),
+    )
+}
+
+fn calibration_with(bt: &Backtest, members: &[&ModelRun]) -> ModelRun {
     let k = bt.origins.len();
     let forecasts = (0..k)
-        .map(|o| (o >= k / 2).then(|| pooled_at(bt, &members, o)).flatten())
+        .map(|o| (o >= k / 2).then(|| pooled_at(bt, members, o)).flatten())
         .collect();
-    Some(ModelRun {
+    ModelRun {
         model: BEST_MEAN.to_string(),
         status: RunStatus::Incomplete {
             failed: k / 2,
@@ -245,7 +268,7 @@ pub fn calibration_run(bt: &Backtest) -> Option<ModelRun> {
         },
         forecasts,
         members: vec![members.iter().map(|r| r.model.clone()).collect(); k],
-    })
+    }
 }
 
 /// One product's check: the mean scaled absolute error of the combination
@@ -254,13 +277,17 @@ pub fn calibration_run(bt: &Backtest) -> Option<ModelRun> {
 /// last target. `None` when the product has too few origins, the
 /// combination or enough candidates are missing, or no month is left.
 pub fn nested_check(bt: &Backtest) -> Option<(f64, f64)> {
+    let members = early_members(bt)?;
+    check_with(bt, &members)
+}
+
+fn check_with(bt: &Backtest, members: &[&ModelRun]) -> Option<(f64, f64)> {
     let k = bt.origins.len();
     if k < MIN_ORIGINS {
         return None;
     }
     let half = k / 2;
     let cutoff = bt.origins[half - 1] + bt.horizon;
-    let members = early_members(bt)?;
     let combo = bt.run(COMBINATION)?;
     let combo_points = bt.points(combo);
     let (mut ec, mut ep, mut n) = (0.0, 0.0, 0usize);

@@ -594,9 +594,11 @@ fn product_stages(
         ));
         return Staged::All(vec![r], None);
     }
-    let check = (defaults.len() > 1 && !intermittent)
-        .then(|| default_rule::nested_check(&bt))
-        .flatten();
+    let (check, calibration) = default_rule::check_and_calibration(
+        &bt,
+        defaults.len() > 1 && !intermittent,
+        !intermittent && defaults.contains(&BEST_MEAN),
+    );
     let base_scores: Vec<ModelScores> = bt.runs.iter().map(|r| model_scores(&bt, r)).collect();
     // The pool applies to demand that is not intermittent, with enough
     // complete candidates; otherwise the combination stays.
@@ -627,7 +629,7 @@ fn product_stages(
             let scores = model_scores(&bt, &run);
             Box::new(PendingPool {
                 selection,
-                calibration: default_rule::calibration_run(&bt),
+                calibration: calibration.clone(),
                 run,
                 scores,
                 members,
@@ -700,9 +702,7 @@ fn product_stages(
             }
         }
         let selection = select_under(&bt, kind);
-        let calibration = (kind == BEST_MEAN)
-            .then(|| default_rule::calibration_run(&bt))
-            .flatten();
+        let calibration = calibration.clone().filter(|_| kind == BEST_MEAN);
         let r = finish(inputs(
             bt,
             &base_scores,
