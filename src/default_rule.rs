@@ -593,7 +593,7 @@ mod tests {
         let named: Vec<(String, &dyn Fn(usize) -> f64)> = offs
             .iter()
             .enumerate()
-            .map(|(i, f)| (format!("m{i}"), f.as_ref()))
+            .map(|(i, f)| (format!("model-{i}"), f.as_ref()))
             .collect();
         let refs: Vec<(&str, &dyn Fn(usize) -> f64)> =
             named.iter().map(|(n, f)| (n.as_str(), *f)).collect();
@@ -601,7 +601,10 @@ mod tests {
         let score = |r: &ModelRun| bt.scores(r).get(crate::metrics::Score::Mase);
         let run = best_mean_run(&bt, &score);
         assert_eq!(run.status, RunStatus::Complete);
-        assert_eq!(run.members[0], ["m0", "m1", "m2", "m3", "m4"]);
+        assert_eq!(
+            run.members[0],
+            ["model-0", "model-1", "model-2", "model-3", "model-4"]
+        );
         let f = run.forecasts[0].as_ref().unwrap();
         assert!((f.point[0] - (125.0 - 3.0)).abs() < 1e-12);
         // Fewer than BEST_MEAN_MIN complete candidates: not applicable.
@@ -626,7 +629,7 @@ mod tests {
             let origins: Vec<usize> = (25..37).collect();
             let runs = (0..6)
                 .map(|m| ModelRun {
-                    model: format!("m{m}"),
+                    model: format!("model-{m}"),
                     status: RunStatus::Complete,
                     forecasts: origins
                         .iter()
