@@ -128,15 +128,25 @@ fn pooled_at(bt: &Backtest, members: &[&ModelRun], k: usize) -> Option<Forecast>
     Some(f)
 }
 
+/// The pool's members: the [`BEST_MEAN_SIZE`] candidates that may join
+/// ([`may_join`]) with the lowest `score`, best first (fewer when fewer
+/// may join; the pool needs [`BEST_MEAN_MIN`]).
+pub fn best_members<'a>(
+    bt: &'a Backtest,
+    score: &dyn Fn(&ModelRun) -> Option<f64>,
+) -> Vec<&'a ModelRun> {
+    ranked_runs(bt, score)
+        .into_iter()
+        .take(BEST_MEAN_SIZE)
+        .collect()
+}
+
 /// The pooled run: at each origin the mean of the [`BEST_MEAN_SIZE`]
 /// candidates with the lowest backtest `score` (fewer when fewer
 /// may join, down to [`BEST_MEAN_MIN`]); not applicable otherwise.
 /// `score` gives a run's backtest score (lower is better).
 pub fn best_mean_run(bt: &Backtest, score: &dyn Fn(&ModelRun) -> Option<f64>) -> ModelRun {
-    let members: Vec<&ModelRun> = ranked_runs(bt, score)
-        .into_iter()
-        .take(BEST_MEAN_SIZE)
-        .collect();
+    let members = best_members(bt, score);
     if members.len() < BEST_MEAN_MIN {
         return ModelRun {
             model: BEST_MEAN.to_string(),

@@ -714,15 +714,20 @@ fn product_stages(
         ));
         done.push((kind, r));
     }
-    let out = effective
-        .iter()
-        .map(|k| {
-            done.iter()
-                .find(|(d, _)| d == k)
-                .map(|(_, r)| r.clone())
-                .expect("every effective default was computed")
-        })
-        .collect();
+    // Each result moved to its place; copied only where two defaults came
+    // to the same (the pool not applicable to this product).
+    let mut out = Vec::with_capacity(effective.len());
+    for (i, k) in effective.iter().enumerate() {
+        let pos = done
+            .iter()
+            .position(|(d, _)| d == k)
+            .expect("every effective default was computed");
+        if effective[i + 1..].contains(k) {
+            out.push(done[pos].1.clone());
+        } else {
+            out.push(done.swap_remove(pos).1);
+        }
+    }
     Staged::All(out, check)
 }
 
@@ -1535,29 +1540,18 @@ pub fn holdout_check_defaults(
     });
     // The mean of each product's best five applied to every product: its
     // members from the backtest scores on the shortened history.
-    let origins = rs.first().map_or(0, |r| r.backtest.origins.len());
     let pool = rs.first().and_then(|r| {
         let score = r.selection.score;
-        let mut ranked: Vec<(f64, &str)> = r
-            .scores
+        let overall = |run: &backtest::ModelRun| {
+            r.scores
+                .iter()
+                .find(|m| m.model == run.model)
+                .and_then(|m| m.overall)
+                .and_then(|o| o.get(score))
+        };
+        let names: Vec<String> = default_rule::best_members(&r.backtest, &overall)
             .iter()
-            .filter(|m| {
-                default_rule::may_join(&m.status, origins)
-                    && m.model != COMBINATION
-                    && m.model != BEST_MEAN
-            })
-            .filter_map(|m| {
-                m.overall
-                    .and_then(|o| o.get(score))
-                    .map(|v| (v, m.model.as_str()))
-            })
-            .filter(|(v, _)| v.is_finite())
-            .collect();
-        ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
-        let names: Vec<String> = ranked
-            .iter()
-            .take(default_rule::BEST_MEAN_SIZE)
-            .map(|(_, m)| m.to_string())
+            .map(|m| m.model.clone())
             .collect();
         (names.len() >= default_rule::BEST_MEAN_MIN)
             .then(|| mean_of(&names))
