@@ -351,6 +351,18 @@ pub fn run(
 ) -> Backtest {
     let s = settings.get();
     let os = origins(y.len(), s.origins, s.horizon, 2);
+    run_at(y, scorable, models, os, s.horizon)
+}
+
+/// [`run`] at the given origins (positions of the last training month,
+/// oldest first), each forecasting `horizon` months.
+pub fn run_at(
+    y: &[f64],
+    scorable: &[bool],
+    models: &[Box<dyn AnyModel>],
+    os: Vec<usize>,
+    horizon: usize,
+) -> Backtest {
     let mut runs: Vec<ModelRun> = Vec::with_capacity(models.len() + 1);
     for m in models {
         let name = m.name();
@@ -365,7 +377,7 @@ pub fn run(
             let train = &y[..=o];
             let result = m
                 .fit_any_warm(train, &mut warm)
-                .and_then(|f| f.forecast(s.horizon, &LEVELS));
+                .and_then(|f| f.forecast(horizon, &LEVELS));
             match result {
                 Ok(fc) => forecasts.push(Some(fc)),
                 Err(Error::NotApplicable { reason, .. })
@@ -410,7 +422,7 @@ pub fn run(
     }
     let mut bt = Backtest {
         origins: os,
-        horizon: s.horizon,
+        horizon,
         actual: y.to_vec(),
         scorable: scorable.to_vec(),
         runs,

@@ -77,7 +77,8 @@
 //! ×19. With the check on running medians ([`crate::clean::outliers`]):
 //! seed 5 78.8 / 95.3, 4.77 (own 77.7 / 92.8, 4.86); seed 11 4.80 (4.90),
 //! with entry errors 4.89 (4.97); 1,000 products 8.15 (8.25); M1 81.2 /
-//! 94.8, 8.32 (9.02); tourism 84.2 / 96.7, 11.40 (11.55); open series
+//! 94.8, 8.32 (9.02); tourism 84.2 / 96.7, 11.40 (11.55; 82.4 / 95.7,
+//! 10.74 with the pool as its default); open series
 //! 76.8 / 96.5, 3.52 (3.52).
 //!
 //! With fewer than [`MIN_POINTS`] scored backtest points and no pool, or

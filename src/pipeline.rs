@@ -11,7 +11,7 @@ use crate::backtest::{
 use crate::calendar::YearMonth;
 use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod};
 use crate::clean::CleanSeries;
-use crate::default_rule::{self, DefaultChoice, DefaultRule, BEST_MEAN};
+use crate::default_rule::{self, DefaultChoice, DefaultRule, ProductCheck, BEST_MEAN};
 use crate::error::Result;
 use crate::models::Forecast;
 use crate::models::{candidates, with_season, AnyModel, Season};
@@ -266,22 +266,32 @@ pub fn forecast_product_with(
         DefaultRule::BestMean => BEST_MEAN,
         _ => COMBINATION,
     };
-    let (mut v, _) = forecast_product_defaults(series, models, settings, opts, &[kind]);
+    let (mut v, _) = forecast_product_defaults(series, models, settings, opts, &[kind], false);
     v.swap_remove(0)
 }
 
 /// [`forecast_product_with`] under each default in `defaults`
 /// ([`COMBINATION`] or [`BEST_MEAN`]; one result each, in that order),
-/// with the product's check of the two on its backtest
-/// ([`default_rule::nested_check`], computed only when both are asked for).
+/// with the product's checks of the two on its backtest (computed only
+/// when both are asked for; the year-earlier check only when `earlier`:
+/// see [`default_rule::ProductCheck`]).
 pub fn forecast_product_defaults(
     series: &CleanSeries,
     models: &[Box<dyn AnyModel>],
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
     defaults: &[&str],
+    earlier: bool,
 ) -> Alternatives<ProductForecast> {
-    match product_stages(series, models, settings, opts, defaults, Stage::All) {
+    match product_stages(
+        series,
+        models,
+        settings,
+        opts,
+        defaults,
+        Stage::All,
+        earlier,
+    ) {
         Staged::All(v, check) => (v, check),
         Staged::Pending(r, _, check) => (vec![*r], check),
     }
@@ -316,28 +326,22 @@ enum Stage {
 
 /// What [`product_stages`] returns.
 enum Staged {
-    All(Vec<ProductForecast>, Option<(f64, f64)>),
-    Pending(
-        Box<ProductForecast>,
-        Option<Box<PendingPool>>,
-        Option<(f64, f64)>,
-    ),
+    All(Vec<ProductForecast>, ProductCheck),
+    Pending(Box<ProductForecast>, Option<Box<PendingPool>>, ProductCheck),
 }
 
 /// The combination's result of a product, its pending pool and its check
 /// (see [`forecast_run`]).
-pub type StagedProduct = (
-    ProductForecast,
-    Option<Box<PendingPool>>,
-    Option<(f64, f64)>,
-);
+pub type StagedProduct = (ProductForecast, Option<Box<PendingPool>>, ProductCheck);
 
-/// The product under the combination, with the pool's selection pending.
+/// The product under the combination, with the pool's selection pending
+/// (`earlier`: see [`forecast_product_defaults`]).
 pub fn forecast_product_staged(
     series: &CleanSeries,
     models: &[Box<dyn AnyModel>],
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
+    earlier: bool,
 ) -> StagedProduct {
     match product_stages(
         series,
@@ -346,6 +350,7 @@ pub fn forecast_product_staged(
         opts,
         &[COMBINATION, BEST_MEAN],
         Stage::Staged,
+        earlier,
     ) {
         Staged::Pending(r, p, check) => (*r, p, check),
         Staged::All(mut v, check) => (v.swap_remove(0), None, check),
@@ -371,6 +376,7 @@ pub fn finish_pending(
         opts,
         &[BEST_MEAN],
         Stage::Resume(pending, Box::new(done)),
+        false,
     ) {
         Staged::All(mut v, _) => v.swap_remove(0),
         Staged::Pending(r, _, _) => *r,
@@ -384,6 +390,7 @@ fn product_stages(
     opts: &ProductOptions,
     defaults: &[&str],
     stage: Stage,
+    earlier: bool,
 ) -> Staged {
     let pinned = opts.model.as_deref();
     // Every model the caller offered: a pinned model is used even when the
@@ -592,13 +599,27 @@ fn product_stages(
             &cache,
             calibration,
         ));
-        return Staged::All(vec![r], None);
+        return Staged::All(vec![r], ProductCheck::default());
     }
-    let (check, calibration) = default_rule::check_and_calibration(
+    let checking = defaults.len() > 1 && !intermittent;
+    let (halves, calibration) = default_rule::check_and_calibration(
         &bt,
-        defaults.len() > 1 && !intermittent,
+        checking,
         !intermittent && defaults.contains(&BEST_MEAN),
     );
+    // The year-earlier check fits every candidate at as many origins again,
+    // just before the backtest's own.
+    let year_earlier = (checking && earlier)
+        .then(|| default_rule::earlier_origins(&bt))
+        .flatten()
+        .and_then(|os| {
+            let earlier_bt = backtest::run_at(y, &mask, models, os, bt.horizon);
+            default_rule::year_earlier_check(&bt, &earlier_bt)
+        });
+    let check = ProductCheck {
+        halves,
+        earlier: year_earlier,
+    };
     let base_scores: Vec<ModelScores> = bt.runs.iter().map(|r| model_scores(&bt, r)).collect();
     // The pool applies to demand that is not intermittent, with enough
     // complete candidates; otherwise the combination stays.
@@ -1282,9 +1303,9 @@ pub fn forecast_all_with(
     forecast_run(series, settings, options, progress).0
 }
 
-/// A product's results under each of the run's defaults, with its check of
-/// the two ([`default_rule::nested_check`]).
-pub type Alternatives<T> = (Vec<T>, Option<(f64, f64)>);
+/// A product's results under each of the run's defaults, with its checks
+/// of the two ([`ProductCheck`]).
+pub type Alternatives<T> = (Vec<T>, ProductCheck);
 
 /// The defaults a run computes for every product under its rule.
 fn run_defaults(rule: DefaultRule) -> &'static [&'static str] {
@@ -1302,7 +1323,7 @@ fn choose_default<T>(
     per_product: Vec<Alternatives<T>>,
 ) -> (Vec<T>, DefaultChoice) {
     let defaults = run_defaults(rule);
-    let checks: Vec<(f64, f64)> = per_product.iter().filter_map(|p| p.1).collect();
+    let checks: Vec<ProductCheck> = per_product.iter().map(|p| p.1).collect();
     let choice = default_rule::decide(rule, &checks);
     let k = defaults
         .iter()
@@ -1340,7 +1361,8 @@ pub fn forecast_run(
             .par_iter()
             .map_init(candidates, |models, s| {
                 let o = options.get(&s.product).unwrap_or(&none);
-                let r = forecast_product_defaults(s, models, settings, o, run_defaults(rule));
+                let r =
+                    forecast_product_defaults(s, models, settings, o, run_defaults(rule), false);
                 progress();
                 r
             })
@@ -1351,16 +1373,19 @@ pub fn forecast_run(
     }
     // Every product under the combination, the pool's selection kept
     // pending; the pool projected only if the run chooses it.
+    let n = series.len();
     let staged: Vec<StagedProduct> = series
         .par_iter()
-        .map_init(candidates, |models, s| {
+        .enumerate()
+        .map_init(candidates, |models, (i, s)| {
             let o = options.get(&s.product).unwrap_or(&none);
-            let r = forecast_product_staged(s, models, settings, o);
+            let earlier = default_rule::in_earlier_sample(i, n);
+            let r = forecast_product_staged(s, models, settings, o, earlier);
             progress();
             r
         })
         .collect();
-    let checks: Vec<(f64, f64)> = staged.iter().filter_map(|x| x.2).collect();
+    let checks: Vec<ProductCheck> = staged.iter().map(|x| x.2).collect();
     let choice = default_rule::decide(rule, &checks);
     let mut results: Vec<ProductForecast> = if choice.default == BEST_MEAN {
         staged
@@ -1473,7 +1498,7 @@ pub fn holdout_check_with(
         DefaultRule::BestMean => BEST_MEAN,
         _ => COMBINATION,
     };
-    holdout_check_defaults(series, models, settings, holdout, opts, &[kind])
+    holdout_check_defaults(series, models, settings, holdout, opts, &[kind], false)
         .map(|(mut v, _)| v.swap_remove(0))
 }
 
@@ -1487,6 +1512,7 @@ pub fn holdout_check_defaults(
     holdout: usize,
     opts: &ProductOptions,
     defaults: &[&str],
+    earlier: bool,
 ) -> Option<Alternatives<HoldoutResult>> {
     let n = series.len();
     if n <= holdout + 24 {
@@ -1501,7 +1527,7 @@ pub fn holdout_check_defaults(
     short.outlier.truncate(cut);
     let mut s = settings.clone();
     s.horizon = holdout;
-    let (rs, check) = forecast_product_defaults(&short, models, &s, opts, defaults);
+    let (rs, check) = forecast_product_defaults(&short, models, &s, opts, defaults, earlier);
     let mut single: Vec<(String, Option<Vec<f64>>)> = models
         .iter()
         .map(|m| {
@@ -1617,11 +1643,14 @@ pub fn holdout_run(
 ) -> (Vec<HoldoutResult>, DefaultChoice) {
     let none = ProductOptions::default();
     let rule = settings.select.default_rule;
+    let n = series.len();
     let per_product: Vec<Alternatives<HoldoutResult>> = series
         .par_iter()
-        .map_init(candidates, |models, s| {
+        .enumerate()
+        .map_init(candidates, |models, (i, s)| {
             let o = options.get(&s.product).unwrap_or(&none);
-            holdout_check_defaults(s, models, settings, holdout, o, run_defaults(rule))
+            let earlier = rule == DefaultRule::Auto && default_rule::in_earlier_sample(i, n);
+            holdout_check_defaults(s, models, settings, holdout, o, run_defaults(rule), earlier)
         })
         .flatten()
         .collect();
@@ -1679,10 +1708,10 @@ mod tests {
         let auto = ForecastSettings::default().check().unwrap();
         let none = ProductOptions::default();
         let direct = forecast_product_with(&s, &models, &direct_settings, &none);
-        let (combo, pending, check) = forecast_product_staged(&s, &models, &auto, &none);
+        let (combo, pending, check) = forecast_product_staged(&s, &models, &auto, &none, true);
         assert!(
-            check.is_some(),
-            "60 months give 12 origins, enough for the check"
+            check.halves.is_some() && check.earlier.is_some(),
+            "60 months give 12 origins and 12 earlier ones, enough for both checks"
         );
         assert_eq!(combo.selection.chosen, COMBINATION);
         let later = finish_pending(&s, &models, &auto, &none, combo, pending.unwrap());

@@ -714,8 +714,9 @@ fn best_five_mean_projects_the_mean_of_its_members() {
 }
 
 /// `evaluate --per-product` on the open series: one row per product with
-/// the selected model's MASE on the hidden months, the combination's and
-/// best-five-mean's; the rows' mean MASE is the summary's.
+/// the selected model's MASE on the hidden months, the combination's,
+/// best-five-mean's and every other candidate's; the rows' mean MASE is
+/// the summary's.
 #[test]
 fn evaluate_per_product_rows_add_up_to_the_summary() {
     let dir = tempfile::tempdir().unwrap();
@@ -736,7 +737,7 @@ fn evaluate_per_product_rows_add_up_to_the_summary() {
     let summary: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let (h, rows) = read_csv_file(&dir.path().join("per.csv"));
     assert_eq!(
-        h,
+        h[..6],
         [
             "product",
             "selected",
@@ -746,6 +747,9 @@ fn evaluate_per_product_rows_add_up_to_the_summary() {
             "warnings"
         ]
     );
+    // Then a column per other candidate.
+    assert!(h[6..].iter().all(|c| c.ends_with("_mase")));
+    assert!(h.iter().any(|c| c == "ets-auto_mase") && h.iter().any(|c| c == "theta_mase"));
     assert_eq!(rows.len() as u64, summary["products"].as_u64().unwrap());
     let mean = |col: usize| {
         let v: Vec<f64> = rows.iter().filter_map(|r| r[col].parse().ok()).collect();
@@ -763,6 +767,13 @@ fn evaluate_per_product_rows_add_up_to_the_summary() {
     assert!((mean(2) - method("selected per product")).abs() < 1e-3);
     assert!((mean(3) - method("combination")).abs() < 1e-3);
     assert!((mean(4) - method("best-five-mean")).abs() < 1e-3);
+    for model in ["ets-auto", "arima-auto", "theta", "seasonal-naive"] {
+        let col = h
+            .iter()
+            .position(|c| *c == format!("{model}_mase"))
+            .unwrap();
+        assert!((mean(col) - method(model)).abs() < 1e-3, "{model}");
+    }
     assert!(
         rows.iter().all(|r| !r[4].is_empty()),
         "the pool applies to every open series"

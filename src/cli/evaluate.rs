@@ -29,7 +29,7 @@ pub struct EvaluateArgs {
     /// Also write the comparison as CSV.
     #[arg(long, value_name = "FILE")]
     csv: Option<PathBuf>,
-    /// Also write one row per product: the model selected, its MASE on the hidden months, the fixed combination's and best-five-mean's, and the warnings it carried.
+    /// Also write one row per product: the model selected, its MASE on the hidden months, the fixed combination's and best-five-mean's, the warnings it carried, then every other candidate's MASE (`MODEL_mase`, blank where it did not apply).
     #[arg(long, value_name = "FILE")]
     per_product: Option<PathBuf>,
     /// Score the hidden months against the data's `true_demand` column (a CSV written by `provisio generate --true-demand`) instead of the cleaned consumption: product-months summed over sites; months where a site wrote no row or a blank true_demand are left out.
@@ -222,7 +222,14 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             fmt(t.bias())
         );
     }
-    if let Some(best) = all.first() {
+    // The pool of each product's best five is a rule over the candidates,
+    // not a single model: the comparison lines leave it out.
+    let singles_only: Vec<&Tally> = all
+        .iter()
+        .copied()
+        .filter(|t| t.name != provisio::default_rule::BEST_MEAN)
+        .collect();
+    if let Some(best) = singles_only.first() {
         say!(
             "best single model applied to every product: {} (mean MAPE {}); selection: {}",
             best.name,
@@ -230,7 +237,7 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             fmt(selected.mape())
         );
     }
-    let best_mase = all
+    let best_mase = singles_only
         .iter()
         .filter_map(|t| t.mase().map(|m| (m, t)))
         .min_by(|x, y| x.0.total_cmp(&y.0));
@@ -506,18 +513,31 @@ fn write_per_product(
             .map(|v| format!("{v:.4}"))
             .unwrap_or_default()
     };
+    // Every other candidate's MASE follows, a column each, in the order the
+    // candidates were first met.
+    let fixed = [
+        provisio::backtest::COMBINATION,
+        provisio::default_rule::BEST_MEAN,
+    ];
+    let mut others: Vec<&str> = Vec::new();
+    for (name, _) in results.iter().flat_map(|r| r.single.iter()) {
+        if !fixed.contains(&name.as_str()) && !others.contains(&name.as_str()) {
+            others.push(name);
+        }
+    }
     output::write_atomic(path, |w| {
         let mut c = csv::Writer::from_writer(w);
         let e = std::io::Error::other;
-        c.write_record([
-            "product",
-            "selected",
-            "selected_mase",
-            "combination_mase",
-            "best_five_mean_mase",
-            "warnings",
-        ])
-        .map_err(e)?;
+        let mut header = vec![
+            "product".to_string(),
+            "selected".into(),
+            "selected_mase".into(),
+            "combination_mase".into(),
+            "best_five_mean_mase".into(),
+            "warnings".into(),
+        ];
+        header.extend(others.iter().map(|n| format!("{n}_mase")));
+        c.write_record(&header).map_err(e)?;
         for r in results {
             let of = |name: &str| {
                 r.single
@@ -527,15 +547,16 @@ fn write_per_product(
                     .map(|f| mase(&r.actual, f, r.scale))
                     .unwrap_or_default()
             };
-            c.write_record([
-                output::csv_text(&r.product).as_ref(),
-                r.selected.as_str(),
-                &mase(&r.actual, &r.selected_forecast, r.scale),
-                &of(provisio::backtest::COMBINATION),
-                &of(provisio::default_rule::BEST_MEAN),
-                &r.warnings.join(" | "),
-            ])
-            .map_err(e)?;
+            let mut row = vec![
+                output::csv_text(&r.product).into_owned(),
+                r.selected.clone(),
+                mase(&r.actual, &r.selected_forecast, r.scale),
+                of(provisio::backtest::COMBINATION),
+                of(provisio::default_rule::BEST_MEAN),
+                r.warnings.join(" | "),
+            ];
+            row.extend(others.iter().map(|n| of(n)));
+            c.write_record(&row).map_err(e)?;
         }
         c.flush()
     })?;
