@@ -454,13 +454,19 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
         p,
         reason: String::new(),
     };
-    let how = match kind {
-        CheckKind::YearEarlier => "with members chosen on a backtest of as many origins one year earlier, on the months after it",
-        CheckKind::Halves => "with members chosen on the backtest's earlier origins, on the later months they never saw",
+    let (made, months) = match kind {
+        CheckKind::YearEarlier => (
+            "on a backtest of as many origins one year earlier",
+            "the months after it",
+        ),
+        CheckKind::Halves => (
+            "on the backtest's earlier origins",
+            "the later months they never saw",
+        ),
     };
     let evidence = match (ce, pe, p) {
         (Some(c), Some(q), Some(p)) if c > 0.0 => format!(
-            "over {n} products, the mean of each product's best five ({how}) scored {q:.3} mean scaled error against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p {})",
+            "over {n} products, each product's best five, chosen {made}, scored {q:.3} mean scaled error on {months}, against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p {})",
             100.0 * (q / c - 1.0),
             fmt_p(p)
         ),
