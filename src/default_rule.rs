@@ -456,7 +456,7 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
     };
     let (made, months) = match kind {
         CheckKind::YearEarlier => (
-            "on a backtest of as many origins one year earlier",
+            "on a backtest of as many origins just before the run's own",
             "the months after it",
         ),
         CheckKind::Halves => (
@@ -600,7 +600,11 @@ mod tests {
         assert_eq!(d.check, Some(CheckKind::YearEarlier));
         assert_eq!(d.products, 40);
         assert_eq!(d.default, COMBINATION);
-        assert!(d.reason.contains("one year earlier"), "{}", d.reason);
+        assert!(
+            d.reason.contains("just before the run's own"),
+            "{}",
+            d.reason
+        );
         // Too few for it: the halves check over all 60 decides.
         let d = decide(DefaultRule::Auto, &mixed(MIN_PRODUCTS - 1));
         assert_eq!(d.check, Some(CheckKind::Halves));
