@@ -76,7 +76,7 @@ pub struct EvalArgs {
     /// Relative gap by which another model must beat the default (the run's default, see --default-model; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
     tie_margin: f64,
-    /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or `auto`, chosen for the run on its own backtest (the later backtest months test the mean of the best five, chosen on the earlier ones, against the combination).
+    /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or `auto`, chosen for the run by checking the best five out of sample: chosen on a backtest a year earlier and scored on the months after it (or, with too little history, chosen on the backtest's earlier origins and scored on the later ones' unseen months) against the combination.
     #[arg(long, value_enum, default_value_t = DefaultArg::Auto)]
     default_model: DefaultArg,
     /// Backtest forecasts written to backtest.csv and scores_by_horizon.csv: `chosen` model only, `compared` (chosen model, runner-up, combination) or `all` models.
