@@ -134,8 +134,15 @@ impl RangeMethod {
                     (0, k) => format!("the pooled backtest errors of {k} products"),
                     (n, k) => format!("{n} backtest errors and the pooled errors of {k} products"),
                 };
+                // A factor that shows as 0.00: the errors it was learnt
+                // from were (nearly) all zero.
+                let exact = if *factor80 < 0.005 {
+                    "; the backtest forecasts were exact at the 80% level, so the 80% range is the projection itself"
+                } else {
+                    ""
+                };
                 format!(
-                    "calibrated on {on}: 80% range ×{factor80:.2}, 95% range ×{factor95:.2} the model's own"
+                    "calibrated on {on}: 80% range ×{factor80:.2}, 95% range ×{factor95:.2} the model's own{exact}"
                 )
             }
             RangeMethod::Model => format!(

@@ -841,8 +841,8 @@ fn select_for(
     }
     if !selection.backtested && !selection.pinned && selection.chosen == COMBINATION {
         selection.reason = format!(
-            "not backtested: the history is too short for a backtest origin with {} months after it; the default combination is used, of the members that can be fitted ({})",
-            settings.backtest.get().horizon,
+            "{}; the default combination is used, of the members that can be fitted ({})",
+            crate::select::unscored_reason(bt, selection.score),
             fitting_members.join(", ")
         );
     }
@@ -854,10 +854,17 @@ fn select_for(
     }
     selection.reason.push_str(notes);
     if class.is_intermittent() {
+        let interval = if class.adi.is_finite() {
+            format!(
+                "mean interval between demands {:.2} months > {ADI_CUTOFF}; Syntetos, Boylan & Croston, JORS 56, 2005",
+                class.adi
+            )
+        } else {
+            "no month with demand in the history".to_string()
+        };
         selection.reason.push_str(&format!(
-            "; demand is {} (mean interval between demands {:.2} months > {ADI_CUTOFF}; Syntetos, Boylan & Croston, JORS 56, 2005), so only intermittent-demand methods and moving averages competed",
+            "; demand is {} ({interval}), so only intermittent-demand methods and moving averages competed",
             class.name(),
-            class.adi
         ));
     }
     selection

@@ -203,7 +203,9 @@ pub fn project_with(
     let amc_next = next.iter().sum::<f64>() / next.len().max(1) as f64;
     let tail = &y[y.len().saturating_sub(12)..];
     let amc_last = tail.iter().sum::<f64>() / tail.len().max(1) as f64;
-    let totals = ahead.chunks(12).map(|c| c.iter().sum()).collect();
+    // Whole years only: a partial sum under a 12-month label would read as
+    // a year's need.
+    let totals = ahead.chunks_exact(12).map(|c| c.iter().sum()).collect();
     Ok(Projection {
         model: name.to_string(),
         members: if models.len() > 1 { used } else { Vec::new() },

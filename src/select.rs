@@ -201,6 +201,24 @@ fn origin_wins(bt: &Backtest, a: &str, b: &str, score: Score) -> (usize, usize) 
 /// The score a product is selected by: `settings.score`, except RMSSE for
 /// intermittent demand and WAPE instead of MAPE when many months are zero.
 /// Returns the score and a note for the reason.
+/// Why no model has a backtest score: no origin fits in the history, or
+/// the backtest ran but the score is undefined on this history (a series
+/// that never changes gives MASE and RMSSE no scale to divide by).
+pub(crate) fn unscored_reason(bt: &Backtest, score: Score) -> String {
+    if bt.runs.iter().any(|r| r.status == RunStatus::Complete) {
+        format!(
+            "no backtest score: the backtest ran at {} origins, but {} is undefined on this history (it does not change from month to month, so errors have no scale to be measured against)",
+            bt.origins.len(),
+            score.name()
+        )
+    } else {
+        format!(
+            "not backtested: the history is too short for a backtest origin with {} months after it",
+            bt.horizon
+        )
+    }
+}
+
 pub(crate) fn score_for(
     bt: &Backtest,
     settings: &SelectSettings,
@@ -277,8 +295,8 @@ pub fn select(
             margin_pct: None,
             backtested: false,
             reason: format!(
-                "not backtested: the history is too short for a backtest origin with {} months after it; the simplest applicable model is used",
-                bt.horizon
+                "{}; the simplest applicable model is used",
+                unscored_reason(bt, score)
             ),
         };
     }

@@ -345,3 +345,32 @@ fn demo_crosscheck_writes_csv_charts_and_report_section() {
     let html = std::fs::read_to_string(w.path("out/report.html")).unwrap();
     assert!(html.contains("forecast.csv has changed since this cross-check was made"));
 }
+
+#[test]
+fn a_decimal_comma_in_services_is_refused_without_advising_an_option_crosscheck_lacks() {
+    // Common practice: an error message advises only what the command
+    // accepts; crosscheck reads plain numbers and has no --numbers.
+    let w = Workdir::new();
+    fake_forecast(&w, &[("Test kit", 1_000.0)]);
+    let mut s = String::from("product,month,services,units_per_service\n");
+    for k in 0..12 {
+        s.push_str(&format!("Test kit,2026-{:02},900,1\n", k + 1));
+    }
+    s.push_str("Test kit,2025-12,\"900,5\",1\n");
+    w.write("services.csv", &s);
+    let o = w.run(&[
+        "crosscheck",
+        "fc",
+        "--services",
+        "services.csv",
+        "--no-report",
+    ]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(
+        out.contains("services rows read: 13 = 12 accepted + 1 rejected"),
+        "{out}"
+    );
+    assert!(out.contains("'900,5' is not a plain number"), "{out}");
+    assert!(!out.contains("--numbers"), "{out}");
+}

@@ -1179,3 +1179,324 @@ fn a_changes_workbook_in_old_style_xls_is_sized_before_it_is_read() {
     );
     assert!(!d.join("o").exists(), "{out}");
 }
+
+/// A single-file output naming the input (or another output) is refused
+/// before any work, and the input is left byte for byte (common practice:
+/// a tool never writes over the file it is reading).
+#[test]
+fn single_file_outputs_never_replace_the_input() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = std::fs::read(common::repo("datasets/open/monthly.csv")).unwrap();
+    std::fs::write(dir.path().join("in.csv"), &data).unwrap();
+    std::fs::write(dir.path().join("pins.csv"), "product,model\n").unwrap();
+    let cases: [&[&str]; 6] = [
+        &["inspect", "in.csv", "--csv", "in.csv"],
+        &["inspect", "in.csv", "--rejected", "./in.csv"],
+        &["inspect", "in.csv", "--csv", "p.csv", "--rejected", "p.csv"],
+        &["evaluate", "in.csv", "--holdout", "6", "--csv", "in.csv"],
+        &[
+            "evaluate",
+            "in.csv",
+            "--holdout",
+            "6",
+            "--per-product",
+            "in.csv",
+        ],
+        &[
+            "forecast",
+            "in.csv",
+            "--pin",
+            "pins.csv",
+            "--write-config",
+            "pins.csv",
+        ],
+    ];
+    for args in cases {
+        let o = run_in(dir.path(), args);
+        let t = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{args:?}: {t}");
+        assert!(t.contains("is the same file as"), "{args:?}: {t}");
+        assert!(!t.contains("panicked"), "{t}");
+        assert_eq!(std::fs::read(dir.path().join("in.csv")).unwrap(), data);
+        assert_eq!(
+            std::fs::read_to_string(dir.path().join("pins.csv")).unwrap(),
+            "product,model\n"
+        );
+        assert!(!dir.path().join("p.csv").exists(), "{args:?}");
+    }
+}
+
+/// 36 months from 2022-01 of one product, `value(t)` a month.
+fn months_of(product: &str, value: impl Fn(usize) -> f64) -> String {
+    (0..36)
+        .map(|t| {
+            format!(
+                "{product},{}-{:02},{}\n",
+                2022 + t / 12,
+                t % 12 + 1,
+                value(t)
+            )
+        })
+        .collect()
+}
+
+/// A totals row in the long layout is refused like one in the wide layout
+/// (common practice: a pivot table's total is not a product, and counting
+/// it would double the demand).
+#[test]
+fn a_totals_row_in_the_long_layout_is_rejected_with_its_line() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + t as f64));
+    input.push_str("Grand Total,2024-12,5000\n");
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "in.csv", "--rejected", "rej.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("in.csv:38: column 'product'"), "{t}");
+    assert!(t.contains("a totals row"), "{t}");
+    let (_, rows) = read_csv_file(&dir.path().join("rej.csv"));
+    assert_eq!(rows.len(), 1);
+    assert_eq!(&rows[0][1], "38");
+}
+
+/// A row cut short (no field at all for `consumed`) is rejected, not read
+/// as a month not reported (common practice: a missing delimiter is a
+/// damaged row; a blank field is a value left empty on purpose).
+#[test]
+fn a_row_with_too_few_fields_is_rejected_not_read_as_not_reported() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + t as f64));
+    input.push_str("A,2025-01\nA,2025-02,\n");
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "in.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("in.csv:38: the row has 2 field(s) but the header has 3"),
+        "{t}"
+    );
+    assert!(t.contains("no field for 'consumed'"), "{t}");
+    // The blank field on line 39 is a month not reported, accepted.
+    assert!(
+        t.contains("rows read: 38 = 36 used as reported + 1 corrected by cleaning + 1 rejected"),
+        "{t}"
+    );
+}
+
+/// Rows summed on request are logged: the entry names both lines and its
+/// before and after add up (10 + 5 = 15, arithmetic).
+#[test]
+fn duplicates_summed_on_request_are_logged() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |_| 10.0));
+    input.push_str("A,2022-01,5\n");
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["clean", "in.csv", "--duplicates", "sum", "--out", "c"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("duplicate-summed   1"), "{t}");
+    let (h, rows) = read_csv_file(&dir.path().join("c/adjustments.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let summed: Vec<_> = rows
+        .iter()
+        .filter(|r| &r[col("rule")] == "duplicate-summed")
+        .collect();
+    assert_eq!(summed.len(), 1, "{rows:?}");
+    let r = summed[0];
+    assert_eq!((&r[col("month")], &r[col("line")]), ("2022-01", "38"));
+    assert_eq!((&r[col("before")], &r[col("after")]), ("10", "15"));
+    assert!(r[col("reason")].contains("line 2"), "{r:?}");
+}
+
+/// A stray row decades before the rest is warned about with its line and
+/// the months around the gap (common practice: a mistyped year).
+#[test]
+fn a_month_decades_before_the_rest_is_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\nA,1990-01,50\n");
+    input.push_str(&months_of("A", |t| 100.0 + (t % 5) as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["clean", "in.csv", "--out", "c"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("nothing reported for 383 months between 1990-01 (line 2) and 2022-01"),
+        "{t}"
+    );
+}
+
+/// With a horizon under a year the 12-month totals are blank, not a
+/// partial sum, and the AMC is the mean of the months projected
+/// (arithmetic against forecast.csv).
+#[test]
+fn a_horizon_under_a_year_leaves_the_yearly_total_blank() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + 3.0 * t as f64 + (t % 4) as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "f",
+            "--horizon",
+            "6",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("--horizon 6 is under a year"), "{t}");
+    let (h, rows) = read_csv_file(&dir.path().join("f/selection.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    assert_eq!(&rows[0][col("total_months_1_12")], "");
+    let amc: f64 = rows[0][col("amc_next_12")].parse().unwrap();
+    let (fh, frows) = read_csv_file(&dir.path().join("f/forecast.csv"));
+    let fc = fh.iter().position(|x| x == "forecast").unwrap();
+    let points: Vec<f64> = frows.iter().map(|r| r[fc].parse().unwrap()).collect();
+    assert_eq!(points.len(), 6);
+    let mean = points.iter().sum::<f64>() / 6.0;
+    assert!((amc - mean).abs() < 1e-3 * mean.max(1.0), "{amc} vs {mean}");
+}
+
+/// Options that cannot take effect together are refused before any work
+/// (common practice), and a product named for chart files must exist.
+#[test]
+fn chart_files_without_a_report_or_for_an_unknown_product_are_refused_at_once() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + t as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "f",
+            "--no-report",
+            "--chart-files",
+            "A",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(
+        text(&o).contains("--no-report skips the report"),
+        "{}",
+        text(&o)
+    );
+    let o = run_in(
+        dir.path(),
+        &["forecast", "in.csv", "--out", "f", "--chart-files", "B"],
+    );
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    assert!(
+        text(&o).contains("no product 'B' for --chart-files in in.csv"),
+        "{}",
+        text(&o)
+    );
+    assert!(!dir.path().join("f/selection.csv").exists());
+}
+
+/// A pin file naming a product twice with different models is refused
+/// with both lines (common practice: a silent last-row-wins is a lost pin).
+#[test]
+fn a_product_pinned_twice_is_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + t as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    std::fs::write(
+        dir.path().join("pins.csv"),
+        "product,model\nA,theta\nA,naive\n",
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "f",
+            "--pin",
+            "pins.csv",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(t.contains("pins.csv:3: column 'product': 'A' is pinned again, to naive, after line 2 pinned it to theta"), "{t}");
+}
+
+/// `generate` writes nothing its own reader would refuse: no month after
+/// the current one, no empty set.
+#[test]
+fn generate_refuses_sets_its_reader_would_refuse() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = run_in(
+        dir.path(),
+        &["generate", "--months", "1200", "--out", "g.csv"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(t.contains("refuses future months as data"), "{t}");
+    assert!(t.contains("or an earlier --start"), "{t}");
+    let o = run_in(
+        dir.path(),
+        &["generate", "--products", "0", "--out", "g.csv"],
+    );
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    assert!(!dir.path().join("g.csv").exists());
+    let o = run_in(
+        dir.path(),
+        &[
+            "generate",
+            "--months",
+            "100",
+            "--start",
+            "2010-01",
+            "--products",
+            "2",
+            "--out",
+            "g.csv",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let o = run_in(dir.path(), &["inspect", "g.csv"]);
+    assert!(text(&o).contains("+ 0 rejected"), "{}", text(&o));
+}
+
+/// A series that never changes is backtested, but MASE is undefined on it:
+/// the reason says so rather than calling the history too short (MASE's
+/// scale is the in-sample mean absolute change; Hyndman & Koehler, IJF 22,
+/// 2006).
+#[test]
+fn a_constant_series_is_not_called_too_short() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    for t in 0..48 {
+        input.push_str(&format!("A,{}-{:02},50\n", 2021 + t / 12, t % 12 + 1));
+    }
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["forecast", "in.csv", "--out", "f", "--no-report"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let (h, rows) = read_csv_file(&dir.path().join("f/selection.csv"));
+    let reason = &rows[0][h.iter().position(|x| x == "reason").unwrap()];
+    assert!(
+        reason.contains("MASE is undefined on this history"),
+        "{reason}"
+    );
+    assert!(!reason.contains("too short"), "{reason}");
+}

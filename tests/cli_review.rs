@@ -548,3 +548,46 @@ fn actuals_are_read_with_the_past_runs_number_format() {
     let months: usize = rows[0]["months_with_actuals"].parse().unwrap();
     assert_eq!(months, 12, "{:?}", rows[0]);
 }
+
+#[test]
+fn actuals_in_another_number_format_name_the_row_and_are_read_with_numbers() {
+    // The past run read plain numbers; the actuals come with a decimal
+    // comma (one invented product). Without --numbers the refusal names the
+    // first rejected row and the option; with it the months are reviewed.
+    let w = Workdir::new();
+    let value = |t: usize| 1000.0 + 150.0 * ((t % 12) as f64 / 2.0).sin() + 3.0 * t as f64;
+    let month = |t: usize| format!("{}-{:02}", 2022 + t / 12, t % 12 + 1);
+    let mut plain = String::from("product,month,consumed\n");
+    let mut comma = String::from("product;month;consumed\n");
+    for t in 0..48 {
+        if t < 36 {
+            plain.push_str(&format!("Test,{},{:.1}\n", month(t), value(t)));
+        } else {
+            let v = format!("{:.1}", value(t)).replace('.', ",");
+            comma.push_str(&format!("Test;{};{v}\n", month(t)));
+        }
+    }
+    std::fs::write(w.path("plain.csv"), plain).unwrap();
+    std::fs::write(w.path("comma.csv"), comma).unwrap();
+    let o = w.run(&["forecast", "plain.csv", "--out", "past", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["review", "past", "--actuals", "comma.csv", "--out", "rev"]);
+    let e = text(&o);
+    assert!(!o.status.success(), "{e}");
+    assert!(e.contains("comma.csv"), "{e}");
+    assert!(e.contains("line 2"), "{e}");
+    assert!(e.contains("--numbers decimal-comma"), "{e}");
+    let o = w.run(&[
+        "review",
+        "past",
+        "--actuals",
+        "comma.csv",
+        "--out",
+        "rev",
+        "--numbers",
+        "decimal-comma",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let rows = w.read_csv_maps("rev/review.csv");
+    assert_eq!(rows[0]["months_with_actuals"], "12", "{:?}", rows[0]);
+}

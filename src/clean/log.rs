@@ -24,6 +24,9 @@ pub enum Rule {
     OutlierFlagged,
     /// Flagged as an outlier and replaced (only on request).
     OutlierReplaced,
+    /// A duplicate row's quantity added to the first row of its product,
+    /// site and month (only on request).
+    DuplicateSummed,
 }
 
 impl Rule {
@@ -38,11 +41,13 @@ impl Rule {
             Rule::Imputed => "imputed",
             Rule::OutlierFlagged => "outlier-flagged",
             Rule::OutlierReplaced => "outlier-replaced",
+            Rule::DuplicateSummed => "duplicate-summed",
         }
     }
 
     /// All rules, in pipeline order.
-    pub const ALL: [Rule; 8] = [
+    pub const ALL: [Rule; 9] = [
+        Rule::DuplicateSummed,
         Rule::StockoutScaled,
         Rule::StockoutMissing,
         Rule::ReportingScaled,
@@ -144,6 +149,12 @@ pub enum Reason {
         /// How it was filled.
         method: ImputeMethod,
     },
+    /// This row's quantity added to the row on `into_line` (the entry's
+    /// `before` and `after` are that row's quantity before and after).
+    DuplicateSummed {
+        /// Line of the row that carries the sum.
+        into_line: u64,
+    },
 }
 
 impl Reason {
@@ -160,6 +171,7 @@ impl Reason {
             Reason::Outlier { replaced: true, .. } => Rule::OutlierReplaced,
             Reason::SiteFilled { .. } => Rule::SiteFilled,
             Reason::Imputed { .. } => Rule::Imputed,
+            Reason::DuplicateSummed { .. } => Rule::DuplicateSummed,
         }
     }
 }
@@ -196,8 +208,19 @@ pub struct Adjustment {
 }
 
 impl Adjustment {
-    /// Change in quantity this step made, missing counted as zero.
+    /// Change in quantity this step made, missing counted as zero. Rows
+    /// summed while reading move a quantity of the file from one row to
+    /// another: the product's volume is unchanged, so their change is zero
+    /// (their `before` and `after` show the receiving row's value).
     pub fn delta(&self) -> f64 {
+        if self.rule() == Rule::DuplicateSummed {
+            return 0.0;
+        }
+        self.row_delta()
+    }
+
+    /// Change in the value of the row concerned.
+    fn row_delta(&self) -> f64 {
         self.after.unwrap_or(0.0) - self.before.unwrap_or(0.0)
     }
 
@@ -280,6 +303,14 @@ impl Adjustment {
             Reason::Imputed { cause, method } => {
                 write!(out, "{}; filled by {}", cause.text(), method.describe())
             }
+            Reason::DuplicateSummed { into_line } => write!(
+                out,
+                "same product, site and month as line {into_line}: its quantity {} added there ({} + {} = {}) on request (--duplicates sum)",
+                fmt_q(self.row_delta()),
+                self.before.map_or("missing".to_string(), fmt_q),
+                fmt_q(self.row_delta()),
+                self.after.map_or("missing".to_string(), fmt_q),
+            ),
         }
     }
 }

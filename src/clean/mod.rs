@@ -9,7 +9,7 @@ pub mod stockout;
 
 pub use log::{Adjustment, AdjustmentLog, FillCause, Reason, Rule};
 
-use std::collections::{BTreeMap, HashSet};
+use std::collections::{BTreeMap, HashMap, HashSet};
 use std::sync::Arc;
 
 use rayon::prelude::*;
@@ -290,8 +290,27 @@ fn clean_inputs(
     // Counted per row, not per distinct line, so the accounting holds
     // whatever the line numbers are.
     let mut adjusted = data.merged.len();
+    // Rows summed while reading, logged first for their product: the
+    // first step taken on its data.
+    let mut summed: HashMap<&str, Vec<Adjustment>> = HashMap::new();
+    for m in &data.merged {
+        summed.entry(&m.product).or_default().push(Adjustment {
+            product: m.product.clone(),
+            site: m.site.clone(),
+            month: m.month,
+            line: Some(m.line),
+            before: m.before,
+            after: m.after,
+            why: Reason::DuplicateSummed {
+                into_line: m.into_line,
+            },
+        });
+    }
     for (p, r) in inputs.iter().zip(results) {
         adjusted += changed_rows(p, &r.log, &merged_keys);
+        if let Some(entries) = summed.remove(p.product.as_str()) {
+            log.push_product(entries);
+        }
         log.push_product(r.log);
         warnings.extend(r.warnings);
         match r.series {
@@ -420,6 +439,45 @@ struct SiteClean {
     replaced: Vec<bool>,
 }
 
+/// Months with nothing reported, in a row, from which a gap inside the
+/// history is called out: two years is longer than any reporting lapse
+/// cleaning is meant to bridge, and usually a mistyped year (a row far
+/// from the rest) or a product stopped and started again (common practice).
+pub const LONG_GAP_MONTHS: usize = 24;
+
+/// A warning for the longest run of unreported months inside the product's
+/// history when it reaches [`LONG_GAP_MONTHS`], naming the months around
+/// it and the line of the row before it.
+fn long_gap_warning(p: &ProductData, reported: &[Option<f64>]) -> Option<String> {
+    let (mut best, mut run) = ((0, 0), 0);
+    for (t, v) in reported.iter().enumerate() {
+        run = if v.is_none() { run + 1 } else { 0 };
+        if run > best.1 {
+            best = (t + 1 - run, run);
+        }
+    }
+    let (from, len) = best;
+    // Only gaps with reports on both sides: a trailing run is a product
+    // that stopped, warned about elsewhere.
+    if len < LONG_GAP_MONTHS || from == 0 || from + len >= reported.len() {
+        return None;
+    }
+    let before = p.start.plus(from as i64 - 1);
+    let after = p.start.plus((from + len) as i64);
+    let line = p.sites.iter().find_map(|s| {
+        let k = s.start.months_until(before);
+        usize::try_from(k)
+            .ok()
+            .and_then(|k| s.months.get(k))
+            .and_then(|m| m.line)
+    });
+    let line = line.map_or(String::new(), |l| format!(" (line {l})"));
+    Some(format!(
+        "product '{}': nothing reported for {len} months between {before}{line} and {after}; the months in between are filled and forecast from as history: if a year is mistyped, correct it; if the product restarted, remove the rows before the gap",
+        p.product
+    ))
+}
+
 fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
     // A product's own stockout threshold replaces the run's.
     let own;
@@ -475,6 +533,9 @@ fn clean_product(p: &ProductData, s: &CleanSettings) -> ProductResult {
                 *slot = Some(slot.unwrap_or(0.0) + c);
             }
         }
+    }
+    if let Some(w) = long_gap_warning(p, &reported) {
+        warnings.push(w);
     }
     let mut total: Vec<Option<f64>> = vec![None; n];
     let mut filled_amount = vec![0.0; n];

@@ -124,6 +124,19 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     if let Some(c) = &config {
         apply_shared(c, given, &mut a.read, &mut a.clean, &mut a.eval)?;
     }
+    let mut inputs = vec![
+        ("input", Some(a.data.as_path())),
+        ("--config", a.config.as_deref()),
+        ("--pin", a.eval.pin.as_deref()),
+    ];
+    inputs.extend(a.read.companion_files());
+    super::refuse_same_file(
+        &[
+            ("--csv", a.csv.as_deref()),
+            ("--per-product", a.per_product.as_deref()),
+        ],
+        &inputs,
+    )?;
     if a.holdout == 0 || a.holdout > provisio::project::MAX_HORIZON {
         anyhow::bail!(
             "--holdout must be 1-{}, got {}",

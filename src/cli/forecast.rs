@@ -429,6 +429,7 @@ pub(super) fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> 
         .map(|m| m.name())
         .collect();
     let mut pins = HashMap::new();
+    let mut first_line: HashMap<String, u64> = HashMap::new();
     for rec in r.records() {
         let rec = rec.with_context(|| format!("{}: cannot read a row", path.display()))?;
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
@@ -443,6 +444,20 @@ pub(super) fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> 
                 names.join(", ")
             );
         }
+        if product.is_empty() {
+            anyhow::bail!(
+                "{}:{line}: column 'product': the product is empty; name the product to pin, exactly as in the data",
+                path.display()
+            );
+        }
+        if let Some(earlier) = pins.get(&product).filter(|m| **m != model) {
+            anyhow::bail!(
+                "{}:{line}: column 'product': '{product}' is pinned again, to {model}, after line {} pinned it to {earlier}; keep one row per product",
+                path.display(),
+                first_line[&product]
+            );
+        }
+        first_line.entry(product.clone()).or_insert(line);
         pins.insert(product, model);
     }
     Ok(pins)
@@ -487,7 +502,7 @@ fn run_eval(
     until: Option<YearMonth>,
     cfg: Option<&LoadedConfig>,
     given: &Given,
-    workbook: bool,
+    (workbook, chart_files): (bool, &[String]),
 ) -> anyhow::Result<EvalRun> {
     let t0 = Instant::now();
     let fs = with_silence(eval, horizon, silence_limit);
@@ -499,6 +514,19 @@ fn run_eval(
     let pinned: Vec<String> = pins.keys().cloned().collect();
     let options = product_options(cfg, pins, given.cli("pin"));
     let (ds, cleaned) = load_until(data, read, clean, until)?;
+    // Products named for chart files are checked before the long work.
+    for n in chart_files.iter().filter(|n| *n != "all") {
+        if !cleaned
+            .series
+            .iter()
+            .any(|s| s.product.as_str() == n.as_str())
+        {
+            anyhow::bail!(
+                "no product '{n}' for --chart-files in {}; give a product name exactly as in the data, or all",
+                data.display()
+            );
+        }
+    }
     if workbook {
         let products: std::collections::HashSet<&str> =
             cleaned.series.iter().map(|s| s.product.as_ref()).collect();
@@ -714,6 +742,14 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         apply_forecast_config(&mut a, c, given)?;
     }
     if let Some(path) = &a.write_config {
+        let mut inputs = vec![
+            ("input", a.data.as_deref()),
+            ("--config", a.config.as_deref()),
+            ("--pin", a.eval.pin.as_deref()),
+            ("--changes", a.changes.as_deref()),
+        ];
+        inputs.extend(a.read.companion_files());
+        super::refuse_same_file(&[("--write-config", Some(path.as_path()))], &inputs)?;
         let dir = path
             .parent()
             .filter(|p| !p.as_os_str().is_empty())
@@ -750,6 +786,12 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "no output folder: give --out DIR, or set out in the [output] section of a --config file",
         )
     })?;
+    if a.no_report && !a.chart_files.is_empty() {
+        return Err(super::usage_error(
+            "forecast",
+            "--chart-files draws the report's charts, and --no-report skips the report: drop one (or run `provisio report DIR --chart-files PRODUCT` later)",
+        ));
+    }
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
     out.refuse_input_inside(&data)?;
     // Held from here: a second run into the same folder is refused at once.
@@ -770,7 +812,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         a.until,
         config.as_ref(),
         given,
-        !a.no_workbook,
+        (!a.no_workbook, &a.chart_files),
     )?;
     let applied = match &changes {
         Some(c) => Some(super::changes::apply(c, &results)?),
@@ -905,6 +947,18 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     let retired = output::retire_derived(&a_out)?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
+    if a.horizon < 12 {
+        super::note!(
+            "--horizon {0} is under a year: the 12-month totals (next 12 months, total_months_1_12) are left blank rather than summing {0} months; amc_next_12 averages the {0} months projected",
+            a.horizon
+        );
+    } else if a.horizon < 24 && a.horizon != 12 {
+        super::note!(
+            "--horizon {} is not whole years: total_months_13_24 is left blank rather than summing {} months",
+            a.horizon,
+            a.horizon - 12
+        );
+    }
     say!("default for smooth and erratic demand: {}", choice.reason);
     super::print_reporting_uplift(&cleaned, "report.html, and adjustments.csv");
     if let (Some(c), Some(ap)) = (&changes, &applied) {
@@ -1098,7 +1152,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         None,
         config.as_ref(),
         given,
-        false,
+        (false, &[]),
     )?;
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, false);

@@ -15,9 +15,12 @@ pub struct GenerateArgs {
     /// Number of sites per product.
     #[arg(long, default_value_t = 1)]
     sites: usize,
-    /// Number of months (from 2021-01).
+    /// Number of months, from --start.
     #[arg(long, default_value_t = 60)]
     months: usize,
+    /// First month of a synthetic set (YYYY-MM); its last month may not be after the current month, which provisio refuses to read as data.
+    #[arg(long, default_value = "2021-01", value_name = "YYYY-MM", value_parser = provisio::calendar::YearMonth::parse, conflicts_with = "demo")]
+    start: provisio::calendar::YearMonth,
     /// Random seed (same seed, same file).
     #[arg(long, default_value_t = 1)]
     seed: u64,
@@ -44,10 +47,29 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
     let mut sc = if a.demo {
         provisio::generate::demo_scenario()
     } else {
+        if a.products == 0 || a.sites == 0 {
+            anyhow::bail!(
+                "--products and --sites must be 1 or more, got {} and {}",
+                a.products,
+                a.sites
+            );
+        }
         if a.months == 0 || a.months > 1200 {
             anyhow::bail!("--months must be 1-1200, got {}", a.months);
         }
-        provisio::generate::synthetic_scenario(a.products, a.sites, a.months, a.seed)
+        let last = a.start.plus(a.months as i64 - 1);
+        if let Some(now) = super::current_month().filter(|now| last > *now) {
+            let fits = a.start.months_until(now) + 1;
+            anyhow::bail!(
+                "--months {} from {} runs to {last}, after the current month {now}, and provisio refuses future months as data: use --months {} or fewer, or an earlier --start",
+                a.months,
+                a.start,
+                fits.max(0)
+            );
+        }
+        let mut sc = provisio::generate::synthetic_scenario(a.products, a.sites, a.months, a.seed);
+        sc.start = a.start;
+        sc
     };
     sc.anomalies = provisio::generate::Anomalies {
         entry_errors: a.entry_errors,

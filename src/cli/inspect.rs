@@ -30,6 +30,18 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
     if let Some(c) = &config {
         c.apply_cleaning(given, &mut a.read, &mut a.clean)?;
     }
+    let mut inputs = vec![
+        ("input", Some(a.data.as_path())),
+        ("--config", a.config.as_deref()),
+    ];
+    inputs.extend(a.read.companion_files());
+    super::refuse_same_file(
+        &[
+            ("--csv", a.csv.as_deref()),
+            ("--rejected", a.rejected.as_deref()),
+        ],
+        &inputs,
+    )?;
     let (ds, cleaned) = load(&a.data, &a.read, &a.clean)?;
     let profiles = provisio::quality::profile_all(&cleaned);
     super::json_summary(|| {

@@ -299,6 +299,26 @@ enum Numbers {
     DecimalComma,
 }
 
+impl Numbers {
+    fn format(self) -> provisio::data::NumberFormat {
+        match self {
+            Numbers::Plain => provisio::data::NumberFormat::Plain,
+            Numbers::Grouped => provisio::data::NumberFormat::Grouped,
+            Numbers::DecimalComma => provisio::data::NumberFormat::DecimalComma,
+        }
+    }
+}
+
+impl Encoding {
+    fn encoding(self) -> provisio::data::Encoding {
+        match self {
+            Encoding::Utf8 => provisio::data::Encoding::Utf8,
+            Encoding::Latin1 => provisio::data::Encoding::Latin1,
+            Encoding::Windows1252 => provisio::data::Encoding::Windows1252,
+        }
+    }
+}
+
 #[derive(ValueEnum, Debug, Clone, Copy)]
 enum Encoding {
     /// UTF-8 (a byte-order mark is stripped).
@@ -389,16 +409,8 @@ impl ReadArgs {
                 Duplicates::Reject => provisio::data::DuplicatePolicy::Reject,
                 Duplicates::Sum => provisio::data::DuplicatePolicy::Sum,
             },
-            numbers: match self.numbers {
-                Numbers::Plain => provisio::data::NumberFormat::Plain,
-                Numbers::Grouped => provisio::data::NumberFormat::Grouped,
-                Numbers::DecimalComma => provisio::data::NumberFormat::DecimalComma,
-            },
-            encoding: match self.encoding {
-                Encoding::Utf8 => provisio::data::Encoding::Utf8,
-                Encoding::Latin1 => provisio::data::Encoding::Latin1,
-                Encoding::Windows1252 => provisio::data::Encoding::Windows1252,
-            },
+            numbers: self.numbers.format(),
+            encoding: self.encoding.encoding(),
             latest_month: current_month(),
             sheet: self.sheet.clone(),
             limits: sheet_limits(),
@@ -410,6 +422,14 @@ impl ReadArgs {
             stockout: companion(&self.stockout_file, &self.stockout_sheet),
             rate: companion(&self.rate_file, &self.rate_sheet),
         }
+    }
+
+    /// The companion files read with the data, by option name.
+    fn companion_files(&self) -> [(&'static str, Option<&std::path::Path>); 2] {
+        [
+            ("--stockout-file", self.stockout_file.as_deref()),
+            ("--rate-file", self.rate_file.as_deref()),
+        ]
     }
 }
 
@@ -908,6 +928,58 @@ fn truncate(s: &str, n: usize) -> String {
 fn pad(s: &str, n: usize) -> String {
     let len = s.chars().count();
     format!("{s}{}", " ".repeat(n.saturating_sub(len)))
+}
+
+/// A path as it will be opened: canonical when it exists, else its
+/// canonical folder joined with its name (an output not yet written).
+fn resolved_path(p: &std::path::Path) -> Option<std::path::PathBuf> {
+    if let Ok(c) = std::fs::canonicalize(p) {
+        return Some(c);
+    }
+    let parent = p
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(std::path::Path::new("."));
+    Some(std::fs::canonicalize(parent).ok()?.join(p.file_name()?))
+}
+
+/// Refuses single-file outputs that name a file the command reads, or
+/// each other: writing one would replace the data while it is being read,
+/// or one output would silently replace the other. Checked before any
+/// work, so nothing is written. `outputs` and `inputs` pair an option name
+/// with the path given to it.
+fn refuse_same_file(
+    outputs: &[(&str, Option<&std::path::Path>)],
+    inputs: &[(&str, Option<&std::path::Path>)],
+) -> anyhow::Result<()> {
+    let inputs: Vec<(&str, &std::path::Path, std::path::PathBuf)> = inputs
+        .iter()
+        .filter_map(|(n, p)| Some((*n, (*p)?, std::fs::canonicalize((*p)?).ok()?)))
+        .collect();
+    let mut seen: Vec<(&str, std::path::PathBuf)> = Vec::new();
+    for (name, path) in outputs {
+        let Some(path) = path else { continue };
+        let Some(target) = resolved_path(path) else {
+            continue;
+        };
+        if let Some((input, given, _)) = inputs.iter().find(|(_, _, c)| *c == target) {
+            anyhow::bail!(
+                "{name} {} is the same file as the {input} {}, which this command reads; \
+                 writing it would replace that file: give {name} a different file name",
+                path.display(),
+                given.display()
+            );
+        }
+        if let Some((other, _)) = seen.iter().find(|(_, c)| *c == target) {
+            anyhow::bail!(
+                "{name} {} is the same file as {other}; one would replace the other: \
+                 give each output its own file name",
+                path.display()
+            );
+        }
+        seen.push((name, target));
+    }
+    Ok(())
 }
 
 #[cfg(test)]

@@ -13,7 +13,7 @@ pub struct ReportArgs {
     #[arg(long)]
     workbook_only: bool,
     /// Also write chart image files (PNG and SVG under charts/) for this product, or `all`; repeat for several.
-    #[arg(long, value_name = "PRODUCT")]
+    #[arg(long, value_name = "PRODUCT", conflicts_with = "workbook_only")]
     chart_files: Vec<String>,
 }
 

@@ -43,6 +43,12 @@ pub struct ReviewArgs {
     /// Actuals in the wide layout: reporting rates on this sheet (of --rate-file, else of the actuals workbook).
     #[arg(long, value_name = "NAME")]
     rate_sheet: Option<String>,
+    /// How numbers are written in the actuals (default: as the past run read its data).
+    #[arg(long, value_enum)]
+    numbers: Option<super::Numbers>,
+    /// Text encoding of the actuals (default: the past run's).
+    #[arg(long, value_enum)]
+    encoding: Option<super::Encoding>,
 }
 
 pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
@@ -83,16 +89,33 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
                     super::companion(&a.stockout_file, &a.stockout_sheet),
                     super::companion(&a.rate_file, &a.rate_sheet),
                 ];
-                let (ds, cleaned) = review::clean_actuals_with(
-                    &source,
-                    &bytes,
-                    &p.manifest,
-                    a.sheet.as_deref(),
-                    tables,
-                )?;
+                let read = review::ActualsReading {
+                    sheet: a.sheet.as_deref(),
+                    numbers: a.numbers.map(super::Numbers::format),
+                    encoding: a.encoding.map(super::Encoding::encoding),
+                };
+                let (ds, cleaned) =
+                    review::clean_actuals_with(&source, &bytes, &p.manifest, &read, tables)?;
                 which.push(cleanings.len());
                 cleanings.push((i, ds, cleaned));
             }
+        }
+    }
+    // Nothing readable: the reason of the first refused row says why (a
+    // number format or encoding other than the past run's, most often).
+    for (_, ds, cleaned) in &cleanings {
+        if let (true, Some(r)) = (cleaned.series.is_empty(), ds.rejected.first()) {
+            return Err(provisio::error::Error::Input {
+                file: source.clone(),
+                line: r.line,
+                column: r.column.clone(),
+                message: format!(
+                    "no product of the actuals has a usable month ({} row(s) rejected); the first rejected: {}",
+                    ds.rejected.len(),
+                    r.reason
+                ),
+            }
+            .into());
         }
     }
     let mut warnings = Vec::new();

@@ -171,6 +171,15 @@ fn problem(column: &str, value: &str, reason: String) -> Problem {
     (column.to_string(), value.to_string(), reason)
 }
 
+/// Why a value is not read as a number: the cross-check files take plain
+/// numbers only (the reader's advice about `--numbers` is for the
+/// consumption data, an option `crosscheck` does not have).
+fn plain_number(v: &str) -> String {
+    format!(
+        "'{v}' is not a plain number; write it as 1234.5, with a point as decimal mark and no thousands separators"
+    )
+}
+
 /// A non-negative number (empty → `None`).
 fn quantity(
     sheet: &Sheet,
@@ -178,7 +187,7 @@ fn quantity(
     col: &str,
 ) -> std::result::Result<Option<f64>, Problem> {
     let v = sheet.get(rec, col);
-    let n = parse_number(v, NumberFormat::Plain).map_err(|m| problem(col, v, m))?;
+    let n = parse_number(v, NumberFormat::Plain).map_err(|_| problem(col, v, plain_number(v)))?;
     match n {
         Some(x) if x < 0.0 => Err(problem(
             col,
@@ -536,7 +545,7 @@ pub fn read_cyp(path: &Path) -> Result<Vec<CypFactor>> {
         }
         let num = |col: &str| -> Result<Option<f64>> {
             let v = sheet.get(rec, col);
-            let n = parse_number(v, NumberFormat::Plain).map_err(|m| err(col, m))?;
+            let n = parse_number(v, NumberFormat::Plain).map_err(|_| err(col, plain_number(v)))?;
             match n {
                 Some(x) if x <= 0.0 => Err(err(col, format!("{v} must be above 0"))),
                 o => Ok(o),

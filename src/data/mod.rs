@@ -72,6 +72,14 @@ pub struct MergedRow {
     pub into_line: u64,
     /// Month of both (in the wide layout a line holds many months).
     pub month: YearMonth,
+    /// Product of both rows.
+    pub product: Arc<str>,
+    /// Site of both rows.
+    pub site: Option<Arc<str>>,
+    /// Quantity of the receiving row before this row was added to it.
+    pub before: Option<f64>,
+    /// Quantity of the receiving row after this row was added to it.
+    pub after: Option<f64>,
 }
 
 /// What was read from one input file.

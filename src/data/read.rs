@@ -374,7 +374,7 @@ fn read_from(source: &str, path: &Path, open: &Open<'_>, options: &ReadOptions) 
             );
             continue;
         }
-        match problem {
+        match problem.or_else(|| short_row_problem(&fields, &columns)) {
             Some(reason) => {
                 rows.reject(line, None, String::new(), reason, fields.joined(delimiter))
             }
@@ -1147,6 +1147,28 @@ fn csv_row_problem(line: u64, rec: &Fields<'_>, cols: &Columns) -> Option<String
     None
 }
 
+/// Too few fields: a required column with no field at all is a row cut
+/// short (a missing delimiter), not a blank value; missing optional
+/// columns at the end are read as blank, as some programs drop them.
+fn short_row_problem(rec: &Fields<'_>, cols: &Columns) -> Option<String> {
+    if rec.iter().all(|f| f.trim().is_empty()) {
+        return None;
+    }
+    let required = [
+        ("product", cols.product),
+        ("month", cols.month),
+        ("consumed", cols.consumed),
+    ];
+    if let Some((name, _)) = required.iter().find(|(_, i)| *i >= rec.len()) {
+        return Some(format!(
+            "the row has {} field(s) but the header has {}: there is no field for '{name}' (a blank value still needs its delimiter, as in A,2024-02,); add the missing value or delimiter",
+            rec.len(),
+            cols.width
+        ));
+    }
+    None
+}
+
 /// Why a cell that should hold text or a number cannot be used, or `None`.
 fn cell_refusal(cell: Cell<'_>, what: &str) -> Option<String> {
     match cell {
@@ -1271,6 +1293,13 @@ fn parse_row(
             "product",
             "",
             format!("product is empty; every row needs a product code or name{merged_hint}"),
+        ));
+    }
+    if super::wide::TOTAL_NAMES.contains(&product.to_lowercase().as_str()) {
+        return Err(problem(
+            "product",
+            &product,
+            format!("the row's product is '{product}', a totals row, not a product: provisio adds the products up itself; delete the row (or rename it, if it is a product)"),
         ));
     }
     let month_cell = rec.cell(cols.month);
@@ -1524,7 +1553,9 @@ fn resolve_duplicates(
                         && first.reporting_rate == row.reporting_rate;
                     if agree {
                         let (line, month, consumed) = (row.line, row.month, row.consumed);
+                        let (product, site) = (row.product.clone(), row.site.clone());
                         let f = &mut rows[idx];
+                        let before = f.consumed;
                         f.consumed = match (f.consumed, consumed) {
                             (None, None) => None,
                             (a, b) => Some(a.unwrap_or(0.0) + b.unwrap_or(0.0)),
@@ -1535,6 +1566,10 @@ fn resolve_duplicates(
                                 line,
                                 into_line: first_line,
                                 month,
+                                product,
+                                site,
+                                before,
+                                after: f.consumed,
                             },
                         ));
                     } else {

@@ -31,7 +31,7 @@ pub(crate) const MONTH_HEADERS: &str =
     "2024-03, 2024-03-01, Mar 2024, March 2024, Mar-24, 03/2024, 2024/03, 202403, or a date cell";
 
 /// Product names that mark a totals row of a pivot table, not a product.
-const TOTAL_NAMES: [&str; 5] = ["total", "totals", "grand total", "sum", "all products"];
+pub(crate) const TOTAL_NAMES: [&str; 5] = ["total", "totals", "grand total", "sum", "all products"];
 
 /// One month column of a wide header.
 #[derive(Debug, Clone, PartialEq)]

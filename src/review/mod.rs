@@ -114,7 +114,23 @@ pub fn clean_actuals(
     manifest: &PastManifest,
     sheet: Option<&str>,
 ) -> Result<(Dataset, Cleaned)> {
-    clean_actuals_with(source, bytes, manifest, sheet, [None, None])
+    let read = ActualsReading {
+        sheet,
+        ..ActualsReading::default()
+    };
+    clean_actuals_with(source, bytes, manifest, &read, [None, None])
+}
+
+/// How to read the actuals where they differ from the past run's data:
+/// each `None` keeps what the past run used.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ActualsReading<'a> {
+    /// Sheet of a workbook.
+    pub sheet: Option<&'a str>,
+    /// Number format.
+    pub numbers: Option<crate::data::NumberFormat>,
+    /// Text encoding of a CSV.
+    pub encoding: Option<crate::data::Encoding>,
 }
 
 /// [`clean_actuals`] for actuals in the wide layout with their tables of
@@ -124,15 +140,16 @@ pub fn clean_actuals_with(
     source: &str,
     bytes: &[u8],
     manifest: &PastManifest,
-    sheet: Option<&str>,
+    read: &ActualsReading<'_>,
     [stockout, rate]: [Option<crate::data::Companion>; 2],
 ) -> Result<(Dataset, Cleaned)> {
     let workbook = crate::data::is_workbook(std::path::Path::new(source));
     let options = ReadOptions {
         duplicates: manifest.duplicate_policy(),
-        numbers: manifest.number_format(),
-        encoding: manifest.text_encoding(),
-        sheet: sheet
+        numbers: read.numbers.unwrap_or_else(|| manifest.number_format()),
+        encoding: read.encoding.unwrap_or_else(|| manifest.text_encoding()),
+        sheet: read
+            .sheet
             .map(str::to_string)
             .or_else(|| manifest.sheet.clone().filter(|_| workbook)),
         stockout,
@@ -667,7 +684,19 @@ pub fn review_all(
             {
                 String::new()
             } else {
-                " and none of its products is in the actuals".to_string()
+                let few = |names: &mut dyn Iterator<Item = &str>| {
+                    let v: Vec<String> = names.take(3).map(|n| format!("'{n}'")).collect();
+                    if v.is_empty() {
+                        "none".to_string()
+                    } else {
+                        v.join(", ")
+                    }
+                };
+                format!(
+                    " and none of its products is in the actuals (the forecast's: {}; the actuals': {}; names must match exactly)",
+                    few(&mut past.products.iter().map(|p| p.product.as_str())),
+                    few(&mut act.cleaned.series.iter().map(|s| s.product.as_str()))
+                )
             };
             return Err(Error::Input {
                 file: act.source.to_string(),
