@@ -374,3 +374,31 @@ fn a_decimal_comma_in_services_is_refused_without_advising_an_option_crosscheck_
     assert!(out.contains("'900,5' is not a plain number"), "{out}");
     assert!(!out.contains("--numbers"), "{out}");
 }
+
+#[test]
+fn a_start_before_the_forecast_names_the_first_month_that_works() {
+    // Common practice: a message says what would work. The forecast runs
+    // 2027-01 to 2027-12; a period from 2026-06 lies partly before it.
+    let w = Workdir::new();
+    fake_forecast(&w, &[("Test kit", 1_000.0)]);
+    let mut s = String::from("product,month,services,units_per_service\n");
+    for k in 0..12 {
+        s.push_str(&format!("Test kit,2026-{:02},900,1\n", k + 1));
+    }
+    w.write("services.csv", &s);
+    let o = w.run(&[
+        "crosscheck",
+        "fc",
+        "--services",
+        "services.csv",
+        "--start",
+        "2026-06",
+        "--no-report",
+    ]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(
+        out.contains("the period starts before the forecast's first month 2027-01: choose --start 2027-01 or later"),
+        "{out}"
+    );
+}

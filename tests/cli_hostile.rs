@@ -1500,3 +1500,89 @@ fn a_constant_series_is_not_called_too_short() {
     );
     assert!(!reason.contains("too short"), "{reason}");
 }
+
+/// Names that differ only in case or spacing are warned about, not merged
+/// (common practice: one product typed two ways).
+#[test]
+fn product_names_differing_only_in_case_are_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("ORS sachet", |t| 100.0 + t as f64));
+    input.push_str(&months_of("ors  SACHET", |t| 50.0 + t as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "in.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("products 'ORS sachet' and 'ors  SACHET' differ only in letter case or spacing"),
+        "{t}"
+    );
+    // A configuration key spelled with other spacing is named with the
+    // data's spelling.
+    std::fs::write(
+        dir.path().join("run.toml"),
+        "[products.\" ORS Sachet \"]\nmodel = \"theta\"\n",
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--config",
+            "run.toml",
+            "--out",
+            "f",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("names a product that is not in the data (the data has 'ORS sachet': names must match exactly)"),
+        "{t}"
+    );
+}
+
+/// Small mistakes get a message that says what would work: an --until
+/// after the data, a holdout longer than any product allows, an empty
+/// workbook (common practice).
+#[test]
+fn small_mistakes_say_what_would_work() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + (t % 7) as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "f",
+            "--until",
+            "2030-01",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("--until 2030-01 is after the data's last month 2024-12"),
+        "{t}"
+    );
+    let manifest = std::fs::read_to_string(dir.path().join("f/manifest.json")).unwrap();
+    assert!(manifest.contains("--until 2030-01 is after"), "{manifest}");
+    let o = run_in(dir.path(), &["evaluate", "in.csv", "--holdout", "20"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("the longest has 36 months: use --holdout 12 or less"),
+        "{t}"
+    );
+    std::fs::write(dir.path().join("empty.xlsx"), b"").unwrap();
+    let o = run_in(dir.path(), &["inspect", "empty.xlsx"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(t.contains("empty.xlsx: the file is empty (0 bytes)"), "{t}");
+}

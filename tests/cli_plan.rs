@@ -728,3 +728,34 @@ fn the_plan_reaches_the_planners_workbook_with_annual_totals() {
     let packs: f64 = y2026[col("packs")].parse().unwrap();
     assert!((packs - (sum2026 / 10.0 * 10.0).round() / 10.0).abs() < 1e-9);
 }
+
+#[test]
+fn a_shipment_entered_twice_is_counted_and_warned_about() {
+    // Two rows alike in every field may be two shipments or one typed
+    // twice: both count (arithmetic: 2 × 1,500), and the warning names both
+    // lines (common practice: the planner checks the order records).
+    let w = Workdir::new();
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 12, 100.0));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,20000,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    w.write(
+        "on_order.csv",
+        "product,quantity,arrival_month\nPill,1500,2027-02\nPill,1500,2027-02\n",
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "on_order.csv",
+        "--no-report",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("line 3 repeats line 2"), "{t}");
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert_eq!(num(&plan[1], "arrivals_on_order"), 3000.0);
+}

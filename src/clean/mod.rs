@@ -263,6 +263,35 @@ pub fn clean_taking_rows(data: &mut Dataset, settings: &CheckedCleanSettings) ->
     clean_inputs(inputs, accepted, data, settings)
 }
 
+/// Products whose names differ only in letter case or spacing ("ORS" and
+/// "ors "): usually one product typed two ways, which would be forecast as
+/// two (common practice: check codes against the product list). Named,
+/// not merged: provisio does not guess which spelling is right.
+fn names_differing_in_case(inputs: &[ProductData]) -> Vec<String> {
+    let mut by_key: BTreeMap<String, Vec<&str>> = BTreeMap::new();
+    for p in inputs {
+        let key = p
+            .product
+            .split_whitespace()
+            .collect::<Vec<_>>()
+            .join(" ")
+            .to_lowercase();
+        by_key.entry(key).or_default().push(&p.product);
+    }
+    by_key
+        .values()
+        .filter(|names| names.len() > 1)
+        .map(|names| {
+            let shown: Vec<String> = names.iter().map(|n| format!("'{n}'")).collect();
+            format!(
+                "products {} differ only in letter case or spacing: they are forecast as {} separate products; if they are one, write its name one way throughout",
+                shown.join(" and "),
+                names.len()
+            )
+        })
+        .collect()
+}
+
 /// Cleans the per-product series built from `data`'s `accepted` rows.
 fn clean_inputs(
     inputs: Vec<ProductData>,
@@ -283,7 +312,7 @@ fn clean_inputs(
         .collect();
     let mut series = Vec::new();
     let mut log = AdjustmentLog::default();
-    let mut warnings = Vec::new();
+    let mut warnings = names_differing_in_case(&inputs);
     let mut unusable = Vec::new();
     // Every merged row was changed (folded into another); of the accepted
     // rows, those with a value-changing entry or a row merged into them.

@@ -175,8 +175,20 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     }
     print_accounting(&ds, &cleaned, 5);
     if results.is_empty() {
+        let longest = cleaned
+            .series
+            .iter()
+            .map(|s| s.values.len())
+            .max()
+            .unwrap_or(0);
+        let fits = longest.saturating_sub(24);
+        let hint = if fits >= 1 {
+            format!("; the longest has {longest} months: use --holdout {fits} or less")
+        } else {
+            format!("; the longest has {longest} months, too few to hide any")
+        };
         anyhow::bail!(
-            "no product is longer than {} months (holdout + 24), so none can be evaluated",
+            "no product is longer than {} months (holdout + 24), so none can be evaluated{hint}",
             a.holdout + 24
         );
     }

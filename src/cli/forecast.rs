@@ -533,17 +533,36 @@ fn run_eval(
         provisio::output::check_workbook_fits(products.len()).map_err(anyhow::Error::msg)?;
     }
     let known = |p: &str| cleaned.series.iter().any(|s| s.product == p);
+    // A name that matches a product of the data but for case or spacing.
+    let loose = |p: &str| {
+        p.split_whitespace()
+            .collect::<Vec<_>>()
+            .join(" ")
+            .to_lowercase()
+    };
+    let near = |p: &str| {
+        cleaned
+            .series
+            .iter()
+            .find(|s| loose(&s.product) == loose(p))
+            .map(|s| format!(" (the data has '{}': names must match exactly)", s.product))
+            .unwrap_or_default()
+    };
     for p in &pinned {
         if !known(p) {
-            warn(&format!("pinned product '{p}' is not in the data"));
+            warn(&format!(
+                "pinned product '{p}' is not in the data{}",
+                near(p)
+            ));
         }
     }
     if let Some(c) = cfg {
         for p in c.cfg.products.keys().filter(|p| !known(p)) {
             warn(&format!(
-                "{}: [products.{}] names a product that is not in the data; its settings are not used",
+                "{}: [products.{}] names a product that is not in the data{}; its settings are not used",
                 c.path.display(),
-                toml_quote(p)
+                toml_quote(p),
+                near(p)
             ));
         }
     }

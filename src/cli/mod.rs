@@ -755,6 +755,12 @@ fn load_until(
     let settings = clean.settings().check()?;
     let mut ds = provisio::data::read_path(data, &read.options())?;
     if let Some(last) = until {
+        let latest = ds.rows.iter().map(|r| r.month).max();
+        if let Some(end) = latest.filter(|end| *end < last) {
+            ds.warnings.push(format!(
+                "--until {last} is after the data's last month {end}: every row is used, as without it; the forecast starts after {end}"
+            ));
+        }
         ds.keep_until(last);
         if ds.rows.is_empty() {
             anyhow::bail!(

@@ -364,8 +364,19 @@ pub fn build(
                     .filter(|m| m.month >= period_start && m.month <= period_end)
                     .collect();
                 if inside.len() < PERIOD_MONTHS {
+                    let first = months.iter().map(|m| m.month).min();
+                    let last = months.iter().map(|m| m.month).max();
+                    let fix = match (first, last) {
+                        (Some(f), _) if period_start < f => format!(
+                            "the period starts before the forecast's first month {f}: choose --start {f} or later"
+                        ),
+                        (_, Some(l)) => format!(
+                            "the forecast ends at {l}: forecast with a longer --horizon, or choose an earlier --start"
+                        ),
+                        _ => "the product has no forecast month".to_string(),
+                    };
                     warnings.push(format!(
-                        "product '{product}': the consumption forecast covers {} of the 12 months {period_start} to {period_end}; no comparison (forecast with a longer --horizon, or choose another --start)",
+                        "product '{product}': the consumption forecast covers {} of the 12 months {period_start} to {period_end}; no comparison ({fix})",
                         inside.len()
                     ));
                     None

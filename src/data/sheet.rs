@@ -345,7 +345,9 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             None,
             0,
             None,
-            if workbook_bytes {
+            if bytes.is_empty() {
+                "the file is empty (0 bytes): it was probably not saved completely or not copied; save the workbook again, or copy it again from where it came".to_string()
+            } else if workbook_bytes {
                 format!(
                     "the workbook is damaged or cut short ({e}); open it in a spreadsheet program and save it again, or copy it again from where it came"
                 )

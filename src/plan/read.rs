@@ -520,6 +520,20 @@ pub fn read_on_order(
             },
         });
     }
+    // Two shipments alike in every field may be real, or one entered
+    // twice: both count, and the planner is told.
+    for (i, r) in out.iter().enumerate() {
+        let same = out[..i].iter().find(|e| {
+            (&e.product, &e.site, e.arrival.month) == (&r.product, &r.site, r.arrival.month)
+                && e.arrival.quantity == r.arrival.quantity
+        });
+        if let Some(e) = same {
+            sheet.warnings.push(format!(
+                "{file}: line {} repeats line {} (product '{}', arrival {}, quantity {}): both shipments are counted; if it was entered twice, delete one",
+                r.line, e.line, r.product, r.arrival.month, r.arrival.quantity
+            ));
+        }
+    }
     Ok((out, sheet.warnings))
 }
 
