@@ -1586,3 +1586,42 @@ fn small_mistakes_say_what_would_work() {
     assert_eq!(o.status.code(), Some(1), "{t}");
     assert!(t.contains("empty.xlsx: the file is empty (0 bytes)"), "{t}");
 }
+
+/// A forecast.csv cut short by hand after the run is said in the report,
+/// not drawn as the whole projection (common practice: outputs edited
+/// outside the tool are flagged when read back).
+#[test]
+fn the_report_says_when_forecast_csv_was_cut_short() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,month,consumed\n");
+    input.push_str(&months_of("A", |t| 100.0 + t as f64 + (t % 3) as f64));
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "in.csv",
+            "--out",
+            "f",
+            "--no-report",
+            "--origins",
+            "3",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let path = dir.path().join("f/forecast.csv");
+    let full = std::fs::read_to_string(&path).unwrap();
+    let cut: Vec<&str> = full.lines().take(11).collect();
+    std::fs::write(&path, cut.join("\n") + "\n").unwrap();
+    let o = run_in(dir.path(), &["report", "f"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(dir.path().join("f/report.html")).unwrap();
+    assert!(
+        html.contains(
+            "forecast.csv holds 10 projected month(s), fewer than the run&#39;s horizon of 24"
+        ) || html.contains(
+            "forecast.csv holds 10 projected month(s), fewer than the run's horizon of 24"
+        ),
+        "no warning in the report"
+    );
+}

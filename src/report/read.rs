@@ -644,6 +644,23 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             None => warnings.push(w),
         }
     }
+    // forecast.csv edited or cut short by hand: a product with fewer
+    // projected months than the run's horizon is said, not drawn as whole.
+    let horizon = manifest
+        .pointer("/forecast_settings/horizon")
+        .and_then(|h| h.as_u64());
+    if let Some(h) = horizon {
+        for p in products.iter_mut() {
+            let n = p.projection.iter().filter(|m| !m.bridged).count() as u64;
+            // A product with no rows and no AMC ahead had no projection.
+            if n < h && (n > 0 || p.selection.amc_next_12.is_some()) {
+                p.warnings.push(format!(
+                    "product '{}': forecast.csv holds {n} projected month(s), fewer than the run's horizon of {h}: the file was edited or cut short after the run; run the forecast again for the whole projection",
+                    p.product
+                ));
+            }
+        }
+    }
 
     let files = LINKED_FILES
         .iter()
