@@ -350,8 +350,29 @@ pub fn run(
     settings: &CheckedBacktestSettings,
 ) -> Backtest {
     let s = settings.get();
-    let os = origins(y.len(), s.origins, s.horizon, 2);
+    let os = origins(y.len(), usable_origins(y.len(), s), s.horizon, 2);
     run_at(y, scorable, models, os, s.horizon)
+}
+
+/// Origins up to the default count ([`BacktestSettings::default`]) may
+/// train on as little as the series allows; origins beyond it are used
+/// only where they leave at least this many training months. Without the
+/// floor, `--origins 60` on 60 months of history would start the backtest
+/// on two months, where the seasonal and ARIMA candidates and the
+/// intermittent-demand default cannot fit, and the product would be chosen
+/// among the few crude methods that can.
+pub const EXTRA_ORIGIN_MIN_TRAIN: usize = 24;
+
+/// The number of origins a series of `n` months gets under `s`: the
+/// requested count, cut (beyond the default count) to those that leave
+/// [`EXTRA_ORIGIN_MIN_TRAIN`] training months and `s.horizon` months after.
+pub fn usable_origins(n: usize, s: &BacktestSettings) -> usize {
+    let default = BacktestSettings::default().origins;
+    if s.origins <= default {
+        return s.origins;
+    }
+    let roomy = (n + 1).saturating_sub(s.horizon + EXTRA_ORIGIN_MIN_TRAIN);
+    s.origins.min(roomy.max(default))
 }
 
 /// [`run`] at the given origins (positions of the last training month,

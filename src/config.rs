@@ -140,7 +140,7 @@ pub const PRODUCT_KEYS: &[KeyDoc] = &[
     key("products.\"NAME\"", "min_months", "integer", "not set", "1 to 1200", "with fewer months of cleaned history the product is not backtested: it gets the simplest applicable model, and the reason says why", "24"),
     key("products.\"NAME\"", "max_stockout_days", "number", "the [cleaning] value", "0 to 31", "stockout threshold of this product: a month with more stockout days is treated as missing", "10.0"),
     key("products.\"NAME\"", "units", "text", "not set", "any text", "base unit the quantities are counted in; written to forecast.csv", "\"sachet\""),
-    key("products.\"NAME\"", "pack_size", "number", "not set", "above 0", "base units per pack; forecast.csv then also gives the forecast in packs", "100"),
+    key("products.\"NAME\"", "pack_size", "number", "not set", "0.01 to 1,000,000,000", "base units per pack; forecast.csv then also gives the forecast in packs", "100"),
 ];
 
 /// `[input]`: the input file and how to read it.
@@ -528,6 +528,17 @@ impl RunConfig {
             }
             other => other,
         };
+        // A product's own stockout threshold first, located at its table.
+        for (name, p) in &self.products {
+            if let Some(d) = p.max_stockout_days.filter(|d| !(0.0..=31.0).contains(d)) {
+                return Err(at(
+                    "products",
+                    Some(name),
+                    "max_stockout_days",
+                    format!("must be between 0 and 31 days, got {d}"),
+                ));
+            }
+        }
         self.clean_settings(CleanSettings::default())
             .check()
             .map_err(|e| setting_at("cleaning", e))?;
@@ -583,19 +594,12 @@ impl RunConfig {
                     ));
                 }
             }
-            if let Some(d) = p.max_stockout_days {
-                if !(0.0..=31.0).contains(&d) {
-                    return Err(at(
-                        "max_stockout_days",
-                        format!("must be between 0 and 31, got {d}"),
-                    ));
-                }
-            }
             if let Some(s) = p.pack_size {
-                if !(s.is_finite() && s > 0.0) {
+                use crate::plan::read::{MAX_PACK_SIZE, MIN_PACK_SIZE};
+                if !(MIN_PACK_SIZE..=MAX_PACK_SIZE).contains(&s) {
                     return Err(at(
                         "pack_size",
-                        format!("must be a number above 0, got {s}"),
+                        format!("must be the base units in one pack, from 0.01 to 1,000,000,000 (1 when counted by the unit), got {s}"),
                     ));
                 }
             }
@@ -817,7 +821,7 @@ mod tests {
 
     #[test]
     fn bad_syntax_types_and_ranges_are_located() {
-        let cases: [(&str, &str); 10] = [
+        let cases: [(&str, &str); 12] = [
             ("[projection]\nhorizon = \n", "line 2"),
             ("[projection]\nhorizon = \"12\"\n", "line 2, column 11"),
             (
@@ -844,7 +848,17 @@ mod tests {
             ),
             (
                 "[products.\"A\"]\npack_size = 0\n",
-                "line 2, column 13: pack_size: must be a number above 0",
+                "line 2, column 13: pack_size: must be the base units in one pack, from 0.01",
+            ),
+            // The stock file's range (src/plan/read.rs): a pack of 0.00004
+            // units would make forecast.csv's pack size print as 0.
+            (
+                "[products.\"A\"]\npack_size = 0.00004\n",
+                "line 2, column 13: pack_size: must be the base units in one pack, from 0.01",
+            ),
+            (
+                "[products.\"A\"]\nmax_stockout_days = 40\n",
+                "line 2, column 21: max_stockout_days: must be between 0 and 31 days, got 40",
             ),
         ];
         for (text, want) in cases {

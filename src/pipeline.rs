@@ -978,7 +978,7 @@ fn finish_product(
             if selection.pinned {
                 " (the pinned model)"
             } else {
-                " (no candidate projects above zero)"
+                " (no backtested candidate projects above zero)"
             }
         ));
     }
@@ -1246,17 +1246,19 @@ fn avoid_zero_projection(
     if !zero || !in_use(y) {
         return projection;
     }
-    let mut ranked: Vec<(f64, &str)> = scores
+    // Candidates that completed the backtest first, then those that
+    // forecast at only some origins (a short history), each by score.
+    let mut ranked: Vec<(bool, f64, &str)> = scores
         .iter()
-        .filter(|r| r.status == RunStatus::Complete && r.model != selection.chosen)
+        .filter(|r| !matches!(r.status, RunStatus::NotApplicable(_)) && r.model != selection.chosen)
         .filter_map(|r| {
             r.overall
                 .and_then(|o| o.get(selection.score))
-                .map(|v| (v, r.model.as_str()))
+                .map(|v| (r.status != RunStatus::Complete, v, r.model.as_str()))
         })
         .collect();
-    ranked.sort_by(|a, b| a.0.total_cmp(&b.0));
-    for (v, name) in ranked {
+    ranked.sort_by(|a, b| a.0.cmp(&b.0).then(a.1.total_cmp(&b.1)));
+    for (_, v, name) in ranked {
         if let Ok(p) = project_with(name) {
             if !all_zero(&p) {
                 selection.reason = format!(

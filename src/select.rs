@@ -349,6 +349,13 @@ pub fn select(
             );
             sel.chosen = p.to_string();
             sel.chosen_scores = pinned_scores;
+            // The runner-up is the best model other than the one used, and
+            // its margin is against the pinned model's score.
+            sel.runner_up = ranked.iter().find(|r| r.0 != p).map(|r| (r.0.clone(), r.1));
+            sel.margin_pct = match (&sel.runner_up, pv) {
+                (Some((_, v)), Some(pv)) if pv > 0.0 => Some(100.0 * (v - pv) / pv),
+                _ => None,
+            };
         }
         sel.pinned = true;
     }
@@ -568,6 +575,14 @@ mod tests {
             "{}",
             s.reason
         );
+        // The runner-up is never the model used: here the backtest's own
+        // choice, theta (MAPE 5%), against the pinned naive (20%): -75%.
+        assert_eq!(s.runner_up.as_ref().unwrap().0, "theta");
+        assert!((s.margin_pct.unwrap() + 75.0).abs() < 1e-9);
+        // Pinned to the third of three: the runner-up is the best.
+        let bt = bt_with(&[("naive", 80.0), ("theta", 95.0), ("ets-auto", 110.0)]);
+        let s = select(&bt, &mape(), None, Some("naive"), "naive", false);
+        assert_eq!(s.runner_up.as_ref().unwrap().0, "theta");
     }
 
     #[test]

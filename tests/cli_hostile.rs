@@ -1577,9 +1577,14 @@ fn small_mistakes_say_what_would_work() {
     let t = text(&o);
     assert_eq!(o.status.code(), Some(1), "{t}");
     assert!(
-        t.contains("the longest has 36 months: use --holdout 12 or less"),
+        t.contains("the longest has 36 months: use --holdout 11 or less"),
         "{t}"
     );
+    // The advice works: a product needs more than holdout + 24 months.
+    let o = run_in(dir.path(), &["evaluate", "in.csv", "--holdout", "11"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = run_in(dir.path(), &["evaluate", "in.csv", "--holdout", "12"]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
     std::fs::write(dir.path().join("empty.xlsx"), b"").unwrap();
     let o = run_in(dir.path(), &["inspect", "empty.xlsx"]);
     let t = text(&o);

@@ -265,3 +265,24 @@ fn one_pass_scores_equal_the_metric_functions() {
     // With one scale for every point, RMSSE is the metrics function's value.
     assert!((sc.rmsse.unwrap() - metrics::rmsse(&a, &f, 4.0).unwrap()).abs() < 1e-12);
 }
+
+#[test]
+fn origins_beyond_the_default_count_need_two_years_of_history() {
+    let s = |origins, horizon| BacktestSettings {
+        origins,
+        horizon,
+        exclude_imputed: true,
+    };
+    // Up to the default 12, the count asked for (a short series gets what
+    // fits, as before).
+    assert_eq!(usable_origins(20, &s(12, 12)), 12);
+    assert_eq!(usable_origins(20, &s(6, 12)), 6);
+    // 60 months, 12 after each origin, 24 before: positions 23..=47, 25.
+    assert_eq!(usable_origins(60, &s(60, 12)), 25);
+    let os = origins(60, usable_origins(60, &s(60, 12)), 12, 2);
+    assert_eq!((os[0], *os.last().unwrap(), os.len()), (23, 47, 25));
+    // Never fewer than the default count, never more than asked for.
+    assert_eq!(usable_origins(40, &s(30, 12)), 12);
+    assert_eq!(usable_origins(120, &s(30, 12)), 30);
+    assert_eq!(usable_origins(60, &s(60, 36)), 12);
+}

@@ -181,7 +181,7 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             .map(|s| s.values.len())
             .max()
             .unwrap_or(0);
-        let fits = longest.saturating_sub(24);
+        let fits = longest.saturating_sub(25);
         let hint = if fits >= 1 {
             format!("; the longest has {longest} months: use --holdout {fits} or less")
         } else {

@@ -582,7 +582,52 @@ fn run_eval(
     let progress = || bar.inc(1);
     let (results, choice) = forecast_run(&cleaned.series, &checked, &options, &progress);
     bar.finish_and_clear();
+    let mut ds = ds;
+    if let Some(w) = origins_cut(&results, &fs.backtest) {
+        // Printed with the data's other warnings, and kept in the manifest.
+        ds.warnings.push(w);
+    }
     Ok((ds, cleaned, results, fs, t0.elapsed().as_secs_f64(), choice))
+}
+
+/// A warning when products ran the backtest at fewer origins than asked
+/// for, because their history has no room for more
+/// ([`provisio::backtest::usable_origins`]); `None` when every product got
+/// them all.
+fn origins_cut(
+    results: &[ProductForecast],
+    b: &provisio::backtest::BacktestSettings,
+) -> Option<String> {
+    if b.origins <= provisio::backtest::BacktestSettings::default().origins {
+        // The default count: a short history's fewer origins are explained
+        // in its selection reason.
+        return None;
+    }
+    let mut by_count: std::collections::BTreeMap<usize, usize> = Default::default();
+    for r in results
+        .iter()
+        .filter(|r| r.backtest.origins.len() < b.origins)
+    {
+        *by_count.entry(r.backtest.origins.len()).or_default() += 1;
+    }
+    if by_count.is_empty() {
+        return None;
+    }
+    let counts: Vec<String> = by_count
+        .iter()
+        .rev()
+        .map(|(k, n)| format!("{n} product(s) ran at {k}"))
+        .collect();
+    Some(format!(
+        "the backtest asked for {} origins, but {} of {} products have no room for them: {} (an origin needs {} months after it, and origins beyond the default {} need {} months of history before them); ask for fewer origins, or a shorter --backtest-horizon",
+        b.origins,
+        by_count.values().sum::<usize>(),
+        results.len(),
+        counts.join(", "),
+        b.horizon,
+        provisio::backtest::BacktestSettings::default().origins,
+        provisio::backtest::EXTRA_ORIGIN_MIN_TRAIN,
+    ))
 }
 
 /// A product name as a TOML key.
@@ -733,12 +778,25 @@ fn apply_forecast_config(
 }
 
 /// The effective configuration of a `forecast` run, paths relative to `dir`
-/// (the folder of the file it will be written to).
-fn effective_config(a: &ForecastArgs, c: Option<&LoadedConfig>, dir: &Path) -> RunConfig {
+/// (the folder of the file it will be written to). `cli_pins`: the pin
+/// file's models when it was given on the command line, where it wins over
+/// a product's `model` (in a file, `[selection] pin` does not), so the
+/// written file names them in the products' own tables.
+fn effective_config(
+    a: &ForecastArgs,
+    c: Option<&LoadedConfig>,
+    dir: &Path,
+    cli_pins: Option<&HashMap<String, String>>,
+) -> RunConfig {
     let mut cfg = RunConfig {
         products: c.map(|c| c.cfg.products.clone()).unwrap_or_default(),
         ..RunConfig::default()
     };
+    for (name, p) in cfg.products.iter_mut().filter(|(_, p)| p.model.is_some()) {
+        if let Some(m) = cli_pins.and_then(|pins| pins.get(name)) {
+            p.model = Some(m.clone());
+        }
+    }
     cfg.input.data = a.data.as_ref().map(|p| path_for_config(p, dir));
     cfg.input.until = a.until.map(|m| m.to_string());
     a.read.to_config(&mut cfg.input, dir);
@@ -773,7 +831,11 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             .parent()
             .filter(|p| !p.as_os_str().is_empty())
             .unwrap_or(Path::new("."));
-        let cfg = effective_config(&a, config.as_ref(), dir);
+        let cli_pins = match (&a.eval.pin, given.cli("pin")) {
+            (Some(p), true) => Some(read_pins(p)?),
+            _ => None,
+        };
+        let cfg = effective_config(&a, config.as_ref(), dir, cli_pins.as_ref());
         // Refuse what the run would refuse, before writing it down.
         cfg.clean_settings(a.clean.settings()).check()?;
         with_silence(&a.eval, a.horizon, a.silence_limit).check()?;

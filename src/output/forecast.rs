@@ -153,7 +153,7 @@ pub fn write_forecast_wide(path: &Path, results: &[ProductForecast]) -> Result<(
 
 fn score_cells(s: Option<&Scores>) -> Vec<String> {
     match s {
-        None => vec![String::new(); 9],
+        None => vec![String::new(); 10],
         Some(s) => vec![
             s.n.to_string(),
             fmt_opt(s.mape),
@@ -162,13 +162,14 @@ fn score_cells(s: Option<&Scores>) -> Vec<String> {
             fmt_opt(s.wape),
             fmt_opt(s.mase),
             fmt_opt(s.rmse),
+            fmt_opt(s.rmsse),
             fmt_opt(s.coverage80),
             fmt_opt(s.coverage95),
         ],
     }
 }
 
-const SCORE_HEADER: [&str; 9] = [
+const SCORE_HEADER: [&str; 10] = [
     "points",
     "mape_pct",
     "zero_actuals",
@@ -176,6 +177,7 @@ const SCORE_HEADER: [&str; 9] = [
     "wape_pct",
     "mase",
     "rmse",
+    "rmsse",
     "coverage_80_pct",
     "coverage_95_pct",
 ];

@@ -363,7 +363,10 @@ fn names(known: &[(&str, bool, &str)], required: bool) -> String {
 /// the largest need (10^15 units a month for 120 months) must stay a whole
 /// number a computer can count; a pack size such as 1e-320 gave
 /// 18446744073709551615 packs of cost 0.
-const MIN_PACK_SIZE: f64 = 0.01;
+pub const MIN_PACK_SIZE: f64 = 0.01;
+
+/// Largest pack size (base units in one pack).
+pub const MAX_PACK_SIZE: f64 = 1e9;
 
 /// Reads a stock file, its numbers written as `numbers` says (the
 /// `--numbers` rules of the consumption data). Returns its rows and
@@ -433,7 +436,7 @@ pub fn read_stock(
             line,
             row,
             "pack_size",
-            |x| (MIN_PACK_SIZE..=1e9).contains(&x),
+            |x| (MIN_PACK_SIZE..=MAX_PACK_SIZE).contains(&x),
             "give the base units in one pack, from 0.01 to 1,000,000,000 (1 when ordered by the unit)",
         )?;
         let unit_cost = sheet.required_number(

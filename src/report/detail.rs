@@ -49,6 +49,15 @@ fn r4(v: f64) -> f64 {
     (v * scale).round() / scale
 }
 
+/// A quantity for the product table: whole units from 1,000 up, as the
+/// terminal and the detail card show it (four significant digits would put
+/// a national total 40,000 units away from the same figure elsewhere), four
+/// significant digits below.
+fn whole(v: Option<f64>) -> Option<f64> {
+    v.filter(|x| x.is_finite())
+        .map(|x| if x.abs() >= 1000.0 { x.round() } else { r4(x) })
+}
+
 fn r4o(v: Option<f64>) -> Option<f64> {
     v.filter(|x| x.is_finite()).map(r4)
 }
@@ -144,9 +153,9 @@ pub fn index_row<'a>(p: &'a ProductResult, stem: &'a str, attention: bool) -> In
         &s.chosen,
         two(s.scores.mape),
         two(s.scores.bias),
-        r4o(s.total_1_12),
-        r4o(s.amc_last_12),
-        r4o(s.amc_next_12),
+        whole(s.total_1_12),
+        whole(s.amc_last_12),
+        whole(s.amc_next_12),
         flags(p, attention),
     )
 }
@@ -303,7 +312,7 @@ struct Detail<'a> {
     by: &'a str,
     /// Score table rows: model, status, MAPE, bias, WAPE, MASE, RMSE, in
     /// 80%, in 95%, forecasts, note.
-    scores: Vec<[String; 11]>,
+    scores: Vec<[String; 12]>,
     quality: Option<(String, &'a [String])>,
     adj_total: usize,
     adj_counts: String,
@@ -468,12 +477,13 @@ pub fn safe_json(json: &str) -> String {
 
 /// The candidate models' scores as display text, ordered by the score the
 /// choice was made by (models without it last).
-fn score_rows(p: &ProductResult) -> Vec<[String; 11]> {
+fn score_rows(p: &ProductResult) -> Vec<[String; 12]> {
     let by = p.selection.selected_by.to_lowercase();
     let pick = |r: &super::ScoreRow| match by.as_str() {
         "wape" => r.scores.wape,
         "mase" => r.scores.mase,
         "rmse" => r.scores.rmse,
+        "rmsse" => r.scores.rmsse,
         _ => r.scores.mape,
     };
     let mut rows: Vec<&super::ScoreRow> = p.scores.iter().collect();
@@ -501,6 +511,7 @@ fn score_rows(p: &ProductResult) -> Vec<[String; 11]> {
                         chart::fmt_quantity(v)
                     }
                 }),
+                o(f.rmsse, &|v| format!("{v:.2}")),
                 o(f.coverage80, &|v| format!("{v:.0}%")),
                 o(f.coverage95, &|v| format!("{v:.0}%")),
                 o(r.points, &|v| format!("{v:.0}")),

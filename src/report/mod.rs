@@ -314,6 +314,7 @@ fn chosen_score(s: &Selection) -> Option<(String, String)> {
         "WAPE" => s.scores.wape.map(pct),
         "MASE" => s.scores.mase.map(|v| format!("{v:.2}")),
         "RMSE" => s.scores.rmse.map(chart::fmt_quantity),
+        "RMSSE" => s.scores.rmsse.map(|v| format!("{v:.2}")),
         _ => s.scores.mape.map(pct),
     }?;
     Some((by, v))

@@ -22,6 +22,9 @@ pub struct Figures {
     pub mase: Option<f64>,
     /// RMSE, base units.
     pub rmse: Option<f64>,
+    /// RMSSE (scaled; the score for intermittent demand). Outputs written
+    /// before the column existed leave it empty.
+    pub rmsse: Option<f64>,
     /// Share of actuals inside the 80% range, %.
     pub coverage80: Option<f64>,
     /// Share of actuals inside the 95% range, %.
@@ -310,7 +313,12 @@ impl Table {
     /// The score columns of a row (columns from `cols(FIGURE_COLUMNS)`).
     fn figures(&self, line: u64, rec: &csv::StringRecord, c: [usize; 7]) -> Result<Figures> {
         let n = |k: usize| self.num(line, rec, c[k], FIGURE_COLUMNS[k]);
+        let rmsse = match self.col_opt("rmsse") {
+            Some(col) => self.num(line, rec, col, "rmsse")?,
+            None => None,
+        };
         Ok(Figures {
+            rmsse,
             mape: n(0)?,
             bias: n(1)?,
             wape: n(2)?,

@@ -24,7 +24,7 @@ fn kind_of(column: &str) -> ColumnKind {
         "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" | "adjustments" => {
             ColumnKind::Count
         }
-        "before" | "after" | "rmse" | "runner_up_score" => ColumnKind::Quantity,
+        "before" | "after" | "rmse" => ColumnKind::Quantity,
         // The supply plan (plan.csv, orders.csv, order_totals.csv) and the
         // annual totals.
         "opening"
@@ -49,7 +49,9 @@ fn kind_of(column: &str) -> ColumnKind {
         "orders" => ColumnKind::Count,
         c if c.starts_with("months_") => ColumnKind::Count,
         c if c.starts_with("amc_") || c.starts_with("total_") => ColumnKind::Quantity,
-        c if c.ends_with("_pct") || c == "mase" => ColumnKind::Decimal,
+        c if c.ends_with("_pct") || c == "mase" || c == "rmsse" || c == "runner_up_score" => {
+            ColumnKind::Decimal
+        }
         _ => ColumnKind::Text,
     }
 }
@@ -490,6 +492,9 @@ fn annual_totals(header: &[String], rows: &[Vec<String>]) -> WorkbookTable {
         .into_iter()
         .filter_map(|k| {
             let (n, total, units, pack) = sums.remove(&k)?;
+            // Packs from the total as shown, so that total ÷ pack size =
+            // packs holds within the row.
+            let total = total.round();
             let packs = pack
                 .trim()
                 .parse::<f64>()
@@ -502,7 +507,7 @@ fn annual_totals(header: &[String], rows: &[Vec<String>]) -> WorkbookTable {
                 k.1,
                 k.2,
                 n.to_string(),
-                crate::output::fmt_num(total.round()),
+                crate::output::fmt_num(total),
                 units,
                 pack,
                 packs,

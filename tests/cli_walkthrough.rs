@@ -1,0 +1,196 @@
+//! End-to-end tests of what a user's walk through the tool found: settings
+//! at the edge of their range, figures that must agree between outputs, and
+//! messages that must point at the right file and line.
+
+mod common;
+
+use common::{read_csv_file, repo, run_in, text};
+
+/// The row of `product` in a CSV file, as (header, row).
+fn row_of(path: &std::path::Path, product: &str) -> (Vec<String>, Vec<String>) {
+    let (h, rows) = read_csv_file(path);
+    let r = rows
+        .iter()
+        .find(|r| &r[0] == product)
+        .unwrap_or_else(|| panic!("{product} not in {}", path.display()));
+    (h, r.iter().map(str::to_string).collect())
+}
+
+fn field(h: &[String], r: &[String], name: &str) -> String {
+    let i = h.iter().position(|c| c == name).unwrap();
+    r[i].clone()
+}
+
+/// `--origins 60` is in range (1-60), but 60 months of history leave no
+/// room for 60 origins with 12 months after each. The run must say how
+/// many it used, and the intermittent product must keep a method for
+/// intermittent demand rather than a projection of zero (common practice:
+/// a product in use is not planned at zero without a programme decision).
+#[test]
+fn many_origins_on_a_short_history_are_cut_with_a_warning_and_no_zero_projection() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            data.to_str().unwrap(),
+            "--origins",
+            "60",
+            "--out",
+            "o",
+            "--no-report",
+            "--no-workbook",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    // 60 months, 12 after each origin, 24 before those beyond the 12th:
+    // origins at months 24..=48, 25 of them.
+    assert!(
+        t.contains("the backtest asked for 60 origins, but 12 of 12 products have no room for them: 12 product(s) ran at 25"),
+        "{t}"
+    );
+    assert_eq!(t.matches("asked for 60 origins").count(), 1, "{t}");
+    let manifest = std::fs::read_to_string(dir.path().join("o/manifest.json")).unwrap();
+    assert!(manifest.contains("asked for 60 origins"), "{manifest}");
+    let (h, r) = row_of(&dir.path().join("o/selection.csv"), "Snake antivenom vial");
+    assert_eq!(field(&h, &r, "chosen_model"), "croston-sba");
+    let total: f64 = field(&h, &r, "total_months_1_12").parse().unwrap();
+    assert!(total > 0.0, "{total}");
+    assert!(!t.contains("projected at zero"), "{t}");
+    // The default count of origins never warns.
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            data.to_str().unwrap(),
+            "--out",
+            "d",
+            "--no-report",
+            "--no-workbook",
+        ],
+    );
+    assert!(o.status.success());
+    assert!(!text(&o).contains("origins, but"), "{}", text(&o));
+}
+
+/// The JSON inside `<script type="application/json" id="ID">` of a report.
+fn script_json(html: &str, id: &str) -> serde_json::Value {
+    let start_tag = format!("id=\"{id}\">");
+    let start = html.find(&start_tag).unwrap() + start_tag.len();
+    let end = start + html[start..].find("</script>").unwrap();
+    serde_json::from_str(&html[start..end]).unwrap()
+}
+
+/// One figure, one value: the report's product table, the product's card,
+/// the workbook and the CSVs agree (common practice: a planner checks a
+/// total in one place against another, and any difference is a question).
+#[test]
+fn figures_agree_between_csv_report_and_workbook() {
+    let dir = tempfile::tempdir().unwrap();
+    let config = repo("datasets/demo/run.toml");
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "--config",
+            config.to_str().unwrap(),
+            "--out",
+            "o",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let out = dir.path().join("o");
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    let (h, rows) = read_csv_file(&out.join("selection.csv"));
+    let col = |name: &str| h.iter().position(|c| c == name).unwrap();
+    // The product table: totals and AMC in whole units, as selection.csv.
+    let index = script_json(&html, "index-data");
+    let index = index.as_array().unwrap();
+    assert_eq!(index.len(), rows.len());
+    for r in &rows {
+        let row = index.iter().find(|x| x[0] == r[0]).unwrap();
+        for (k, name) in [(7, "total_months_1_12"), (8, "amc_last_12"), (9, "amc_next_12")] {
+            let want: f64 = r[col(name)].parse().unwrap();
+            let got = row[k].as_f64().unwrap();
+            if want >= 1000.0 {
+                assert_eq!(got, want.round(), "{} {name}", &r[0]);
+            } else {
+                assert!((got - want).abs() <= 0.0005 * want.max(1.0), "{} {name}", &r[0]);
+            }
+        }
+    }
+    // An intermittent product is chosen by RMSSE (M5 competition scaling):
+    // the card shows the RMSSE, not another score under its name.
+    let snake = rows.iter().find(|r| &r[0] == "Snake antivenom vial").unwrap();
+    assert_eq!(&snake[col("selected_by")], "RMSSE");
+    let rmsse: f64 = snake[col("rmsse")].parse().unwrap();
+    let key = format!("[\"{rmsse:.2}\",\"backtest RMSSE (chosen by)\"]");
+    assert!(html.contains(&key), "{key}");
+    // The Annual totals sheet: total ÷ pack size = packs, to the tenth.
+    use calamine::{Data, Reader};
+    let mut book: calamine::Xlsx<_> = calamine::open_workbook(out.join("forecast.xlsx")).unwrap();
+    let sheet = book.worksheet_range("Annual totals").unwrap();
+    let head = (0..sheet.height())
+        .find(|&i| sheet.get((i, 0)) == Some(&Data::String("product".into())))
+        .unwrap();
+    let num = |r: usize, c: usize| match sheet.get((r, c)) {
+        Some(Data::Float(x)) => Some(*x),
+        Some(Data::Int(x)) => Some(*x as f64),
+        _ => None,
+    };
+    let mut checked = 0;
+    for r in head + 1..sheet.height() {
+        if let (Some(total), Some(pack), Some(packs)) = (num(r, 4), num(r, 6), num(r, 7)) {
+            assert_eq!(total, total.round(), "row {r}");
+            assert!((total / pack - packs).abs() <= 0.05 + 1e-9, "row {r}: {total} / {pack} vs {packs}");
+            checked += 1;
+        }
+    }
+    assert!(checked > 10, "{checked}");
+}
+
+/// A pin file given on the command line wins over a product's `model` in
+/// the configuration; the file `--write-config` writes must read back to
+/// the same run (README, "Configuration file").
+#[test]
+fn a_written_configuration_keeps_a_command_line_pin() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    std::fs::write(
+        dir.path().join("run.toml"),
+        format!(
+            "[input]\ndata = {:?}\n\n[products.\"Male condom\"]\nmodel = \"ets-simple\"\n",
+            data.to_str().unwrap()
+        ),
+    )
+    .unwrap();
+    std::fs::write(dir.path().join("pins.csv"), "product,model\nMale condom,naive\n").unwrap();
+    let chosen = |out: &str| {
+        let (h, r) = row_of(&dir.path().join(out).join("selection.csv"), "Male condom");
+        (field(&h, &r, "chosen_model"), field(&h, &r, "runner_up"))
+    };
+    let base = [
+        "forecast",
+        "--config",
+        "run.toml",
+        "--pin",
+        "pins.csv",
+        "--no-report",
+        "--no-workbook",
+    ];
+    let o = run_in(dir.path(), &[&base[..], &["--out", "a"]].concat());
+    assert!(o.status.success(), "{}", text(&o));
+    assert_eq!(chosen("a").0, "naive");
+    // The runner-up is another model than the one pinned.
+    assert_ne!(chosen("a").1, "naive");
+    let o = run_in(dir.path(), &[&base[..], &["--write-config", "w.toml"]].concat());
+    assert!(o.status.success(), "{}", text(&o));
+    let o = run_in(
+        dir.path(),
+        &["forecast", "--config", "w.toml", "--out", "b", "--no-report", "--no-workbook"],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    assert_eq!(chosen("b").0, "naive");
+}
