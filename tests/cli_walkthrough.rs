@@ -111,19 +111,30 @@ fn figures_agree_between_csv_report_and_workbook() {
     assert_eq!(index.len(), rows.len());
     for r in &rows {
         let row = index.iter().find(|x| x[0] == r[0]).unwrap();
-        for (k, name) in [(7, "total_months_1_12"), (8, "amc_last_12"), (9, "amc_next_12")] {
+        for (k, name) in [
+            (7, "total_months_1_12"),
+            (8, "amc_last_12"),
+            (9, "amc_next_12"),
+        ] {
             let want: f64 = r[col(name)].parse().unwrap();
             let got = row[k].as_f64().unwrap();
             if want >= 1000.0 {
                 assert_eq!(got, want.round(), "{} {name}", &r[0]);
             } else {
-                assert!((got - want).abs() <= 0.0005 * want.max(1.0), "{} {name}", &r[0]);
+                assert!(
+                    (got - want).abs() <= 0.0005 * want.max(1.0),
+                    "{} {name}",
+                    &r[0]
+                );
             }
         }
     }
     // An intermittent product is chosen by RMSSE (M5 competition scaling):
     // the card shows the RMSSE, not another score under its name.
-    let snake = rows.iter().find(|r| &r[0] == "Snake antivenom vial").unwrap();
+    let snake = rows
+        .iter()
+        .find(|r| &r[0] == "Snake antivenom vial")
+        .unwrap();
     assert_eq!(&snake[col("selected_by")], "RMSSE");
     let rmsse: f64 = snake[col("rmsse")].parse().unwrap();
     let key = format!("[\"{rmsse:.2}\",\"backtest RMSSE (chosen by)\"]");
@@ -144,7 +155,10 @@ fn figures_agree_between_csv_report_and_workbook() {
     for r in head + 1..sheet.height() {
         if let (Some(total), Some(pack), Some(packs)) = (num(r, 4), num(r, 6), num(r, 7)) {
             assert_eq!(total, total.round(), "row {r}");
-            assert!((total / pack - packs).abs() <= 0.05 + 1e-9, "row {r}: {total} / {pack} vs {packs}");
+            assert!(
+                (total / pack - packs).abs() <= 0.05 + 1e-9,
+                "row {r}: {total} / {pack} vs {packs}"
+            );
             checked += 1;
         }
     }
@@ -166,7 +180,11 @@ fn a_written_configuration_keeps_a_command_line_pin() {
         ),
     )
     .unwrap();
-    std::fs::write(dir.path().join("pins.csv"), "product,model\nMale condom,naive\n").unwrap();
+    std::fs::write(
+        dir.path().join("pins.csv"),
+        "product,model\nMale condom,naive\n",
+    )
+    .unwrap();
     let chosen = |out: &str| {
         let (h, r) = row_of(&dir.path().join(out).join("selection.csv"), "Male condom");
         (field(&h, &r, "chosen_model"), field(&h, &r, "runner_up"))
@@ -185,11 +203,22 @@ fn a_written_configuration_keeps_a_command_line_pin() {
     assert_eq!(chosen("a").0, "naive");
     // The runner-up is another model than the one pinned.
     assert_ne!(chosen("a").1, "naive");
-    let o = run_in(dir.path(), &[&base[..], &["--write-config", "w.toml"]].concat());
+    let o = run_in(
+        dir.path(),
+        &[&base[..], &["--write-config", "w.toml"]].concat(),
+    );
     assert!(o.status.success(), "{}", text(&o));
     let o = run_in(
         dir.path(),
-        &["forecast", "--config", "w.toml", "--out", "b", "--no-report", "--no-workbook"],
+        &[
+            "forecast",
+            "--config",
+            "w.toml",
+            "--out",
+            "b",
+            "--no-report",
+            "--no-workbook",
+        ],
     );
     assert!(o.status.success(), "{}", text(&o));
     assert_eq!(chosen("b").0, "naive");
