@@ -223,3 +223,37 @@ fn a_written_configuration_keeps_a_command_line_pin() {
     assert!(o.status.success(), "{}", text(&o));
     assert_eq!(chosen("b").0, "naive");
 }
+
+/// In the wide layout with a separate reporting-rate table, a rate refused
+/// for mixing fractions and percentages is located in the rate table, not
+/// in the consumption table the value never was in (common practice: an
+/// error names the cell to correct).
+#[test]
+fn a_refused_rate_names_the_rate_table_cell() {
+    let dir = tempfile::tempdir().unwrap();
+    let w = |name: &str, text: &str| std::fs::write(dir.path().join(name), text).unwrap();
+    w(
+        "c.csv",
+        "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,410,385,390,402\n",
+    );
+    w(
+        "r.csv",
+        "product,site,Jan 2025,Feb 2025,Mar 2025,Apr 2025\nORS sachet,North,0.95,0.9,90,1\n",
+    );
+    let o = run_in(
+        dir.path(),
+        &["clean", "c.csv", "--rate-file", "r.csv", "--out", "o"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("mix fractions 0-1 (r.csv: line 2, column C (Jan 2025); r.csv: line 2, column D (Feb 2025); r.csv: line 2, column F (Apr 2025)) and percentages above 1 (r.csv: line 2, column E (Mar 2025))"),
+        "{t}"
+    );
+    assert!(t.contains("1 rate(s) refused"), "{t}");
+    let rejected = std::fs::read_to_string(dir.path().join("o/rejected.csv")).unwrap();
+    assert!(
+        rejected.contains("reporting_rate 90 at r.csv: line 2, column E (Mar 2025)"),
+        "{rejected}"
+    );
+}

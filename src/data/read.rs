@@ -518,6 +518,10 @@ pub(crate) struct Collector<'o> {
     /// In the wide layout, the header of each month's column: rejections
     /// settled at the end name it as their column.
     month_columns: Option<HashMap<YearMonth, String>>,
+    /// In the wide layout with a separate reporting-rate table: where each
+    /// plain rate was read (file, line and column of that table), by the
+    /// row's line and month, so messages about the rate point there.
+    rate_places: HashMap<(u64, YearMonth), String>,
 }
 
 impl<'o> Collector<'o> {
@@ -531,6 +535,7 @@ impl<'o> Collector<'o> {
             rejected: Vec::new(),
             rows_read: 0,
             month_columns: None,
+            rate_places: HashMap::new(),
         }
     }
 
@@ -606,6 +611,17 @@ impl<'o> Collector<'o> {
         }
     }
 
+    /// Says where the plain reporting rate of the row just added was read,
+    /// when it came from another table than the consumption's; nothing
+    /// when the last row added had no plain rate.
+    pub(crate) fn rate_read_at(&mut self, place: impl FnOnce() -> String) {
+        let last = self.rows.len().wrapping_sub(1);
+        if self.plain_rate.last() == Some(&last) {
+            let r = &self.rows[last];
+            self.rate_places.insert((r.line, r.month), place());
+        }
+    }
+
     /// Settles percentages, duplicates and spans, and checks that something
     /// usable was read.
     pub(crate) fn finish(
@@ -624,6 +640,7 @@ impl<'o> Collector<'o> {
             rows_read,
             options,
             month_columns,
+            rate_places,
             ..
         } = self;
         // The column a rejection settled here names: the contract's column,
@@ -635,13 +652,14 @@ impl<'o> Collector<'o> {
             }
         };
         let mut warnings = Vec::new();
+        let rate_place = |row: &InputRow| rate_places.get(&(row.line, row.month)).cloned();
         let (mut rows, percent) = settle_rate_scale(
             rows,
             &plain_rate,
             unit,
             &mut rejected,
             &mut warnings,
-            &column_of,
+            (&column_of, &rate_place),
         );
         drop(plain_rate);
         rows.shrink_to_fit();
@@ -744,7 +762,7 @@ fn settle_rate_scale(
     unit: &str,
     rejected: &mut Vec<RejectedRow>,
     warnings: &mut Vec<String>,
-    column_of: &ColumnOf<'_>,
+    (column_of, rate_place): (&ColumnOf<'_>, &dyn Fn(&InputRow) -> Option<String>),
 ) -> (Vec<InputRow>, bool) {
     // Per product: rows with a plain rate in (0, 1] and above 1.
     let mut by_product: BTreeMap<Arc<str>, (Vec<usize>, Vec<usize>)> = BTreeMap::new();
@@ -768,12 +786,25 @@ fn settle_rate_scale(
         if percents.is_empty() {
             continue;
         }
-        let lines =
-            |ix: &[usize]| some_lines(&ix.iter().map(|&i| rows[i].line).collect::<Vec<_>>());
+        // Where the rates were read: the lines of the table, or in the
+        // wide layout with a rate table, that table's cells.
+        let places = |ix: &[usize]| {
+            let at: Vec<String> = ix.iter().filter_map(|&i| rate_place(&rows[i])).collect();
+            if at.len() == ix.len() && !at.is_empty() {
+                let mut shown: Vec<String> = at.iter().take(10).cloned().collect();
+                if at.len() > 10 {
+                    shown.push(format!("and {} more", at.len() - 10));
+                }
+                shown.join("; ")
+            } else {
+                let lines = ix.iter().map(|&i| rows[i].line).collect::<Vec<_>>();
+                format!("{unit}s {}", some_lines(&lines))
+            }
+        };
         if !fractions.is_empty() {
-            let (f, p) = (lines(fractions), lines(percents));
+            let (f, p) = (places(fractions), places(percents));
             let what = format!(
-                "the plain reporting rates of {product} mix fractions 0-1 ({unit}s {f}) and percentages above 1 ({unit}s {p})"
+                "the plain reporting rates of {product} mix fractions 0-1 ({f}) and percentages above 1 ({p})"
             );
             let bad: Vec<usize> = match fractions.len().cmp(&percents.len()) {
                 std::cmp::Ordering::Greater => percents.clone(),
@@ -788,14 +819,15 @@ fn settle_rate_scale(
                     column: column_of(&rows[i], Some("reporting_rate")),
                     value: format_number(v),
                     reason: format!(
-                        "reporting_rate {}: {what}; the fewer are refused rather than rescaled: write a fraction (0.95) or a percentage with its sign (95%)",
-                        format_number(v)
+                        "reporting_rate {}{}: {what}; the fewer are refused rather than rescaled: write a fraction (0.95) or a percentage with its sign (95%)",
+                        format_number(v),
+                        rate_place(&rows[i]).map(|at| format!(" at {at}")).unwrap_or_default()
                     ),
                     raw: String::new(),
                 });
             }
             warnings.push(format!(
-                "{what}: {} {unit}(s) refused, the others read as {}",
+                "{what}: {} rate(s) refused, the others read as {}",
                 bad.len(),
                 match fractions.len().cmp(&percents.len()) {
                     std::cmp::Ordering::Greater => "fractions",

@@ -826,20 +826,20 @@ impl<'o> WideReader<'o> {
             };
             let before = self.collector.rejected_len();
             self.collector.add(line, &value, &self.columns, raw);
+            let place = |k: Option<usize>, at: Option<(usize, usize)>| match (k, at) {
+                (Some(k), Some((r, c))) => {
+                    let g = &self.sides[k].grid;
+                    let header = self.sides[k]
+                        .header
+                        .months
+                        .iter()
+                        .find(|x| x.col == c)
+                        .map_or("", |x| x.header.as_str());
+                    g.place(g.line(r), c, header)
+                }
+                _ => String::new(),
+            };
             if self.collector.rejected_len() > before {
-                let place = |k: Option<usize>, at: Option<(usize, usize)>| match (k, at) {
-                    (Some(k), Some((r, c))) => {
-                        let g = &self.sides[k].grid;
-                        let header = self.sides[k]
-                            .header
-                            .months
-                            .iter()
-                            .find(|x| x.col == c)
-                            .map_or("", |x| x.header.as_str());
-                        g.place(g.line(r), c, header)
-                    }
-                    _ => String::new(),
-                };
                 let stock_place = place(stock_side, stock_at);
                 let rate_place = place(rate_side, rate_at);
                 if let Some(r) = self.collector.last_rejected_mut() {
@@ -853,6 +853,8 @@ impl<'o> WideReader<'o> {
                     }
                     r.column = Some(month.header.clone());
                 }
+            } else if rate_side.is_some() && !blank(rate) {
+                self.collector.rate_read_at(|| place(rate_side, rate_at));
             }
         }
         if !any {
