@@ -739,6 +739,10 @@ impl<'o> Collector<'o> {
 /// The column a rejection names, from its row and the contract's column.
 type ColumnOf<'a> = dyn Fn(&InputRow, Option<&str>) -> Option<String> + 'a;
 
+/// Where a row's reporting rate was read, when another table than the
+/// consumption's held it.
+type RatePlace<'a> = dyn Fn(&InputRow) -> Option<String> + 'a;
+
 /// Lines as a short list: the first ten, then how many more.
 fn some_lines(lines: &[u64]) -> String {
     let mut out: Vec<String> = lines.iter().take(10).map(u64::to_string).collect();
@@ -762,7 +766,7 @@ fn settle_rate_scale(
     unit: &str,
     rejected: &mut Vec<RejectedRow>,
     warnings: &mut Vec<String>,
-    (column_of, rate_place): (&ColumnOf<'_>, &dyn Fn(&InputRow) -> Option<String>),
+    (column_of, rate_place): (&ColumnOf<'_>, &RatePlace<'_>),
 ) -> (Vec<InputRow>, bool) {
     // Per product: rows with a plain rate in (0, 1] and above 1.
     let mut by_product: BTreeMap<Arc<str>, (Vec<usize>, Vec<usize>)> = BTreeMap::new();
