@@ -257,3 +257,43 @@ fn a_refused_rate_names_the_rate_table_cell() {
         "{rejected}"
     );
 }
+
+/// Totals rows are written many ways in spreadsheet exports (common
+/// practice): each is refused as a product, and a product whose name only
+/// starts with "Total" is read.
+#[test]
+fn totals_rows_in_their_usual_spellings_are_not_products() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut t = String::from("product,Jan 2025,Feb 2025,Mar 2025,Apr 2025\n");
+    for p in [
+        "ORS sachet",
+        "Total parenteral nutrition bag",
+        "Sub-total",
+        "TOTAL:",
+        "Total general",
+        "Totals",
+        "grand  total",
+        "Sous-total",
+    ] {
+        t.push_str(&format!("{p},10,11,12,13\n"));
+    }
+    std::fs::write(dir.path().join("w.csv"), t).unwrap();
+    let o = run_in(dir.path(), &["inspect", "w.csv", "--rejected", "rej.csv"]);
+    let out = text(&o);
+    let rejected = std::fs::read_to_string(dir.path().join("rej.csv")).unwrap();
+    for p in [
+        "Sub-total",
+        "TOTAL:",
+        "Total general",
+        "Totals",
+        "grand  total",
+        "Sous-total",
+    ] {
+        assert!(
+            rejected.contains(&format!("the row's product is '{p}', a totals row")),
+            "{p}: {rejected}\n{out}"
+        );
+    }
+    assert!(!rejected.contains("'ORS sachet'"), "{rejected}");
+    assert!(!rejected.contains("'Total parenteral"), "{rejected}");
+}

@@ -1331,7 +1331,7 @@ fn parse_row(
             format!("product is empty; every row needs a product code or name{merged_hint}"),
         ));
     }
-    if super::wide::TOTAL_NAMES.contains(&product.to_lowercase().as_str()) {
+    if super::wide::is_total_name(&product) {
         return Err(problem(
             "product",
             &product,

@@ -30,8 +30,40 @@ use crate::error::{Error, Result};
 pub(crate) const MONTH_HEADERS: &str =
     "2024-03, 2024-03-01, Mar 2024, March 2024, Mar-24, 03/2024, 2024/03, 202403, or a date cell";
 
-/// Product names that mark a totals row of a pivot table, not a product.
-pub(crate) const TOTAL_NAMES: [&str; 5] = ["total", "totals", "grand total", "sum", "all products"];
+/// Product names that mark a totals row of a pivot table, not a product,
+/// written without spaces or punctuation ("Sub-total", "TOTAL:" and
+/// "Grand total" are `subtotal`, `total` and `grandtotal`); see
+/// [`is_total_name`].
+const TOTAL_NAMES: [&str; 16] = [
+    "total",
+    "totals",
+    "grandtotal",
+    "subtotal",
+    "subtotals",
+    "sum",
+    "sumtotal",
+    "totalsum",
+    "allproducts",
+    "totalgeneral",
+    "generaltotal",
+    "totalgénéral",
+    "overalltotal",
+    "totaloverall",
+    "alltotal",
+    "soustotal",
+];
+
+/// Whether a product name marks a totals row (common practice in
+/// spreadsheet exports: pivot tables and hand-made sheets add a row of
+/// totals under the products). Case, spaces and punctuation are ignored.
+pub(crate) fn is_total_name(name: &str) -> bool {
+    let key: String = name
+        .chars()
+        .filter(|c| c.is_alphanumeric())
+        .flat_map(char::to_lowercase)
+        .collect();
+    TOTAL_NAMES.contains(&key.as_str())
+}
 
 /// One month column of a wide header.
 #[derive(Debug, Clone, PartialEq)]
@@ -753,7 +785,7 @@ impl<'o> WideReader<'o> {
         let product = row.cell(h.product);
         let site = h.site.map_or(Cell::Empty, |s| row.cell(s));
         let key = key_of(row, h);
-        let total_row = TOTAL_NAMES.contains(&key.0.to_lowercase().as_str());
+        let total_row = is_total_name(&key.0);
         // The companion row of this product (and site), per companion.
         let stock_side = self.side("stockout days");
         let rate_side = self.side("reporting rates");
