@@ -297,3 +297,28 @@ fn totals_rows_in_their_usual_spellings_are_not_products() {
     assert!(!rejected.contains("'ORS sachet'"), "{rejected}");
     assert!(!rejected.contains("'Total parenteral"), "{rejected}");
 }
+
+/// Month headers saved as spreadsheet date serial numbers (days since
+/// 1899-12-30 in the 1900 date system; 45658 is 2025-01-01, from memory of
+/// the spreadsheet convention and checked with chrono here) are refused
+/// with the date they stand for, not read as a long table with missing
+/// columns or dropped as an extra column.
+#[test]
+fn month_headers_saved_as_serial_numbers_are_explained() {
+    let dir = tempfile::tempdir().unwrap();
+    let cases = [
+        ("a.csv", "product,45658,45689,45717,45748\nORS,1,2,3,4\n", "column B (45658): the header 45658 looks like a date stored as a spreadsheet serial number (45658 is 2025-01-01)"),
+        ("b.csv", "product,202501,202502,202503,45748\nORS,1,2,3,4\n", "column E (45748): the header 45748 looks like a date stored as a spreadsheet serial number (45748 is 2025-04-01); format the header cells as dates in the spreadsheet, or write the months as 2025-04"),
+    ];
+    for (name, body, want) in cases {
+        std::fs::write(dir.path().join(name), body).unwrap();
+        let o = run_in(dir.path(), &["inspect", name]);
+        let t = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{t}");
+        assert!(t.contains(want), "{t}");
+    }
+    // chrono's own count of days agrees with the serial used above.
+    let d = chrono::NaiveDate::from_ymd_opt(2025, 1, 1).unwrap()
+        - chrono::NaiveDate::from_ymd_opt(1899, 12, 30).unwrap();
+    assert_eq!(d.num_days(), 45658);
+}

@@ -114,6 +114,19 @@ pub(crate) enum Header {
     },
 }
 
+/// The date a header holds when it is a whole number in the range of
+/// spreadsheet date serial numbers for 1990-2100 (days since 1899-12-30,
+/// the 1900 date system of spreadsheets; common practice: a date header
+/// saved to CSV without its format, or a workbook header cell formatted as
+/// a number, shows such a number).
+fn serial_date(text: &str) -> Option<chrono::NaiveDate> {
+    let n: i64 = text.trim().parse().ok()?;
+    if !(32_874..=73_050).contains(&n) {
+        return None;
+    }
+    chrono::NaiveDate::from_ymd_opt(1899, 12, 30)?.checked_add_days(chrono::Days::new(n as u64))
+}
+
 /// Reads a row as a header of the wide layout. `letter` names a position
 /// as a spreadsheet column. With `forced` (`--layout wide`), any row with
 /// a `product` column or a month column is taken as meant to be the
@@ -176,7 +189,7 @@ pub(crate) fn classify(
             "site" => site.push(i),
             "month" => has_month_column = true,
             _ => {
-                if looks_like_month(&shown) {
+                if looks_like_month(&shown) || serial_date(&shown).is_some() {
                     unreadable.push((i, shown.clone()));
                 }
                 extra.push(shown);
@@ -246,6 +259,18 @@ pub(crate) fn classify(
                     .map(|&i| letter(i))
                     .collect::<Vec<_>>()
                     .join(", ")
+            ),
+        );
+    }
+    if let Some((i, shown, day)) = unreadable
+        .iter()
+        .find_map(|(i, s)| serial_date(s).map(|d| (i, s, d)))
+    {
+        return bad(
+            Some(at(*i, shown)),
+            format!(
+                "the header {shown} looks like a date stored as a spreadsheet serial number ({shown} is {day}); format the header cells as dates in the spreadsheet, or write the months as {}, before saving",
+                day.format("%Y-%m")
             ),
         );
     }
