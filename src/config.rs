@@ -285,11 +285,22 @@ pub struct RunConfig {
 
 /// Serde's Rust type names in plain words.
 fn plain_types(message: &str) -> String {
-    message
+    let m = message
         .replace("expected f64", "expected a number such as 15 or 0.5")
         .replace("expected usize", "expected a whole number (0 or more)")
         .replace("expected u32", "expected a whole number (0 or more)")
         .replace("expected a boolean", "expected true or false")
+        .replace(" as i128,", ", too large;")
+        .replace(
+            "expected a sequence",
+            "expected a list in brackets, such as [\"all\"] or [\"ORS sachet\", \"Zinc\"]",
+        );
+    // A bare date such as `until = 2025-06` is TOML's own date type, and
+    // incomplete; the key wants a quoted month.
+    if m.starts_with("invalid date") {
+        return format!("{m}: write a month in quotes, such as \"2025-06\"");
+    }
+    m
 }
 
 /// Line and column (1-based, in characters) of a byte offset.
@@ -821,7 +832,7 @@ mod tests {
 
     #[test]
     fn bad_syntax_types_and_ranges_are_located() {
-        let cases: [(&str, &str); 12] = [
+        let cases: [(&str, &str); 15] = [
             ("[projection]\nhorizon = \n", "line 2"),
             ("[projection]\nhorizon = \"12\"\n", "line 2, column 11"),
             (
@@ -855,6 +866,18 @@ mod tests {
             (
                 "[products.\"A\"]\npack_size = 0.00004\n",
                 "line 2, column 13: pack_size: must be the base units in one pack, from 0.01",
+            ),
+            (
+                "[output]\nchart_files = \"all\"\n",
+                "line 2, column 15: invalid type: string \"all\", expected a list in brackets, such as [\"all\"]",
+            ),
+            (
+                "[input]\nuntil = 2025-06\n",
+                "line 2, column 9: invalid date, expected `-` (MM-DD): write a month in quotes, such as \"2025-06\"",
+            ),
+            (
+                "[projection]\nhorizon = 99999999999999999999\n",
+                "too large; expected a whole number (0 or more)",
             ),
             (
                 "[products.\"A\"]\nmax_stockout_days = 40\n",
