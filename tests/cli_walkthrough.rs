@@ -322,3 +322,51 @@ fn month_headers_saved_as_serial_numbers_are_explained() {
         - chrono::NaiveDate::from_ymd_opt(1899, 12, 30).unwrap();
     assert_eq!(d.num_days(), 45658);
 }
+
+/// A conflict between the configuration file and the command line names
+/// the file's key, since the file's setting cannot be switched off on the
+/// command line (common practice: say where a setting came from).
+#[test]
+fn conflicts_name_the_configuration_key_they_come_from() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let d = data.to_str().unwrap();
+    std::fs::write(
+        dir.path().join("nr.toml"),
+        format!("[input]\ndata = {d:?}\n[output]\nno_report = true\n"),
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            "--config",
+            "nr.toml",
+            "--chart-files",
+            "all",
+            "--out",
+            "o",
+        ],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(2), "{t}");
+    assert!(
+        t.contains("--chart-files draws the report's charts, and [output] no_report = true in nr.toml skips the report"),
+        "{t}"
+    );
+    std::fs::write(
+        dir.path().join("np.toml"),
+        format!("[input]\ndata = {d:?}\n[output]\nchart_files = [\"Nope\"]\n"),
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["forecast", "--config", "np.toml", "--out", "p"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("no product 'Nope' for [output] chart_files of np.toml"),
+        "{t}"
+    );
+}

@@ -521,8 +521,14 @@ fn run_eval(
             .iter()
             .any(|s| s.product.as_str() == n.as_str())
         {
+            let from = match cfg {
+                Some(c) if !given.cli("chart_files") => {
+                    format!("[output] chart_files of {}", c.path.display())
+                }
+                _ => "--chart-files".to_string(),
+            };
             anyhow::bail!(
-                "no product '{n}' for --chart-files in {}; give a product name exactly as in the data, or all",
+                "no product '{n}' for {from} in {}; give a product name exactly as in the data, or all",
                 data.display()
             );
         }
@@ -868,9 +874,19 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         )
     })?;
     if a.no_report && !a.chart_files.is_empty() {
+        // Name where each came from: a setting of the file cannot be
+        // switched off on the command line.
+        let from = |cli: &str, flag: &str, key: &str| match (&config, given.cli(cli)) {
+            (Some(c), false) => format!("{key} in {}", c.path.display()),
+            _ => flag.to_string(),
+        };
         return Err(super::usage_error(
             "forecast",
-            "--chart-files draws the report's charts, and --no-report skips the report: drop one (or run `provisio report DIR --chart-files PRODUCT` later)",
+            &format!(
+                "{} draws the report's charts, and {} skips the report: drop one (or run `provisio report DIR --chart-files PRODUCT` later)",
+                from("chart_files", "--chart-files", "[output] chart_files"),
+                from("no_report", "--no-report", "[output] no_report = true"),
+            ),
         ));
     }
     let out = output::OutputDir::check(&out_path, a.overwrite)?;
