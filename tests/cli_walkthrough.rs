@@ -105,6 +105,14 @@ fn figures_agree_between_csv_report_and_workbook() {
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
     let (h, rows) = read_csv_file(&out.join("selection.csv"));
     let col = |name: &str| h.iter().position(|c| c == name).unwrap();
+    // The run summary names the configuration file, and a product's own
+    // stockout threshold as the file sets it (no option of that name).
+    assert!(
+        html.contains("<dt>Configuration file</dt><dd>"),
+        "no config file named"
+    );
+    assert!(!html.contains("--stockout-days-by-product"));
+    assert!(html.contains("max_stockout_days of [products] in the configuration file: Artemether"));
     // The product table: totals and AMC in whole units, as selection.csv.
     let index = script_json(&html, "index-data");
     let index = index.as_array().unwrap();

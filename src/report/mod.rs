@@ -990,6 +990,10 @@ fn summary(b: &mut String, run: &ForecastRun) {
     if let Some(cs) = m.get("clean_settings").and_then(|v| v.as_object()) {
         facts.push(("Cleaning settings", escape(&as_options(cs))));
     }
+    let config = json_str(m, &["config_file"]);
+    if !config.is_empty() {
+        facts.push(("Configuration file", escape(&config)));
+    }
     let pin = json_str(m, &["pin_file"]);
     if !pin.is_empty() {
         facts.push(("Pinned models from", escape(&pin)));
@@ -1016,7 +1020,20 @@ fn summary(b: &mut String, run: &ForecastRun) {
 fn as_options(settings: &serde_json::Map<String, serde_json::Value>) -> String {
     settings
         .iter()
+        .filter(|(k, v)| {
+            // Empty per-product settings are no setting at all.
+            !(k.as_str() == "stockout_days_by_product"
+                && v.as_object().is_some_and(|o| o.is_empty()))
+        })
         .map(|(k, v)| match v {
+            // Set per product in the configuration file: no option sets it.
+            serde_json::Value::Object(o) if k == "stockout_days_by_product" => format!(
+                "max_stockout_days of [products] in the configuration file: {}",
+                o.iter()
+                    .map(|(p, d)| format!("{p} {d}"))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ),
             serde_json::Value::Bool(true) => format!("--{}", k.replace('_', "-")),
             serde_json::Value::Bool(false) => format!("no --{}", k.replace('_', "-")),
             v => format!("--{} {v}", k.replace('_', "-")),
