@@ -150,7 +150,7 @@ fn draw<DB: DrawingBackend>(
         .label_style((FONT, 15).into_font().color(&INK))
         .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_labels(6)
-        .x_label_formatter(&|v| fmt_quantity(*v))
+        .x_label_formatter(&|v| super::fmt_axis(*v))
         .y_label_formatter(&name)
         .x_desc("quantity over the 12 months, in base units")
         .draw()

@@ -105,6 +105,22 @@ pub fn fmt_signed(v: f64) -> String {
     }
 }
 
+/// An axis label: [`fmt_quantity`] below a million, then millions ("45M",
+/// "2.5M") and billions ("1.2bn"), so that national volumes fit beside the
+/// axis title instead of running into it.
+pub fn fmt_axis(v: f64) -> String {
+    let a = v.abs();
+    let (scaled, unit) = if a >= 1e9 {
+        (v / 1e9, "bn")
+    } else if a >= 1e6 {
+        (v / 1e6, "M")
+    } else {
+        return fmt_quantity(v);
+    };
+    let s = format!("{scaled:.2}");
+    format!("{}{unit}", s.trim_end_matches('0').trim_end_matches('.'))
+}
+
 /// A quantity for an axis or a label: thousands grouped with commas,
 /// decimals only for small numbers ("12,500", "85", "2.5").
 pub fn fmt_quantity(v: f64) -> String {
@@ -377,6 +393,17 @@ pub fn cut(s: &str, n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn axis_labels_shorten_millions_and_billions() {
+        // SI-style short scale (common practice on charts: M = 10^6,
+        // bn = 10^9).
+        assert_eq!(fmt_axis(950_000.0), "950,000");
+        assert_eq!(fmt_axis(50_000_000.0), "50M");
+        assert_eq!(fmt_axis(2_500_000.0), "2.5M");
+        assert_eq!(fmt_axis(1.25e11), "125bn");
+        assert_eq!(fmt_axis(0.0), "0");
+    }
 
     #[test]
     fn signed_numbers_round_before_the_sign() {

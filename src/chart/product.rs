@@ -10,8 +10,7 @@ use plotters::prelude::*;
 
 use super::palette::*;
 use super::{
-    cut, draw_legend, fmt_quantity, month_label, render_png, render_svg, Drawn, Glyph, KeyAxis,
-    OrMessage, FONT,
+    cut, draw_legend, month_label, render_png, render_svg, Drawn, Glyph, KeyAxis, OrMessage, FONT,
 };
 use crate::calendar::YearMonth;
 use crate::clean::MonthStatus;
@@ -248,7 +247,7 @@ pub(super) fn month_chart<'a, DB: DrawingBackend>(
         .label_style((FONT, 15).into_font().color(&INK))
         .axis_desc_style((FONT, 16).into_font().color(&MUTED))
         .x_label_formatter(&|v| month_label(base.plus(v.round() as i64)))
-        .y_label_formatter(&|v| fmt_quantity(*v))
+        .y_label_formatter(&|v| super::fmt_axis(*v))
         .y_labels(y_labels)
         .y_desc(y_desc)
         .draw()
