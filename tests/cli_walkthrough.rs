@@ -378,3 +378,71 @@ fn conflicts_name_the_configuration_key_they_come_from() {
         "{t}"
     );
 }
+
+/// Copies the report fixture's forecast folder (four products cut from the
+/// invented demo scenario) to `fc` under `dir`.
+fn fixture_forecast(dir: &std::path::Path) -> std::path::PathBuf {
+    let to = dir.join("fc");
+    std::fs::create_dir_all(&to).unwrap();
+    for e in std::fs::read_dir(repo("tests/data/report/forecast-output")).unwrap() {
+        let e = e.unwrap();
+        std::fs::copy(e.path(), to.join(e.file_name())).unwrap();
+    }
+    to
+}
+
+/// An input kept in the forecast folder under the name of a file the
+/// command writes there is refused before any work and left byte for byte
+/// (common practice: a tool never replaces its own input).
+#[test]
+fn plan_and_crosscheck_never_replace_an_input_named_like_their_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let fc = fixture_forecast(dir.path());
+    let stock = "product,stock_on_hand\nsomething the user typed,1\n";
+    std::fs::write(fc.join("orders.csv"), stock).unwrap();
+    let o = run_in(dir.path(), &["plan", "fc", "--stock", "fc/orders.csv"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("--stock fc/orders.csv is the file `provisio plan` writes as orders.csv in fc"),
+        "{t}"
+    );
+    assert_eq!(
+        std::fs::read_to_string(fc.join("orders.csv")).unwrap(),
+        stock
+    );
+    let pop = std::fs::read(repo("datasets/demo/population.csv")).unwrap();
+    std::fs::write(fc.join("crosscheck.csv"), &pop).unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "crosscheck",
+            "fc",
+            "--population",
+            "fc/crosscheck.csv",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(t.contains("--population fc/crosscheck.csv is the file `provisio crosscheck` writes as crosscheck.csv"), "{t}");
+    assert_eq!(std::fs::read(fc.join("crosscheck.csv")).unwrap(), pop);
+    // A population file elsewhere is read, and the threshold may be written
+    // as a percentage, as the input files allow.
+    let population = repo("datasets/demo/population.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "crosscheck",
+            "fc",
+            "--population",
+            population.to_str().unwrap(),
+            "--threshold",
+            "25%",
+            "--no-report",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let json = std::fs::read_to_string(fc.join("crosscheck.json")).unwrap();
+    assert!(json.contains("\"threshold\": 0.25"), "{json}");
+}

@@ -26,8 +26,8 @@ pub struct CrossCheckArgs {
     /// CYP table replacing or adding to the default (USAID, updated August 2021): method, cyp_per_unit or units_per_cyp.
     #[arg(long, value_name = "FILE")]
     cyp: Option<PathBuf>,
-    /// Share above or below the consumption forecast beyond which an estimate is flagged (0.25 = ±25%).
-    #[arg(long, default_value_t = crosscheck::DEFAULT_THRESHOLD, value_name = "SHARE")]
+    /// Share above or below the consumption forecast beyond which an estimate is flagged (0.25 or 25% = ±25%).
+    #[arg(long, default_value_t = crosscheck::DEFAULT_THRESHOLD, value_name = "SHARE", value_parser = share)]
     threshold: f64,
     /// First month of the 12-month comparison period (default: the first projected month).
     #[arg(long, value_name = "YYYY-MM")]
@@ -37,8 +37,39 @@ pub struct CrossCheckArgs {
     no_report: bool,
 }
 
+/// A share written as a fraction (0.25) or a percentage (25%).
+fn share(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    let value = match t.strip_suffix('%') {
+        Some(p) => p.trim().parse::<f64>().map(|v| v / 100.0),
+        None => t.parse::<f64>(),
+    };
+    value.ok().filter(|v| v.is_finite()).ok_or_else(|| {
+        format!("'{text}' is not a share; write it as a fraction (0.25) or a percentage (25%)")
+    })
+}
+
 pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     let threshold = crosscheck::check_threshold(a.threshold)?;
+    super::refuse_input_named_as_output(
+        "crosscheck",
+        &a.dir,
+        &[
+            "crosscheck.csv",
+            "crosscheck_services.csv",
+            "crosscheck_rejected.csv",
+            "crosscheck.json",
+            "report.html",
+            "forecast.xlsx",
+            "forecast.csv",
+            "manifest.json",
+        ],
+        &[
+            ("--services", a.services.as_deref()),
+            ("--population", a.population.as_deref()),
+            ("--cyp", a.cyp.as_deref()),
+        ],
+    )?;
     // Held from here: the forecast read and the files written belong to
     // one version of the folder.
     let mut folder = super::start_existing(&a.dir)?;

@@ -954,6 +954,32 @@ fn resolved_path(p: &std::path::Path) -> Option<std::path::PathBuf> {
 /// or one output would silently replace the other. Checked before any
 /// work, so nothing is written. `outputs` and `inputs` pair an option name
 /// with the path given to it.
+/// Refuses an input that is one of the files a command writes into the
+/// forecast folder `dir` (`outputs`, by name): running would replace it.
+fn refuse_input_named_as_output(
+    command: &str,
+    dir: &std::path::Path,
+    outputs: &[&str],
+    inputs: &[(&str, Option<&std::path::Path>)],
+) -> anyhow::Result<()> {
+    for (flag, input) in inputs {
+        let Some(input) = input else { continue };
+        let Ok(given) = std::fs::canonicalize(input) else {
+            continue;
+        };
+        for name in outputs {
+            if resolved_path(&dir.join(name)).is_some_and(|o| o == given) {
+                anyhow::bail!(
+                    "{flag} {} is the file `provisio {command}` writes as {name} in {}; running would replace it: move or rename the input file (keep it outside the forecast folder)",
+                    input.display(),
+                    dir.display()
+                );
+            }
+        }
+    }
+    Ok(())
+}
+
 fn refuse_same_file(
     outputs: &[(&str, Option<&std::path::Path>)],
     inputs: &[(&str, Option<&std::path::Path>)],

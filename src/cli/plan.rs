@@ -64,6 +64,25 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     }
     .check()?;
     require_forecast(&a.dir)?;
+    super::refuse_input_named_as_output(
+        "plan",
+        &a.dir,
+        &[
+            "plan.csv",
+            "orders.csv",
+            "order_totals.csv",
+            "plan_log.csv",
+            "plan.json",
+            "report.html",
+            "forecast.xlsx",
+            "forecast.csv",
+            "manifest.json",
+        ],
+        &[
+            ("--stock", Some(&a.stock)),
+            ("--on-order", a.on_order.as_deref()),
+        ],
+    )?;
     let out = output::OutputDir::check(&a.dir, false)?;
     // Held from here: no other run writes the folder while it is planned.
     let mut folder = out.start()?;
