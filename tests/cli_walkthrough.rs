@@ -446,3 +446,50 @@ fn plan_and_crosscheck_never_replace_an_input_named_like_their_output() {
     let json = std::fs::read_to_string(fc.join("crosscheck.json")).unwrap();
     assert!(json.contains("\"threshold\": 0.25"), "{json}");
 }
+
+/// Files saved by a spreadsheet on Windows end their lines with CR LF; an
+/// error names the same line as in the LF file (common practice: line
+/// numbers as a text editor shows them).
+#[test]
+fn errors_in_side_files_with_windows_line_ends_name_the_right_line() {
+    let dir = tempfile::tempdir().unwrap();
+    fixture_forecast(dir.path());
+    let stock = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\r\n\
+                 A,1,2026-10,3,4,7,3,100,0.28\r\n\
+                 B,1,2026-10,3,4,7,3,100,0.28\r\n\
+                 C,abc,2026-10,3,4,7,3,100,0.28\r\n";
+    std::fs::write(dir.path().join("stock.csv"), stock).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["plan", "fc", "--stock", "stock.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("stock.csv:4: column 'stock_on_hand': \"abc\""),
+        "{t}"
+    );
+    std::fs::write(
+        dir.path().join("pins.csv"),
+        "product,model\r\nA,naive\r\nB,naive\r\nC,\r\n",
+    )
+    .unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            data.to_str().unwrap(),
+            "--pin",
+            "pins.csv",
+            "--out",
+            "o",
+            "--no-report",
+        ],
+    );
+    let t = text(&o);
+    assert!(
+        t.contains("pins.csv:4") || t.contains("pins.csv line 4"),
+        "{t}"
+    );
+}

@@ -394,6 +394,8 @@ type Header = (u64, Vec<String>);
 type Records = Vec<(u64, csv::StringRecord)>;
 
 fn csv_rows(file: &str, bytes: &[u8]) -> Result<(Header, Vec<Row>)> {
+    let lf = crate::data::lf_line_ends(bytes);
+    let bytes: &[u8] = &lf;
     let text = std::str::from_utf8(bytes).map_err(|e| Error::Input {
         file: file.to_string(),
         line: 0,

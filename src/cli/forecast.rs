@@ -405,10 +405,12 @@ fn with_silence(eval: &EvalArgs, horizon: usize, silence_limit: usize) -> Foreca
 }
 
 pub(super) fn read_pins(path: &Path) -> anyhow::Result<HashMap<String, String>> {
+    let bytes = std::fs::read(path)
+        .with_context(|| format!("{}: cannot read the pin file", path.display()))?;
+    let body = provisio::data::lf_line_ends(&bytes);
     let mut r = csv::ReaderBuilder::new()
         .flexible(true)
-        .from_path(path)
-        .with_context(|| format!("{}: cannot read the pin file", path.display()))?;
+        .from_reader(&body[..]);
     let headers: Vec<String> = r
         .headers()
         .with_context(|| format!("{}: cannot read the header", path.display()))?

@@ -55,6 +55,8 @@ impl Sheet {
         })?;
         let sha256 = crate::output::sha256_hex(&bytes);
         let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+        let lf = crate::data::lf_line_ends(body);
+        let body: &[u8] = &lf;
         if let Err(e) = std::str::from_utf8(body) {
             let line = 1 + body[..e.valid_up_to()]
                 .iter()

@@ -146,6 +146,8 @@ impl Sheet {
             message,
         };
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+        let lf = crate::data::lf_line_ends(bytes);
+        let bytes: &[u8] = &lf;
         let text = std::str::from_utf8(bytes).map_err(|e| {
             let line = 1 + bytes[..e.valid_up_to()]
                 .iter()

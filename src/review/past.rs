@@ -378,10 +378,12 @@ struct Table {
 
 impl Table {
     fn open(path: &Path, needed: &[&str]) -> Result<Table> {
+        let bytes = std::fs::read(path)
+            .map_err(|e| input_err(path, 0, None, format!("cannot read: {e}")))?;
+        let body = crate::data::lf_line_ends(&bytes).into_owned();
         let mut r = csv::ReaderBuilder::new()
             .flexible(true)
-            .from_path(path)
-            .map_err(|e| input_err(path, 0, None, format!("cannot read: {e}")))?;
+            .from_reader(std::io::Cursor::new(body));
         let columns: HashMap<String, usize> = r
             .headers()
             .map_err(|e| input_err(path, 1, None, format!("cannot read the header: {e}")))?
