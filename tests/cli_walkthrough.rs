@@ -493,3 +493,36 @@ fn errors_in_side_files_with_windows_line_ends_name_the_right_line() {
         "{t}"
     );
 }
+
+/// A changes file saved with semicolons (spreadsheets set to a decimal
+/// comma do so; common practice) is read as the stock, services and
+/// population files are, not refused for an unknown column.
+#[test]
+fn a_changes_file_with_semicolons_is_read() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("c.csv"),
+        "# a comment line first\nproduct;kind;first_month;last_month;value;start_value;other_product;factor;note\n\
+         Amoxicillin 250 mg dispersible tablet x10;percent-change;2027-01;;10;;;;more clinics\n",
+    )
+    .unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            data.to_str().unwrap(),
+            "--changes",
+            "c.csv",
+            "--out",
+            "o",
+            "--no-report",
+            "--no-workbook",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(t.contains("applied 1 change(s) from c.csv"), "{t}");
+    let summary = std::fs::read_to_string(dir.path().join("o/changes_summary.csv")).unwrap();
+    assert!(summary.contains("more clinics"), "{summary}");
+}

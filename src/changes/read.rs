@@ -405,7 +405,19 @@ fn csv_rows(file: &str, bytes: &[u8]) -> Result<(Header, Vec<Row>)> {
             e.valid_up_to()
         ),
     })?;
+    // The separator the first line that is not a comment uses most, as
+    // the other side files are read: spreadsheets set to a decimal comma
+    // save CSV with semicolons.
+    let first = text
+        .lines()
+        .find(|l| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+        .unwrap_or("");
+    let delimiter = [b',', b';', b'\t']
+        .into_iter()
+        .max_by_key(|d| first.bytes().filter(|b| b == d).count())
+        .unwrap_or(b',');
     let mut r = csv::ReaderBuilder::new()
+        .delimiter(delimiter)
         .flexible(true)
         .has_headers(false)
         .from_reader(text.as_bytes());
