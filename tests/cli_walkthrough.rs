@@ -526,3 +526,28 @@ fn a_changes_file_with_semicolons_is_read() {
     let summary = std::fs::read_to_string(dir.path().join("o/changes_summary.csv")).unwrap();
     assert!(summary.contains("more clinics"), "{summary}");
 }
+
+/// A change of 1e308 units, or a switch factor of 1e300, would write `inf`
+/// or 300-digit totals into the forecast; each is refused naming the line
+/// and column, with the range that would work (10^15 units a month is the
+/// bound of the data readers; common practice: no plausible change is near
+/// it).
+#[test]
+fn changes_beyond_any_plausible_size_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let head = "product,kind,first_month,last_month,value,start_value,other_product,factor,note\n";
+    for (row, want) in [
+        ("Amoxicillin 250 mg dispersible tablet x10,quantity-per-month,2027-01,,1e308,,,,n\n", "c.csv:2: column 'value': 1e308 is beyond what a change can be; give a number between -1e15 and 1e15"),
+        ("Zinc 20 mg dispersible tablet x10,switch,2027-01,,100,,Oral rehydration salts sachet,1e300,n\n", "c.csv:2: column 'factor': 1e300 is beyond what a change can be; give a number between -1e6 and 1e6"),
+    ] {
+        std::fs::write(dir.path().join("c.csv"), format!("{head}{row}")).unwrap();
+        let o = run_in(
+            dir.path(),
+            &["forecast", data.to_str().unwrap(), "--changes", "c.csv", "--out", "o", "--no-report"],
+        );
+        let t = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{t}");
+        assert!(t.contains(want), "{t}");
+    }
+}

@@ -184,10 +184,19 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
         let first =
             month("first_month", true)?.ok_or_else(|| at(n, None, "no first month".into()))?;
         let last = month("last_month", false)?;
-        let number = |name: &str| -> Result<Option<f64>> {
+        let number = |name: &str, limit: f64| -> Result<Option<f64>> {
             let (c, v) = get(name);
             if v.is_empty() {
                 return Ok(None);
+            }
+            if v.parse::<f64>()
+                .is_ok_and(|x| x.is_finite() && x.abs() > limit)
+            {
+                return Err(at(
+                    n,
+                    c,
+                    format!("{v} is beyond what a change can be; give a number between -{limit:e} and {limit:e} (a quantity in base units a month, a percentage, or a factor)"),
+                ));
             }
             // Plain numbers only: "1,5" could be 1.5 or 15, so it is
             // refused rather than guessed.
@@ -203,9 +212,11 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
                     )
                 })
         };
-        let value = number("value")?;
-        let start_value = number("start_value")?;
-        let factor = number("factor")?;
+        // The largest quantity the data readers take (10^15 units a month);
+        // a factor of units of one product per unit of another up to 10^6.
+        let value = number("value", 1e15)?;
+        let start_value = number("start_value", 1e15)?;
+        let factor = number("factor", 1e6)?;
         let (oc, other) = get("other_product");
         let other = (!other.is_empty()).then(|| crate::output::csv_text_read(other).to_string());
         let note = get("note").1.to_string();
