@@ -551,3 +551,38 @@ fn changes_beyond_any_plausible_size_are_refused() {
         assert!(t.contains(want), "{t}");
     }
 }
+
+/// Services rows dated after the current month are rejected like
+/// consumption rows (a service cannot be delivered in a month that has not
+/// come), and plain allowances above 1 are refused rather than read as
+/// multiples (README, crosscheck: "a plain share is refused with a hint").
+#[test]
+fn crosscheck_refuses_future_services_and_ambiguous_plain_shares() {
+    let dir = tempfile::tempdir().unwrap();
+    fixture_forecast(dir.path());
+    let (h, rows) = read_csv_file(&dir.path().join("fc/forecast.csv"));
+    let product = rows[0][h.iter().position(|c| c == "product").unwrap()].to_string();
+    let mut services = String::from("product,month,services,units_per_service,allowance\n");
+    for m in 1..=12 {
+        services.push_str(&format!("{product},2025-{m:02},100,1,0.1\n"));
+    }
+    services.push_str(&format!("{product},2099-01,100,1,0.1\n"));
+    services.push_str(&format!("{product},2025-12,100,1,10\n"));
+    std::fs::write(dir.path().join("s.csv"), services).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["crosscheck", "fc", "--services", "s.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("s.csv:14: column 'month': month 2099-01 is after the current month"),
+        "{t}"
+    );
+    assert!(
+        t.contains("s.csv:15: column 'allowance': allowance 10 is a plain number above 1, which could mean 10% or 1,000%"),
+        "{t}"
+    );
+    let rejected = std::fs::read_to_string(dir.path().join("fc/crosscheck_rejected.csv")).unwrap();
+    assert_eq!(rejected.lines().count(), 3, "{rejected}");
+}

@@ -92,7 +92,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         None => None,
     };
     let sv = match &a.services {
-        Some(p) => Some(read::read_services(p)?),
+        Some(p) => Some(read::read_services(p, super::current_month())?),
         None => None,
     };
     let mut warnings = fc.warnings.clone();

@@ -228,6 +228,20 @@ fn share(
     let n = parse_number(num, NumberFormat::Plain)
         .map_err(|_| problem(col, v, format!("'{v}' is not a number; expected {valid}")))?;
     match n.map(|x| if pct { x / 100.0 } else { x }) {
+        // A plain number above 1 could be a percentage without its sign
+        // (10 for 10%) or a multiple (10 for 1000%): refused, not guessed.
+        // A rate is episodes per person a year, where 2 means 2.
+        Some(x) if !pct && col != "rate" && x > 1.0 && x <= max => Err(problem(
+            col,
+            v,
+            format!(
+                "{col} {v} is a plain number above 1, which could mean {v}% or {}%; write {v}% or {} for {v}%, or {}% for {}%",
+                crate::chart::fmt_quantity(x * 100.0),
+                crate::chart::fmt_quantity(x / 100.0),
+                crate::chart::fmt_quantity(x * 100.0),
+                crate::chart::fmt_quantity(x * 100.0),
+            ),
+        )),
         Some(x) if !(0.0..=max).contains(&x) => Err(problem(
             col,
             v,
@@ -274,7 +288,9 @@ pub const SERVICES_OPTIONAL: [&str; 3] = ["site", "allowance", "reporting_rate"]
 
 /// Reads a services file. Rows with a bad value, or a second row for the
 /// same product, site and month, are rejected with the reason.
-pub fn read_services(path: &Path) -> Result<ServicesData> {
+/// `latest`: the current month; rows for later months are rejected (a
+/// service cannot have been delivered in a month that has not come yet).
+pub fn read_services(path: &Path, latest: Option<YearMonth>) -> Result<ServicesData> {
     let sheet = Sheet::read(path, "services file")?;
     sheet.require(&SERVICES_COLUMNS, &SERVICES_OPTIONAL)?;
     let has_site = sheet.columns.contains_key("site");
@@ -286,6 +302,13 @@ pub fn read_services(path: &Path) -> Result<ServicesData> {
             let product = product(&sheet, rec)?;
             let m = sheet.get(rec, "month");
             let month = parse_month(m).map_err(|e| problem("month", m, e))?;
+            if let Some(latest) = latest.filter(|l| month > *l) {
+                return Err(problem(
+                    "month",
+                    m,
+                    format!("month {month} is after the current month ({latest}): services cannot be reported for a month that has not come yet; check the year"),
+                ));
+            }
             let services = quantity(&sheet, rec, "services")?;
             let ups = quantity(&sheet, rec, "units_per_service")?.ok_or_else(|| {
                 problem("units_per_service", "", "units_per_service is empty; expected the product units used per service (e.g. 1 test kit per test)".into())

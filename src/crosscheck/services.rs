@@ -166,7 +166,10 @@ fn one(
     for t in 0..s.len() {
         let m = s.month(t);
         if m >= period_start && m <= period_end {
-            months.push((m, s.values[t], "observed"));
+            // A month the cleaning filled (no row, or a row left out) is
+            // not an observation.
+            let filled = s.imputed_share.get(t).is_some_and(|x| *x >= 0.5);
+            months.push((m, s.values[t], if filled { "filled" } else { "observed" }));
         }
     }
     let mut model = String::new();
