@@ -586,3 +586,26 @@ fn crosscheck_refuses_future_services_and_ambiguous_plain_shares() {
     let rejected = std::fs::read_to_string(dir.path().join("fc/crosscheck_rejected.csv")).unwrap();
     assert_eq!(rejected.lines().count(), 3, "{rejected}");
 }
+
+/// A CYP factor far outside those of any method (published factors run
+/// from 1/120 CYP per condom to about 10 for a sterilisation; USAID CYP
+/// table, from memory) is refused naming the line and column.
+#[test]
+fn cyp_factors_outside_any_method_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    fixture_forecast(dir.path());
+    let population = repo("datasets/demo/population.csv");
+    for (body, want) in [
+        ("method,cyp_per_unit\ncondom,1e-300\n", "cyp.csv:2: column 'cyp_per_unit': 1e-300 is outside the range of any method (0.0001 to 100)"),
+        ("method,units_per_cyp\ncondom,1e308\n", "cyp.csv:2: column 'units_per_cyp': 1e308 is outside the range of any method (0.01 to 10000)"),
+    ] {
+        std::fs::write(dir.path().join("cyp.csv"), body).unwrap();
+        let o = run_in(
+            dir.path(),
+            &["crosscheck", "fc", "--population", population.to_str().unwrap(), "--cyp", "cyp.csv", "--no-report"],
+        );
+        let t = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{t}");
+        assert!(t.contains(want), "{t}");
+    }
+}

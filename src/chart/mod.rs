@@ -132,6 +132,11 @@ pub fn fmt_quantity(v: f64) -> String {
         let s = format!("{v:.2}");
         return s.trim_end_matches('0').trim_end_matches('.').to_string();
     }
+    if a >= 1e15 {
+        // Beyond any real quantity, and near where a whole number stops
+        // fitting: written with its power of ten, never clipped.
+        return format!("{v:.3e}");
+    }
     let r = v.round() as i64;
     let digits = r.unsigned_abs().to_string();
     let mut out = String::new();
@@ -403,6 +408,9 @@ mod tests {
         assert_eq!(fmt_axis(2_500_000.0), "2.5M");
         assert_eq!(fmt_axis(1.25e11), "125bn");
         assert_eq!(fmt_axis(0.0), "0");
+        // Never clipped to the largest whole number a computer counts.
+        assert_eq!(fmt_quantity(1e31), "1.000e31");
+        assert_eq!(fmt_quantity(999_999_999_999_999.0), "999,999,999,999,999");
     }
 
     #[test]

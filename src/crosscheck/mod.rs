@@ -179,7 +179,9 @@ pub struct Comparison {
 
 /// Formats a ratio for people: "2.1×", "0.60×".
 pub fn fmt_ratio(r: f64) -> String {
-    if r >= 10.0 {
+    if r >= 1e6 {
+        format!("{r:.1e}×")
+    } else if r >= 10.0 {
         format!("{r:.0}×")
     } else if r >= 1.0 {
         format!("{r:.1}×")

@@ -576,9 +576,25 @@ pub fn read_cyp(path: &Path) -> Result<Vec<CypFactor>> {
                 o => Ok(o),
             }
         };
+        // Published factors run from 1/120 (a condom) to about 10 (a
+        // sterilisation); far outside, a value is a slip, and one of
+        // 1e-300 or 1e308 overflows the estimate.
+        let within = |col: &str, x: f64, lo: f64, hi: f64| -> Result<f64> {
+            if (lo..=hi).contains(&x) {
+                Ok(x)
+            } else {
+                Err(err(
+                    col,
+                    format!(
+                        "{} is outside the range of any method ({lo} to {hi}); check the value",
+                        sheet.get(rec, col)
+                    ),
+                ))
+            }
+        };
         let cyp = match (num("cyp_per_unit")?, num("units_per_cyp")?) {
-            (Some(c), None) => c,
-            (None, Some(u)) => 1.0 / u,
+            (Some(c), None) => within("cyp_per_unit", c, 0.0001, 100.0)?,
+            (None, Some(u)) => 1.0 / within("units_per_cyp", u, 0.01, 10_000.0)?,
             (Some(_), Some(_)) => {
                 return Err(err(
                     "units_per_cyp",
