@@ -609,3 +609,45 @@ fn cyp_factors_outside_any_method_are_refused() {
         assert!(t.contains(want), "{t}");
     }
 }
+
+/// A damaged row is named as such: a population row with a value beyond
+/// the header (the value would be dropped unread) and a stock row that ends
+/// early (common practice: say the row is short, not that a cell is empty).
+#[test]
+fn rows_longer_or_shorter_than_the_header_are_named_as_such() {
+    let dir = tempfile::tempdir().unwrap();
+    fixture_forecast(dir.path());
+    let pop = std::fs::read_to_string(repo("datasets/demo/population.csv")).unwrap();
+    let mut lines: Vec<String> = pop.lines().map(str::to_string).collect();
+    lines[1].push_str(",0.5");
+    std::fs::write(dir.path().join("p.csv"), lines.join("\n") + "\n").unwrap();
+    let o = run_in(
+        dir.path(),
+        &["crosscheck", "fc", "--population", "p.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    let n = lines[0].split(',').count();
+    assert!(
+        t.contains(&format!(
+            "p.csv:2: {} values but the header has {n} columns",
+            n + 1
+        )),
+        "{t}"
+    );
+    std::fs::write(
+        dir.path().join("s.csv"),
+        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\nA,20000,2026-10\n",
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["plan", "fc", "--stock", "s.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("s.csv:2: column 'lead_time_months': the row ends before this column: 3 values but the header has 9 columns"),
+        "{t}"
+    );
+}

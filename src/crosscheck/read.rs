@@ -117,6 +117,20 @@ impl Sheet {
             if rec.iter().all(|f| f.trim().is_empty()) {
                 continue;
             }
+            // Values beyond the header would be dropped unread (empty
+            // trailing cells, as spreadsheets write them, are no values).
+            if rec.iter().skip(header.len()).any(|f| !f.trim().is_empty()) {
+                return Err(input_error(
+                    &file,
+                    line,
+                    None,
+                    format!(
+                        "{} values but the header has {} columns; check for a stray delimiter, or a value without its column",
+                        (0..rec.len()).rev().find(|&i| !rec[i].trim().is_empty()).map_or(0, |i| i + 1),
+                        header.len()
+                    ),
+                ));
+            }
             records.push((line, rec));
         }
         Ok(Sheet {

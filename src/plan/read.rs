@@ -275,10 +275,27 @@ impl Sheet {
             .unwrap_or("")
     }
 
+    /// Why a required value is missing: the row ends before its column
+    /// (a lost delimiter or an unclosed quote), or the cell is empty.
+    fn missing(&self, row: &[String], column: &str, what: &str) -> String {
+        match self.columns.get(column) {
+            Some(&i) if i >= row.len() => format!(
+                "the row ends before this column: {} values but the header has {} columns; check for a missing delimiter or an unclosed quote",
+                row.len(),
+                self.columns.len()
+            ),
+            _ => format!("empty; {what}"),
+        }
+    }
+
     fn text(&self, line: u64, row: &[String], column: &str) -> Result<String> {
         let v = self.get(row, column);
         if v.is_empty() {
-            return Err(self.err(line, column, "empty; a value is required".into()));
+            return Err(self.err(
+                line,
+                column,
+                self.missing(row, column, "a value is required"),
+            ));
         }
         Ok(v.to_string())
     }
@@ -321,7 +338,7 @@ impl Sheet {
         what: &str,
     ) -> Result<f64> {
         self.number(line, row, column, ok, what)?
-            .ok_or_else(|| self.err(line, column, format!("empty; {what}")))
+            .ok_or_else(|| self.err(line, column, self.missing(row, column, what)))
     }
 
     fn whole(
@@ -392,7 +409,7 @@ pub fn read_stock(
             row,
             "stock_on_hand",
             nonneg,
-            "give the stock counted in base units, 0 or more",
+            "give the stock counted in base units, from 0 to 10^15",
         )?;
         let stock_date = sheet.month(line, row, "stock_date")?;
         let lead_time_months = sheet.whole(
@@ -446,7 +463,7 @@ pub fn read_stock(
             row,
             "unit_cost",
             nonneg,
-            "give the cost of one base unit, 0 or more",
+            "give the cost of one base unit, from 0 to 10^15",
         )?;
         let shelf_life_months = sheet.number(
             line,
@@ -519,7 +536,7 @@ pub fn read_on_order(
                     row,
                     "quantity",
                     |x| x > 0.0 && x <= 1e15,
-                    "give the quantity expected in base units, above 0",
+                    "give the quantity expected in base units, above 0 and at most 10^15",
                 )?,
                 month: sheet.month(line, row, "arrival_month")?,
             },
