@@ -651,3 +651,36 @@ fn rows_longer_or_shorter_than_the_header_are_named_as_such() {
         "{t}"
     );
 }
+
+/// provisio never forecasts below zero; a negative value in forecast.csv
+/// was typed by hand and is refused by `plan`, naming the line, instead of
+/// being planned as zero without a word (common practice: an edited input
+/// is questioned, not corrected silently).
+#[test]
+fn plan_refuses_a_negative_forecast_typed_into_forecast_csv() {
+    let dir = tempfile::tempdir().unwrap();
+    let fc = fixture_forecast(dir.path());
+    let text_of = std::fs::read_to_string(fc.join("forecast.csv")).unwrap();
+    let mut lines: Vec<String> = text_of.lines().map(str::to_string).collect();
+    let h: Vec<&str> = lines[0].split(',').collect();
+    let c = h.iter().position(|x| *x == "forecast").unwrap();
+    let mut cells: Vec<String> = lines[3].split(',').map(str::to_string).collect();
+    cells[c] = "-500".into();
+    lines[3] = cells.join(",");
+    std::fs::write(fc.join("forecast.csv"), lines.join("\n") + "\n").unwrap();
+    std::fs::write(
+        dir.path().join("s.csv"),
+        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\nA,1,2026-10,3,4,7,3,100,0.28\n",
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["plan", "fc", "--stock", "s.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("forecast.csv:4: column 'forecast': -500 is not valid"),
+        "{t}"
+    );
+}

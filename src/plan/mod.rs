@@ -523,6 +523,13 @@ pub fn plan_series(
             if policy.shelf_life_months.is_some_and(|l| m > l) {
                 flags.push(Flag::ExpiryRisk);
             }
+        } else if closing[t] > 0.0 {
+            // Stock with no consumption ahead (a phase-out): every unit is
+            // beyond the maximum, and with a shelf life it will expire.
+            flags.push(Flag::AboveMax);
+            if policy.shelf_life_months.is_some() {
+                flags.push(Flag::ExpiryRisk);
+            }
         }
         let expiring = policy
             .shelf_life_months

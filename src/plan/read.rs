@@ -699,10 +699,13 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
             continue;
         }
         let month = sheet.month(line, row, "month")?;
-        let any = |_: f64| true;
-        let point = sheet.required_number(line, row, c_point, any, "a number")?;
-        let upper80 = sheet.number(line, row, c_u80, any, "a number")?;
-        let upper95 = sheet.number(line, row, c_u95, any, "a number")?;
+        // provisio never forecasts below zero: a negative value was
+        // entered by hand, and the plan would otherwise read it as zero.
+        let nonneg = |x: f64| (0.0..=1e15).contains(&x);
+        let what = "a forecast from 0 to 10^15 (forecast.csv was edited: correct the value)";
+        let point = sheet.required_number(line, row, c_point, nonneg, what)?;
+        let upper80 = sheet.number(line, row, c_u80, nonneg, what)?;
+        let upper95 = sheet.number(line, row, c_u95, nonneg, what)?;
         if let Some(size) = sheet.number(line, row, "pack_size", |x| x > 0.0, "a number above 0")? {
             pack_sizes.entry(product.clone()).or_insert((size, line));
         }

@@ -166,6 +166,31 @@ fn overstock_and_expiry_flags() {
 }
 
 #[test]
+fn stock_with_no_demand_ahead_is_above_max_and_at_risk_of_expiry() {
+    // A product phased out: 20,000 on hand and nothing forecast. No months
+    // of stock can be computed (AMC 0), but the stock is all surplus
+    // (common practice: stock of a discontinued product is flagged for
+    // redistribution or disposal).
+    let start = ym(2026, 1);
+    let mut p = policy(20_000.0, start.plus(-1));
+    let fc = flat(start, 12, 0.0);
+    let plan = plan_series(&p, &fc, &[], &settings()).unwrap();
+    assert!(plan.months.iter().all(|m| m.months_of_stock.is_none()));
+    assert!(plan.months.iter().all(|m| m.flags == vec![Flag::AboveMax]));
+    p.shelf_life_months = Some(24.0);
+    let plan = plan_series(&p, &fc, &[], &settings()).unwrap();
+    for m in &plan.months {
+        assert_eq!(
+            m.flags,
+            vec![Flag::AboveMax, Flag::ExpiryRisk],
+            "{}",
+            m.month
+        );
+        assert_eq!(m.expiring, 20_000.0, "{}", m.month);
+    }
+}
+
+#[test]
 fn expiring_quantity_by_hand() {
     // Common practice: stock beyond AMC × shelf life cannot be used before
     // it expires.
