@@ -684,3 +684,46 @@ fn plan_refuses_a_negative_forecast_typed_into_forecast_csv() {
         "{t}"
     );
 }
+
+/// A stock count dated in a month to come is refused (a count is of stock
+/// that is there), and a maximum above the shelf life is warned about up
+/// front (common practice: max months of stock never exceed the shelf life,
+/// or ordered stock expires).
+#[test]
+fn plan_refuses_a_future_count_and_warns_of_a_maximum_beyond_shelf_life() {
+    let dir = tempfile::tempdir().unwrap();
+    let fc = fixture_forecast(dir.path());
+    let (h, rows) = read_csv_file(&fc.join("forecast.csv"));
+    let product = rows[0][h.iter().position(|c| c == "product").unwrap()].to_string();
+    let head = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost,shelf_life_months\n";
+    std::fs::write(
+        dir.path().join("future.csv"),
+        format!("{head}\"{product}\",100,2099-01,3,4,7,3,1,1,24\n"),
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["plan", "fc", "--stock", "future.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("future.csv:2: column 'stock_date': 2099-01 is after the current month"),
+        "{t}"
+    );
+    std::fs::write(
+        dir.path().join("life.csv"),
+        format!("{head}\"{product}\",100,2026-10,3,4,7,3,1,1,2\n"),
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["plan", "fc", "--stock", "life.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("max_months 7 is above shelf_life_months 2"),
+        "{t}"
+    );
+}

@@ -96,6 +96,33 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     let stock_bytes = std::fs::read(&a.stock)
         .map_err(|e| anyhow::anyhow!("{stock_name}: cannot read the stock file: {e}"))?;
     let (stock, mut warnings) = read::read_stock(&stock_name, &stock_bytes, numbers)?;
+    // A count of stock on hand is of a month that has come.
+    if let Some(now) = super::current_month() {
+        if let Some(r) = stock.iter().find(|r| r.policy.stock_date > now) {
+            anyhow::bail!(
+                "{stock_name}:{}: column 'stock_date': {} is after the current month ({now}): stock on hand is counted, so its month cannot be one that has not come yet; check the year",
+                r.line,
+                r.policy.stock_date
+            );
+        }
+    }
+    // An order up to more months than the shelf life lets stock expire
+    // by design.
+    for r in &stock {
+        if let Some(life) = r
+            .policy
+            .shelf_life_months
+            .filter(|l| r.policy.max_months > *l)
+        {
+            warnings.push(format!(
+                "{stock_name}:{}: '{}': max_months {} is above shelf_life_months {}: orders up to the maximum will leave stock to expire; lower max_months, or check the shelf life",
+                r.line,
+                r.product,
+                r.policy.max_months,
+                life
+            ));
+        }
+    }
     if forecast.adjusted {
         warnings.push(format!(
             "{}: the forecast run applied a changes file; the plan uses the adjusted forecast (columns adjusted, adjusted_upper_80, adjusted_upper_95)",
