@@ -727,3 +727,29 @@ fn plan_refuses_a_future_count_and_warns_of_a_maximum_beyond_shelf_life() {
         "{t}"
     );
 }
+
+/// Target groups of one product over one population whose shares add up
+/// to more than 1 count people twice (a share is part of a whole; common
+/// practice): a warning names the lines.
+#[test]
+fn group_shares_above_one_are_warned_about() {
+    let dir = tempfile::tempdir().unwrap();
+    fixture_forecast(dir.path());
+    let head = "product,group,method,population,group_share,rate,care_seeking,treated,quantity_per_course,loss_allowance\n";
+    std::fs::write(
+        dir.path().join("p.csv"),
+        format!("{head}P,a,morbidity,1500000,0.8,0.25,0.6,0.9,1,0.05\nP,b,morbidity,1500000,0.8,0.25,0.6,0.9,1,0.05\nP,c,morbidity,900000,0.8,0.25,0.6,0.9,1,0.05\n"),
+    )
+    .unwrap();
+    let o = run_in(
+        dir.path(),
+        &["crosscheck", "fc", "--population", "p.csv", "--no-report"],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("the morbidity groups of 'P' over a population of 1,500,000 (lines 2, 3) have shares adding up to 1.6"),
+        "{t}"
+    );
+    assert_eq!(t.matches("have shares adding up to").count(), 1, "{t}");
+}

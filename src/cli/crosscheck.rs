@@ -37,6 +37,36 @@ pub struct CrossCheckArgs {
     no_report: bool,
 }
 
+/// Warnings for target groups of one product, method and population whose
+/// shares add up to more than 1: the groups then count the same people
+/// more than once.
+fn group_shares_over_one(
+    rows: &[provisio::crosscheck::population::PopulationRow],
+    path: &std::path::Path,
+) -> Vec<String> {
+    let mut sums: std::collections::BTreeMap<(String, &str, u64), (f64, Vec<u64>)> =
+        Default::default();
+    for r in rows {
+        let e = sums
+            .entry((r.product.clone(), r.method.name(), r.population.to_bits()))
+            .or_default();
+        e.0 += r.group_share;
+        e.1.push(r.line);
+    }
+    sums.into_iter()
+        .filter(|(_, (sum, lines))| lines.len() > 1 && *sum > 1.0 + 1e-9)
+        .map(|((product, method, pop), (sum, lines))| {
+            format!(
+                "{}: the {method} groups of '{product}' over a population of {} (lines {}) have shares adding up to {}: together they count more people than there are; check group_share",
+                path.display(),
+                provisio::chart::fmt_quantity(f64::from_bits(pop)),
+                lines.iter().map(u64::to_string).collect::<Vec<_>>().join(", "),
+                provisio::chart::fmt_quantity(sum)
+            )
+        })
+        .collect()
+}
+
 /// A share written as a fraction (0.25) or a percentage (25%).
 fn share(text: &str) -> Result<f64, String> {
     let t = text.trim();
@@ -96,6 +126,9 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         None => None,
     };
     let mut warnings = fc.warnings.clone();
+    if let (Some((rows, _)), Some(path)) = (&pop, &a.population) {
+        warnings.extend(group_shares_over_one(rows, path));
+    }
     let (estimates, sv_warnings) = match &sv {
         Some(d) => services::estimate(d, start, &fc.settings, &fc.clean_settings)?,
         None => (Vec::new(), Vec::new()),
