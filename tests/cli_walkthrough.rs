@@ -753,3 +753,37 @@ fn group_shares_above_one_are_warned_about() {
     );
     assert_eq!(t.matches("have shares adding up to").count(), 1, "{t}");
 }
+
+/// A change row typed twice is applied twice and named (common practice:
+/// duplicates in a list of decisions are usually a slip).
+#[test]
+fn a_change_row_typed_twice_is_named() {
+    let dir = tempfile::tempdir().unwrap();
+    let row =
+        "Amoxicillin 250 mg dispersible tablet x10,percent-change,2027-01,,10,,,,more clinics\n";
+    std::fs::write(
+        dir.path().join("c.csv"),
+        format!("product,kind,first_month,last_month,value,start_value,other_product,factor,note\n{row}{row}"),
+    )
+    .unwrap();
+    let data = repo("datasets/demo/consumption.csv");
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            data.to_str().unwrap(),
+            "--changes",
+            "c.csv",
+            "--out",
+            "o",
+            "--no-report",
+            "--no-workbook",
+        ],
+    );
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("c.csv: line 3 repeats line 2 exactly; both are applied"),
+        "{t}"
+    );
+}

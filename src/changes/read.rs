@@ -7,6 +7,7 @@
 //! (a day, or a date cell, is accepted and ignored). Errors name the file,
 //! the line (or sheet row) and the column.
 
+use std::collections::HashMap;
 use std::path::Path;
 
 use calamine::Data;
@@ -134,6 +135,21 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
     }
     let mut changes = Vec::new();
     let mut warnings = Vec::new();
+    // A row typed twice is applied twice (+10% twice is +21%): both are
+    // kept, since two equal changes can be meant, and the repeat is named.
+    let mut seen: HashMap<Vec<String>, u64> = HashMap::new();
+    for r in &rows {
+        let key: Vec<String> = r.cells.iter().map(|c| c.trim().to_string()).collect();
+        if let Some(first) = seen.get(&key) {
+            warnings.push(format!(
+                "{file}: {} repeats {} exactly; both are applied, one after the other (a percentage change then compounds): delete one if it was entered twice",
+                place(r.number),
+                place(*first)
+            ));
+        } else {
+            seen.insert(key, r.number);
+        }
+    }
     for r in &rows {
         let get = |name: &str| -> (Option<usize>, &str) {
             match col(name) {
