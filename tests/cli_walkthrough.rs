@@ -21,6 +21,27 @@ fn field(h: &[String], r: &[String], name: &str) -> String {
     r[i].clone()
 }
 
+/// Runs `forecast` on the bundled demo data in `dir` with `args` after it.
+fn forecast_demo(dir: &std::path::Path, args: &[&str]) -> std::process::Output {
+    let data = repo("datasets/demo/consumption.csv");
+    let mut all = vec!["forecast", data.to_str().unwrap()];
+    all.extend_from_slice(args);
+    run_in(dir, &all)
+}
+
+/// The stock file's required columns, as its header.
+const STOCK_HEADER: &str = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost";
+
+/// Writes `s.csv` in `dir` and runs `plan fc --stock s.csv`, which must
+/// refuse it (exit 1); returns what it printed.
+fn plan_refusal(dir: &std::path::Path, stock: &str) -> String {
+    std::fs::write(dir.join("s.csv"), stock).unwrap();
+    let o = run_in(dir, &["plan", "fc", "--stock", "s.csv", "--no-report"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    t
+}
+
 /// `--origins 60` is in range (1-60), but 60 months of history leave no
 /// room for 60 origins with 12 months after each. The run must say how
 /// many it used, and the intermittent product must keep a method for
@@ -29,12 +50,9 @@ fn field(h: &[String], r: &[String], name: &str) -> String {
 #[test]
 fn many_origins_on_a_short_history_are_cut_with_a_warning_and_no_zero_projection() {
     let dir = tempfile::tempdir().unwrap();
-    let data = repo("datasets/demo/consumption.csv");
-    let o = run_in(
+    let o = forecast_demo(
         dir.path(),
         &[
-            "forecast",
-            data.to_str().unwrap(),
             "--origins",
             "60",
             "--out",
@@ -60,17 +78,7 @@ fn many_origins_on_a_short_history_are_cut_with_a_warning_and_no_zero_projection
     assert!(total > 0.0, "{total}");
     assert!(!t.contains("projected at zero"), "{t}");
     // The default count of origins never warns.
-    let o = run_in(
-        dir.path(),
-        &[
-            "forecast",
-            data.to_str().unwrap(),
-            "--out",
-            "d",
-            "--no-report",
-            "--no-workbook",
-        ],
-    );
+    let o = forecast_demo(dir.path(), &["--out", "d", "--no-report", "--no-workbook"]);
     assert!(o.status.success());
     assert!(!text(&o).contains("origins, but"), "{}", text(&o));
 }
@@ -474,18 +482,9 @@ fn errors_in_side_files_with_windows_line_ends_name_the_right_line() {
         "product,model\r\nA,naive\r\nB,naive\r\nC,\r\n",
     )
     .unwrap();
-    let data = repo("datasets/demo/consumption.csv");
-    let o = run_in(
+    let o = forecast_demo(
         dir.path(),
-        &[
-            "forecast",
-            data.to_str().unwrap(),
-            "--pin",
-            "pins.csv",
-            "--out",
-            "o",
-            "--no-report",
-        ],
+        &["--pin", "pins.csv", "--out", "o", "--no-report"],
     );
     let t = text(&o);
     assert!(
@@ -506,12 +505,9 @@ fn a_changes_file_with_semicolons_is_read() {
          Amoxicillin 250 mg dispersible tablet x10;percent-change;2027-01;;10;;;;more clinics\n",
     )
     .unwrap();
-    let data = repo("datasets/demo/consumption.csv");
-    let o = run_in(
+    let o = forecast_demo(
         dir.path(),
         &[
-            "forecast",
-            data.to_str().unwrap(),
             "--changes",
             "c.csv",
             "--out",
@@ -535,17 +531,13 @@ fn a_changes_file_with_semicolons_is_read() {
 #[test]
 fn changes_beyond_any_plausible_size_are_refused() {
     let dir = tempfile::tempdir().unwrap();
-    let data = repo("datasets/demo/consumption.csv");
     let head = "product,kind,first_month,last_month,value,start_value,other_product,factor,note\n";
     for (row, want) in [
         ("Amoxicillin 250 mg dispersible tablet x10,quantity-per-month,2027-01,,1e308,,,,n\n", "c.csv:2: column 'value': 1e308 is beyond what a change can be; give a number between -1e15 and 1e15"),
         ("Zinc 20 mg dispersible tablet x10,switch,2027-01,,100,,Oral rehydration salts sachet,1e300,n\n", "c.csv:2: column 'factor': 1e300 is beyond what a change can be; give a number between -1e6 and 1e6"),
     ] {
         std::fs::write(dir.path().join("c.csv"), format!("{head}{row}")).unwrap();
-        let o = run_in(
-            dir.path(),
-            &["forecast", data.to_str().unwrap(), "--changes", "c.csv", "--out", "o", "--no-report"],
-        );
+        let o = forecast_demo(dir.path(), &["--changes", "c.csv", "--out", "o", "--no-report"]);
         let t = text(&o);
         assert_eq!(o.status.code(), Some(1), "{t}");
         assert!(t.contains(want), "{t}");
@@ -635,17 +627,7 @@ fn rows_longer_or_shorter_than_the_header_are_named_as_such() {
         )),
         "{t}"
     );
-    std::fs::write(
-        dir.path().join("s.csv"),
-        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\nA,20000,2026-10\n",
-    )
-    .unwrap();
-    let o = run_in(
-        dir.path(),
-        &["plan", "fc", "--stock", "s.csv", "--no-report"],
-    );
-    let t = text(&o);
-    assert_eq!(o.status.code(), Some(1), "{t}");
+    let t = plan_refusal(dir.path(), &format!("{STOCK_HEADER}\nA,20000,2026-10\n"));
     assert!(
         t.contains("s.csv:2: column 'lead_time_months': the row ends before this column: 3 values but the header has 9 columns"),
         "{t}"
@@ -668,17 +650,10 @@ fn plan_refuses_a_negative_forecast_typed_into_forecast_csv() {
     cells[c] = "-500".into();
     lines[3] = cells.join(",");
     std::fs::write(fc.join("forecast.csv"), lines.join("\n") + "\n").unwrap();
-    std::fs::write(
-        dir.path().join("s.csv"),
-        "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost\nA,1,2026-10,3,4,7,3,100,0.28\n",
-    )
-    .unwrap();
-    let o = run_in(
+    let t = plan_refusal(
         dir.path(),
-        &["plan", "fc", "--stock", "s.csv", "--no-report"],
+        &format!("{STOCK_HEADER}\nA,1,2026-10,3,4,7,3,100,0.28\n"),
     );
-    let t = text(&o);
-    assert_eq!(o.status.code(), Some(1), "{t}");
     assert!(
         t.contains("forecast.csv:4: column 'forecast': -500 is not valid"),
         "{t}"
@@ -695,7 +670,7 @@ fn plan_refuses_a_future_count_and_warns_of_a_maximum_beyond_shelf_life() {
     let fc = fixture_forecast(dir.path());
     let (h, rows) = read_csv_file(&fc.join("forecast.csv"));
     let product = rows[0][h.iter().position(|c| c == "product").unwrap()].to_string();
-    let head = "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost,shelf_life_months\n";
+    let head = format!("{STOCK_HEADER},shelf_life_months\n");
     std::fs::write(
         dir.path().join("future.csv"),
         format!("{head}\"{product}\",100,2099-01,3,4,7,3,1,1,24\n"),
@@ -766,12 +741,9 @@ fn a_change_row_typed_twice_is_named() {
         format!("product,kind,first_month,last_month,value,start_value,other_product,factor,note\n{row}{row}"),
     )
     .unwrap();
-    let data = repo("datasets/demo/consumption.csv");
-    let o = run_in(
+    let o = forecast_demo(
         dir.path(),
         &[
-            "forecast",
-            data.to_str().unwrap(),
             "--changes",
             "c.csv",
             "--out",

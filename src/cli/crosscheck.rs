@@ -91,8 +91,6 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
             "crosscheck.json",
             "report.html",
             "forecast.xlsx",
-            "forecast.csv",
-            "manifest.json",
         ],
         &[
             ("--services", a.services.as_deref()),

@@ -75,8 +75,6 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
             "plan.json",
             "report.html",
             "forecast.xlsx",
-            "forecast.csv",
-            "manifest.json",
         ],
         &[
             ("--stock", Some(&a.stock)),
