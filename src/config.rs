@@ -80,7 +80,7 @@ pub const ENCODINGS: [&str; 3] = ["utf-8", "latin1", "windows-1252"];
 /// Valid names of `selection.select_by`.
 pub const SCORES: [&str; 5] = ["mape", "wape", "mase", "rmse", "rmsse"];
 /// Valid names of `selection.default_model`.
-pub const DEFAULT_MODELS: [&str; 3] = ["auto", "combination", "best-five-mean"];
+pub const DEFAULT_MODELS: [&str; 4] = ["auto", "combination", "best-five-mean", "weighted-mean"];
 /// Valid names of `backtest.backtest_detail`.
 pub const DETAILS: [&str; 3] = ["chosen", "compared", "all"];
 /// Largest `min_months` accepted (100 years).
@@ -121,7 +121,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("backtest", "backtest_detail", "text", "\"chosen\"", "\"chosen\", \"compared\", \"all\"", "models whose backtest forecasts and scores by months ahead are written to backtest.csv and scores_by_horizon.csv: the chosen model; the chosen model, runner-up and combination; or every model", "\"chosen\""),
     key("selection", "select_by", "text", "\"mase\"", "\"mape\", \"wape\", \"mase\", \"rmse\", \"rmsse\"", "score to choose models by (intermittent demand is always scored by RMSSE; MAPE falls back to WAPE when over a third of the backtest months are zero)", "\"mase\""),
     key("selection", "tie_margin", "number", "0.5", "0 to 0.9", "relative gap by which another model must beat the default (the run's default, see default_model; SBA for intermittent demand), besides winning at enough backtest origins", "0.5"),
-    key("selection", "default_model", "text", "\"auto\"", "\"auto\", \"combination\", \"best-five-mean\"", "the default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or chosen for the run on its own backtest", "\"auto\""),
+    key("selection", "default_model", "text", "\"auto\"", "\"auto\", \"combination\", \"best-five-mean\", \"weighted-mean\"", "the default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, the run's weighted mean (weights learned across its products' backtests), or chosen for the run on its own backtest", "\"auto\""),
     key("selection", "pin", "text (path)", "not set", "a CSV file with columns product, model", "pinned models; relative to the folder of the configuration file", "\"pins.csv\""),
     key("projection", "changes", "text (path)", "not set", "a CSV file or workbook of known changes", "known changes ahead applied to the statistical projection (the adjusted forecast); relative to the folder of the configuration file", "\"changes.csv\""),
     key("projection", "horizon", "integer", "24", "1 to 60", "months projected, from the month after the data set's last month", "24"),

@@ -79,6 +79,9 @@ pub enum DefaultRule {
     Combination,
     /// Always the mean of each product's best five.
     BestMean,
+    /// Always the run's weighted mean ([`crate::weights`]), where the run
+    /// has the products to learn its weights.
+    WeightedMean,
 }
 
 impl DefaultRule {
@@ -88,6 +91,7 @@ impl DefaultRule {
             DefaultRule::Auto => "auto",
             DefaultRule::Combination => COMBINATION,
             DefaultRule::BestMean => BEST_MEAN,
+            DefaultRule::WeightedMean => crate::weights::WEIGHTED_MEAN,
         }
     }
 }
@@ -107,6 +111,13 @@ pub struct DefaultChoice {
     pub pool_error: Option<f64>,
     /// One-sided p-value of the paired t-test (pool lower).
     pub p: Option<f64>,
+    /// Mean scaled absolute error of the weighted mean (weights learned on
+    /// the earlier origins) on the later origins' unseen months
+    /// ([`crate::weights::check`]).
+    pub weighted_error: Option<f64>,
+    /// The run's learned weights, largest first (empty when none were
+    /// learned).
+    pub weights: Vec<(String, f64)>,
     /// Plain-words reason.
     pub reason: String,
 }
@@ -120,6 +131,8 @@ pub struct ProductCheck {
     /// [`year_earlier_check`]: members chosen on a backtest just before the
     /// run's own.
     pub earlier: Option<(f64, f64)>,
+    /// [`crate::weights::check`]: (combination, pool, weighted mean).
+    pub weighted: Option<(f64, Option<f64>, f64)>,
 }
 
 /// Which of the two checks decided.
@@ -153,7 +166,10 @@ fn ranked_runs<'a>(bt: &'a Backtest, rank: &dyn Fn(&ModelRun) -> Option<f64>) ->
         .runs
         .iter()
         .filter(|r| {
-            may_join(&r.status, bt.origins.len()) && r.model != COMBINATION && r.model != BEST_MEAN
+            may_join(&r.status, bt.origins.len())
+                && r.model != COMBINATION
+                && r.model != BEST_MEAN
+                && r.model != crate::weights::WEIGHTED_MEAN
         })
         .filter_map(|r| rank(r).filter(|v| v.is_finite()).map(|v| (v, r)))
         .collect();
@@ -258,7 +274,7 @@ pub fn recentre(pool: &mut Forecast, combination: &Forecast) {
 /// The pool's members chosen on the earlier half of the backtest origins
 /// only, by MASE; `None` with fewer than [`MIN_ORIGINS`] origins or
 /// [`BEST_MEAN_MIN`] candidates that may join.
-fn early_members(bt: &Backtest) -> Option<Vec<&ModelRun>> {
+pub(crate) fn early_members(bt: &Backtest) -> Option<Vec<&ModelRun>> {
     let k = bt.origins.len();
     if k < MIN_ORIGINS {
         return None;
@@ -452,6 +468,8 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
         combination_error: ce,
         pool_error: pe,
         p,
+        weighted_error: None,
+        weights: Vec::new(),
         reason: String::new(),
     };
     let (made, months) = match kind {
@@ -473,7 +491,7 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
         _ => format!("{n} products allowed the check"),
     };
     match rule {
-        DefaultRule::Combination => DefaultChoice {
+        DefaultRule::Combination | DefaultRule::WeightedMean => DefaultChoice {
             reason: "the fixed combination, as set (--default-model combination)".into(),
             ..base
         },
@@ -504,6 +522,135 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
             ..base
         },
     }
+}
+
+/// [`decide`], then the run's weighted mean ([`crate::weights`]) in place
+/// of the fixed combination. Under `auto`, when [`decide`] kept the
+/// combination, the weighted mean replaces it unless its check shows it
+/// worse: over the products of [`crate::weights::check`] (weights learned
+/// on the earlier origins, scored on the later origins' months they never
+/// saw; at least [`MIN_PRODUCTS`]), a one-sided paired t-test at p ≤
+/// [`LEVEL`] that the combination's scaled error is lower. When the pool
+/// won on evidence against the combination, the pool stays: the weighted
+/// mean is an improved combination, not a challenger to a per-product
+/// rule that has shown it pays (on the generated benchmark sets, where the
+/// pool is chosen, the check could not separate the two on one seed and
+/// the weighted mean lost there on the hidden months).
+///
+/// Why the weighted mean needs no evidence of being better, when the pool
+/// does: the fixed combination is one of the weighted means the forward
+/// selection can reach (ets-auto, arima-auto and theta a third each), and
+/// the weights are one set for the run, learned on every product's
+/// backtest, so they do not fit one product's windows; the pool chooses
+/// members per product, which on M1 monthly lost out of sample. And the
+/// check cannot tell means this close apart: on M1 monthly the weighted mean
+/// scored 1.162 against the combination's 1.156 on the check and 1.026
+/// against 1.038 on the hidden months (`provisio evaluate --holdout 18`).
+pub fn decide_with_weights(
+    rule: DefaultRule,
+    checks: &[ProductCheck],
+    weights: Option<&crate::weights::RunWeights>,
+) -> DefaultChoice {
+    use crate::weights::WEIGHTED_MEAN;
+    let mut choice = decide(rule, checks);
+    let Some(w) = weights else {
+        if rule == DefaultRule::WeightedMean {
+            choice.reason = format!(
+                "the fixed combination: the weighted mean was asked for (--default-model {WEIGHTED_MEAN}), but fewer than {} products have the backtest to learn its weights from",
+                crate::weights::MIN_PRODUCTS
+            );
+        }
+        return choice;
+    };
+    choice.weights = w.shares();
+    let shown = choice
+        .weights
+        .iter()
+        .map(|(m, s)| format!("{m} {s:.2}"))
+        .collect::<Vec<_>>()
+        .join(", ");
+    let learned = format!(
+        "weights learned on the backtests of {} products ({} forecasts): {shown}",
+        w.products, w.points
+    );
+    let triples: Vec<(f64, Option<f64>, f64)> = checks.iter().filter_map(|c| c.weighted).collect();
+    let n = triples.len();
+    let mean_of = |v: &[(f64, f64)], i: usize| {
+        (!v.is_empty()).then(|| {
+            v.iter()
+                .map(|x| if i == 0 { x.0 } else { x.1 })
+                .sum::<f64>()
+                / v.len() as f64
+        })
+    };
+    // (the weighted mean's error, the other's) on the same products.
+    let against_combination: Vec<(f64, f64)> = triples.iter().map(|t| (t.2, t.0)).collect();
+    let against_pool: Vec<(f64, f64)> = triples
+        .iter()
+        .filter_map(|t| t.1.map(|p| (t.2, p)))
+        .collect();
+    choice.weighted_error = mean_of(&against_combination, 0);
+    if rule == DefaultRule::WeightedMean {
+        choice.default = WEIGHTED_MEAN;
+        choice.reason =
+            format!("the run's weighted mean, as set (--default-model {WEIGHTED_MEAN}); {learned}");
+        return choice;
+    }
+    if rule != DefaultRule::Auto {
+        return choice;
+    }
+    if n < MIN_PRODUCTS {
+        choice.reason.push_str(&format!(
+            "; the run's weighted mean was not checked: {n} products allowed its check, fewer than the {MIN_PRODUCTS} it needs"
+        ));
+        return choice;
+    }
+    let pool_default = choice.default == BEST_MEAN;
+    let mut compared = vec![("the combination", &against_combination)];
+    if pool_default {
+        compared.push(("the mean of each product's best five", &against_pool));
+    }
+    let mut parts = Vec::new();
+    let mut worse_than = None;
+    for (name, pairs) in compared {
+        let (Some(we), Some(oe)) = (mean_of(pairs, 0), mean_of(pairs, 1)) else {
+            continue;
+        };
+        // p that the other's error is lower.
+        let p = paired_t_p(pairs);
+        parts.push(format!(
+            "{we:.3} against {name}'s {oe:.3} over {} products (paired t-test that {name} is better, one-sided p {})",
+            pairs.len(),
+            p.map(fmt_p).unwrap_or_else(|| "not defined".into())
+        ));
+        if p.is_some_and(|p| p <= LEVEL) && oe < we && worse_than.is_none() {
+            worse_than = Some(name);
+        }
+    }
+    let evidence = format!(
+        "{learned}; learned on the backtest's earlier origins only, it scored {} on the later months they never saw",
+        parts.join(", and ")
+    );
+    match worse_than {
+        None if pool_default => {
+            choice.reason.push_str(&format!(
+                "; the run's weighted mean, which would replace the fixed combination, does not replace the pool chosen on evidence: {evidence}"
+            ));
+        }
+        None => {
+            choice.reason = format!(
+                "the run's weighted mean: {evidence}; not worse at the {LEVEL} level, so it replaces the fixed combination ({})",
+                choice.reason
+            );
+            choice.default = WEIGHTED_MEAN;
+        }
+        Some(name) => {
+            choice.reason.push_str(&format!(
+                "; the run's weighted mean was checked and not chosen: {evidence}; worse than {name} at the {LEVEL} level"
+            ));
+        }
+    }
+    choice
 }
 
 fn fmt_p(p: f64) -> String {
@@ -577,6 +724,7 @@ mod tests {
             .map(|h| ProductCheck {
                 halves: Some(h),
                 earlier: None,
+                weighted: None,
             })
             .collect()
     }
@@ -593,6 +741,7 @@ mod tests {
                 .map(|(i, (h, e))| ProductCheck {
                     halves: Some(h),
                     earlier: (i < earlier_n).then_some(e),
+                    weighted: None,
                 })
                 .collect()
         };

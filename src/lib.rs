@@ -71,5 +71,6 @@ pub mod quality;
 pub mod report;
 pub mod review;
 pub mod select;
+pub mod weights;
 
 pub use error::{Error, Result};

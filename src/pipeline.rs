@@ -17,6 +17,7 @@ use crate::models::Forecast;
 use crate::models::{candidates, with_season, AnyModel, Season};
 use crate::project::{check_horizon, project_with, silence_warning, FitCache, Projection};
 use crate::select::{complexity, select, SelectSettings, Selection, INTERMITTENT_DEFAULT};
+use crate::weights::{self, RunWeights, WEIGHTED_MEAN};
 
 /// Methods made for intermittent demand only (they compete for no other).
 pub const CROSTON_FAMILY: [&str; 2] = ["croston", "tsb"];
@@ -152,6 +153,9 @@ pub struct CheckedForecastSettings {
     horizon: usize,
     silence: usize,
     raw: ForecastSettings,
+    /// The run's learned weights ([`crate::weights`]), set by the run
+    /// before its products are forecast.
+    weights: Option<std::sync::Arc<RunWeights>>,
 }
 
 impl CheckedForecastSettings {
@@ -170,6 +174,7 @@ impl ForecastSettings {
             horizon: check_horizon(self.horizon)?,
             silence: crate::project::check_silence_limit(self.silence_limit)?,
             raw: self,
+            weights: None,
         })
     }
 }
@@ -266,7 +271,8 @@ pub fn forecast_product_with(
         DefaultRule::BestMean => BEST_MEAN,
         _ => COMBINATION,
     };
-    let (mut v, _) = forecast_product_defaults(series, models, settings, opts, &[kind], false);
+    let (mut v, _) =
+        forecast_product_defaults(series, models, settings, opts, &[kind], false, None);
     v.swap_remove(0)
 }
 
@@ -282,6 +288,7 @@ pub fn forecast_product_defaults(
     opts: &ProductOptions,
     defaults: &[&str],
     earlier: bool,
+    pre: Option<Backtest>,
 ) -> Alternatives<ProductForecast> {
     match product_stages(
         series,
@@ -289,50 +296,83 @@ pub fn forecast_product_defaults(
         settings,
         opts,
         defaults,
-        Stage::All,
+        Stage::All(pre),
         earlier,
     ) {
         Staged::All(v, check) => (v, check),
         Staged::Pending(r, _, check) => (vec![*r], check),
+        Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
     }
 }
 
-/// What the pool's default would do for a product, kept until the run has
-/// chosen its default: the selection under it, its backtest run and
-/// scores. Projected only when the run chooses the pool
+/// The backtest a product's selection runs on, before any mean learned
+/// across the run is added to it: `None` for intermittent demand (which
+/// the run's weighted mean does not apply to) and for a series too short
+/// to backtest.
+fn product_backtest(
+    series: &CleanSeries,
+    models: &[Box<dyn AnyModel>],
+    settings: &CheckedForecastSettings,
+    opts: &ProductOptions,
+) -> Option<Backtest> {
+    match product_stages(
+        series,
+        models,
+        settings,
+        opts,
+        &[COMBINATION],
+        Stage::BacktestOnly,
+        false,
+    ) {
+        Staged::Backtest(bt) => bt,
+        _ => None,
+    }
+}
+
+/// What the pool's default (or the run's weighted mean) would do for a
+/// product, kept until the run has chosen its default: the selection under
+/// it, its backtest run and scores. Projected only when the run chooses it
 /// ([`finish_pending`]), so a run that keeps the combination projects
 /// each product once.
 #[derive(Debug, Clone)]
 pub struct PendingPool {
+    /// [`BEST_MEAN`] or [`WEIGHTED_MEAN`].
+    kind: &'static str,
     selection: Selection,
     calibration: Option<backtest::ModelRun>,
-    run: backtest::ModelRun,
-    scores: ModelScores,
+    /// The pool's run, added to the backtest when resumed (the weighted
+    /// mean's is in it from the start).
+    run: Option<(backtest::ModelRun, ModelScores)>,
     members: Vec<String>,
     /// The whole-history fits made for the combination's projection,
     /// reused by the pool's.
     fits: Vec<(String, usize, Forecast)>,
 }
 
-/// How far [`product_stages`] goes.
+/// How far [`product_stages`] goes; `Option<Backtest>`: the product's
+/// backtest when it was already run ([`product_backtest`]).
 enum Stage {
+    /// The backtest only ([`product_backtest`]).
+    BacktestOnly,
     /// Every default finished.
-    All,
-    /// The combination finished, the pool's selection kept pending.
-    Staged,
+    All(Option<Backtest>),
+    /// The combination finished, the other defaults' selections kept
+    /// pending.
+    Staged(Option<Backtest>),
     /// Finish a pending pool on the finished combination's backtest.
     Resume(Box<PendingPool>, Box<ProductForecast>),
 }
 
 /// What [`product_stages`] returns.
 enum Staged {
+    Backtest(Option<Backtest>),
     All(Vec<ProductForecast>, ProductCheck),
-    Pending(Box<ProductForecast>, Option<Box<PendingPool>>, ProductCheck),
+    Pending(Box<ProductForecast>, Vec<PendingPool>, ProductCheck),
 }
 
-/// The combination's result of a product, its pending pool and its check
-/// (see [`forecast_run`]).
-pub type StagedProduct = (ProductForecast, Option<Box<PendingPool>>, ProductCheck);
+/// The combination's result of a product, its pending defaults and its
+/// check (see [`forecast_run`]).
+pub type StagedProduct = (ProductForecast, Vec<PendingPool>, ProductCheck);
 
 /// The product under the combination, with the pool's selection pending
 /// (`earlier`: see [`forecast_product_defaults`]).
@@ -342,18 +382,26 @@ pub fn forecast_product_staged(
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
     earlier: bool,
+    pre: Option<Backtest>,
 ) -> StagedProduct {
+    let with_weighted = [COMBINATION, BEST_MEAN, WEIGHTED_MEAN];
+    let defaults: &[&str] = if settings.weights.is_some() {
+        &with_weighted
+    } else {
+        &with_weighted[..2]
+    };
     match product_stages(
         series,
         models,
         settings,
         opts,
-        &[COMBINATION, BEST_MEAN],
-        Stage::Staged,
+        defaults,
+        Stage::Staged(pre),
         earlier,
     ) {
         Staged::Pending(r, p, check) => (*r, p, check),
-        Staged::All(mut v, check) => (v.swap_remove(0), None, check),
+        Staged::All(mut v, check) => (v.swap_remove(0), Vec::new(), check),
+        Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
     }
 }
 
@@ -367,19 +415,21 @@ pub fn finish_pending(
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
     done: ProductForecast,
-    pending: Box<PendingPool>,
+    pending: PendingPool,
 ) -> ProductForecast {
+    let kind = [pending.kind];
     match product_stages(
         series,
         models,
         settings,
         opts,
-        &[BEST_MEAN],
-        Stage::Resume(pending, Box::new(done)),
+        &kind,
+        Stage::Resume(Box::new(pending), Box::new(done)),
         false,
     ) {
         Staged::All(mut v, _) => v.swap_remove(0),
         Staged::Pending(r, _, _) => *r,
+        Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
     }
 }
 
@@ -478,12 +528,15 @@ fn product_stages(
         }
     };
     let too_short = opts.min_months.filter(|&m| y.len() < m);
-    let staged = matches!(stage, Stage::Staged);
-    let (bt, resume) = match stage {
+    let staged = matches!(stage, Stage::Staged(_));
+    let only_backtest = matches!(stage, Stage::BacktestOnly);
+    let intermittent = class.is_intermittent() && !forced_seasonal;
+    let (mut bt, resume) = match stage {
         Stage::Resume(pending, done) => {
             let d = *done;
             (d.backtest, Some((pending, d.scores)))
         }
+        Stage::All(Some(pre)) | Stage::Staged(Some(pre)) => (pre, None),
         _ => (
             match too_short {
                 // No model is backtested, so selection falls back below.
@@ -493,6 +546,22 @@ fn product_stages(
             None,
         ),
     };
+    if only_backtest {
+        return Staged::Backtest(
+            (!intermittent && too_short.is_none() && bt.run(COMBINATION).is_some()).then_some(bt),
+        );
+    }
+    // The run's weighted mean joins as a candidate for demand that is not
+    // intermittent (once: a resumed backtest has it).
+    let run_weights = settings.weights.as_deref().filter(|_| !intermittent);
+    if let (Some(w), None) = (run_weights, &resume) {
+        if too_short.is_none() {
+            bt.runs.push(weights::weighted_run(&bt, &w.members));
+        }
+    }
+    let weighted_ok = bt
+        .run(WEIGHTED_MEAN)
+        .is_some_and(|r| r.status == RunStatus::Complete);
     // Simplest applicable model, for series too short to backtest.
     let mut by_simplicity: Vec<&Box<dyn AnyModel>> = models.iter().collect();
     by_simplicity.sort_by_key(|m| complexity(&m.name()));
@@ -530,7 +599,6 @@ fn product_stages(
         }
         other => other,
     };
-    let intermittent = class.is_intermittent() && !forced_seasonal;
     let inputs =
         |bt, base_scores, selection, pool_members, extra_keep, cache, calibration| FinishInputs {
             bt,
@@ -578,17 +646,19 @@ fn product_stages(
     };
     if let Some((pending, done_scores)) = resume {
         let PendingPool {
+            kind: _,
             selection,
             calibration,
             run,
-            scores,
             members,
             fits,
         } = *pending;
         let mut bt = bt;
-        bt.runs.push(run);
         let mut all = done_scores;
-        all.push(scores);
+        if let Some((run, scores)) = run {
+            bt.runs.push(run);
+            all.push(scores);
+        }
         let cache = FitCache::seeded(fits);
         let r = finish(inputs(
             bt,
@@ -619,6 +689,9 @@ fn product_stages(
     let check = ProductCheck {
         halves,
         earlier: year_earlier,
+        weighted: run_weights
+            .filter(|_| checking && weighted_ok)
+            .and_then(|w| weights::check(&bt, &w.early)),
     };
     let base_scores: Vec<ModelScores> = bt.runs.iter().map(|r| model_scores(&bt, r)).collect();
     // The pool applies to demand that is not intermittent, with enough
@@ -642,35 +715,45 @@ fn product_stages(
         // with every run it names, for the run's decision.
         let selection = select_under(&bt, COMBINATION);
         let mut bt = bt;
-        let pending = pool_run.map(|run| {
+        let mut pending: Vec<PendingPool> = Vec::with_capacity(2);
+        if let Some(run) = pool_run {
             let members = run.members.first().cloned().unwrap_or_default();
             bt.runs.push(run);
             let selection = select_under(&bt, BEST_MEAN);
             let run = bt.runs.pop().expect("pushed above");
             let scores = model_scores(&bt, &run);
-            Box::new(PendingPool {
+            pending.push(PendingPool {
+                kind: BEST_MEAN,
                 selection,
                 calibration: calibration.clone(),
-                run,
-                scores,
+                run: Some((run, scores)),
                 members,
                 fits: Vec::new(),
-            })
-        });
+            });
+        }
+        if let Some(w) = run_weights.filter(|_| weighted_ok && defaults.contains(&WEIGHTED_MEAN)) {
+            pending.push(PendingPool {
+                kind: WEIGHTED_MEAN,
+                selection: select_under(&bt, WEIGHTED_MEAN),
+                calibration: weights::calibration_run(&bt, w),
+                run: None,
+                members: w.members.clone(),
+                fits: Vec::new(),
+            });
+        }
         let keep: Vec<String> = pending
-            .as_ref()
-            .map(|p| {
+            .iter()
+            .flat_map(|p| {
                 let s = &p.selection;
                 [
                     Some(s.chosen.clone()),
                     Some(s.best.clone()),
                     s.runner_up.as_ref().map(|r| r.0.clone()),
+                    Some(p.kind.to_string()),
                 ]
-                .into_iter()
-                .flatten()
-                .collect()
             })
-            .unwrap_or_default();
+            .flatten()
+            .collect();
         let r = finish(inputs(
             bt,
             &base_scores,
@@ -680,9 +763,9 @@ fn product_stages(
             &cache,
             None,
         ));
-        let mut pending = pending;
-        if let Some(p) = pending.as_mut() {
-            p.fits = cache.into_fits();
+        let fits = cache.into_fits();
+        for p in pending.iter_mut() {
+            p.fits = fits.clone();
         }
         return Staged::Pending(Box::new(r), pending, check);
     }
@@ -691,18 +774,20 @@ fn product_stages(
         .map(|&d| {
             if d == BEST_MEAN && pool_run.is_some() {
                 BEST_MEAN
+            } else if d == WEIGHTED_MEAN && run_weights.is_some() && weighted_ok {
+                WEIGHTED_MEAN
             } else {
                 COMBINATION
             }
         })
         .collect();
-    let mut unique: Vec<&str> = Vec::with_capacity(2);
+    let mut unique: Vec<&str> = Vec::with_capacity(3);
     for &kind in &effective {
         if !unique.contains(&kind) {
             unique.push(kind);
         }
     }
-    let mut done: Vec<(&str, ProductForecast)> = Vec::with_capacity(2);
+    let mut done: Vec<(&str, ProductForecast)> = Vec::with_capacity(3);
     let mut last_bt = Some(bt);
     for (i, &kind) in unique.iter().enumerate() {
         let mut bt = if i + 1 == unique.len() {
@@ -716,14 +801,19 @@ fn product_stages(
                 .clone()
         };
         let mut pool_members: Vec<String> = Vec::new();
+        let mut own_calibration = None;
         if kind == BEST_MEAN {
             if let Some(run) = &pool_run {
                 pool_members = run.members.first().cloned().unwrap_or_default();
                 bt.runs.push(run.clone());
             }
+            own_calibration = calibration.clone();
+        } else if let (WEIGHTED_MEAN, Some(w)) = (kind, run_weights) {
+            pool_members = w.members.clone();
+            own_calibration = weights::calibration_run(&bt, w);
         }
         let selection = select_under(&bt, kind);
-        let calibration = calibration.clone().filter(|_| kind == BEST_MEAN);
+        let calibration = own_calibration;
         let r = finish(inputs(
             bt,
             &base_scores,
@@ -911,7 +1001,7 @@ fn finish_product(
             .map(|m| m.as_ref())
     };
     let members_of = |name: &str| -> Vec<&dyn AnyModel> {
-        if name == BEST_MEAN {
+        if name == BEST_MEAN || name == WEIGHTED_MEAN {
             pool_members.iter().filter_map(|n| find(n)).collect()
         } else if name == COMBINATION {
             // The combination's fixed members that can be fitted on the
@@ -935,7 +1025,7 @@ fn finish_product(
             settings.horizon,
             Some(cache),
         )?;
-        if name == BEST_MEAN {
+        if name == BEST_MEAN || name == WEIGHTED_MEAN {
             let fixed = members_of(COMBINATION);
             if let Ok(c) = project_with(
                 y,
@@ -997,7 +1087,7 @@ fn finish_product(
     let ranges = match (projection.as_mut(), bt.run(&selection.chosen)) {
         (Some(p), Some(run)) if p.model == selection.chosen => {
             let points = match &calibration {
-                Some(c) if selection.chosen == BEST_MEAN => bt.points(c),
+                Some(c) if selection.chosen == c.model => bt.points(c),
                 _ => bt.points(run),
             };
             pool_entry = Some(PoolEntry {
@@ -1316,13 +1406,47 @@ pub fn forecast_all_with(
 /// of the two ([`ProductCheck`]).
 pub type Alternatives<T> = (Vec<T>, ProductCheck);
 
-/// The defaults a run computes for every product under its rule.
-fn run_defaults(rule: DefaultRule) -> &'static [&'static str] {
-    match rule {
-        DefaultRule::Auto => &[COMBINATION, BEST_MEAN],
-        DefaultRule::Combination => &[COMBINATION],
-        DefaultRule::BestMean => &[BEST_MEAN],
+/// The defaults a run computes for every product under its rule (the
+/// weighted mean only when the run learned its weights).
+fn run_defaults(rule: DefaultRule, weighted: bool) -> &'static [&'static str] {
+    match (rule, weighted) {
+        (DefaultRule::Auto, true) => &[COMBINATION, BEST_MEAN, WEIGHTED_MEAN],
+        (DefaultRule::Auto, false) => &[COMBINATION, BEST_MEAN],
+        (DefaultRule::Combination, _) | (DefaultRule::WeightedMean, false) => &[COMBINATION],
+        (DefaultRule::BestMean, _) => &[BEST_MEAN],
+        (DefaultRule::WeightedMean, true) => &[WEIGHTED_MEAN],
     }
+}
+
+/// A product's backtest for [`learn_weights`], with the models to run.
+type BacktestOf<'a, S> = dyn Fn(&[Box<dyn AnyModel>], &S) -> Option<Backtest> + Sync + 'a;
+
+/// Whether the run learns weights for its weighted mean.
+fn learns_weights(rule: DefaultRule) -> bool {
+    matches!(rule, DefaultRule::Auto | DefaultRule::WeightedMean)
+}
+
+/// The run's weights ([`crate::weights::learn`]) from the backtests of an
+/// evenly spread sample of its products ([`default_rule::in_earlier_sample`]),
+/// `backtest_of` giving a product's ([`product_backtest`]); the sampled
+/// backtests are returned by position, to be reused.
+fn learn_weights<S: Sync>(
+    items: &[S],
+    backtest_of: &BacktestOf<'_, S>,
+) -> (Option<RunWeights>, HashMap<usize, Backtest>) {
+    let n = items.len();
+    let sampled: Vec<(usize, Backtest)> = items
+        .par_iter()
+        .enumerate()
+        .filter(|(i, _)| default_rule::in_earlier_sample(*i, n))
+        .map_init(candidates, |models, (i, item)| {
+            backtest_of(models, item).map(|bt| (i, bt))
+        })
+        .flatten()
+        .collect();
+    let refs: Vec<&Backtest> = sampled.iter().map(|(_, b)| b).collect();
+    let w = weights::learn(&refs);
+    (w, sampled.into_iter().collect())
 }
 
 /// Picks, from each product's results under the run's defaults, the one
@@ -1330,10 +1454,11 @@ fn run_defaults(rule: DefaultRule) -> &'static [&'static str] {
 fn choose_default<T>(
     rule: DefaultRule,
     per_product: Vec<Alternatives<T>>,
+    weights: Option<&RunWeights>,
 ) -> (Vec<T>, DefaultChoice) {
-    let defaults = run_defaults(rule);
+    let defaults = run_defaults(rule, weights.is_some());
     let checks: Vec<ProductCheck> = per_product.iter().map(|p| p.1).collect();
-    let choice = default_rule::decide(rule, &checks);
+    let choice = default_rule::decide_with_weights(rule, &checks, weights);
     let k = defaults
         .iter()
         .position(|d| *d == choice.default)
@@ -1363,49 +1488,69 @@ pub fn forecast_run(
             .map(|s| s.month(s.len().saturating_sub(1)))
             .max();
     }
-    let settings = &common;
     let rule = settings.select.default_rule;
+    // The run's weights, learned on a sample's backtests, which are kept
+    // for those products' own selection.
+    let mut pre: Vec<Option<Backtest>> = Vec::new();
+    if learns_weights(rule) {
+        let (w, sampled) = learn_weights(series, &|models, s: &CleanSeries| {
+            let o = options.get(&s.product).unwrap_or(&none);
+            product_backtest(s, models, &common, o)
+        });
+        common.weights = w.map(std::sync::Arc::new);
+        pre = (0..series.len()).map(|_| None).collect();
+        for (i, bt) in sampled {
+            pre[i] = Some(bt);
+        }
+    }
+    pre.resize_with(series.len(), || None);
+    let settings = &common;
+    let weights = settings.weights.as_deref();
     if rule != DefaultRule::Auto {
+        let defaults = run_defaults(rule, weights.is_some());
         let per_product: Vec<Alternatives<ProductForecast>> = series
             .par_iter()
-            .map_init(candidates, |models, s| {
+            .zip(pre.into_par_iter())
+            .map_init(candidates, |models, (s, pre)| {
                 let o = options.get(&s.product).unwrap_or(&none);
-                let r =
-                    forecast_product_defaults(s, models, settings, o, run_defaults(rule), false);
+                let r = forecast_product_defaults(s, models, settings, o, defaults, false, pre);
                 progress();
                 r
             })
             .collect();
-        let (mut results, choice) = choose_default(rule, per_product);
+        let (mut results, choice) = choose_default(rule, per_product, weights);
         calibrate_run(&mut results);
         return (results, choice);
     }
-    // Every product under the combination, the pool's selection kept
-    // pending; the pool projected only if the run chooses it.
+    // Every product under the combination, the other defaults' selections
+    // kept pending; projected only for the default the run chooses.
     let n = series.len();
     let staged: Vec<StagedProduct> = series
         .par_iter()
+        .zip(pre.into_par_iter())
         .enumerate()
-        .map_init(candidates, |models, (i, s)| {
+        .map_init(candidates, |models, (i, (s, pre))| {
             let o = options.get(&s.product).unwrap_or(&none);
             let earlier = default_rule::in_earlier_sample(i, n);
-            let r = forecast_product_staged(s, models, settings, o, earlier);
+            let r = forecast_product_staged(s, models, settings, o, earlier, pre);
             progress();
             r
         })
         .collect();
     let checks: Vec<ProductCheck> = staged.iter().map(|x| x.2).collect();
-    let choice = default_rule::decide(rule, &checks);
-    let mut results: Vec<ProductForecast> = if choice.default == BEST_MEAN {
+    let choice = default_rule::decide_with_weights(rule, &checks, weights);
+    let mut results: Vec<ProductForecast> = if choice.default != COMBINATION {
         staged
             .into_par_iter()
             .zip(series.par_iter())
-            .map_init(candidates, |models, ((r, pending, _), s)| match pending {
-                Some(p) => {
-                    let o = options.get(&s.product).unwrap_or(&none);
-                    finish_pending(s, models, settings, o, r, p)
+            .map_init(candidates, |models, ((r, pending, _), s)| {
+                match pending.into_iter().find(|p| p.kind == choice.default) {
+                    Some(p) => {
+                        let o = options.get(&s.product).unwrap_or(&none);
+                        finish_pending(s, models, settings, o, r, p)
+                    }
+                    None => r,
                 }
-                None => r,
             })
             .collect()
     } else {
@@ -1477,6 +1622,23 @@ impl HoldoutResult {
     }
 }
 
+/// The series without its last `holdout` months; `None` when it is not
+/// longer than `holdout` + 24 months.
+fn shortened(series: &CleanSeries, holdout: usize) -> Option<CleanSeries> {
+    let n = series.len();
+    if n <= holdout + 24 {
+        return None;
+    }
+    let cut = n - holdout;
+    let mut short = series.clone();
+    short.reported.truncate(cut);
+    short.values.truncate(cut);
+    short.status.truncate(cut);
+    short.imputed_share.truncate(cut);
+    short.outlier.truncate(cut);
+    Some(short)
+}
+
 /// Runs [`HoldoutResult`] for one series; `None` when the series is not
 /// longer than `holdout` + 24 months.
 pub fn holdout_check(
@@ -1507,13 +1669,23 @@ pub fn holdout_check_with(
         DefaultRule::BestMean => BEST_MEAN,
         _ => COMBINATION,
     };
-    holdout_check_defaults(series, models, settings, holdout, opts, &[kind], false)
-        .map(|(mut v, _)| v.swap_remove(0))
+    holdout_check_defaults(
+        series,
+        models,
+        settings,
+        holdout,
+        opts,
+        &[kind],
+        false,
+        None,
+    )
+    .map(|(mut v, _)| v.swap_remove(0))
 }
 
 /// [`holdout_check_with`] under each default in `defaults`, with the
 /// product's check of the two on the shortened history's backtest (see
 /// [`forecast_product_defaults`]).
+#[allow(clippy::too_many_arguments)]
 pub fn holdout_check_defaults(
     series: &CleanSeries,
     models: &[Box<dyn AnyModel>],
@@ -1522,21 +1694,14 @@ pub fn holdout_check_defaults(
     opts: &ProductOptions,
     defaults: &[&str],
     earlier: bool,
+    pre: Option<Backtest>,
 ) -> Option<Alternatives<HoldoutResult>> {
     let n = series.len();
-    if n <= holdout + 24 {
-        return None;
-    }
-    let cut = n - holdout;
-    let mut short = series.clone();
-    short.reported.truncate(cut);
-    short.values.truncate(cut);
-    short.status.truncate(cut);
-    short.imputed_share.truncate(cut);
-    short.outlier.truncate(cut);
+    let short = shortened(series, holdout)?;
+    let cut = short.len();
     let mut s = settings.clone();
     s.horizon = holdout;
-    let (rs, check) = forecast_product_defaults(&short, models, &s, opts, defaults, earlier);
+    let (rs, check) = forecast_product_defaults(&short, models, &s, opts, defaults, earlier, pre);
     let mut single: Vec<(String, Option<Vec<f64>>)> = models
         .iter()
         .map(|m| {
@@ -1592,8 +1757,20 @@ pub fn holdout_check_defaults(
             .then(|| mean_of(&names))
             .flatten()
     });
+    // The run's weighted mean applied to every product whose demand is
+    // not intermittent: its members' projections, a member counted once
+    // per step that added it.
+    let weighted = settings.weights.as_deref().map(|w| {
+        let applies = rs
+            .first()
+            .is_some_and(|r| r.backtest.run(WEIGHTED_MEAN).is_some());
+        applies.then(|| mean_of(&w.members)).flatten()
+    });
     single.push((COMBINATION.to_string(), combo));
     single.push((BEST_MEAN.to_string(), pool));
+    if let Some(w) = weighted {
+        single.push((WEIGHTED_MEAN.to_string(), w));
+    }
     // A month flagged as an outlier in the hidden part is scored at its
     // reported value, not at the replacement the cleaning computed.
     let actual: Vec<f64> = (cut..n)
@@ -1653,17 +1830,36 @@ pub fn holdout_run(
     let none = ProductOptions::default();
     let rule = settings.select.default_rule;
     let n = series.len();
+    // The run's weights, learned on the shortened histories' backtests.
+    let mut common = settings.clone();
+    let mut pre: Vec<Option<Backtest>> = Vec::new();
+    if learns_weights(rule) {
+        let (w, sampled) = learn_weights(series, &|models, s: &CleanSeries| {
+            let o = options.get(&s.product).unwrap_or(&none);
+            product_backtest(&shortened(s, holdout)?, models, settings, o)
+        });
+        common.weights = w.map(std::sync::Arc::new);
+        pre = (0..n).map(|_| None).collect();
+        for (i, bt) in sampled {
+            pre[i] = Some(bt);
+        }
+    }
+    pre.resize_with(n, || None);
+    let settings = &common;
+    let weights = settings.weights.as_deref();
+    let defaults = run_defaults(rule, weights.is_some());
     let per_product: Vec<Alternatives<HoldoutResult>> = series
         .par_iter()
+        .zip(pre.into_par_iter())
         .enumerate()
-        .map_init(candidates, |models, (i, s)| {
+        .map_init(candidates, |models, (i, (s, pre))| {
             let o = options.get(&s.product).unwrap_or(&none);
             let earlier = rule == DefaultRule::Auto && default_rule::in_earlier_sample(i, n);
-            holdout_check_defaults(s, models, settings, holdout, o, run_defaults(rule), earlier)
+            holdout_check_defaults(s, models, settings, holdout, o, defaults, earlier, pre)
         })
         .flatten()
         .collect();
-    let (mut results, choice) = choose_default(rule, per_product);
+    let (mut results, choice) = choose_default(rule, per_product, weights);
     // Ranges pooled across the products, as `forecast` does.
     let pool = Pool::build(results.iter().filter_map(|r| r.pool_entry.as_ref()));
     for r in results.iter_mut() {
@@ -1717,13 +1913,15 @@ mod tests {
         let auto = ForecastSettings::default().check().unwrap();
         let none = ProductOptions::default();
         let direct = forecast_product_with(&s, &models, &direct_settings, &none);
-        let (combo, pending, check) = forecast_product_staged(&s, &models, &auto, &none, true);
+        let (combo, pending, check) =
+            forecast_product_staged(&s, &models, &auto, &none, true, None);
         assert!(
             check.halves.is_some() && check.earlier.is_some(),
             "60 months give 12 origins and 12 earlier ones, enough for both checks"
         );
         assert_eq!(combo.selection.chosen, COMBINATION);
-        let later = finish_pending(&s, &models, &auto, &none, combo, pending.unwrap());
+        let pool = pending.into_iter().find(|p| p.kind == BEST_MEAN).unwrap();
+        let later = finish_pending(&s, &models, &auto, &none, combo, pool);
         assert_eq!(direct.selection, later.selection);
         assert_eq!(direct.selection.chosen, BEST_MEAN);
         let (d, l) = (direct.projection.unwrap(), later.projection.unwrap());

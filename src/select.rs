@@ -104,7 +104,7 @@ pub fn complexity(model: &str) -> usize {
     match model {
         m if m.starts_with("moving-average") => 0,
         "naive" | "seasonal-naive" => 0,
-        COMBINATION | crate::default_rule::BEST_MEAN => 0,
+        COMBINATION | crate::default_rule::BEST_MEAN | crate::weights::WEIGHTED_MEAN => 0,
         "croston" | "croston-sba" | "ets-simple" => 2,
         "tsb" => 3,
         "theta" | "ets-holt" => 3,
@@ -375,6 +375,8 @@ fn against_default(
         "the default, a fixed combination"
     } else if d.0 == crate::default_rule::BEST_MEAN {
         "the default, the mean of this product's five best models by backtest"
+    } else if d.0 == crate::weights::WEIGHTED_MEAN {
+        "the default, the run's weighted mean (weights learned across its products' backtests)"
     } else {
         "the default for intermittent demand"
     };

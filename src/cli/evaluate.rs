@@ -247,12 +247,16 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             fmt(t.bias())
         );
     }
-    // The pool of each product's best five is a rule over the candidates,
-    // not a single model: the comparison lines leave it out.
+    // The pool of each product's best five and the run's weighted mean are
+    // rules over the candidates, learned on the run's backtest, not single
+    // models: the comparison lines leave them out.
     let singles_only: Vec<&Tally> = all
         .iter()
         .copied()
-        .filter(|t| t.name != provisio::default_rule::BEST_MEAN)
+        .filter(|t| {
+            t.name != provisio::default_rule::BEST_MEAN
+                && t.name != provisio::weights::WEIGHTED_MEAN
+        })
         .collect();
     if let Some(best) = singles_only.first() {
         say!(

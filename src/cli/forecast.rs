@@ -56,6 +56,9 @@ enum DefaultArg {
     Combination,
     /// The mean of each product's five best models by backtest.
     BestFiveMean,
+    /// The run's weighted mean: weights learned across its products'
+    /// backtests.
+    WeightedMean,
 }
 
 /// Options of the evaluation, shared by `forecast` and `backtest`.
@@ -76,7 +79,7 @@ pub struct EvalArgs {
     /// Relative gap by which another model must beat the default (the run's default, see --default-model; SBA for intermittent demand), besides winning at enough backtest origins.
     #[arg(long, default_value_t = 0.5, value_name = "SHARE")]
     tie_margin: f64,
-    /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, or `auto`, chosen for the run by checking the best five out of sample: chosen on a backtest a year earlier and scored on the months after it (or, with too little history, chosen on the backtest's earlier origins and scored on the later ones' unseen months) against the combination.
+    /// The default each product starts from (intermittent demand keeps SBA): the fixed combination, the mean of the product's five best models by backtest, the run's weighted mean (weights learned across its products' backtests; needs 30 products), or `auto`, chosen for the run by checking each out of sample: the best five chosen on a backtest a year earlier and scored on the months after it (or, with too little history, chosen on the backtest's earlier origins and scored on the later ones' unseen months) against the combination; then the weighted mean, its weights learned on the earlier origins, against the default so chosen on the later origins' unseen months.
     #[arg(long, value_enum, default_value_t = DefaultArg::Auto)]
     default_model: DefaultArg,
     /// Backtest forecasts written to backtest.csv and scores_by_horizon.csv: `chosen` model only, `compared` (chosen model, runner-up, combination) or `all` models.
@@ -392,6 +395,7 @@ fn with_silence(eval: &EvalArgs, horizon: usize, silence_limit: usize) -> Foreca
                 DefaultArg::Auto => DefaultRule::Auto,
                 DefaultArg::Combination => DefaultRule::Combination,
                 DefaultArg::BestFiveMean => DefaultRule::BestMean,
+                DefaultArg::WeightedMean => DefaultRule::WeightedMean,
             },
         },
         horizon,

@@ -215,7 +215,8 @@ pub fn write_selection(path: &Path, results: &[ProductForecast]) -> Result<()> {
             let mut row = vec![
                 csv_text(&r.product).into_owned(),
                 s.chosen.clone(),
-                p.map(|p| p.members.join(" ")).unwrap_or_default(),
+                p.map(|p| crate::weights::members_text(&p.members))
+                    .unwrap_or_default(),
                 if s.pinned { "yes" } else { "no" }.to_string(),
                 s.best.clone(),
                 s.score.name().to_string(),

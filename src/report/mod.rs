@@ -956,6 +956,8 @@ fn summary(b: &mut String, run: &ForecastRun) {
             fs(&["select", "score"]).to_uppercase(),
             if json_str(m, &["default_model", "default"]) == crate::default_rule::BEST_MEAN {
                 "the mean of the product's five best models by backtest"
+            } else if json_str(m, &["default_model", "default"]) == crate::weights::WEIGHTED_MEAN {
+                "the run's weighted mean, with weights learned across its products' backtests"
             } else {
                 "the fixed combination of ets-auto, arima-auto and theta"
             },
