@@ -729,6 +729,101 @@ mod tests {
             .collect()
     }
 
+    fn weights() -> crate::weights::RunWeights {
+        let members = |v: &[(&str, usize)]| -> Vec<String> {
+            v.iter()
+                .flat_map(|(m, k)| std::iter::repeat_n(m.to_string(), *k))
+                .collect()
+        };
+        crate::weights::RunWeights {
+            members: members(&[("ets-auto", 12), ("theta", 8)]),
+            early: members(&[("ets-auto", 10), ("theta", 10)]),
+            products: 40,
+            points: 4000,
+        }
+    }
+
+    /// Products whose halves check gives the pool `pool_gain` and the
+    /// weighted mean `weighted_gain` below the combination.
+    fn weighted_checks(n: usize, pool_gain: f64, weighted_gain: f64) -> Vec<ProductCheck> {
+        pairs(n, pool_gain)
+            .into_iter()
+            .zip(pairs(n, weighted_gain))
+            .map(|(h, w)| ProductCheck {
+                halves: Some(h),
+                earlier: None,
+                weighted: Some((h.0, Some(h.1), w.1)),
+            })
+            .collect()
+    }
+
+    #[test]
+    fn the_weighted_mean_replaces_the_combination_unless_shown_worse() {
+        use crate::weights::WEIGHTED_MEAN;
+        let w = weights();
+        // Slightly better, or slightly worse without evidence: replaced.
+        for gain in [0.01, -0.002] {
+            let d =
+                decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.0, gain), Some(&w));
+            assert_eq!(d.default, WEIGHTED_MEAN, "gain {gain}: {}", d.reason);
+            assert_eq!(
+                d.weights,
+                vec![("ets-auto".to_string(), 0.6), ("theta".to_string(), 0.4)]
+            );
+            assert!(
+                d.reason.contains("ets-auto 0.60, theta 0.40"),
+                "{}",
+                d.reason
+            );
+        }
+        // Clearly worse (every product's error 5% above the combination's,
+        // paired t-test p < 0.001): the combination stays.
+        let d = decide_with_weights(
+            DefaultRule::Auto,
+            &weighted_checks(40, 0.0, -0.05),
+            Some(&w),
+        );
+        assert_eq!(d.default, COMBINATION, "{}", d.reason);
+        assert!(
+            d.reason.contains("worse than the combination"),
+            "{}",
+            d.reason
+        );
+        // Too few products for the check: the combination stays.
+        let d = decide_with_weights(
+            DefaultRule::Auto,
+            &weighted_checks(MIN_PRODUCTS - 1, 0.0, 0.05),
+            Some(&w),
+        );
+        assert_eq!(d.default, COMBINATION, "{}", d.reason);
+        // The pool, chosen on evidence, stays.
+        let d = decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.05, 0.1), Some(&w));
+        assert_eq!(d.default, BEST_MEAN, "{}", d.reason);
+        // No weights learned: nothing changes; asked for, it says why not.
+        let none = decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.0, 0.01), None);
+        assert_eq!(none.default, COMBINATION);
+        let asked = decide_with_weights(
+            DefaultRule::WeightedMean,
+            &weighted_checks(40, 0.0, -0.05),
+            None,
+        );
+        assert_eq!(asked.default, COMBINATION);
+        assert!(
+            asked.reason.contains("fewer than 30 products"),
+            "{}",
+            asked.reason
+        );
+        let set = decide_with_weights(
+            DefaultRule::WeightedMean,
+            &weighted_checks(40, 0.0, -0.05),
+            Some(&w),
+        );
+        assert_eq!(
+            set.default, WEIGHTED_MEAN,
+            "as set, whatever the check says"
+        );
+    }
+
     #[test]
     fn the_year_earlier_check_decides_when_enough_products_allow_it() {
         // Halves say the pool is clearly better, the year-earlier check

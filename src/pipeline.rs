@@ -1931,6 +1931,89 @@ mod tests {
         assert_eq!(direct.ranges, later.ranges);
     }
 
+    /// `n` seasonal series of different trend, amplitude and noise.
+    fn varied_series(n: usize) -> Vec<CleanSeries> {
+        (0..n)
+            .map(|k| {
+                let values: Vec<f64> = (0..60)
+                    .map(|t| {
+                        let amplitude = 10.0 + 5.0 * (k % 7) as f64;
+                        let season =
+                            amplitude * (2.0 * std::f64::consts::PI * t as f64 / 12.0).sin();
+                        let trend = (k % 5) as f64 * 0.8 * t as f64;
+                        200.0 + trend + season + ((t * (7 + k)) % (5 + 3 * (k % 4))) as f64
+                    })
+                    .collect();
+                CleanSeries::observed(
+                    &format!("P{k}"),
+                    crate::calendar::YearMonth::known(2020, 1),
+                    values,
+                )
+            })
+            .collect()
+    }
+
+    #[test]
+    fn a_pending_weighted_mean_finished_later_is_the_weighted_mean_computed_at_once() {
+        // As for the pool: the run keeps the weighted mean's selection
+        // pending and projects it only once it has chosen it; the result
+        // must be the one the weighted mean as the only default gives.
+        let series = varied_series(weights::MIN_PRODUCTS + 4);
+        let models = candidates();
+        let none = ProductOptions::default();
+        let mut settings = ForecastSettings::default().check().unwrap();
+        let bts: Vec<Backtest> = series
+            .iter()
+            .filter_map(|s| product_backtest(s, &models, &settings, &none))
+            .collect();
+        assert_eq!(bts.len(), series.len(), "none is intermittent or short");
+        let w = weights::learn(&bts.iter().collect::<Vec<_>>()).expect("enough products");
+        let total: f64 = w.shares().iter().map(|x| x.1).sum();
+        assert!((total - 1.0).abs() < 1e-12, "{:?}", w.shares());
+        settings.weights = Some(std::sync::Arc::new(w.clone()));
+        let s = &series[3];
+        let (direct, _) =
+            forecast_product_defaults(s, &models, &settings, &none, &[WEIGHTED_MEAN], false, None);
+        let (combo, pending, check) =
+            forecast_product_staged(s, &models, &settings, &none, false, None);
+        assert!(check.weighted.is_some(), "60 months allow the halves check");
+        let pending = pending
+            .into_iter()
+            .find(|p| p.kind == WEIGHTED_MEAN)
+            .expect("the weighted mean is pending");
+        let later = finish_pending(s, &models, &settings, &none, combo, pending);
+        let direct = &direct[0];
+        assert_eq!(direct.selection, later.selection);
+        assert_eq!(later.selection.chosen, WEIGHTED_MEAN);
+        let (d, l) = (
+            direct.projection.as_ref().unwrap(),
+            later.projection.as_ref().unwrap(),
+        );
+        assert_eq!(d.forecast, l.forecast);
+        // The projection's members are the learned list: one name per step.
+        assert_eq!(l.members.len(), weights::STEPS);
+        assert_eq!(weights::shares(&l.members), w.shares());
+        assert_eq!(direct.ranges, later.ranges);
+        // Its point forecast is the learned weights' mean of the members'
+        // own projections.
+        let y = &s.values;
+        let mut expected = vec![0.0; settings.horizon];
+        for (m, share) in w.shares() {
+            let model = models.iter().find(|x| x.name() == m).unwrap();
+            let f = model
+                .fit_any(y)
+                .unwrap()
+                .forecast(settings.horizon, &[])
+                .unwrap();
+            for (e, v) in expected.iter_mut().zip(&f.clipped().point) {
+                *e += share * v;
+            }
+        }
+        for (a, b) in l.forecast.point.iter().zip(&expected) {
+            assert!((a - b).abs() < 1e-6 * b.abs().max(1.0), "{a} vs {b}");
+        }
+    }
+
     #[test]
     fn pooled_ranges_are_the_model_ranges_times_the_stated_factors() {
         // Twelve seasonal series of different noise: enough for a pool

@@ -779,3 +779,72 @@ fn evaluate_per_product_rows_add_up_to_the_summary() {
         "the pool applies to every open series"
     );
 }
+
+/// The run's weighted mean as the default (`--default-model weighted-mean`)
+/// on 40 generated products: the manifest states the learned weights
+/// (multiples of 1/20 adding to 1: twenty steps of forward selection), and
+/// every product that keeps the default names the same members with the
+/// same shares in selection.csv.
+#[test]
+fn the_weighted_mean_states_its_weights_in_the_manifest_and_selection() {
+    let w = common::Workdir::new();
+    let o = w.run(&[
+        "generate",
+        "--products",
+        "40",
+        "--sites",
+        "1",
+        "--months",
+        "60",
+        "--seed",
+        "7",
+        "--out",
+        "g.csv",
+        "--quiet",
+    ]);
+    assert!(o.status.success(), "{}", common::text(&o));
+    let o = w.run(&[
+        "forecast",
+        "g.csv",
+        "--out",
+        "out",
+        "--no-report",
+        "--no-workbook",
+        "--default-model",
+        "weighted-mean",
+    ]);
+    assert!(o.status.success(), "{}", common::text(&o));
+    let m = w.manifest("out");
+    let d = &m["default_model"];
+    assert_eq!(d["default"], "weighted-mean", "{d}");
+    let weights: Vec<(String, f64)> = d["weights"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| (x[0].as_str().unwrap().to_string(), x[1].as_f64().unwrap()))
+        .collect();
+    assert!(!weights.is_empty());
+    let total: f64 = weights.iter().map(|x| x.1).sum();
+    assert!((total - 1.0).abs() < 1e-9, "{weights:?}");
+    for (_, s) in &weights {
+        assert!(((s * 20.0).round() - s * 20.0).abs() < 1e-9, "{weights:?}");
+    }
+    let expected: Vec<String> = weights.iter().map(|(m, s)| format!("{m}:{s:.2}")).collect();
+    let rows = w.read_csv_maps("out/selection.csv");
+    let kept: Vec<_> = rows
+        .iter()
+        .filter(|r| r["chosen_model"] == "weighted-mean")
+        .collect();
+    assert!(kept.len() > 10, "{} of 40 keep the default", kept.len());
+    for r in kept {
+        let members: Vec<String> = r["members"].split(' ').map(String::from).collect();
+        if weights.len() > 1 {
+            assert_eq!(members, expected, "{}", r["product"]);
+        }
+        assert!(
+            r["reason"].contains("the run's weighted mean"),
+            "{}",
+            r["reason"]
+        );
+    }
+}
