@@ -306,15 +306,18 @@ pub fn forecast_product_defaults(
 }
 
 /// The backtest a product's selection runs on, before any mean learned
-/// across the run is added to it: `None` for intermittent demand (which
-/// the run's weighted mean does not apply to) and for a series too short
-/// to backtest.
+/// across the run is added to it, with the product's checks of the run's
+/// defaults (the year-earlier check only when `earlier`; the weighted
+/// mean's is left to the run, which learns its weights first): `None` for
+/// intermittent demand (which the pool and the weighted mean do not apply
+/// to) and for a series too short to backtest.
 fn product_backtest(
     series: &CleanSeries,
     models: &[Box<dyn AnyModel>],
     settings: &CheckedForecastSettings,
     opts: &ProductOptions,
-) -> Option<Backtest> {
+    earlier: bool,
+) -> Option<(Backtest, ProductCheck)> {
     match product_stages(
         series,
         models,
@@ -322,7 +325,7 @@ fn product_backtest(
         opts,
         &[COMBINATION],
         Stage::BacktestOnly,
-        false,
+        earlier,
     ) {
         Staged::Backtest(bt) => bt,
         _ => None,
@@ -352,7 +355,8 @@ pub struct PendingPool {
 /// How far [`product_stages`] goes; `Option<Backtest>`: the product's
 /// backtest when it was already run ([`product_backtest`]).
 enum Stage {
-    /// The backtest only ([`product_backtest`]).
+    /// The backtest and the checks of the run's defaults only
+    /// ([`product_backtest`]).
     BacktestOnly,
     /// Every default finished.
     All(Option<Backtest>),
@@ -365,7 +369,7 @@ enum Stage {
 
 /// What [`product_stages`] returns.
 enum Staged {
-    Backtest(Option<Backtest>),
+    Backtest(Option<(Backtest, ProductCheck)>),
     All(Vec<ProductForecast>, ProductCheck),
     Pending(Box<ProductForecast>, Vec<PendingPool>, ProductCheck),
 }
@@ -546,10 +550,27 @@ fn product_stages(
             None,
         ),
     };
+    // The year-earlier check fits every candidate at as many origins again,
+    // just before the backtest's own (`None` when not asked for).
+    let earlier_check = |bt: &Backtest| {
+        earlier.then(|| {
+            default_rule::earlier_origins(bt).and_then(|os| {
+                let earlier_bt = backtest::run_at(y, &mask, models, os, bt.horizon);
+                default_rule::year_earlier_check(bt, &earlier_bt)
+            })
+        })
+    };
     if only_backtest {
-        return Staged::Backtest(
-            (!intermittent && too_short.is_none() && bt.run(COMBINATION).is_some()).then_some(bt),
-        );
+        if intermittent || too_short.is_some() || bt.run(COMBINATION).is_none() {
+            return Staged::Backtest(None);
+        }
+        let (halves, _) = default_rule::check_and_calibration(&bt, true, false);
+        let check = ProductCheck {
+            halves,
+            earlier: earlier_check(&bt).flatten(),
+            weighted: None,
+        };
+        return Staged::Backtest(Some((bt, check)));
     }
     // The run's weighted mean joins as a candidate for demand that is not
     // intermittent (once: a resumed backtest has it).
@@ -677,18 +698,13 @@ fn product_stages(
         checking,
         !intermittent && defaults.contains(&BEST_MEAN),
     );
-    // The year-earlier check fits every candidate at as many origins again,
-    // just before the backtest's own.
-    let year_earlier = (checking && earlier)
-        .then(|| default_rule::earlier_origins(&bt))
-        .flatten()
-        .and_then(|os| {
-            let earlier_bt = backtest::run_at(y, &mask, models, os, bt.horizon);
-            default_rule::year_earlier_check(&bt, &earlier_bt)
-        });
     let check = ProductCheck {
         halves,
-        earlier: year_earlier,
+        earlier: if checking {
+            earlier_check(&bt).flatten()
+        } else {
+            None
+        },
         weighted: run_weights
             .filter(|_| checking && weighted_ok)
             .and_then(|w| weights::check(&bt, &w.early)),
@@ -1406,68 +1422,90 @@ pub fn forecast_all_with(
 /// of the two ([`ProductCheck`]).
 pub type Alternatives<T> = (Vec<T>, ProductCheck);
 
-/// The defaults a run computes for every product under its rule (the
-/// weighted mean only when the run learned its weights).
-fn run_defaults(rule: DefaultRule, weighted: bool) -> &'static [&'static str] {
-    match (rule, weighted) {
-        (DefaultRule::Auto, true) => &[COMBINATION, BEST_MEAN, WEIGHTED_MEAN],
-        (DefaultRule::Auto, false) => &[COMBINATION, BEST_MEAN],
-        (DefaultRule::Combination, _) | (DefaultRule::WeightedMean, false) => &[COMBINATION],
-        (DefaultRule::BestMean, _) => &[BEST_MEAN],
-        (DefaultRule::WeightedMean, true) => &[WEIGHTED_MEAN],
-    }
-}
-
-/// A product's backtest for [`learn_weights`], with the models to run.
-type BacktestOf<'a, S> = dyn Fn(&[Box<dyn AnyModel>], &S) -> Option<Backtest> + Sync + 'a;
-
 /// Whether the run learns weights for its weighted mean.
 fn learns_weights(rule: DefaultRule) -> bool {
     matches!(rule, DefaultRule::Auto | DefaultRule::WeightedMean)
 }
 
-/// The run's weights ([`crate::weights::learn`]) from the backtests of an
-/// evenly spread sample of its products ([`default_rule::in_earlier_sample`]),
-/// `backtest_of` giving a product's ([`product_backtest`]); the sampled
-/// backtests are returned by position, to be reused.
-fn learn_weights<S: Sync>(
+/// Most products whose backtests a run computes before the others, to
+/// learn its weights and check its defaults on ([`prepare_run`]): an
+/// evenly spread sample, the products' own backtests kept and reused, so a
+/// run of up to this many pays nothing extra.
+pub const RUN_SAMPLE: usize = 1000;
+
+/// Whether the product at position `i` of a run of `n` is in the sample of
+/// [`RUN_SAMPLE`]: every product of a run up to that size, otherwise every
+/// ⌈n / [`RUN_SAMPLE`]⌉-th.
+fn in_run_sample(i: usize, n: usize) -> bool {
+    i % n.div_ceil(RUN_SAMPLE).max(1) == 0
+}
+
+/// A product's backtest and checks for [`prepare_run`], with the models to
+/// run and whether to run the year-earlier check.
+type BacktestOf<'a, S> =
+    dyn Fn(&[Box<dyn AnyModel>], &S, bool) -> Option<(Backtest, ProductCheck)> + Sync + 'a;
+
+/// What a run settles before forecasting its products one by one: its
+/// default and the evidence, the settings with its learned weights, and
+/// the sample's backtests by position (reused).
+struct Prepared {
+    settings: CheckedForecastSettings,
+    choice: DefaultChoice,
+    pre: Vec<Option<Backtest>>,
+}
+
+/// Backtests an evenly spread sample of the run's products
+/// ([`in_run_sample`]; the year-earlier check on every
+/// ⌈n / [`default_rule::EARLIER_SAMPLE`]⌉-th), learns the weighted mean's
+/// weights on them ([`crate::weights::learn`]), checks the weighted mean on
+/// each ([`crate::weights::check`]) and decides the run's default
+/// ([`default_rule::decide_with_weights`]). With a default set rather
+/// than `auto` (and not the weighted mean), nothing is run.
+fn prepare_run<S: Sync>(
     items: &[S],
+    settings: &CheckedForecastSettings,
     backtest_of: &BacktestOf<'_, S>,
-) -> (Option<RunWeights>, HashMap<usize, Backtest>) {
+) -> Prepared {
+    let rule = settings.select.default_rule;
     let n = items.len();
-    let sampled: Vec<(usize, Backtest)> = items
+    let mut settings = settings.clone();
+    let mut pre: Vec<Option<Backtest>> = (0..n).map(|_| None).collect();
+    if !learns_weights(rule) {
+        return Prepared {
+            choice: default_rule::decide(rule, &[]),
+            settings,
+            pre,
+        };
+    }
+    let sampled: Vec<(usize, Backtest, ProductCheck)> = items
         .par_iter()
         .enumerate()
-        .filter(|(i, _)| default_rule::in_earlier_sample(*i, n))
+        .filter(|(i, _)| in_run_sample(*i, n))
         .map_init(candidates, |models, (i, item)| {
-            backtest_of(models, item).map(|bt| (i, bt))
+            let earlier = rule == DefaultRule::Auto && default_rule::in_earlier_sample(i, n);
+            backtest_of(models, item, earlier).map(|(bt, check)| (i, bt, check))
         })
         .flatten()
         .collect();
-    let refs: Vec<&Backtest> = sampled.iter().map(|(_, b)| b).collect();
-    let w = weights::learn(&refs);
-    (w, sampled.into_iter().collect())
-}
-
-/// Picks, from each product's results under the run's defaults, the one
-/// under the default the run chose from the products' checks.
-fn choose_default<T>(
-    rule: DefaultRule,
-    per_product: Vec<Alternatives<T>>,
-    weights: Option<&RunWeights>,
-) -> (Vec<T>, DefaultChoice) {
-    let defaults = run_defaults(rule, weights.is_some());
-    let checks: Vec<ProductCheck> = per_product.iter().map(|p| p.1).collect();
-    let choice = default_rule::decide_with_weights(rule, &checks, weights);
-    let k = defaults
+    let refs: Vec<&Backtest> = sampled.iter().map(|(_, b, _)| b).collect();
+    let learned = weights::learn(&refs);
+    let checks: Vec<ProductCheck> = sampled
         .iter()
-        .position(|d| *d == choice.default)
-        .unwrap_or(0);
-    let chosen = per_product
-        .into_iter()
-        .filter_map(|(mut v, _)| (k < v.len()).then(|| v.swap_remove(k)))
+        .map(|(_, bt, c)| ProductCheck {
+            weighted: learned.as_ref().and_then(|w| weights::check(bt, &w.early)),
+            ..*c
+        })
         .collect();
-    (chosen, choice)
+    let choice = default_rule::decide_with_weights(rule, &checks, learned.as_ref());
+    settings.weights = learned.map(std::sync::Arc::new);
+    for (i, bt, _) in sampled {
+        pre[i] = Some(bt);
+    }
+    Prepared {
+        settings,
+        choice,
+        pre,
+    }
 }
 
 /// [`forecast_all_with`], with the run's default and the evidence for it
@@ -1488,74 +1526,27 @@ pub fn forecast_run(
             .map(|s| s.month(s.len().saturating_sub(1)))
             .max();
     }
-    let rule = settings.select.default_rule;
-    // The run's weights, learned on a sample's backtests, which are kept
-    // for those products' own selection.
-    let mut pre: Vec<Option<Backtest>> = Vec::new();
-    if learns_weights(rule) {
-        let (w, sampled) = learn_weights(series, &|models, s: &CleanSeries| {
-            let o = options.get(&s.product).unwrap_or(&none);
-            product_backtest(s, models, &common, o)
-        });
-        common.weights = w.map(std::sync::Arc::new);
-        pre = (0..series.len()).map(|_| None).collect();
-        for (i, bt) in sampled {
-            pre[i] = Some(bt);
-        }
-    }
-    pre.resize_with(series.len(), || None);
-    let settings = &common;
-    let weights = settings.weights.as_deref();
-    if rule != DefaultRule::Auto {
-        let defaults = run_defaults(rule, weights.is_some());
-        let per_product: Vec<Alternatives<ProductForecast>> = series
-            .par_iter()
-            .zip(pre.into_par_iter())
-            .map_init(candidates, |models, (s, pre)| {
-                let o = options.get(&s.product).unwrap_or(&none);
-                let r = forecast_product_defaults(s, models, settings, o, defaults, false, pre);
-                progress();
-                r
-            })
-            .collect();
-        let (mut results, choice) = choose_default(rule, per_product, weights);
-        calibrate_run(&mut results);
-        return (results, choice);
-    }
-    // Every product under the combination, the other defaults' selections
-    // kept pending; projected only for the default the run chooses.
-    let n = series.len();
-    let staged: Vec<StagedProduct> = series
+    let Prepared {
+        settings,
+        choice,
+        pre,
+    } = prepare_run(series, &common, &|models, s: &CleanSeries, earlier| {
+        let o = options.get(&s.product).unwrap_or(&none);
+        product_backtest(s, models, &common, o, earlier)
+    });
+    let settings = &settings;
+    let defaults = [choice.default];
+    let mut results: Vec<ProductForecast> = series
         .par_iter()
         .zip(pre.into_par_iter())
-        .enumerate()
-        .map_init(candidates, |models, (i, (s, pre))| {
+        .map_init(candidates, |models, (s, pre)| {
             let o = options.get(&s.product).unwrap_or(&none);
-            let earlier = default_rule::in_earlier_sample(i, n);
-            let r = forecast_product_staged(s, models, settings, o, earlier, pre);
+            let (mut r, _) =
+                forecast_product_defaults(s, models, settings, o, &defaults, false, pre);
             progress();
-            r
+            r.swap_remove(0)
         })
         .collect();
-    let checks: Vec<ProductCheck> = staged.iter().map(|x| x.2).collect();
-    let choice = default_rule::decide_with_weights(rule, &checks, weights);
-    let mut results: Vec<ProductForecast> = if choice.default != COMBINATION {
-        staged
-            .into_par_iter()
-            .zip(series.par_iter())
-            .map_init(candidates, |models, ((r, pending, _), s)| {
-                match pending.into_iter().find(|p| p.kind == choice.default) {
-                    Some(p) => {
-                        let o = options.get(&s.product).unwrap_or(&none);
-                        finish_pending(s, models, settings, o, r, p)
-                    }
-                    None => r,
-                }
-            })
-            .collect()
-    } else {
-        staged.into_iter().map(|x| x.0).collect()
-    };
     calibrate_run(&mut results);
     (results, choice)
 }
@@ -1828,38 +1819,27 @@ pub fn holdout_run(
     options: &HashMap<String, ProductOptions>,
 ) -> (Vec<HoldoutResult>, DefaultChoice) {
     let none = ProductOptions::default();
-    let rule = settings.select.default_rule;
-    let n = series.len();
-    // The run's weights, learned on the shortened histories' backtests.
-    let mut common = settings.clone();
-    let mut pre: Vec<Option<Backtest>> = Vec::new();
-    if learns_weights(rule) {
-        let (w, sampled) = learn_weights(series, &|models, s: &CleanSeries| {
-            let o = options.get(&s.product).unwrap_or(&none);
-            product_backtest(&shortened(s, holdout)?, models, settings, o)
-        });
-        common.weights = w.map(std::sync::Arc::new);
-        pre = (0..n).map(|_| None).collect();
-        for (i, bt) in sampled {
-            pre[i] = Some(bt);
-        }
-    }
-    pre.resize_with(n, || None);
-    let settings = &common;
-    let weights = settings.weights.as_deref();
-    let defaults = run_defaults(rule, weights.is_some());
-    let per_product: Vec<Alternatives<HoldoutResult>> = series
+    // The run's default and weights, settled on the shortened histories.
+    let Prepared {
+        settings,
+        choice,
+        pre,
+    } = prepare_run(series, settings, &|models, s: &CleanSeries, earlier| {
+        let o = options.get(&s.product).unwrap_or(&none);
+        product_backtest(&shortened(s, holdout)?, models, settings, o, earlier)
+    });
+    let settings = &settings;
+    let defaults = [choice.default];
+    let mut results: Vec<HoldoutResult> = series
         .par_iter()
         .zip(pre.into_par_iter())
-        .enumerate()
-        .map_init(candidates, |models, (i, (s, pre))| {
+        .map_init(candidates, |models, (s, pre)| {
             let o = options.get(&s.product).unwrap_or(&none);
-            let earlier = rule == DefaultRule::Auto && default_rule::in_earlier_sample(i, n);
-            holdout_check_defaults(s, models, settings, holdout, o, defaults, earlier, pre)
+            holdout_check_defaults(s, models, settings, holdout, o, &defaults, false, pre)
+                .map(|(mut v, _)| v.swap_remove(0))
         })
         .flatten()
         .collect();
-    let (mut results, choice) = choose_default(rule, per_product, weights);
     // Ranges pooled across the products, as `forecast` does.
     let pool = Pool::build(results.iter().filter_map(|r| r.pool_entry.as_ref()));
     for r in results.iter_mut() {
@@ -1964,7 +1944,7 @@ mod tests {
         let mut settings = ForecastSettings::default().check().unwrap();
         let bts: Vec<Backtest> = series
             .iter()
-            .filter_map(|s| product_backtest(s, &models, &settings, &none))
+            .filter_map(|s| product_backtest(s, &models, &settings, &none, false).map(|x| x.0))
             .collect();
         assert_eq!(bts.len(), series.len(), "none is intermittent or short");
         let w = weights::learn(&bts.iter().collect::<Vec<_>>()).expect("enough products");
