@@ -52,7 +52,7 @@ pub fn run(a: ModelsArgs) -> anyhow::Result<()> {
     }
     super::note!("{} candidate models", rows.len());
     super::note!(
-        "and two means of them, the defaults for smooth and erratic demand: combination (ets-auto, arima-auto and theta, fixed) and best-five-mean (each product's five best by backtest); `--default-model` says which, or the run chooses on its own backtest"
+        "and three means of them, the defaults for smooth and erratic demand: combination (ets-auto, arima-auto and theta, fixed), best-five-mean (each product's five best by backtest) and weighted-mean (weights learned across a run of 30 products or more); `--default-model` says which, or the run chooses on its own backtest"
     );
     super::json_summary(|| {
         let models: Vec<serde_json::Value> = rows
