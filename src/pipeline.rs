@@ -300,7 +300,6 @@ pub fn forecast_product_defaults(
         earlier,
     ) {
         Staged::All(v, check) => (v, check),
-        Staged::Pending(r, _, check) => (vec![*r], check),
         Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
     }
 }
@@ -332,109 +331,20 @@ fn product_backtest(
     }
 }
 
-/// What the pool's default (or the run's weighted mean) would do for a
-/// product, kept until the run has chosen its default: the selection under
-/// it, its backtest run and scores. Projected only when the run chooses it
-/// ([`finish_pending`]), so a run that keeps the combination projects
-/// each product once.
-#[derive(Debug, Clone)]
-pub struct PendingPool {
-    /// [`BEST_MEAN`] or [`WEIGHTED_MEAN`].
-    kind: &'static str,
-    selection: Selection,
-    calibration: Option<backtest::ModelRun>,
-    /// The pool's run, added to the backtest when resumed (the weighted
-    /// mean's is in it from the start).
-    run: Option<(backtest::ModelRun, ModelScores)>,
-    members: Vec<String>,
-    /// The whole-history fits made for the combination's projection,
-    /// reused by the pool's.
-    fits: Vec<(String, usize, Forecast)>,
-}
-
-/// How far [`product_stages`] goes; `Option<Backtest>`: the product's
-/// backtest when it was already run ([`product_backtest`]).
+/// How far [`product_stages`] goes.
 enum Stage {
     /// The backtest and the checks of the run's defaults only
     /// ([`product_backtest`]).
     BacktestOnly,
-    /// Every default finished.
+    /// Every default finished, on the product's backtest when it was
+    /// already run ([`product_backtest`]).
     All(Option<Backtest>),
-    /// The combination finished, the other defaults' selections kept
-    /// pending.
-    Staged(Option<Backtest>),
-    /// Finish a pending pool on the finished combination's backtest.
-    Resume(Box<PendingPool>, Box<ProductForecast>),
 }
 
 /// What [`product_stages`] returns.
 enum Staged {
     Backtest(Option<(Backtest, ProductCheck)>),
     All(Vec<ProductForecast>, ProductCheck),
-    Pending(Box<ProductForecast>, Vec<PendingPool>, ProductCheck),
-}
-
-/// The combination's result of a product, its pending defaults and its
-/// check (see [`forecast_run`]).
-pub type StagedProduct = (ProductForecast, Vec<PendingPool>, ProductCheck);
-
-/// The product under the combination, with the pool's selection pending
-/// (`earlier`: see [`forecast_product_defaults`]).
-pub fn forecast_product_staged(
-    series: &CleanSeries,
-    models: &[Box<dyn AnyModel>],
-    settings: &CheckedForecastSettings,
-    opts: &ProductOptions,
-    earlier: bool,
-    pre: Option<Backtest>,
-) -> StagedProduct {
-    let with_weighted = [COMBINATION, BEST_MEAN, WEIGHTED_MEAN];
-    let defaults: &[&str] = if settings.weights.is_some() {
-        &with_weighted
-    } else {
-        &with_weighted[..2]
-    };
-    match product_stages(
-        series,
-        models,
-        settings,
-        opts,
-        defaults,
-        Stage::Staged(pre),
-        earlier,
-    ) {
-        Staged::Pending(r, p, check) => (*r, p, check),
-        Staged::All(mut v, check) => (v.swap_remove(0), Vec::new(), check),
-        Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
-    }
-}
-
-/// The product under the pool's default, from its result under the
-/// combination and its pending pool ([`forecast_product_staged`]): the
-/// backtest is not run again; the pool's members are fitted on the whole
-/// history.
-pub fn finish_pending(
-    series: &CleanSeries,
-    models: &[Box<dyn AnyModel>],
-    settings: &CheckedForecastSettings,
-    opts: &ProductOptions,
-    done: ProductForecast,
-    pending: PendingPool,
-) -> ProductForecast {
-    let kind = [pending.kind];
-    match product_stages(
-        series,
-        models,
-        settings,
-        opts,
-        &kind,
-        Stage::Resume(Box::new(pending), Box::new(done)),
-        false,
-    ) {
-        Staged::All(mut v, _) => v.swap_remove(0),
-        Staged::Pending(r, _, _) => *r,
-        Staged::Backtest(_) => unreachable!("only Stage::BacktestOnly stops at the backtest"),
-    }
 }
 
 fn product_stages(
@@ -532,23 +442,15 @@ fn product_stages(
         }
     };
     let too_short = opts.min_months.filter(|&m| y.len() < m);
-    let staged = matches!(stage, Stage::Staged(_));
     let only_backtest = matches!(stage, Stage::BacktestOnly);
     let intermittent = class.is_intermittent() && !forced_seasonal;
-    let (mut bt, resume) = match stage {
-        Stage::Resume(pending, done) => {
-            let d = *done;
-            (d.backtest, Some((pending, d.scores)))
-        }
-        Stage::All(Some(pre)) | Stage::Staged(Some(pre)) => (pre, None),
-        _ => (
-            match too_short {
-                // No model is backtested, so selection falls back below.
-                Some(_) => backtest::run(y, &mask, &[], &settings.backtest),
-                None => backtest::run(y, &mask, models, &settings.backtest),
-            },
-            None,
-        ),
+    let mut bt = match stage {
+        Stage::All(Some(pre)) => pre,
+        _ => match too_short {
+            // No model is backtested, so selection falls back below.
+            Some(_) => backtest::run(y, &mask, &[], &settings.backtest),
+            None => backtest::run(y, &mask, models, &settings.backtest),
+        },
     };
     // The year-earlier check fits every candidate at as many origins again,
     // just before the backtest's own (`None` when not asked for).
@@ -573,12 +475,10 @@ fn product_stages(
         return Staged::Backtest(Some((bt, check)));
     }
     // The run's weighted mean joins as a candidate for demand that is not
-    // intermittent (once: a resumed backtest has it).
+    // intermittent.
     let run_weights = settings.weights.as_deref().filter(|_| !intermittent);
-    if let (Some(w), None) = (run_weights, &resume) {
-        if too_short.is_none() {
-            bt.runs.push(weights::weighted_run(&bt, &w.members));
-        }
+    if let (Some(w), None) = (run_weights, too_short) {
+        bt.runs.push(weights::weighted_run(&bt, &w.members));
     }
     let weighted_ok = bt
         .run(WEIGHTED_MEAN)
@@ -620,16 +520,14 @@ fn product_stages(
         }
         other => other,
     };
-    let inputs =
-        |bt, base_scores, selection, pool_members, extra_keep, cache, calibration| FinishInputs {
-            bt,
-            base_scores,
-            cache,
-            selection,
-            pool_members,
-            extra_keep,
-            calibration,
-        };
+    let inputs = |bt, base_scores, selection, pool_members, cache, calibration| FinishInputs {
+        bt,
+        base_scores,
+        cache,
+        selection,
+        pool_members,
+        calibration,
+    };
     let select_under = |bt: &Backtest, kind: &str| {
         select_for(
             series,
@@ -665,33 +563,6 @@ fn product_stages(
             warnings.clone(),
         )
     };
-    if let Some((pending, done_scores)) = resume {
-        let PendingPool {
-            kind: _,
-            selection,
-            calibration,
-            run,
-            members,
-            fits,
-        } = *pending;
-        let mut bt = bt;
-        let mut all = done_scores;
-        if let Some((run, scores)) = run {
-            bt.runs.push(run);
-            all.push(scores);
-        }
-        let cache = FitCache::seeded(fits);
-        let r = finish(inputs(
-            bt,
-            &all,
-            selection,
-            members,
-            Vec::new(),
-            &cache,
-            calibration,
-        ));
-        return Staged::All(vec![r], ProductCheck::default());
-    }
     let checking = defaults.len() > 1 && !intermittent;
     let (halves, calibration) = default_rule::check_and_calibration(
         &bt,
@@ -726,65 +597,6 @@ fn product_stages(
         })
         .filter(|r| r.status == RunStatus::Complete);
     let cache = FitCache::default();
-    if staged {
-        // The combination finished; the pool's selection made and kept,
-        // with every run it names, for the run's decision.
-        let selection = select_under(&bt, COMBINATION);
-        let mut bt = bt;
-        let mut pending: Vec<PendingPool> = Vec::with_capacity(2);
-        if let Some(run) = pool_run {
-            let members = run.members.first().cloned().unwrap_or_default();
-            bt.runs.push(run);
-            let selection = select_under(&bt, BEST_MEAN);
-            let run = bt.runs.pop().expect("pushed above");
-            let scores = model_scores(&bt, &run);
-            pending.push(PendingPool {
-                kind: BEST_MEAN,
-                selection,
-                calibration: calibration.clone(),
-                run: Some((run, scores)),
-                members,
-                fits: Vec::new(),
-            });
-        }
-        if let Some(w) = run_weights.filter(|_| weighted_ok && defaults.contains(&WEIGHTED_MEAN)) {
-            pending.push(PendingPool {
-                kind: WEIGHTED_MEAN,
-                selection: select_under(&bt, WEIGHTED_MEAN),
-                calibration: weights::calibration_run(&bt, w),
-                run: None,
-                members: w.members.clone(),
-                fits: Vec::new(),
-            });
-        }
-        let keep: Vec<String> = pending
-            .iter()
-            .flat_map(|p| {
-                let s = &p.selection;
-                [
-                    Some(s.chosen.clone()),
-                    Some(s.best.clone()),
-                    s.runner_up.as_ref().map(|r| r.0.clone()),
-                    Some(p.kind.to_string()),
-                ]
-            })
-            .flatten()
-            .collect();
-        let r = finish(inputs(
-            bt,
-            &base_scores,
-            selection,
-            Vec::new(),
-            keep,
-            &cache,
-            None,
-        ));
-        let fits = cache.into_fits();
-        for p in pending.iter_mut() {
-            p.fits = fits.clone();
-        }
-        return Staged::Pending(Box::new(r), pending, check);
-    }
     let effective: Vec<&str> = defaults
         .iter()
         .map(|&d| {
@@ -835,7 +647,6 @@ fn product_stages(
             &base_scores,
             selection,
             pool_members,
-            Vec::new(),
             &cache,
             calibration,
         ));
@@ -879,9 +690,6 @@ struct FinishInputs<'a> {
     cache: &'a FitCache,
     selection: Selection,
     pool_members: Vec<String>,
-    /// Runs whose backtest forecasts are kept besides the chosen model's,
-    /// the runner-up's and the combination's (a pending selection's).
-    extra_keep: Vec<String>,
     /// The pool's backtest forecasts its ranges are calibrated on (see
     /// [`default_rule::calibration_run`]).
     calibration: Option<backtest::ModelRun>,
@@ -995,7 +803,6 @@ fn finish_product(
         cache,
         mut selection,
         pool_members,
-        extra_keep,
         calibration,
     } = inputs;
     let y = &series.values;
@@ -1123,7 +930,6 @@ fn finish_product(
             m == selection.chosen
                 || m == selection.best
                 || m == COMBINATION
-                || extra_keep.iter().any(|k| k == m)
                 || selection.runner_up.as_ref().is_some_and(|r| r.0 == m)
         };
         for run in bt.runs.iter_mut().filter(|r| !keep(&r.model)) {
@@ -1880,37 +1686,6 @@ mod tests {
         CleanSeries::observed("P", crate::calendar::YearMonth::known(2020, 1), values)
     }
 
-    #[test]
-    fn a_pending_pool_finished_later_is_the_pool_computed_at_once() {
-        // The run keeps the pool's selection pending and projects it only
-        // once it has chosen the pool: the result must be the one
-        // `--default-model best-five-mean` gives directly.
-        let s = seasonal_series(60);
-        let models = candidates();
-        let mut fs = ForecastSettings::default();
-        fs.select.default_rule = DefaultRule::BestMean;
-        let direct_settings = fs.check().unwrap();
-        let auto = ForecastSettings::default().check().unwrap();
-        let none = ProductOptions::default();
-        let direct = forecast_product_with(&s, &models, &direct_settings, &none);
-        let (combo, pending, check) =
-            forecast_product_staged(&s, &models, &auto, &none, true, None);
-        assert!(
-            check.halves.is_some() && check.earlier.is_some(),
-            "60 months give 12 origins and 12 earlier ones, enough for both checks"
-        );
-        assert_eq!(combo.selection.chosen, COMBINATION);
-        let pool = pending.into_iter().find(|p| p.kind == BEST_MEAN).unwrap();
-        let later = finish_pending(&s, &models, &auto, &none, combo, pool);
-        assert_eq!(direct.selection, later.selection);
-        assert_eq!(direct.selection.chosen, BEST_MEAN);
-        let (d, l) = (direct.projection.unwrap(), later.projection.unwrap());
-        assert_eq!(d.forecast.point, l.forecast.point);
-        assert_eq!(d.members, l.members);
-        assert_eq!(d.members.len(), default_rule::BEST_MEAN_SIZE);
-        assert_eq!(direct.ranges, later.ranges);
-    }
-
     /// `n` seasonal series of different trend, amplitude and noise.
     fn varied_series(n: usize) -> Vec<CleanSeries> {
         (0..n)
@@ -1934,10 +1709,11 @@ mod tests {
     }
 
     #[test]
-    fn a_pending_weighted_mean_finished_later_is_the_weighted_mean_computed_at_once() {
-        // As for the pool: the run keeps the weighted mean's selection
-        // pending and projects it only once it has chosen it; the result
-        // must be the one the weighted mean as the only default gives.
+    fn the_weighted_mean_as_default_projects_the_learned_mean_of_its_members() {
+        // A run of enough products learns weights; a product under the
+        // weighted mean as its default keeps it (no other model is 50%
+        // better at 10 of 12 origins on these smooth series) and projects
+        // the learned weights' mean of its members' own projections.
         let series = varied_series(weights::MIN_PRODUCTS + 4);
         let models = candidates();
         let none = ProductOptions::default();
@@ -1954,26 +1730,16 @@ mod tests {
         let s = &series[3];
         let (direct, _) =
             forecast_product_defaults(s, &models, &settings, &none, &[WEIGHTED_MEAN], false, None);
-        let (combo, pending, check) =
-            forecast_product_staged(s, &models, &settings, &none, false, None);
-        assert!(check.weighted.is_some(), "60 months allow the halves check");
-        let pending = pending
-            .into_iter()
-            .find(|p| p.kind == WEIGHTED_MEAN)
-            .expect("the weighted mean is pending");
-        let later = finish_pending(s, &models, &settings, &none, combo, pending);
         let direct = &direct[0];
-        assert_eq!(direct.selection, later.selection);
-        assert_eq!(later.selection.chosen, WEIGHTED_MEAN);
-        let (d, l) = (
-            direct.projection.as_ref().unwrap(),
-            later.projection.as_ref().unwrap(),
+        assert_eq!(
+            direct.selection.chosen, WEIGHTED_MEAN,
+            "{}",
+            direct.selection.reason
         );
-        assert_eq!(d.forecast, l.forecast);
+        let l = direct.projection.as_ref().unwrap();
         // The projection's members are the learned list: one name per step.
         assert_eq!(l.members.len(), weights::STEPS);
         assert_eq!(weights::shares(&l.members), w.shares());
-        assert_eq!(direct.ranges, later.ranges);
         // Its point forecast is the learned weights' mean of the members'
         // own projections.
         let y = &s.values;

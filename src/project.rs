@@ -125,18 +125,6 @@ pub struct FitCache {
 }
 
 impl FitCache {
-    /// The fits kept, to seed another cache for the same product.
-    pub(crate) fn into_fits(self) -> Vec<(String, usize, Forecast)> {
-        self.fits.into_inner()
-    }
-
-    /// A cache holding `fits` (from [`FitCache::into_fits`]).
-    pub(crate) fn seeded(fits: Vec<(String, usize, Forecast)>) -> Self {
-        FitCache {
-            fits: std::cell::RefCell::new(fits),
-        }
-    }
-
     fn forecast(&self, m: &dyn AnyModel, y: &[f64], h: usize) -> Result<Forecast> {
         let name = m.name();
         if let Some((_, _, f)) = self
