@@ -1234,9 +1234,10 @@ fn learns_weights(rule: DefaultRule) -> bool {
 }
 
 /// Most products whose backtests a run computes before the others, to
-/// learn its weights and check its defaults on ([`prepare_run`]): an
-/// evenly spread sample, the products' own backtests kept and reused, so a
-/// run of up to this many pays nothing extra.
+/// learn its weights and check its defaults on before its products are
+/// forecast one by one: an evenly spread sample, the products' own
+/// backtests kept and reused, so a run of up to this many pays nothing
+/// extra.
 pub const RUN_SAMPLE: usize = 1000;
 
 /// Whether the product at position `i` of a run of `n` is in the sample of
