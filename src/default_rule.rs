@@ -492,13 +492,13 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
     };
     match rule {
         DefaultRule::Combination | DefaultRule::WeightedMean => DefaultChoice {
-            reason: "the fixed combination, as set (--default-model combination)".into(),
+            reason: "the fixed combination, as set (--default-model combination, or selection.default_model in the configuration file)".into(),
             ..base
         },
         DefaultRule::BestMean => DefaultChoice {
             default: BEST_MEAN,
             reason: format!(
-                "the mean of each product's best five, as set (--default-model {BEST_MEAN})"
+                "the mean of each product's best five, as set (--default-model {BEST_MEAN}, or selection.default_model in the configuration file)"
             ),
             ..base
         },
@@ -556,7 +556,7 @@ pub fn decide_with_weights(
     let Some(w) = weights else {
         if rule == DefaultRule::WeightedMean {
             choice.reason = format!(
-                "the fixed combination: the weighted mean was asked for (--default-model {WEIGHTED_MEAN}), but fewer than {} products have the backtest to learn its weights from",
+                "the fixed combination: the weighted mean was asked for (--default-model {WEIGHTED_MEAN}, or selection.default_model in the configuration file), but fewer than {} products have the backtest to learn its weights from",
                 crate::weights::MIN_PRODUCTS
             );
         }
@@ -593,7 +593,7 @@ pub fn decide_with_weights(
     if rule == DefaultRule::WeightedMean {
         choice.default = WEIGHTED_MEAN;
         choice.reason =
-            format!("the run's weighted mean, as set (--default-model {WEIGHTED_MEAN}); {learned}");
+            format!("the run's weighted mean, as set (--default-model {WEIGHTED_MEAN}, or selection.default_model in the configuration file); {learned}");
         return choice;
     }
     if rule != DefaultRule::Auto {
