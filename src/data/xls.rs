@@ -251,7 +251,12 @@ pub(crate) fn check_xls(bytes: &[u8], limits: &SheetLimits) -> Result<(), String
                 out.extend_from_slice(sectors.get(id));
             }
         }
-        out.truncate(e.len as usize);
+        // calamine cuts a stream to its declared length only when that is
+        // above zero: a stream said to hold 0 bytes is read whole, so it is
+        // checked whole.
+        if e.len > 0 {
+            out.truncate(e.len as usize);
+        }
         Ok(out)
     };
     let workbook = entries
@@ -413,6 +418,41 @@ mod tests {
         // Last row before the first.
         d[0..4].copy_from_slice(&20u32.to_le_bytes());
         assert_eq!(dimensions(&d), None);
+    }
+
+    /// A workbook stream whose directory entry says it holds 0 bytes is
+    /// read whole by calamine (its `get_chain` cuts a chain to the length
+    /// only when the length is above zero), so the check reads it whole
+    /// too: the sheet with huge dimensions is still found. The fixture's
+    /// Workbook entry is the second of the directory sector at byte 5120
+    /// (its length at byte 120 of the entry).
+    #[test]
+    fn a_stream_said_to_be_empty_is_checked_whole() {
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/data/bad/huge_dimensions.xls"
+        );
+        let mut b = std::fs::read(path).unwrap();
+        let entry = 5120 + 128;
+        assert_eq!(
+            &b[entry..entry + 16],
+            "Workbook"
+                .encode_utf16()
+                .flat_map(u16::to_le_bytes)
+                .collect::<Vec<u8>>()
+                .as_slice()
+        );
+        let limits = SheetLimits {
+            max_cells: 100_000,
+            max_unpacked_bytes: 16 << 20,
+        };
+        assert!(check_xls(&b, &limits).unwrap_err().contains("dimensions"));
+        b[entry + 120..entry + 124].copy_from_slice(&0u32.to_le_bytes());
+        // Read whole, from the mini stream (as calamine reads a stream
+        // under 4096 bytes): this file has none, so it is refused as
+        // damaged rather than passed unread.
+        let e = check_xls(&b, &limits).unwrap_err();
+        assert!(e.contains("damaged"), "{e}");
     }
 
     #[test]
