@@ -575,12 +575,14 @@ pub fn decide_with_weights(
     );
     let triples: Vec<(f64, Option<f64>, f64)> = checks.iter().filter_map(|c| c.weighted).collect();
     let n = triples.len();
-    let mean_of = |v: &[(f64, f64)], i: usize| {
+    // Mean of the pairs' first (the weighted mean's) and second errors.
+    let means = |v: &[(f64, f64)]| {
+        let n = v.len() as f64;
         (!v.is_empty()).then(|| {
-            v.iter()
-                .map(|x| if i == 0 { x.0 } else { x.1 })
-                .sum::<f64>()
-                / v.len() as f64
+            (
+                v.iter().map(|x| x.0).sum::<f64>() / n,
+                v.iter().map(|x| x.1).sum::<f64>() / n,
+            )
         })
     };
     // (the weighted mean's error, the other's) on the same products.
@@ -589,7 +591,7 @@ pub fn decide_with_weights(
         .iter()
         .filter_map(|t| t.1.map(|p| (t.2, p)))
         .collect();
-    choice.weighted_error = mean_of(&against_combination, 0);
+    choice.weighted_error = means(&against_combination).map(|m| m.0);
     if rule == DefaultRule::WeightedMean {
         choice.default = WEIGHTED_MEAN;
         choice.reason =
@@ -613,7 +615,7 @@ pub fn decide_with_weights(
     let mut parts = Vec::new();
     let mut worse_than = None;
     for (name, pairs) in compared {
-        let (Some(we), Some(oe)) = (mean_of(pairs, 0), mean_of(pairs, 1)) else {
+        let Some((we, oe)) = means(pairs) else {
             continue;
         };
         // p that the other's error is lower.
@@ -762,9 +764,13 @@ mod tests {
         use crate::weights::WEIGHTED_MEAN;
         let w = weights();
         // Slightly better, or slightly worse without evidence: replaced.
+        // The decision over 40 products (or `n`) whose halves check gives
+        // the pool and the weighted mean these gains on the combination.
+        let at = |rule, n, pool_gain, weighted_gain, w: Option<&crate::weights::RunWeights>| {
+            decide_with_weights(rule, &weighted_checks(n, pool_gain, weighted_gain), w)
+        };
         for gain in [0.01, -0.002] {
-            let d =
-                decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.0, gain), Some(&w));
+            let d = at(DefaultRule::Auto, 40, 0.0, gain, Some(&w));
             assert_eq!(d.default, WEIGHTED_MEAN, "gain {gain}: {}", d.reason);
             assert_eq!(
                 d.weights,
@@ -777,12 +783,8 @@ mod tests {
             );
         }
         // Clearly worse (every product's error 5% above the combination's,
-        // paired t-test p < 0.001): the combination stays.
-        let d = decide_with_weights(
-            DefaultRule::Auto,
-            &weighted_checks(40, 0.0, -0.05),
-            Some(&w),
-        );
+        // with a spread of ±2%): the combination stays.
+        let d = at(DefaultRule::Auto, 40, 0.0, -0.05, Some(&w));
         assert_eq!(d.default, COMBINATION, "{}", d.reason);
         assert!(
             d.reason.contains("worse than the combination"),
@@ -790,34 +792,24 @@ mod tests {
             d.reason
         );
         // Too few products for the check: the combination stays.
-        let d = decide_with_weights(
-            DefaultRule::Auto,
-            &weighted_checks(MIN_PRODUCTS - 1, 0.0, 0.05),
-            Some(&w),
-        );
+        let d = at(DefaultRule::Auto, MIN_PRODUCTS - 1, 0.0, 0.05, Some(&w));
         assert_eq!(d.default, COMBINATION, "{}", d.reason);
         // The pool, chosen on evidence, stays.
-        let d = decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.05, 0.1), Some(&w));
+        let d = at(DefaultRule::Auto, 40, 0.05, 0.1, Some(&w));
         assert_eq!(d.default, BEST_MEAN, "{}", d.reason);
         // No weights learned: nothing changes; asked for, it says why not.
-        let none = decide_with_weights(DefaultRule::Auto, &weighted_checks(40, 0.0, 0.01), None);
-        assert_eq!(none.default, COMBINATION);
-        let asked = decide_with_weights(
-            DefaultRule::WeightedMean,
-            &weighted_checks(40, 0.0, -0.05),
-            None,
+        assert_eq!(
+            at(DefaultRule::Auto, 40, 0.0, 0.01, None).default,
+            COMBINATION
         );
+        let asked = at(DefaultRule::WeightedMean, 40, 0.0, -0.05, None);
         assert_eq!(asked.default, COMBINATION);
         assert!(
             asked.reason.contains("fewer than 30 products"),
             "{}",
             asked.reason
         );
-        let set = decide_with_weights(
-            DefaultRule::WeightedMean,
-            &weighted_checks(40, 0.0, -0.05),
-            Some(&w),
-        );
+        let set = at(DefaultRule::WeightedMean, 40, 0.0, -0.05, Some(&w));
         assert_eq!(
             set.default, WEIGHTED_MEAN,
             "as set, whatever the check says"
