@@ -340,6 +340,28 @@ pub fn nearest<'a>(word: &str, valid: impl IntoIterator<Item = &'a str>) -> Opti
         .map(|(_, v)| v)
 }
 
+/// The name in `known` a user most likely meant by `name`, which is not
+/// among them: one equal to it but for letter case and spacing first (a
+/// product typed in another case, or with a double space), else the
+/// closest by edit distance ([`nearest`]).
+pub fn nearest_name<'a>(
+    name: &str,
+    known: impl IntoIterator<Item = &'a str> + Clone,
+) -> Option<&'a str> {
+    let fold = |s: &str| {
+        s.split_whitespace()
+            .collect::<Vec<_>>()
+            .join(" ")
+            .to_lowercase()
+    };
+    let folded = fold(name);
+    known
+        .clone()
+        .into_iter()
+        .find(|k| fold(k) == folded)
+        .or_else(|| nearest(name, known))
+}
+
 fn unknown(
     file: &str,
     text: &str,
@@ -779,6 +801,15 @@ mod tests {
             },
             products,
         }
+    }
+
+    #[test]
+    fn nearest_name_prefers_the_same_name_in_another_case_or_spacing() {
+        // Common practice: hand-typed names differ in case and spacing.
+        let known = ["Zinc 20 mg", "Zinc 10 mg", "ORS sachet"];
+        assert_eq!(nearest_name("zinc  10 MG", known), Some("Zinc 10 mg"));
+        assert_eq!(nearest_name("ORS sachets", known), Some("ORS sachet"));
+        assert_eq!(nearest_name("Amoxicillin", known), None);
     }
 
     #[test]

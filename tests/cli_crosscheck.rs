@@ -402,3 +402,22 @@ fn a_start_before_the_forecast_names_the_first_month_that_works() {
         "{out}"
     );
 }
+
+#[test]
+fn a_product_typed_in_another_case_is_named_with_the_forecast_spelling() {
+    // Common practice: population sheets are typed by hand; a name that
+    // differs from forecast.csv only in case gets the forecast's spelling.
+    let w = Workdir::new();
+    fake_forecast(&w, &[("Artemether-lumefantrine", 100_000.0)]);
+    w.write(
+        "pop.csv",
+        AL_BANDS.replace("AL,", "artemether-LUMEFANTRINE,"),
+    );
+    let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("product 'artemether-LUMEFANTRINE' has services or population figures but no consumption forecast; did you mean 'Artemether-lumefantrine'?"),
+        "{t}"
+    );
+}

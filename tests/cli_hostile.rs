@@ -8,7 +8,7 @@ use std::collections::BTreeMap;
 use std::path::Path;
 use std::time::{Duration, Instant};
 
-use common::{command, read_csv_file, run_in, text};
+use common::{command, read_csv_file, run_in, text, Workdir};
 
 /// Every file in a folder (not recursive), name → bytes.
 fn files(dir: &Path) -> BTreeMap<String, Vec<u8>> {
@@ -1628,5 +1628,128 @@ fn the_report_says_when_forecast_csv_was_cut_short() {
             "forecast.csv holds 10 projected month(s), fewer than the run's horizon of 24"
         ),
         "no warning in the report"
+    );
+}
+
+/// A side table of `rows` lines after `header`, the second data row (line
+/// 3) opening a quote in its first value that is never closed, so that
+/// under RFC 4180 §2 (a quoted field runs to its closing quote, line breaks
+/// included) the rest of the file is one value.
+fn unclosed_quote_table(header: &str, row: impl Fn(usize) -> String, rows: usize) -> String {
+    let mut s = format!("{header}\n");
+    for i in 0..rows {
+        let r = row(i);
+        s.push_str(&if i == 1 { format!("\"{r}") } else { r });
+        s.push('\n');
+    }
+    s
+}
+
+#[test]
+fn a_quote_never_closed_in_a_side_table_is_refused_at_its_line_not_echoed() {
+    // RFC 4180 §2 rules 6-7: a field that opens with a quote holds line
+    // breaks until the closing quote. One never closed swallows every row
+    // after it; the error must name the file and the line the quote opens
+    // on, and must not print the rest of the file back.
+    let w = Workdir::new();
+    let products: Vec<String> = (0..300).map(|i| format!("Product {i:03}")).collect();
+    let mut fc = String::from("product,month,model,forecast,lower_80,upper_80,lower_95,upper_95\n");
+    for p in &products {
+        for m in 1..=12 {
+            fc.push_str(&format!("{p},2027-{m:02},naive,100,80,120,70,140\n"));
+        }
+    }
+    w.write("fc/forecast.csv", fc);
+    w.write("fc/.provisio-output", "marker\n");
+    w.write(
+        "fc/manifest.json",
+        r#"{"tool":"provisio test","forecast_settings":{"backtest":{"origins":3,"horizon":6,"exclude_imputed":true},"select":{"score":"mape","tie_margin":0.1},"horizon":12}}"#,
+    );
+    w.write(
+        "stock.csv",
+        unclosed_quote_table(
+            "product,stock_on_hand,stock_date,lead_time_months,min_months,max_months,review_period_months,pack_size,unit_cost",
+            |i| format!("{},500,2026-12,2,3,6,3,10,1.5", products[i]),
+            300,
+        ),
+    );
+    w.write(
+        "population.csv",
+        unclosed_quote_table(
+            "product,method,population,rate,quantity_per_course",
+            |i| format!("{},morbidity,100000,0.1,1", products[i]),
+            300,
+        ),
+    );
+    w.write(
+        "changes.csv",
+        unclosed_quote_table(
+            "product,kind,first_month,last_month,value,note",
+            |i| format!("{},scale,2027-01,2027-06,1.1,note {i}", products[i]),
+            300,
+        ),
+    );
+    w.write(
+        "data.csv",
+        (0..36).fold(String::from("product,month,consumed\n"), |s, t| {
+            s + &format!(
+                "Product 000,{}-{:02},{}\n",
+                2024 + t / 12,
+                t % 12 + 1,
+                100 + t
+            )
+        }),
+    );
+    let cases: [(&str, Vec<&str>); 3] = [
+        ("stock.csv", vec!["plan", "fc", "--stock", "stock.csv"]),
+        (
+            "population.csv",
+            vec![
+                "crosscheck",
+                "fc",
+                "--population",
+                "population.csv",
+                "--no-report",
+            ],
+        ),
+        (
+            "changes.csv",
+            vec![
+                "forecast",
+                "data.csv",
+                "--changes",
+                "changes.csv",
+                "--out",
+                "out",
+            ],
+        ),
+    ];
+    for (file, args) in cases {
+        let o = w.run(&args);
+        let t = text(&o);
+        assert_eq!(o.status.code(), Some(1), "{file}: {t}");
+        assert!(t.contains(&format!("{file}:3:")), "{file}: {t}");
+        assert!(
+            t.contains("column 1 of the row starting on line 3"),
+            "{file}: {t}"
+        );
+        assert!(t.contains("never closed"), "{file}: {t}");
+        // Product 100 is on a line the open quote swallowed.
+        assert!(
+            !t.contains("Product 100"),
+            "{file}: the swallowed rows were echoed: {t}"
+        );
+    }
+    // A header name with a line break (a quote opened in the header).
+    w.write(
+        "stock2.csv",
+        "product,\"stock_on_hand,stock_date\nZinc,5,2026-12,2,3,6,3,10,1.5\n",
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock2.csv"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("stock2.csv:1:") && t.contains("column 2 of the header"),
+        "{t}"
     );
 }

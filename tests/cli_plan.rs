@@ -759,3 +759,26 @@ fn a_shipment_entered_twice_is_counted_and_warned_about() {
     let plan = w.read_csv_maps("fc/plan.csv");
     assert_eq!(num(&plan[1], "arrivals_on_order"), 3000.0);
 }
+
+#[test]
+fn a_product_typed_in_another_case_is_named_with_the_forecast_spelling() {
+    // Common practice: a stock sheet typed by hand often differs from the
+    // system's product names only in letter case or spacing; the message
+    // must offer the forecast's spelling rather than a bare "not found".
+    let w = Workdir::new();
+    hand_forecast(&w, &flat_forecast("Zinc 20 mg tablet", 2027, 24, 100.0));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}zinc 20  mg TABLET,500,2026-12,2,4,8,2,10,0.1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("stock.csv:2:")
+            && t.contains(
+                "'zinc 20  mg TABLET' is not in the forecast; did you mean 'Zinc 20 mg tablet'?"
+            ),
+        "{t}"
+    );
+}

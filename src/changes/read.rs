@@ -458,6 +458,14 @@ fn csv_rows(file: &str, bytes: &[u8]) -> Result<(Header, Vec<Row>)> {
             message: format!("cannot read the row: {e}"),
         })?;
         let line = rec.position().map(|p| p.line()).unwrap_or(0);
+        if let Some(message) = crate::data::runaway_quote(line, header.is_none(), rec.iter()) {
+            return Err(Error::Input {
+                file: file.to_string(),
+                line,
+                column: None,
+                message,
+            });
+        }
         let cells: Vec<String> = rec.iter().map(str::to_string).collect();
         if cells.iter().all(|c| c.trim().is_empty()) || cells[0].trim_start().starts_with('#') {
             continue;

@@ -78,12 +78,13 @@ impl Sheet {
             .delimiter(delimiter)
             .flexible(true)
             .from_reader(body);
-        let header: Vec<String> = reader
+        let raw_header = reader
             .headers()
-            .map_err(|e| input_error(&file, 1, None, format!("cannot read the header: {e}")))?
-            .iter()
-            .map(crate::data::normalise_name)
-            .collect();
+            .map_err(|e| input_error(&file, 1, None, format!("cannot read the header: {e}")))?;
+        if let Some(message) = crate::data::runaway_quote(1, true, raw_header.iter()) {
+            return Err(input_error(&file, 1, None, message));
+        }
+        let header: Vec<String> = raw_header.iter().map(crate::data::normalise_name).collect();
         if header.iter().all(|h| h.is_empty()) {
             return Err(input_error(
                 &file,
@@ -114,6 +115,9 @@ impl Sheet {
                 )
             })?;
             let line = rec.position().map(|p| p.line()).unwrap_or(0);
+            if let Some(message) = crate::data::runaway_quote(line, false, rec.iter()) {
+                return Err(input_error(&file, line, None, message));
+            }
             if rec.iter().all(|f| f.trim().is_empty()) {
                 continue;
             }

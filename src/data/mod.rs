@@ -21,7 +21,7 @@ pub(crate) use sheet::read_sheet_cells;
 pub use sheet::{
     column_letter, is_workbook, read_bytes, read_path, read_sheet_bytes, WORKBOOK_EXTENSIONS,
 };
-pub use text::{lf_line_ends, Encoding, MAX_ROW_BYTES};
+pub use text::{lf_line_ends, runaway_quote, Encoding, MAX_ROW_BYTES};
 pub use values::{parse_month, parse_number, NumberFormat};
 
 use std::sync::Arc;

@@ -699,3 +699,45 @@ mod line_end_tests {
         assert_eq!(line(&lf_line_ends(b"h\r\n1\r\n2\r\n")), 3);
     }
 }
+
+/// Longest value a small side table (stock, changes, services, population)
+/// takes, in bytes: a note may be long, but a value this long is almost
+/// always a quote opened and never closed, swallowing the rows after it.
+pub const MAX_SIDE_VALUE_BYTES: usize = 4096;
+
+/// Most line breaks inside one quoted value of a side table (a spreadsheet
+/// cell may hold a few).
+pub const MAX_SIDE_VALUE_BREAKS: usize = 20;
+
+/// Why a side table's row starting at `line` cannot be trusted, when one of
+/// its values looks like a quote opened and never closed: a header name
+/// holding a line break, or a value longer than [`MAX_SIDE_VALUE_BYTES`] or
+/// with more than [`MAX_SIDE_VALUE_BREAKS`] line breaks. The message names
+/// the line the quote opens on and the column (1-based), never the value
+/// itself, which may be the rest of the file.
+pub fn runaway_quote<'a>(
+    line: u64,
+    header: bool,
+    fields: impl IntoIterator<Item = &'a str>,
+) -> Option<String> {
+    fields.into_iter().enumerate().find_map(|(i, v)| {
+        let breaks = v.bytes().filter(|&b| b == b'\n').count();
+        let bad = (header && breaks > 0)
+            || v.len() > MAX_SIDE_VALUE_BYTES
+            || breaks > MAX_SIDE_VALUE_BREAKS;
+        let limit = if header {
+            "a column name holds no line break".to_string()
+        } else {
+            format!("a value holds at most {MAX_SIDE_VALUE_BYTES} bytes and {MAX_SIDE_VALUE_BREAKS} line breaks")
+        };
+        bad.then(|| {
+            format!(
+                "column {} of the {} starting on line {line} runs over {} lines ({} bytes): a quote opened there is probably never closed; close it or remove the stray quote mark ({limit})",
+                i + 1,
+                if header { "header" } else { "row" },
+                breaks + 1,
+                v.len(),
+            )
+        })
+    })
+}

@@ -169,12 +169,13 @@ impl Sheet {
             .has_headers(true)
             .flexible(true)
             .from_reader(text.as_bytes());
-        let header: Vec<String> = reader
+        let raw_header = reader
             .headers()
-            .map_err(|e| refuse(1, None, format!("cannot read the header: {e}")))?
-            .iter()
-            .map(normalise)
-            .collect();
+            .map_err(|e| refuse(1, None, format!("cannot read the header: {e}")))?;
+        if let Some(message) = crate::data::runaway_quote(1, true, raw_header.iter()) {
+            return Err(refuse(1, None, message));
+        }
+        let header: Vec<String> = raw_header.iter().map(normalise).collect();
         if header.iter().all(|h| h.is_empty()) {
             return Err(refuse(
                 0,
@@ -226,6 +227,9 @@ impl Sheet {
                 refuse(line, None, format!("cannot read this row: {e}"))
             })?;
             let line = rec.position().map(|p| p.line()).unwrap_or(0);
+            if let Some(message) = crate::data::runaway_quote(line, false, rec.iter()) {
+                return Err(refuse(line, None, message));
+            }
             if rec.iter().all(|v| v.trim().is_empty()) {
                 continue;
             }
@@ -581,6 +585,16 @@ pub struct ForecastSeries {
 }
 
 impl ForecastSeries {
+    /// Why `product` has no forecast, with the product the user most
+    /// likely meant.
+    fn not_found(&self, product: &str) -> String {
+        let hint =
+            crate::config::nearest_name(product, self.series.keys().map(|(p, _)| p.as_str()))
+                .map(|n| format!("; did you mean '{n}'?"))
+                .unwrap_or_else(|| " (names must match forecast.csv exactly)".to_string());
+        format!("product '{product}' is not in the forecast{hint}")
+    }
+
     /// The forecast a stock row is planned against: the series itself; for
     /// a row without a site on a per-site forecast, the sum over the
     /// product's sites (points and upper bounds summed: the summed bound
@@ -603,7 +617,7 @@ impl ForecastSeries {
                 .series
                 .get(&(product.to_string(), None))
                 .cloned()
-                .ok_or_else(|| format!("product '{product}' is not in the forecast")),
+                .ok_or_else(|| self.not_found(product)),
             (None, true) => {
                 let parts: Vec<&SeriesForecast> = self
                     .series
@@ -612,7 +626,7 @@ impl ForecastSeries {
                     .map(|(_, f)| f)
                     .collect();
                 let Some(first) = parts.first() else {
-                    return Err(format!("product '{product}' is not in the forecast"));
+                    return Err(self.not_found(product));
                 };
                 let start = parts.iter().map(|f| f.start).max().unwrap_or(first.start);
                 let end = parts.iter().map(|f| f.end()).min().unwrap_or(first.end());
