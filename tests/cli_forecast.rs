@@ -848,3 +848,53 @@ fn the_weighted_mean_states_its_weights_in_the_manifest_and_selection() {
         );
     }
 }
+
+#[test]
+fn a_name_the_png_font_cannot_draw_is_warned_about_and_kept_in_svg() {
+    // DejaVu Sans, the charts' font, has no CJK ideographs (the DejaVu
+    // project's coverage tables; from memory): a product named in Chinese
+    // gets a warning when PNG files are drawn, and its SVG keeps the name.
+    let w = Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for name in ["阿莫西林 250mg", "Парацетамол 500 mg"] {
+        for t in 0..36 {
+            data.push_str(&format!(
+                "{name},{}-{:02},{}\n",
+                2023 + t / 12,
+                t % 12 + 1,
+                100 + t % 7
+            ));
+        }
+    }
+    w.write("d.csv", data);
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--out",
+        "o",
+        "--no-workbook",
+        "--chart-files",
+        "all",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("warning: 1 name(s) drawn in PNG chart titles")
+            && t.contains("(first: '阿莫西林 250mg', characters 阿莫西林)"),
+        "{t}"
+    );
+    let svgs: Vec<String> = std::fs::read_dir(w.path("o/charts"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|x| x == "svg"))
+        .map(|p| std::fs::read_to_string(p).unwrap())
+        .collect();
+    assert!(svgs.iter().any(|s| s.contains("阿莫西林 250mg")));
+    // Without chart files no PNG is drawn and nothing is said.
+    let o = w.run(&["forecast", "d.csv", "--out", "o2", "--no-workbook"]);
+    assert!(
+        o.status.success() && !text(&o).contains("PNG chart titles"),
+        "{}",
+        text(&o)
+    );
+}

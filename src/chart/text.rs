@@ -203,3 +203,19 @@ impl<'a> DrawingBackend for PngCanvas<'a> {
         Ok(())
     }
 }
+
+/// The characters of `text` the embedded font has no glyph for (each
+/// once, in order; white space and control characters are not drawn and
+/// not counted). The PNG backend draws them as the font's empty box.
+pub(super) fn undrawable(text: &str) -> Vec<char> {
+    let Some(f) = font() else {
+        return Vec::new();
+    };
+    let mut out: Vec<char> = Vec::new();
+    for c in text.chars() {
+        if !c.is_whitespace() && !c.is_control() && f.glyph_id(c).0 == 0 && !out.contains(&c) {
+            out.push(c);
+        }
+    }
+    out
+}

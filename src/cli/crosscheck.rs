@@ -219,6 +219,9 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
     let mut report = None;
     if !a.no_report {
         let w = provisio::report::write_report(dir)?;
+        for warning in &w.warnings {
+            super::warn(warning);
+        }
         report = Some((
             a.dir.join("report.html").display().to_string(),
             w.charts.len(),

@@ -1153,6 +1153,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             a_out.display()
         ),
     }
+    for w in report.iter().flat_map(|r| &r.warnings) {
+        super::warn(w);
+    }
     match report {
         Some(r) if r.charts.is_empty() => say!("wrote report.html"),
         Some(r) => say!(

@@ -333,13 +333,22 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
         std::fs::create_dir_all(&charts_dir)
             .map_err(|e| anyhow::anyhow!("{}: cannot create: {e}", charts_dir.display()))?;
         match provisio::report::plan::read_plan(&dir)? {
-            Some(p) => provisio::report::plan::draw_charts(&p, &charts_dir)?
-                .1
-                .len(),
+            Some(p) => {
+                let files = provisio::report::plan::draw_charts(&p, &charts_dir)?.1;
+                let names = p.series.iter().map(|(k, _)| k.0.as_str());
+                if let (false, Some(w)) =
+                    (files.is_empty(), provisio::chart::png_names_warning(names))
+                {
+                    super::warn(&w);
+                }
+                files.len()
+            }
             None => 0,
         }
     } else {
-        provisio::report::write_report(&dir)?;
+        for w in provisio::report::write_report(&dir)?.warnings {
+            super::warn(&w);
+        }
         planned.len() * 2
     };
     // The planner's workbook gets the plan's sheets (Supply plan, Orders,

@@ -41,6 +41,9 @@ pub fn run(a: ReportArgs) -> anyhow::Result<()> {
     }
     super::say!("wrote {}", book.display());
     if let Some(w) = &written {
+        for warning in &w.warnings {
+            super::warn(warning);
+        }
         if w.charts.is_empty() {
             super::say!("wrote {} ({} products)", w.report.display(), w.products);
         } else {

@@ -196,6 +196,9 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
         warnings: &warnings,
     };
     let written = provisio::report::review::write_review_report(&out, &page)?;
+    for w in &written.warnings {
+        super::warn(w);
+    }
     let changes_json = super::changes::review(&pasts, &result, &out)?;
     if changes_json.is_some() {
         super::say!("wrote review_changes.csv: the statistical and the adjusted forecast scored, per product and per change");

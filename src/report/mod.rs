@@ -53,6 +53,9 @@ pub struct Written {
     pub charts: Vec<PathBuf>,
     /// Products in the report.
     pub products: usize,
+    /// What the caller should pass on as warnings (names the PNG charts
+    /// could not draw whole).
+    pub warnings: Vec<String>,
 }
 
 /// Which products get chart image files (PNG and SVG under `charts/`),
@@ -250,11 +253,18 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
         });
     }
     let mut attention = attention_lists(&run);
+    // Names drawn into the PNG titles of the plan's and the cross-check's
+    // charts.
+    let mut drawn_elsewhere: Vec<String> = Vec::new();
     // The cross-check section, when `provisio crosscheck` has run here.
-    if let Some(rows) = crosscheck::read_crosscheck(dir)? {
-        attention.push(crosscheck_attention(&run, &rows));
+    let crosscheck_rows = crosscheck::read_crosscheck(dir)?;
+    if let Some(rows) = &crosscheck_rows {
+        attention.push(crosscheck_attention(&run, rows));
     }
     if let Some((html, files)) = crosscheck::write_section(dir)? {
+        if !files.is_empty() {
+            drawn_elsewhere.extend(crosscheck_rows.iter().flatten().map(|r| r.product.clone()));
+        }
         charts.extend(files);
         sections.push(Section {
             id: "crosscheck",
@@ -267,6 +277,9 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
         attention.push(plan_attention(&run, &p));
         create_dir(&charts_dir)?;
         let (plan_svgs, files) = plan::draw_charts(&p, &charts_dir)?;
+        if !files.is_empty() {
+            drawn_elsewhere.extend(p.series.iter().map(|(k, _)| k.0.clone()));
+        }
         charts.extend(files);
         sections.push(Section {
             id: "plan",
@@ -284,10 +297,23 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
     crate::output::write_atomic(&report, |w| {
         write_page(w, &run, &stems, &with_files, &attention, &sections)
     })?;
+    // Every name a PNG title carries: the products with chart files, and
+    // those of the plan's and the cross-check's charts.
+    let mut drawn: Vec<&str> = run
+        .products
+        .iter()
+        .zip(&with_files)
+        .filter(|(_, w)| **w)
+        .map(|(p, _)| p.product.as_str())
+        .collect();
+    drawn.extend(drawn_elsewhere.iter().map(String::as_str));
+    drawn.sort_unstable();
+    drawn.dedup();
     Ok(Written {
         report,
         charts,
         products: run.products.len(),
+        warnings: chart::png_names_warning(drawn).into_iter().collect(),
     })
 }
 

@@ -161,6 +161,7 @@ pub fn write_review_report(dir: &Path, page: &ReviewPage<'_>) -> Result<Written>
         report,
         charts,
         products: review.products.len(),
+        warnings: chart::png_names_warning(names).into_iter().collect(),
     })
 }
 
