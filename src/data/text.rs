@@ -711,8 +711,8 @@ pub const MAX_SIDE_VALUE_BREAKS: usize = 20;
 
 /// Why a side table's row starting at `line` cannot be trusted, when one of
 /// its values looks like a quote opened and never closed: a header name
-/// holding a line break, or a value longer than [`MAX_SIDE_VALUE_BYTES`] or
-/// with more than [`MAX_SIDE_VALUE_BREAKS`] line breaks. The message names
+/// holding a line break, or a value longer than `MAX_SIDE_VALUE_BYTES` (4096) or
+/// with more than `MAX_SIDE_VALUE_BREAKS` (20) line breaks. The message names
 /// the line the quote opens on and the column (1-based), never the value
 /// itself, which may be the rest of the file.
 pub fn runaway_quote<'a>(
