@@ -314,6 +314,8 @@ pub(crate) fn read_sheet_cells(
     pick: &dyn Fn(&[String]) -> Option<String>,
 ) -> std::result::Result<(String, Vec<StoredRow>), (Option<String>, String)> {
     guarded(|| {
+        let padded = super::xls::whole_sectors(bytes);
+        let bytes: &[u8] = &padded;
         check_unpacked(bytes, limits).map_err(|m| (None, m))?;
         super::xls::check_xls(bytes, limits).map_err(|m| (None, m))?;
         let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes))
@@ -335,6 +337,8 @@ fn read_sheet_unguarded(source: &str, bytes: &[u8], options: &ReadOptions) -> Re
             column,
             message,
         };
+    let padded = super::xls::whole_sectors(bytes);
+    let bytes: &[u8] = &padded;
     let active = check_unpacked(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
     super::xls::check_xls(bytes, &options.limits).map_err(|m| file_err(None, 0, None, m))?;
     let mut book = calamine::open_workbook_auto_from_rs(Cursor::new(bytes)).map_err(|e| {

@@ -108,6 +108,32 @@ struct Entry {
     len: u64,
 }
 
+/// A compound file padded with zeros to a whole number of sectors; other
+/// bytes as they are. calamine reads a file cut inside a sector as the
+/// short sector the first time and as the sector padded with zeros after
+/// (its sector cache grows to whole sectors), and a directory sector cut
+/// short as a last, shorter entry: two views of one file that a check
+/// cannot both follow. Padded, the file has one view, the one
+/// [`check_xls`] checks and calamine then reads.
+pub(crate) fn whole_sectors(bytes: &[u8]) -> std::borrow::Cow<'_, [u8]> {
+    let size = match u16_at(bytes, 30) {
+        Some(9) => 512usize,
+        Some(12) => 4096,
+        _ => return std::borrow::Cow::Borrowed(bytes),
+    };
+    if !bytes.starts_with(&SIGNATURE) {
+        return std::borrow::Cow::Borrowed(bytes);
+    }
+    let whole = bytes.len().max(size).div_ceil(size) * size;
+    if whole == bytes.len() {
+        return std::borrow::Cow::Borrowed(bytes);
+    }
+    let mut padded = Vec::with_capacity(whole);
+    padded.extend_from_slice(bytes);
+    padded.resize(whole, 0);
+    std::borrow::Cow::Owned(padded)
+}
+
 /// Checks an `.xls` workbook (a compound file) before calamine opens it.
 /// Other bytes pass unchanged (calamine, or the CSV reader, names them).
 pub(crate) fn check_xls(bytes: &[u8], limits: &SheetLimits) -> Result<(), String> {
@@ -263,9 +289,10 @@ pub(crate) fn check_xls(bytes: &[u8], limits: &SheetLimits) -> Result<(), String
         .iter()
         .find(|e| e.name == "Workbook")
         .or_else(|| entries.iter().find(|e| e.name == "Book"));
-    // calamine also opens the macro streams when there are any: every
-    // stream's chain must hold.
-    for e in entries.iter().skip(1).filter(|e| e.kind == 2) {
+    // calamine also opens the macro streams when there are any, by name
+    // whatever an entry's kind says: the chain of every stream, and of any
+    // other entry that declares a length, must hold.
+    for e in entries.iter().skip(1).filter(|e| e.kind == 2 || e.len > 0) {
         read_stream(e)?;
     }
     match workbook {
@@ -404,6 +431,29 @@ fn dimensions(data: &[u8]) -> Option<u64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_cut_compound_file_is_padded_to_whole_sectors() {
+        // MS-CFB §2.2: a 512-byte header, then sectors of 2^(sector
+        // shift) bytes (offset 30; 9 → 512, 12 → 4096).
+        let mut b = SIGNATURE.to_vec();
+        b.resize(512, 0);
+        b[30] = 9;
+        b.extend([7u8; 700]);
+        let padded = whole_sectors(&b);
+        assert_eq!(padded.len(), 512 + 1024);
+        assert_eq!(&padded[..b.len()], &b[..]);
+        assert!(padded[b.len()..].iter().all(|&x| x == 0));
+        // Whole already, or not a compound file: unchanged, not copied.
+        assert!(matches!(
+            whole_sectors(&padded),
+            std::borrow::Cow::Borrowed(_)
+        ));
+        assert!(matches!(
+            whole_sectors(b"PK\x03\x04 a zip"),
+            std::borrow::Cow::Borrowed(_)
+        ));
+    }
 
     #[test]
     fn declared_dimensions_as_read() {

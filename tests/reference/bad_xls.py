@@ -16,6 +16,10 @@ Files:
                        2,147,483,647
   bad_sector.xls       the header's first directory sector is 2,147,483,632,
                        far past the end of the 5.5 KB file
+  cut_directory.xls    huge_dimensions.xls cut inside its directory sector
+                       (the file's last), just after the Workbook entry's
+                       start and length: the entry is cut short, and a
+                       reader that skips a short entry sees no workbook
 """
 
 import pathlib
@@ -105,6 +109,19 @@ def main():
     assert len(dims[0]) == 14
     put(data, dims[0][:8], "<II", 0, 0x7FFFFFFF)
     (OUT / "huge_dimensions.xls").write_bytes(data)
+
+    size, offset = sectors_of(data)
+    dirs = chain(fat_of(data), struct.unpack_from("<I", data, 48)[0])
+    assert offset(dirs[-1]) + size == len(data), "the directory's sector ends the file"
+    for k in range(size // 128):
+        e = offset(dirs[-1]) + k * 128
+        name_len = struct.unpack_from("<H", data, e + 64)[0]
+        if data[e : e + max(name_len - 2, 0)].decode("utf-16-le") == "Workbook":
+            # Name, kind, start (116..120) and length (120..124) kept.
+            (OUT / "cut_directory.xls").write_bytes(data[: e + 125])
+            break
+    else:
+        raise SystemExit("no Workbook entry in the last directory sector")
 
     data = bytearray(source)
     struct.pack_into("<I", data, 48, 0x7FFFFFF0)
