@@ -226,11 +226,7 @@ proptest! {
 fn the_unedited_demo_side_tables_are_read() {
     // The invented demo scenario's files are accepted whole: the property
     // above starts from files that read.
-    for which in 0..FILES.len() {
-        assert!(
-            check(which, &demo(FILES[which])).unwrap(),
-            "{}",
-            FILES[which]
-        );
+    for (which, file) in FILES.iter().enumerate() {
+        assert!(check(which, &demo(file)).unwrap(), "{file}");
     }
 }
