@@ -464,6 +464,23 @@ fn stockout_and_rate_tables_adjust_their_months_and_mismatches_are_warned() {
     let out = text(&o);
     assert!(o.status.success(), "{out}");
     assert!(out.contains("rejected: c.csv: line 2, column E (2024-04): stockout days at s2.csv: line 2, column B (2024-04): stockout_days 40 is outside 0-30 (2024-04 has 30 days)"), "{out}");
+    // In rejected.csv the row's file, line, column and cell place the
+    // consumption value set aside, so its value is that cell's (100, not
+    // the stockout table's 40, which the reason places): a reviewer who
+    // opens c.csv at E2 finds the value the row names.
+    let rejected = w.read_csv_maps("o2/rejected.csv");
+    assert_eq!(rejected.len(), 1, "{rejected:?}");
+    let r = &rejected[0];
+    assert_eq!(
+        (r["file"].as_str(), r["line"].as_str(), r["column"].as_str()),
+        ("c.csv", "2", "2024-04")
+    );
+    assert_eq!((r["value"].as_str(), r["cell"].as_str()), ("100", "E2"));
+    assert!(
+        r["reason"]
+            .starts_with("stockout days at s2.csv: line 2, column B (2024-04): stockout_days 40"),
+        "{r:?}"
+    );
 
     // Tables of the wide layout for a long file are refused, saying why.
     w.write("long.csv", "product,month,consumed\nORS,2024-01,5\n");

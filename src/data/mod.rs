@@ -54,7 +54,9 @@ pub struct RejectedRow {
     pub line: u64,
     /// Column at fault, if one.
     pub column: Option<String>,
-    /// The offending value as found.
+    /// The offending value as found (in the wide layout, for a bad value
+    /// of the stockout or rate table, the consumption cell's value: the
+    /// reason names the other table's value and place).
     pub value: String,
     /// What was wrong and what would be valid.
     pub reason: String,

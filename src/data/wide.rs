@@ -906,7 +906,12 @@ impl<'o> WideReader<'o> {
                         _ => None,
                     };
                     if let Some((what, at)) = from {
+                        // The row's fields (file, line, column, sheet, cell)
+                        // place the consumption cell set aside, so its value
+                        // is that cell's; the companion table's value and
+                        // place are in the reason.
                         r.reason = format!("{what} at {at}: {}", r.reason);
+                        r.value = consumed.shown();
                     }
                     r.column = Some(month.header.clone());
                 }
