@@ -7,6 +7,8 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
+mod common;
+
 use proptest::prelude::*;
 use provisio::calendar::YearMonth;
 use provisio::clean::{read_and_clean, CleanSettings};
@@ -147,18 +149,7 @@ fn apply(text: &str, edits: &[(f64, Edit)]) -> Vec<u8> {
             Edit::Delete(n) => {
                 b.drain(i..(i + n).min(b.len()));
             }
-            Edit::DuplicateLine => {
-                let start = b[..i]
-                    .iter()
-                    .rposition(|&c| c == b'\n')
-                    .map_or(0, |p| p + 1);
-                let end = b[i..]
-                    .iter()
-                    .position(|&c| c == b'\n')
-                    .map_or(b.len(), |p| i + p + 1);
-                let line = b[start..end].to_vec();
-                b.splice(end..end, line);
-            }
+            Edit::DuplicateLine => common::duplicate_line_at(&mut b, i),
         }
     }
     b

@@ -7,6 +7,8 @@
 //! that names the file, or read into values that keep the reader's stated
 //! promises. Seeds: the invented demo scenario's files (datasets/demo).
 
+mod common;
+
 use proptest::prelude::*;
 use provisio::calendar::YearMonth;
 use provisio::data::NumberFormat;
@@ -81,18 +83,7 @@ fn apply(mut b: Vec<u8>, edits: &[(prop::sample::Index, Edit)]) -> Vec<u8> {
                     b[at] = *v;
                 }
             }
-            Edit::DuplicateLine => {
-                let s = b[..at]
-                    .iter()
-                    .rposition(|&c| c == b'\n')
-                    .map_or(0, |p| p + 1);
-                let e = b[at..]
-                    .iter()
-                    .position(|&c| c == b'\n')
-                    .map_or(b.len(), |p| at + p + 1);
-                let line = b[s..e].to_vec();
-                b.splice(e..e, line);
-            }
+            Edit::DuplicateLine => common::duplicate_line_at(&mut b, at),
             Edit::Cut => b.truncate(at),
         }
     }

@@ -67,14 +67,16 @@ def learn(ps, steps=20):
         members.append(best[1])
         for i,(k,v) in enumerate(pts): cur[i]=(cur[i]*s+v[best[1]])/(s+1)
     return collections.Counter(members)
-def wape(fc):  # fc: (p,month)->value
+def wape_on(ps, fc):
     num=den=0
-    for p in smooth:
+    for p in ps:
         for mo in range(1,13):
             month=f'2025-{mo:02d}'; t=truth.get((p,month))
             if t is None: continue
             num+=abs(fc(p,month)-t); den+=t
-    return 100*num/den
+    return 100*num/den, num
+def wape(fc):  # fc: (p,month)->value
+    return wape_on(smooth, fc)[0]
 def mix(w):
     tot=sum(w.values())
     return lambda p,mo: sum(c*proj.get((m,p,mo), proj[('combination',p,mo)]) for m,c in w.items())/tot
@@ -89,14 +91,6 @@ wf=learn(set(fast)) if len(fast)>=30 else g; ws=learn(set(slow)) if len(slow)>=3
 print('fast', dict(wf)); print('slow', dict(ws))
 fs=set(fast); mf=mix(wf); ms=mix(ws)
 print(f'grouped WAPE {wape(lambda p,mo: mf(p,mo) if p in fs else ms(p,mo)):.2f}')
-def wape_on(ps, fc):
-    num=den=0
-    for p in ps:
-        for mo in range(1,13):
-            month=f'2025-{mo:02d}'; t=truth.get((p,month))
-            if t is None: continue
-            num+=abs(fc(p,month)-t); den+=t
-    return 100*num/den, num
 for name,ps in [('fast',fast),('slow',slow)]:
     row=[name]
     for lab,fc in [('ets',lambda p,mo: proj[('ets-auto',p,mo)]),('comb',lambda p,mo: proj[('combination',p,mo)]),('global',mix(g)),('grouped',mf if name=='fast' else ms)]:

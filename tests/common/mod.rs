@@ -177,3 +177,19 @@ pub fn large_folder(dir: &Path, times: usize) -> Vec<String> {
     }
     names
 }
+
+/// Repeats the line of `b` that holds byte position `at` (a hostile edit
+/// of the property tests: a row pasted twice).
+pub fn duplicate_line_at(b: &mut Vec<u8>, at: usize) {
+    let at = at.min(b.len());
+    let start = b[..at]
+        .iter()
+        .rposition(|&c| c == b'\n')
+        .map_or(0, |p| p + 1);
+    let end = b[at..]
+        .iter()
+        .position(|&c| c == b'\n')
+        .map_or(b.len(), |p| at + p + 1);
+    let line = b[start..end].to_vec();
+    b.splice(end..end, line);
+}
