@@ -340,6 +340,19 @@ pub fn nearest<'a>(word: &str, valid: impl IntoIterator<Item = &'a str>) -> Opti
         .map(|(_, v)| v)
 }
 
+/// "; did you mean 'X'?" for the name of `known` a user most likely meant
+/// by `name` ([`nearest_name`]), or `otherwise` when none is near.
+pub fn did_you_mean<'a>(
+    name: &str,
+    known: impl IntoIterator<Item = &'a str> + Clone,
+    otherwise: &str,
+) -> String {
+    nearest_name(name, known).map_or_else(
+        || otherwise.to_string(),
+        |n| format!("; did you mean '{n}'?"),
+    )
+}
+
 /// The name in `known` a user most likely meant by `name`, which is not
 /// among them: one equal to it but for letter case and spacing first (a
 /// product typed in another case, or with a double space), else the

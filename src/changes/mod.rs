@@ -297,9 +297,11 @@ fn err(file: &str, c: &Change, column: &str, message: String) -> Error {
 }
 
 fn unknown_product(file: &str, c: &Change, column: &str, name: &str, known: &[&str]) -> Error {
-    let hint = crate::config::nearest_name(name, known.iter().copied())
-        .map(|n| format!("; did you mean '{n}'?"))
-        .unwrap_or_else(|| " (names must match the data exactly)".to_string());
+    let hint = crate::config::did_you_mean(
+        name,
+        known.iter().copied(),
+        " (names must match the data exactly)",
+    );
     err(
         file,
         c,

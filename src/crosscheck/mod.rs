@@ -354,12 +354,11 @@ pub fn build(
         };
         let consumption = match forecast.get(product) {
             None => {
-                let hint =
-                    crate::config::nearest_name(product, forecast.keys().map(String::as_str))
-                        .map(|n| format!("; did you mean '{n}'?"))
-                        .unwrap_or_else(|| {
-                            " (check the spelling against forecast.csv)".to_string()
-                        });
+                let hint = crate::config::did_you_mean(
+                    product,
+                    forecast.keys().map(String::as_str),
+                    " (check the spelling against forecast.csv)",
+                );
                 warnings.push(format!(
                     "product '{product}' has services or population figures but no consumption forecast{hint}; its estimates are listed without a comparison"
                 ));

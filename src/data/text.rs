@@ -725,12 +725,12 @@ pub fn runaway_quote<'a>(
         let bad = (header && breaks > 0)
             || v.len() > MAX_SIDE_VALUE_BYTES
             || breaks > MAX_SIDE_VALUE_BREAKS;
-        let limit = if header {
-            "a column name holds no line break".to_string()
-        } else {
-            format!("a value holds at most {MAX_SIDE_VALUE_BYTES} bytes and {MAX_SIDE_VALUE_BREAKS} line breaks")
-        };
         bad.then(|| {
+            let limit = if header {
+                "a column name holds no line break".to_string()
+            } else {
+                format!("a value holds at most {MAX_SIDE_VALUE_BYTES} bytes and {MAX_SIDE_VALUE_BREAKS} line breaks")
+            };
             format!(
                 "column {} of the {} starting on line {line} runs over {} lines ({} bytes): a quote opened there is probably never closed; close it or remove the stray quote mark ({limit})",
                 i + 1,

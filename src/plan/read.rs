@@ -588,10 +588,11 @@ impl ForecastSeries {
     /// Why `product` has no forecast, with the product the user most
     /// likely meant.
     fn not_found(&self, product: &str) -> String {
-        let hint =
-            crate::config::nearest_name(product, self.series.keys().map(|(p, _)| p.as_str()))
-                .map(|n| format!("; did you mean '{n}'?"))
-                .unwrap_or_else(|| " (names must match forecast.csv exactly)".to_string());
+        let hint = crate::config::did_you_mean(
+            product,
+            self.series.keys().map(|(p, _)| p.as_str()),
+            " (names must match forecast.csv exactly)",
+        );
         format!("product '{product}' is not in the forecast{hint}")
     }
 
