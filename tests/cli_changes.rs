@@ -489,13 +489,17 @@ fn review_scores_the_statistical_and_the_adjusted_forecast() {
     let b_act: &[f64] = &[100.0; 6];
     w.write(
         "data.csv",
-        data(&[("Product A", a_act), ("Product B", b_act)]),
+        data(&[
+            ("Product A", a_act),
+            ("Product B", b_act),
+            ("Product C", b_act),
+        ]),
     );
     w.write("pins.csv", pins());
     w.write(
         "changes.csv",
         format!(
-            "{HEADER}Product A,percent-change,2027-01,,20,,,,programme scale-up\nProduct B,percent-change,2027-01,,-30,,,,expected drop\n"
+            "{HEADER}Product A,percent-change,2027-01,,20,,,,programme scale-up\nProduct B,percent-change,2027-01,,-30,,,,expected drop\nProduct A,percent-change,2027-09,,10,,,,later\nProduct C,percent-change,2027-06,,50,,,,later still\n"
         ),
     );
     let o = w.run(&[
@@ -582,6 +586,28 @@ fn review_scores_the_statistical_and_the_adjusted_forecast() {
     let b3 = get("Product B", "row 3");
     // Row 3 alone, Jan-Apr: 4 × 30 / 400 = 30% → value added −30.
     close(num(&b3, "value_added_points"), -30.0, "B row 3");
+    // Changes from 2027-09 (A's row 4) and 2027-06 (C's only row) touch
+    // no month with an actual yet (they end 2027-04): not scored, and
+    // said so, rather than a value added of 0 that reads as "no effect".
+    for (p, what) in [
+        ("Product A", "row 4"),
+        ("Product C", "all"),
+        ("Product C", "row 5"),
+    ] {
+        let r = get(p, what);
+        assert_eq!(r["months"], "0", "{p} {what}");
+        assert_eq!(r["value_added_points"], "", "{p} {what}");
+        assert!(
+            r["not_scored"].starts_with("not scored yet")
+                && r["not_scored"].contains("the months scored are 2026-11 to 2027-04"),
+            "{p} {what}: {r:?}"
+        );
+    }
+    assert_eq!(a["not_scored"], "", "A's changes are scored");
+    assert!(
+        out.contains("Product C · all changes: not scored yet"),
+        "{out}"
+    );
     assert!(out.contains("forecast value added"), "{out}");
 }
 

@@ -156,7 +156,7 @@ fn check(which: usize, bytes: &[u8]) -> Result<bool, TestCaseError> {
                 Ok(true)
             }
         },
-        2 => match provisio::changes::read::read_changes_bytes(file, bytes) {
+        2 => match provisio::changes::read::read_changes_bytes(file, bytes, NumberFormat::Plain) {
             Err(e) => named(&e),
             Ok(cf) => {
                 let products: std::collections::BTreeSet<String> =

@@ -14,6 +14,7 @@ use calamine::Data;
 
 use super::{Change, Kind, KINDS};
 use crate::calendar::YearMonth;
+use crate::data::{parse_number, NumberFormat};
 use crate::error::{Error, Result};
 
 /// Every column a changes file may have.
@@ -48,21 +49,26 @@ pub struct ChangesFile {
 struct Row {
     number: u64,
     cells: Vec<String>,
+    /// Cells a workbook stored as numbers (read as they are, whatever
+    /// `--numbers` says); empty for a CSV file.
+    typed: Vec<bool>,
 }
 
-/// Reads a changes file from disk.
-pub fn read_changes(path: &Path) -> Result<ChangesFile> {
+/// Reads a changes file from disk, its numbers written as `numbers` says
+/// (the forecast's `--numbers`, as for the data; a workbook's number
+/// cells are numbers whatever it says).
+pub fn read_changes(path: &Path, numbers: NumberFormat) -> Result<ChangesFile> {
     let bytes = std::fs::read(path).map_err(|source| Error::Io {
         path: path.to_path_buf(),
         action: "cannot read the changes file",
         source,
     })?;
-    read_changes_bytes(&path.display().to_string(), &bytes)
+    read_changes_bytes(&path.display().to_string(), &bytes, numbers)
 }
 
 /// Reads a changes file given as bytes; `file` names it (its extension
 /// picks workbook or CSV).
-pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
+pub fn read_changes_bytes(file: &str, bytes: &[u8], numbers: NumberFormat) -> Result<ChangesFile> {
     use sha2::Digest;
     let sha256 = sha2::Sha256::digest(bytes)
         .iter()
@@ -102,9 +108,24 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
             },
         }
     };
+    let field = |c: usize| match &sheet {
+        Some(_) => format!("column {}", crate::data::column_letter(c as u32)),
+        None => format!("field {}", c + 1),
+    };
     for (i, h) in header.iter().enumerate() {
         if h.is_empty() {
             continue;
+        }
+        if let Some(j) = header[..i].iter().position(|x| x == h) {
+            return Err(at(
+                header_row,
+                Some(i),
+                format!(
+                    "column '{h}' appears twice ({} and {}); keep one, so no value is read from the wrong one",
+                    field(j),
+                    field(i)
+                ),
+            ));
         }
         if !COLUMNS.contains(&h.as_str()) {
             let hint = crate::config::nearest(h, COLUMNS)
@@ -129,6 +150,25 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
                 format!(
                     "missing column '{req}'; a changes file needs product, kind, first_month and may have {}",
                     COLUMNS[3..].join(", ")
+                ),
+            ));
+        }
+    }
+    // A value under no column name would be dropped unseen.
+    for r in &rows {
+        let stray =
+            r.cells.iter().enumerate().find(|(i, c)| {
+                !c.trim().is_empty() && header.get(*i).map_or(true, String::is_empty)
+            });
+        if let Some((i, c)) = stray {
+            let named = header.iter().filter(|h| !h.is_empty()).count();
+            return Err(at(
+                r.number,
+                None,
+                format!(
+                    "'{}' in {} has no column name above it (the header names {named} columns): a value in the wrong column, or a delimiter inside a value that is not quoted (a note with a comma must be in double quotes); move it under its column",
+                    c.trim(),
+                    field(i)
                 ),
             ));
         }
@@ -205,28 +245,26 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
             if v.is_empty() {
                 return Ok(None);
             }
-            if v.parse::<f64>()
-                .is_ok_and(|x| x.is_finite() && x.abs() > limit)
-            {
+            let typed = c.is_some_and(|i| r.typed.get(i).copied().unwrap_or(false));
+            let format = if typed { NumberFormat::Plain } else { numbers };
+            // As the data: "1,5" could be 1.5 or 15, so it is read only
+            // as `--numbers` says, and refused otherwise.
+            let x = match parse_number(v, format) {
+                Ok(Some(x)) => x,
+                Ok(None) | Err(_) if v.ends_with('%') => {
+                    return Err(at(n, c, format!("'{v}': write the percentage without the % sign, e.g. {}", v.trim_end_matches('%').trim())));
+                }
+                Ok(None) => return Ok(None),
+                Err(why) => return Err(at(n, c, format!("{why} (a quantity in base units a month, a percentage without the % sign, or a factor)"))),
+            };
+            if x.abs() > limit {
                 return Err(at(
                     n,
                     c,
                     format!("{v} is beyond what a change can be; give a number between -{limit:e} and {limit:e} (a quantity in base units a month, a percentage, or a factor)"),
                 ));
             }
-            // Plain numbers only: "1,5" could be 1.5 or 15, so it is
-            // refused rather than guessed.
-            v.parse::<f64>()
-                .ok()
-                .filter(|x| x.is_finite())
-                .map(Some)
-                .ok_or_else(|| {
-                    at(
-                        n,
-                        c,
-                        format!("'{v}' is not a plain number; write it like 1500 or -2.5 (no thousands separators, a point for decimals, no % sign)"),
-                    )
-                })
+            Ok(Some(x))
         };
         // The largest quantity the data readers take (10^15 units a month);
         // a factor of units of one product per unit of another up to 10^6.
@@ -265,6 +303,12 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
                         format!("{v}% would take more than everything; give -100 or more (phase-out takes a product to zero)"),
                     ));
                 }
+                if let Some(w) = looks_like_fraction(v, true) {
+                    warnings.push(format!(
+                        "{file}: {}: value {v} is read as {v:+}%; {w}",
+                        place(n)
+                    ));
+                }
             }
             Kind::Quantity => {
                 need("value", value, "units per month, negative to remove")?;
@@ -297,6 +341,9 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
                 if let Some(v) = value {
                     if !(v > 0.0 && v <= 100.0) {
                         return Err(bad("value", format!("{v} is not a share; give the percent of the product's consumption that moves, above 0 and at most 100")));
+                    }
+                    if let Some(w) = looks_like_fraction(v, false) {
+                        warnings.push(format!("{file}: {}: value {v} is read as {v}% of the product's consumption moving; {w}", place(n)));
                     }
                 }
                 if let Some(f) = factor {
@@ -402,6 +449,28 @@ pub fn read_changes_bytes(file: &str, bytes: &[u8]) -> Result<ChangesFile> {
     })
 }
 
+/// What to check when a percentage looks written as a fraction (`0.25`
+/// for 25%) or, for a percentage change (`factor_too`), as a factor
+/// (`1.2` for +20%). Whole numbers, and anything else, read as meant.
+fn looks_like_fraction(v: f64, factor_too: bool) -> Option<String> {
+    let shown = |x: f64| format!("{}", (x * 1e6).round() / 1e6);
+    if v.fract() == 0.0 {
+        None
+    } else if v.abs() < 1.0 {
+        let p = shown(v * 100.0);
+        Some(format!(
+            "values are percentages: if {p}% was meant, write {p}"
+        ))
+    } else if factor_too && v > 1.0 && v < 2.0 {
+        let p = shown((v - 1.0) * 100.0);
+        Some(format!(
+            "values are percentages: if a factor of {v} (+{p}%) was meant, write {p}"
+        ))
+    } else {
+        None
+    }
+}
+
 fn header_names(cells: &[String]) -> Vec<String> {
     cells
         .iter()
@@ -475,6 +544,7 @@ fn csv_rows(file: &str, bytes: &[u8]) -> Result<(Header, Vec<Row>)> {
             Some(_) => rows.push(Row {
                 number: line,
                 cells,
+                typed: Vec::new(),
             }),
         }
     }
@@ -531,7 +601,9 @@ fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, Header, Vec<Row>)> {
         let number = u64::from(row.row) + 1;
         let width = row.cells.last().map_or(0, |(c, _)| *c as usize + 1);
         let mut cells = vec![String::new(); width];
+        let mut typed = vec![false; width];
         for (col, d) in &row.cells {
+            typed[*col as usize] = matches!(d, Data::Int(_) | Data::Float(_));
             cells[*col as usize] = sheet_cell(d).map_err(|m| Error::Sheet {
                 file: file.to_string(),
                 sheet: Some(name.clone()),
@@ -545,7 +617,11 @@ fn sheet_rows(file: &str, bytes: &[u8]) -> Result<(String, Header, Vec<Row>)> {
         }
         match header {
             None => header = Some((number, header_names(&cells))),
-            Some(_) => rows.push(Row { number, cells }),
+            Some(_) => rows.push(Row {
+                number,
+                cells,
+                typed,
+            }),
         }
     }
     let header = header.ok_or_else(|| err(Some(&name), 0, "the sheet is empty; it needs a header (product, kind, first_month, ...) and one row per change".into()))?;

@@ -5,6 +5,7 @@
 use super::read::read_changes_bytes;
 use super::score::value_added;
 use super::*;
+use crate::data::NumberFormat;
 
 fn ym(y: i32, m: u32) -> YearMonth {
     YearMonth::new(y, m).expect("month")
@@ -56,6 +57,7 @@ fn the_reader_names_line_and_column() {
     let e = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month,value,colour\nA,percent-change,2027-01,5,red\n",
+        NumberFormat::Plain,
     )
     .unwrap_err()
     .to_string();
@@ -66,6 +68,7 @@ fn the_reader_names_line_and_column() {
     let e = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month,value\nA,percent-change,2027-13,5\n",
+        NumberFormat::Plain,
     )
     .unwrap_err()
     .to_string();
@@ -73,6 +76,7 @@ fn the_reader_names_line_and_column() {
     let e = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month,value\nA,switch,2027-01,50\n",
+        NumberFormat::Plain,
     )
     .unwrap_err()
     .to_string();
@@ -80,16 +84,18 @@ fn the_reader_names_line_and_column() {
     let e = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month,value\nA,quantity-per-month,2027-01,\"1,5\"\n",
+        NumberFormat::Plain,
     )
     .unwrap_err()
     .to_string();
     assert!(
-        e.contains("c.csv:2: column 'value'") && e.contains("not a plain number"),
+        e.contains("c.csv:2: column 'value'") && e.contains("has a comma"),
         "{e}"
     );
     let ok = read_changes_bytes(
         "c.csv",
         b"product,kind,first_month\n# a comment\nA,phase-out,2027-01\n",
+        NumberFormat::Plain,
     )
     .expect("read");
     assert_eq!(ok.changes.len(), 1);
@@ -135,13 +141,16 @@ fn odd_files_are_refused_or_read_without_loss() {
         b"product,kind,first_month\n",
         b"product,kind,first_month\n\xff\xfe,x,y\n",
     ] {
-        let e = read_changes_bytes("c.csv", bytes).unwrap_err().to_string();
+        let e = read_changes_bytes("c.csv", bytes, NumberFormat::Plain)
+            .unwrap_err()
+            .to_string();
         assert!(e.starts_with("c.csv"), "{e}");
     }
     // A byte-order mark and spaced, capitalised headers are read.
     let ok = read_changes_bytes(
         "c.csv",
         "\u{feff}Product, Kind ,First month,Note\n'=A,Phase-out,2027-01,why\n".as_bytes(),
+        NumberFormat::Plain,
     )
     .expect("read");
     // The apostrophe provisio's outputs put before formula-like text is taken off.
@@ -155,4 +164,102 @@ fn odd_files_are_refused_or_read_without_loss() {
         .unwrap_err()
         .to_string();
     assert!(e.contains("before the first month"), "{e}");
+}
+
+#[test]
+fn no_value_is_dropped_or_read_in_another_number_style() {
+    let read = |bytes: &[u8], numbers| read_changes_bytes("c.csv", bytes, numbers);
+    // A column named twice: which value counts would be a guess.
+    let e = read(
+        b"product,kind,first_month,value,note,value\nA,percent-change,2027-05,20,x,50\n",
+        NumberFormat::Plain,
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("c.csv:1") && e.contains("'value' appears twice (field 4 and field 6)"),
+        "{e}"
+    );
+    // A value beyond the header's columns (an unquoted comma in a note
+    // shifts the rest of the row: RFC 4180 §2 asks for the quotes) is
+    // refused at its line; an empty trailing field is not a value.
+    let e = read(
+        b"product,kind,first_month,value,note\nA,percent-change,2027-05,20,more doses, from May\n",
+        NumberFormat::Plain,
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(
+        e.contains("c.csv:2") && e.contains("'from May' in field 6 has no column name"),
+        "{e}"
+    );
+    let ok = read(
+        b"product,kind,first_month,value,note\nA,percent-change,2027-05,20,\"more doses, from May\",\n",
+        NumberFormat::Plain,
+    )
+    .expect("read");
+    assert_eq!(ok.changes[0].note, "more doses, from May");
+    // Numbers follow --numbers, as the data does: 1.500 is fifteen hundred
+    // with a decimal comma, and 2.5 is not a number written that way.
+    let ok = read(
+        b"product;kind;first_month;value;note\nA;quantity-per-month;2027-07;1.500;x\nA;percent-change;2027-07;-2,5;y\n",
+        NumberFormat::DecimalComma,
+    )
+    .expect("read");
+    assert_eq!(ok.changes[0].value, Some(1500.0));
+    assert_eq!(ok.changes[1].value, Some(-2.5));
+    let e = read(
+        b"product;kind;first_month;value;note\nA;percent-change;2027-07;2.5;y\n",
+        NumberFormat::DecimalComma,
+    )
+    .unwrap_err()
+    .to_string();
+    assert!(e.contains("c.csv:2: column 'value'"), "{e}");
+    assert_eq!(
+        read(
+            b"product,kind,first_month,value,note\nA,quantity-per-month,2027-07,1.500,x\n",
+            NumberFormat::Plain
+        )
+        .expect("read")
+        .changes[0]
+            .value,
+        Some(1.5)
+    );
+}
+
+#[test]
+fn a_percentage_written_as_a_fraction_or_factor_is_warned() {
+    let read = |row: &str| {
+        let text = format!("product,kind,first_month,value,other_product,note\n{row}\n");
+        read_changes_bytes("c.csv", text.as_bytes(), NumberFormat::Plain).expect("read")
+    };
+    // Values are percentages (common practice in these files: 25 for a
+    // quarter); 0.25 and 1.2 are read as written, and named.
+    let w = read("A,percent-change,2027-01,0.25,,why").warnings;
+    assert!(
+        w.len() == 1
+            && w[0].contains("value 0.25 is read as +0.25%")
+            && w[0].contains("if 25% was meant, write 25"),
+        "{w:?}"
+    );
+    let w = read("A,percent-change,2027-01,1.2,,why").warnings;
+    assert!(
+        w.len() == 1 && w[0].contains("if a factor of 1.2 (+20%) was meant, write 20"),
+        "{w:?}"
+    );
+    let w = read("A,switch,2027-01,0.5,B,why").warnings;
+    assert!(
+        w.len() == 1 && w[0].contains("if 50% was meant, write 50"),
+        "{w:?}"
+    );
+    // Whole numbers and ordinary percentages pass without a word.
+    for row in [
+        "A,percent-change,2027-01,20,,why",
+        "A,percent-change,2027-01,-15,,why",
+        "A,percent-change,2027-01,2.5,,why",
+        "A,switch,2027-01,25,B,why",
+        "A,switch,2027-01,1.5,B,why",
+    ] {
+        assert!(read(row).warnings.is_empty(), "{row}");
+    }
 }

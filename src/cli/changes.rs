@@ -112,7 +112,10 @@ pub(super) fn review(
 ) -> anyhow::Result<Option<serde_json::Value>> {
     use provisio::changes::score::{value_added, ValueAdded};
     use provisio::output::fmt_num;
-    let mut lines: Vec<(String, String, String, String, ValueAdded)> = Vec::new();
+    // (vintage, product, what is scored, the row's note, scores, why not
+    // scored when no month it touched has an actual yet).
+    type Line = (String, String, String, String, ValueAdded, Option<String>);
+    let mut lines: Vec<Line> = Vec::new();
     for (vi, v) in result.vintages.iter().enumerate() {
         let Some(past) = pasts.iter().find(|p| p.name == v.name) else {
             continue;
@@ -130,46 +133,79 @@ pub(super) fn review(
                     Some((m.actual, m.forecast, *a))
                 })
                 .collect();
-            let changed = trace.iter().any(|t| t.product == pr.product);
-            if !changed || pts.is_empty() {
+            let mine: Vec<&provisio::changes::read::PastTrace> =
+                trace.iter().filter(|t| t.product == pr.product).collect();
+            if mine.is_empty() || pts.is_empty() {
                 continue;
             }
-            lines.push((
-                v.name.clone(),
-                pr.product.clone(),
-                "all changes".into(),
-                String::new(),
-                value_added(&pts),
-            ));
-            let mut rows: Vec<u64> = trace
-                .iter()
-                .filter(|t| t.product == pr.product)
-                .map(|t| t.row)
-                .collect();
-            rows.dedup();
+            // Months a trace covers, and the months scored, for a line
+            // that cannot be scored yet.
+            let span = |ms: &mut dyn Iterator<Item = provisio::calendar::YearMonth>| {
+                let ms: Vec<_> = ms.collect();
+                let (a, b) = (ms.iter().min(), ms.iter().max());
+                a.zip(b).map(|(a, b)| {
+                    if a == b {
+                        a.to_string()
+                    } else {
+                        format!("{a} to {b}")
+                    }
+                })
+            };
+            let reviewed = span(&mut scored.iter().map(|m| m.month)).unwrap_or_default();
+            let unscored = |touched: String| {
+                format!(
+                    "not scored yet: the months it changed ({touched}) have no scored actual; the months scored are {reviewed}"
+                )
+            };
+            let touched_scored = |rows: &[&provisio::changes::read::PastTrace]| {
+                rows.iter()
+                    .any(|t| scored.iter().any(|m| m.month == t.month))
+            };
+            lines.push(if touched_scored(&mine) {
+                (
+                    v.name.clone(),
+                    pr.product.clone(),
+                    "all changes".into(),
+                    String::new(),
+                    value_added(&pts),
+                    None,
+                )
+            } else {
+                (
+                    v.name.clone(),
+                    pr.product.clone(),
+                    "all changes".into(),
+                    String::new(),
+                    value_added(&[]),
+                    Some(unscored(
+                        span(&mut mine.iter().map(|t| t.month)).unwrap_or_default(),
+                    )),
+                )
+            });
+            let mut rows: Vec<u64> = mine.iter().map(|t| t.row).collect();
             rows.sort();
             rows.dedup();
             for row in rows {
-                let pts: Vec<(f64, f64, f64)> = trace
+                let of_row: Vec<&provisio::changes::read::PastTrace> =
+                    mine.iter().copied().filter(|t| t.row == row).collect();
+                let pts: Vec<(f64, f64, f64)> = of_row
                     .iter()
-                    .filter(|t| t.product == pr.product && t.row == row)
                     .filter_map(|t| {
                         let m = scored.iter().find(|m| m.month == t.month)?;
                         Some((m.actual, t.before, t.after))
                     })
                     .collect();
-                if pts.is_empty() {
-                    continue;
-                }
-                let t = trace
-                    .iter()
-                    .find(|t| t.product == pr.product && t.row == row);
+                let t = of_row[0];
+                let why = pts.is_empty().then(|| {
+                    unscored(span(&mut of_row.iter().map(|t| t.month)).unwrap_or_default())
+                });
                 lines.push((
                     v.name.clone(),
                     pr.product.clone(),
-                    format!("row {row} ({})", t.map(|t| t.kind.as_str()).unwrap_or("")),
-                    t.map(|t| t.note.clone()).unwrap_or_default(),
+                    format!("row {row} ({})", t.kind),
+                    t.note.clone(),
                     value_added(&pts),
+                    why,
                 ));
             }
         }
@@ -193,28 +229,38 @@ pub(super) fn review(
             "bias_with_pct",
             "value_added_points",
             "note",
+            "not_scored",
         ])
         .map_err(e)?;
-        for (v, p, what, note, s) in &lines {
+        for (v, p, what, note, s, why) in &lines {
             c.write_record([
                 v.clone(),
                 provisio::output::csv_text(p).into_owned(),
                 what.clone(),
                 s.months.to_string(),
-                fmt_num(s.actual),
+                if why.is_some() {
+                    String::new()
+                } else {
+                    fmt_num(s.actual)
+                },
                 opt(s.wape_without),
                 opt(s.wape_with),
                 opt(s.bias_without),
                 opt(s.bias_with),
                 opt(s.value_added),
                 provisio::output::csv_text(note).into_owned(),
+                why.clone().unwrap_or_default(),
             ])
             .map_err(e)?;
         }
         c.flush()
     })?;
     say!("forecast value added of the known changes (WAPE without − WAPE with, points; above 0: the adjustment helped):");
-    for (_, p, what, _, s) in &lines {
+    for (_, p, what, _, s, why) in &lines {
+        if let Some(why) = why {
+            say!("  {p} · {what}: {why}");
+            continue;
+        }
         let f = |x: Option<f64>| x.map(|v| format!("{v:.1}")).unwrap_or_else(|| "-".into());
         say!(
             "  {p} · {what}: {} month(s), WAPE statistical/before {} %, adjusted/after {} %, value added {}",
@@ -226,7 +272,7 @@ pub(super) fn review(
     }
     let json: Vec<serde_json::Value> = lines
         .iter()
-        .map(|(v, p, what, _, s)| {
+        .map(|(v, p, what, _, s, why)| {
             serde_json::json!({
                 "vintage": v,
                 "product": p,
@@ -237,6 +283,7 @@ pub(super) fn review(
                 "bias_without_pct": s.bias_without,
                 "bias_with_pct": s.bias_with,
                 "value_added_points": s.value_added,
+                "not_scored": why,
             })
         })
         .collect();

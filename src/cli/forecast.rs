@@ -904,7 +904,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     let changes = a
         .changes
         .as_ref()
-        .map(|p| provisio::changes::read_changes(p))
+        .map(|p| provisio::changes::read_changes(p, a.read.options().numbers))
         .transpose()?;
     let (ds, cleaned, results, fs, secs, choice) = run_eval(
         &data,
