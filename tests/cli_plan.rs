@@ -727,6 +727,31 @@ fn the_plan_reaches_the_planners_workbook_with_annual_totals() {
     assert!((total - sum2026.round()).abs() < 1e-9, "{total} {sum2026}");
     let packs: f64 = y2026[col("packs")].parse().unwrap();
     assert!((packs - (sum2026 / 10.0 * 10.0).round() / 10.0).abs() < 1e-9);
+    // A forecast changed after the plan (one value edited): the rebuilt
+    // workbook no longer carries orders computed from the old one, as the
+    // report does not (common practice: a plan is valid only for the
+    // forecast it was made from).
+    let csv = std::fs::read_to_string(w.path("out/forecast.csv")).unwrap();
+    let mut lines: Vec<String> = csv.lines().map(str::to_string).collect();
+    let col_fc = lines[0].split(',').position(|c| c == "forecast").unwrap();
+    let mut cells: Vec<String> = lines[1].split(',').map(str::to_string).collect();
+    cells[col_fc] = format!("{}1", cells[col_fc]);
+    lines[1] = cells.join(",");
+    w.write("out/forecast.csv", format!("{}\n", lines.join("\n")));
+    let o = w.run(&["report", "out", "--workbook-only"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+    let names = book.sheet_names();
+    assert!(
+        !names.iter().any(|n| n == "Orders" || n == "Order totals"),
+        "{names:?}"
+    );
+    let note = book.worksheet_range("Supply plan").expect("sheet");
+    let first = note.get((0, 0)).map(|c| c.to_string()).unwrap_or_default();
+    assert!(
+        first.starts_with("Out of date: forecast.csv has changed"),
+        "{first}"
+    );
 }
 
 #[test]
@@ -780,5 +805,102 @@ fn a_product_typed_in_another_case_is_named_with_the_forecast_spelling() {
                 "'zinc 20  mg TABLET' is not in the forecast; did you mean 'Zinc 20 mg tablet'?"
             ),
         "{t}"
+    );
+}
+
+#[test]
+fn nothing_on_order_and_a_misspelt_shipment_are_read_as_meant() {
+    // Common practice: "nothing on order" is a normal state, kept as an
+    // on-order file with its header only; a shipment whose product is
+    // typed unlike the stock file's is not used, and the message offers
+    // the stock file's spelling.
+    let w = Workdir::new();
+    hand_forecast(&w, &flat_forecast("Pill", 2027, 12, 100.0));
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,20000,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    w.write("none.csv", "product,quantity,arrival_month\n");
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "none.csv",
+        "--no-report",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert!(plan.iter().all(|r| num(r, "arrivals_on_order") == 0.0));
+    w.write(
+        "typo.csv",
+        "product,quantity,arrival_month\npill,1500,2027-02\n",
+    );
+    let o = w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        "stock.csv",
+        "--on-order",
+        "typo.csv",
+        "--no-report",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("typo.csv:2: no row of the stock file for product 'pill'; did you mean 'Pill'?"),
+        "{t}"
+    );
+}
+
+#[test]
+fn a_second_plan_keeps_no_chart_of_a_series_it_left_out() {
+    // Common practice: every file of a plan describes the same plan; a
+    // product dropped from the stock file must not keep a stock chart of
+    // the earlier plan beside the new files.
+    let w = Workdir::new();
+    let b = flat_forecast("Syrup", 2027, 12, 50.0);
+    let b_rows: String = b.lines().skip(1).map(|l| format!("{l}\n")).collect();
+    hand_forecast(
+        &w,
+        &format!("{}{b_rows}", flat_forecast("Pill", 2027, 12, 100.0)),
+    );
+    w.write(
+        "both.csv",
+        format!("{HEADER}Pill,2000,2026-12,1,2,6,1,10,1,,\nSyrup,500,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    w.write(
+        "one.csv",
+        format!("{HEADER}Pill,2000,2026-12,1,2,6,1,10,1,,\n"),
+    );
+    let charts = |w: &Workdir| -> Vec<String> {
+        let mut v: Vec<String> = std::fs::read_dir(w.path("fc/charts"))
+            .map(|d| {
+                d.flatten()
+                    .map(|e| e.file_name().to_string_lossy().into_owned())
+                    .filter(|n| n.starts_with("plan-"))
+                    .collect()
+            })
+            .unwrap_or_default();
+        v.sort();
+        v
+    };
+    let o = w.run(&["plan", "fc", "--stock", "both.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let first = charts(&w);
+    assert_eq!(first.len(), 4, "{first:?}");
+    assert!(
+        first.iter().any(|n| n.starts_with("plan-syrup-")),
+        "{first:?}"
+    );
+    let o = w.run(&["plan", "fc", "--stock", "one.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let second = charts(&w);
+    assert_eq!(second.len(), 2, "{second:?}");
+    assert!(
+        second.iter().all(|n| n.starts_with("plan-pill-")),
+        "{second:?}"
     );
 }

@@ -200,8 +200,15 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
             Ok((fc, p)) => {
                 if p.skipped_forecast_months > 0 {
                     let why = format!(
-                        "the stock count ({}) is later than the forecast start ({}): the {} forecast month(s) up to the count are not used",
-                        r.policy.stock_date, fc.start, p.skipped_forecast_months
+                        "the stock count (end of {}) is taken after the forecast starts ({}): the {} forecast month(s) {} are not used",
+                        r.policy.stock_date,
+                        fc.start,
+                        p.skipped_forecast_months,
+                        if p.skipped_forecast_months == 1 {
+                            format!("of {}", fc.start)
+                        } else {
+                            format!("{} to {}", fc.start, r.policy.stock_date)
+                        }
                     );
                     warnings.push(format!("{stock_name}:{}: {who}: {why}", r.line));
                     log.push(entry("note", why));
@@ -239,8 +246,13 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     for o in &on_order {
         if !stock_keys.contains(&(o.product.clone(), o.site.clone())) {
             let name = on_order_name.clone().unwrap_or_default();
+            let hint = provisio::config::did_you_mean(
+                &o.product,
+                stock.iter().map(|r| r.product.as_str()),
+                "",
+            );
             let why = format!(
-                "no row of the stock file for {}; the shipment is not used",
+                "no row of the stock file for {}{hint}; the shipment is not used",
                 where_(&o.product, o.site.as_deref())
             );
             warnings.push(format!("{name}:{}: {why}", o.line));
@@ -286,6 +298,25 @@ pub fn run(a: PlanArgs) -> anyhow::Result<()> {
     // Written into a staging copy of the folder that replaces it at the
     // end: the plan, the charts, the report and the workbook together.
     let dir = super::stage(&mut folder)?;
+    // This plan replaces the earlier one whole: the earlier plan's stock
+    // charts go with it, so a series left out now keeps no chart of the
+    // old plan (only the files that plan named: a product chart is kept).
+    if let Ok(Some(old)) = provisio::report::plan::read_plan(&dir) {
+        for (k, _) in &old.series {
+            let stem = provisio::report::plan::series_stem(k);
+            for ext in ["png", "svg"] {
+                let f = dir.join("charts").join(format!("{stem}.{ext}"));
+                if f.is_file() {
+                    std::fs::remove_file(&f).map_err(|err| {
+                        anyhow::anyhow!(
+                            "{}: cannot replace the earlier plan's chart: {err}",
+                            f.display()
+                        )
+                    })?;
+                }
+            }
+        }
+    }
     let rule = settings.get().safety.rule();
     output::write_plan(&dir.join("plan.csv"), &planned)?;
     output::write_orders(
@@ -415,8 +446,9 @@ fn require_forecast(dir: &std::path::Path) -> anyhow::Result<()> {
 }
 
 /// Notes on a stock row's policy, before planning: a pack size that
-/// differs from the run configuration's (as `forecast.csv` gives it), and
-/// a minimum below the lead time plus a safety margin.
+/// differs from the run configuration's (as `forecast.csv` gives it), a
+/// minimum below the lead time plus a safety margin, and a maximum below
+/// the minimum plus the review period.
 fn policy_notes(
     r: &read::StockRow,
     forecast: &read::ForecastSeries,
@@ -437,6 +469,9 @@ fn policy_notes(
         }
     }
     if let Some(why) = plan::minimum_below_lead_time(&r.policy) {
+        notes.push(why);
+    }
+    if let Some(why) = plan::maximum_below_minimum_plus_review(&r.policy) {
         notes.push(why);
     }
     notes

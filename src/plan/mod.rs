@@ -143,9 +143,9 @@ impl Safety {
     /// The rule in plain words.
     pub fn rule(self) -> String {
         match self {
-            Safety::Months => "order when the projected stock at the end of the period an order covers is at or below min_months × AMC; order up to max_months × AMC at arrival".to_string(),
+            Safety::Months => "order when the projected stock at the end of the period an order covers is at or below min_months × AMC there; order up to max_months × AMC at arrival, and at least to the period's forecast consumption + that minimum, so the order clears the minimum it was placed for when consumption rises within the period".to_string(),
             Safety::Upper(l) => format!(
-                "safety stock = sum over lead time + review period of ({} upper bound − point forecast), assuming the monthly errors move together; order when the projected stock at the end of the period an order covers is at or below it; order up to the period's forecast consumption + safety stock",
+                "safety stock = sum over lead time + review period of ({} upper bound − point forecast), assuming the monthly errors move together; order when the projected stock at the end of the period an order covers is at or below it; order up to the period's forecast consumption + safety stock; the month flags (below-min, above-max) still compare months of stock with the stock file's min_months and max_months, so a wide range can order a product above its maximum",
                 if l == Level::P80 { "80%" } else { "95%" }
             ),
         }
@@ -448,10 +448,16 @@ pub fn plan_series(
         let end = (arrive + review - 1).min(n - 1);
         let (closing, _) = simulate(&planned);
         let (minimum, order_up_to) = match s.safety {
-            Safety::Months => (
-                policy.min_months * amc_from(end + 1).0,
-                policy.max_months * amc_from(arrive).0,
-            ),
+            Safety::Months => {
+                // The minimum is in months of the AMC at the period's end,
+                // the maximum of the AMC at arrival: with consumption
+                // rising in between (a seasonal peak) the maximum alone
+                // could fall short of what keeps the stock at the minimum.
+                let minimum = policy.min_months * amc_from(end + 1).0;
+                let period: f64 = cons[arrive..=end].iter().sum();
+                let maximum = policy.max_months * amc_from(arrive).0;
+                (minimum, maximum.max(minimum + period))
+            }
             Safety::Upper(level) => {
                 let ss: f64 = fc[review_at..=end]
                     .iter()
@@ -593,6 +599,22 @@ pub fn minimum_below_lead_time(policy: &Policy) -> Option<String> {
             policy.lead_time_months,
             crate::output::fmt_num((policy.min_months - f64::from(policy.lead_time_months)).max(0.0)),
             MIN_SAFETY_MARGIN_MONTHS,
+        )
+    })
+}
+
+/// Why a policy's maximum cannot last a review period above its minimum:
+/// `max_months` below `min_months + review_period_months`. Common practice
+/// (max–min inventory control, as The Logistics Handbook, USAID | DELIVER
+/// PROJECT 2011, sets it; from memory): maximum = minimum + review period.
+pub fn maximum_below_minimum_plus_review(policy: &Policy) -> Option<String> {
+    let wanted = policy.min_months + f64::from(policy.review_period_months);
+    (policy.max_months < wanted).then(|| {
+        format!(
+            "max_months {} is below min_months {} + review_period_months {}: stock brought up to the maximum falls below the minimum before the next order can arrive, so orders bring it up to the minimum plus the period's consumption instead, above the maximum (flagged above-max); common practice: max_months = min_months + review_period_months",
+            crate::output::fmt_num(policy.max_months),
+            crate::output::fmt_num(policy.min_months),
+            policy.review_period_months,
         )
     })
 }

@@ -138,7 +138,14 @@ fn normalise(name: &str) -> String {
 }
 
 impl Sheet {
-    fn parse(file: &str, bytes: &[u8], known: &[(&str, bool, &str)]) -> Result<Sheet> {
+    /// Reads a table; `allow_empty`: a header alone is a table of no rows
+    /// (nothing on order), not a refusal.
+    fn parse(
+        file: &str,
+        bytes: &[u8],
+        known: &[(&str, bool, &str)],
+        allow_empty: bool,
+    ) -> Result<Sheet> {
         let refuse = |line: u64, column: Option<&str>, message: String| Error::Input {
             file: file.to_string(),
             line,
@@ -246,7 +253,7 @@ impl Sheet {
             }
             rows.push((line, rec.iter().map(|v| v.trim().to_string()).collect()));
         }
-        if rows.is_empty() {
+        if rows.is_empty() && !allow_empty {
             return Err(refuse(
                 0,
                 None,
@@ -399,7 +406,7 @@ pub fn read_stock(
     bytes: &[u8],
     numbers: NumberFormat,
 ) -> Result<(Vec<StockRow>, Vec<String>)> {
-    let mut sheet = Sheet::parse(file, bytes, &STOCK_COLUMNS)?;
+    let mut sheet = Sheet::parse(file, bytes, &STOCK_COLUMNS, false)?;
     sheet.numbers = numbers;
     let mut out: Vec<StockRow> = Vec::new();
     let mut seen: HashMap<SeriesKey, u64> = HashMap::new();
@@ -525,7 +532,7 @@ pub fn read_on_order(
     bytes: &[u8],
     numbers: NumberFormat,
 ) -> Result<(Vec<OnOrderRow>, Vec<String>)> {
-    let mut sheet = Sheet::parse(file, bytes, &ON_ORDER_COLUMNS)?;
+    let mut sheet = Sheet::parse(file, bytes, &ON_ORDER_COLUMNS, true)?;
     sheet.numbers = numbers;
     let mut out = Vec::new();
     for (line, row) in &sheet.rows {
@@ -682,7 +689,7 @@ pub fn read_forecast(dir: &Path) -> Result<ForecastSeries> {
         ("pack_size", false, ""),
         ("packs", false, ""),
     ];
-    let sheet = Sheet::parse(&file, &bytes, &known)?;
+    let sheet = Sheet::parse(&file, &bytes, &known, false)?;
     let per_site = sheet.columns.contains_key("site");
     // A run with a changes file has the adjusted forecast beside the
     // statistical one: the plan uses the adjusted one.

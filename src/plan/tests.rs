@@ -452,3 +452,70 @@ proptest! {
         }
     }
 }
+
+#[test]
+fn an_order_before_a_seasonal_peak_clears_the_minimum_it_was_placed_for() {
+    // 100 a month, then 1,000 from the sixth month (a rainy season). Lead
+    // time 2, review 3, min 3 and max 6 months of AMC (3-month AMC). The
+    // first order arrives in month 3 and covers months 3-5; the minimum at
+    // the period's end is 3 × AMC of months 6-8 = 3,000, while the maximum
+    // at arrival is 6 × AMC of months 3-5 = 600. Up to the maximum alone,
+    // the stock would end the period at 600 − 300 = 300, far below the
+    // minimum the order was placed for. The order-up-to level takes the
+    // period's consumption on top of the minimum (common practice: an
+    // order placed because stock would reach the minimum restores at least
+    // the minimum by the end of the period it covers).
+    let start = ym(2026, 1);
+    let mut p = policy(300.0, start.plus(-1));
+    p.lead_time_months = 2;
+    p.review_period_months = 3;
+    let mut fc = flat(start, 12, 100.0);
+    for m in &mut fc.months[5..] {
+        m.point = 1000.0;
+    }
+    let plan = plan_series(&p, &fc, &[], &settings()).unwrap();
+    assert!(!plan.orders.is_empty());
+    for o in &plan.orders {
+        assert!(
+            o.order_up_to >= o.minimum,
+            "{}: up to {} below the minimum {}",
+            o.order_month,
+            o.order_up_to,
+            o.minimum
+        );
+        let end = plan.months.iter().find(|m| m.month == o.covers_to).unwrap();
+        assert!(
+            end.closing >= o.minimum - 1e-9,
+            "{}: closing {} at {} below the minimum {}",
+            o.order_month,
+            end.closing,
+            o.covers_to,
+            o.minimum
+        );
+    }
+    let first = &plan.orders[0];
+    assert_eq!(first.minimum, 3000.0);
+    // Stock at arrival 300 − 2 × 100 = 100; the period's consumption 300:
+    // up to max(600, 3,000 + 300) = 3,300, so 3,200 ordered.
+    assert_eq!(first.stock_at_arrival, 100.0);
+    assert_eq!(first.order_up_to, 3300.0);
+    assert_eq!(first.quantity, 3200.0);
+}
+
+#[test]
+fn a_maximum_below_the_minimum_plus_the_review_period_is_named() {
+    // Common practice (max–min: maximum = minimum + review period): min 4
+    // and max 8 with a 6-month review cannot hold, 4 + 6 = 10 > 8; with
+    // max 10 it can.
+    let mut p = policy(100.0, ym(2026, 1));
+    p.min_months = 4.0;
+    p.max_months = 8.0;
+    p.review_period_months = 6;
+    let why = maximum_below_minimum_plus_review(&p).expect("named");
+    assert!(
+        why.starts_with("max_months 8 is below min_months 4 + review_period_months 6"),
+        "{why}"
+    );
+    p.max_months = 10.0;
+    assert_eq!(maximum_below_minimum_plus_review(&p), None);
+}

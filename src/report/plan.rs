@@ -170,13 +170,20 @@ pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
         .ok()
         .and_then(|b| serde_json::from_slice(&b).ok())
         .unwrap_or(serde_json::Value::Null);
-    let stale = match run.get("forecast_sha256").and_then(|v| v.as_str()) {
+    let stale = made_from_another_forecast(dir, &run);
+    Ok(Some(PlanRead { run, series, stale }))
+}
+
+/// Whether `forecast.csv` in `dir` differs from the one the plan
+/// (`plan.json`, given as `run`) was made from: its SHA-256 no longer
+/// matches, or it cannot be read.
+pub(crate) fn made_from_another_forecast(dir: &Path, run: &serde_json::Value) -> bool {
+    match run.get("forecast_sha256").and_then(|v| v.as_str()) {
         Some(made_from) => std::fs::read(dir.join("forecast.csv"))
             .map(|b| crate::output::sha256_hex(&b) != made_from)
             .unwrap_or(true),
         None => false,
-    };
-    Ok(Some(PlanRead { run, series, stale }))
+    }
 }
 
 /// Title of a series: the product, and its site.

@@ -427,6 +427,22 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
         forecasts = with;
     }
     let mut tables = vec![annual_totals(&header, &rows)];
+    // A plan made from an earlier forecast in this folder is not shown
+    // beside the new one (the report says the same).
+    let plan_stale = std::fs::read(dir.join("plan.json"))
+        .ok()
+        .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
+        .is_some_and(|run| super::plan::made_from_another_forecast(dir, &run));
+    if plan_stale {
+        tables.push(WorkbookTable {
+            sheet: "Supply plan".to_string(),
+            columns: Vec::new(),
+            rows: Vec::new(),
+            note: Some(
+                "Out of date: forecast.csv has changed since the supply plan in this folder was made (its SHA-256 differs from plan.json's), so the plan, its orders and order totals are left out; run provisio plan again".to_string(),
+            ),
+        });
+    }
     for (file, sheet) in [
         ("plan.csv", "Supply plan"),
         ("orders.csv", "Orders"),
@@ -438,6 +454,9 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
     ] {
         if file == "quality.csv" {
             tables.extend(adjustments(dir, MAX_TABLE_ROWS)?);
+        }
+        if plan_stale && matches!(file, "plan.csv" | "orders.csv" | "order_totals.csv") {
+            continue;
         }
         if let Some(t) = table(dir, file, sheet)? {
             tables.push(t);
