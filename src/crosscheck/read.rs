@@ -187,7 +187,14 @@ impl Sheet {
             if h.is_empty() || known.contains(&h.as_str()) {
                 continue;
             }
-            if let Some(near) = crate::config::nearest_name(h, absent.iter().copied()) {
+            // A slip of a letter or two in a long name; a short or
+            // different name (`note` beside `site`) is only warned about.
+            let slip = |near: &&str| {
+                let d = strsim::damerau_levenshtein(h, near);
+                d <= 1 || (d <= 2 && near.len() >= 8)
+            };
+            if let Some(near) = crate::config::nearest_name(h, absent.iter().copied()).filter(slip)
+            {
                 return Err(input_error(
                     &self.file,
                     1,
@@ -1131,6 +1138,19 @@ mod tests {
         let d = read_services(&path, None).unwrap();
         assert!(
             d.warnings[0].contains("column(s) 'district' not used by crosscheck and ignored"),
+            "{:?}",
+            d.warnings
+        );
+        // A short name two letters from an absent column (`note`, `site`)
+        // is a column of the user's own: warned, not refused.
+        std::fs::write(
+            &path,
+            "product,month,services,units_per_service,note\nRDT,2025-01,10,1,ok\n",
+        )
+        .unwrap();
+        let d = read_services(&path, None).unwrap();
+        assert!(
+            d.warnings[0].contains("column(s) 'note' not used by crosscheck and ignored"),
             "{:?}",
             d.warnings
         );
