@@ -421,3 +421,96 @@ fn a_product_typed_in_another_case_is_named_with_the_forecast_spelling() {
         "{t}"
     );
 }
+
+#[test]
+fn misspelt_columns_and_values_a_method_does_not_use_are_not_ignored() {
+    // Common practice: hand-typed headers and rows. A misspelt optional
+    // column (here the demo's loss allowance, which moves the
+    // artemether-lumefantrine estimate from 116,944 to 111,375) is refused
+    // with the right name; a column of the user's own is warned and kept in
+    // crosscheck.json; a value in another method's column is refused.
+    let w = Workdir::new();
+    fake_forecast(&w, &[("AL", 100_000.0), ("RDT", 1_000.0)]);
+    let pop = AL_BANDS.replace(
+        "quantity_per_course\n",
+        "quantity_per_course,loss_alowance\n",
+    );
+    w.write("pop.csv", &pop);
+    let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o));
+    let e = text(&o);
+    assert!(
+        e.contains("pop.csv:1: column 'loss_alowance'")
+            && e.contains("did you mean 'loss_allowance'?"),
+        "{e}"
+    );
+    assert!(!w.path("fc/crosscheck.csv").exists());
+    let mut s = String::from("product,month,services,units_per_service,reportingrate\n");
+    for k in 0..24 {
+        s.push_str(&format!(
+            "RDT,{}-{:02},900,1,90%\n",
+            2025 + k / 12,
+            k % 12 + 1
+        ));
+    }
+    w.write("services.csv", &s);
+    let e = text(&w.run(&["crosscheck", "fc", "--services", "services.csv"]));
+    assert!(
+        e.contains("services.csv:1: column 'reportingrate'")
+            && e.contains("did you mean 'reporting_rate'?"),
+        "{e}"
+    );
+    w.write(
+        "pop.csv",
+        AL_BANDS
+            .replace("quantity_per_course\n", "quantity_per_course,source\n")
+            .replace(",6\n", ",6,survey 2024\n"),
+    );
+    let o = w.run(&["crosscheck", "fc", "--population", "pop.csv", "--no-report"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let warned = "pop.csv: column(s) 'source' not used by crosscheck and ignored";
+    assert!(t.contains(warned), "{t}");
+    let json = std::fs::read_to_string(w.path("fc/crosscheck.json")).unwrap();
+    assert!(json.contains(warned), "{json}");
+    w.write(
+        "pop.csv",
+        "product,method,population,rate,care_seeking,treated,quantity_per_course,method_share\n\
+         AL,morbidity,1000000,0.3,0.6,0.9,24,0.5\n",
+    );
+    let e = text(&w.run(&["crosscheck", "fc", "--population", "pop.csv"]));
+    assert!(
+        e.contains("pop.csv:2: column 'method_share'")
+            && e.contains("on a morbidity row")
+            && e.contains("the morbidity method uses population, rate, group_share"),
+        "{e}"
+    );
+}
+
+#[test]
+fn a_misspelt_services_product_without_an_estimate_is_flagged_no_comparison() {
+    // The README: a product in the services file but not in the forecast
+    // gets rows of its own, flagged no-comparison, never dropped silently;
+    // here its services are all empty, so no estimate can be made.
+    let w = Workdir::new();
+    fake_forecast(&w, &[("Test kit", 1_000.0)]);
+    let mut s = String::from("product,month,services,units_per_service\n");
+    for k in 0..12 {
+        s.push_str(&format!("Test kit,2026-{:02},900,1\n", k + 1));
+        s.push_str(&format!("Tset kit,2026-{:02},,1\n", k + 1));
+    }
+    w.write("services.csv", &s);
+    let o = w.run(&[
+        "crosscheck",
+        "fc",
+        "--services",
+        "services.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let rows = w.read_csv_maps("fc/crosscheck.csv");
+    let r = find(&rows, "Tset kit", "services");
+    assert_eq!(r["quantity"], "");
+    assert_eq!(r["flag"], "no-comparison", "{r:?}");
+    assert!(r["basis"].contains("no services estimate"), "{r:?}");
+}

@@ -111,8 +111,11 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         None => fc.first_month,
     };
     let mut table = cyp::usaid_2021();
+    let mut warnings = fc.warnings.clone();
     if let Some(p) = &a.cyp {
-        table = table.with_overrides(read::read_cyp(p)?);
+        let (factors, cyp_warnings) = read::read_cyp(p)?;
+        table = table.with_overrides(factors);
+        warnings.extend(cyp_warnings);
     }
     // Read every input before any work, so a refusal comes at once.
     let pop = match &a.population {
@@ -123,9 +126,12 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         Some(p) => Some(read::read_services(p, super::current_month())?),
         None => None,
     };
-    let mut warnings = fc.warnings.clone();
-    if let (Some((rows, _)), Some(path)) = (&pop, &a.population) {
-        warnings.extend(group_shares_over_one(rows, path));
+    if let (Some(p), Some(path)) = (&pop, &a.population) {
+        warnings.extend(p.warnings.iter().cloned());
+        warnings.extend(group_shares_over_one(&p.rows, path));
+    }
+    if let Some(d) = &sv {
+        warnings.extend(d.warnings.iter().cloned());
     }
     let (estimates, sv_warnings) = match &sv {
         Some(d) => services::estimate(d, start, &fc.settings, &fc.clean_settings)?,
@@ -159,7 +165,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
             );
         }
     }
-    let rows = pop.as_ref().map(|p| p.0.as_slice()).unwrap_or(&[]);
+    let rows = pop.as_ref().map(|p| p.rows.as_slice()).unwrap_or(&[]);
     let cc = crosscheck::build(&fc.products, start, &estimates, rows, threshold);
     warnings.extend(cc.warnings.iter().cloned());
 
@@ -203,10 +209,10 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
             "rows_rejected": d.rejected.len(),
             "projected_with": "the forecast run's backtest, selection and cleaning settings",
         })),
-        "population": a.population.as_ref().zip(pop.as_ref()).map(|(p, (rows, sha))| serde_json::json!({
+        "population": a.population.as_ref().zip(pop.as_ref()).map(|(p, d)| serde_json::json!({
             "file": p.display().to_string(),
-            "sha256": sha,
-            "rows": rows.len(),
+            "sha256": d.sha256,
+            "rows": d.rows.len(),
         })),
         "cyp_override": a.cyp.as_ref().map(|p| p.display().to_string()),
         "cyp_table": table.factors.iter().map(|f| serde_json::json!({

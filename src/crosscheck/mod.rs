@@ -266,6 +266,25 @@ pub fn compare(
     }
 }
 
+/// The comparison of an estimate that could not be made: flagged
+/// `no-comparison`, so every estimate row has a flag (the basis says why
+/// there is no estimate).
+fn no_estimate(method: Method, has_consumption: bool) -> Comparison {
+    Comparison {
+        ratio: None,
+        flag: Flag::NoComparison,
+        explanation: format!(
+            "no {} estimate could be made (the basis says why){}, so there is nothing to compare",
+            method.name(),
+            if has_consumption {
+                ""
+            } else {
+                ", and there is no consumption forecast for this product over the period"
+            }
+        ),
+    }
+}
+
 /// One row of the cross-check: a product's annual estimate by one method.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CrossRow {
@@ -338,9 +357,10 @@ pub fn build(
                    quantity: Option<f64>,
                    consumption: Option<AnnualConsumption>,
                    basis: String| {
-            let comparison = (method != Method::Consumption)
-                .then(|| quantity.map(|q| compare(method, q, consumption.as_ref(), threshold)))
-                .flatten();
+            let comparison = (method != Method::Consumption).then(|| match quantity {
+                Some(q) => compare(method, q, consumption.as_ref(), threshold),
+                None => no_estimate(method, consumption.is_some()),
+            });
             CrossRow {
                 product: product.to_string(),
                 method,

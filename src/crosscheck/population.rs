@@ -32,6 +32,17 @@ use std::collections::BTreeMap;
 
 use super::Method;
 
+/// The population file as read.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PopulationData {
+    /// The checked rows, in file order.
+    pub rows: Vec<PopulationRow>,
+    /// SHA-256 of the file.
+    pub sha256: String,
+    /// Warnings met reading the file (columns not used).
+    pub warnings: Vec<String>,
+}
+
 /// One row of the population file, checked.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PopulationRow {

@@ -6,7 +6,9 @@
 //! underscores), column order is free, the delimiter (comma, semicolon,
 //! tab) is detected from the header, and a UTF-8 byte-order mark is
 //! stripped. Numbers are plain (`1234.5`); shares are a fraction (`0.25`)
-//! or a percentage with a sign (`25%`).
+//! or a percentage with a sign (`25%`). A column a file does not use is
+//! ignored with a warning, unless its name is near one it uses and lacks:
+//! then it is a misspelling and refuses the file.
 //!
 //! A bad row of the **services** file is rejected (logged with file, line,
 //! column, value and reason) and the rest used, as for consumption data. A
@@ -18,7 +20,7 @@ use std::collections::{BTreeMap, HashMap, HashSet};
 use std::path::Path;
 
 use super::cyp::{CypFactor, CypTable};
-use super::population::PopulationRow;
+use super::population::{PopulationData, PopulationRow};
 use super::services::{ServiceRow, ServicesData};
 use super::{ForecastMonth, Method};
 use crate::calendar::YearMonth;
@@ -169,6 +171,52 @@ impl Sheet {
         ))
     }
 
+    /// Checks the header's other columns against `known`, the columns the
+    /// file can have. A column near one of them that the header lacks (a
+    /// typing slip such as `loss_alowance`) refuses the file: ignoring it
+    /// would drop its values and change an estimate without a word. Any
+    /// other column is not used; the warning naming it is returned.
+    fn unknown_columns(&self, known: &[&str], what: &str) -> Result<Option<String>> {
+        let absent: Vec<&str> = known
+            .iter()
+            .copied()
+            .filter(|k| !self.columns.contains_key(*k))
+            .collect();
+        let mut unused = Vec::new();
+        for h in &self.header {
+            if h.is_empty() || known.contains(&h.as_str()) {
+                continue;
+            }
+            // A slip of a letter or two in a long name; a short or
+            // different name (`note` beside `site`) is only warned about.
+            let slip = |near: &&str| {
+                let d = strsim::damerau_levenshtein(h, near);
+                d <= 1 || (d <= 2 && near.len() >= 8)
+            };
+            if let Some(near) = crate::config::nearest_name(h, absent.iter().copied()).filter(slip)
+            {
+                return Err(input_error(
+                    &self.file,
+                    1,
+                    Some(h),
+                    format!(
+                        "unknown column '{h}'; did you mean '{near}'? A column this close to one crosscheck reads is refused rather than ignored, so its values are not lost; rename it (columns of the {what}: {})",
+                        known.join(", ")
+                    ),
+                ));
+            }
+            unused.push(format!("'{h}'"));
+        }
+        Ok((!unused.is_empty()).then(|| {
+            format!(
+                "{}: column(s) {} not used by crosscheck and ignored (columns of the {what}: {})",
+                self.file,
+                unused.join(", "),
+                known.join(", ")
+            )
+        }))
+    }
+
     fn get<'r>(&self, rec: &'r csv::StringRecord, name: &str) -> &'r str {
         self.columns
             .get(name)
@@ -231,17 +279,53 @@ fn share(
     col: &str,
     max: f64,
 ) -> std::result::Result<Option<f64>, Problem> {
+    let valid = if max > 1.0 {
+        format!("a share from 0 to {max} (0.1 or 10%)")
+    } else {
+        "a share from 0 to 1 (0.25 or 25%)".to_string()
+    };
+    share_as(sheet, rec, col, max, &valid)
+}
+
+/// The `rate` of a population row, read as its method means it: episodes
+/// per person a year (or a prevalence) for morbidity, up to 10; the
+/// contraceptive prevalence, a share up to 1, for demographic.
+fn rate(
+    sheet: &Sheet,
+    rec: &csv::StringRecord,
+    method: Method,
+) -> std::result::Result<Option<f64>, Problem> {
+    if method == Method::Demographic {
+        share_as(
+            sheet,
+            rec,
+            "rate",
+            1.0,
+            "the contraceptive prevalence of the demographic method, a share from 0 to 1 (0.28 or 28%)",
+        )
+    } else {
+        share_as(
+            sheet,
+            rec,
+            "rate",
+            10.0,
+            "a rate from 0 to 10: episodes per person a year, or a share (0.25 or 25%)",
+        )
+    }
+}
+
+/// A share up to `max` (empty → `None`); `valid` says what is expected.
+fn share_as(
+    sheet: &Sheet,
+    rec: &csv::StringRecord,
+    col: &str,
+    max: f64,
+    valid: &str,
+) -> std::result::Result<Option<f64>, Problem> {
     let v = sheet.get(rec, col);
     let (num, pct) = match v.strip_suffix('%') {
         Some(n) => (n.trim(), true),
         None => (v, false),
-    };
-    let valid = if col == "rate" {
-        format!("a rate from 0 to {max}: episodes per person a year, or a share (0.25 or 25%)")
-    } else if max > 1.0 {
-        format!("a share from 0 to {max} (0.1 or 10%)")
-    } else {
-        "a share from 0 to 1 (0.25 or 25%)".to_string()
     };
     let n = parse_number(num, NumberFormat::Plain)
         .map_err(|_| problem(col, v, format!("'{v}' is not a number; expected {valid}")))?;
@@ -311,6 +395,15 @@ pub const SERVICES_OPTIONAL: [&str; 3] = ["site", "allowance", "reporting_rate"]
 pub fn read_services(path: &Path, latest: Option<YearMonth>) -> Result<ServicesData> {
     let sheet = Sheet::read(path, "services file")?;
     sheet.require(&SERVICES_COLUMNS, &SERVICES_OPTIONAL)?;
+    let known: Vec<&str> = SERVICES_COLUMNS
+        .iter()
+        .chain(&SERVICES_OPTIONAL)
+        .copied()
+        .collect();
+    let warnings: Vec<String> = sheet
+        .unknown_columns(&known, "services file")?
+        .into_iter()
+        .collect();
     let has_site = sheet.columns.contains_key("site");
     let mut rows = Vec::new();
     let mut rejected = Vec::new();
@@ -404,6 +497,7 @@ pub fn read_services(path: &Path, latest: Option<YearMonth>) -> Result<ServicesD
         rejected,
         has_site,
         has_reporting_rate: sheet.columns.contains_key("reporting_rate"),
+        warnings,
     })
 }
 
@@ -423,11 +517,63 @@ pub const POPULATION_OPTIONAL: [&str; 10] = [
     "loss_allowance",
 ];
 
+/// Columns only the morbidity method uses.
+const MORBIDITY_ONLY: [&str; 4] = [
+    "group_share",
+    "care_seeking",
+    "treated",
+    "quantity_per_course",
+];
+/// Columns only the demographic method uses.
+const DEMOGRAPHIC_ONLY: [&str; 4] = [
+    "method_share",
+    "public_share",
+    "cyp_method",
+    "units_per_user_year",
+];
+
+/// A value in a column the row's method does not use is refused: it would
+/// be ignored, and a figure meant for the estimate (or a row given the
+/// wrong method) would pass unseen.
+fn other_methods_columns(
+    sheet: &Sheet,
+    rec: &csv::StringRecord,
+    method: Method,
+) -> std::result::Result<(), Problem> {
+    let (own, others) = if method == Method::Morbidity {
+        (MORBIDITY_ONLY, DEMOGRAPHIC_ONLY)
+    } else {
+        (DEMOGRAPHIC_ONLY, MORBIDITY_ONLY)
+    };
+    let Some(col) = others.iter().find(|c| !sheet.get(rec, c).is_empty()) else {
+        return Ok(());
+    };
+    let name = method.name();
+    let v = sheet.get(rec, col);
+    Err(problem(
+        col,
+        v,
+        format!(
+            "{col} '{v}' is given on a {name} row, which does not use it; the {name} method uses population, rate, {}, loss_allowance (and group as a label); leave {col} empty on this row, or correct the row's method",
+            own.join(", ")
+        ),
+    ))
+}
+
 /// Reads the population file; the demographic rows' units per user per
 /// year come from `cyp` unless given. Any bad value refuses the file.
-pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow>, String)> {
+pub fn read_population(path: &Path, cyp: &CypTable) -> Result<PopulationData> {
     let sheet = Sheet::read(path, "population file")?;
     sheet.require(&POPULATION_COLUMNS, &POPULATION_OPTIONAL)?;
+    let known: Vec<&str> = POPULATION_COLUMNS
+        .iter()
+        .chain(&POPULATION_OPTIONAL)
+        .copied()
+        .collect();
+    let warnings: Vec<String> = sheet
+        .unknown_columns(&known, "population file")?
+        .into_iter()
+        .collect();
     let mut rows = Vec::new();
     let mut groups: HashSet<(String, Method, String)> = HashSet::new();
     for (line, rec) in &sheet.records {
@@ -444,9 +590,10 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow
                     ))
                 }
             };
+            other_methods_columns(&sheet, rec, method)?;
             let name = method.name();
             let population = required(quantity(&sheet, rec, "population")?, "population", name)?;
-            let rate = required(share(&sheet, rec, "rate", 10.0)?, "rate", name)?;
+            let rate = required(rate(&sheet, rec, method)?, "rate", name)?;
             let loss_allowance = share(&sheet, rec, "loss_allowance", 10.0)?.unwrap_or(0.0);
             let mut row = PopulationRow {
                 line: *line,
@@ -479,9 +626,6 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow
                     name,
                 )?;
             } else {
-                if rate > 1.0 {
-                    return Err(problem("rate", sheet.get(rec, "rate"), "the contraceptive prevalence of the demographic method is a share from 0 to 1".into()));
-                }
                 row.method_share = required(
                     share(&sheet, rec, "method_share", 1.0)?,
                     "method_share",
@@ -556,17 +700,26 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<(Vec<PopulationRow
             "no row; expected one row per product and target group".into(),
         ));
     }
-    Ok((rows, sheet.sha256))
+    Ok(PopulationData {
+        rows,
+        sha256: sheet.sha256,
+        warnings,
+    })
 }
 
+/// Columns of a CYP table.
+const CYP_COLUMNS: [&str; 5] = ["method", "cyp_per_unit", "units_per_cyp", "unit", "source"];
+
 /// Reads a CYP table (`method`, `cyp_per_unit` or `units_per_cyp`, and
-/// optional `unit`, `source`). Any bad value refuses the file.
-pub fn read_cyp(path: &Path) -> Result<Vec<CypFactor>> {
+/// optional `unit`, `source`), with the warnings met (columns not used).
+/// Any bad value refuses the file.
+pub fn read_cyp(path: &Path) -> Result<(Vec<CypFactor>, Vec<String>)> {
     let sheet = Sheet::read(path, "CYP table")?;
-    sheet.require(
-        &["method"],
-        &["cyp_per_unit", "units_per_cyp", "unit", "source"],
-    )?;
+    sheet.require(&CYP_COLUMNS[..1], &CYP_COLUMNS[1..])?;
+    let warnings: Vec<String> = sheet
+        .unknown_columns(&CYP_COLUMNS, "CYP table")?
+        .into_iter()
+        .collect();
     let has = |c: &str| sheet.columns.contains_key(c);
     if !has("cyp_per_unit") && !has("units_per_cyp") {
         return Err(input_error(
@@ -647,7 +800,7 @@ pub fn read_cyp(path: &Path) -> Result<Vec<CypFactor>> {
             },
         });
     }
-    Ok(out)
+    Ok((out, warnings))
 }
 
 /// The consumption forecast read from a `forecast` output directory.
@@ -819,7 +972,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let path = dir.path().join("pop.csv");
         std::fs::write(&path, text).unwrap();
-        read_population(&path, &super::super::cyp::usaid_2021()).map(|r| r.0)
+        read_population(&path, &super::super::cyp::usaid_2021()).map(|r| r.rows)
     }
 
     #[test]
@@ -873,6 +1026,146 @@ mod tests {
     }
 
     #[test]
+    fn a_value_in_another_methods_column_is_refused() {
+        // Common practice (and the README's column table): a morbidity row
+        // has no method or public-sector share, a demographic row no group
+        // share, care seeking, treatment or course; a value there would be
+        // ignored, so it is refused, naming the columns the method uses.
+        let head = "product,method,population,rate,group_share,care_seeking,treated,quantity_per_course,method_share,public_share,cyp_method\n";
+        let e = population(&format!("{head}ORS,morbidity,1000,0.5,1,0.8,0.9,2,,0.6,\n"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains(":2: column 'public_share': public_share '0.6' is given on a morbidity row")
+                && e.contains("the morbidity method uses population, rate, group_share, care_seeking, treated, quantity_per_course, loss_allowance"),
+            "{e}"
+        );
+        for (col, row) in [
+            ("group_share", "C,demographic,1000,0.3,0.5,,,,0.2,1,condom"),
+            ("care_seeking", "C,demographic,1000,0.3,,0.8,,,0.2,1,condom"),
+            ("treated", "C,demographic,1000,0.3,,,90%,,0.2,1,condom"),
+        ] {
+            let e = population(&format!("{head}{row}\n"))
+                .unwrap_err()
+                .to_string();
+            assert!(
+                e.contains(&format!(":2: column '{col}'"))
+                    && e.contains("on a demographic row")
+                    && e.contains("the demographic method uses population, rate, method_share, public_share, cyp_method, units_per_user_year"),
+                "{e}"
+            );
+        }
+        // Empty cells of the other method's columns are what a mixed file has.
+        let rows = population(&format!(
+            "{head}ORS,morbidity,1000,0.5,1,0.8,0.9,2,,,\nC,demographic,1000,0.3,,,,,0.2,1,condom\n"
+        ))
+        .unwrap();
+        assert_eq!(rows.len(), 2);
+    }
+
+    #[test]
+    fn a_demographic_rate_out_of_range_is_named_as_a_prevalence() {
+        // Common practice: the message describes what the row's method
+        // reads; a contraceptive prevalence is a share, not episodes.
+        let e = population("product,method,population,rate,method_share,cyp_method\nC,demographic,1000,12,0.5,condom\n")
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("column 'rate'")
+                && e.contains(
+                    "contraceptive prevalence of the demographic method, a share from 0 to 1"
+                )
+                && !e.contains("episodes"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn a_misspelt_column_is_refused_and_another_warned() {
+        // Common practice: headers are typed by hand; a name one slip from
+        // a column crosscheck reads is a misspelling whose values would be
+        // lost, any other name a column of the user's own.
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("pop.csv");
+        let body = "ORS,morbidity,1000,0.5,0.8,0.9,2,5%\n";
+        std::fs::write(
+            &path,
+            format!("product,method,population,rate,care_seeking,treated,quantity_per_course,loss_alowance\n{body}"),
+        )
+        .unwrap();
+        let e = read_population(&path, &super::super::cyp::usaid_2021())
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("pop.csv:1: column 'loss_alowance': unknown column 'loss_alowance'; did you mean 'loss_allowance'?"),
+            "{e}"
+        );
+        std::fs::write(
+            &path,
+            format!("product,method,population,rate,care_seeking,treated,quantity_per_course,loss_allowance,Notes\n{}", body.replace('\n', ",checked 2025\n")),
+        )
+        .unwrap();
+        let p = read_population(&path, &super::super::cyp::usaid_2021()).unwrap();
+        assert_eq!(p.rows[0].loss_allowance, 0.05);
+        assert_eq!(p.warnings.len(), 1);
+        assert!(
+            p.warnings[0].contains("column(s) 'notes' not used by crosscheck and ignored"),
+            "{:?}",
+            p.warnings
+        );
+        let path = dir.path().join("services.csv");
+        for (typo, right) in [
+            ("allowence", "allowance"),
+            ("ReportingRate", "reporting_rate"),
+        ] {
+            std::fs::write(
+                &path,
+                format!("product,month,services,units_per_service,{typo}\nRDT,2025-01,10,1,10%\n"),
+            )
+            .unwrap();
+            let e = read_services(&path, None).unwrap_err().to_string();
+            assert!(
+                e.contains(&format!("services.csv:1: column '{}'", typo.to_lowercase()))
+                    && e.contains(&format!("did you mean '{right}'?")),
+                "{e}"
+            );
+        }
+        std::fs::write(
+            &path,
+            "product,month,services,units_per_service,district\nRDT,2025-01,10,1,North\n",
+        )
+        .unwrap();
+        let d = read_services(&path, None).unwrap();
+        assert!(
+            d.warnings[0].contains("column(s) 'district' not used by crosscheck and ignored"),
+            "{:?}",
+            d.warnings
+        );
+        // A short name two letters from an absent column (`note`, `site`)
+        // is a column of the user's own: warned, not refused.
+        std::fs::write(
+            &path,
+            "product,month,services,units_per_service,note\nRDT,2025-01,10,1,ok\n",
+        )
+        .unwrap();
+        let d = read_services(&path, None).unwrap();
+        assert!(
+            d.warnings[0].contains("column(s) 'note' not used by crosscheck and ignored"),
+            "{:?}",
+            d.warnings
+        );
+        // A CYP table is read the same way.
+        let path = dir.path().join("cyp.csv");
+        std::fs::write(
+            &path,
+            "method,units_per_cyp,souce\npatch,13,national list\n",
+        )
+        .unwrap();
+        let e = read_cyp(&path).unwrap_err().to_string();
+        assert!(e.contains("did you mean 'source'?"), "{e}");
+    }
+
+    #[test]
     fn bridged_forecast_months_are_not_part_of_the_period() {
         let dir = tempfile::tempdir().unwrap();
         std::fs::write(dir.path().join("manifest.json"), "{}").unwrap();
@@ -907,7 +1200,7 @@ mod tests {
             .to_string()
             .contains("must be above 0"));
         std::fs::write(&path, "method,units_per_cyp\nPatch,13\n").unwrap();
-        let f = read_cyp(&path).unwrap();
+        let (f, _) = read_cyp(&path).unwrap();
         assert_eq!(f[0].method, "patch");
         assert!((f[0].units_per_user_year() - 13.0).abs() < 1e-12);
     }

@@ -66,6 +66,8 @@ pub struct ServicesData {
     pub has_site: bool,
     /// Whether the file has a `reporting_rate` column.
     pub has_reporting_rate: bool,
+    /// Warnings met reading the file (columns not used).
+    pub warnings: Vec<String>,
 }
 
 /// A product's services estimate.

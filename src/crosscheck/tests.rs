@@ -301,3 +301,47 @@ fn build_lists_unforecast_products_and_short_forecasts() {
         .iter()
         .any(|w| w.contains("'Short'") && w.contains("covers 6 of the 12 months")));
 }
+
+#[test]
+fn an_estimate_that_could_not_be_made_is_flagged_no_comparison() {
+    // The README: products in the services or population file that are not
+    // in the forecast get rows of their own, flagged no-comparison. Here
+    // the product is misspelt against the forecast and its services gave
+    // no estimate; one forecast product's services gave none either.
+    let start = YearMonth::new(2025, 1).unwrap();
+    let mut fc = std::collections::BTreeMap::new();
+    fc.insert(
+        "RDT".to_string(),
+        (0..12)
+            .map(|i| ForecastMonth {
+                month: start.plus(i),
+                point: 100.0,
+                lower80: 90.0,
+                upper80: 110.0,
+            })
+            .collect::<Vec<_>>(),
+    );
+    let none = |product: &str| services::ServicesEstimate {
+        product: product.into(),
+        services: None,
+        quantity: None,
+        model: String::new(),
+        basis: "no services estimate: no month has a usable quantity".into(),
+        months: Vec::new(),
+    };
+    let cc = build(&fc, start, &[none("RTD"), none("RDT")], &[], 0.25);
+    for product in ["RTD", "RDT"] {
+        let r = cc
+            .rows
+            .iter()
+            .find(|r| r.product == product && r.method == Method::Services)
+            .unwrap();
+        let c = r.comparison.as_ref().unwrap();
+        assert_eq!((c.flag, c.ratio), (Flag::NoComparison, None), "{product}");
+        assert!(c.explanation.contains("no services estimate could be made"));
+    }
+    assert!(cc
+        .warnings
+        .iter()
+        .any(|w| w.contains("'RTD'") && w.contains("did you mean 'RDT'?")));
+}
