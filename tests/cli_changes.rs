@@ -611,6 +611,116 @@ fn review_scores_the_statistical_and_the_adjusted_forecast() {
     assert!(out.contains("forecast value added"), "{out}");
 }
 
+/// A new product has no statistical forecast (zero): review scores the
+/// adjusted forecast in its main table and says so, instead of flagging a
+/// zero nobody forecast. Scores by their definitions (MAPE, bias, WAPE as
+/// in `src/metrics.rs`; common practice), computed by hand below.
+#[test]
+fn review_scores_a_new_product_on_its_adjusted_forecast() {
+    let w = Workdir::new();
+    w.write("data.csv", data(&[]));
+    w.write("pins.csv", pins());
+    // 60 in 2026-11 rising linearly to 120 in 2027-02, then held:
+    // 60, 80, 100, 120, 120, 120.
+    w.write(
+        "changes.csv",
+        format!("{HEADER}Product H,new-from-level,2026-11,2027-02,120,60,,,launch\n"),
+    );
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--out",
+        "past",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+        "--changes",
+        "changes.csv",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let actual = [50.0, 100.0, 100.0, 100.0, 130.0, 110.0];
+    let mut actuals = data(&[("Product A", &[100.0; 6])]);
+    for (k, v) in actual.iter().enumerate() {
+        let (y, m) = (2026 + (10 + k) / 12, (10 + k) % 12 + 1);
+        actuals.push_str(&format!("Product H,{y}-{m:02},{v}\n"));
+    }
+    w.write("actuals.csv", actuals);
+    let o = w.run(&[
+        "--json",
+        "review",
+        "past",
+        "--actuals",
+        "actuals.csv",
+        "--out",
+        "rev",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    // Errors (adjusted − actual): +10, −20, 0, +20, −10, +10; Σ|e| = 70,
+    // Σe = 10, Σ actual = 590.
+    let wape = 100.0 * 70.0 / 590.0;
+    let bias = 100.0 * 10.0 / 590.0;
+    let mape = 100.0 / 6.0 * (10.0 / 50.0 + 0.2 + 0.0 + 0.2 + 10.0 / 130.0 + 10.0 / 110.0);
+    let rows = w.read_csv_maps("rev/review.csv");
+    let h = rows
+        .iter()
+        .find(|r| r["product"] == "Product H")
+        .expect("H in review.csv");
+    assert_eq!(h["model"], "adjusted (new product)", "{h:?}");
+    close(num(h, "wape_pct"), wape, "H WAPE");
+    close(num(h, "bias_pct"), bias, "H bias");
+    close(num(h, "mape_pct"), mape, "H MAPE");
+    // A new-from-level range has zero width: no coverage to score, no flag.
+    assert_eq!(h["coverage_80_pct"], "", "{h:?}");
+    assert_eq!(h["coverage_short"], "", "{h:?}");
+    assert_eq!(h["tracking_flag"], "no", "{h:?}");
+    assert!(
+        h["findings"].starts_with("new product: adjusted forecast scored"),
+        "{h:?}"
+    );
+    // review_changes.csv still sets the statistical zero beside it.
+    let ch = w.read_csv_maps("rev/review_changes.csv");
+    let all = ch
+        .iter()
+        .find(|r| r["product"] == "Product H" && r["scored"] == "all changes")
+        .expect("H in review_changes.csv");
+    close(num(all, "wape_without_pct"), 100.0, "H statistical WAPE");
+    close(num(all, "wape_with_pct"), wape, "H adjusted WAPE");
+    // The JSON summary, review.json and the page say the same.
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).expect("JSON summary");
+    let jh = j["products"]
+        .as_array()
+        .expect("products")
+        .iter()
+        .find(|p| p["product"] == "Product H")
+        .expect("H in JSON")
+        .clone();
+    assert_eq!(jh["forecast_scored"], "adjusted");
+    assert_eq!(jh["model"], "adjusted (new product)");
+    close(
+        jh["wape_pct"].as_f64().unwrap_or(f64::NAN),
+        wape,
+        "H WAPE (JSON)",
+    );
+    let full: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(w.path("rev/review.json")).unwrap()).unwrap();
+    let fh = full["products"]
+        .as_array()
+        .expect("products")
+        .iter()
+        .find(|p| p["product"] == "Product H")
+        .expect("H in review.json")
+        .clone();
+    assert_eq!(fh["forecast_scored"], "adjusted");
+    let page = std::fs::read_to_string(w.path("rev/review.html")).expect("page");
+    assert!(page.contains("new product: adjusted forecast scored"));
+    // A product with history keeps its statistical forecast.
+    let a = rows.iter().find(|r| r["product"] == "Product A").unwrap();
+    assert_eq!(a["model"], "naive", "{a:?}");
+}
+
 #[test]
 fn crosscheck_and_the_report_use_the_adjusted_forecast() {
     let w = Workdir::new();

@@ -218,6 +218,79 @@ fn review_demo_last_twelve_months() {
     assert_eq!(json["products"].as_array().unwrap().len(), 12);
     assert_eq!(json["vintages"][0]["until"], "2025-10");
     assert_eq!(json["products"][0]["months"].as_array().unwrap().len(), 12);
+    // The actuals hold the whole history: nothing to warn about it.
+    let warned = json["run"]["warnings"].to_string();
+    assert!(!warned.contains("without the history"), "{warned}");
+}
+
+/// Actuals holding only the months after the past forecast's end are
+/// cleaned on less history than the past run saw: a site with no earlier
+/// row is not expected in its first months, and a month is filled from
+/// the site's own months around it (`src/clean`), so the cleaned actuals
+/// differ from a cleaning of the whole file. Shown here on the demo's
+/// implant (common practice: a gap is filled from the series' own
+/// history, so a shorter history fills it differently), and the review
+/// must say so rather than report other scores silently.
+#[test]
+fn actuals_without_the_earlier_history_are_warned() {
+    let (_, past, _) = vintages();
+    let w = Workdir::new();
+    let full = std::fs::read_to_string(demo()).unwrap();
+    let mut later = String::new();
+    for (i, line) in full.lines().enumerate() {
+        // Months are the third column, YYYY-MM: keep the header and 2025-11 on.
+        if i == 0 || line.split(',').nth(2).is_some_and(|m| m >= "2025-11") {
+            later.push_str(line);
+            later.push('\n');
+        }
+    }
+    w.write("later.csv", &later);
+    let run = |actuals: &str, out: &str| {
+        let o = w.run(&[
+            "review",
+            past.to_str().unwrap(),
+            "--actuals",
+            actuals,
+            "--out",
+            out,
+        ]);
+        assert!(o.status.success(), "{}", text(&o));
+        text(&o)
+    };
+    let whole = run(&demo(), "whole");
+    let short = run("later.csv", "short");
+    let status = |out: &str| {
+        w.read_csv_maps(&format!("{out}/review_months.csv"))
+            .into_iter()
+            .find(|m| m["product"] == "Contraceptive implant" && m["month"] == "2025-11")
+            .map(|m| (m["status"].clone(), m["actual"].clone()))
+            .expect("implant 2025-11")
+    };
+    // The premise: the same month is cleaned differently (the figures the
+    // README's review section quotes).
+    let (whole_status, whole_actual) = status("whole");
+    let (short_status, short_actual) = status("short");
+    assert_eq!(whole_status, "partly-filled");
+    assert_eq!(short_status, "adjusted");
+    assert_eq!(num(&whole_actual).round(), 1064.0);
+    assert_eq!(num(&short_actual).round(), 893.0);
+    let want = "the actuals were cleaned without the history before 2025-11";
+    assert!(!whole.contains(want), "{whole}");
+    assert!(short.contains(want), "{short}");
+    assert!(
+        short.contains("from 2021-11 on, for like-for-like cleaning"),
+        "{short}"
+    );
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(w.path("short/review.json")).unwrap())
+            .unwrap();
+    assert!(
+        json["run"]["warnings"].to_string().contains(want),
+        "{}",
+        json["run"]
+    );
+    let page = std::fs::read_to_string(w.path("short/review.html")).unwrap();
+    assert!(page.contains(want), "warning not on the review page");
 }
 
 #[test]

@@ -130,7 +130,7 @@ pub(super) fn review(
                 .iter()
                 .filter_map(|m| {
                     let a = adjusted.get(&(pr.product.clone(), m.month))?;
-                    Some((m.actual, m.forecast, *a))
+                    Some((m.actual, m.statistical, *a))
                 })
                 .collect();
             let mine: Vec<&provisio::changes::read::PastTrace> =

@@ -16,7 +16,7 @@ pub struct ReviewArgs {
     /// Output directories of earlier `forecast` runs (several = vintages to compare).
     #[arg(required = true, value_name = "PAST_DIR")]
     past: Vec<PathBuf>,
-    /// The consumption reported since, in the input contract (it may also hold the earlier months).
+    /// The consumption reported, in the input contract: the whole history, so it is cleaned like the past run's data (actuals holding only later months are warned).
     #[arg(long, value_name = "DATA")]
     actuals: PathBuf,
     /// Directory for the outputs (created if needed).
@@ -152,6 +152,11 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
             unforecast.join(", ")
         ));
     }
+    for v in &result.vintages {
+        if let Some(short) = &v.short_history {
+            warnings.push(short.message(&v.name));
+        }
+    }
     for n in &result.not_reviewed {
         warnings.push(format!(
             "product '{}' of {} not reviewed: {}",
@@ -214,7 +219,8 @@ pub fn run(a: ReviewArgs) -> anyhow::Result<()> {
                 serde_json::json!({
                     "product": p.product,
                     "vintage": result.vintages.get(p.vintage).map(|v| v.name.clone()),
-                    "model": p.model,
+                    "model": p.scored_model(),
+                    "forecast_scored": p.forecast_scored(),
                     "months_scored": s.months,
                     "mape_pct": s.mape,
                     "bias_pct": s.bias,
@@ -325,7 +331,7 @@ fn print_summary(r: &review::Review, limit: f64) {
             } else {
                 String::new()
             },
-            super::truncate(&p.model, 22),
+            super::truncate(p.scored_model(), 22),
             format!("{}/{}", s.months, p.months.len()),
             f(s.mape, false),
             f(s.bias, true),

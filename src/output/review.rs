@@ -110,7 +110,7 @@ pub fn write_review(path: &Path, review: &Review, adjustment_limit: f64) -> Resu
                 csv_text(&r.product).into_owned(),
                 vintage.clone(),
                 "reviewed".into(),
-                r.model.clone(),
+                r.scored_model().to_string(),
                 r.origin.to_string(),
                 r.forecast_start.to_string(),
                 r.forecast_end.to_string(),
@@ -309,7 +309,8 @@ pub fn review_json(
             serde_json::json!({
                 "product": r.product,
                 "vintage": name(r.vintage),
-                "model": r.model,
+                "model": r.scored_model(),
+                "forecast_scored": r.forecast_scored(),
                 "origin": r.origin.to_string(),
                 "forecast_start": r.forecast_start.to_string(),
                 "forecast_end": r.forecast_end.to_string(),

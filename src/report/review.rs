@@ -60,7 +60,7 @@ pub fn review_chart(past: &PastForecast, r: &ProductReview) -> ProductChart {
         })
         .collect();
     let s = &r.scores;
-    let mut subtitle = format!("forecast by {} made after {}", r.model, r.origin);
+    let mut subtitle = format!("forecast by {} made after {}", r.scored_model(), r.origin);
     for (label, v, f) in [
         ("MAPE", s.mape, pct as fn(f64) -> String),
         ("bias", s.bias, |v| format!("{}%", signed(v))),
@@ -75,7 +75,7 @@ pub fn review_chart(past: &PastForecast, r: &ProductReview) -> ProductChart {
         title: r.product.clone(),
         subtitle,
         history_label: "cleaned consumption (actuals from the forecast start)".into(),
-        projection_label: format!("past forecast ({})", r.model),
+        projection_label: format!("past forecast ({})", r.scored_model()),
         history,
         projection,
         backtest: None,
@@ -385,7 +385,7 @@ fn products_table(b: &mut String, review: &Review, stems: &[String]) {
             }));
         }
         cells.extend([
-            Cell::text(&r.model),
+            Cell::text(r.scored_model()),
             Cell::num(Some(s.months as f64), |v| format!("{v:.0}")),
             Cell::num(s.mape, pct),
             Cell::num(s.bias, |v| format!("{}%", signed(v))),
@@ -512,7 +512,7 @@ fn product_section(
     let _ = writeln!(
         b,
         "<p>Forecast by <strong>{}</strong> made after {} (<span class=\"mono\">{}</span>), {} to {}; {} month(s) with actuals, {} scored.</p>",
-        escape(&r.model),
+        escape(r.scored_model()),
         escape(&chart::month_label(r.origin)),
         escape(&review.vintages[r.vintage].name),
         escape(&chart::month_label(r.forecast_start)),

@@ -181,8 +181,12 @@ pub struct MonthReview {
     pub imputed_share: f64,
     /// Whether the month counts in the scores.
     pub scored: bool,
-    /// Past point forecast.
+    /// Past point forecast scored (the adjusted one for a new product,
+    /// see [`ProductReview::adjusted_scored`]).
     pub forecast: f64,
+    /// Past statistical point forecast (equal to `forecast` unless the
+    /// adjusted forecast is scored).
+    pub statistical: f64,
     /// Past 80% interval.
     pub interval80: Option<(f64, f64)>,
     /// Past 95% interval.
@@ -409,6 +413,10 @@ pub struct ProductReview {
     pub vintage: usize,
     /// Model that made the forecast.
     pub model: String,
+    /// Whether the adjusted forecast is scored: a new product added by a
+    /// changes file has no statistical forecast (zero, model `none (new
+    /// product)`), and judging that zero would flag a forecast nobody made.
+    pub adjusted_scored: bool,
     /// First forecast month.
     pub forecast_start: YearMonth,
     /// Last forecast month.
@@ -427,15 +435,50 @@ pub struct ProductReview {
     pub period_audit: Audit,
 }
 
+/// What the model column shows for a new product scored on its adjusted
+/// forecast.
+pub const ADJUSTED_NEW_PRODUCT: &str = "adjusted (new product)";
+
 impl ProductReview {
+    /// The forecast scored, for model columns: the model, or
+    /// [`ADJUSTED_NEW_PRODUCT`] when the adjusted forecast is scored.
+    pub fn scored_model(&self) -> &str {
+        if self.adjusted_scored {
+            ADJUSTED_NEW_PRODUCT
+        } else {
+            &self.model
+        }
+    }
+
+    /// `adjusted` or `statistical`: which of the past forecasts is scored.
+    pub fn forecast_scored(&self) -> &'static str {
+        if self.adjusted_scored {
+            "adjusted"
+        } else {
+            "statistical"
+        }
+    }
+
     /// What a reviewer should look at, in plain words (empty when nothing
-    /// stands out): a tracking signal beyond its limit, an interval covering less
+    /// stands out): a new product scored on its adjusted forecast, a
+    /// tracking signal beyond its limit, an interval covering less
     /// than nominal beyond chance, no value added over a naive forecast,
     /// accuracy far from the backtest's promise, heavy adjustment of the
     /// data, and months left out.
     pub fn findings(&self, adjustment_limit: f64) -> Vec<String> {
         let s = &self.scores;
         let mut out = Vec::new();
+        if self.adjusted_scored {
+            let mut text = "new product: adjusted forecast scored (it had no history when the forecast was made, so its statistical forecast was zero; review_changes.csv sets the two side by side)".to_string();
+            if self
+                .months
+                .iter()
+                .all(|m| m.interval80.is_none() && m.interval95.is_none())
+            {
+                text.push_str("; its ranges have zero width (no history to measure them on), so coverage is not scored");
+            }
+            out.push(text);
+        }
         if s.months == 0 {
             out.push(format!(
                 "no month could be scored: all {} month(s) with actuals are mostly imputed",
@@ -571,6 +614,50 @@ pub struct Vintage {
     pub end: YearMonth,
     /// Whether mostly-imputed actuals were left out of scoring.
     pub exclude_imputed: bool,
+    /// Reviewed products whose actuals start after the history the past
+    /// run cleaned (`None` when the actuals hold all of it).
+    pub short_history: Option<ShortHistory>,
+}
+
+/// Actuals that lack part of the history a past run cleaned its data with.
+///
+/// Cleaning looks back on a site's whole series: a missing month is filled
+/// from the site's own months on either side, with seasonal indices
+/// estimated on all of them (from 24 observed months), and outliers are
+/// judged against a trend and the same calendar month of up to five years.
+/// A site with no row before the actuals' first month is not expected
+/// there at all, so is not filled. Actuals cut short are therefore cleaned
+/// on less than the past run saw, and their filled months may differ.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ShortHistory {
+    /// Earliest first month of the actuals over the products concerned:
+    /// the history before it was not in the actuals.
+    pub actuals_start: YearMonth,
+    /// Earliest first month of those products' history in the past run.
+    pub history_start: YearMonth,
+    /// The products concerned.
+    pub products: Vec<String>,
+}
+
+impl ShortHistory {
+    /// The warning for vintage `name`, in plain words.
+    pub fn message(&self, name: &str) -> String {
+        let few: Vec<&str> = self.products.iter().take(3).map(String::as_str).collect();
+        let more = self.products.len().saturating_sub(few.len());
+        format!(
+            "the actuals were cleaned without the history before {} ({} product(s) of {name}: {}{}; the past run cleaned them from {}), so filled months may differ from a cleaning of the whole file; give the whole history, from {} on, for like-for-like cleaning",
+            self.actuals_start,
+            self.products.len(),
+            few.join(", "),
+            if more > 0 {
+                format!(" and {more} more")
+            } else {
+                String::new()
+            },
+            self.history_start,
+            self.history_start
+        )
+    }
 }
 
 /// Everything a review produced.
@@ -638,6 +725,7 @@ pub fn review_all(
             message: "no forecast row".into(),
         })?;
         let mut reviewed_here = 0;
+        let mut short: Vec<(&str, YearMonth, YearMonth)> = Vec::new();
         for p in &past.products {
             let Some(series) = act.cleaned.series.iter().find(|s| s.product == p.product) else {
                 let why = act
@@ -654,6 +742,9 @@ pub fn review_all(
                 });
                 continue;
             };
+            if !p.history.is_empty() && series.start > p.history_start {
+                short.push((&p.product, series.start, p.history_start));
+            }
             let scorable = crate::pipeline::scorable(series, exclude_imputed);
             let log: Vec<&Adjustment> = act
                 .cleaned
@@ -714,6 +805,7 @@ pub fn review_all(
             start,
             end,
             exclude_imputed,
+            short_history: short_history(&short),
         });
     }
     products.sort_by(|a, b| a.product.cmp(&b.product).then(a.vintage.cmp(&b.vintage)));
@@ -724,6 +816,15 @@ pub fn review_all(
         not_reviewed,
         comparisons,
         actuals_span,
+    })
+}
+
+/// The products whose actuals start after their past history, gathered.
+fn short_history(short: &[(&str, YearMonth, YearMonth)]) -> Option<ShortHistory> {
+    Some(ShortHistory {
+        actuals_start: short.iter().map(|x| x.1).min()?,
+        history_start: short.iter().map(|x| x.2).min()?,
+        products: short.iter().map(|x| x.0.to_string()).collect(),
     })
 }
 
@@ -787,6 +888,7 @@ pub fn review_product(
             scored: scorable.get(t).copied().unwrap_or(false)
                 && (k >= past.bridged || series.reported[t].is_some()),
             forecast: f,
+            statistical: past.statistical.get(k).copied().unwrap_or(f),
             interval80: pair(&past.lower80, &past.upper80),
             interval95: pair(&past.lower95, &past.upper95),
             naive,
@@ -844,6 +946,7 @@ pub fn review_product(
         product: past.product.clone(),
         vintage,
         model: past.model.clone(),
+        adjusted_scored: past.adjusted_scored,
         forecast_start: past.start,
         forecast_end: past.end(),
         origin: past.start.plus(-1),

@@ -109,8 +109,16 @@ pub struct PastProduct {
     /// product's last month and the run's common projection start; 0 for
     /// folders written before the `bridged` column).
     pub bridged: usize,
-    /// Point forecasts, one per month from `start`.
+    /// Point forecasts scored, one per month from `start`: the statistical
+    /// forecast, or the adjusted one when `adjusted_scored`.
     pub point: Vec<f64>,
+    /// The statistical point forecasts (equal to `point` unless
+    /// `adjusted_scored`).
+    pub statistical: Vec<f64>,
+    /// Whether `point` and the intervals are the adjusted forecast: a new
+    /// product added by a changes file has no statistical forecast (zero),
+    /// so its adjusted forecast is the one that was made.
+    pub adjusted_scored: bool,
     /// Lower bounds of the 80% interval (`None` when not given).
     pub lower80: Vec<Option<f64>>,
     /// Upper bounds of the 80% interval.
@@ -221,17 +229,26 @@ pub fn read_past(dir: &Path) -> Result<PastForecast> {
             status: Vec::new(),
             outlier: Vec::new(),
         });
+        let statistical = f.point.clone();
+        let (adjusted_scored, point, bounds) = match f.adjusted {
+            Some((point, bounds)) if f.model == crate::output::NEW_PRODUCT_MODEL => {
+                (true, point, bounds)
+            }
+            _ => (false, f.point, f.bounds),
+        };
         products.push(PastProduct {
             promised: promised.get(&product).cloned().unwrap_or_default(),
             history_changes: changes.remove(&product).unwrap_or_default(),
             model: f.model,
             start: f.start,
             bridged: f.bridged,
-            point: f.point,
-            lower80: f.bounds[0].clone(),
-            upper80: f.bounds[1].clone(),
-            lower95: f.bounds[2].clone(),
-            upper95: f.bounds[3].clone(),
+            point,
+            statistical,
+            adjusted_scored,
+            lower80: bounds[0].clone(),
+            upper80: bounds[1].clone(),
+            lower95: bounds[2].clone(),
+            upper95: bounds[3].clone(),
             history_start: h.start,
             history: h.cleaned,
             history_reported: h.reported,
@@ -501,10 +518,51 @@ struct ForecastRows {
     start: YearMonth,
     bridged: usize,
     point: Vec<f64>,
-    bounds: [Vec<Option<f64>>; 4],
+    bounds: Bounds,
+    /// The adjusted forecast and its ranges, when every row has one (a
+    /// run with a changes file); a zero-width range is no range (`None`).
+    adjusted: Option<(Vec<f64>, Bounds)>,
 }
 
+/// The four range bounds of a forecast, one entry per month
+/// (lower 80, upper 80, lower 95, upper 95).
+type Bounds = [Vec<Option<f64>>; 4];
+
 const BOUNDS: [&str; 4] = ["lower_80", "upper_80", "lower_95", "upper_95"];
+
+const ADJUSTED_BOUNDS: [&str; 4] = [
+    "adjusted_lower_80",
+    "adjusted_upper_80",
+    "adjusted_lower_95",
+    "adjusted_upper_95",
+];
+
+/// The adjusted point and ranges of one forecast row; `None` when the file
+/// has no adjusted forecast or the row leaves it empty. A range of zero
+/// width (a new product's level: no history to measure it) is no range.
+fn adjusted_row(t: &Table, line: u64, rec: &csv::StringRecord) -> Result<Option<AdjustedRow>> {
+    if !t.columns.contains_key("adjusted") {
+        return Ok(None);
+    }
+    let Some(point) = t.number(line, rec, "adjusted")? else {
+        return Ok(None);
+    };
+    let mut b = [None; 4];
+    for (slot, c) in b.iter_mut().zip(ADJUSTED_BOUNDS) {
+        if t.columns.contains_key(c) {
+            *slot = t.number(line, rec, c)?;
+        }
+    }
+    let pair = |lo: Option<f64>, hi: Option<f64>| match (lo, hi) {
+        (Some(l), Some(h)) if h > l => (Some(l), Some(h)),
+        _ => (None, None),
+    };
+    let (l80, u80) = pair(b[0], b[1]);
+    let (l95, u95) = pair(b[2], b[3]);
+    Ok(Some((point, [l80, u80, l95, u95])))
+}
+
+type AdjustedRow = (f64, [Option<f64>; 4]);
 
 fn read_forecast(path: &Path) -> Result<BTreeMap<String, ForecastRows>> {
     let t = Table::open(
@@ -533,6 +591,7 @@ fn read_forecast(path: &Path) -> Result<BTreeMap<String, ForecastRows>> {
             bridged: 0,
             point: Vec::new(),
             bounds: Default::default(),
+            adjusted: Some(Default::default()),
         });
         if t.columns.contains_key("bridged") && t.cell(rec, "bridged") == "yes" {
             entry.bridged += 1;
@@ -542,6 +601,16 @@ fn read_forecast(path: &Path) -> Result<BTreeMap<String, ForecastRows>> {
         for (v, x) in entry.bounds.iter_mut().zip(b) {
             v.push(x);
         }
+        entry.adjusted = match (entry.adjusted.take(), adjusted_row(&t, line, rec)?) {
+            (Some((mut ps, mut bs)), Some((p, b))) => {
+                ps.push(p);
+                for (v, x) in bs.iter_mut().zip(b) {
+                    v.push(x);
+                }
+                Some((ps, bs))
+            }
+            _ => None,
+        };
     }
     Ok(out)
 }

@@ -19,6 +19,8 @@ fn past(history_start: &str, history: Vec<f64>, point: Vec<f64>, half80: f64) ->
         upper80: b(half80),
         lower95: b(-2.0 * half80),
         upper95: b(2.0 * half80),
+        statistical: point.clone(),
+        adjusted_scored: false,
         point,
         history_start: ym(history_start),
         history_reported: history.iter().map(|&v| Some(v)).collect(),
