@@ -103,7 +103,7 @@ pub const KEYS: &[KeyDoc] = &[
     key("input", "duplicates", "text", "\"reject\"", "\"reject\", \"sum\"", "two rows for the same product, month and site: reject them, or add their quantities", "\"reject\""),
     key("input", "numbers", "text", "\"plain\"", "\"plain\", \"grouped\", \"decimal-comma\"", "how numbers are written in the file", "\"plain\""),
     key("input", "encoding", "text", "\"utf-8\"", "\"utf-8\", \"latin1\", \"windows-1252\"", "text encoding of the file", "\"utf-8\""),
-    key("input", "sheet", "text", "the first sheet", "a sheet name of the workbook", "sheet to read when the input is a workbook (.xlsx, .xlsm, .xls, .ods)", "\"Consumption\""),
+    key("input", "sheet", "text", "the active sheet", "a sheet name of the workbook", "sheet to read when the input is a workbook (.xlsx, .xlsm, .xls, .ods)", "\"Consumption\""),
     key("input", "layout", "text", "\"auto\"", "\"auto\", \"long\", \"wide\"", "how the table is laid out: a row per product and month (long), a row per product (and site) and a column per month (wide), or found from the header (auto)", "\"wide\""),
     key("input", "stockout_file", "text (path)", "not set", "a CSV file or workbook", "wide layout: stockout days as a table of the same shape; relative to the folder of the configuration file", "\"stockout_days.csv\""),
     key("input", "stockout_sheet", "text", "not set", "a sheet name", "wide layout: the sheet of stockout days (of stockout_file when set, else of the input workbook)", "\"Stockout days\""),
@@ -157,7 +157,8 @@ pub struct InputSection {
     pub numbers: Option<String>,
     /// Encoding name (see [`ENCODINGS`]).
     pub encoding: Option<String>,
-    /// Sheet of a workbook input (default: the first sheet).
+    /// Sheet of a workbook input (default: the active sheet, else the
+    /// first visible one).
     pub sheet: Option<String>,
     /// Table layout name (see [`LAYOUTS`]).
     pub layout: Option<String>,
@@ -281,6 +282,17 @@ pub struct RunConfig {
     pub output: OutputSection,
     /// `[products."NAME"]` tables, by product name.
     pub products: BTreeMap<String, ProductConfig>,
+}
+
+/// The key of the `key = value` line holding byte `at`, when the line has
+/// that shape.
+fn key_before(text: &str, at: usize) -> Option<&str> {
+    let start = text.get(..at)?.rfind('\n').map_or(0, |i| i + 1);
+    let line = &text[start..];
+    let line = line.split('\n').next().unwrap_or("");
+    let (k, _) = line.split_once('=')?;
+    let k = k.trim().trim_matches('"');
+    (!k.is_empty() && k.chars().all(|c| c.is_ascii_alphanumeric() || c == '_')).then_some(k)
 }
 
 /// Serde's Rust type names in plain words.
@@ -493,11 +505,26 @@ impl RunConfig {
     /// valid (for an unknown key, the nearest valid one).
     pub fn parse(file: &str, text: &str) -> Result<RunConfig> {
         let de_err = |e: toml::de::Error| {
+            // A value of the wrong type says what the key takes.
+            let valid = e
+                .span()
+                .and_then(|sp| key_before(text, sp.start))
+                .and_then(|k| {
+                    let mut docs = KEYS.iter().filter(|d| d.key == k);
+                    match (docs.next(), docs.next()) {
+                        (Some(d), None) => Some(format!(" ({k}: {})", d.range)),
+                        _ => None,
+                    }
+                })
+                .unwrap_or_default();
             config_error(
                 file,
                 text,
                 e.span(),
-                plain_types(e.message().trim()).replace('\n', " "),
+                format!(
+                    "{}{valid}",
+                    plain_types(e.message().trim()).replace('\n', " ")
+                ),
             )
         };
         let doc = DeTable::parse(text).map_err(de_err)?;
@@ -876,7 +903,7 @@ mod tests {
 
     #[test]
     fn bad_syntax_types_and_ranges_are_located() {
-        let cases: [(&str, &str); 15] = [
+        let cases: [(&str, &str); 17] = [
             ("[projection]\nhorizon = \n", "line 2"),
             ("[projection]\nhorizon = \"12\"\n", "line 2, column 11"),
             (
@@ -921,7 +948,15 @@ mod tests {
             ),
             (
                 "[projection]\nhorizon = 99999999999999999999\n",
-                "too large; expected a whole number (0 or more)",
+                "too large; expected a whole number (0 or more) (horizon: 1 to 60)",
+            ),
+            (
+                "[projection]\nhorizon = -3\n",
+                "(horizon: 1 to 60)",
+            ),
+            (
+                "[projection]\nhorizon = \"24\"\n",
+                "(horizon: 1 to 60)",
             ),
             (
                 "[products.\"A\"]\nmax_stockout_days = 40\n",

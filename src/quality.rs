@@ -274,7 +274,12 @@ fn profile_one(
     if let Some(m) = min_rate {
         if m < 0.8 {
             reasons.push(format!(
-                "reporting rate as low as {:.0}% (mean {:.0}%)",
+                "reporting rate{} as low as {:.0}% (mean {:.0}%)",
+                if has_rate_column {
+                    ""
+                } else {
+                    " (sites that reported, of those expected; the data give no reporting rate)"
+                },
                 m * 100.0,
                 mean_rate.unwrap_or(m) * 100.0
             ));

@@ -479,6 +479,15 @@ fn a_second_run_into_a_folder_being_written_is_refused_naming_the_first() {
         .spawn()
         .unwrap();
     let me = holder.id();
+    // The holder must be running as provisio before the lock names it (the
+    // lock's check reads /proc/PID/comm); wait for that, at most 10 s.
+    let comm = || std::fs::read_to_string(format!("/proc/{me}/comm")).unwrap_or_default();
+    for _ in 0..400 {
+        if comm().trim_end() == "provisio" {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(25));
+    }
     std::fs::write(
         &lock,
         format!(
@@ -494,7 +503,13 @@ fn a_second_run_into_a_folder_being_written_is_refused_naming_the_first() {
     ] {
         let o = run_in(d, &args);
         let out = text(&o);
-        assert_eq!(o.status.code(), Some(1), "{out}");
+        assert_eq!(
+            o.status.code(),
+            Some(1),
+            "{out}\nthe holder: {:?}, /proc/{me}/comm {:?}",
+            holder.try_wait(),
+            comm()
+        );
         assert!(
             out.contains(&format!(
                 "error: another provisio run is writing o (pid {me}, started 2026-12-04T10:00:00Z); wait for it to finish, or choose another folder"
@@ -1520,6 +1535,88 @@ fn a_constant_series_is_not_called_too_short() {
         "{reason}"
     );
     assert!(!reason.contains("too short"), "{reason}");
+}
+
+/// Sites typed two ways (common practice: a site code keyed by hand) are
+/// named, and a no-break space copied from a spreadsheet is shown as an
+/// escape, so two names that print alike can be told apart.
+#[test]
+fn site_names_differing_only_in_case_and_invisible_spaces_are_named() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,site,month,consumed\n");
+    for k in 0..24 {
+        let (y, m) = (2023 + k / 12, k % 12 + 1);
+        let site = if k < 20 { "North" } else { "north" };
+        input.push_str(&format!("ORS,{site},{y}-{m:02},100\n"));
+        input.push_str(&format!("Zinc tablet,South,{y}-{m:02},50\n"));
+        input.push_str(&format!("Zinc\u{a0}tablet,South,{y}-{m:02},5\n"));
+    }
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["inspect", "in.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("sites 'North' and 'north' differ only in letter case or spacing"),
+        "{t}"
+    );
+    assert!(
+        t.contains("products 'Zinc tablet' and 'Zinc\\u{00a0}tablet' differ only"),
+        "{t}"
+    );
+}
+
+/// rejected.csv's `row` is the row as the file held it: a field with the
+/// delimiter inside keeps its quotes (RFC 4180 §2), so the row reads back
+/// as the same fields.
+#[test]
+fn a_rejected_row_keeps_its_quotes() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("in.csv"),
+        "product,site,month,consumed\n\"ORS sachet\",North,2024-04,\"1,234\"\n\"ORS sachet\",North,2024-05,12\n",
+    )
+    .unwrap();
+    let o = run_in(dir.path(), &["clean", "in.csv", "--out", "c"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let (h, rows) = read_csv_file(&dir.path().join("c/rejected.csv"));
+    let row = &rows[0][h.iter().position(|x| x == "row").unwrap()];
+    assert_eq!(row, "ORS sachet,North,2024-04,\"1,234\"");
+    let back = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .from_reader(row.as_bytes())
+        .records()
+        .next()
+        .unwrap()
+        .unwrap();
+    assert_eq!(back.len(), 4);
+    assert_eq!(&back[3], "1,234");
+}
+
+/// Without a reporting_rate column the rate shown is the share of sites
+/// that reported (common practice: reports received ÷ reports expected),
+/// and the reason says so: two sites, one silent in month 5, give 50%
+/// there and a mean of (23 × 100% + 50%) / 24, by hand 97.9%.
+#[test]
+fn a_reporting_rate_from_sites_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut input = String::from("product,site,month,consumed\n");
+    for k in 0..24 {
+        let (y, m) = (2023 + k / 12, k % 12 + 1);
+        input.push_str(&format!("ORS,North,{y}-{m:02},100\n"));
+        if k != 4 {
+            input.push_str(&format!("ORS,South,{y}-{m:02},100\n"));
+        }
+    }
+    std::fs::write(dir.path().join("in.csv"), input).unwrap();
+    let o = run_in(dir.path(), &["clean", "in.csv", "--out", "c"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let (h, rows) = read_csv_file(&dir.path().join("c/quality.csv"));
+    let col = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let reason = &rows[0][col("reasons")];
+    assert!(
+        reason.contains("reporting rate (sites that reported, of those expected; the data give no reporting rate) as low as 50% (mean 98%)"),
+        "{reason}"
+    );
 }
 
 /// Names that differ only in case or spacing are warned about, not merged

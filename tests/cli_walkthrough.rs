@@ -314,6 +314,50 @@ fn totals_rows_in_their_usual_spellings_are_not_products() {
     assert!(!rejected.contains("'Total parenteral"), "{rejected}");
 }
 
+/// A pivot export with a subtotal line under each product's sites (common
+/// practice): the subtotal is refused as a site in both layouts, so the
+/// product is the sum of its sites once (11 = 10 + 1, by hand), not twice.
+#[test]
+fn site_subtotal_rows_are_not_sites() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("wide.csv"),
+        "product,site,Jan 2025,Feb 2025,Mar 2025\nORS,North,10,20,30\nORS,South,1,2,3\nORS,Total,11,22,33\n",
+    )
+    .unwrap();
+    std::fs::write(
+        dir.path().join("long.csv"),
+        "product,site,month,consumed\nORS,North,2025-01,10\nORS,South,2025-01,1\nORS,Sub-total,2025-01,11\nORS,All sites,2025-01,11\nORS,Totalville,2025-01,5\n",
+    )
+    .unwrap();
+    for (file, want, expect) in [
+        (
+            "wide.csv",
+            "the row's site is 'Total', a subtotal",
+            [11.0, 22.0, 33.0].as_slice(),
+        ),
+        (
+            "long.csv",
+            "the row's site is 'All sites', a subtotal",
+            [16.0].as_slice(),
+        ),
+    ] {
+        let out = format!("out-{file}");
+        let o = run_in(dir.path(), &["clean", file, "--out", &out]);
+        let t = text(&o);
+        assert!(o.status.success(), "{t}");
+        assert!(t.contains(want), "{t}");
+        let cleaned = std::fs::read_to_string(dir.path().join(&out).join("cleaned.csv")).unwrap();
+        let got: Vec<f64> = cleaned
+            .lines()
+            .skip(1)
+            .map(|l| l.split(',').nth(2).unwrap().parse().unwrap())
+            .collect();
+        // A site whose name only starts with "Total" is a site (5 more).
+        assert_eq!(got, expect, "{cleaned}");
+    }
+}
+
 /// Month headers saved as spreadsheet date serial numbers (days since
 /// 1899-12-30 in the 1900 date system; 45658 is 2025-01-01, from memory of
 /// the spreadsheet convention and checked with chrono here) are refused

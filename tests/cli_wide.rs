@@ -755,3 +755,30 @@ fn a_wide_ods_made_by_odfpy_is_read_with_its_stockout_sheet() {
     );
     assert_eq!(april["rule"], "stockout-scaled");
 }
+
+#[test]
+fn a_side_table_row_with_no_product_is_named_as_merged_cells() {
+    // Common practice in exported sheets: the product is written once over
+    // its sites' rows (merged cells), so the rows below it have none. The
+    // warning must say "no product", name the site and point at the cause,
+    // not list products called ''.
+    let w = Workdir::new();
+    w.write(
+        "c.csv",
+        "product,site,2024-01,2024-02\nORS,North,100,100\nORS,South,50,50\nZinc,North,10,10\nZinc,South,5,5\n",
+    );
+    w.write(
+        "s.csv",
+        "product,site,2024-01,2024-02\nORS,North,0,0\n,South,0,0\nZinc,North,0,0\n,South,1,1\n",
+    );
+    let o = w.run(&["inspect", "c.csv", "--stockout-file", "s.csv"]);
+    let out = text(&o);
+    assert!(o.status.success(), "{out}");
+    assert!(
+        out.contains("1 pair(s) of rows name the same product and site")
+            && out.contains("no product, site 'South' on lines 3 and 5")
+            && out.contains("unmerge them and write the product on every row"),
+        "{out}"
+    );
+    assert!(!out.contains("''"), "{out}");
+}

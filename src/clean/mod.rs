@@ -263,33 +263,78 @@ pub fn clean_taking_rows(data: &mut Dataset, settings: &CheckedCleanSettings) ->
     clean_inputs(inputs, accepted, data, settings)
 }
 
-/// Products whose names differ only in letter case or spacing ("ORS" and
-/// "ors "): usually one product typed two ways, which would be forecast as
-/// two (common practice: check codes against the product list). Named,
-/// not merged: provisio does not guess which spelling is right.
+/// Products, and sites, whose names differ only in letter case or spacing
+/// ("ORS" and "ors "): usually one typed two ways, which would be forecast
+/// as two products, or counted as two sites of one (a site filled on top
+/// of its other spelling doubles the months where both appear). Common
+/// practice: check names against the master lists. Named, not merged:
+/// provisio does not guess which spelling is right.
 fn names_differing_in_case(inputs: &[ProductData]) -> Vec<String> {
-    let mut by_key: BTreeMap<String, Vec<&str>> = BTreeMap::new();
-    for p in inputs {
-        let key = p
-            .product
-            .split_whitespace()
+    let fold = |n: &str| {
+        n.split_whitespace()
             .collect::<Vec<_>>()
             .join(" ")
-            .to_lowercase();
-        by_key.entry(key).or_default().push(&p.product);
-    }
-    by_key
-        .values()
-        .filter(|names| names.len() > 1)
+            .to_lowercase()
+    };
+    let groups = |names: &mut dyn Iterator<Item = &str>| -> Vec<Vec<String>> {
+        let mut by_key: BTreeMap<String, Vec<String>> = BTreeMap::new();
+        for n in names {
+            let same = by_key.entry(fold(n)).or_default();
+            if !same.iter().any(|x| x == n) {
+                same.push(n.to_string());
+            }
+        }
+        by_key.into_values().filter(|v| v.len() > 1).collect()
+    };
+    let shown = |names: &[String]| {
+        names
+            .iter()
+            .map(|n| format!("'{}'", visible(n)))
+            .collect::<Vec<_>>()
+            .join(" and ")
+    };
+    let mut out: Vec<String> = groups(&mut inputs.iter().map(|p| p.product.as_str()))
+        .iter()
         .map(|names| {
-            let shown: Vec<String> = names.iter().map(|n| format!("'{n}'")).collect();
             format!(
                 "products {} differ only in letter case or spacing: they are forecast as {} separate products; if they are one, write its name one way throughout",
-                shown.join(" and "),
+                shown(names),
                 names.len()
             )
         })
-        .collect()
+        .collect();
+    let mut sites = inputs
+        .iter()
+        .flat_map(|p| p.sites.iter().filter_map(|s| s.site.as_deref()));
+    out.extend(groups(&mut sites).iter().map(|names| {
+        format!(
+            "sites {} differ only in letter case or spacing: they are read as {} separate sites, so a month one spelling misses may be filled on top of the other's report; if they are one, write its name one way throughout",
+            shown(names),
+            names.len()
+        )
+    }));
+    out
+}
+
+/// A name with the characters that look like others shown as escapes:
+/// spaces other than the plain one (a no-break space copied from a
+/// spreadsheet) and invisible marks, so two names that print alike can be
+/// told apart.
+pub(crate) fn visible(name: &str) -> String {
+    let mut out = String::with_capacity(name.len());
+    for c in name.chars() {
+        let odd = (c.is_whitespace() && c != ' ')
+            || matches!(
+                c,
+                '\u{200b}'..='\u{200f}' | '\u{2060}' | '\u{feff}' | '\u{00ad}'
+            );
+        if odd {
+            out.push_str(&format!("\\u{{{:04x}}}", c as u32));
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 /// Cleans the per-product series built from `data`'s `accepted` rows.

@@ -98,7 +98,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
     for p in &profiles {
         super::say!("{}: {}", truncate(&p.product, 60), p.verdict_text());
     }
-    super::say!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum)");
+    super::say!("\n(months: reported/calendar; gaps: months not reported; stockout: months with stockout days; rep. rate: mean/minimum, from the reporting_rate column, or else the share of a product's sites that reported)");
     super::note!("layout: {}", layout_text(&ds));
     print_accounting(&ds, &cleaned, 20);
     if let Some(path) = &a.csv {

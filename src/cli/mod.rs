@@ -259,7 +259,7 @@ pub struct ReadArgs {
     /// Text encoding of the file.
     #[arg(long, value_enum, default_value_t = Encoding::Utf8)]
     encoding: Encoding,
-    /// Sheet to read from a workbook (.xlsx, .xlsm, .xls, .ods); default: the first sheet.
+    /// Sheet to read from a workbook (.xlsx, .xlsm, .xls, .ods); default: the active sheet (the one the workbook opens on) when visible, else the first visible sheet.
     #[arg(long, value_name = "NAME")]
     sheet: Option<String>,
     /// How the table is laid out: long (a row per product and month), wide (a row per product, or product and site, and a column per month), or auto (found from the header).

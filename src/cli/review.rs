@@ -28,7 +28,7 @@ pub struct ReviewArgs {
     /// Also score months whose actual is mostly imputed (default: as the past run's backtest did).
     #[arg(long)]
     score_imputed: bool,
-    /// Sheet of an actuals workbook to read (default: the sheet the past run read, or the first sheet).
+    /// Sheet of an actuals workbook to read (default: the sheet the past run read, or the active sheet).
     #[arg(long, value_name = "NAME")]
     sheet: Option<String>,
     /// Actuals in the wide layout: stockout days as a table of the same shape in this file.

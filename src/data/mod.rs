@@ -60,7 +60,9 @@ pub struct RejectedRow {
     pub value: String,
     /// What was wrong and what would be valid.
     pub reason: String,
-    /// The whole row as read, fields joined by the file's delimiter.
+    /// The whole row as read, fields joined by the file's delimiter (a
+    /// field holding the delimiter, a quote or a line break quoted, so the
+    /// row reads back as the same fields).
     pub raw: String,
 }
 

@@ -39,7 +39,8 @@ pub struct ReadOptions {
     /// Latest month a row may have (the month the run happens in); rows
     /// for later months are rejected. `None`: no limit beyond the calendar's.
     pub latest_month: Option<YearMonth>,
-    /// Sheet to read from a workbook (`None`: the first sheet). Refused
+    /// Sheet to read from a workbook (`None`: the active sheet when it is
+    /// visible, else the first visible one). Refused
     /// for a CSV file.
     pub sheet: Option<String>,
     /// How much of a workbook may be unpacked and stored.
@@ -1484,6 +1485,13 @@ fn parse_row(
                     "site",
                     "",
                     format!("site is empty while the file has a site column; name the site, or put all-site totals in a file of their own{merged_hint}"),
+                ));
+            }
+            if super::wide::is_total_site(&s) {
+                return Err(problem(
+                    "site",
+                    &s,
+                    format!("the row's site is '{s}', a subtotal of the product's sites, not a site: provisio adds the sites up itself, and counting it too would double the product; delete the row (or rename it, if it is a site)"),
                 ));
             }
             Some(names.sites.get(&s))

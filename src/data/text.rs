@@ -137,14 +137,23 @@ impl<'a> Fields<'a> {
         (0..self.len()).filter_map(move |i| self.get(i))
     }
 
-    /// The row as read, fields joined by `delimiter`.
+    /// The row as read, fields joined by `delimiter`; a field holding the
+    /// delimiter, a quote or a line break is quoted as the file had it.
     pub(crate) fn joined(&self, delimiter: char) -> String {
         let mut s = String::with_capacity(self.text.len() + self.len());
         for (i, f) in self.iter().enumerate() {
             if i > 0 {
                 s.push(delimiter);
             }
-            s.push_str(f);
+            // Quoted again where the file must have quoted it (RFC 4180
+            // §2), so the row reads back as the same fields.
+            if f.contains([delimiter, '"', '\n', '\r']) {
+                s.push('"');
+                s.push_str(&f.replace('"', "\"\""));
+                s.push('"');
+            } else {
+                s.push_str(f);
+            }
         }
         s
     }

@@ -57,12 +57,33 @@ const TOTAL_NAMES: [&str; 16] = [
 /// spreadsheet exports: pivot tables and hand-made sheets add a row of
 /// totals under the products). Case, spaces and punctuation are ignored.
 pub(crate) fn is_total_name(name: &str) -> bool {
-    let key: String = name
-        .chars()
+    TOTAL_NAMES.contains(&total_key(name).as_str())
+}
+
+/// Site names that mark the sum of the other sites' rows, besides
+/// [`TOTAL_NAMES`], written as [`total_key`] writes them.
+const ALL_SITES_NAMES: [&str; 6] = [
+    "allsites",
+    "allfacilities",
+    "allhealthfacilities",
+    "alldistricts",
+    "allregions",
+    "sitestotal",
+];
+
+/// Whether a site name marks a subtotal of the product's sites (common
+/// practice in pivot exports: a `Total` or `All sites` line under each
+/// product's sites), which counted as a site would double the product.
+pub(crate) fn is_total_site(name: &str) -> bool {
+    let key = total_key(name);
+    TOTAL_NAMES.contains(&key.as_str()) || ALL_SITES_NAMES.contains(&key.as_str())
+}
+
+fn total_key(name: &str) -> String {
+    name.chars()
         .filter(|c| c.is_alphanumeric())
         .flat_map(char::to_lowercase)
-        .collect();
-    TOTAL_NAMES.contains(&key.as_str())
+        .collect()
 }
 
 /// One month column of a wide header.
@@ -583,6 +604,7 @@ impl Side {
         }
         let mut by_key = HashMap::new();
         let mut twice = Vec::new();
+        let mut blank_product = false;
         for i in at + 1..grid.rows.len() {
             let row = grid.row(i);
             if row.is_blank() {
@@ -590,22 +612,36 @@ impl Side {
             }
             let key = key_of(&row, &header);
             if let Some(&first) = by_key.get(&key) {
+                let name = match (key.0.is_empty(), key.1.is_empty()) {
+                    (true, true) => "no product".to_string(),
+                    (true, false) => format!("no product, site '{}'", key.1),
+                    (false, true) => format!("'{}'", key.0),
+                    (false, false) => format!("'{}', site '{}'", key.0, key.1),
+                };
                 twice.push(format!(
-                    "'{}' on {unit}s {} and {}",
-                    key.0,
+                    "{name} on {unit}s {} and {}",
                     grid.line(first),
                     grid.line(i)
                 ));
+                if key.0.is_empty() {
+                    blank_product = true;
+                }
             } else {
                 by_key.insert(key, i);
             }
         }
         if !twice.is_empty() {
             warnings.push(format!(
-                "{}: {what}: {} product(s) have two rows, and only the first is used: {}",
+                "{}: {what}: {} pair(s) of rows name the same product{}, and only the first of each is used: {}{}",
                 grid.name,
                 twice.len(),
-                listed(&twice)
+                if header.site.is_some() { " and site" } else { "" },
+                listed(&twice),
+                if blank_product {
+                    "; rows with no product are usually merged cells (a product written once over its sites' rows): unmerge them and write the product on every row"
+                } else {
+                    ""
+                }
             ));
         }
         let months: HashMap<YearMonth, usize> = header
@@ -667,16 +703,29 @@ impl Side {
                     format!(", site '{s}'")
                 };
                 let unit = if self.grid.in_sheet { "row" } else { "line" };
-                format!("'{p}'{site} ({unit} {})", self.grid.line(i))
+                let product = if p.is_empty() {
+                    "no product".to_string()
+                } else {
+                    format!("'{p}'")
+                };
+                format!("{product}{site} ({unit} {})", self.grid.line(i))
             })
             .collect();
+        let blank = rows
+            .iter()
+            .any(|&i| key_of(&self.grid.row(i), &self.header).0.is_empty());
         warnings.push(format!(
-            "{}: {}: {} row(s) match no product{} of the consumption table, and their values are not used: {}",
+            "{}: {}: {} row(s) match no product{} of the consumption table, and their values are not used: {}{}",
             self.grid.name,
             self.what,
             rows.len(),
             if self.header.site.is_some() { " and site" } else { "" },
-            listed(&names)
+            listed(&names),
+            if blank {
+                "; rows with no product are usually merged cells: unmerge them and write the product on every row"
+            } else {
+                ""
+            }
         ));
     }
 }
@@ -811,6 +860,7 @@ impl<'o> WideReader<'o> {
         let site = h.site.map_or(Cell::Empty, |s| row.cell(s));
         let key = key_of(row, h);
         let total_row = is_total_name(&key.0);
+        let total_site = !total_row && is_total_site(&key.1);
         // The companion row of this product (and site), per companion.
         let stock_side = self.side("stockout days");
         let rate_side = self.side("reporting rates");
@@ -819,7 +869,7 @@ impl<'o> WideReader<'o> {
             let at = side.by_key.get(&key).copied();
             match at {
                 Some(i) => side.matched[i] = true,
-                None if !total_row && !key.0.is_empty() => {
+                None if !total_row && !total_site && !key.0.is_empty() => {
                     let site = if key.1.is_empty() {
                         String::new()
                     } else {
@@ -866,6 +916,19 @@ impl<'o> WideReader<'o> {
                     format!(
                         "the row's product is '{}', a totals row of the table, not a product: provisio adds the products up itself; delete the row (or rename it, if it is a product)",
                         key.0
+                    ),
+                    raw(),
+                );
+                continue;
+            }
+            if total_site {
+                self.collector.reject(
+                    line,
+                    Some(month.header.clone()),
+                    consumed.shown(),
+                    format!(
+                        "the row's site is '{}', a subtotal of the product's sites, not a site: provisio adds the sites up itself, and counting it too would double the product; delete the row (or rename it, if it is a site)",
+                        key.1
                     ),
                     raw(),
                 );
