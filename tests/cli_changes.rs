@@ -779,3 +779,90 @@ fn crosscheck_and_the_report_use_the_adjusted_forecast() {
     assert!(!svg_of("product-a").contains("adjusted forecast (known changes)"));
     assert!(svg_of("new-product-h").contains("adjusted forecast (known changes)"));
 }
+
+/// With known changes the Annual totals sheet totals the adjusted forecast
+/// and says so in its header and note; its packs are of that total, while
+/// forecast.csv's `packs` column stays that of the statistical forecast
+/// beside it (README, "Working in spreadsheets").
+#[test]
+fn the_annual_totals_sheet_is_of_the_adjusted_forecast() {
+    use calamine::{Data, DataType, Reader};
+    let w = Workdir::new();
+    w.write(
+        "changes.csv",
+        format!("{HEADER}Product D,phase-out,2027-01,2027-04,,,,,phase-out\n"),
+    );
+    w.write(
+        "run.toml",
+        "[products.\"Product D\"]\nunits = \"bottle\"\npack_size = 10\n",
+    );
+    w.write("data.csv", data(&[]));
+    w.write("pins.csv", pins());
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--config",
+        "run.toml",
+        "--out",
+        "out",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+        "--changes",
+        "changes.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    // forecast.csv: packs = statistical forecast ÷ pack size = 100 ÷ 10.
+    let f = forecast_rows(&w, "out");
+    let d = &f[&("Product D".to_string(), "2027-02".to_string())];
+    close(num(d, "adjusted"), 50.0, "D Feb adjusted");
+    close(num(d, "packs"), 10.0, "D Feb packs");
+
+    let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+    let sheet = book.worksheet_range("Annual totals").expect("sheet");
+    let note = sheet.get((0, 0)).map(|c| c.to_string()).unwrap_or_default();
+    assert!(
+        note.starts_with("adjusted forecast (known changes applied"),
+        "{note}"
+    );
+    let head = (0..sheet.height())
+        .find(|&r| sheet.get((r, 0)) == Some(&Data::String("product".into())))
+        .expect("header");
+    let header: Vec<String> = (0..sheet.width())
+        .map(|c| {
+            sheet
+                .get((head, c))
+                .map(|d| d.to_string())
+                .unwrap_or_default()
+        })
+        .collect();
+    let col = |n: &str| {
+        header
+            .iter()
+            .position(|h| h == n)
+            .unwrap_or_else(|| panic!("{n}: {header:?}"))
+    };
+    let row = (head + 1..sheet.height())
+        .find(|&r| {
+            sheet.get((r, 0)) == Some(&Data::String("Product D".into()))
+                && sheet
+                    .get((r, col("year")))
+                    .map(|d| d.to_string())
+                    .as_deref()
+                    == Some("2027")
+        })
+        .expect("D 2027");
+    let cell = |c: usize| {
+        sheet
+            .get((row, c))
+            .and_then(|d| d.as_f64())
+            .unwrap_or(f64::NAN)
+    };
+    // 2027-01 to 2027-10 adjusted: 75 + 50 + 25 + 0 × 7 = 150 (the
+    // statistical total would be 10 × 100 = 1,000); packs 150 ÷ 10 = 15.
+    close(cell(col("adjusted_total")), 150.0, "D 2027 adjusted total");
+    close(cell(col("months")), 10.0, "D 2027 months");
+    close(cell(col("packs")), 15.0, "D 2027 packs");
+}

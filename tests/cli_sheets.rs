@@ -745,3 +745,344 @@ fn old_style_xls_made_by_xlwt_is_read() {
         ]
     );
 }
+
+/// The number format of every cell of `sheet` in the xlsx file `path` that
+/// holds a number: (row, column) from zero → format code. Read from the
+/// file's XML (the Office Open XML parts `xl/workbook.xml`, its
+/// relationships, `xl/styles.xml` and the sheet), since calamine gives a
+/// cell's value but not its format.
+fn number_formats(path: &Path, sheet: &str) -> std::collections::HashMap<(usize, usize), String> {
+    use quick_xml::events::Event;
+    let mut zip = zip::ZipArchive::new(std::fs::File::open(path).unwrap()).unwrap();
+    let mut part = |name: &str| {
+        let mut s = String::new();
+        std::io::Read::read_to_string(&mut zip.by_name(name).unwrap(), &mut s).unwrap();
+        s
+    };
+    // Each start or empty element of `xml` as its name and attributes.
+    fn elements(xml: &str) -> Vec<(String, Vec<(String, String)>)> {
+        let mut r = quick_xml::Reader::from_str(xml);
+        let mut out = Vec::new();
+        loop {
+            match r.read_event().unwrap() {
+                Event::Start(e) | Event::Empty(e) => {
+                    let attrs = e
+                        .attributes()
+                        .map(|a| {
+                            let a = a.unwrap();
+                            let k = String::from_utf8(a.key.as_ref().to_vec()).unwrap();
+                            (
+                                k,
+                                a.decode_and_unescape_value(r.decoder())
+                                    .unwrap()
+                                    .into_owned(),
+                            )
+                        })
+                        .collect();
+                    out.push((
+                        String::from_utf8(e.name().as_ref().to_vec()).unwrap(),
+                        attrs,
+                    ));
+                }
+                Event::End(e) if e.name().as_ref() == b"cellXfs" => {
+                    out.push(("/cellXfs".to_string(), Vec::new()));
+                }
+                Event::Eof => break,
+                _ => {}
+            }
+        }
+        out
+    }
+    let attr =
+        |a: &[(String, String)], k: &str| a.iter().find(|(n, _)| n == k).map(|(_, v)| v.clone());
+    let rid = elements(&part("xl/workbook.xml"))
+        .into_iter()
+        .find(|(n, a)| n == "sheet" && attr(a, "name").as_deref() == Some(sheet))
+        .and_then(|(_, a)| attr(&a, "r:id"))
+        .unwrap_or_else(|| panic!("no sheet {sheet}"));
+    let target = elements(&part("xl/_rels/workbook.xml.rels"))
+        .into_iter()
+        .find(|(_, a)| attr(a, "Id").as_deref() == Some(rid.as_str()))
+        .and_then(|(_, a)| attr(&a, "Target"))
+        .unwrap();
+    // Built-in formats used here (ECMA-376 part 1, 18.8.30 numFmt).
+    let mut codes: std::collections::HashMap<String, String> = [
+        ("0", "General"),
+        ("1", "0"),
+        ("2", "0.00"),
+        ("3", "#,##0"),
+        ("4", "#,##0.00"),
+    ]
+    .iter()
+    .map(|(k, v)| (k.to_string(), v.to_string()))
+    .collect();
+    let mut xfs: Vec<String> = Vec::new();
+    let mut in_xfs = false;
+    for (n, a) in elements(&part("xl/styles.xml")) {
+        match n.as_str() {
+            "numFmt" => {
+                codes.insert(
+                    attr(&a, "numFmtId").unwrap(),
+                    attr(&a, "formatCode").unwrap(),
+                );
+            }
+            "cellXfs" => in_xfs = true,
+            "/cellXfs" => in_xfs = false,
+            "xf" if in_xfs => xfs.push(attr(&a, "numFmtId").unwrap_or_else(|| "0".into())),
+            _ => {}
+        }
+    }
+    let mut out = std::collections::HashMap::new();
+    for (n, a) in elements(&part(&format!("xl/{}", target.trim_start_matches("/xl/")))) {
+        if n != "c" || attr(&a, "t").is_some_and(|t| t != "n") {
+            continue;
+        }
+        let r = attr(&a, "r").unwrap();
+        let letters: String = r.chars().take_while(char::is_ascii_uppercase).collect();
+        let col = letters
+            .bytes()
+            .fold(0usize, |c, b| c * 26 + (b - b'A') as usize + 1)
+            - 1;
+        let row: usize = r[letters.len()..].parse::<usize>().unwrap() - 1;
+        let xf: usize = attr(&a, "s").map_or(0, |s| s.parse().unwrap());
+        out.insert((row, col), codes[&xfs[xf]].clone());
+    }
+    out
+}
+
+/// `v` as a number format with decimals shows it: rounded, as spreadsheet
+/// programs round, on its decimal digits and half away from zero (1.3575
+/// shows as 1.358 with three decimals, though the nearest double is a
+/// little below), to as many decimals as the format has `0` and `#` after
+/// its point, trailing zeros dropped down to its `0`s; no thousands
+/// separators.
+fn shown(v: f64, format: &str) -> String {
+    let after = format.split_once('.').map_or("", |(_, d)| d);
+    let (min, max) = (
+        after.chars().filter(|&c| c == '0').count(),
+        after.chars().filter(|&c| c == '0' || c == '#').count(),
+    );
+    // The shortest decimal text of `v` (Rust writes no exponent).
+    let text = format!("{}", v.abs());
+    let (int, frac) = text.split_once('.').unwrap_or((&text, ""));
+    let mut digits: Vec<u8> = int
+        .bytes()
+        .chain(frac.bytes().chain(std::iter::repeat(b'0')).take(max))
+        .collect();
+    if frac.as_bytes().get(max).is_some_and(|&d| d >= b'5') {
+        let mut i = digits.len();
+        loop {
+            if i == 0 {
+                digits.insert(0, b'1');
+                break;
+            }
+            i -= 1;
+            if digits[i] == b'9' {
+                digits[i] = b'0';
+            } else {
+                digits[i] += 1;
+                break;
+            }
+        }
+    }
+    let split = digits.len() - max;
+    let mut decimals = digits.split_off(split);
+    while decimals.len() > min && decimals.last() == Some(&b'0') {
+        decimals.pop();
+    }
+    let mut s = String::from_utf8(digits).unwrap();
+    if !decimals.is_empty() {
+        s.push('.');
+        s.push_str(std::str::from_utf8(&decimals).unwrap());
+    }
+    if v < 0.0 {
+        s.insert(0, '-');
+    }
+    s
+}
+
+/// Every number of the workbook's tables (on the demo with its known
+/// changes and its supply plan, so every table sheet is there) is a number
+/// cell with a number format that shows what matters in it: a spreadsheet
+/// sums a number cell and not a number stored as text (common practice:
+/// a planner totals columns), and a format that rounds away the digits that
+/// tell two values apart hides them.
+#[test]
+fn every_number_in_the_workbook_tables_is_a_number_cell_with_a_fitting_format() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = |f: &str| repo(&format!("datasets/demo/{f}")).display().to_string();
+    let o = run_in(
+        dir.path(),
+        &[
+            "forecast",
+            &demo("consumption.csv"),
+            "--config",
+            &demo("run.toml"),
+            "--changes",
+            &demo("changes.csv"),
+            "--out",
+            "out",
+            "--no-report",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let o = run_in(
+        dir.path(),
+        &[
+            "plan",
+            "out",
+            "--stock",
+            &demo("stock.csv"),
+            "--on-order",
+            &demo("on_order.csv"),
+            "--no-report",
+        ],
+    );
+    assert!(o.status.success(), "{}", text(&o));
+    let xlsx = dir.path().join("out/forecast.xlsx");
+    let mut book = calamine::open_workbook_auto(&xlsx).unwrap();
+    let names = book.sheet_names();
+    // sheet → column → (each value below the header with its number format,
+    // the one format of its number cells).
+    type Column = (Vec<(Data, Option<String>)>, String);
+    let mut tables: std::collections::HashMap<String, Vec<(String, Column)>> =
+        std::collections::HashMap::new();
+    for sheet in names
+        .iter()
+        .filter(|s| *s != "Forecast" && *s != "Run parameters")
+    {
+        let range = book.worksheet_range(sheet).unwrap();
+        let (top, left) = range.start().unwrap();
+        assert_eq!(left, 0, "{sheet}");
+        let formats = number_formats(&xlsx, sheet);
+        // The header: the first row with more than one cell (a note above
+        // it is a single cell).
+        let head = (0..range.height())
+            .find(|&r| {
+                (0..range.width())
+                    .filter(|&c| range.get((r, c)).is_some_and(|d| *d != Data::Empty))
+                    .count()
+                    > 1
+            })
+            .unwrap_or_else(|| panic!("{sheet}: no header"));
+        let mut columns = Vec::new();
+        for c in 0..range.width() {
+            let name = range.get((head, c)).unwrap().to_string();
+            let mut cells = Vec::new();
+            let mut format = String::new();
+            for r in head + 1..range.height() {
+                let v = range.get((r, c)).cloned().unwrap_or(Data::Empty);
+                let f = formats.get(&(top as usize + r, c)).cloned();
+                match &v {
+                    Data::String(s) => assert!(
+                        s.trim().parse::<f64>().is_err(),
+                        "{sheet}, {name}, row {}: the number {s} is stored as text",
+                        top as usize + r + 1
+                    ),
+                    Data::Float(_) | Data::Int(_) => {
+                        let f = f.clone().expect("a number cell has a format");
+                        // pack_size is the one column shown as written
+                        // (General): a pack holds 100 or 2.5.
+                        assert!(
+                            f != "General" || name == "pack_size",
+                            "{sheet}, {name}: General format"
+                        );
+                        assert!(
+                            format.is_empty() || format == f,
+                            "{sheet}, {name}: {format} and {f}"
+                        );
+                        format = f;
+                    }
+                    _ => {}
+                }
+                cells.push((v, f));
+            }
+            columns.push((name, (cells, format)));
+        }
+        tables.insert(sheet.to_string(), columns);
+    }
+    let col = |sheet: &str, name: &str| -> &Column {
+        &tables[sheet]
+            .iter()
+            .find(|(n, _)| n == name)
+            .unwrap_or_else(|| panic!("{sheet}: no column {name}"))
+            .1
+    };
+    let number = |d: &Data| match d {
+        Data::Float(x) => *x,
+        Data::Int(x) => *x as f64,
+        other => panic!("{other:?} is not a number"),
+    };
+
+    // Known changes: the totals are quantities, as in changes_summary.csv.
+    let (_, summary) = read_csv_file(&dir.path().join("out/changes_summary.csv"));
+    for name in [
+        "change_months_1_12",
+        "change_months_1_24",
+        "statistical_months_1_12",
+        "adjusted_months_1_12",
+        "statistical_months_1_24",
+        "adjusted_months_1_24",
+    ] {
+        let (cells, format) = col("Known changes", name);
+        assert_eq!(format, "#,##0", "{name}");
+        assert_eq!(cells.len(), summary.len());
+    }
+    assert_eq!(col("Known changes", "change_row").1, "0");
+
+    // Orders: the unit cost as shown is the unit cost, so quantity × unit
+    // cost as shown = cost (orders.csv rounds the cost to the cent).
+    let (cells, format) = col("Orders", "unit_cost");
+    let quantity = &col("Orders", "quantity").0;
+    let cost = &col("Orders", "cost").0;
+    let mut small = 0;
+    for (k, (v, _)) in cells.iter().enumerate() {
+        let price = number(v);
+        let as_shown: f64 = shown(price, format).parse().unwrap();
+        assert_eq!(as_shown, price, "{price} shows as {}", shown(price, format));
+        let want = (number(&quantity[k].0) * as_shown * 100.0).round() / 100.0;
+        assert!((number(&cost[k].0) - want).abs() < 1e-6, "row {k}");
+        small += usize::from(price < 0.1);
+    }
+    // The demo's condoms cost 0.03 and oral rehydration salts 0.08.
+    assert!(small > 0);
+
+    // Selection: the scores as shown are the ones the reason quotes, so the
+    // chosen model's MASE 0.655 and the runner-up's 0.677 show apart.
+    let (h, sel) = read_csv_file(&dir.path().join("out/selection.csv"));
+    let at = |n: &str| h.iter().position(|x| x == n).unwrap();
+    let mut quoted = 0;
+    for (k, r) in sel.iter().enumerate() {
+        let reason = &r[at("reason")];
+        if !reason.starts_with("the default") {
+            continue;
+        }
+        let by = &r[at("selected_by")];
+        let (cells, format) = col("Selection", &by.to_lowercase());
+        let chosen = shown(number(&cells[k].0), format);
+        assert!(
+            reason.contains(&format!("{by} {chosen} ")),
+            "{chosen}: {reason}"
+        );
+        let (cells, format) = col("Selection", "runner_up_score");
+        let runner = shown(number(&cells[k].0), format);
+        let other = format!("{} ({runner})", &r[at("runner_up")]);
+        assert!(reason.contains(&other), "{other}: {reason}");
+        quoted += 1;
+    }
+    assert!(quoted > 5, "{quoted}");
+    assert_eq!(col("Selection", "rmsse").1, "#,##0.000");
+    assert_eq!(col("Selection", "zero_actuals").1, "0");
+    assert_eq!(col("Selection", "mape_pct").1, "#,##0.0");
+
+    // Years are numbers; the all-years row of Order totals says `all`.
+    let (years, format) = col("Annual totals", "year");
+    assert_eq!(format, "0");
+    assert!(years.iter().all(|(v, _)| number(v) >= 2026.0));
+    let (years, format) = col("Order totals", "year");
+    assert_eq!(format, "0");
+    assert!(years.iter().any(|(v, _)| *v == Data::String("all".into())));
+    assert!(years
+        .iter()
+        .any(|(v, _)| matches!(v, Data::Float(_) | Data::Int(_))));
+}

@@ -29,17 +29,45 @@ pub struct WorkbookForecast {
     pub bridged: usize,
 }
 
-/// How a table column is written.
+/// How a table column is written. Every kind but `Text` writes a value
+/// that reads as a number as a number cell (a spreadsheet can sum it), and
+/// any other value, such as `all` in a year column, as a string cell.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum ColumnKind {
     /// Text, written as a string cell.
     Text,
-    /// A quantity: a number shown with thousands separators, no decimals.
+    /// A quantity: thousands separators, no decimals (`#,##0`).
     Quantity,
-    /// A score or share: a number shown with one decimal.
+    /// A percentage, share or months of stock: one decimal (`#,##0.0`).
     Decimal,
-    /// A count or line number: a whole number without separators.
+    /// A backtest score compared between models (MASE, RMSSE, RMSE, the
+    /// runner-up's score): three decimals (`#,##0.000`), as the selection
+    /// reason quotes them, so two close scores show apart.
+    Score,
+    /// A unit price: two to four decimals (`#,##0.00##`), so a price such
+    /// as 0.03 shows as written and quantity × price = cost can be read.
+    Price,
+    /// A number shown as written, with its decimals if it has any (the
+    /// spreadsheet's General format): pack sizes, and a column whose
+    /// values are all numbers but whose name has no kind.
+    Plain,
+    /// A count, line number or year: a whole number without separators (`0`).
     Count,
+}
+
+impl ColumnKind {
+    /// The number format of the kind's number cells (`None`: text).
+    pub fn number_format(self) -> Option<&'static str> {
+        match self {
+            ColumnKind::Text => None,
+            ColumnKind::Quantity => Some("#,##0"),
+            ColumnKind::Decimal => Some("#,##0.0"),
+            ColumnKind::Score => Some("#,##0.000"),
+            ColumnKind::Price => Some("#,##0.00##"),
+            ColumnKind::Plain => Some("General"),
+            ColumnKind::Count => Some("0"),
+        }
+    }
 }
 
 /// A table copied into a sheet (a CSV output, read back).
@@ -117,7 +145,6 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
     let note = Format::new()
         .set_italic()
         .set_font_color(Color::RGB(0x555555));
-    let quantity = Format::new().set_num_format("#,##0");
     let point = Format::new().set_num_format("#,##0").set_bold();
     let range = Format::new()
         .set_num_format("#,##0")
@@ -131,8 +158,6 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
         .clone()
         .set_italic()
         .set_background_color(Color::RGB(0xEEEEEE));
-    let decimal = Format::new().set_num_format("#,##0.0");
-    let count = Format::new().set_num_format("0");
     let bold = Format::new().set_bold();
 
     // Forecast: a block of five rows per product (point, then the 80% and
@@ -242,27 +267,26 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
         }
         r += 1;
         let mut widths: Vec<usize> = t.columns.iter().map(|(h, _)| h.chars().count()).collect();
+        let formats: Vec<Option<Format>> = t
+            .columns
+            .iter()
+            .map(|(_, kind)| {
+                kind.number_format()
+                    .map(|f| Format::new().set_num_format(f))
+            })
+            .collect();
         for values in &t.rows {
-            for (c, (v, (_, kind))) in values.iter().zip(&t.columns).enumerate() {
+            for (c, v) in values.iter().take(t.columns.len()).enumerate() {
                 let col = c as u16;
                 if v.is_empty() {
                     continue;
                 }
-                let number = match kind {
-                    ColumnKind::Text => None,
-                    _ => v.parse::<f64>().ok().filter(|x| x.is_finite()),
-                };
-                match (number, kind) {
-                    (Some(x), ColumnKind::Quantity) => {
-                        ws.write_number_with_format(r, col, x, &quantity)?;
+                let number = v.trim().parse::<f64>().ok().filter(|x| x.is_finite());
+                match (number, &formats[c]) {
+                    (Some(x), Some(f)) => {
+                        ws.write_number_with_format(r, col, x, f)?;
                     }
-                    (Some(x), ColumnKind::Decimal) => {
-                        ws.write_number_with_format(r, col, x, &decimal)?;
-                    }
-                    (Some(x), _) => {
-                        ws.write_number_with_format(r, col, x, &count)?;
-                    }
-                    (None, _) => {
+                    _ => {
                         ws.write_string(r, col, cell_text(v))?;
                     }
                 }

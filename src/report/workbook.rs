@@ -19,15 +19,24 @@ pub const WORKBOOK_FILE: &str = "forecast.xlsx";
 /// them with formula text quoted, which the workbook does not need.
 const INPUT_TEXT: [&str; 4] = ["product", "site", "value", "row"];
 
-fn kind_of(column: &str) -> ColumnKind {
-    match column {
-        "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" | "adjustments" => {
-            ColumnKind::Count
-        }
-        "before" | "after" | "rmse" => ColumnKind::Quantity,
-        // The supply plan (plan.csv, orders.csv, order_totals.csv) and the
-        // annual totals.
-        "opening"
+/// How a column of a CSV output is shown, by its name; `None` for a name
+/// not listed (see [`column_kinds`]).
+fn kind_of(column: &str) -> Option<ColumnKind> {
+    use ColumnKind::{Count, Decimal, Plain, Price, Quantity, Score, Text};
+    let kind = match column {
+        // Counts, line numbers and calendar years.
+        "line" | "points" | "sites" | "months" | "longest_gap" | "horizon" | "adjustments"
+        | "orders" | "zero_actuals" | "change_row" | "year" => Count,
+        // Scores the selection compares between models.
+        "mase" | "rmsse" | "rmse" | "runner_up_score" => Score,
+        "unit_cost" => Price,
+        "pack_size" => Plain,
+        "months_of_stock" | "min_months" | "max_months" | "emergency_months" => Decimal,
+        // Quantities: adjustments, the supply plan (plan.csv, orders.csv,
+        // order_totals.csv) and the annual totals.
+        "before"
+        | "after"
+        | "opening"
         | "consumption"
         | "arrivals_on_order"
         | "arrivals_planned"
@@ -43,17 +52,63 @@ fn kind_of(column: &str) -> ColumnKind {
         | "quantity"
         | "packs"
         | "cost"
-        | "total" => ColumnKind::Quantity,
-        "months_of_stock" | "min_months" | "max_months" | "emergency_months" | "unit_cost"
-        | "pack_size" => ColumnKind::Decimal,
-        "orders" => ColumnKind::Count,
-        c if c.starts_with("months_") => ColumnKind::Count,
-        c if c.starts_with("amc_") || c.starts_with("total_") => ColumnKind::Quantity,
-        c if c.ends_with("_pct") || c == "mase" || c == "rmsse" || c == "runner_up_score" => {
-            ColumnKind::Decimal
+        | "total"
+        | "adjusted_total" => Quantity,
+        // Names, months, flags and explanations.
+        "product" | "site" | "value" | "row" | "file" | "column" | "reason" | "sheet" | "cell"
+        | "month" | "first_month" | "last_month" | "amc_from" | "amc_to" | "order_month"
+        | "arrival_month" | "covers_to" | "within_lead_time" | "flag" | "rule" | "kind"
+        | "new_product" | "note" | "chosen_model" | "members" | "pinned" | "best_model"
+        | "selected_by" | "runner_up" | "backtested" | "ranges" | "warnings" | "outlier_months"
+        | "verdict" | "reasons" | "units" | "model" | "status" => Text,
+        c if c.ends_with("_pct") => Decimal,
+        c if c.starts_with("months_") => Count,
+        // amc_last_12, total_months_1_12, and the known changes' totals
+        // (change_months_1_12, statistical_months_1_24, adjusted_months_1_24).
+        c if [
+            "amc_",
+            "total_",
+            "change_months_",
+            "statistical_months_",
+            "adjusted_months_",
+        ]
+        .iter()
+        .any(|p| c.starts_with(p)) =>
+        {
+            Quantity
         }
-        _ => ColumnKind::Text,
-    }
+        _ => return None,
+    };
+    Some(kind)
+}
+
+/// The kind of each column of a table: by its name, or for a name
+/// [`kind_of`] does not know, a plain number when every value given reads
+/// as one (so a column new to a CSV output is not numbers stored as text),
+/// otherwise text.
+fn column_kinds(header: &[String], rows: &[Vec<String>]) -> Vec<(String, ColumnKind)> {
+    header
+        .iter()
+        .enumerate()
+        .map(|(i, h)| {
+            let kind = kind_of(h).unwrap_or_else(|| {
+                let mut given = rows
+                    .iter()
+                    .filter_map(|r| r.get(i))
+                    .map(|v| v.trim())
+                    .filter(|v| !v.is_empty())
+                    .peekable();
+                let numbers = given.peek().is_some()
+                    && given.all(|v| v.parse::<f64>().is_ok_and(f64::is_finite));
+                if numbers {
+                    ColumnKind::Plain
+                } else {
+                    ColumnKind::Text
+                }
+            });
+            (h.clone(), kind)
+        })
+        .collect()
 }
 
 /// Positions of the columns in `header` whose text comes from the input.
@@ -92,7 +147,7 @@ fn table(dir: &Path, file: &str, sheet: &str) -> Result<Option<WorkbookTable>> {
     });
     Ok(Some(WorkbookTable {
         sheet: sheet.to_string(),
-        columns: header.iter().map(|h| (h.clone(), kind_of(h))).collect(),
+        columns: column_kinds(&header, &rows),
         rows,
         note,
     }))
@@ -160,13 +215,13 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
     if total <= limit {
         return Ok(Some(WorkbookTable {
             sheet: "Adjustments".to_string(),
-            columns: header.iter().map(|h| (h.clone(), kind_of(h))).collect(),
+            columns: column_kinds(&header, &rows),
             rows,
             note: None,
         }));
     }
     drop(rows);
-    let columns = [
+    let columns: [&str; 7] = [
         "product",
         "rule",
         "adjustments",
@@ -175,7 +230,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
         "before",
         "after",
     ];
-    let rows = order
+    let rows: Vec<Vec<String>> = order
         .into_iter()
         .map(|k| {
             let (n, first, last, b, a) = sums.remove(&k).unwrap_or_default();
@@ -192,7 +247,7 @@ fn adjustments(dir: &Path, limit: usize) -> Result<Option<WorkbookTable>> {
         .collect();
     Ok(Some(WorkbookTable {
         sheet: "Adjustments".to_string(),
-        columns: columns.iter().map(|h| (h.to_string(), kind_of(h))).collect(),
+        columns: column_kinds(&columns.map(String::from), &rows),
         rows,
         note: Some(format!(
             "{total} adjustments, more than the {limit} rows this sheet lists one by one: one row per product and rule here, before and after as totals (a blank value counts as nothing); {FILE} lists each adjustment"
@@ -477,11 +532,13 @@ type YearSum = (usize, f64, String, String);
 
 /// The "Annual totals" sheet from `forecast.csv`'s header and rows: per
 /// product (and site, when given) and calendar year, the months forecast,
-/// the total forecast (the adjusted one when the run applied known
-/// changes), and in packs where the run configuration gave a pack size.
+/// the total forecast (the adjusted one, under the header
+/// `adjusted_total`, when the run applied known changes), and in packs of
+/// that total where the run configuration gave a pack size.
 fn annual_totals(header: &[String], rows: &[Vec<String>]) -> WorkbookTable {
     let at = |name: &str| header.iter().position(|h| h == name);
-    let point = at("adjusted").or_else(|| at("forecast"));
+    let adjusted = at("adjusted");
+    let point = adjusted.or_else(|| at("forecast"));
     let (product, site, month) = (at("product"), at("site"), at("month"));
     let (units, pack) = (at("units"), at("pack_size"));
     let get = |r: &Vec<String>, c: Option<usize>| -> String {
@@ -533,23 +590,36 @@ fn annual_totals(header: &[String], rows: &[Vec<String>]) -> WorkbookTable {
             ])
         })
         .collect();
+    use ColumnKind::{Count, Decimal, Plain, Quantity, Text};
+    let total = if adjusted.is_some() {
+        "adjusted_total"
+    } else {
+        "total"
+    };
+    // Packs are a tenth of a pack here (a share of the year's total), not
+    // the whole packs of an order.
     let columns = [
-        "product",
-        "site",
-        "year",
-        "months",
-        "total",
-        "units",
-        "pack_size",
-        "packs",
+        ("product", Text),
+        ("site", Text),
+        ("year", Count),
+        ("months", Count),
+        (total, Quantity),
+        ("units", Text),
+        ("pack_size", Plain),
+        ("packs", Decimal),
     ];
+    let what = if adjusted.is_some() {
+        "adjusted forecast (known changes applied; the statistical forecast of a product no change touches)"
+    } else {
+        "forecast"
+    };
     WorkbookTable {
         sheet: "Annual totals".to_string(),
-        columns: columns.iter().map(|c| (c.to_string(), kind_of(c))).collect(),
+        columns: columns.iter().map(|(c, k)| (c.to_string(), *k)).collect(),
         rows,
-        note: Some(
-            "forecast per calendar year (a year the horizon covers only in part says how many months); packs = total ÷ pack size, where the run configuration gave one".to_string(),
-        ),
+        note: Some(format!(
+            "{what} per calendar year (a year the horizon covers only in part says how many months); packs = {total} ÷ pack size, where the run configuration gave one"
+        )),
     }
 }
 
@@ -574,6 +644,33 @@ mod tests {
         A,S1,2024-05,6,20,25,reporting-scaled,r\n\
         '=B,S2,2024-02,3,5,,stockout-missing,r\n\
         A,S2,2024-04,5,1,2,reporting-scaled,r\n";
+
+    #[test]
+    fn a_column_without_a_named_kind_is_a_number_when_its_values_are() {
+        let header: Vec<String> = ["product", "new_count", "new_label", "new_empty", "year"]
+            .map(String::from)
+            .to_vec();
+        let rows = vec![
+            ["12", "3", "4", "", "2026"].map(String::from).to_vec(),
+            ["B", "4.5", "n/a", "", "all"].map(String::from).to_vec(),
+        ];
+        let kinds: Vec<ColumnKind> = column_kinds(&header, &rows)
+            .into_iter()
+            .map(|(_, k)| k)
+            .collect();
+        // A product named 12 stays a name; a year column keeps its kind
+        // with an `all` row (the writer makes that cell text).
+        assert_eq!(
+            kinds,
+            [
+                ColumnKind::Text,
+                ColumnKind::Plain,
+                ColumnKind::Text,
+                ColumnKind::Text,
+                ColumnKind::Count
+            ]
+        );
+    }
 
     #[test]
     fn adjustments_are_summed_per_product_and_rule_past_the_limit() {
