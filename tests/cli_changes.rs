@@ -814,11 +814,13 @@ fn the_annual_totals_sheet_is_of_the_adjusted_forecast() {
         "--no-report",
     ]);
     assert!(o.status.success(), "{}", text(&o));
-    // forecast.csv: packs = statistical forecast ÷ pack size = 100 ÷ 10.
+    // forecast.csv: packs = statistical forecast ÷ pack size = 100 ÷ 10;
+    // adjusted_packs = adjusted forecast ÷ pack size = 50 ÷ 10.
     let f = forecast_rows(&w, "out");
     let d = &f[&("Product D".to_string(), "2027-02".to_string())];
     close(num(d, "adjusted"), 50.0, "D Feb adjusted");
     close(num(d, "packs"), 10.0, "D Feb packs");
+    close(num(d, "adjusted_packs"), 5.0, "D Feb adjusted packs");
 
     let mut book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
     let sheet = book.worksheet_range("Annual totals").expect("sheet");

@@ -90,10 +90,25 @@ pub fn add_adjusted(dir: &Path, applied: &Applied) -> Result<()> {
         });
     };
     let width = header.len();
+    // With pack sizes, the adjusted forecast in packs too (adjusted ÷ pack
+    // size, not rounded, as `packs` is the statistical forecast's).
+    let size_col = col("pack_size");
+    let packs_of = |row: &[String], adjusted: Option<f64>| -> String {
+        let size = size_col
+            .and_then(|i| row.get(i))
+            .and_then(|t| t.parse::<f64>().ok())
+            .filter(|s| *s > 0.0);
+        size.zip(adjusted)
+            .map(|(s, a)| fmt_num(a / s))
+            .unwrap_or_default()
+    };
     write_atomic(&path, |w| {
         let mut c = csv::Writer::from_writer(w);
         let mut h = header.clone();
         h.extend(ADJUSTED_COLUMNS.iter().map(|s| s.to_string()));
+        if size_col.is_some() {
+            h.push("adjusted_packs".to_string());
+        }
         c.write_record(&h).map_err(io_err)?;
         for row in &rows {
             let product = csv_text_read(row.get(pc).map(String::as_str).unwrap_or(""));
@@ -108,6 +123,9 @@ pub fn add_adjusted(dir: &Path, applied: &Applied) -> Result<()> {
             match vals {
                 Some(v) => out.extend(v.iter().map(|x| fmt_num(*x))),
                 None => out.extend(std::iter::repeat(String::new()).take(5)),
+            }
+            if size_col.is_some() {
+                out.push(packs_of(row, vals.map(|v| v[0])));
             }
             c.write_record(&out).map_err(io_err)?;
         }
@@ -129,6 +147,11 @@ pub fn add_adjusted(dir: &Path, applied: &Applied) -> Result<()> {
                     }
                 }
                 out.extend(five(&p.adjusted, k).iter().map(|x| fmt_num(*x)));
+                if size_col.is_some() {
+                    // A new product has no pack size in forecast.csv's rows
+                    // (no configuration row names it): left empty.
+                    out.push(String::new());
+                }
                 c.write_record(&out).map_err(io_err)?;
             }
         }
