@@ -14,7 +14,7 @@ mod common;
 
 use std::collections::BTreeMap;
 
-use common::{text, Workdir};
+use common::{repo, text, Workdir};
 
 const PRODUCTS: [&str; 5] = [
     "Product A",
@@ -778,6 +778,199 @@ fn crosscheck_and_the_report_use_the_adjusted_forecast() {
     assert!(svg_of("product-d").contains("adjusted forecast (known changes)"));
     assert!(!svg_of("product-a").contains("adjusted forecast (known changes)"));
     assert!(svg_of("new-product-h").contains("adjusted forecast (known changes)"));
+
+    // The page's own product records: D's carries its adjusted forecast,
+    // month by month as forecast.csv has it (offsets from the first
+    // history month 2023-11: 2026-11 is offset 36), and its adjusted
+    // 12-month total, 350 (above), beside the statistical 1,200; A's, which
+    // no change touched, carries neither.
+    let d = record(&html, "d-product-d-");
+    let a: Vec<(i64, f64)> = d["chart"]["a"]
+        .as_array()
+        .expect("adjusted series of D")
+        .iter()
+        .map(|x| (x[0].as_i64().unwrap(), x[1].as_f64().unwrap()))
+        .collect();
+    let expected = [
+        100.0, 100.0, 75.0, 50.0, 25.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0,
+    ];
+    assert_eq!(a.len(), expected.len(), "{a:?}");
+    for (k, ((off, v), e)) in a.iter().zip(expected).enumerate() {
+        assert_eq!(*off, 36 + k as i64);
+        close(*v, e, "adjusted month in the chart record");
+    }
+    let key = |rec: &serde_json::Value, label: &str| -> Option<String> {
+        rec["keys"]
+            .as_array()?
+            .iter()
+            .find(|k| k[1] == label)
+            .map(|k| k[0].as_str().unwrap_or("").to_string())
+    };
+    assert_eq!(
+        key(&d, "adjusted for known changes, next 12 months").as_deref(),
+        Some("350")
+    );
+    assert_eq!(
+        key(&d, "statistical, next 12 months").as_deref(),
+        Some("1,200")
+    );
+    assert!(d["subtitle"]
+        .as_str()
+        .unwrap()
+        .contains("next 12 months: 1,200 statistical, 350 adjusted"));
+    let a_rec = record(&html, "d-product-a-");
+    assert!(a_rec["chart"].get("a").is_none(), "A has no adjusted line");
+    assert!(key(&a_rec, "adjusted for known changes, next 12 months").is_none());
+    let index = record(&html, "index-data");
+    let row = |p: &str| {
+        index
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r[0] == p)
+            .unwrap_or_else(|| panic!("no index row {p}"))
+            .clone()
+    };
+    // Field 7 the statistical total, field 11 the adjusted one.
+    assert_eq!(row("Product D")[7], 1200.0);
+    assert_eq!(row("Product D")[11], 350.0);
+    assert!(row("Product A")[11].is_null());
+    assert!(html.contains("next 12 months total, adjusted for known changes"));
+}
+
+/// A JSON record of the report page by (the start of) its element id.
+fn record(html: &str, id_start: &str) -> serde_json::Value {
+    let open = format!("<script type=\"application/json\" id=\"{id_start}");
+    let at = html
+        .find(&open)
+        .unwrap_or_else(|| panic!("no record {id_start}"));
+    let start = at + html[at..].find('>').unwrap() + 1;
+    let end = start + html[start..].find("</script>").unwrap();
+    serde_json::from_str(&html[start..end]).expect("record JSON")
+}
+
+/// The demo with its changes and its supply plan: the report's figures
+/// agree with the output files beside it (changes_summary.csv,
+/// selection.csv, quality.csv, the folder's files).
+#[test]
+fn the_demo_report_agrees_with_its_files() {
+    let w = Workdir::new();
+    let demo = |f: &str| repo(&format!("datasets/demo/{f}")).display().to_string();
+    let o = w.run(&[
+        "forecast",
+        &demo("consumption.csv"),
+        "--config",
+        &demo("run.toml"),
+        "--changes",
+        &demo("changes.csv"),
+        "--out",
+        "out",
+        "--quiet",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&[
+        "plan",
+        "out",
+        "--stock",
+        &demo("stock.csv"),
+        "--on-order",
+        &demo("on_order.csv"),
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    let index = record(&html, "index-data");
+    let rows = index.as_array().unwrap();
+
+    // 1. Each changed product's adjusted 12-month total in the index is
+    // changes_summary.csv's; an unchanged product has none.
+    let summary = w.read_csv_maps("out/changes_summary.csv");
+    for r in rows {
+        let p = r[0].as_str().unwrap();
+        match summary.iter().find(|s| s["product"] == p) {
+            Some(s) => {
+                // Whole units from 1,000 up, four significant digits below.
+                let want = num(s, "adjusted_months_1_12");
+                let got = r[11].as_f64().unwrap_or(f64::NAN);
+                assert!((got - want).abs() <= 0.5, "{p}: {got} vs {want}");
+            }
+            None => assert!(r[11].is_null(), "{p}"),
+        }
+    }
+
+    // 2. The pinned product: its runner-up is "clearly" better when the
+    // selection reason says the backtest's own choice was clearly better,
+    // and its score is the pinned model's, not the one it was chosen by.
+    let sel = w.read_csv_maps("out/selection.csv");
+    let pinned = sel.iter().find(|s| s["pinned"] == "yes").expect("a pin");
+    let d = record(
+        &html,
+        &format!("d-{}", provisio::chart::file_stem(&pinned["product"])),
+    );
+    let labels: Vec<String> = d["keys"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|k| k[1].as_str().unwrap().to_string())
+        .collect();
+    let runner = labels
+        .iter()
+        .find(|l| l.starts_with("runner-up"))
+        .expect("runner-up key");
+    assert!(pinned["reason"].contains("clearly better"), "{pinned:?}");
+    assert!(pinned["runner_up"] == pinned["best_model"]);
+    assert!(num(pinned, "margin_pct") < 0.0);
+    assert!(runner.contains("clearly better"), "{runner}");
+    assert!(!runner.contains("without clear evidence"), "{runner}");
+    assert!(runner.contains("pinned"), "{runner}");
+    assert!(
+        !labels.iter().any(|l| l.contains("(chosen by)")),
+        "{labels:?}"
+    );
+
+    // 3. "Weakest data": not fit, then fit with care, each by months
+    // missing (quality.csv months_missing + months_stocked_out_too_long),
+    // most first.
+    let quality = w.read_csv_maps("out/quality.csv");
+    let missing = |p: &str| {
+        let q = quality.iter().find(|q| q["product"] == p).unwrap();
+        (num(q, "months_missing") + num(q, "months_stocked_out_too_long")) as i64
+    };
+    let start = html.find("<h3>Weakest data").expect("weakest data list");
+    let list = &html[start..start + html[start..].find("</ol>").unwrap()];
+    let listed: Vec<String> = list
+        .split("<li><a href=\"")
+        .skip(1)
+        .map(|li| {
+            let s = li.find('>').unwrap() + 1;
+            li[s..s + li[s..].find("</a>").unwrap()]
+                .replace("&amp;", "&")
+                .to_string()
+        })
+        .collect();
+    assert!(listed.len() >= 3, "{listed:?}");
+    let verdict = |p: &str| {
+        let v = &quality.iter().find(|q| q["product"] == p).unwrap()["verdict"];
+        (v != "not fit") as u8
+    };
+    for pair in listed.windows(2) {
+        let (a, b) = (&pair[0], &pair[1]);
+        assert!(
+            (verdict(a), -missing(a)) <= (verdict(b), -missing(b)),
+            "{a} ({}) listed before {b} ({})",
+            missing(a),
+            missing(b)
+        );
+    }
+    assert!(list.contains("months_missing + months_stocked_out_too_long"));
+
+    // 4. Every data file in the folder is linked from the summary.
+    for e in std::fs::read_dir(w.path("out")).unwrap() {
+        let f = e.unwrap().file_name().to_string_lossy().into_owned();
+        let data = [".csv", ".json", ".xlsx"].iter().any(|x| f.ends_with(x));
+        if data {
+            assert!(html.contains(&format!("href=\"{f}\"")), "{f} not linked");
+        }
+    }
 }
 
 /// With known changes the Annual totals sheet totals the adjusted forecast

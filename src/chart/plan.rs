@@ -263,7 +263,7 @@ fn draw<DB: DrawingBackend>(root: &DrawingArea<DB, Shift>, c: &StockChart) -> Dr
             }))
             .msg()?;
         items.push((
-            Glyph::Ring(FORECAST),
+            Glyph::Square(FORECAST),
             "order placed (open square on the axis)".into(),
         ));
     }

@@ -180,7 +180,7 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
         );
     }
     b.push_str(&table.html());
-    b.push_str("<p>In each product's chart below, the adjusted forecast is the dashed line over the statistical projection and its ranges.</p>\n");
+    b.push_str("<p>In the chart of each product a change touched (under Products, above), the adjusted forecast is the dashed line over the statistical projection and its ranges; the product index and each product's key numbers give its adjusted 12-month totals beside the statistical ones.</p>\n");
     if !new_products.is_empty() {
         std::fs::create_dir_all(charts_dir).map_err(|source| Error::Io {
             path: charts_dir.to_path_buf(),

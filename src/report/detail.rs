@@ -14,7 +14,9 @@ use std::collections::BTreeMap;
 use serde::Serialize;
 
 use super::read::ProductResult;
-use super::{capitalise, chosen_score, pct, signed_pct, verdict_class, MAX_ADJUSTMENT_ROWS};
+use super::{
+    adjusted_total, capitalise, chosen_score, pct, signed_pct, verdict_class, MAX_ADJUSTMENT_ROWS,
+};
 use crate::calendar::YearMonth;
 use crate::chart;
 use crate::clean::MonthStatus;
@@ -120,8 +122,9 @@ pub fn flags(p: &ProductResult, attention: bool) -> u32 {
 }
 
 /// One row of the product index: name, anchor stem, verdict class, verdict,
-/// chosen model, MAPE, bias, next-12-month total, AMC last and next 12
-/// months, flags.
+/// chosen model, MAPE, bias, next-12-month total (statistical), AMC last
+/// and next 12 months, flags, and the adjusted next-12-month total (known
+/// changes applied; null for a product no change touched).
 #[derive(Serialize)]
 pub struct IndexRow<'a>(
     &'a str,
@@ -135,6 +138,7 @@ pub struct IndexRow<'a>(
     Option<f64>,
     Option<f64>,
     u32,
+    Option<f64>,
 );
 
 /// The index row of one product.
@@ -157,6 +161,7 @@ pub fn index_row<'a>(p: &'a ProductResult, stem: &'a str, attention: bool) -> In
         whole(s.amc_last_12),
         whole(s.amc_next_12),
         flags(p, attention),
+        whole(adjusted_total(p, 0, 12)),
     )
 }
 
@@ -190,6 +195,10 @@ struct ChartData {
     btm: String,
     /// Legend label of the projection.
     pl: String,
+    /// The adjusted forecast (known changes applied) as (offset, value)
+    /// pairs; left out for a product no change touched.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    a: Vec<(i64, Q)>,
 }
 
 fn chart_data(p: &ProductResult) -> ChartData {
@@ -217,6 +226,7 @@ fn chart_data(p: &ProductResult) -> ChartData {
             bt: Vec::new(),
             btm: String::new(),
             pl,
+            a: Vec::new(),
         };
     };
     let off = |m: YearMonth| first.months_until(m);
@@ -292,6 +302,7 @@ fn chart_data(p: &ProductResult) -> ChartData {
             .map(|b| b.model.clone())
             .unwrap_or_default(),
         pl,
+        a: p.adjusted.iter().map(|(m, v)| (off(*m), q4(*v))).collect(),
     }
 }
 
@@ -342,33 +353,71 @@ pub fn reporting_uplift(p: &ProductResult) -> Option<f64> {
     (any && reported > 0.0).then(|| added / reported)
 }
 
-/// The detail record of one product, as JSON safe to put inside a
-/// `<script type="application/json">` element. A `large_run` lists only
-/// the latest [`LARGE_RUN_ADJUSTMENT_ROWS`] adjustments, a small one the
-/// first [`MAX_ADJUSTMENT_ROWS`].
-pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> String {
+fn dash() -> String {
+    "–".to_string()
+}
+
+/// The key numbers of the projection: the 12- and 24-month totals (beside
+/// them the adjusted ones, when a known change touched the product) and
+/// the AMC.
+fn total_keys(p: &ProductResult) -> Vec<(String, String)> {
     let s = &p.selection;
-    let dash = || "–".to_string();
-    let mut keys = vec![
-        (
-            s.total_1_12.map(chart::fmt_quantity).unwrap_or_else(dash),
-            "projected, next 12 months".to_string(),
-        ),
-        (
-            s.total_13_24.map(chart::fmt_quantity).unwrap_or_else(dash),
-            "projected, months 13–24".to_string(),
-        ),
-        (
-            match (s.amc_last_12, s.amc_next_12) {
-                (Some(a), Some(n)) => {
-                    format!("{} → {}", chart::fmt_quantity(a), chart::fmt_quantity(n))
-                }
-                _ => dash(),
-            },
-            "AMC: last 12 → next 12".to_string(),
-        ),
-    ];
+    let q = |v: Option<f64>| v.map(chart::fmt_quantity).unwrap_or_else(dash);
+    let changed = !p.adjusted.is_empty();
+    let kind = if changed {
+        "statistical, "
+    } else {
+        "projected, "
+    };
+    let mut keys = vec![(q(s.total_1_12), format!("{kind}next 12 months"))];
+    if changed {
+        keys.push((
+            q(adjusted_total(p, 0, 12)),
+            "adjusted for known changes, next 12 months".to_string(),
+        ));
+    }
+    keys.push((q(s.total_13_24), format!("{kind}months 13–24")));
+    if changed {
+        keys.push((
+            q(adjusted_total(p, 12, 24)),
+            "adjusted for known changes, months 13–24".to_string(),
+        ));
+    }
+    keys.push((
+        match (s.amc_last_12, s.amc_next_12) {
+            (Some(a), Some(n)) => {
+                format!("{} → {}", chart::fmt_quantity(a), chart::fmt_quantity(n))
+            }
+            _ => dash(),
+        },
+        if changed {
+            "AMC: last 12 → next 12 (statistical)".to_string()
+        } else {
+            "AMC: last 12 → next 12".to_string()
+        },
+    ));
+    keys
+}
+
+/// Whether the selection reason says the backtest's own choice (which a
+/// pin overrode) was clearly better than the default: it departed from the
+/// default only on the margin and the sign test ([`crate::select`]), and
+/// the reason records that as "clearly better than".
+fn best_was_clearly_better(s: &super::Selection) -> bool {
+    s.reason.starts_with(&format!(
+        "pinned by the user; the backtest's choice would be {} (clearly better than",
+        s.best
+    ))
+}
+
+/// The key numbers of the backtest: the chosen (or pinned) model's score,
+/// its bias, and the runner-up against it.
+fn score_keys(s: &super::Selection) -> Vec<(String, String)> {
+    let mut keys = Vec::new();
     match chosen_score(s) {
+        Some((name, v)) if s.pinned => {
+            keys.push((v, format!("backtest {name} of the pinned model")))
+        }
         Some((name, v)) => keys.push((v, format!("backtest {name} (chosen by)"))),
         None => keys.push((dash(), "backtest score".to_string())),
     }
@@ -376,12 +425,50 @@ pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> Str
         s.scores.bias.map(signed_pct).unwrap_or_else(dash),
         "bias (> 0 over-forecast)".to_string(),
     ));
+    let label = if s.pinned {
+        runner_up_of_pinned(s)
+    } else {
+        "runner-up: its score against the chosen (below 0: it scored better, without clear evidence; see the reason)".to_string()
+    };
     keys.push((
         s.margin
             .map(|v| format!("{} {}", s.runner_up, signed_pct(v)))
             .unwrap_or_else(dash),
-        "runner-up: its score against the chosen (below 0: it scored better, without clear evidence; see the reason)".to_string(),
+        label,
     ));
+    keys
+}
+
+/// The runner-up's label for a pinned model: the runner-up is the best
+/// other model, and it may well score better than the pinned one.
+fn runner_up_of_pinned(s: &super::Selection) -> String {
+    let head = "runner-up: its score against the pinned model";
+    match s.margin {
+        Some(m) if m < 0.0 => {
+            let how = if s.runner_up == s.best && best_was_clearly_better(s) {
+                "it scored better; the backtest found it clearly better than the default and would choose it"
+            } else if s.runner_up == s.best {
+                "it scored better; the backtest would choose it"
+            } else {
+                "it scored better"
+            };
+            format!(
+                "{head} (below 0: {how}; the model is used because it was pinned; see the reason)"
+            )
+        }
+        Some(_) => format!("{head} (0 or above: it did not score better)"),
+        None => head.to_string(),
+    }
+}
+
+/// The detail record of one product, as JSON safe to put inside a
+/// `<script type="application/json">` element. A `large_run` lists only
+/// the latest [`LARGE_RUN_ADJUSTMENT_ROWS`] adjustments, a small one the
+/// first [`MAX_ADJUSTMENT_ROWS`].
+pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> String {
+    let s = &p.selection;
+    let mut keys = total_keys(p);
+    keys.extend(score_keys(s));
     if let Some(u) = reporting_uplift(p) {
         keys.push((
             format!("{}%", chart::fmt_signed(100.0 * u)),
@@ -442,7 +529,7 @@ pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> Str
         pinned: s.pinned,
         best: &s.best,
         reason: capitalise(&s.reason),
-        subtitle: super::subtitle(s),
+        subtitle: super::subtitle(p),
         keys,
         by: &s.selected_by,
         scores: score_rows(p),
@@ -532,6 +619,39 @@ mod tests {
         assert_eq!(r4(-98.765), -98.77);
         assert_eq!(r4(0.0), 0.0);
         assert_eq!(r4(f64::NAN), 0.0);
+    }
+
+    /// A pinned model's runner-up is called clearly better only when the
+    /// selection reason (as `crate::select` words it) says the backtest's
+    /// own choice cleared the margin and the sign test.
+    #[test]
+    fn pinned_runner_up_is_clearly_better_only_when_the_reason_says_so() {
+        let mut s = crate::report::Selection {
+            pinned: true,
+            chosen: "naive".into(),
+            best: "ets-damped".into(),
+            runner_up: "ets-damped".into(),
+            margin: Some(-79.1),
+            selected_by: "MASE".into(),
+            reason: "pinned by the user; the backtest's choice would be ets-damped (clearly better than the default, a fixed combination (combination 0.114): MASE 0.039 is 66% lower and better at 12 of 12 origins (sign test p = 0.000)); pinned model MASE 0.187".into(),
+            ..Default::default()
+        };
+        s.scores.mase = Some(0.187);
+        let label = |s: &crate::report::Selection| score_keys(s)[2].1.clone();
+        assert!(label(&s).contains("clearly better"), "{}", label(&s));
+        assert!(!label(&s).contains("without clear evidence"));
+        assert_eq!(score_keys(&s)[0].1, "backtest MASE of the pinned model");
+        // The backtest kept the default: the runner-up scored better than
+        // the pinned model, but nothing says clearly.
+        s.best = "combination".into();
+        s.runner_up = "theta".into();
+        s.reason = "pinned by the user; the backtest's choice would be combination (the default, a fixed combination: MASE 0.66 over 12 origins × 12 months (144 forecasts); kept because the best other model, theta (0.677), is not better)".into();
+        assert!(label(&s).contains("it scored better"), "{}", label(&s));
+        assert!(!label(&s).contains("clearly"), "{}", label(&s));
+        // Not pinned: the choice's own wording.
+        s.pinned = false;
+        assert!(label(&s).contains("without clear evidence"));
+        assert_eq!(score_keys(&s)[0].1, "backtest MASE (chosen by)");
     }
 
     #[test]

@@ -112,8 +112,10 @@ pub const OVERVIEW_UP_TO: usize = 100;
 /// Products listed per "needs attention" list on the first view.
 pub const ATTENTION_SHOWN: usize = 10;
 
-/// The chart subtitle of one product: chosen model, score, bias, total.
-fn subtitle(s: &Selection) -> String {
+/// The chart subtitle of one product: chosen model, score, bias, total
+/// (statistical and adjusted, when a known change touched the product).
+fn subtitle(p: &ProductResult) -> String {
+    let s = &p.selection;
     let mut subtitle = format!("chosen model: {}", s.chosen);
     if !s.members.is_empty() {
         let _ = write!(subtitle, " ({})", s.members);
@@ -127,10 +129,35 @@ fn subtitle(s: &Selection) -> String {
     if let Some(b) = s.scores.bias {
         let _ = write!(subtitle, " · bias {}%", chart::fmt_signed(b));
     }
-    if let Some(t) = s.total_1_12 {
-        let _ = write!(subtitle, " · next 12 months: {}", chart::fmt_quantity(t));
+    match (s.total_1_12, adjusted_total(p, 0, 12)) {
+        (Some(t), Some(a)) => {
+            let _ = write!(
+                subtitle,
+                " · next 12 months: {} statistical, {} adjusted",
+                chart::fmt_quantity(t),
+                chart::fmt_quantity(a)
+            );
+        }
+        (Some(t), None) => {
+            let _ = write!(subtitle, " · next 12 months: {}", chart::fmt_quantity(t));
+        }
+        _ => {}
     }
     subtitle
+}
+
+/// Total of the adjusted forecast over projected months `from` to `to`
+/// (0-based, `to` excluded), as `changes_summary.csv` counts them; `None`
+/// when no known change touched the product or it has no such month.
+pub fn adjusted_total(p: &ProductResult, from: usize, to: usize) -> Option<f64> {
+    (p.adjusted.len() > from).then(|| {
+        p.adjusted
+            .iter()
+            .skip(from)
+            .take(to.saturating_sub(from))
+            .map(|a| a.1)
+            .sum()
+    })
 }
 
 /// The chart data of one product, as the chart files draw it.
@@ -138,13 +165,13 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
     let s = &p.selection;
     ProductChart {
         title: p.product.clone(),
-        subtitle: subtitle(s),
+        subtitle: subtitle(p),
         history_label: "cleaned".into(),
         projection_label: format!("projection ({})", s.chosen),
         history: p.history.clone(),
         projection: p.projection.clone(),
         backtest: p.backtest.clone(),
-        adjusted: Vec::new(),
+        adjusted: p.adjusted.clone(),
     }
 }
 
@@ -163,7 +190,6 @@ fn write_chart_files(
     stems: &[String],
     charts_dir: &Path,
     which: &ChartFiles,
-    changes_part: Option<&changes::ChangesPart>,
 ) -> Result<Vec<PathBuf>> {
     if *which == ChartFiles::None {
         return Ok(Vec::new());
@@ -186,10 +212,7 @@ fn write_chart_files(
         .zip(stems.par_iter())
         .filter(|(p, _)| which.wants(&p.product))
         .map(|(p, stem)| {
-            let mut c = product_chart(p);
-            if let Some(a) = changes_part.and_then(|x| x.adjusted.get(&p.product)) {
-                c.adjusted = a.clone();
-            }
+            let c = product_chart(p);
             let svg = chart::product_svg(&c)?;
             let svg_path = charts_dir.join(format!("{stem}.svg"));
             crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
@@ -232,16 +255,10 @@ pub fn write_report_with(dir: &Path, options: &ReportOptions) -> Result<Written>
             }
         }
     }
-    // The known changes, when the run applied a changes file: the adjusted
-    // line of the product charts and a section of its own.
+    let mut charts = write_chart_files(&run, &stems, &charts_dir, &options.chart_files)?;
+    // The known changes, when the run applied a changes file: a section of
+    // their own (the product records carry the adjusted forecast).
     let changes_part = changes::changes_part(dir, &charts_dir)?;
-    let mut charts = write_chart_files(
-        &run,
-        &stems,
-        &charts_dir,
-        &options.chart_files,
-        changes_part.as_ref(),
-    )?;
     let mut sections = Vec::new();
     if let Some(part) = changes_part {
         charts.extend(part.files);
@@ -431,7 +448,7 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
         .filter_map(|(i, p)| {
             let q = p.quality.as_ref()?;
             let r = rank(&q.verdict);
-            (r < 2).then(|| (i, r, q.months_missing.parse::<usize>().unwrap_or(0)))
+            (r < 2).then(|| (i, r, months_missing(q)))
         })
         .collect();
     quality.sort_by_key(|&(i, r, missing)| (r, std::cmp::Reverse(missing), i));
@@ -441,9 +458,10 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
             let q = run.products[i].quality.as_ref();
             let verdict = q.map(|q| q.verdict.as_str()).unwrap_or("");
             let reason = q.and_then(|q| q.reasons.first()).map(String::as_str);
+            let missing = q.map(months_missing).unwrap_or(0);
             let note = match reason {
-                Some(r) => format!("{verdict}: {r}"),
-                None => verdict.to_string(),
+                Some(r) => format!("{verdict}, {missing} month(s) missing: {r}"),
+                None => format!("{verdict}, {missing} month(s) missing"),
             };
             (i, chart::cut(&note, 160))
         })
@@ -477,8 +495,7 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
         },
         AttentionList {
             title: "Weakest data",
-            why:
-                "data quality \"not fit\" first, then \"fit with care\"; most missing months first",
+            why: "data quality \"not fit\" first, then \"fit with care\"; within each, most months missing first (not reported, or stocked out too long to trust and treated as missing: quality.csv months_missing + months_stocked_out_too_long)",
             items: quality,
         },
         AttentionList {
@@ -487,6 +504,14 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
             items: biased,
         },
     ]
+}
+
+/// Months a product's history lacks: months not reported, plus reported
+/// months whose stockouts were too long to trust and are treated as
+/// missing (the two never overlap: only a reported month is treated so).
+fn months_missing(q: &Quality) -> usize {
+    let n = |v: &str| v.trim().parse::<usize>().unwrap_or(0);
+    n(&q.months_missing).saturating_add(n(&q.months_stocked_out_too_long))
 }
 
 fn product_index(run: &ForecastRun) -> std::collections::HashMap<&str, usize> {
@@ -848,21 +873,41 @@ fn index_section(b: &mut String, run: &ForecastRun) {
         run.products.len()
     );
     b.push_str("<noscript><p class=\"note\">The product index and each product's detail are drawn by this page's own script, which is turned off. Every figure is also in selection.csv, forecast.csv and scores.csv in this folder.</p></noscript>\n");
-    b.push_str("<p class=\"note\">Click a product to open its chart, scores, data quality and adjustments; click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in base units.</p>\n");
-    let t = Table::new(
-        &[
-            ("product", Kind::Text),
-            ("data quality", Kind::Text),
-            ("chosen model", Kind::Text),
-            ("MAPE", Kind::Num),
-            ("bias", Kind::Num),
-            ("next 12 months total", Kind::Num),
-            ("AMC last 12", Kind::Num),
-            ("AMC next 12", Kind::Num),
-        ],
-        false,
-    );
-    b.push_str(&t.html().replace("<tbody>", "<tbody id=\"index-body\">"));
+    b.push_str("<p class=\"note\">Click a product to open its chart, scores, data quality and adjustments; click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in base units.");
+    if run.products.iter().any(|p| !p.adjusted.is_empty()) {
+        b.push_str(" Totals and AMC are of the statistical forecast; the adjusted total (known changes applied, as the supply plan and the cross-check use it) is given for the products a change touched.");
+    }
+    b.push_str("</p>\n");
+    let mut columns = vec![
+        ("product", Kind::Text),
+        ("data quality", Kind::Text),
+        ("chosen model", Kind::Text),
+        ("MAPE", Kind::Num),
+        ("bias", Kind::Num),
+        ("next 12 months total", Kind::Num),
+        ("AMC last 12", Kind::Num),
+        ("AMC next 12", Kind::Num),
+    ];
+    // With known changes, the adjusted total beside the statistical one
+    // (the script fills the column when the body says so).
+    let changed = run.products.iter().any(|p| !p.adjusted.is_empty());
+    if changed {
+        columns[5].0 = "next 12 months total, statistical";
+        columns.insert(
+            6,
+            (
+                "next 12 months total, adjusted for known changes",
+                Kind::Num,
+            ),
+        );
+    }
+    let t = Table::new(&columns, false);
+    let body = if changed {
+        "<tbody id=\"index-body\" data-adjusted=\"yes\">"
+    } else {
+        "<tbody id=\"index-body\">"
+    };
+    b.push_str(&t.html().replace("<tbody>", body));
     b.push_str("<p><button id=\"index-more\" type=\"button\" hidden>Show more</button></p>\n");
 }
 

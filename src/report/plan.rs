@@ -444,7 +444,7 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
                         Cell::text(&r.arrival_month.to_string()),
                         Cell::text(&r.covers_to),
                         Cell::num(Some(r.quantity), q),
-                        Cell::num(Some(r.packs), |v| format!("{v:.0}")),
+                        Cell::num(Some(r.packs), q),
                         Cell::num(Some(r.cost), q),
                     ],
                 );

@@ -94,6 +94,9 @@ pub struct Quality {
     pub months_missing: String,
     /// Months with stockout days.
     pub months_with_stockouts: String,
+    /// Months whose stockouts were too long to trust, treated as missing
+    /// (empty in folders written before the column existed).
+    pub months_stocked_out_too_long: String,
     /// Mean reporting rate, %.
     pub mean_reporting_rate: String,
 }
@@ -145,6 +148,10 @@ pub struct ProductResult {
     pub history: Vec<HistoryMonth>,
     /// The projection with its ranges.
     pub projection: Vec<ProjectedMonth>,
+    /// The adjusted forecast (`forecast.csv` column `adjusted`) of a
+    /// product a known change touched (`changes_summary.csv`); empty for
+    /// every other product.
+    pub adjusted: Vec<(YearMonth, f64)>,
     /// The chosen model's backtest paths, when backtested.
     pub backtest: Option<BacktestPanel>,
     /// Every candidate's scores.
@@ -170,20 +177,32 @@ pub struct ForecastRun {
     pub files: Vec<String>,
 }
 
-/// Files of an output folder linked from the report, in this order, when
-/// they are there.
-pub const LINKED_FILES: [&str; 12] = [
+/// Data files of an output folder linked from the report, in this order,
+/// when they are there: what `forecast` writes (with `--changes`, its two
+/// files), then what `crosscheck` and `plan` add.
+pub const LINKED_FILES: [&str; 23] = [
     "forecast.xlsx",
     "forecast.csv",
     "forecast_wide.csv",
     "selection.csv",
     "scores.csv",
+    "scores_by_horizon.csv",
+    "backtest.csv",
+    "cleaned.csv",
     "adjustments.csv",
     "quality.csv",
     "rejected.csv",
+    "changes_applied.csv",
+    "changes_summary.csv",
     "crosscheck.csv",
+    "crosscheck_services.csv",
+    "crosscheck_rejected.csv",
+    "crosscheck.json",
     "plan.csv",
     "orders.csv",
+    "order_totals.csv",
+    "plan_log.csv",
+    "plan.json",
     "manifest.json",
 ];
 
@@ -389,6 +408,33 @@ fn status(name: &str) -> MonthStatus {
     }
 }
 
+/// Keeps the adjusted forecast of the products `changes_summary.csv` names
+/// (a change touched them) and drops the others' (equal to their
+/// statistical forecast), so only a changed product shows an adjusted one.
+fn keep_changed_products(
+    dir: &Path,
+    products: &mut [ProductResult],
+    index: &HashMap<String, usize>,
+) -> Result<()> {
+    let mut changed = vec![false; products.len()];
+    if let Some(mut t) = Table::read(dir, "changes_summary.csv")? {
+        let [c] = t.cols(["product"])?;
+        t.each(|_, _, rec| {
+            if let Some(&i) = index.get(&name(rec, c)) {
+                changed[i] = true;
+            }
+            Ok(())
+        })?;
+    }
+    for (p, changed) in products.iter_mut().zip(changed) {
+        if !changed {
+            p.adjusted.clear();
+        }
+        p.adjusted.sort_by_key(|a| a.0);
+    }
+    Ok(())
+}
+
 /// Reads the output directory of a `forecast` run. `selection.csv`,
 /// `forecast.csv`, `cleaned.csv` and `manifest.json` are required; the
 /// others add detail when present.
@@ -457,6 +503,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             quality: None,
             history: Vec::new(),
             projection: Vec::new(),
+            adjusted: Vec::new(),
             backtest: None,
             scores: Vec::new(),
             adjustments: Vec::new(),
@@ -490,15 +537,29 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
     let c = fc.cols(names)?;
     // Folders written before the common projection start have no column.
     let bridged = fc.col_opt("bridged");
+    // Written only by a run with a changes file.
+    let adjusted = fc.col_opt("adjusted");
     fc.each(|fc, line, rec| {
         let Some(&i) = index.get(&name(rec, c[0])) else {
             return Ok(());
         };
         let n = |k: usize| fc.num(line, rec, c[k], names[k]);
         let pair = |a: Option<f64>, b: Option<f64>| a.zip(b);
-        let Some(point) = n(2)? else { return Ok(()) };
+        let point = n(2)?;
+        let adjusted = match adjusted {
+            Some(a) => fc.num(line, rec, a, "adjusted")?,
+            None => None,
+        };
+        if point.is_none() && adjusted.is_none() {
+            return Ok(());
+        }
+        let month = fc.month(line, rec, c[1], "month")?;
+        if let Some(v) = adjusted {
+            products[i].adjusted.push((month, v));
+        }
+        let Some(point) = point else { return Ok(()) };
         products[i].projection.push(ProjectedMonth {
-            month: fc.month(line, rec, c[1], "month")?,
+            month,
             point,
             range80: pair(n(3)?, n(4)?),
             range95: pair(n(5)?, n(6)?),
@@ -506,6 +567,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         });
         Ok(())
     })?;
+    keep_changed_products(dir, &mut products, &index)?;
 
     if let Some(mut q) = Table::read(dir, "quality.csv")? {
         let c = q.cols([
@@ -519,6 +581,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             "months_with_stockouts",
             "mean_reporting_rate_pct",
         ])?;
+        let too_long = q.col_opt("months_stocked_out_too_long");
         q.each(|_, _, rec| {
             if let Some(&i) = index.get(&name(rec, c[0])) {
                 let reasons = text(rec, c[2]);
@@ -534,6 +597,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
                     months_reported: text(rec, c[5]),
                     months_missing: text(rec, c[6]),
                     months_with_stockouts: text(rec, c[7]),
+                    months_stocked_out_too_long: too_long.map(|k| text(rec, k)).unwrap_or_default(),
                     mean_reporting_rate: text(rec, c[8]),
                 });
             }

@@ -170,7 +170,9 @@
     }
     var n = c.cl.length, last = Math.max(n - 1, c.p0 + c.p.length - 1, 1);
     var ymax = 0;
+    var adj = c.a || [];
     [c.rep, c.cl, c.p, c.u95, c.u80].forEach(function (a) { a.forEach(function (v) { if (v !== null && v > ymax) { ymax = v; } }); });
+    adj.forEach(function (a) { if (a[1] > ymax) { ymax = a[1]; } });
     var s = narrow ? panel(root, c, [70, 84, W - 90, TOP - 162], 0, last, ymax)
       : panel(root, c, [90, 70, W - 120, TOP - 130], 0, last, ymax);
     band(root, s, c, c.l95, c.u95, 0.12);
@@ -196,10 +198,17 @@
       line(root, [[xs, narrow ? 84 : 70], [xs, TOP - (narrow ? 78 : 60)]], C.muted, 1.2, { "stroke-dasharray": "5 4" });
       line(root, pt(c.p, c.p0), C.fc, 2.2);
     }
+    // The adjusted forecast (known changes applied): dashed, over the
+    // statistical projection and its ranges.
+    var DASH = { "stroke-dasharray": "9 5" };
+    if (adj.length) {
+      line(root, adj.map(function (a) { return [s.x(a[0]), s.y(a[1])]; }), C.outlier, 3, DASH);
+    }
     var legend = [["reported", C.reported], ["cleaned", C.cleaned], [c.pl, C.fc]];
+    if (adj.length) { legend.push(["adjusted (known changes)", C.outlier, DASH]); }
     var lx = narrow ? 20 : 90, ly = narrow ? TOP - 40 : TOP - 24;
     legend.forEach(function (l) {
-      line(root, [[lx, ly - 4], [lx + 22, ly - 4]], l[1], 3);
+      line(root, [[lx, ly - 4], [lx + 22, ly - 4]], l[1], 3, l[2]);
       var t = svg("text", { x: lx + 28, y: ly, "font-size": 12, fill: C.ink }, l[0]);
       root.appendChild(t);
       lx += 40 + 7 * l[0].length;
@@ -339,6 +348,9 @@
     attn = document.getElementById("attention-only"), body = document.getElementById("index-body"),
     count = document.getElementById("index-count"), more = document.getElementById("index-more");
   var order = rows.slice(), shown = PAGE, matches = rows;
+  // With known changes the index has the adjusted 12-month total (field
+  // 11) after the statistical one.
+  var adjCol = !!body && body.getAttribute("data-adjusted") === "yes";
   function wanted(r) {
     var text = q ? q.value.trim().toLowerCase() : "";
     if (text && r[0].toLowerCase().indexOf(text) < 0) { return false; }
@@ -365,7 +377,9 @@
       if (r[10] & F.NOT_BACKTESTED) { m.appendChild(document.createTextNode(" ")); m.appendChild(pill("none", "not backtested")); }
       if (r[10] & F.WARNINGS) { m.appendChild(document.createTextNode(" ")); m.appendChild(pill("care", "warnings")); }
       tr.appendChild(m);
-      [pct(r[5]), spct(r[6]), fmtQ(r[7]), fmtQ(r[8]), fmtQ(r[9])].forEach(function (t) {
+      var nums = [pct(r[5]), spct(r[6]), fmtQ(r[7]), fmtQ(r[8]), fmtQ(r[9])];
+      if (adjCol) { nums.splice(3, 0, fmtQ(r[11])); }
+      nums.forEach(function (t) {
         tr.appendChild(el("td", { "class": "num" }, t));
       });
       frag.appendChild(tr);
@@ -378,7 +392,7 @@
     if (more) { more.hidden = matches.length <= shown; }
   }
   if (body) {
-    var fields = [0, 3, 4, 5, 6, 7, 8, 9];
+    var fields = adjCol ? [0, 3, 4, 5, 6, 7, 11, 8, 9] : [0, 3, 4, 5, 6, 7, 8, 9];
     var table0 = body.parentNode;
     sortable(table0, function (col, up, numeric) {
       var f = fields[col];
