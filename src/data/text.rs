@@ -542,7 +542,7 @@ mod tests {
         let mut r = Records::open(Trickle(data), Encoding::Utf8).unwrap();
         let mut got = Vec::new();
         while let Some(line) = r.next_record().unwrap() {
-            got.push((line, r.fields().joined('|')));
+            got.push((line, r.fields().iter().collect::<Vec<_>>().join("|")));
         }
         assert_eq!(
             got,
@@ -552,6 +552,12 @@ mod tests {
                 (5, "last|3".to_string())
             ]
         );
+        // The row as the file held it: the field with a quote and a line
+        // break quoted again, its quotes doubled (RFC 4180 §2).
+        let mut r = Records::open(Trickle(data), Encoding::Utf8).unwrap();
+        r.next_record().unwrap();
+        r.next_record().unwrap();
+        assert_eq!(r.fields().joined(';'), "\"x;\"\"y\"\"\nz\";2");
     }
 
     #[test]
