@@ -1422,6 +1422,23 @@ impl HoldoutResult {
 
 /// The series without its last `holdout` months; `None` when it is not
 /// longer than `holdout` + 24 months.
+/// The history of `series` cleaned without its last `holdout` months, from
+/// `train`: `None` when the series is not longer than `holdout` + 24
+/// months, or its cleaned history does not end in the month before the
+/// hidden ones (its last rows before them are missing).
+pub fn training_history<'a>(
+    series: &CleanSeries,
+    holdout: usize,
+    train: &'a HashMap<String, CleanSeries>,
+) -> Option<&'a CleanSeries> {
+    let n = series.len();
+    if n <= holdout + 24 {
+        return None;
+    }
+    let t = train.get(&*series.product)?;
+    (t.len() > 24 && t.month(t.len() - 1) == series.month(n - holdout - 1)).then_some(t)
+}
+
 fn shortened(series: &CleanSeries, holdout: usize) -> Option<CleanSeries> {
     let n = series.len();
     if n <= holdout + 24 {
@@ -1476,6 +1493,7 @@ pub fn holdout_check_with(
         &[kind],
         false,
         None,
+        None,
     )
     .map(|(mut v, _)| v.swap_remove(0))
 }
@@ -1493,9 +1511,13 @@ pub fn holdout_check_defaults(
     defaults: &[&str],
     earlier: bool,
     pre: Option<Backtest>,
+    train: Option<&CleanSeries>,
 ) -> Option<Alternatives<HoldoutResult>> {
     let n = series.len();
-    let short = shortened(series, holdout)?;
+    let short = match train {
+        Some(t) => t.clone(),
+        None => shortened(series, holdout)?,
+    };
     let cut = short.len();
     let mut s = settings.clone();
     s.horizon = holdout;
@@ -1614,18 +1636,32 @@ pub fn holdout_all_with(
     holdout: usize,
     options: &HashMap<String, ProductOptions>,
 ) -> Vec<HoldoutResult> {
-    holdout_run(series, settings, holdout, options).0
+    holdout_run(series, settings, holdout, options, None).0
 }
 
 /// [`holdout_all_with`], with the default the run chose on the shortened
 /// histories' backtests (as [`forecast_run`] does on the whole ones).
+///
+/// `train`, when given, holds each product's history cleaned without its
+/// hidden months (the hidden months' rows left out before cleaning, so no
+/// fill, outlier flag or adjustment of the history used them); a product
+/// it lacks, or whose cleaned history does not end where the hidden months
+/// begin, is not evaluated. Without it the whole series' cleaned values
+/// are cut short.
 pub fn holdout_run(
     series: &[CleanSeries],
     settings: &CheckedForecastSettings,
     holdout: usize,
     options: &HashMap<String, ProductOptions>,
+    train: Option<&HashMap<String, CleanSeries>>,
 ) -> (Vec<HoldoutResult>, DefaultChoice) {
     let none = ProductOptions::default();
+    let history = |s: &CleanSeries| -> Option<CleanSeries> {
+        match train {
+            None => shortened(s, holdout),
+            Some(t) => training_history(s, holdout, t).cloned(),
+        }
+    };
     // The run's default and weights, settled on the shortened histories.
     let Prepared {
         settings,
@@ -1633,7 +1669,7 @@ pub fn holdout_run(
         pre,
     } = prepare_run(series, settings, &|models, s: &CleanSeries, earlier| {
         let o = options.get(&s.product).unwrap_or(&none);
-        product_backtest(&shortened(s, holdout)?, models, settings, o, earlier)
+        product_backtest(&history(s)?, models, settings, o, earlier)
     });
     let settings = &settings;
     let defaults = [choice.default];
@@ -1642,7 +1678,11 @@ pub fn holdout_run(
         .zip(pre.into_par_iter())
         .map_init(candidates, |models, (s, pre)| {
             let o = options.get(&s.product).unwrap_or(&none);
-            holdout_check_defaults(s, models, settings, holdout, o, &defaults, false, pre)
+            let own = match train {
+                None => None,
+                Some(t) => Some(training_history(s, holdout, t)?),
+            };
+            holdout_check_defaults(s, models, settings, holdout, o, &defaults, false, pre, own)
                 .map(|(mut v, _)| v.swap_remove(0))
         })
         .flatten()

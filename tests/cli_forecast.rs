@@ -898,3 +898,75 @@ fn a_name_the_png_font_cannot_draw_is_warned_about_and_kept_in_svg() {
         text(&o)
     );
 }
+
+/// `evaluate` hides the last months before cleaning (common practice in
+/// out-of-sample evaluation: nothing after the forecast origin informs the
+/// forecast; Tashman, IJF 16(4), 2000). Site North misses the month
+/// before the hidden year and jumps to 1,000 a month in it: cleaning the
+/// whole file would fill that month toward 1,000 from the months after,
+/// cleaning the history alone cannot. So the naive forecast's MASE in
+/// `--per-product` must be the one computed here by hand from `clean` run
+/// on the history alone (its last cleaned month repeated) against the
+/// whole file's cleaned hidden months, scaled by the history's
+/// seasonal-naive in-sample MAE.
+#[test]
+fn evaluate_cleans_the_history_without_the_hidden_months() {
+    let w = common::Workdir::new();
+    let mut all = String::from("product,site,month,consumed\n");
+    let mut history = all.clone();
+    for k in 0..48 {
+        let (y, m) = (2021 + k / 12, k % 12 + 1);
+        let mut rows = String::new();
+        let north = if k < 36 { 100 + (k % 3) * 5 } else { 1000 };
+        if k != 35 {
+            rows.push_str(&format!("ORS,North,{y}-{m:02},{north}\n"));
+        }
+        rows.push_str(&format!("ORS,South,{y}-{m:02},{}\n", 50 + (k % 4) * 3));
+        all.push_str(&rows);
+        if k < 36 {
+            history.push_str(&rows);
+        }
+    }
+    w.write("all.csv", &all);
+    w.write("history.csv", &history);
+    for (file, out) in [("all.csv", "c_all"), ("history.csv", "c_hist")] {
+        let o = w.run(&["clean", file, "--out", out]);
+        assert!(o.status.success(), "{}", text(&o));
+    }
+    let values = |dir: &str| -> Vec<f64> {
+        w.read_csv_maps(&format!("{dir}/cleaned.csv"))
+            .iter()
+            .map(|r| r["cleaned"].parse().unwrap())
+            .collect()
+    };
+    let (whole, hist) = (values("c_all"), values("c_hist"));
+    assert_eq!((whole.len(), hist.len()), (48, 36));
+    // The two cleanings differ at the gap: the test would not tell
+    // otherwise.
+    assert!(
+        (whole[35] - hist[35]).abs() > 50.0,
+        "{} {}",
+        whole[35],
+        hist[35]
+    );
+    let scale = (12..36)
+        .map(|t| (hist[t] - hist[t - 12]).abs())
+        .sum::<f64>()
+        / 24.0;
+    let expected = (36..48).map(|t| (whole[t] - hist[35]).abs()).sum::<f64>() / 12.0 / scale;
+    let o = w.run(&[
+        "evaluate",
+        "all.csv",
+        "--holdout",
+        "12",
+        "--per-product",
+        "per.csv",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let per = w.read_csv_maps("per.csv");
+    let got: f64 = per[0]["naive_mase"].parse().unwrap();
+    assert!(
+        (got - expected).abs() < 1e-3 * expected.max(1.0),
+        "naive MASE {got}, by hand from the history cleaned alone {expected}"
+    );
+}

@@ -158,8 +158,51 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         None => HashMap::new(),
     };
     let options = product_options(config.as_ref(), pins, given.cli("pin"));
-    let (mut results, default_choice) =
-        provisio::pipeline::holdout_run(&cleaned.series, &checked, a.holdout, &options);
+    // The hidden months are left out before cleaning: each product's
+    // history is cleaned from its rows up to the month before its last
+    // `holdout` months, so no fill, outlier flag or adjustment of the
+    // history the selection sees used a hidden month. (The whole file,
+    // cleaned, gives the hidden months' actuals.)
+    let cuts: HashMap<String, provisio::calendar::YearMonth> = cleaned
+        .series
+        .iter()
+        .filter(|s| s.len() > a.holdout)
+        .map(|s| (s.product.to_string(), s.month(s.len() - a.holdout - 1)))
+        .collect();
+    let train: HashMap<String, provisio::clean::CleanSeries> =
+        super::load_cut(&a.data, &a.read, &a.clean, &cuts)?
+            .series
+            .into_iter()
+            .map(|s| (s.product.to_string(), s))
+            .collect();
+    let (mut results, default_choice) = provisio::pipeline::holdout_run(
+        &cleaned.series,
+        &checked,
+        a.holdout,
+        &options,
+        Some(&train),
+    );
+    // Long enough, but its cleaned history stops before the hidden months
+    // (its last rows before them are missing): named, not evaluated.
+    let stopped: Vec<&str> = cleaned
+        .series
+        .iter()
+        .filter(|s| s.len() > a.holdout + 24)
+        .filter(|s| provisio::pipeline::training_history(s, a.holdout, &train).is_none())
+        .map(|s| &*s.product)
+        .collect();
+    if !stopped.is_empty() {
+        super::warn(&format!(
+            "{} product(s) not evaluated: cleaned without the hidden months, their history does not reach the month before them (no row there), so the forecast would not start where the hidden months do: {}",
+            stopped.len(),
+            stopped
+                .iter()
+                .take(5)
+                .map(|p| format!("'{p}'"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ));
+    }
     if a.truth {
         let truth = read_truth(&a.data)?;
         let left_out = score_against_truth(&mut results, &cleaned.series, &truth, a.holdout);

@@ -745,6 +745,23 @@ fn load(
     load_until(data, read, clean, None)
 }
 
+/// The data cleaned with each product's rows kept up to its month in
+/// `cut` (a product not in it left out): the history `evaluate` selects
+/// on, cleaned without the months it hides.
+fn load_cut(
+    data: &std::path::Path,
+    read: &ReadArgs,
+    clean: &CleanArgs,
+    cut: &std::collections::HashMap<String, provisio::calendar::YearMonth>,
+) -> anyhow::Result<provisio::clean::Cleaned> {
+    let settings = clean.settings().check()?;
+    let mut ds = provisio::data::read_path(data, &read.options())?;
+    let keep = |p: &str, m: provisio::calendar::YearMonth| cut.get(p).is_some_and(|c| m <= *c);
+    ds.rows.retain(|r| keep(&r.product, r.month));
+    ds.merged.retain(|r| keep(&r.product, r.month));
+    Ok(provisio::clean::clean_taking_rows(&mut ds, &settings))
+}
+
 /// [`load`], keeping only rows dated up to `until` when given.
 fn load_until(
     data: &std::path::Path,

@@ -277,7 +277,9 @@
     sec.appendChild(fig);
     sec.appendChild(el("h3", null, "Candidate models"));
     if (d.scores.length) {
-      sec.appendChild(el("p", { "class": "note" }, "Ordered by " + d.by + " (the score the choice was made by); the chosen model is highlighted."));
+      sec.appendChild(el("p", { "class": "note" }, d.pinned
+        ? "Ordered by " + d.by + " (the score the backtest's choice is made by; the model used here was pinned); the pinned model is highlighted."
+        : "Ordered by " + d.by + " (the score the choice was made by); the chosen model is highlighted."));
       var cols = [["model"], ["status"], ["MAPE", 1], ["bias", 1], ["WAPE", 1], ["MASE", 1], ["RMSE", 1], ["RMSSE", 1],
         ["in 80% range", 1], ["in 95% range", 1], ["forecasts", 1], ["note"]];
       sec.appendChild(table(cols, d.scores, function (r) { return r[0] === d.chosen ? "chosen" : null; }));
