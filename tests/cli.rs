@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{accounting, repo, text, Workdir};
+use common::{accounting, repo, run_in, text, Workdir};
 
 #[test]
 fn clean_demo_writes_outputs_that_reconcile() {
@@ -279,4 +279,31 @@ fn hostile_catalogue_gives_the_expected_messages() {
             }
         }
     }
+}
+
+/// A start after the current month cannot be fixed by fewer months: the
+/// message asks for an earlier start only (common practice: suggest only
+/// values that would be accepted).
+#[test]
+fn generate_with_a_future_start_suggests_only_an_earlier_start() {
+    let dir = tempfile::tempdir().unwrap();
+    let o = run_in(
+        dir.path(),
+        &[
+            "generate",
+            "--products",
+            "5",
+            "--start",
+            "2099-01",
+            "--out",
+            "x.csv",
+        ],
+    );
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(
+        t.contains("give a --start of") && t.contains("or earlier"),
+        "{t}"
+    );
+    assert!(!t.contains("--months 0"), "{t}");
 }

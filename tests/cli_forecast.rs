@@ -970,3 +970,43 @@ fn evaluate_cleans_the_history_without_the_hidden_months() {
         "naive MASE {got}, by hand from the history cleaned alone {expected}"
     );
 }
+
+/// An integrator reads `evaluate --json` like the `--csv` file: one entry
+/// per method, each with the products it applied to; a product too short
+/// to hide the months is named, not dropped unseen (common practice: say
+/// what was left out of a comparison).
+#[test]
+fn evaluate_json_lists_every_method_and_names_products_too_short() {
+    let w = common::Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for (p, n) in [("Long A", 48), ("Long B", 48), ("Short C", 30)] {
+        for k in 0..n {
+            let (y, m) = (2021 + k / 12, k % 12 + 1);
+            data.push_str(&format!("{p},{y}-{m:02},{}\n", 100 + (k * 7) % 13 + k));
+        }
+    }
+    w.write("d.csv", &data);
+    let o = w.run(&[
+        "--json",
+        "evaluate",
+        "d.csv",
+        "--holdout",
+        "12",
+        "--csv",
+        "e.csv",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).expect("JSON");
+    let csv = w.read_csv_maps("e.csv");
+    let methods = j["methods"].as_array().unwrap();
+    assert_eq!(methods.len(), csv.len());
+    for (m, r) in methods.iter().zip(&csv) {
+        assert_eq!(m["method"].as_str().unwrap(), r["method"]);
+        assert_eq!(m["products"].as_u64().unwrap().to_string(), r["products"]);
+    }
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("1 product(s) not evaluated: 37 months of history are needed (--holdout 12 + 24 for the backtest): 'Short C'"),
+        "{err}"
+    );
+}

@@ -152,6 +152,8 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         ds.warnings
             .retain(|w| !w.ends_with("extra columns kept in the file but not used: true_demand"));
     }
+    // Read before the run, so a file without the column is refused at once.
+    let truth = a.truth.then(|| read_truth(&a.data)).transpose()?;
     let t0 = Instant::now();
     let pins = match &a.eval.pin {
         Some(p) => read_pins(p)?,
@@ -191,6 +193,28 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         .filter(|s| provisio::pipeline::training_history(s, a.holdout, &train).is_none())
         .map(|s| &*s.product)
         .collect();
+    // Too short to hide the months and keep 24 for the backtest: named.
+    let short: Vec<&str> = cleaned
+        .series
+        .iter()
+        .filter(|s| s.len() <= a.holdout + 24)
+        .map(|s| &*s.product)
+        .collect();
+    if !short.is_empty() && short.len() < cleaned.series.len() {
+        super::warn(&format!(
+            "{} product(s) not evaluated: {} months of history are needed (--holdout {} + 24 for the backtest): {}{}",
+            short.len(),
+            a.holdout + 25,
+            a.holdout,
+            short
+                .iter()
+                .take(5)
+                .map(|p| format!("'{p}'"))
+                .collect::<Vec<_>>()
+                .join(", "),
+            if short.len() > 5 { ", …" } else { "" }
+        ));
+    }
     if !stopped.is_empty() {
         super::warn(&format!(
             "{} product(s) not evaluated: cleaned without the hidden months, their history does not reach the month before them (no row there), so the forecast would not start where the hidden months do: {}",
@@ -203,9 +227,8 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
                 .join(", ")
         ));
     }
-    if a.truth {
-        let truth = read_truth(&a.data)?;
-        let left_out = score_against_truth(&mut results, &cleaned.series, &truth, a.holdout);
+    if let Some(truth) = &truth {
+        let left_out = score_against_truth(&mut results, &cleaned.series, truth, a.holdout);
         say!(
             "scored against the true demand in {}{}",
             a.data.display(),
@@ -347,7 +370,12 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             "holdout": a.holdout,
             "products": n,
             "default": default_choice,
-            "methods": rows.iter().map(|t| row(t)).collect::<Vec<_>>(),
+            // Every method, as the --csv file has them; `products` says how
+            // many products each applied to.
+            "methods": std::iter::once(&selected)
+                .chain(singles.iter())
+                .map(row)
+                .collect::<Vec<_>>(),
             "ranges": ranges.iter().map(|r| serde_json::json!({
                 "ranges": r.name,
                 "inside_80_pct": r.inside(0),

@@ -60,11 +60,15 @@ pub fn run(a: GenerateArgs) -> anyhow::Result<()> {
         let last = a.start.plus(a.months as i64 - 1);
         if let Some(now) = super::current_month().filter(|now| last > *now) {
             let fits = a.start.months_until(now) + 1;
+            let hint = if fits >= 1 {
+                format!("use --months {fits} or fewer, or an earlier --start")
+            } else {
+                format!("give a --start of {now} or earlier")
+            };
             anyhow::bail!(
-                "--months {} from {} runs to {last}, after the current month {now}, and provisio refuses future months as data: use --months {} or fewer, or an earlier --start",
+                "--months {} from {} runs to {last}, after the current month {now}, and provisio refuses future months as data: {hint}",
                 a.months,
                 a.start,
-                fits.max(0)
             );
         }
         let mut sc = provisio::generate::synthetic_scenario(a.products, a.sites, a.months, a.seed);
