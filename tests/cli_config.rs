@@ -332,6 +332,17 @@ fn json_summary_and_quiet() {
     let o = w.run(&["backtest", "data.csv", "--json", "--origins", "3"]);
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["products"][0]["product"], "Alpha");
+    // forecast's keys that a backtest has too (README, "JSON summary").
+    for key in [
+        "config_file",
+        "default_model",
+        "products_unusable",
+        "rows",
+        "seconds",
+    ] {
+        assert!(v.get(key).is_some(), "backtest --json lacks {key}: {v}");
+    }
+    assert!(v["default_model"]["default"].is_string(), "{v}");
     let o = w.run(&["inspect", "data.csv", "--json"]);
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["products"].as_array().map(Vec::len), Some(2));

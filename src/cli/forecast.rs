@@ -1289,9 +1289,12 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         serde_json::json!({
             "command": "backtest",
             "input": ds.source,
+            "config_file": LoadedConfig::manifest(config.as_ref()).0,
             "out": a.out.as_ref().map(|p| p.display().to_string()),
             "rows": cleaned.rows,
             "products": results.iter().map(product_json).collect::<Vec<_>>(),
+            "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
+            "default_model": choice,
             "seconds": secs,
         })
     });
