@@ -1010,3 +1010,30 @@ fn evaluate_json_lists_every_method_and_names_products_too_short() {
         "{err}"
     );
 }
+
+/// MASE (Hyndman & Koehler, IJF 22(4), 2006) is undefined on a history
+/// whose seasonal-naive error is zero; the summary says over how many
+/// products its mean is taken, and the JSON gives the count per method.
+#[test]
+fn evaluate_says_over_how_many_products_mase_is_averaged() {
+    let w = common::Workdir::new();
+    let mut data = String::from("product,month,consumed\n");
+    for k in 0..48 {
+        let (y, m) = (2021 + k / 12, k % 12 + 1);
+        data.push_str(&format!("Flat,{y}-{m:02},100\n"));
+        data.push_str(&format!("Moving,{y}-{m:02},{}\n", 100 + (k * 7) % 13 + k));
+    }
+    w.write("d.csv", &data);
+    let o = w.run(&["--json", "evaluate", "d.csv", "--holdout", "12"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).expect("JSON");
+    let sel = &j["methods"][0];
+    assert_eq!(sel["products"], 2);
+    assert_eq!(sel["mase_products"], 1);
+    let o = w.run(&["evaluate", "d.csv", "--holdout", "12"]);
+    assert!(
+        text(&o).contains("(mean MASE is over 1 of the 2 products"),
+        "{}",
+        text(&o)
+    );
+}

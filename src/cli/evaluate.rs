@@ -344,6 +344,15 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
             fmt3(selected.mase())
         );
     }
+    // MASE is undefined where the history's seasonal-naive error is zero
+    // (a constant or all-zero series): the mean is over the others.
+    if selected.mase_n < selected.products {
+        say!(
+            "(mean MASE is over {} of the {} products: the others' history has no seasonal-naive error to scale by, a constant or all-zero series)",
+            selected.mase_n,
+            selected.products
+        );
+    }
     say!(
         "(models that did not apply to every product are left out of this table; {:.1} s)",
         t0.elapsed().as_secs_f64()
@@ -360,6 +369,7 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
                 "mean_mape_pct": t.mape(),
                 "median_mape_pct": t.median_mape(),
                 "mean_mase": t.mase(),
+                "mase_products": t.mase_n,
                 "wape_pct": t.wape(),
                 "bias_pct": t.bias(),
             })
