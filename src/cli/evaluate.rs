@@ -119,6 +119,15 @@ impl Tally {
     }
 }
 
+/// The first five product names quoted, then "…" when there are more.
+fn first_named(products: &[&str]) -> String {
+    let mut out: Vec<String> = products.iter().take(5).map(|p| format!("'{p}'")).collect();
+    if products.len() > 5 {
+        out.push("…".to_string());
+    }
+    out.join(", ")
+}
+
 pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
     let config = LoadedConfig::load_opt(a.config.as_ref())?;
     if let Some(c) = &config {
@@ -202,29 +211,18 @@ pub fn run_evaluate(mut a: EvaluateArgs, given: &Given) -> anyhow::Result<()> {
         .collect();
     if !short.is_empty() && short.len() < cleaned.series.len() {
         super::warn(&format!(
-            "{} product(s) not evaluated: {} months of history are needed (--holdout {} + 24 for the backtest): {}{}",
+            "{} product(s) not evaluated: {} months of history are needed (--holdout {} + 24 for the backtest): {}",
             short.len(),
             a.holdout + 25,
             a.holdout,
-            short
-                .iter()
-                .take(5)
-                .map(|p| format!("'{p}'"))
-                .collect::<Vec<_>>()
-                .join(", "),
-            if short.len() > 5 { ", …" } else { "" }
+            first_named(&short)
         ));
     }
     if !stopped.is_empty() {
         super::warn(&format!(
             "{} product(s) not evaluated: cleaned without the hidden months, their history does not reach the month before them (no row there), so the forecast would not start where the hidden months do: {}",
             stopped.len(),
-            stopped
-                .iter()
-                .take(5)
-                .map(|p| format!("'{p}'"))
-                .collect::<Vec<_>>()
-                .join(", ")
+            first_named(&stopped)
         ));
     }
     if let Some(truth) = &truth {

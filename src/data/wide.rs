@@ -526,6 +526,10 @@ struct Side {
 /// How many rows a message lists before "and N more".
 const LISTED: usize = 5;
 
+/// What a side-table row with no product usually is, said after a
+/// warning that lists one.
+const MERGED_HINT: &str = "; rows with no product are usually merged cells (a product written once over its sites' rows): unmerge them and write the product on every row";
+
 fn listed(items: &[String]) -> String {
     let mut out: Vec<String> = items.iter().take(LISTED).cloned().collect();
     if items.len() > LISTED {
@@ -638,7 +642,7 @@ impl Side {
                 if header.site.is_some() { " and site" } else { "" },
                 listed(&twice),
                 if blank_product {
-                    "; rows with no product are usually merged cells (a product written once over its sites' rows): unmerge them and write the product on every row"
+                    MERGED_HINT
                 } else {
                     ""
                 }
@@ -722,7 +726,7 @@ impl Side {
             if self.header.site.is_some() { " and site" } else { "" },
             listed(&names),
             if blank {
-                "; rows with no product are usually merged cells: unmerge them and write the product on every row"
+                MERGED_HINT
             } else {
                 ""
             }
