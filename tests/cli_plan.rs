@@ -28,6 +28,19 @@ fn hand_forecast(w: &Workdir, csv: &str) {
     w.write("fc/.provisio-output", "marker\n");
 }
 
+/// `plan fc --stock STOCK --on-order ON_ORDER --no-report` in `w`.
+fn plan_with_on_order(w: &Workdir, stock: &str, on_order: &str) -> std::process::Output {
+    w.run(&[
+        "plan",
+        "fc",
+        "--stock",
+        stock,
+        "--on-order",
+        on_order,
+        "--no-report",
+    ])
+}
+
 fn num(r: &BTreeMap<String, String>, c: &str) -> f64 {
     r[c].parse().unwrap_or_else(|_| panic!("{c}: {:?}", r[c]))
 }
@@ -266,15 +279,7 @@ fn logistics_handbook_example_end_to_end() {
         "oo.csv",
         "product,quantity,arrival_month\nTest kit,1000,2027-01\n",
     );
-    let o = w.run(&[
-        "plan",
-        "fc",
-        "--stock",
-        "stock.csv",
-        "--on-order",
-        "oo.csv",
-        "--no-report",
-    ]);
+    let o = plan_with_on_order(&w, "stock.csv", "oo.csv");
     assert!(o.status.success(), "{}", text(&o));
     let orders = w.read_csv_maps("fc/orders.csv");
     assert_eq!(orders[0]["order_month"], "2027-01");
@@ -769,15 +774,7 @@ fn a_shipment_entered_twice_is_counted_and_warned_about() {
         "on_order.csv",
         "product,quantity,arrival_month\nPill,1500,2027-02\nPill,1500,2027-02\n",
     );
-    let o = w.run(&[
-        "plan",
-        "fc",
-        "--stock",
-        "stock.csv",
-        "--on-order",
-        "on_order.csv",
-        "--no-report",
-    ]);
+    let o = plan_with_on_order(&w, "stock.csv", "on_order.csv");
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     assert!(t.contains("line 3 repeats line 2"), "{t}");
@@ -821,15 +818,7 @@ fn nothing_on_order_and_a_misspelt_shipment_are_read_as_meant() {
         format!("{HEADER}Pill,20000,2026-12,1,2,6,1,10,1,,\n"),
     );
     w.write("none.csv", "product,quantity,arrival_month\n");
-    let o = w.run(&[
-        "plan",
-        "fc",
-        "--stock",
-        "stock.csv",
-        "--on-order",
-        "none.csv",
-        "--no-report",
-    ]);
+    let o = plan_with_on_order(&w, "stock.csv", "none.csv");
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     let plan = w.read_csv_maps("fc/plan.csv");
@@ -838,15 +827,7 @@ fn nothing_on_order_and_a_misspelt_shipment_are_read_as_meant() {
         "typo.csv",
         "product,quantity,arrival_month\npill,1500,2027-02\n",
     );
-    let o = w.run(&[
-        "plan",
-        "fc",
-        "--stock",
-        "stock.csv",
-        "--on-order",
-        "typo.csv",
-        "--no-report",
-    ]);
+    let o = plan_with_on_order(&w, "stock.csv", "typo.csv");
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     assert!(
