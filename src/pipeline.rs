@@ -1063,16 +1063,24 @@ pub fn suspect_warnings(
             if jump.abs() > WARN_JUMP && !backed && intermittent {
                 // A smoothed rate of occasional demands lags a fall (or a
                 // rise) in how often the product is asked for.
+                let before = if prev > 0.0 {
+                    format!("a change of {:+.0}% year on year", hist * 100.0)
+                } else {
+                    "a year with no consumption".to_string()
+                };
                 out.push(format!(
-                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}% after a change of {:+.0}% year on year; the intermittent-demand rate may lag a real change in how often the product is used: check whether demand has stopped, moved or picked up",
+                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}% after {before}; the intermittent-demand rate may lag a real change in how often the product is used: check whether demand has stopped, moved or picked up",
                     jump * 100.0,
-                    hist * 100.0
                 ));
             } else if jump.abs() > WARN_JUMP && !backed {
+                let trend = if prev > 0.0 {
+                    format!("{:+.0}% year on year", hist * 100.0)
+                } else {
+                    "not measurable: no consumption the year before".to_string()
+                };
                 out.push(format!(
-                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}%, more than the history's own trend ({:+.0}% year on year) supports; check for a recent break or an outlier at the end of the history",
+                    "product '{product}': the next 12 months ({next:.0}) differ from the last 12 ({last:.0}) by {:+.0}%, more than the history's own trend ({trend}) supports; check for a recent break or an outlier at the end of the history",
                     jump * 100.0,
-                    hist * 100.0
                 ));
             }
             if let Some(w) = scale_up_warning(product, y, jump, intermittent) {

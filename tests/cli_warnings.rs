@@ -69,6 +69,10 @@ fn data(w: &Workdir) {
     s.push_str(&rows("Air scale-up", &grow));
     // AirPassengers itself grows by 10–20% a year: no scale-up warning.
     s.push_str(&rows("Air plain", &a[..72]));
+    // Nothing for 29 months, then one month's demand: there is no year-on-year
+    // change to quote (a tester saw "+0% year on year").
+    let late: Vec<f64> = (0..30).map(|t| if t == 29 { a[t] } else { 0.0 }).collect();
+    s.push_str(&rows("Air late start", &late));
     w.write("d.csv", s);
     w.write(
         "run.toml",
@@ -145,6 +149,14 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
         let column = &sel.iter().find(|r| r["product"] == product).unwrap()["warnings"];
         assert!(!column.contains("scale-up"), "{product}: {column}");
     }
+    let late = &sel
+        .iter()
+        .find(|r| r["product"] == "Air late start")
+        .unwrap()["warnings"];
+    assert!(
+        late.contains("after a year with no consumption") && !late.contains("year on year"),
+        "{late}"
+    );
     let drop = &sel.iter().find(|r| r["product"] == "Air drop").unwrap()["warnings"];
     assert!(
         !drop.contains("fewer than 24") && !drop.contains("projected at zero"),

@@ -698,7 +698,7 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
             .projection
             .as_ref()
             .and_then(|p| p.totals.first())
-            .map(|t| format!("{t:>18.0}"))
+            .map(|&t| format!("{:>18}", fmt_total(t)))
             .unwrap_or_else(|| format!("{:>18}", "-"));
         let mut chosen = s.chosen.clone();
         if s.pinned {
@@ -718,6 +718,17 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
         );
     }
     println!("(score: backtest score of the chosen model on the cleaned series; bias > 0 = over-forecast; runner-up: the best other model and its score against the chosen one, negative when it scored better but without clear evidence — selection.csv's reason says why)");
+}
+
+/// A 12-month total for the terminal: whole units from 10 up, two
+/// significant digits below, so that a small total (0.12 of a unit) does
+/// not print as a projection of zero.
+fn fmt_total(t: f64) -> String {
+    if t == 0.0 || !t.is_finite() || t.abs() >= 10.0 {
+        return format!("{t:.0}");
+    }
+    let decimals = (1 - t.abs().log10().floor() as i32).clamp(1, 12) as usize;
+    format!("{t:.decimals$}")
 }
 
 /// The machine-readable summary of one product (see README, "JSON summary").
@@ -1299,4 +1310,21 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
         })
     });
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::fmt_total;
+
+    #[test]
+    fn a_small_total_is_not_printed_as_zero() {
+        // A tester's product of 0.01 a month: next 12 months 0.12, shown
+        // as "0" before (the report and total_months_1_12 said 0.12).
+        assert_eq!(fmt_total(0.12), "0.12");
+        assert_eq!(fmt_total(0.1616), "0.16");
+        assert_eq!(fmt_total(0.0071), "0.0071");
+        assert_eq!(fmt_total(3.456), "3.5");
+        assert_eq!(fmt_total(0.0), "0");
+        assert_eq!(fmt_total(14003.4), "14003");
+    }
 }
