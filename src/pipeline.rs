@@ -870,10 +870,8 @@ fn finish_product(
             "product '{}': projection with {} failed ({e}); the fallback {fallback} is used",
             series.product, selection.chosen
         ));
-        projection = match find(fallback) {
-            Some(m) => project_with(y, last, end, fallback, &[m], settings.horizon, Some(cache)),
-            None => projection,
-        };
+        // The combination is no single model: `project_named` fits its members.
+        projection = project_named(fallback);
     }
     let mut scores = base_scores.to_vec();
     scores.extend(
@@ -2110,6 +2108,33 @@ mod tests {
             both.selection.reason
         );
         assert!(both.warnings.is_empty(), "{:?}", both.warnings);
+        // A pinned model too demanding for the history (arima-auto needs 24
+        // months, common practice for a seasonal ARIMA; here 18): the
+        // warning says the fallback is used, and it is (a tester saw the
+        // warning and then no projection at all).
+        let short = run(
+            &seasonal_series(18),
+            &ProductOptions {
+                model: Some("arima-auto".into()),
+                ..ProductOptions::default()
+            },
+        );
+        let p = short.projection.as_ref().expect("the fallback projects");
+        assert_eq!(p.model, COMBINATION, "{:?}", short.warnings);
+        assert!(
+            short
+                .warnings
+                .iter()
+                .any(|w| w.contains(&format!("the fallback {} is used", p.model))),
+            "{:?}",
+            short.warnings
+        );
+        assert!(
+            !short.warnings.iter().any(|w| w.contains("no projection")),
+            "{:?}",
+            short.warnings
+        );
+        assert!(p.forecast.point.iter().all(|v| v.is_finite() && *v > 0.0));
     }
 
     #[test]
