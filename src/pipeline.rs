@@ -743,15 +743,31 @@ fn select_for(
         // earliest origins, so the backtest could not weigh the default
         // against the others; the default is kept rather than a model
         // chosen on a partial comparison.
+        // Its own scores over the origins it reached are shown (a tester
+        // found them blank and the report calling the product "not
+        // backtested"); no runner-up margin, since the others were scored
+        // on more origins.
+        let partial = bt.run(COMBINATION).map(|r| {
+            let reached = r.forecasts.iter().filter(|f| f.is_some()).count();
+            (bt.scores(r), reached)
+        });
+        let reached = partial.as_ref().map_or(String::new(), |(_, k)| {
+            format!(
+                "; its scores are over the {k} of {} origins its members reached",
+                bt.origins.len()
+            )
+        });
         selection.reason = format!(
-            "the default combination (of {}) is kept: the history is too short for its members at the earliest backtest origins, so the backtest cannot show another model clearly better (it would pick {}: {})",
+            "the default combination (of {}) is kept: the history is too short for its members at the earliest backtest origins, so the backtest cannot show another model clearly better (it would pick {}: {}){reached}",
             fitting_members.join(", "),
             selection.chosen,
             selection.reason
         );
         selection.chosen = COMBINATION.to_string();
         selection.best = COMBINATION.to_string();
-        selection.chosen_scores = None;
+        selection.chosen_scores = partial.map(|(s, _)| s);
+        selection.runner_up = None;
+        selection.margin_pct = None;
     }
     if !selection.backtested && !selection.pinned && selection.chosen == COMBINATION {
         selection.reason = format!(
@@ -2044,6 +2060,16 @@ mod tests {
         // monthly, see select::NEAR_TIE and the README).
         let r = run(&seasonal_series(30), &ProductOptions::default());
         assert_eq!(r.selection.chosen, COMBINATION, "{}", r.selection.reason);
+        // Its scores over the origins it reached are given, with no
+        // runner-up margin against models scored on more origins.
+        let mase = r.selection.chosen_scores.and_then(|s| s.mase);
+        assert!(mase.is_some_and(f64::is_finite), "{:?}", r.selection);
+        assert!(r.selection.runner_up.is_none() && r.selection.margin_pct.is_none());
+        assert!(
+            r.selection.reason.contains("origins its members reached"),
+            "{}",
+            r.selection.reason
+        );
         let p = r.projection.as_ref().unwrap();
         assert!(p.members.len() >= 2, "{:?}", p.members);
         assert!(p.forecast.point.iter().all(|&v| v > 0.0));
