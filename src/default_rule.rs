@@ -486,7 +486,7 @@ pub fn decide(rule: DefaultRule, checks: &[ProductCheck]) -> DefaultChoice {
         (Some(c), Some(q), Some(p)) if c > 0.0 => format!(
             "over {n} products, each product's best five, chosen {made}, scored {q:.3} mean scaled error on {months}, against the combination's {c:.3} ({:+.1}%; paired t-test, one-sided p {})",
             100.0 * (q / c - 1.0),
-            fmt_p(p)
+            crate::metrics::fmt_p(p)
         ),
         _ => format!("{n} products allowed the check"),
     };
@@ -623,7 +623,7 @@ pub fn decide_with_weights(
         parts.push(format!(
             "{we:.3} against {name}'s {oe:.3} over {} products (paired t-test that {name} is better, one-sided p {})",
             pairs.len(),
-            p.map(fmt_p).unwrap_or_else(|| "not defined".into())
+            p.map(crate::metrics::fmt_p).unwrap_or_else(|| "not defined".into())
         ));
         if p.is_some_and(|p| p <= LEVEL) && oe < we && worse_than.is_none() {
             worse_than = Some(name);
@@ -653,14 +653,6 @@ pub fn decide_with_weights(
         }
     }
     choice
-}
-
-fn fmt_p(p: f64) -> String {
-    if p < 0.001 {
-        "< 0.001".to_string()
-    } else {
-        format!("= {p:.3}")
-    }
 }
 
 /// One-sided p-value that the second of each pair is lower on average:

@@ -56,6 +56,16 @@ pub fn rmse(actual: &[f64], forecast: &[f64]) -> Option<f64> {
     })
 }
 
+/// A p-value as text after "p": "= 0.019", or "< 0.001" where three
+/// decimals would print 0.000 (common practice in reporting tests).
+pub fn fmt_p(p: f64) -> String {
+    if p < 0.001 {
+        "< 0.001".to_string()
+    } else {
+        format!("= {p:.3}")
+    }
+}
+
 /// In-sample MAE of the seasonal naive forecast (lag `period`) on a
 /// training window: the MASE scale of Hyndman & Koehler (IJF 22(4), 2006).
 /// Falls back to lag 1 when the window is not longer than one period.
@@ -237,6 +247,16 @@ impl Score {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn a_tiny_p_value_is_not_printed_as_zero() {
+        // A sign test won at 12 of 12 origins: p = 0.5^12 = 0.000244
+        // (binomial, exact); it printed as "p = 0.000" in the reasons.
+        assert_eq!(fmt_p(0.5f64.powi(12)), "< 0.001");
+        assert_eq!(fmt_p(0.019), "= 0.019");
+        assert_eq!(fmt_p(0.001), "= 0.001");
+    }
+
     use super::*;
 
     #[test]

@@ -404,12 +404,13 @@ fn against_default(
     );
     if gain > settings.tie_margin && p <= EVIDENCE_LEVEL {
         let reason = format!(
-            "clearly better than {what} ({} {}): {} {} is {:.0}% lower and better at {wins} of {n} origins (sign test p = {p:.3})",
+            "clearly better than {what} ({} {}): {} {} is {:.0}% lower and better at {wins} of {n} origins (sign test p {})",
             d.0,
             fmt_score(score, d.1),
             score.name(),
             fmt_score(score, c.1),
             gain * 100.0,
+            crate::metrics::fmt_p(p),
         );
         return (c.clone(), reason);
     }

@@ -466,3 +466,19 @@ fn skeleton_sees_structure_changes() {
     assert_ne!(a, c);
     assert_eq!(a, "main\n  section.product\n    h2: A\n");
 }
+
+/// The data-quality attention list says missing months and months
+/// stocked out too long apart, as each product's own data-quality line
+/// does (a tester read "16 month(s) missing" there against "0 missing; 27
+/// with stockouts" in the product's detail). Fixture: quality.csv, where
+/// the cold-chain antivenom has 0 months missing and 16 stocked out too
+/// long.
+#[test]
+fn the_attention_list_does_not_call_stocked_out_months_missing() {
+    let (_tmp, _dir, html) = built();
+    assert!(
+        html.contains("fit with care, 16 month(s) stocked out too long to use"),
+        "attention list wording changed"
+    );
+    assert!(!html.contains("16 month(s) missing"));
+}

@@ -633,7 +633,7 @@ mod tests {
             runner_up: "ets-damped".into(),
             margin: Some(-79.1),
             selected_by: "MASE".into(),
-            reason: "pinned by the user; the backtest's choice would be ets-damped (clearly better than the default, a fixed combination (combination 0.114): MASE 0.039 is 66% lower and better at 12 of 12 origins (sign test p = 0.000)); pinned model MASE 0.187".into(),
+            reason: "pinned by the user; the backtest's choice would be ets-damped (clearly better than the default, a fixed combination (combination 0.114): MASE 0.039 is 66% lower and better at 12 of 12 origins (sign test p < 0.001)); pinned model MASE 0.187".into(),
             ..Default::default()
         };
         s.scores.mase = Some(0.187);

@@ -458,10 +458,13 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
             let q = run.products[i].quality.as_ref();
             let verdict = q.map(|q| q.verdict.as_str()).unwrap_or("");
             let reason = q.and_then(|q| q.reasons.first()).map(String::as_str);
-            let missing = q.map(months_missing).unwrap_or(0);
+            // Said apart, as the product's own data-quality line says them
+            // (a tester read "16 month(s) missing" here against "0
+            // missing; 27 with stockouts" there).
+            let months = q.map(missing_words).unwrap_or_default();
             let note = match reason {
-                Some(r) => format!("{verdict}, {missing} month(s) missing: {r}"),
-                None => format!("{verdict}, {missing} month(s) missing"),
+                Some(r) => format!("{verdict}, {months}: {r}"),
+                None => format!("{verdict}, {months}"),
             };
             (i, chart::cut(&note, 160))
         })
@@ -509,6 +512,27 @@ pub fn attention_lists(run: &ForecastRun) -> Vec<AttentionList> {
 /// Months a product's history lacks: months not reported, plus reported
 /// months whose stockouts were too long to trust and are treated as
 /// missing (the two never overlap: only a reported month is treated so).
+/// "3 month(s) missing, 16 stocked out too long to use" (either part left
+/// out when zero; "no month missing" when both are).
+fn missing_words(q: &Quality) -> String {
+    let n = |v: &str| v.trim().parse::<usize>().unwrap_or(0);
+    let (missing, stocked_out) = (n(&q.months_missing), n(&q.months_stocked_out_too_long));
+    let mut parts = Vec::new();
+    if missing > 0 {
+        parts.push(format!("{missing} month(s) missing"));
+    }
+    if stocked_out > 0 {
+        parts.push(format!(
+            "{stocked_out} month(s) stocked out too long to use"
+        ));
+    }
+    if parts.is_empty() {
+        "no month missing".to_string()
+    } else {
+        parts.join(", ")
+    }
+}
+
 fn months_missing(q: &Quality) -> usize {
     let n = |v: &str| v.trim().parse::<usize>().unwrap_or(0);
     n(&q.months_missing).saturating_add(n(&q.months_stocked_out_too_long))

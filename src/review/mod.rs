@@ -527,15 +527,16 @@ impl ProductReview {
             if let (Some(c), Some(p)) = (c, p) {
                 if p < COVERAGE_TEST_LEVEL {
                     out.push(format!(
-                        "the {label} range held {c:.0}% of the actuals, short of {label} beyond chance (binomial p = {p:.3})"
+                        "the {label} range held {c:.0}% of the actuals, short of {label} beyond chance (binomial p {})",
+                        crate::metrics::fmt_p(p)
                     ));
                 }
             }
         }
         for nb in s.naive_better() {
             out.push(format!(
-                "did worse than {} made at the same time, by {:.1} WAPE points; the naive was closer in {} of {} months (sign test p = {:.3})",
-                nb.which, nb.points, nb.closer.0, nb.closer.1, nb.p
+                "did worse than {} made at the same time, by {:.1} WAPE points; the naive was closer in {} of {} months (sign test p {})",
+                nb.which, nb.points, nb.closer.0, nb.closer.1, crate::metrics::fmt_p(nb.p)
             ));
         }
         if let (Some(m), Some(p)) = (s.mape, self.promised.mape) {
