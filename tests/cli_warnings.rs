@@ -163,3 +163,32 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
         "{drop}"
     );
 }
+
+/// The closing line counts only the products projected (a tester's
+/// one-month product: "forecast 3 product(s)" with 2 projected). Two
+/// products from AirPassengers: its first month alone, and 30 months.
+#[test]
+fn the_summary_counts_the_products_projected() {
+    let w = Workdir::new();
+    let a = air();
+    let mut s = String::from("product,month,consumed\n");
+    s.push_str(&rows("Air one month", &a[..1]));
+    s.push_str(&rows("Air thirty", &a[..30]));
+    w.write("d.csv", s);
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--out",
+        "o",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains(
+            "forecast 1 of 2 product(s) (no projection for 1: see the warnings) for 24 months"
+        ),
+        "{t}"
+    );
+}

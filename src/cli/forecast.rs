@@ -1079,6 +1079,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::changes::print_applied(c, ap);
     }
     let products = results.len();
+    let unprojected = results.iter().filter(|r| r.projection.is_none()).count();
     let summary = super::json_wanted().then(|| {
         serde_json::json!({
             "command": "forecast",
@@ -1135,9 +1136,19 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     if let Some(v) = summary {
         super::json_summary(|| v);
     }
+    let counted = if unprojected == 0 {
+        format!("{products} product(s)")
+    } else {
+        // A tester's one-month product: "forecast 3 product(s)" with 2
+        // projected.
+        format!(
+            "{} of {products} product(s) (no projection for {unprojected}: see the warnings)",
+            products - unprojected
+        )
+    };
     say!(
-        "forecast {} product(s) for {} months in {}; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
-        products,
+        "forecast {} for {} months in {}; wrote forecast.csv, forecast_wide.csv, selection.csv, scores.csv, scores_by_horizon.csv, backtest.csv, cleaned.csv, adjustments.csv, rejected.csv, quality.csv, manifest.json in {}",
+        counted,
         a.horizon,
         super::fmt_secs(secs),
         a_out.display()
