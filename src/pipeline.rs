@@ -2066,7 +2066,10 @@ mod tests {
         assert!(mase.is_some_and(f64::is_finite), "{:?}", r.selection);
         assert!(r.selection.runner_up.is_none() && r.selection.margin_pct.is_none());
         assert!(
-            r.selection.reason.contains("origins its members reached"),
+            r.selection.reason.contains("origins its members reached")
+                && r.selection
+                    .reason
+                    .contains("among the models that forecast at every origin"),
             "{}",
             r.selection.reason
         );

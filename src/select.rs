@@ -454,9 +454,22 @@ fn lowest(
         .filter(|r| r.1 <= limit)
         .min_by_key(|r| complexity(&r.0))
         .unwrap_or(best);
+    // Only models that forecast at every origin are ranked; when some
+    // could not (too short a history at the earliest), say so, since their
+    // scores in scores.csv may be lower (a tester read "lowest MASE 8.142"
+    // beside partial scores of 2.6).
+    let partial = bt
+        .runs
+        .iter()
+        .any(|r| matches!(r.status, RunStatus::Incomplete { .. }));
+    let among = if partial {
+        " among the models that forecast at every origin"
+    } else {
+        ""
+    };
     let reason = if pick.0 == best.0 {
         format!(
-            "lowest {} over {} origins × {} months ({} forecasts): {}",
+            "lowest {}{among} over {} origins × {} months ({} forecasts): {}",
             score.name(),
             bt.origins.len(),
             bt.horizon,
