@@ -105,14 +105,16 @@ impl Drop for TempFile {
 /// Writes a file atomically: `fill` writes into a temporary file in the same
 /// directory, which is flushed to disk and then renamed to `path`. A reader
 /// (or a run killed half-way) sees the old file or the new one, never a part.
+///
+/// A symbolic link is followed: the file it points to is replaced and the
+/// link kept. A path that is neither a regular file nor a folder (a named
+/// pipe, `/dev/stdout`, a terminal) is written straight into: renaming over
+/// it would replace the pipe or device with a regular file (a tester's
+/// `--csv /dev/stdout` replaced the system's `/dev/stdout` link).
 pub fn write_atomic<F>(path: &Path, fill: F) -> Result<()>
 where
     F: FnOnce(&mut dyn Write) -> std::io::Result<()>,
 {
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or_else(|| Path::new("."));
     let io = |action: &'static str| {
         move |source| Error::Io {
             path: path.to_path_buf(),
@@ -120,6 +122,27 @@ where
             source,
         }
     };
+    if let Ok(m) = std::fs::metadata(path) {
+        if !m.is_file() && !m.is_dir() {
+            let file = OpenOptions::new()
+                .write(true)
+                .open(path)
+                .map_err(io("cannot open for writing"))?;
+            let mut w = std::io::BufWriter::new(file);
+            fill(&mut w).map_err(io("cannot write"))?;
+            w.flush().map_err(io("cannot write"))?;
+            return Ok(());
+        }
+    }
+    let is_link = std::fs::symlink_metadata(path).is_ok_and(|m| m.file_type().is_symlink());
+    if is_link {
+        let target = link_target(path).map_err(io("cannot follow the link"))?;
+        return write_atomic(&target, fill);
+    }
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or_else(|| Path::new("."));
     let mut tmp = TempFile::create(dir).map_err(io("cannot create a temporary file beside"))?;
     if let Some(file) = tmp.file.as_mut() {
         let mut w = std::io::BufWriter::new(&mut *file);
@@ -135,6 +158,28 @@ where
     }
     tmp.persist(path).map_err(io("cannot move into place"))?;
     Ok(())
+}
+
+/// Where the symbolic link `path` leads: its final target when that exists,
+/// else the path it names (relative to the link's folder), followed through
+/// at most 40 links (the usual system limit).
+fn link_target(path: &Path) -> std::io::Result<PathBuf> {
+    if let Ok(p) = std::fs::canonicalize(path) {
+        return Ok(p);
+    }
+    let mut p = path.to_path_buf();
+    for _ in 0..40 {
+        match std::fs::read_link(&p) {
+            Ok(next) => {
+                p = match p.parent() {
+                    Some(dir) if next.is_relative() => dir.join(next),
+                    _ => next,
+                };
+            }
+            Err(_) => return Ok(p),
+        }
+    }
+    Err(std::io::Error::other("too many levels of symbolic links"))
 }
 
 /// File name whose writing fails, for tests of failures half-way through a
@@ -467,6 +512,60 @@ pub fn check_workbook_fits(products: usize) -> std::result::Result<(), String> {
 
 #[cfg(test)]
 mod tests {
+
+    #[test]
+    fn a_link_is_followed_and_kept() {
+        // A tester's `--csv link` turned the link into a regular file and
+        // left its target as it was.
+        let d = tempfile::tempdir().unwrap();
+        let real = d.path().join("real.csv");
+        std::fs::write(&real, "old").unwrap();
+        let link = d.path().join("link.csv");
+        std::os::unix::fs::symlink("real.csv", &link).unwrap();
+        write_atomic(&link, |w| w.write_all(b"new")).unwrap();
+        assert!(std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+        assert_eq!(std::fs::read_to_string(&real).unwrap(), "new");
+        // A link whose target does not exist yet: the target is created.
+        let dangling = d.path().join("dangling.csv");
+        std::os::unix::fs::symlink("later.csv", &dangling).unwrap();
+        write_atomic(&dangling, |w| w.write_all(b"x")).unwrap();
+        assert!(std::fs::symlink_metadata(&dangling)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+        assert_eq!(
+            std::fs::read_to_string(d.path().join("later.csv")).unwrap(),
+            "x"
+        );
+    }
+
+    #[test]
+    fn a_device_or_a_pipe_is_written_into_not_replaced() {
+        // (The old code, run as root, would have replaced a device such as
+        // /dev/stdout's target; a pipe stands for every such path here.)
+        use std::os::unix::fs::FileTypeExt;
+        // A named pipe (mkfifo, POSIX) gets the bytes and stays a pipe.
+        let d = tempfile::tempdir().unwrap();
+        let fifo = d.path().join("pipe");
+        let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+        if !made.is_ok_and(|s| s.success()) {
+            return; // no mkfifo on this machine
+        }
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || std::fs::read_to_string(fifo).unwrap())
+        };
+        write_atomic(&fifo, |w| w.write_all(b"through the pipe")).unwrap();
+        assert_eq!(reader.join().unwrap(), "through the pipe");
+        assert!(std::fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo());
+    }
+
     use super::*;
 
     #[test]
