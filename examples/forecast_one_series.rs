@@ -28,7 +28,7 @@ fn main() -> Result<(), provisio::Error> {
         values,
     );
 
-    // Defaults: 12 backtest origins, 12 months ahead each, chosen by MAPE;
+    // Defaults: 12 backtest origins, 12 months ahead each, chosen by MASE;
     // project 12 months.
     let settings = ForecastSettings {
         horizon: 12,

@@ -548,3 +548,32 @@ fn clean_and_inspect_take_the_cleaning_settings() {
     assert_eq!(beta["product"], "Beta");
     assert_eq!(beta["months_with_stockouts"], 3, "{beta}");
 }
+
+/// A file that contradicts itself is the file's fault: exit 1 with its
+/// line, not the usage error of a bad command line (exit 2, as a tester
+/// saw). Exit codes as the README documents them.
+#[test]
+fn a_file_contradicting_itself_is_refused_with_its_line() {
+    let w = workdir();
+    w.write(
+        "run.toml",
+        "[output]\nchart_files = [\"all\"]\nno_report = true\n",
+    );
+    let o = w.run(&["forecast", "data.csv", "--out", "o", "--config", "run.toml"]);
+    let t = text(&o);
+    assert_eq!(o.status.code(), Some(1), "{t}");
+    assert!(t.contains("run.toml line 3, column 1"), "{t}");
+    assert!(!t.contains("Usage:"), "{t}");
+    // Given on the command line against the file, it stays a usage error.
+    w.write("chart.toml", "[output]\nchart_files = [\"all\"]\n");
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--out",
+        "o",
+        "--config",
+        "chart.toml",
+        "--no-report",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+}

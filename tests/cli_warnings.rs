@@ -191,4 +191,35 @@ fn the_summary_counts_the_products_projected() {
         ),
         "{t}"
     );
+    // In the JSON summary the product with no projection has no model (a
+    // tester read "naive" there), and the run's own warnings have a key.
+    let o = w.run(&[
+        "--json",
+        "forecast",
+        "d.csv",
+        "--out",
+        "o2",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let one = v["products"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["product"] == "Air one month")
+        .unwrap();
+    assert!(one["model"].is_null(), "{one}");
+    assert!(
+        one["warnings"].to_string().contains("no projection"),
+        "{one}"
+    );
+    let thirty = v["products"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|p| p["product"] == "Air thirty")
+        .unwrap();
+    assert!(thirty["model"].is_string(), "{thirty}");
+    assert!(v["warnings"].is_array(), "{v}");
 }

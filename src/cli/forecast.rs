@@ -731,13 +731,17 @@ fn fmt_total(t: f64) -> String {
     format!("{t:.decimals$}")
 }
 
-/// The machine-readable summary of one product (see README, "JSON summary").
-fn product_json(r: &ProductForecast) -> serde_json::Value {
+/// The machine-readable summary of one product (see README, "JSON summary");
+/// `projected`: the run projects (forecast, not backtest).
+fn product_json(r: &ProductForecast, projected: bool) -> serde_json::Value {
     let s = &r.selection;
     let scores = s.chosen_scores.as_ref();
     serde_json::json!({
         "product": r.product,
-        "model": s.chosen,
+        // No model for a product given no projection (a tester read
+        // "naive" for a one-month product that was never forecast); its
+        // warnings say why.
+        "model": (!projected || r.projection.is_some()).then_some(&s.chosen),
         "pinned": s.pinned,
         "backtested": s.backtested,
         "selected_by": s.score.name(),
@@ -891,6 +895,27 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         )
     })?;
     if a.no_report && !a.chart_files.is_empty() {
+        // Both in the configuration file: the file is at fault (exit 1,
+        // with its line), not the command line (a tester saw exit 2 and a
+        // usage hint for a file that contradicted itself).
+        if let (Some(c), false, false) = (&config, given.cli("chart_files"), given.cli("no_report"))
+        {
+            let text = std::fs::read_to_string(&c.path).unwrap_or_default();
+            let line = text
+                .lines()
+                .position(|l| {
+                    let t = l.trim_start();
+                    t.starts_with("no_report") && t[9..].trim_start().starts_with('=')
+                })
+                .map_or(0, |i| i as u64 + 1);
+            return Err(provisio::Error::Config {
+                file: c.path.display().to_string(),
+                line,
+                column: u64::from(line > 0),
+                message: "[output] no_report = true skips the report, and [output] chart_files in the same file draws the report's charts: drop one of the two (or run `provisio report DIR --chart-files PRODUCT` later)".to_string(),
+            }
+            .into());
+        }
         // Name where each came from: a setting of the file cannot be
         // switched off on the command line.
         let from = |cli: &str, flag: &str, key: &str| match (&config, given.cli(cli)) {
@@ -1059,6 +1084,15 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     // The new forecast is complete: a plan or cross-check made from the
     // one it replaced no longer matches it.
     let retired = output::retire_derived(&a_out)?;
+    let retired_warning = (!retired.is_empty()).then(|| {
+        format!(
+            "{}: moved {} file(s) of an earlier plan or cross-check ({}) to {}: they were made from the forecast this run replaced; run `provisio plan` or `provisio crosscheck` again on the new forecast",
+            a_out.display(),
+            retired.len(),
+            retired.join(", "),
+            a_out.join(output::RETIRED_DIR).display()
+        )
+    });
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     if a.horizon < 12 {
@@ -1087,13 +1121,15 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "horizon": a.horizon,
             "config_file": LoadedConfig::manifest(config.as_ref()).0,
             "rows": cleaned.rows,
-            "products": results.iter().map(product_json).collect::<Vec<_>>(),
+            "products": results.iter().map(|r| product_json(r, true)).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
             "out": out_path.display().to_string(),
             "files": forecast_files(&out_path, !a.no_report, !a.no_workbook, applied.is_some()),
             "changes": applied.as_ref().map(super::changes::changes_json),
             "default_model": choice,
             "seconds": secs,
+            // The run's own warnings (each product's are with it).
+            "warnings": retired_warning.iter().collect::<Vec<_>>(),
         })
     });
     // The workbook and the report are built from the files just written;
@@ -1153,14 +1189,8 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         super::fmt_secs(secs),
         a_out.display()
     );
-    if !retired.is_empty() {
-        super::warn(&format!(
-            "{}: moved {} file(s) of an earlier plan or cross-check ({}) to {}: they were made from the forecast this run replaced; run `provisio plan` or `provisio crosscheck` again on the new forecast",
-            a_out.display(),
-            retired.len(),
-            retired.join(", "),
-            a_out.join(output::RETIRED_DIR).display()
-        ));
+    if let Some(w) = &retired_warning {
+        super::warn(w);
     }
     if changed {
         say!("wrote changes_applied.csv (every month a change touched) and changes_summary.csv (each change's effect on the totals); forecast.csv and forecast_wide.csv hold the statistical and the adjusted forecast side by side");
@@ -1314,7 +1344,7 @@ pub fn run_backtest(mut a: BacktestArgs, given: &Given) -> anyhow::Result<()> {
             "config_file": LoadedConfig::manifest(config.as_ref()).0,
             "out": a.out.as_ref().map(|p| p.display().to_string()),
             "rows": cleaned.rows,
-            "products": results.iter().map(product_json).collect::<Vec<_>>(),
+            "products": results.iter().map(|r| product_json(r, false)).collect::<Vec<_>>(),
             "products_unusable": cleaned.unusable.iter().map(|(p, r)| serde_json::json!({"product": p, "reason": r})).collect::<Vec<_>>(),
             "default_model": choice,
             "seconds": secs,
