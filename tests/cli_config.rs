@@ -577,3 +577,46 @@ fn a_file_contradicting_itself_is_refused_with_its_line() {
     ]);
     assert_eq!(o.status.code(), Some(2), "{}", text(&o));
 }
+
+/// `inspect --json` carries the columns of `quality.csv` under the same
+/// names and in the same units, as the README says (a tester found other
+/// names, fractions instead of percentages and an internal verdict name).
+#[test]
+fn inspect_json_has_the_columns_of_quality_csv() {
+    let w = workdir();
+    let o = w.run(&["--json", "inspect", "data.csv", "--csv", "q.csv"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let rows = w.read_csv_maps("q.csv");
+    assert_eq!(rows.len(), 2);
+    for row in &rows {
+        let p = v["products"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|p| p["product"] == row["product"].as_str())
+            .unwrap();
+        for (column, value) in row {
+            let j = &p[column.as_str()];
+            assert!(!j.is_null() || value.is_empty(), "{column} missing: {p}");
+            let shown = match j {
+                serde_json::Value::String(s) => s.clone(),
+                serde_json::Value::Array(a) => a
+                    .iter()
+                    .map(|x| x.as_str().unwrap().to_string())
+                    .collect::<Vec<_>>()
+                    .join(if column == "reasons" { "; " } else { " " }),
+                serde_json::Value::Number(n) => {
+                    let x = n.as_f64().unwrap();
+                    let y: f64 = value.parse().unwrap();
+                    assert!((x - y).abs() < 0.051, "{column}: {x} against {y}");
+                    continue;
+                }
+                serde_json::Value::Null => String::new(),
+                other => other.to_string(),
+            };
+            assert_eq!(&shown, value, "{column}");
+        }
+        assert!(p["verdict_text"].is_string());
+    }
+}

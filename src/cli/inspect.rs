@@ -47,11 +47,7 @@ pub fn run(mut a: InspectArgs, given: &super::Given) -> anyhow::Result<()> {
     super::json_summary(|| {
         let products: Vec<serde_json::Value> = profiles
             .iter()
-            .map(|p| {
-                let mut v = serde_json::to_value(p).unwrap_or_default();
-                v["verdict_text"] = serde_json::Value::from(p.verdict_text());
-                v
-            })
+            .map(provisio::output::quality_json)
             .collect();
         serde_json::json!({
             "command": "inspect",

@@ -32,8 +32,8 @@ pub use workbook::{
 };
 
 pub use tables::{
-    write_adjustments, write_clean_manifest, write_cleaned, write_quality, write_rejected,
-    write_rejected_of, CleanManifest,
+    quality_json, write_adjustments, write_clean_manifest, write_cleaned, write_quality,
+    write_rejected, write_rejected_of, CleanManifest,
 };
 
 use std::fs::{File, OpenOptions};

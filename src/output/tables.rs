@@ -132,6 +132,35 @@ fn pct(v: Option<f64>) -> String {
     v.map(|x| format!("{:.1}", x * 100.0)).unwrap_or_default()
 }
 
+/// One product's quality profile as JSON, under `quality.csv`'s column
+/// names and in its units (percentages 0–100; `outlier_months` and
+/// `reasons` as lists), plus `months_affected` and `verdict_text` (README,
+/// "JSON summary"): a pipeline reading either gets the same fields.
+pub fn quality_json(p: &QualityProfile) -> serde_json::Value {
+    let pct = |v: Option<f64>| v.map(|x| (x * 1000.0).round() / 10.0);
+    serde_json::json!({
+        "product": p.product,
+        "sites": p.sites,
+        "first_month": p.first,
+        "last_month": p.last,
+        "months": p.months,
+        "months_reported": p.months_reported,
+        "months_missing": p.months_missing,
+        "longest_gap": p.longest_gap,
+        "months_with_stockouts": p.months_with_stockouts,
+        "months_stocked_out_too_long": p.months_stocked_out_too_long,
+        "mean_reporting_rate_pct": pct(p.mean_reporting_rate),
+        "min_reporting_rate_pct": pct(p.min_reporting_rate),
+        "zero_share_pct": pct(Some(p.zero_share)),
+        "outlier_months": p.outliers,
+        "months_imputed": p.months_imputed,
+        "months_affected": p.months_affected,
+        "verdict": p.verdict.name(),
+        "reasons": p.reasons,
+        "verdict_text": p.verdict_text(),
+    })
+}
+
 /// `quality.csv`: the data-quality profile per product.
 pub fn write_quality(path: &Path, profiles: &[QualityProfile]) -> Result<()> {
     write_atomic(path, |w| {
