@@ -391,6 +391,10 @@ fn completions_and_man_pages_name_every_command() {
         }
         assert!(s.contains("--config") || s.contains("config"), "{shell}");
     }
+    // A script is not JSON: --json is refused (exit 2), nothing on stdout.
+    let o = w.run(&["--json", "completions", "bash"]);
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o));
+    assert!(o.stdout.is_empty());
     let o = w.run(&["man", "--out", "man"]);
     assert!(o.status.success(), "{}", text(&o));
     let main = std::fs::read_to_string(w.path("man/provisio.1")).unwrap();

@@ -21,6 +21,14 @@ pub struct ManArgs {
 }
 
 pub fn completions(a: CompletionsArgs) -> anyhow::Result<()> {
+    // A shell script is not JSON: refused rather than printed under --json
+    // (README: with --json each command prints one JSON object).
+    if super::json_wanted() {
+        return Err(super::usage_error(
+            "completions",
+            "--json does not apply: completions prints a shell script; leave --json out",
+        ));
+    }
     let mut cmd = super::Cli::command();
     clap_complete::generate(a.shell, &mut cmd, "provisio", &mut std::io::stdout());
     Ok(())
