@@ -1059,6 +1059,13 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
     // The new forecast is complete: a plan or cross-check made from the
     // one it replaced no longer matches it.
     let retired = output::retire_derived(&a_out)?;
+    // So are the known changes of an earlier run, when this one applied
+    // none (with a changes file, this run has just rewritten them).
+    let retired_changes = if applied.is_none() {
+        output::retire_changes(&a_out)?
+    } else {
+        Vec::new()
+    };
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     if a.horizon < 12 {
@@ -1148,6 +1155,15 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             a_out.display(),
             retired.len(),
             retired.join(", "),
+            a_out.join(output::RETIRED_DIR).display()
+        ));
+    }
+    if !retired_changes.is_empty() {
+        super::warn(&format!(
+            "{}: moved {} file(s) of the known changes an earlier run applied ({}) to {}: this run applied no changes file, so they do not describe its forecast, which has no adjusted forecast; give --changes again (or `changes` in the run configuration) to apply known changes",
+            a_out.display(),
+            retired_changes.len(),
+            retired_changes.join(", "),
             a_out.join(output::RETIRED_DIR).display()
         ));
     }
