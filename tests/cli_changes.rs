@@ -838,6 +838,115 @@ fn crosscheck_and_the_report_use_the_adjusted_forecast() {
     assert!(html.contains("next 12 months total, adjusted for known changes"));
 }
 
+/// The cross-check of a run with known changes compares with the adjusted
+/// forecast and says so wherever it shows that forecast: the terminal
+/// table's header, the explanations, `crosscheck.csv` (`forecast_used`,
+/// the consumption row's basis), `crosscheck.json`, and the report's
+/// section intro, table header and chart. A tester saw only "consumption"
+/// there, beside the product index's different statistical total. Checked
+/// against our own files: D's adjusted 12-month total is 350, its
+/// statistical one 1,200.
+#[test]
+fn the_crosscheck_names_the_adjusted_forecast_it_compares_with() {
+    let w = Workdir::new();
+    w.write(
+        "changes.csv",
+        format!("{HEADER}Product D,phase-out,2027-01,2027-04,,,,,phase-out\n"),
+    );
+    let o = run_changes(&w, "changes.csv");
+    assert!(o.status.success(), "{}", text(&o));
+    w.write(
+        "pop.csv",
+        "product,group,method,population,rate,care_seeking,treated,quantity_per_course\nProduct D,all,morbidity,1000,1,1,1,1\n",
+    );
+    let o = w.run(&["crosscheck", "out", "--population", "pop.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let head = t
+        .lines()
+        .find(|l| l.starts_with("product "))
+        .unwrap_or_else(|| panic!("no table header in:\n{t}"));
+    assert!(head.contains("adjusted forecast"), "{head}");
+    let cc = w.read_csv_maps("out/crosscheck.csv");
+    assert!(
+        cc.iter().all(|r| r["forecast_used"] == "adjusted"),
+        "{cc:?}"
+    );
+    let cons = cc.iter().find(|r| r["method"] == "consumption").unwrap();
+    close(num(cons, "quantity"), 350.0, "adjusted total");
+    assert!(
+        cons["basis"].starts_with("adjusted forecast"),
+        "{}",
+        cons["basis"]
+    );
+    let m = cc.iter().find(|r| r["method"] == "morbidity").unwrap();
+    // 1000 / 350 = 2.9×.
+    assert!(
+        m["explanation"].starts_with(
+            "morbidity estimate is 2.9× the adjusted consumption forecast (known changes applied)"
+        ),
+        "{}",
+        m["explanation"]
+    );
+    assert!(t.contains("2.9× the adjusted consumption forecast"), "{t}");
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(w.path("out/crosscheck.json")).unwrap())
+            .unwrap();
+    assert_eq!(json["forecast_used"], "adjusted");
+    assert_eq!(json["changes_file"], "changes.csv");
+
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    let at = html.find("id=\"crosscheck\"").expect("cross-check section");
+    let section = &html[at..];
+    assert!(
+        section.contains("The forecast compared here is <strong>the adjusted forecast</strong>"),
+        "no intro"
+    );
+    assert!(
+        section.contains("class=\"num\">adjusted forecast (known changes)"),
+        "no table header"
+    );
+    let svg = std::fs::read_dir(w.path("out/charts"))
+        .expect("charts")
+        .filter_map(|e| e.ok())
+        .find(|e| {
+            let n = e.file_name().to_string_lossy().into_owned();
+            n.starts_with("crosscheck-product-d") && n.ends_with(".svg")
+        })
+        .map(|e| std::fs::read_to_string(e.path()).expect("svg"))
+        .expect("D's cross-check chart");
+    assert!(svg.contains("consumption forecast, adjusted for known changes"));
+    assert!(svg.contains("2.9× adjusted forecast"));
+
+    // The same folder forecast again without the changes: the statistical
+    // forecast, and the files say that instead.
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--out",
+        "out",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["crosscheck", "out", "--population", "pop.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(!t.contains("adjusted"), "{t}");
+    let cc = w.read_csv_maps("out/crosscheck.csv");
+    assert!(
+        cc.iter().all(|r| r["forecast_used"] == "statistical"),
+        "{cc:?}"
+    );
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    assert!(
+        html.contains("The forecast compared here is <strong>the statistical forecast</strong>")
+    );
+}
+
 /// A JSON record of the report page by (the start of) its element id.
 fn record(html: &str, id_start: &str) -> serde_json::Value {
     let open = format!("<script type=\"application/json\" id=\"{id_start}");
