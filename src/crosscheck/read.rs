@@ -665,7 +665,7 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<PopulationData> {
                         row.units_per_user_year = f.units_per_user_year();
                         row.units_basis = format!(
                             "1 / {} CYP per {}, {}",
-                            crate::output::fmt_num(f.cyp_per_unit),
+                            crate::chart::fmt_figure(f.cyp_per_unit),
                             f.unit,
                             f.source
                         );
