@@ -838,6 +838,115 @@ fn crosscheck_and_the_report_use_the_adjusted_forecast() {
     assert!(html.contains("next 12 months total, adjusted for known changes"));
 }
 
+/// The cross-check of a run with known changes compares with the adjusted
+/// forecast and says so wherever it shows that forecast: the terminal
+/// table's header, the explanations, `crosscheck.csv` (`forecast_used`,
+/// the consumption row's basis), `crosscheck.json`, and the report's
+/// section intro, table header and chart. A tester saw only "consumption"
+/// there, beside the product index's different statistical total. Checked
+/// against our own files: D's adjusted 12-month total is 350, its
+/// statistical one 1,200.
+#[test]
+fn the_crosscheck_names_the_adjusted_forecast_it_compares_with() {
+    let w = Workdir::new();
+    w.write(
+        "changes.csv",
+        format!("{HEADER}Product D,phase-out,2027-01,2027-04,,,,,phase-out\n"),
+    );
+    let o = run_changes(&w, "changes.csv");
+    assert!(o.status.success(), "{}", text(&o));
+    w.write(
+        "pop.csv",
+        "product,group,method,population,rate,care_seeking,treated,quantity_per_course\nProduct D,all,morbidity,1000,1,1,1,1\n",
+    );
+    let o = w.run(&["crosscheck", "out", "--population", "pop.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    let head = t
+        .lines()
+        .find(|l| l.starts_with("product "))
+        .unwrap_or_else(|| panic!("no table header in:\n{t}"));
+    assert!(head.contains("adjusted forecast"), "{head}");
+    let cc = w.read_csv_maps("out/crosscheck.csv");
+    assert!(
+        cc.iter().all(|r| r["forecast_used"] == "adjusted"),
+        "{cc:?}"
+    );
+    let cons = cc.iter().find(|r| r["method"] == "consumption").unwrap();
+    close(num(cons, "quantity"), 350.0, "adjusted total");
+    assert!(
+        cons["basis"].starts_with("adjusted forecast"),
+        "{}",
+        cons["basis"]
+    );
+    let m = cc.iter().find(|r| r["method"] == "morbidity").unwrap();
+    // 1000 / 350 = 2.9×.
+    assert!(
+        m["explanation"].starts_with(
+            "morbidity estimate is 2.9× the adjusted consumption forecast (known changes applied)"
+        ),
+        "{}",
+        m["explanation"]
+    );
+    assert!(t.contains("2.9× the adjusted consumption forecast"), "{t}");
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(w.path("out/crosscheck.json")).unwrap())
+            .unwrap();
+    assert_eq!(json["forecast_used"], "adjusted");
+    assert_eq!(json["changes_file"], "changes.csv");
+
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    let at = html.find("id=\"crosscheck\"").expect("cross-check section");
+    let section = &html[at..];
+    assert!(
+        section.contains("The forecast compared here is <strong>the adjusted forecast</strong>"),
+        "no intro"
+    );
+    assert!(
+        section.contains("class=\"num\">adjusted forecast (known changes)"),
+        "no table header"
+    );
+    let svg = std::fs::read_dir(w.path("out/charts"))
+        .expect("charts")
+        .filter_map(|e| e.ok())
+        .find(|e| {
+            let n = e.file_name().to_string_lossy().into_owned();
+            n.starts_with("crosscheck-product-d") && n.ends_with(".svg")
+        })
+        .map(|e| std::fs::read_to_string(e.path()).expect("svg"))
+        .expect("D's cross-check chart");
+    assert!(svg.contains("consumption forecast, adjusted for known changes"));
+    assert!(svg.contains("2.9× adjusted forecast"));
+
+    // The same folder forecast again without the changes: the statistical
+    // forecast, and the files say that instead.
+    let o = w.run(&[
+        "forecast",
+        "data.csv",
+        "--out",
+        "out",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let o = w.run(&["crosscheck", "out", "--population", "pop.csv"]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(!t.contains("adjusted"), "{t}");
+    let cc = w.read_csv_maps("out/crosscheck.csv");
+    assert!(
+        cc.iter().all(|r| r["forecast_used"] == "statistical"),
+        "{cc:?}"
+    );
+    let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+    assert!(
+        html.contains("The forecast compared here is <strong>the statistical forecast</strong>")
+    );
+}
+
 /// A JSON record of the report page by (the start of) its element id.
 fn record(html: &str, id_start: &str) -> serde_json::Value {
     let open = format!("<script type=\"application/json\" id=\"{id_start}");
@@ -1060,4 +1169,113 @@ fn the_annual_totals_sheet_is_of_the_adjusted_forecast() {
     close(cell(col("adjusted_total")), 150.0, "D 2027 adjusted total");
     close(cell(col("months")), 10.0, "D 2027 months");
     close(cell(col("packs")), 15.0, "D 2027 packs");
+}
+
+/// A forecast run again into the same folder without `--changes` retires
+/// the earlier run's `changes_applied.csv` and `changes_summary.csv`, as it
+/// retires an earlier plan, and says so; the report and the workbook then
+/// show no known changes. A tester saw the old files stay in the folder:
+/// the report kept a "Known changes ahead" section with an empty file name
+/// and hash and the old adjusted totals, and the workbook its "Known
+/// changes" sheet. Checked here against our own output files.
+#[test]
+fn a_run_without_changes_retires_the_earlier_runs_changes_files() {
+    use calamine::Reader;
+    let w = Workdir::new();
+    w.write(
+        "changes.csv",
+        format!("{HEADER}Product D,phase-out,2027-01,2027-04,,,,,phase-out\n"),
+    );
+    w.write("data.csv", data(&[]));
+    w.write("pins.csv", pins());
+    let base = [
+        "forecast",
+        "data.csv",
+        "--out",
+        "out",
+        "--horizon",
+        "12",
+        "--pin",
+        "pins.csv",
+    ];
+    let with: Vec<&str> = base
+        .iter()
+        .copied()
+        .chain(["--changes", "changes.csv"])
+        .collect();
+    let o = w.run(&with);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(w.path("out/changes_summary.csv").exists());
+
+    let o = w.run(&base);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    assert!(
+        t.contains("moved 2 file(s) of the known changes an earlier run applied (changes_applied.csv, changes_summary.csv)"),
+        "{t}"
+    );
+    for f in ["changes_applied.csv", "changes_summary.csv"] {
+        assert!(
+            !w.path(&format!("out/{f}")).exists(),
+            "{f} left beside the new forecast"
+        );
+        assert!(
+            w.path(&format!("out/retired/{f}")).exists(),
+            "{f} not retired"
+        );
+    }
+    let no_changes_shown = |when: &str| {
+        let html = std::fs::read_to_string(w.path("out/report.html")).expect("report");
+        assert!(
+            !html.contains("id=\"changes\""),
+            "{when}: a known-changes section"
+        );
+        assert!(
+            !html.contains("href=\"#changes\""),
+            "{when}: a known-changes link"
+        );
+        assert!(
+            !html.contains("href=\"changes_summary.csv\""),
+            "{when}: linked"
+        );
+        // Product D's adjusted total (350) is not beside its statistical one.
+        let index = record(&html, "index-data");
+        let d = index
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r[0] == "Product D")
+            .expect("D in the index")
+            .clone();
+        assert!(d[11].is_null(), "{when}: adjusted total {}", d[11]);
+        let book = calamine::open_workbook_auto(w.path("out/forecast.xlsx")).expect("workbook");
+        let names = book.sheet_names();
+        assert!(
+            !names.iter().any(|n| n == "Known changes"),
+            "{when}: {names:?}"
+        );
+    };
+    no_changes_shown("after the run without changes");
+    // A third run has nothing to retire and says nothing about it.
+    let o = w.run(&base);
+    assert!(o.status.success(), "{}", text(&o));
+    assert!(
+        !text(&o).contains("known changes an earlier run"),
+        "{}",
+        text(&o)
+    );
+
+    // Belt and braces: changes files in the folder that manifest.json does
+    // not name (put back by hand, or left by an older provisio) are not
+    // read by `report`.
+    for f in ["changes_applied.csv", "changes_summary.csv"] {
+        std::fs::copy(
+            w.path(&format!("out/retired/{f}")),
+            w.path(&format!("out/{f}")),
+        )
+        .expect("copy back");
+    }
+    let o = w.run(&["report", "out"]);
+    assert!(o.status.success(), "{}", text(&o));
+    no_changes_shown("`report` on a folder with stray changes files");
 }

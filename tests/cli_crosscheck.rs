@@ -79,8 +79,10 @@ fn artemether_lumefantrine_worked_check_end_to_end() {
     assert_eq!(m["ratio_to_consumption"], "1.458");
     assert_eq!(m["flag"], "above");
     assert!(m["explanation"].contains("1.5× consumption: possible unmet need"));
+    // The first band: 1,000,000 × 0.2 × 0.3 × 0.6 × 0.9 = 32,400 courses
+    // of 6 tablets.
     assert!(
-        m["basis"].contains("162000") || m["basis"].contains("= 32400 courses"),
+        m["basis"].contains("= 32,400 courses × 6 per course = 194,400"),
         "{}",
         m["basis"]
     );
@@ -188,6 +190,67 @@ fn demographic_rows_use_the_cyp_table_or_an_override() {
             .unwrap();
     assert_eq!(json["cyp_override"], "cyp.csv");
     assert_eq!(json["threshold"], 0.25);
+}
+
+/// The numbers in the bases are written as the table beside them writes
+/// its quantities: thousands grouped, no trailing zeros, "1 unit" in the
+/// singular. A tester saw "1500000 people … = 116944", "× 4.0000 units per
+/// user-year" and "1 units per service" beside a table showing 116,944.
+/// Checked against our own output; the figures are the ones the bases
+/// compute (USAID CYP factors, updated August 2021: 4 injections per CYP).
+#[test]
+fn the_bases_write_their_figures_as_the_table_does() {
+    let w = Workdir::new();
+    fake_forecast(
+        &w,
+        &[
+            ("AL", 250_000.0),
+            ("Injectable", 2_000.0),
+            ("Test kit", 1_000.0),
+        ],
+    );
+    w.write(
+        "pop.csv",
+        "product,group,method,population,group_share,rate,care_seeking,treated,quantity_per_course,method_share,public_share,cyp_method,loss_allowance\n\
+         AL,over 34 kg,morbidity,1500000,0.55,0.25,0.6,0.9,1,,,,0.05\n\
+         Injectable,,demographic,100000,,0.30,,,,0.25,0.8,injectable-3-month,\n",
+    );
+    let mut s = String::from("product,month,services,units_per_service,allowance\n");
+    for k in 0..36 {
+        let m = format!("{}-{:02}", 2024 + k / 12, k % 12 + 1);
+        s.push_str(&format!("Test kit,{m},900,1,10%\n"));
+    }
+    w.write("services.csv", &s);
+    let o = w.run(&[
+        "crosscheck",
+        "fc",
+        "--population",
+        "pop.csv",
+        "--services",
+        "services.csv",
+        "--no-report",
+    ]);
+    assert!(o.status.success(), "{}", text(&o));
+    let rows = w.read_csv_maps("fc/crosscheck.csv");
+    // 1,500,000 × 0.55 × 0.25 × 0.6 × 0.9 = 111,375 courses; × 1.05 =
+    // 116,943.75, shown 116,944.
+    let al = &find(&rows, "AL", "morbidity")["basis"];
+    assert_eq!(
+        al,
+        "over 34 kg: 1,500,000 people × 0.55 group share × 0.25 rate × 0.6 seeking care × 0.9 treated = 111,375 courses × 1 per course × (1 + 0.05 loss) = 116,944"
+    );
+    // 100,000 × 0.3 × 0.25 × 0.8 = 6,000 users × 4 doses = 24,000.
+    let inj = &find(&rows, "Injectable", "demographic")["basis"];
+    assert!(
+        inj.starts_with("100,000 women × 0.3 prevalence × 0.25 method share × 0.8 public share = 6,000 users × 4 units per user-year (1 / 0.25 CYP per dose"),
+        "{inj}"
+    );
+    assert!(inj.ends_with("= 24,000"), "{inj}");
+    let kit = &find(&rows, "Test kit", "services")["basis"];
+    assert!(
+        kit.contains("× 1 unit per service × (1 + 0.1 allowance"),
+        "{kit}"
+    );
 }
 
 #[test]

@@ -38,6 +38,9 @@ pub struct CrossCheckChart {
     /// Consumption forecast total, its 80% range with months independent,
     /// and the sum of the monthly 80% bounds.
     pub consumption: Option<crate::crosscheck::AnnualConsumption>,
+    /// The forecast compared with, named in the labels (`None`: "consumption
+    /// forecast", for a cross-check that did not record it).
+    pub forecast_used: Option<crate::crosscheck::ForecastUsed>,
     /// The other estimates.
     pub estimates: Vec<EstimateBar>,
     /// Agreement threshold (0.25 = ±25%).
@@ -82,13 +85,28 @@ fn draw<DB: DrawingBackend>(
     ))
     .msg()?;
     let pct = (c.threshold * 100.0).round();
+    use crate::crosscheck::ForecastUsed;
+    let (legend, row_label, ratio_of) = match c.forecast_used {
+        Some(ForecastUsed::Adjusted) => (
+            "consumption forecast, adjusted for known changes",
+            "adjusted forecast",
+            "adjusted forecast",
+        ),
+        Some(ForecastUsed::Statistical) => (
+            "consumption forecast (statistical)",
+            "statistical forecast",
+            "consumption",
+        ),
+        None => (
+            "consumption forecast",
+            "consumption forecast",
+            "consumption",
+        ),
+    };
     draw_legend(
         &head,
         &[
-            (
-                Glyph::Band(FORECAST, 0.85),
-                "consumption forecast".to_string(),
-            ),
+            (Glyph::Band(FORECAST, 0.85), legend.to_string()),
             (
                 Glyph::Band(FORECAST, 0.18),
                 "80% range: sum of monthly bounds (wide)".to_string(),
@@ -106,7 +124,7 @@ fn draw<DB: DrawingBackend>(
         WIDTH as i32 - 32,
     )?;
     let n = c.estimates.len() + 1;
-    let labels: Vec<String> = std::iter::once("consumption forecast".to_string())
+    let labels: Vec<String> = std::iter::once(row_label.to_string())
         .chain(c.estimates.iter().map(|e| format!("{} estimate", e.label)))
         .collect();
     let y = |i: usize| (n - i) as f64 - 0.5;
@@ -240,7 +258,7 @@ fn draw<DB: DrawingBackend>(
             .msg()?;
         let text = match e.ratio {
             Some(r) => format!(
-                "{} · {} consumption · {}",
+                "{} · {} {ratio_of} · {}",
                 fmt_quantity(q),
                 crate::crosscheck::fmt_ratio(r),
                 e.flag

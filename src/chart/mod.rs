@@ -177,6 +177,44 @@ pub fn fmt_quantity(v: f64) -> String {
     }
 }
 
+/// A figure as an explanation writes it (a population, a share, units per
+/// service): thousands grouped with commas like [`fmt_quantity`], but
+/// exact to four decimals, without trailing zeros ("1,500,000", "0.55",
+/// "4", "0.0083").
+pub fn fmt_figure(v: f64) -> String {
+    let s = crate::output::fmt_num(v);
+    let (sign, rest) = match s.strip_prefix('-') {
+        Some(r) => ("-", r),
+        None => ("", s.as_str()),
+    };
+    let (int, frac) = match rest.split_once('.') {
+        Some((i, f)) => (i, Some(f)),
+        None => (rest, None),
+    };
+    let mut out = String::from(sign);
+    for (i, c) in int.chars().enumerate() {
+        if i > 0 && (int.len() - i) % 3 == 0 {
+            out.push(',');
+        }
+        out.push(c);
+    }
+    if let Some(f) = frac {
+        out.push('.');
+        out.push_str(f);
+    }
+    out
+}
+
+/// "unit" or "units" after the figure `count` as [`fmt_figure`] writes it:
+/// singular for exactly 1.
+pub fn units_word(count: &str) -> &'static str {
+    if count == "1" {
+        "unit"
+    } else {
+        "units"
+    }
+}
+
 /// A file name stem for a product's charts: lowercase ASCII letters, digits
 /// and hyphens only (so no path separator, no `..`, nothing hidden), at most
 /// 48 characters, then a hyphen and 8 hex digits of the SHA-256 of the full
@@ -535,6 +573,19 @@ mod tests {
         assert_eq!(fmt_quantity(85.0), "85");
         assert_eq!(fmt_quantity(2.5), "2.5");
         assert_eq!(fmt_quantity(0.0), "0");
+    }
+
+    #[test]
+    fn figures_are_grouped_and_exact() {
+        assert_eq!(fmt_figure(1_500_000.0), "1,500,000");
+        assert_eq!(fmt_figure(0.55), "0.55");
+        assert_eq!(fmt_figure(4.0), "4");
+        assert_eq!(fmt_figure(1.0 / 120.0), "0.0083");
+        assert_eq!(fmt_figure(12_345.675), "12,345.675");
+        assert_eq!(fmt_figure(-1234.5), "-1,234.5");
+        assert_eq!(fmt_figure(0.0), "0");
+        assert_eq!(units_word(&fmt_figure(1.0)), "unit");
+        assert_eq!(units_word(&fmt_figure(1.5)), "units");
     }
 
     #[test]

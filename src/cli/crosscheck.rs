@@ -166,7 +166,14 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         }
     }
     let rows = pop.as_ref().map(|p| p.rows.as_slice()).unwrap_or(&[]);
-    let cc = crosscheck::build(&fc.products, start, &estimates, rows, threshold);
+    let cc = crosscheck::build(
+        &fc.products,
+        fc.forecast_used,
+        start,
+        &estimates,
+        rows,
+        threshold,
+    );
     warnings.extend(cc.warnings.iter().cloned());
 
     // Written into a staging copy of the folder that replaces it at the
@@ -200,6 +207,8 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
         "forecast_sha256": forecast_sha,
         "period": {"start": start.to_string(), "end": start.plus(11).to_string(), "months": crosscheck::PERIOD_MONTHS},
         "threshold": threshold,
+        "forecast_used": cc.forecast_used.name(),
+        "changes_file": fc.manifest.get("changes_file").and_then(|v| v.as_str()).filter(|_| cc.forecast_used == crosscheck::ForecastUsed::Adjusted),
         "annual_range": "the forecast keeps monthly 80% bounds only; the 80% range of the 12-month total is bracketed by the range with months' errors independent (root of the sum of squared monthly half-widths) and the sum of the monthly bounds (months moving together)",
         "services": sv.as_ref().map(|d| serde_json::json!({
             "file": d.source,
@@ -269,6 +278,7 @@ pub fn run(a: CrossCheckArgs) -> anyhow::Result<()> {
             "dir": dir.display().to_string(),
             "period": {"start": start.to_string(), "end": start.plus(11).to_string()},
             "threshold": threshold,
+            "forecast_used": cc.forecast_used.name(),
             "estimates": cc.rows.iter().filter(|r| r.method != Method::Consumption).map(|r| {
                 let c = r.comparison.as_ref();
                 serde_json::json!({
@@ -293,18 +303,25 @@ fn print_summary(cc: &crosscheck::CrossCheck) {
     let w = super::name_width(cc.rows.iter().map(|r| &r.product));
     let cut = |s: &str| super::pad(&super::truncate(s, w), w);
     let q = |v: Option<f64>| v.map(provisio::chart::fmt_quantity).unwrap_or("-".into());
+    // The forecast column is headed by the forecast it holds when that is
+    // the adjusted one: the statistical total, printed by `forecast`
+    // beside it, differs.
+    let (head, cw) = match cc.forecast_used {
+        crosscheck::ForecastUsed::Statistical => ("consumption", 14),
+        crosscheck::ForecastUsed::Adjusted => ("adjusted forecast", 18),
+    };
     super::say!(
-        "{}  {:<12} {:>14} {:>14} {:>7}  flag",
+        "{}  {:<12} {:>14} {:>cw$} {:>7}  flag",
         cut("product"),
         "method",
         "12 months",
-        "consumption",
+        head,
         "ratio"
     );
     for r in cc.rows.iter().filter(|r| r.method != Method::Consumption) {
         let c = r.comparison.as_ref();
         super::say!(
-            "{}  {:<12} {:>14} {:>14} {:>7}  {}",
+            "{}  {:<12} {:>14} {:>cw$} {:>7}  {}",
             cut(&r.product),
             r.method.name(),
             q(r.quantity),

@@ -1093,6 +1093,22 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             a_out.join(output::RETIRED_DIR).display()
         )
     });
+    // So are the known changes of an earlier run, when this one applied
+    // none (with a changes file, this run has just rewritten them).
+    let retired_changes = if applied.is_none() {
+        output::retire_changes(&a_out)?
+    } else {
+        Vec::new()
+    };
+    let changes_warning = (!retired_changes.is_empty()).then(|| {
+        format!(
+            "{}: moved {} file(s) of the known changes an earlier run applied ({}) to {}: this run applied no changes file, so they do not describe its forecast, which has no adjusted forecast; give --changes again (or `changes` in the run configuration) to apply known changes",
+            a_out.display(),
+            retired_changes.len(),
+            retired_changes.join(", "),
+            a_out.join(output::RETIRED_DIR).display()
+        )
+    });
     print_accounting(&ds, &cleaned, 10);
     print_summary(&results, true);
     if a.horizon < 12 {
@@ -1129,7 +1145,7 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
             "default_model": choice,
             "seconds": secs,
             // The run's own warnings (each product's are with it).
-            "warnings": retired_warning.iter().collect::<Vec<_>>(),
+            "warnings": retired_warning.iter().chain(changes_warning.iter()).collect::<Vec<_>>(),
         })
     });
     // The workbook and the report are built from the files just written;
@@ -1190,6 +1206,9 @@ pub fn run_forecast(mut a: ForecastArgs, given: &Given) -> anyhow::Result<()> {
         a_out.display()
     );
     if let Some(w) = &retired_warning {
+        super::warn(w);
+    }
+    if let Some(w) = &changes_warning {
         super::warn(w);
     }
     if changed {

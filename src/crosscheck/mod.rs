@@ -76,6 +76,89 @@ impl Method {
     }
 }
 
+/// Which of the forecast run's forecasts the cross-check compares with.
+///
+/// A run with known changes (`forecast --changes`) keeps two forecasts:
+/// the statistical one and the adjusted one. The cross-check uses the
+/// adjusted one, and says so beside every figure of it, because the
+/// report's product index shows the statistical total too.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ForecastUsed {
+    /// The statistical forecast: the run applied no known changes.
+    #[default]
+    Statistical,
+    /// The statistical forecast with the known changes applied.
+    Adjusted,
+}
+
+impl ForecastUsed {
+    /// Name as written in files (`crosscheck.csv`, `crosscheck.json`).
+    pub fn name(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => "statistical",
+            ForecastUsed::Adjusted => "adjusted",
+        }
+    }
+
+    /// Parses a name as written in files.
+    pub fn parse(s: &str) -> Option<ForecastUsed> {
+        match s.trim() {
+            "statistical" => Some(ForecastUsed::Statistical),
+            "adjusted" => Some(ForecastUsed::Adjusted),
+            _ => None,
+        }
+    }
+
+    /// A short label for a table header or a chart: "statistical
+    /// forecast", "adjusted forecast".
+    pub fn label(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => "statistical forecast",
+            ForecastUsed::Adjusted => "adjusted forecast",
+        }
+    }
+
+    /// The forecast in words, for a sentence: "the statistical
+    /// consumption forecast (no known changes applied)", "the consumption
+    /// forecast adjusted for known changes".
+    pub fn words(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => {
+                "the statistical consumption forecast (no known changes applied)"
+            }
+            ForecastUsed::Adjusted => "the consumption forecast adjusted for known changes",
+        }
+    }
+
+    /// The forecast at the head of the consumption row's basis.
+    fn basis_words(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => "statistical forecast (no known changes applied)",
+            ForecastUsed::Adjusted => {
+                "adjusted forecast (the statistical forecast with the known changes applied)"
+            }
+        }
+    }
+
+    /// What a ratio is taken of, after "1.9×": "consumption" for the
+    /// statistical forecast (the run has no other), "the adjusted
+    /// consumption forecast (known changes applied)" otherwise.
+    fn ratio_of(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => "consumption",
+            ForecastUsed::Adjusted => "the adjusted consumption forecast (known changes applied)",
+        }
+    }
+
+    /// The forecast after "the wide 80% range of".
+    fn range_of(self) -> &'static str {
+        match self {
+            ForecastUsed::Statistical => "the consumption forecast",
+            ForecastUsed::Adjusted => "the adjusted consumption forecast",
+        }
+    }
+}
+
 /// One projected month of the consumption forecast: point and 80% bounds.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ForecastMonth {
@@ -190,17 +273,36 @@ pub fn fmt_ratio(r: f64) -> String {
     }
 }
 
-/// Compares an estimate by `method` with the consumption forecast.
-///
-/// Flagged when |ratio − 1| > `threshold` (a ratio exactly at the boundary
-/// agrees). `consumption` is `None` for a product with no consumption
-/// forecast. `outside_wide` adds a note when the estimate lies outside even
-/// the wide 80% range of the consumption total.
+/// Compares an estimate by `method` with the (statistical) consumption
+/// forecast; see [`compare_with`].
 pub fn compare(
     method: Method,
     estimate: f64,
     consumption: Option<&AnnualConsumption>,
     threshold: f64,
+) -> Comparison {
+    compare_with(
+        method,
+        estimate,
+        consumption,
+        threshold,
+        ForecastUsed::Statistical,
+    )
+}
+
+/// Compares an estimate by `method` with the consumption forecast `used`
+/// (the explanation names the adjusted forecast when it is that one).
+///
+/// Flagged when |ratio − 1| > `threshold` (a ratio exactly at the boundary
+/// agrees). `consumption` is `None` for a product with no consumption
+/// forecast. The explanation adds a note when the estimate lies outside
+/// even the wide 80% range of the consumption total.
+pub fn compare_with(
+    method: Method,
+    estimate: f64,
+    consumption: Option<&AnnualConsumption>,
+    threshold: f64,
+    used: ForecastUsed,
 ) -> Comparison {
     let Some(c) = consumption else {
         return Comparison {
@@ -226,13 +328,14 @@ pub fn compare(
     // Rounded to 1e-9 so that 1.25 computed as 125/100 counts as on the boundary.
     let gap = ((ratio - 1.0) * 1e9).round() / 1e9;
     let pct = (threshold * 100.0).round();
+    let range_of = used.range_of();
     let outside = if estimate > c.wide.1 || estimate < c.wide.0 {
-        "; it lies outside even the wide 80% range of the consumption forecast"
+        format!("; it lies outside even the wide 80% range of {range_of}")
     } else {
-        "; it lies within the wide 80% range of the consumption forecast, so part of the gap may be forecast uncertainty"
+        format!("; it lies within the wide 80% range of {range_of}, so part of the gap may be forecast uncertainty")
     };
     let name = method.name();
-    let r = fmt_ratio(ratio);
+    let r = format!("{} {}", fmt_ratio(ratio), used.ratio_of());
     let (flag, explanation) = if gap > threshold {
         let why = if method.is_population() {
             "possible unmet need or under-reporting of consumption; population-based figures are usually an upper bound, so treat it as one, and check the assumptions behind it (population, rates, shares, quantity per course)"
@@ -241,7 +344,7 @@ pub fn compare(
         };
         (
             Flag::Above,
-            format!("{name} estimate is {r} consumption: {why}{outside}"),
+            format!("{name} estimate is {r}: {why}{outside}"),
         )
     } else if gap < -threshold {
         let why = if method.is_population() {
@@ -251,12 +354,12 @@ pub fn compare(
         };
         (
             Flag::Below,
-            format!("{name} estimate is {r} consumption: {why}{outside}"),
+            format!("{name} estimate is {r}: {why}{outside}"),
         )
     } else {
         (
             Flag::Agrees,
-            format!("{name} estimate is {r} consumption, within ±{pct}%: the two sources agree"),
+            format!("{name} estimate is {r}, within ±{pct}%: the two sources agree"),
         )
     };
     Comparison {
@@ -323,6 +426,9 @@ pub fn check_threshold(t: f64) -> crate::Result<f64> {
 pub struct CrossCheck {
     /// First month of the comparison period.
     pub period_start: YearMonth,
+    /// The forecast compared with: statistical, or adjusted for known
+    /// changes.
+    pub forecast_used: ForecastUsed,
     /// Rows: per product, the consumption row then one per method.
     pub rows: Vec<CrossRow>,
     /// The services per product and month over the period (observed or projected).
@@ -333,9 +439,11 @@ pub struct CrossCheck {
 
 /// Builds the cross-check from the consumption forecast (projected months
 /// per product), the services estimates and the population rows, for the
-/// 12 months from `period_start`.
+/// 12 months from `period_start`. `used` says which of the run's forecasts
+/// `forecast` is; the explanations and the consumption rows name it.
 pub fn build(
     forecast: &std::collections::BTreeMap<String, Vec<ForecastMonth>>,
+    used: ForecastUsed,
     period_start: YearMonth,
     services: &[services::ServicesEstimate],
     population: &[population::PopulationRow],
@@ -358,7 +466,7 @@ pub fn build(
                    consumption: Option<AnnualConsumption>,
                    basis: String| {
             let comparison = (method != Method::Consumption).then(|| match quantity {
-                Some(q) => compare(method, q, consumption.as_ref(), threshold),
+                Some(q) => compare_with(method, q, consumption.as_ref(), threshold, used),
                 None => no_estimate(method, consumption.is_some()),
             });
             CrossRow {
@@ -414,7 +522,8 @@ pub fn build(
         };
         let cbasis = match &consumption {
             Some(c) => format!(
-                "sum of the 12 monthly forecasts {period_start} to {period_end}; 80% range of the total: {} to {} if the months' errors were independent, {} to {} as the sum of the monthly 80% bounds (months moving together); the true range lies between the two",
+                "{}: sum of the 12 monthly forecasts {period_start} to {period_end}; 80% range of the total: {} to {} if the months' errors were independent, {} to {} as the sum of the monthly 80% bounds (months moving together); the true range lies between the two",
+                used.basis_words(),
                 crate::chart::fmt_quantity(c.narrow.0),
                 crate::chart::fmt_quantity(c.narrow.1),
                 crate::chart::fmt_quantity(c.wide.0),
@@ -458,12 +567,14 @@ pub fn build(
         .count();
     if flagged > 0 {
         warnings.push(format!(
-            "{flagged} estimate(s) differ from the consumption forecast by more than ±{}%: see the explanations in crosscheck.csv",
+            "{flagged} estimate(s) differ from {} by more than ±{}%: see the explanations in crosscheck.csv",
+            used.range_of(),
             (threshold * 100.0).round()
         ));
     }
     CrossCheck {
         period_start,
+        forecast_used: used,
         rows,
         services_months,
         warnings,

@@ -99,40 +99,45 @@ impl PopulationRow {
         self.people() * per * (1.0 + self.loss_allowance)
     }
 
-    /// The computation in words, with the numbers.
+    /// The computation in words, with the numbers (written as the
+    /// table beside it writes them: thousands grouped, no trailing zeros).
     pub fn describe(&self) -> String {
+        use crate::chart::{fmt_figure as f, fmt_quantity as q};
         let g = if self.group.is_empty() {
             String::new()
         } else {
             format!("{}: ", self.group)
         };
         let loss = if self.loss_allowance > 0.0 {
-            format!(" × (1 + {} loss)", self.loss_allowance)
+            format!(" × (1 + {} loss)", f(self.loss_allowance))
         } else {
             String::new()
         };
         match self.method {
-            Method::Demographic => format!(
-                "{g}{} women × {} prevalence × {} method share × {} public share = {:.0} users × {:.4} units per user-year ({}){loss} = {:.0}",
-                self.population,
-                self.rate,
-                self.method_share,
-                self.public_share,
-                self.people(),
-                self.units_per_user_year,
-                self.units_basis,
-                self.quantity()
-            ),
+            Method::Demographic => {
+                let per = f(self.units_per_user_year);
+                format!(
+                    "{g}{} women × {} prevalence × {} method share × {} public share = {} users × {per} {} per user-year ({}){loss} = {}",
+                    f(self.population),
+                    f(self.rate),
+                    f(self.method_share),
+                    f(self.public_share),
+                    q(self.people()),
+                    crate::chart::units_word(&per),
+                    self.units_basis,
+                    q(self.quantity())
+                )
+            }
             _ => format!(
-                "{g}{} people × {} group share × {} rate × {} seeking care × {} treated = {:.0} courses × {} per course{loss} = {:.0}",
-                self.population,
-                self.group_share,
-                self.rate,
-                self.care_seeking,
-                self.treated,
-                self.people(),
-                self.quantity_per_course,
-                self.quantity()
+                "{g}{} people × {} group share × {} rate × {} seeking care × {} treated = {} courses × {} per course{loss} = {}",
+                f(self.population),
+                f(self.group_share),
+                f(self.rate),
+                f(self.care_seeking),
+                f(self.treated),
+                q(self.people()),
+                f(self.quantity_per_course),
+                q(self.quantity())
             ),
         }
     }

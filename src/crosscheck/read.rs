@@ -665,7 +665,7 @@ pub fn read_population(path: &Path, cyp: &CypTable) -> Result<PopulationData> {
                         row.units_per_user_year = f.units_per_user_year();
                         row.units_basis = format!(
                             "1 / {} CYP per {}, {}",
-                            crate::output::fmt_num(f.cyp_per_unit),
+                            crate::chart::fmt_figure(f.cyp_per_unit),
                             f.unit,
                             f.source
                         );
@@ -814,6 +814,9 @@ pub struct ForecastInput {
     pub clean_settings: crate::clean::CleanSettings,
     /// The run's manifest.
     pub manifest: serde_json::Value,
+    /// The forecast read: the adjusted one when the run applied known
+    /// changes, else the statistical one.
+    pub forecast_used: super::ForecastUsed,
     /// First projected month over all products.
     pub first_month: YearMonth,
     /// Problems met.
@@ -959,6 +962,11 @@ pub fn read_forecast_dir(dir: &Path) -> Result<ForecastInput> {
         settings,
         clean_settings,
         manifest,
+        forecast_used: if adjusted {
+            super::ForecastUsed::Adjusted
+        } else {
+            super::ForecastUsed::Statistical
+        },
         first_month,
         warnings,
     })

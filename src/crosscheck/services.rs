@@ -312,14 +312,15 @@ fn units_per_product(
         if hi - lo > 1e-9 * hi.abs().max(1.0) {
             warnings.push(format!(
                 "services: product '{product}': units per service × (1 + allowance) varies in the file ({} to {}); the latest month's ({latest}) value is used",
-                crate::output::fmt_num(lo),
-                crate::output::fmt_num(hi)
+                crate::chart::fmt_figure(lo),
+                crate::chart::fmt_figure(hi)
             ));
         }
+        let per = crate::chart::fmt_figure(ups);
         let text = format!(
-            "{} units per service × (1 + {} allowance for repeats and losses) (as of {latest})",
-            crate::output::fmt_num(ups),
-            crate::output::fmt_num(allowance)
+            "{per} {} per service × (1 + {} allowance for repeats and losses) (as of {latest})",
+            crate::chart::units_word(&per),
+            crate::chart::fmt_figure(allowance)
         );
         out.insert(product.to_string(), (ups * (1.0 + allowance), text));
     }

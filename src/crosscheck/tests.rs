@@ -180,6 +180,43 @@ fn flags_at_the_threshold_boundaries() {
     assert_eq!(zero.flag, Flag::NoComparison);
 }
 
+#[test]
+fn an_adjusted_forecast_is_named_in_the_explanation() {
+    let c = flat(100.0);
+    let up = compare_with(
+        Method::Morbidity,
+        210.0,
+        Some(&c),
+        0.25,
+        ForecastUsed::Adjusted,
+    );
+    assert!(
+        up.explanation.starts_with(
+            "morbidity estimate is 2.1× the adjusted consumption forecast (known changes applied): possible unmet need"
+        ),
+        "{}",
+        up.explanation
+    );
+    assert!(up
+        .explanation
+        .ends_with("outside even the wide 80% range of the adjusted consumption forecast"));
+    let same = compare_with(
+        Method::Services,
+        110.0,
+        Some(&c),
+        0.25,
+        ForecastUsed::Adjusted,
+    );
+    assert!(same
+        .explanation
+        .contains("1.1× the adjusted consumption forecast (known changes applied), within ±25%"));
+    // The flag does not depend on which forecast it is.
+    assert_eq!(
+        up.flag,
+        compare(Method::Morbidity, 210.0, Some(&c), 0.25).flag
+    );
+}
+
 proptest::proptest! {
     #[test]
     fn flag_follows_the_ratio(total in 1.0f64..1e7, ratio in 0.0f64..5.0, t in 0.01f64..2.0) {
@@ -276,7 +313,7 @@ fn build_lists_unforecast_products_and_short_forecasts() {
     let mut short = morbidity("", 1.0, 1.0);
     short.product = "Short".into();
     rows.push(short);
-    let cc = build(&fc, start, &[], &rows, 0.25);
+    let cc = build(&fc, Default::default(), start, &[], &rows, 0.25);
     // AL: consumption 2.4M, morbidity 2,916,000 → 1.215×, agrees.
     let al: Vec<&CrossRow> = cc.rows.iter().filter(|r| r.product == "AL").collect();
     assert_eq!(al.len(), 2);
@@ -329,7 +366,14 @@ fn an_estimate_that_could_not_be_made_is_flagged_no_comparison() {
         basis: "no services estimate: no month has a usable quantity".into(),
         months: Vec::new(),
     };
-    let cc = build(&fc, start, &[none("RTD"), none("RDT")], &[], 0.25);
+    let cc = build(
+        &fc,
+        Default::default(),
+        start,
+        &[none("RTD"), none("RDT")],
+        &[],
+        0.25,
+    );
     for product in ["RTD", "RDT"] {
         let r = cc
             .rows

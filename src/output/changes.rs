@@ -27,6 +27,29 @@ pub const ADJUSTED_COLUMNS: [&str; 5] = [
 /// The `model` written for a product without history.
 pub const NEW_PRODUCT_MODEL: &str = "none (new product)";
 
+/// The trace files written when a changes file was applied.
+pub const CHANGES_FILES: [&str; 2] = ["changes_applied.csv", "changes_summary.csv"];
+
+/// Whether the run whose `manifest.json` is `manifest` applied a changes
+/// file (its `changes_file` names one). The report and the workbook read
+/// [`CHANGES_FILES`] only then: files of an earlier run into the same
+/// folder describe another forecast.
+pub fn manifest_has_changes(manifest: &serde_json::Value) -> bool {
+    manifest
+        .get("changes_file")
+        .and_then(|v| v.as_str())
+        .is_some_and(|f| !f.is_empty())
+}
+
+/// [`manifest_has_changes`] of the `manifest.json` in `dir`; false when
+/// it cannot be read.
+pub fn changes_recorded(dir: &Path) -> bool {
+    std::fs::read(dir.join("manifest.json"))
+        .ok()
+        .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
+        .is_some_and(|m| manifest_has_changes(&m))
+}
+
 fn io_err(e: csv::Error) -> std::io::Error {
     std::io::Error::other(e)
 }

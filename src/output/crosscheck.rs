@@ -10,8 +10,10 @@ fn io_err(e: csv::Error) -> std::io::Error {
     std::io::Error::other(e)
 }
 
-/// Columns of `crosscheck.csv`, in order (the report reads them back).
-pub const CROSSCHECK_COLUMNS: [&str; 14] = [
+/// Columns of `crosscheck.csv`, in order (the report reads them back;
+/// `forecast_used`, `statistical` or `adjusted` for known changes, came
+/// last and may be missing from an older file).
+pub const CROSSCHECK_COLUMNS: [&str; 15] = [
     "product",
     "method",
     "period_start",
@@ -26,12 +28,13 @@ pub const CROSSCHECK_COLUMNS: [&str; 14] = [
     "flag",
     "explanation",
     "basis",
+    "forecast_used",
 ];
 
 /// `crosscheck.csv`: one row per product and method (consumption first),
 /// with the annual quantity, the consumption forecast and its two 80%
-/// ranges, the ratio, the flag, its explanation and how the quantity was
-/// computed.
+/// ranges, the ratio, the flag, its explanation, how the quantity was
+/// computed, and which forecast it was compared with.
 pub fn write_crosscheck(path: &Path, cc: &CrossCheck) -> Result<()> {
     write_atomic(path, |w| {
         let mut c = csv::WriterBuilder::new().from_writer(w);
@@ -56,6 +59,7 @@ pub fn write_crosscheck(path: &Path, cc: &CrossCheck) -> Result<()> {
                 cmp.map(|c| c.flag.name()).unwrap_or(""),
                 cmp.map(|c| c.explanation.as_str()).unwrap_or(""),
                 r.basis.as_str(),
+                cc.forecast_used.name(),
             ])
             .map_err(io_err)?;
         }

@@ -16,7 +16,10 @@ pub use forecast::{
     FORECAST_FORMAT_VERSION,
 };
 
-pub use changes::{add_adjusted, ADJUSTED_COLUMNS, NEW_PRODUCT_MODEL};
+pub use changes::{
+    add_adjusted, changes_recorded, manifest_has_changes, ADJUSTED_COLUMNS, CHANGES_FILES,
+    NEW_PRODUCT_MODEL,
+};
 pub use crosscheck::{write_crosscheck, write_crosscheck_services, CROSSCHECK_COLUMNS};
 pub use plan::{
     write_order_totals, write_orders, write_plan, write_plan_log, ORDER_COLUMNS, PLAN_COLUMNS,
@@ -414,7 +417,8 @@ pub const DERIVED_FILES: [&str; 9] = [
     "crosscheck.json",
 ];
 
-/// Name of the subfolder that [`retire_derived`] moves outputs into.
+/// Name of the subfolder that [`retire_derived`] and [`retire_changes`]
+/// move outputs into.
 pub const RETIRED_DIR: &str = "retired";
 
 /// Moves the plan and cross-check outputs of an earlier forecast out of
@@ -423,8 +427,22 @@ pub const RETIRED_DIR: &str = "retired";
 /// earlier retirement left there. Returns the names moved, so the caller
 /// can say so; nothing is deleted that was not retired before.
 pub fn retire_derived(dir: &Path) -> Result<Vec<String>> {
+    retire(dir, &DERIVED_FILES, &["plan-", "crosscheck-"])
+}
+
+/// Moves the known-changes files ([`CHANGES_FILES`]) of an earlier
+/// forecast out of `dir` into `dir/retired/`, as [`retire_derived`] does:
+/// for a run without a changes file, whose forecast they do not describe.
+pub fn retire_changes(dir: &Path) -> Result<Vec<String>> {
+    retire(dir, &CHANGES_FILES, &[])
+}
+
+/// Moves `files` of `dir`, and the files of `dir/charts` whose names start
+/// with one of `chart_prefixes`, into `dir/retired/`; returns the names
+/// moved, sorted.
+fn retire(dir: &Path, files: &[&str], chart_prefixes: &[&str]) -> Result<Vec<String>> {
     let retired = dir.join(RETIRED_DIR);
-    let mut moves: Vec<(PathBuf, PathBuf, String)> = DERIVED_FILES
+    let mut moves: Vec<(PathBuf, PathBuf, String)> = files
         .iter()
         .map(|f| (dir.join(f), retired.join(f), (*f).to_string()))
         .filter(|(from, _, _)| from.is_file())
@@ -432,7 +450,7 @@ pub fn retire_derived(dir: &Path) -> Result<Vec<String>> {
     if let Ok(entries) = std::fs::read_dir(dir.join("charts")) {
         for e in entries.flatten() {
             let name = e.file_name().to_string_lossy().into_owned();
-            if (name.starts_with("plan-") || name.starts_with("crosscheck-"))
+            if chart_prefixes.iter().any(|p| name.starts_with(p))
                 && e.file_type().is_ok_and(|t| t.is_file())
             {
                 let shown = format!("charts/{name}");

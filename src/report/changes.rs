@@ -69,7 +69,18 @@ fn number(s: Option<&String>) -> Option<f64> {
 
 /// Reads the changes of the output folder `dir` and draws what the report
 /// shows of them; `None` when the run had no changes file.
+/// A `changes_summary.csv` left by an earlier run is not this run's: the
+/// section is drawn only when `manifest.json` names a changes file.
 pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>> {
+    let manifest: Option<serde_json::Value> = std::fs::read(dir.join("manifest.json"))
+        .ok()
+        .and_then(|b| serde_json::from_slice(&b).ok());
+    if !manifest
+        .as_ref()
+        .is_some_and(crate::output::manifest_has_changes)
+    {
+        return Ok(None);
+    }
     let Some(summary) = read(&dir.join("changes_summary.csv"))? else {
         return Ok(None);
     };
@@ -104,9 +115,6 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
     // Only the changed products get the adjusted line.
     let changed: Vec<String> = summary.iter().map(|r| name(r.get("product"))).collect();
     part.adjusted.retain(|p, _| changed.contains(p));
-    let manifest: Option<serde_json::Value> = std::fs::read(dir.join("manifest.json"))
-        .ok()
-        .and_then(|b| serde_json::from_slice(&b).ok());
     let field = |k: &str| {
         manifest
             .as_ref()

@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 
 use super::html::{escape, Cell, Kind, Table};
 use crate::chart::{self, CrossCheckChart, EstimateBar};
-use crate::crosscheck::AnnualConsumption;
+use crate::crosscheck::{AnnualConsumption, ForecastUsed};
 use crate::error::{Error, Result};
 
 /// One row of `crosscheck.csv` as read back.
@@ -35,6 +35,9 @@ pub struct CrossCheckRow {
     pub explanation: String,
     /// How the quantity was computed.
     pub basis: String,
+    /// The forecast compared with (`None` in a file written before the
+    /// column was added).
+    pub forecast_used: Option<ForecastUsed>,
 }
 
 /// Reads `crosscheck.csv` of `dir`; `None` when there is none.
@@ -69,8 +72,11 @@ pub fn read_crosscheck(dir: &Path) -> Result<Option<Vec<CrossCheckRow>>> {
     };
     let mut idx = BTreeMap::new();
     for name in crate::output::CROSSCHECK_COLUMNS {
-        idx.insert(name, col(name)?);
+        if name != "forecast_used" {
+            idx.insert(name, col(name)?);
+        }
     }
+    let used_col = header.iter().position(|h| h == "forecast_used");
     let mut rows = Vec::new();
     for rec in reader.records() {
         let rec = rec.map_err(|e| {
@@ -118,6 +124,9 @@ pub fn read_crosscheck(dir: &Path) -> Result<Option<Vec<CrossCheckRow>>> {
             flag: text("flag"),
             explanation: text("explanation"),
             basis: text("basis"),
+            forecast_used: used_col
+                .and_then(|c| rec.get(c))
+                .and_then(ForecastUsed::parse),
         });
     }
     Ok(Some(rows))
@@ -153,6 +162,17 @@ fn by_product(rows: &[CrossCheckRow]) -> Vec<(&str, Vec<&CrossCheckRow>)> {
     out
 }
 
+/// The forecast the cross-check of `dir` compared with: as
+/// `crosscheck.csv` records it, else as `crosscheck.json` does; `None` for
+/// files written before either recorded it.
+fn forecast_used(rows: &[CrossCheckRow], json: Option<&serde_json::Value>) -> Option<ForecastUsed> {
+    rows.iter().find_map(|r| r.forecast_used).or_else(|| {
+        json.and_then(|v| v.get("forecast_used"))
+            .and_then(|x| x.as_str())
+            .and_then(ForecastUsed::parse)
+    })
+}
+
 /// The chart data of one product's rows.
 pub fn chart_of(product: &str, rows: &[&CrossCheckRow], threshold: f64) -> CrossCheckChart {
     let consumption = rows
@@ -163,13 +183,19 @@ pub fn chart_of(product: &str, rows: &[&CrossCheckRow], threshold: f64) -> Cross
         .first()
         .map(|r| format!("{} to {}", r.period_start, r.period_end))
         .unwrap_or_default();
+    let used = rows.iter().find_map(|r| r.forecast_used);
+    let band = match used {
+        Some(ForecastUsed::Adjusted) => "adjusted forecast",
+        _ => "consumption",
+    };
     CrossCheckChart {
         title: product.to_string(),
         subtitle: format!(
-            "Annual quantity {period} by each method; bars beyond the shaded band (consumption ±{}%) are flagged.",
+            "Annual quantity {period} by each method; bars beyond the shaded band ({band} ±{}%) are flagged.",
             (threshold * 100.0).round()
         ),
         consumption,
+        forecast_used: used,
         estimates: rows
             .iter()
             .filter(|r| r.method != "consumption")
@@ -211,17 +237,30 @@ pub fn write_section(dir: &Path) -> Result<Option<(String, Vec<PathBuf>)>> {
         .map(|r| format!("{} to {}", r.period_start, r.period_end))
         .unwrap_or_default();
     let pct = (t * 100.0).round();
+    let used = forecast_used(&rows, json.as_ref());
+    let (which, column) = match used {
+        Some(ForecastUsed::Adjusted) => (
+            "<p>The forecast compared here is <strong>the adjusted forecast</strong>: the statistical forecast with the known changes applied (section Known changes ahead). Its 12-month totals differ from the statistical totals in the product index, and are the adjusted totals shown beside them.</p>\n",
+            "adjusted forecast (known changes)",
+        ),
+        Some(ForecastUsed::Statistical) => (
+            "<p>The forecast compared here is <strong>the statistical forecast</strong>: the run applied no known changes.</p>\n",
+            "statistical forecast",
+        ),
+        None => ("", "consumption forecast"),
+    };
     let _ = writeln!(
         b,
         "<p>Each product's consumption forecast for the 12 months {} is compared with what services data and population data imply for the same months. An estimate more than ±{pct}% from the consumption forecast is flagged with the likely reasons. Population-based figures usually give an upper bound. The 80% range of a 12-month total is not in the forecast files, which keep monthly ranges only: it lies between the narrow range (months' errors independent) and the sum of the monthly 80% bounds (months moving together), and both are shown. The inputs and every number used are in <span class=\"mono\">crosscheck.csv</span> and <span class=\"mono\">crosscheck.json</span>.</p>",
         escape(&period)
     );
+    b.push_str(which);
     let mut table = Table::new(
         &[
             ("product", Kind::Text),
             ("method", Kind::Text),
             ("12-month quantity", Kind::Num),
-            ("consumption forecast", Kind::Num),
+            (column, Kind::Num),
             ("ratio", Kind::Num),
             ("flag", Kind::Text),
             ("what it may mean", Kind::Text),
@@ -325,7 +364,7 @@ mod tests {
             units_basis: String::new(),
             loss_allowance: 0.0,
         };
-        let cc = build(&fc, start, &[], &[row], 0.25);
+        let cc = build(&fc, Default::default(), start, &[], &[row], 0.25);
         let dir = tempfile::tempdir().unwrap();
         crate::output::write_crosscheck(&dir.path().join("crosscheck.csv"), &cc).unwrap();
         let back = read_crosscheck(dir.path()).unwrap().unwrap();

@@ -411,13 +411,21 @@ fn status(name: &str) -> MonthStatus {
 /// Keeps the adjusted forecast of the products `changes_summary.csv` names
 /// (a change touched them) and drops the others' (equal to their
 /// statistical forecast), so only a changed product shows an adjusted one.
+/// `with_changes` is false for a run that applied no changes file: a
+/// `changes_summary.csv` beside it is an earlier run's and is not read.
 fn keep_changed_products(
     dir: &Path,
+    with_changes: bool,
     products: &mut [ProductResult],
     index: &HashMap<String, usize>,
 ) -> Result<()> {
     let mut changed = vec![false; products.len()];
-    if let Some(mut t) = Table::read(dir, "changes_summary.csv")? {
+    let summary = if with_changes {
+        Table::read(dir, "changes_summary.csv")?
+    } else {
+        None
+    };
+    if let Some(mut t) = summary {
         let [c] = t.cols(["product"])?;
         t.each(|_, _, rec| {
             if let Some(&i) = index.get(&name(rec, c)) {
@@ -567,7 +575,8 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
         });
         Ok(())
     })?;
-    keep_changed_products(dir, &mut products, &index)?;
+    let with_changes = crate::output::manifest_has_changes(&manifest);
+    keep_changed_products(dir, with_changes, &mut products, &index)?;
 
     if let Some(mut q) = Table::read(dir, "quality.csv")? {
         let c = q.cols([
@@ -737,6 +746,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
     let files = LINKED_FILES
         .iter()
         .filter(|f| dir.join(f).is_file())
+        .filter(|f| with_changes || !crate::output::CHANGES_FILES.contains(f))
         .map(|f| f.to_string())
         .collect();
     Ok(ForecastRun {

@@ -359,6 +359,8 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
             message: "missing or not valid JSON; give the output directory of `provisio forecast`"
                 .into(),
         })?;
+    // Known-changes files count only when this run applied a changes file.
+    let with_changes = crate::output::manifest_has_changes(&manifest);
     let Some((header, rows, _)) = read_text_table(dir, "forecast.csv", usize::MAX)? else {
         return Err(Error::Input {
             file: dir.join("forecast.csv").display().to_string(),
@@ -452,7 +454,12 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                     num(ac[3]).zip(num(ac[4])),
                 ));
         }
-        let changed: Vec<String> = read_text_table(dir, "changes_summary.csv", usize::MAX)?
+        let summary = if with_changes {
+            read_text_table(dir, "changes_summary.csv", usize::MAX)?
+        } else {
+            None
+        };
+        let changed: Vec<String> = summary
             .map(|(h, rows, _)| {
                 let pc = h.iter().position(|x| x == "product");
                 rows.iter()
@@ -511,6 +518,10 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
             tables.extend(adjustments(dir, MAX_TABLE_ROWS)?);
         }
         if plan_stale && matches!(file, "plan.csv" | "orders.csv" | "order_totals.csv") {
+            continue;
+        }
+        // An earlier run's known changes are not this forecast's.
+        if !with_changes && crate::output::CHANGES_FILES.contains(&file) {
             continue;
         }
         if let Some(t) = table(dir, file, sheet)? {
