@@ -474,6 +474,71 @@ fn pack_size_differing_from_the_run_configuration_is_warned() {
 }
 
 #[test]
+fn stock_chart_marks_stockouts_without_height_in_the_products_unit() {
+    // What a tester saw on the demo's plan charts: a stockout month drawn
+    // as a bar about 7,500 units high (read as stock on hand) with a
+    // legend calling it a "red strip", an axis in "base units" for a
+    // product counted in tests, and the axis running to about 230,000 for
+    // data up to about 132,000.
+    let w = Workdir::new();
+    hand_forecast(&w, &forecast_with_pack_size(30.0));
+    // 400 courses at 300 a month, lead time 3: February 2027 runs out, 200
+    // short; the order placed in January arrives in April.
+    w.write(
+        "stock.csv",
+        format!("{HEADER}Pill,400,2026-12,3,2,4,3,30,1,,\n"),
+    );
+    let o = w.run(&["plan", "fc", "--stock", "stock.csv", "--no-report"]);
+    assert!(o.status.success(), "{}", text(&o));
+    let plan = w.read_csv_maps("fc/plan.csv");
+    assert_eq!(num(&plan[1], "short"), 200.0);
+    let svg_file = std::fs::read_dir(w.path("fc/charts"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .find(|p| p.extension().is_some_and(|x| x == "svg"))
+        .unwrap();
+    let svg = std::fs::read_to_string(svg_file).unwrap();
+    assert!(svg.contains("stock (courses)"), "{svg}");
+    assert!(!svg.contains("base units"), "{svg}");
+    assert!(!svg.contains("red strip"), "{svg}");
+    assert!(svg.contains("stockout · short 200"), "{svg}");
+    let shorts: f64 = plan.iter().map(|r| num(r, "short")).sum();
+    assert!(
+        svg.contains(&format!(
+            "projected stockout (shaded month): {} month(s), {shorts} courses short",
+            plan.iter()
+                .filter(|r| r["flag"].contains("stockout"))
+                .count()
+        )),
+        "{svg}"
+    );
+    // The axis ends near the largest value drawn (an arrival, the maximum
+    // or a closing stock), not at a closing stock plus the arrival in it.
+    let top = plan
+        .iter()
+        .flat_map(|r| {
+            let amc = num(r, "amc");
+            [
+                num(r, "closing"),
+                num(r, "arrivals_planned"),
+                num(r, "arrivals_on_order"),
+                num(r, "max_months") * amc,
+            ]
+        })
+        .fold(400.0, f64::max);
+    let labels: Vec<f64> = svg
+        .split('>')
+        .filter_map(|t| t.split('<').next())
+        .filter_map(|t| t.replace(',', "").parse::<f64>().ok())
+        .collect();
+    let highest = labels.iter().cloned().fold(0.0, f64::max);
+    assert!(
+        highest <= top * 1.06 + 1e-9,
+        "{highest} above {top}: {labels:?}"
+    );
+}
+
+#[test]
 fn minimum_below_lead_time_and_expiring_quantity_are_said() {
     let w = Workdir::new();
     hand_forecast(&w, &flat_forecast("Pill", 2027, 24, 100.0));

@@ -482,3 +482,44 @@ fn the_attention_list_does_not_call_stocked_out_months_missing() {
     );
     assert!(!html.contains("16 month(s) missing"));
 }
+
+/// A product's configured unit names its quantities in the report and the
+/// chart files; a product without one keeps "base units". (The demo's
+/// units — course, test, sachet... — were in `forecast.csv` but every
+/// chart and caption said "base units".)
+#[test]
+fn configured_units_name_the_charts_and_captions() {
+    let (_tmp, dir) = fresh_copy();
+    // The fixture's forecast.csv with a units column, as a run configured
+    // with `units = "vial"` for the antivenom writes it.
+    let path = dir.join("forecast.csv");
+    let csv = std::fs::read_to_string(&path).unwrap();
+    let mut out = String::new();
+    for (i, line) in csv.lines().enumerate() {
+        let unit = if i == 0 {
+            "units"
+        } else if line.starts_with("Snake antivenom vial,") {
+            "vial"
+        } else {
+            ""
+        };
+        out.push_str(&format!("{line},{unit}\n"));
+    }
+    std::fs::write(&path, out).unwrap();
+    let o = report_with(&dir, &["--chart-files", "all"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let html = std::fs::read_to_string(dir.join("report.html")).unwrap();
+    let snake = "Snake antivenom vial";
+    let zinc = "Zinc 20 mg dispersible tablet x10";
+    assert_eq!(detail(&html, snake)["units"], "vials");
+    assert_eq!(detail(&html, zinc)["units"], "base units");
+    let svg = |p: &str| {
+        std::fs::read_to_string(dir.join("charts").join(format!("{}.svg", file_stem(p)))).unwrap()
+    };
+    let s = svg(snake);
+    assert!(s.contains("consumption (vials per month)"), "{s}");
+    // The backtest panel's axis too.
+    assert_eq!(s.matches("vials per month").count(), 2, "{s}");
+    assert!(!s.contains("base units"), "{s}");
+    assert!(svg(zinc).contains("consumption (base units per month)"));
+}

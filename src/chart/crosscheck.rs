@@ -45,6 +45,8 @@ pub struct CrossCheckChart {
     pub estimates: Vec<EstimateBar>,
     /// Agreement threshold (0.25 = ±25%).
     pub threshold: f64,
+    /// The unit the product is counted in; `None`: base units.
+    pub units: Option<String>,
 }
 
 const WIDTH: u32 = 1100;
@@ -170,7 +172,10 @@ fn draw<DB: DrawingBackend>(
         .x_labels(6)
         .x_label_formatter(&|v| super::fmt_axis(*v))
         .y_label_formatter(&name)
-        .x_desc("quantity over the 12 months, in base units")
+        .x_desc(format!(
+            "quantity over the 12 months, in {}",
+            super::units_plural(c.units.as_deref())
+        ))
         .draw()
         .msg()?;
     let label_font = (FONT, 15).into_font().color(&INK);

@@ -23,8 +23,8 @@ pub use crosscheck::{crosscheck_png, crosscheck_svg, CrossCheckChart, EstimateBa
 pub use overview::{overview_png, overview_svg, ScoreBar};
 pub use plan::{stock_png, stock_svg, StockChart, StockMonth};
 pub use product::{
-    changed_by_cleaning, product_png, product_svg, typical_change, BacktestPanel, BacktestPath,
-    HistoryMonth, ProductChart, ProjectedMonth, MARKED_CHANGE,
+    changed_by_cleaning, outlier_marks, product_png, product_svg, typical_change, BacktestPanel,
+    BacktestPath, HistoryMonth, ProductChart, ProjectedMonth, MARKED_CHANGE,
 };
 
 use crate::calendar::YearMonth;
@@ -103,6 +103,36 @@ pub(crate) mod palette {
     pub const OVER: RGBColor = RGBColor(0x56, 0xb4, 0xe9);
     /// Under-forecast bias.
     pub const UNDER: RGBColor = RGBColor(0xe6, 0x9f, 0x00);
+}
+
+/// The unit a product's quantities are counted in, plural, for axis titles
+/// and captions: "tests" for a product configured with `units = "test"`,
+/// "base units" when none is configured. A single English-looking word (or
+/// the last word of a phrase: "blister pack" → "blister packs") gets the
+/// regular plural; anything else is left as written ("ml", "IU", "10 ml
+/// vial x5", a name already ending in s), as a wrong plural reads worse than
+/// none.
+pub fn units_plural(units: Option<&str>) -> String {
+    let Some(u) = units.map(str::trim).filter(|u| !u.is_empty()) else {
+        return "base units".to_string();
+    };
+    let last = u.rsplit(char::is_whitespace).next().unwrap_or(u);
+    let word = last.len() >= 3
+        && last.chars().all(|c| c.is_ascii_alphabetic())
+        && last.chars().skip(1).all(|c| c.is_ascii_lowercase())
+        && !matches!(last, "mcg" | "mmol");
+    if !word || last.ends_with('s') {
+        return u.to_string();
+    }
+    let stem = &u[..u.len() - 1];
+    let before_y = last.chars().rev().nth(1).unwrap_or('a');
+    if last.ends_with('y') && !"aeiou".contains(before_y) {
+        format!("{stem}ies")
+    } else if ["x", "z", "ch", "sh"].iter().any(|e| last.ends_with(e)) {
+        format!("{u}es")
+    } else {
+        format!("{u}s")
+    }
 }
 
 /// Short month label: "Jan 2024".
@@ -460,6 +490,33 @@ pub fn cut(s: &str, n: usize) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn units_are_named_in_plural_or_left_as_written() {
+        // The demo's units (datasets/demo/run.toml); before, every chart
+        // said "base units" whatever the product was counted in.
+        for (u, want) in [
+            ("test", "tests"),
+            ("course", "courses"),
+            ("piece", "pieces"),
+            ("sachet", "sachets"),
+            ("vial", "vials"),
+            ("bottle", "bottles"),
+            ("box", "boxes"),
+            ("blister pack", "blister packs"),
+            ("Ampoule", "Ampoules"),
+            ("tablets", "tablets"),
+            ("ml", "ml"),
+            ("IU", "IU"),
+            ("mcg", "mcg"),
+            ("vial x10", "vial x10"),
+            ("comprimé", "comprimé"),
+        ] {
+            assert_eq!(units_plural(Some(u)), want, "{u}");
+        }
+        assert_eq!(units_plural(None), "base units");
+        assert_eq!(units_plural(Some("  ")), "base units");
+    }
 
     #[test]
     fn png_titles_warn_only_for_scripts_the_font_lacks() {

@@ -118,8 +118,8 @@ pub fn changed_by_cleaning(history: &[HistoryMonth]) -> Vec<bool> {
         .collect()
 }
 
-/// Everything the chart of one product shows. Units are base units per
-/// month throughout.
+/// Everything the chart of one product shows. Quantities are per month, in
+/// the product's unit ([`ProductChart::units`]).
 #[derive(Debug, Clone, PartialEq)]
 pub struct ProductChart {
     /// Title (the product name; cut to fit).
@@ -139,6 +139,31 @@ pub struct ProductChart {
     /// The adjusted forecast (known changes applied), month by month; empty
     /// when the run had no changes file. Drawn dashed over the projection.
     pub adjusted: Vec<(YearMonth, f64)>,
+    /// The unit the product is counted in (`units` of the run
+    /// configuration, as `forecast.csv` gives it); `None`: base units.
+    pub units: Option<String>,
+}
+
+impl ProductChart {
+    /// The value axis' title: "consumption (tests per month)".
+    fn axis_title(&self) -> String {
+        format!(
+            "consumption ({} per month)",
+            super::units_plural(self.units.as_deref())
+        )
+    }
+}
+
+/// Where the outlier crosses go: at the reported value, which is what was
+/// judged an outlier (the cleaned value of a replaced outlier is the
+/// expected one, and its month carries the cleaning's own mark), or at the
+/// cleaned value when nothing was reported.
+pub fn outlier_marks(history: &[HistoryMonth]) -> Vec<(YearMonth, f64)> {
+    history
+        .iter()
+        .filter(|h| h.outlier)
+        .filter_map(|h| h.reported.or(h.cleaned).map(|v| (h.month, v)))
+        .collect()
 }
 
 const WIDTH: u32 = 1200;
@@ -280,14 +305,25 @@ fn runs(points: impl Iterator<Item = (f64, Option<f64>)>) -> Vec<Vec<(f64, f64)>
     out
 }
 
-/// Splits off the head of a chart (104 pixels) and draws the title and
-/// subtitle in it; returns [head, plot area].
+/// Splits off the head of a chart (104 pixels: title, subtitle and two
+/// legend lines) and draws the title and subtitle in it; returns [head,
+/// plot area].
 pub(super) fn titled<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     title: &str,
     subtitle: &str,
 ) -> std::result::Result<[DrawingArea<DB, Shift>; 2], String> {
-    let (head, plot) = area.split_vertically(104);
+    titled_with(area, title, subtitle, 104)
+}
+
+/// [`titled`] with a head of `height` pixels (each legend line takes 20).
+pub(super) fn titled_with<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    title: &str,
+    subtitle: &str,
+    height: u32,
+) -> std::result::Result<[DrawingArea<DB, Shift>; 2], String> {
+    let (head, plot) = area.split_vertically(height);
     head.draw(&Text::new(
         cut(title, 90),
         (16, 10),
@@ -351,7 +387,7 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
         base.months_until(last),
         ymax,
         6,
-        "consumption (base units per month)",
+        &c.axis_title(),
     )?;
 
     let mut legend: Vec<(Glyph, String)> = Vec::new();
@@ -450,11 +486,9 @@ fn draw_main<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, c: &ProductChart
             .msg()?;
         items.push((Glyph::Square(FILLED), "imputed month".to_string()));
     }
-    let outliers: Vec<(f64, f64)> = c
-        .history
-        .iter()
-        .filter(|h| h.outlier)
-        .filter_map(|h| h.cleaned.or(h.reported).map(|v| (x(h.month), v)))
+    let outliers: Vec<(f64, f64)> = outlier_marks(&c.history)
+        .into_iter()
+        .map(|(m, v)| (x(m), v))
         .collect();
     if !outliers.is_empty() {
         chart
@@ -589,7 +623,7 @@ fn draw_backtest<DB: DrawingBackend>(
         base.months_until(last_target),
         ymax,
         5,
-        "base units per month",
+        &format!("{} per month", super::units_plural(c.units.as_deref())),
     )?;
     let value_at = |m: YearMonth| actual.iter().find(|a| a.0 == m).map(|a| a.1);
     for p in &bt.paths {
@@ -651,6 +685,7 @@ mod tests {
             projection,
             backtest: None,
             adjusted: Vec::new(),
+            units: None,
         }
     }
 
@@ -735,6 +770,30 @@ mod tests {
         let mut p = scaled(0, 100.0, 300.0);
         p.status = MonthStatus::PartlyFilled;
         assert_eq!(changed_by_cleaning(&[p]), vec![false]);
+    }
+
+    #[test]
+    fn outliers_are_marked_at_the_reported_value_and_units_named() {
+        // The demo's artemether-lumefantrine 2023-05: reported 13,975,
+        // cleaned 6,620. The PNG put its cross on 6,620 while the report's
+        // chart put it on 13,975; both now mark the reported value.
+        let mut m = month(4, Some(13_975.0), MonthStatus::PartlyFilled);
+        m.cleaned = Some(6_620.0);
+        m.outlier = true;
+        let mut h = vec![month(3, Some(6_000.0), MonthStatus::Reported), m];
+        assert_eq!(outlier_marks(&h), vec![(ym(2024, 5), 13_975.0)]);
+        h[1].reported = None;
+        assert_eq!(outlier_marks(&h), vec![(ym(2024, 5), 6_620.0)]);
+        // The axis said "base units per month" whatever the product was
+        // counted in.
+        let mut c = chart(h, vec![]);
+        assert!(product_svg(&c)
+            .unwrap()
+            .contains("consumption (base units per month)"));
+        c.units = Some("course".into());
+        let svg = product_svg(&c).unwrap();
+        assert!(svg.contains("consumption (courses per month)"), "{svg}");
+        assert!(!svg.contains("base units"));
     }
 
     #[test]

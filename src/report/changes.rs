@@ -195,6 +195,7 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
             action: "cannot create the charts directory",
             source,
         })?;
+        let units = super::read_units(dir)?;
         let names: Vec<String> = new_products.iter().map(|p| format!("new {p}")).collect();
         let stems = chart::file_stems(&names.iter().map(String::as_str).collect::<Vec<_>>());
         for (p, stem) in new_products.iter().zip(stems) {
@@ -211,6 +212,7 @@ pub fn changes_part(dir: &Path, charts_dir: &Path) -> Result<Option<ChangesPart>
                 projection: statistical.get(p).cloned().unwrap_or_default(),
                 backtest: None,
                 adjusted: part.adjusted.get(p).cloned().unwrap_or_default(),
+                units: units.get(p).cloned(),
             };
             let svg = chart::product_svg(&c)?;
             let path = charts_dir.join(format!("{stem}.svg"));

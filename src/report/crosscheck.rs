@@ -174,7 +174,12 @@ fn forecast_used(rows: &[CrossCheckRow], json: Option<&serde_json::Value>) -> Op
 }
 
 /// The chart data of one product's rows.
-pub fn chart_of(product: &str, rows: &[&CrossCheckRow], threshold: f64) -> CrossCheckChart {
+pub fn chart_of(
+    product: &str,
+    rows: &[&CrossCheckRow],
+    threshold: f64,
+    units: Option<&str>,
+) -> CrossCheckChart {
     let consumption = rows
         .iter()
         .find(|r| r.method == "consumption")
@@ -207,6 +212,7 @@ pub fn chart_of(product: &str, rows: &[&CrossCheckRow], threshold: f64) -> Cross
             })
             .collect(),
         threshold,
+        units: units.map(str::to_string),
     }
 }
 
@@ -297,8 +303,9 @@ pub fn write_section(dir: &Path) -> Result<Option<(String, Vec<PathBuf>)>> {
         b.push_str("<ul class=\"warn\"><li>forecast.csv has changed since this cross-check was made (its SHA-256 differs from the one in crosscheck.json): the figures below compare with an earlier forecast; run <code>provisio crosscheck</code> again.</li></ul>\n");
     }
     b.push_str(&table.html());
+    let units = super::read_units(dir)?;
     for ((product, rs), stem) in groups.iter().zip(&stems) {
-        let c = chart_of(product, rs, t);
+        let c = chart_of(product, rs, t, units.get(*product).map(String::as_str));
         let svg = chart::crosscheck_svg(&c)?;
         let name = format!("crosscheck-{stem}");
         let svg_path = charts_dir.join(format!("{name}.svg"));

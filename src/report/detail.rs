@@ -334,6 +334,9 @@ struct Detail<'a> {
     warnings: &'a [String],
     /// Chart image files written for this product (PNG, SVG), when asked.
     files: bool,
+    /// The unit its quantities are counted in, plural ("tests"; "base
+    /// units" when none is configured).
+    units: String,
     chart: ChartData,
 }
 
@@ -540,6 +543,7 @@ pub fn detail_json(p: &ProductResult, chart_files: bool, large_run: bool) -> Str
         adj_latest: large_run,
         warnings: &p.warnings,
         files: chart_files,
+        units: crate::chart::units_plural(p.units.as_deref()),
         chart: chart_data(p),
     };
     safe_json(&serde_json::to_string(&d).unwrap_or_else(|_| "null".into()))

@@ -29,8 +29,8 @@ use std::path::{Path, PathBuf};
 use rayon::prelude::*;
 
 pub use read::{
-    read_output_dir, AdjustmentRow, Figures, ForecastRun, ProductResult, Quality, ScoreRow,
-    Selection, LINKED_FILES,
+    read_output_dir, read_units, AdjustmentRow, Figures, ForecastRun, ProductResult, Quality,
+    ScoreRow, Selection, LINKED_FILES,
 };
 
 use crate::chart::{self, ProductChart, ScoreBar};
@@ -172,6 +172,7 @@ pub fn product_chart(p: &ProductResult) -> ProductChart {
         projection: p.projection.clone(),
         backtest: p.backtest.clone(),
         adjusted: p.adjusted.clone(),
+        units: p.units.clone(),
     }
 }
 
@@ -897,7 +898,7 @@ fn index_section(b: &mut String, run: &ForecastRun) {
         run.products.len()
     );
     b.push_str("<noscript><p class=\"note\">The product index and each product's detail are drawn by this page's own script, which is turned off. Every figure is also in selection.csv, forecast.csv and scores.csv in this folder.</p></noscript>\n");
-    b.push_str("<p class=\"note\">Click a product to open its chart, scores, data quality and adjustments; click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in base units.");
+    b.push_str("<p class=\"note\">Click a product to open its chart, scores, data quality and adjustments; click a column heading to sort. MAPE and bias are the chosen model's backtest scores (bias &gt; 0: over-forecast). AMC: average monthly consumption, in each product's unit (as configured; base units when none is).");
     if run.products.iter().any(|p| !p.adjusted.is_empty()) {
         b.push_str(" Totals and AMC are of the statistical forecast; the adjusted total (known changes applied, as the supply plan and the cross-check use it) is given for the products a change touched.");
     }

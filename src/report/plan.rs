@@ -43,6 +43,9 @@ pub struct PlanRow {
     pub emergency_months: Option<f64>,
     /// Flags, space-separated ("ok" when none).
     pub flag: String,
+    /// Quantity expected to expire before use (0 when none; plans written
+    /// before the `expiring` column read as 0).
+    pub expiring: f64,
 }
 
 /// One row of `orders.csv` as read back.
@@ -81,6 +84,9 @@ pub struct PlanRead {
     /// `forecast.csv` has changed since the plan was made (its SHA-256
     /// differs from the one in `plan.json`): the plan is out of date.
     pub stale: bool,
+    /// The unit each product is counted in (`forecast.csv`'s `units`),
+    /// for the products that have one.
+    pub units: std::collections::HashMap<String, String>,
 }
 
 /// Reads the plan files of `dir`; `None` when it has no `plan.csv`.
@@ -106,6 +112,7 @@ pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
         "flag",
     ];
     let c = t.cols(names)?;
+    let expiring = t.col_opt("expiring");
     let mut series: Vec<(SeriesKey, PlanSeries)> = Vec::new();
     let mut index: BTreeMap<SeriesKey, usize> = BTreeMap::new();
     let key = |rec: &csv::StringRecord, p: usize, s: usize| -> SeriesKey {
@@ -129,6 +136,10 @@ pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
             max_months: z(12)?,
             emergency_months: n(13)?,
             flag: text(rec, c[14]),
+            expiring: match expiring {
+                Some(e) => t.num(line, rec, e, "expiring")?.unwrap_or(0.0),
+                None => 0.0,
+            },
         };
         let k = key(rec, c[0], c[1]);
         let i = *index.entry(k.clone()).or_insert_with(|| {
@@ -171,7 +182,13 @@ pub fn read_plan(dir: &Path) -> Result<Option<PlanRead>> {
         .and_then(|b| serde_json::from_slice(&b).ok())
         .unwrap_or(serde_json::Value::Null);
     let stale = made_from_another_forecast(dir, &run);
-    Ok(Some(PlanRead { run, series, stale }))
+    let units = super::read_units(dir)?;
+    Ok(Some(PlanRead {
+        run,
+        series,
+        stale,
+        units,
+    }))
 }
 
 /// Whether `forecast.csv` in `dir` differs from the one the plan
@@ -203,8 +220,10 @@ pub fn series_stem(k: &SeriesKey) -> String {
     format!("plan-{}", chart::file_stem(&name))
 }
 
-/// The stock chart of a series, from its rows.
-pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
+/// The stock chart of a series, from its rows; `units` is the unit the
+/// product is counted in (`None`: base units).
+pub fn stock_chart(k: &SeriesKey, s: &PlanSeries, units: Option<&str>) -> StockChart {
+    let unit = chart::units_plural(units);
     let first = s.months.first();
     let count_month = first
         .map(|m| m.month.plus(-1))
@@ -224,12 +243,16 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
             m.min_months, m.max_months
         );
     }
-    let _ = write!(
-        subtitle,
-        " · {} proposed order(s), {} units",
-        s.orders.len(),
-        chart::fmt_quantity(total)
-    );
+    if s.orders.is_empty() {
+        subtitle.push_str(" · no order proposed");
+    } else {
+        let _ = write!(
+            subtitle,
+            " · {} proposed order(s), {} {unit}",
+            s.orders.len(),
+            chart::fmt_quantity(total)
+        );
+    }
     if short > 0.0 {
         let _ = write!(subtitle, " · short {}", chart::fmt_quantity(short));
     }
@@ -238,10 +261,17 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
         .iter()
         .filter(|m| m.flag.split(' ').any(|f| f == "expiry-risk"))
         .count();
-    if expiry > 0 {
+    if s.months.iter().any(|m| m.expiring > 0.0) {
+        // Drawn as the top of those months' columns (what stands above
+        // AMC × shelf life), so the count refers to something visible.
         let _ = write!(
             subtitle,
-            " · {expiry} month(s) above shelf life (expiry risk)"
+            " · {expiry} month(s) with stock expected to expire"
+        );
+    } else if expiry > 0 {
+        let _ = write!(
+            subtitle,
+            " · {expiry} month(s) above shelf life (expiry risk; see the table)"
         );
     }
     StockChart {
@@ -249,6 +279,7 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
         subtitle,
         stock_on_hand,
         count_month,
+        units: units.map(str::to_string),
         months: s
             .months
             .iter()
@@ -263,6 +294,7 @@ pub fn stock_chart(k: &SeriesKey, s: &PlanSeries) -> StockChart {
                 emergency_qty: m.emergency_months.map(|e| e * m.amc),
                 on_order: m.on_order,
                 planned: m.planned,
+                expiring: m.expiring,
                 order_placed: s.orders.iter().any(|o| o.order_month == m.month),
             })
             .collect(),
@@ -279,7 +311,7 @@ pub fn draw_charts(plan: &PlanRead, charts_dir: &Path) -> Result<(Vec<String>, V
         return Ok((svgs, files));
     }
     for (k, s) in &plan.series {
-        let c = stock_chart(k, s);
+        let c = stock_chart(k, s, plan.units.get(&k.0).map(String::as_str));
         let stem = series_stem(k);
         let svg = chart::stock_svg(&c)?;
         let svg_path = charts_dir.join(format!("{stem}.svg"));
@@ -419,8 +451,9 @@ pub fn section(plan: &PlanRead, svgs: &[String]) -> String {
         );
         let _ = writeln!(
             b,
-            "<figure class=\"chart\" role=\"img\" aria-label=\"Stock chart of {}\">{svg}<figcaption>Projected closing stock in base units, one column a month coloured against the minimum and maximum (min and max months × AMC, drawn as lines), arrivals as stems, order months on the axis, and projected stockout months as a red strip. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
-            escape(&series_title(k))
+            "<figure class=\"chart\" role=\"img\" aria-label=\"Stock chart of {}\">{svg}<figcaption>Projected closing stock in {}, one column a month coloured against the minimum and maximum (min and max months × AMC, drawn as lines with the emergency point), arrivals as stems, order months on the axis, stock expected to expire before use as the top of its column, and projected stockout months shaded with the quantity short written in them. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
+            escape(&series_title(k)),
+            escape(&chart::units_plural(plan.units.get(&k.0).map(String::as_str)))
         );
         if s.orders.is_empty() {
             b.push_str("<p class=\"note\">No order proposed over the horizon.</p>\n");

@@ -152,6 +152,9 @@ pub struct ProductResult {
     /// product a known change touched (`changes_summary.csv`); empty for
     /// every other product.
     pub adjusted: Vec<(YearMonth, f64)>,
+    /// The unit the product is counted in (`forecast.csv` column `units`,
+    /// from the run configuration); `None` when none is configured.
+    pub units: Option<String>,
     /// The chosen model's backtest paths, when backtested.
     pub backtest: Option<BacktestPanel>,
     /// Every candidate's scores.
@@ -393,6 +396,28 @@ pub(super) fn text(rec: &csv::StringRecord, col: usize) -> String {
     rec.get(col).unwrap_or("").to_string()
 }
 
+/// The unit each product is counted in, from `forecast.csv`'s `units`
+/// column (the run configuration's `units`): product → unit, for the
+/// products that have one. Empty when there is no `forecast.csv` or it
+/// has no such column (folders written before it).
+pub fn read_units(dir: &Path) -> Result<HashMap<String, String>> {
+    let mut out = HashMap::new();
+    let Some(mut t) = Table::read(dir, "forecast.csv")? else {
+        return Ok(out);
+    };
+    let (Some(p), Some(u)) = (t.col_opt("product"), t.col_opt("units")) else {
+        return Ok(out);
+    };
+    t.each(|_, _, rec| {
+        let unit = name(rec, u);
+        if !unit.trim().is_empty() {
+            out.entry(name(rec, p)).or_insert(unit);
+        }
+        Ok(())
+    })?;
+    Ok(out)
+}
+
 /// A product or site name, as written with formula text quoted (see
 /// [`crate::output::csv_text`]).
 fn name(rec: &csv::StringRecord, col: usize) -> String {
@@ -512,6 +537,7 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
             history: Vec::new(),
             projection: Vec::new(),
             adjusted: Vec::new(),
+            units: None,
             backtest: None,
             scores: Vec::new(),
             adjustments: Vec::new(),
@@ -547,10 +573,14 @@ pub fn read_output_dir(dir: &Path) -> Result<ForecastRun> {
     let bridged = fc.col_opt("bridged");
     // Written only by a run with a changes file.
     let adjusted = fc.col_opt("adjusted");
+    let units = fc.col_opt("units");
     fc.each(|fc, line, rec| {
         let Some(&i) = index.get(&name(rec, c[0])) else {
             return Ok(());
         };
+        if products[i].units.is_none() {
+            products[i].units = units.map(|u| name(rec, u)).filter(|u| !u.trim().is_empty());
+        }
         let n = |k: usize| fc.num(line, rec, c[k], names[k]);
         let pair = |a: Option<f64>, b: Option<f64>| a.zip(b);
         let point = n(2)?;

@@ -266,7 +266,7 @@
     sec.appendChild(keys);
     var fig = el("figure", { "class": "chart", role: "img", "aria-label": "Chart of " + d.name });
     fig.appendChild(chart(d));
-    var cap = el("figcaption", null, "Consumption in base units per month." + (d.files ? " Files: " : ""));
+    var cap = el("figcaption", null, "Consumption in " + (d.units || "base units") + " per month." + (d.files ? " Files: " : ""));
     if (d.files) {
       cap.appendChild(el("a", { href: "charts/" + stem + ".png" }, "PNG"));
       cap.appendChild(document.createTextNode(", "));

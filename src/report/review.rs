@@ -3,6 +3,7 @@
 //! style of the forecast report (same stylesheet, script, tables, chart
 //! functions and escaping).
 
+use std::collections::HashMap;
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -80,6 +81,7 @@ pub fn review_chart(past: &PastForecast, r: &ProductReview) -> ProductChart {
         projection,
         backtest: None,
         adjusted: Vec::new(),
+        units: None,
     }
 }
 
@@ -129,6 +131,8 @@ pub fn write_review_report(dir: &Path, page: &ReviewPage<'_>) -> Result<Written>
         .zip(&product_stems)
         .map(|(r, s)| stem(s, r.vintage, review.vintages.len()))
         .collect();
+    // Each past forecast's units (its forecast.csv), for the axis titles.
+    let units = units_of_pasts(page.pasts)?;
     let drawn: Vec<Result<(String, Vec<PathBuf>)>> = review
         .products
         .par_iter()
@@ -138,7 +142,11 @@ pub fn write_review_report(dir: &Path, page: &ReviewPage<'_>) -> Result<Written>
                 what: r.product.clone(),
                 message: "its past forecast is missing".into(),
             })?;
-            let c = review_chart(past, r);
+            let mut c = review_chart(past, r);
+            c.units = units
+                .get(r.vintage)
+                .and_then(|u| u.get(&r.product))
+                .cloned();
             let svg = chart::product_svg(&c)?;
             let svg_path = charts_dir.join(format!("{stem}.svg"));
             crate::output::write_atomic(&svg_path, |w| w.write_all(svg.as_bytes()))?;
@@ -154,7 +162,7 @@ pub fn write_review_report(dir: &Path, page: &ReviewPage<'_>) -> Result<Written>
         svgs.push(svg);
         charts.extend(files);
     }
-    let html = render(page, &stems, &svgs);
+    let html = render_with(page, &stems, &svgs, &units);
     let report = dir.join("review.html");
     crate::output::write_atomic(&report, |w| w.write_all(html.as_bytes()))?;
     Ok(Written {
@@ -181,6 +189,24 @@ fn span(a: YearMonth, b: YearMonth) -> String {
 /// Builds `review.html` from the page data, the charts' file stems and each
 /// reviewed product's chart SVG (same order as `review.products`).
 pub fn render(page: &ReviewPage<'_>, stems: &[String], svgs: &[String]) -> String {
+    // Units only name the charts' quantities: a folder whose forecast.csv
+    // cannot be read again says "base units".
+    let units = units_of_pasts(page.pasts).unwrap_or_default();
+    render_with(page, stems, svgs, &units)
+}
+
+/// Each past forecast's units (product → unit, from its `forecast.csv`), in
+/// the order of the vintages.
+fn units_of_pasts(pasts: &[&PastForecast]) -> Result<Vec<HashMap<String, String>>> {
+    pasts.iter().map(|p| super::read_units(&p.dir)).collect()
+}
+
+fn render_with(
+    page: &ReviewPage<'_>,
+    stems: &[String],
+    svgs: &[String],
+    units: &[HashMap<String, String>],
+) -> String {
     let review = page.review;
     let mut b = String::new();
     b.push_str("<header class=\"top\"><div class=\"inner\"><h1>Review of past forecasts</h1>");
@@ -231,7 +257,8 @@ pub fn render(page: &ReviewPage<'_>, stems: &[String], svgs: &[String]) -> Strin
     }
     b.push_str("<h2 id=\"details\">Product details</h2>\n");
     for ((r, stem), svg) in review.products.iter().zip(stems).zip(svgs) {
-        product_section(&mut b, page, r, stem, svg);
+        let unit = units.get(r.vintage).and_then(|u| u.get(&r.product));
+        product_section(&mut b, page, r, stem, svg, unit.map(String::as_str));
     }
     let _ = write!(
         b,
@@ -499,6 +526,7 @@ fn product_section(
     r: &ProductReview,
     stem: &str,
     svg: &str,
+    units: Option<&str>,
 ) {
     let review = page.review;
     let s = &r.scores;
@@ -583,8 +611,9 @@ fn product_section(
     b.push_str("</div>\n");
     let _ = writeln!(
         b,
-        "<figure class=\"chart\" role=\"img\" aria-label=\"Actuals against the past forecast of {}\">{svg}<figcaption>Consumption in base units per month: the cleaned history the forecast was made from, then the cleaned actuals, against the past forecast and its ranges. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
-        escape(&r.product)
+        "<figure class=\"chart\" role=\"img\" aria-label=\"Actuals against the past forecast of {}\">{svg}<figcaption>Consumption in {} per month: the cleaned history the forecast was made from, then the cleaned actuals, against the past forecast and its ranges. Files: <a href=\"charts/{stem}.png\">PNG</a>, <a href=\"charts/{stem}.svg\">SVG</a>.</figcaption></figure>",
+        escape(&r.product),
+        escape(&crate::chart::units_plural(units))
     );
 
     b.push_str("<h3>Month by month</h3>\n");
