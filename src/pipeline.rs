@@ -9,7 +9,7 @@ use crate::backtest::{
     self, Backtest, BacktestSettings, CheckedBacktestSettings, RunStatus, Scores, COMBINATION,
 };
 use crate::calendar::YearMonth;
-use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod};
+use crate::calibrate::{calibrate, calibrate_pooled, Pool, PoolEntry, RangeMethod, Uncalibrated};
 use crate::clean::CleanSeries;
 use crate::default_rule::{self, DefaultChoice, DefaultRule, ProductCheck, BEST_MEAN};
 use crate::error::Result;
@@ -769,7 +769,7 @@ fn select_for(
         selection.runner_up = None;
         selection.margin_pct = None;
     }
-    if !selection.backtested && !selection.pinned && selection.chosen == COMBINATION {
+    if selection.chosen_scores.is_none() && !selection.pinned && selection.chosen == COMBINATION {
         selection.reason = format!(
             "{}; the default combination is used, of the members that can be fitted ({})",
             crate::select::unscored_reason(bt, selection.score),
@@ -917,7 +917,7 @@ fn finish_product(
         }
     };
     if let Some(p) = &projection {
-        warnings.extend(suspect_warnings(&series.product, y, &selection, p, &bt));
+        warnings.extend(suspect_warnings(&series.product, y, &selection, p));
     }
     let model_ranges = projection.as_ref().map(|p| p.forecast.clone());
     let mut pool_entry = None;
@@ -927,17 +927,22 @@ fn finish_product(
                 Some(c) if selection.chosen == c.model => bt.points(c),
                 _ => bt.points(run),
             };
-            pool_entry = Some(PoolEntry {
-                class: class.name().to_string(),
-                r80: crate::calibrate::scores_at(&points, 0.80),
-                r95: crate::calibrate::scores_at(&points, 0.95),
-            });
+            pool_entry = Some(PoolEntry::of(class.name(), &points));
             // The product's own errors alone; [`calibrate_run`] pools them
             // with the other products' of the run.
             calibrate(&mut p.forecast, &points)
         }
-        _ => RangeMethod::Model,
+        _ => RangeMethod::Model {
+            why: Uncalibrated::NoBacktest,
+        },
     };
+    if projection.is_some() {
+        warnings.extend(range_warnings(
+            &series.product,
+            coverage80(&selection),
+            &ranges,
+        ));
+    }
     let mut bt = bt;
     if settings.raw.backtest_detail == BacktestDetail::Chosen {
         let keep = |m: &str| {
@@ -978,19 +983,6 @@ fn model_scores(bt: &Backtest, run: &backtest::ModelRun) -> ModelScores {
     }
 }
 
-/// A product's own calibration factors, from its [`RangeMethod`].
-fn own_factors(r: &RangeMethod) -> Option<([f64; 2], usize)> {
-    match r {
-        RangeMethod::Calibrated {
-            factor80,
-            factor95,
-            points,
-            ..
-        } if *points > 0 => Some(([*factor80, *factor95], *points)),
-        _ => None,
-    }
-}
-
 /// Calibrates every product's ranges on its own backtest errors pooled
 /// with those of the run's other products of its demand class (see
 /// [`crate::calibrate`], "Partial pooling"), starting again from the
@@ -1005,8 +997,54 @@ pub fn calibrate_run(results: &mut [ProductForecast]) {
         ) else {
             continue;
         };
+        let coverage = coverage80(&r.selection);
+        let before = range_warnings(&r.product, coverage, &r.ranges);
         recalibrate(&pool, &entry, own, &mut p.forecast, &mut r.ranges);
+        let after = range_warnings(&r.product, coverage, &r.ranges);
+        replace_warnings(&mut r.warnings, &before, after);
     }
+}
+
+/// Backtest coverage of the chosen model's own 80% interval, in %.
+fn coverage80(selection: &Selection) -> Option<f64> {
+    selection.chosen_scores.and_then(|s| s.coverage80)
+}
+
+/// Replaces the warnings `before` in `warnings` by `after` (the range
+/// warnings once the ranges are pooled: a product first calibrated on its
+/// own errors alone may be calibrated on the pool's).
+fn replace_warnings(warnings: &mut Vec<String>, before: &[String], after: Vec<String>) {
+    if before != after.as_slice() {
+        warnings.retain(|w| !before.contains(w));
+        warnings.extend(after);
+    }
+}
+
+/// Warnings on a projection's ranges: calibration capped because the
+/// backtest missed by far more than the model expects (see
+/// [`crate::calibrate`], "At most ×5"), or a model's own range that held
+/// too few backtest actuals and could not be calibrated.
+pub fn range_warnings(product: &str, coverage80: Option<f64>, ranges: &RangeMethod) -> Vec<String> {
+    let mut out = Vec::new();
+    match ranges {
+        RangeMethod::Calibrated {
+            uncapped: Some(u), ..
+        } => out.push(format!(
+            "product '{product}': the backtest missed by far more than the model expects: its errors called for the model's own range ×{u:.1}, widened ×{:.0} at most; a break in the history (a step up or down that the earlier backtest origins could not see) is the likely cause: check it, and the ranges, against programme knowledge",
+            crate::calibrate::MAX_FACTOR
+        )),
+        RangeMethod::Model { why } => {
+            if let Some(c) = coverage80.filter(|&c| c < WARN_COVERAGE80_PCT)
+            {
+                out.push(format!(
+                    "product '{product}': the chosen model's 80% range held only {c:.0}% of the backtest actuals and could not be widened ({}); treat the range as too narrow",
+                    why.describe()
+                ));
+            }
+        }
+        _ => {}
+    }
+    out
 }
 
 /// Sets `target` to the model's own ranges `own` calibrated with the
@@ -1019,7 +1057,7 @@ fn recalibrate(
     ranges: &mut RangeMethod,
 ) {
     target.clone_from(own);
-    *ranges = calibrate_pooled(target, own_factors(ranges), pool.factors(&entry.class));
+    *ranges = calibrate_pooled(target, entry.own, pool.factors(&entry.class));
 }
 
 /// Backtest WAPE of the chosen model above which its forecast is suspect.
@@ -1045,7 +1083,6 @@ pub fn suspect_warnings(
     y: &[f64],
     selection: &Selection,
     projection: &Projection,
-    bt: &Backtest,
 ) -> Vec<String> {
     let mut out = Vec::new();
     let chosen = &selection.chosen;
@@ -1102,16 +1139,7 @@ pub fn suspect_warnings(
             }
         }
     }
-    let calibrated = bt
-        .run(chosen)
-        .is_some_and(|r| crate::calibrate::factor(&bt.points(r), 0.80).is_some());
-    if let Some(c) = selection.chosen_scores.and_then(|s| s.coverage80) {
-        if c < WARN_COVERAGE80_PCT && !calibrated {
-            out.push(format!(
-                "product '{product}': the chosen model's 80% range held only {c:.0}% of the backtest actuals and there were too few backtest errors to widen it; treat the range as too narrow"
-            ));
-        }
-    }
+    out.extend(stopped_warning(product, y, projection));
     if n < WARN_MIN_MONTHS {
         out.push(format!(
             "product '{product}': only {n} months of history (fewer than {WARN_MIN_MONTHS}); no seasonal pattern can be estimated and the backtest is short: check the projection against programme knowledge"
@@ -1147,6 +1175,51 @@ fn scale_up_warning(product: &str, y: &[f64], jump: f64, intermittent: bool) -> 
             jump * 100.0
         )
     })
+}
+
+/// Months of no consumption at the end of a history after which a
+/// product's consumption counts as stopped (the project's own, the same as
+/// the default `--silence-limit`).
+pub const WARN_STOPPED_MONTHS: usize = 6;
+
+/// A warning when a product that consumed before has consumed nothing for
+/// its last [`WARN_STOPPED_MONTHS`] or more months, longer than any earlier
+/// gap between its demands, and is still projected above zero: every model smooths over a stop, and the planner would order
+/// for a product that may be phased out, or stocked out without the
+/// stockout being reported. (A projection at zero for a product in use is
+/// warned where it is decided, a product whose reports stopped by the
+/// silence warning.)
+fn stopped_warning(product: &str, y: &[f64], projection: &Projection) -> Option<String> {
+    let stopped = y.iter().rev().take_while(|&&v| v <= 0.0).count();
+    let months: Vec<f64> = projection
+        .forecast
+        .point
+        .iter()
+        .skip(projection.bridged)
+        .take(12)
+        .copied()
+        .collect();
+    // A gap no longer than one the product already had between demands
+    // (months before its first demand do not count) is its usual rhythm
+    // (intermittent demand), not a stop.
+    let first = y.iter().position(|&v| v > 0.0).unwrap_or(y.len());
+    let longest_before = y[first.min(y.len() - stopped)..y.len() - stopped]
+        .split(|&v| v > 0.0)
+        .map(<[f64]>::len)
+        .max()
+        .unwrap_or(0);
+    if stopped < WARN_STOPPED_MONTHS
+        || stopped == y.len()
+        || stopped <= longest_before
+        || months.iter().all(|&v| v <= 0.0)
+    {
+        return None;
+    }
+    let monthly = months.iter().sum::<f64>() / months.len() as f64;
+    Some(format!(
+        "product '{product}': consumed nothing for its last {stopped} months, yet the projection is {} a month: consumption stopped; check whether the product is being phased out or stocked out, and set the quantity by hand if so",
+        crate::chart::fmt_quantity(monthly)
+    ))
 }
 
 /// Whether a product is forecast as intermittent demand (by its class,
@@ -1408,6 +1481,9 @@ pub struct HoldoutResult {
     pub ranges: RangeMethod,
     /// Scores for calibration pooled across the run; emptied once used.
     pub pool_entry: Option<PoolEntry>,
+    /// Backtest coverage of the selected model's own 80% interval, in %
+    /// (for the range warnings once the ranges are pooled).
+    pub coverage80: Option<f64>,
 }
 
 impl HoldoutResult {
@@ -1625,6 +1701,7 @@ pub fn holdout_check_defaults(
     let mut out = Vec::with_capacity(rs.len());
     for r in rs {
         let selected_ranges = r.projection.map(|p| p.forecast)?;
+        let coverage = coverage80(&r.selection);
         out.push(HoldoutResult {
             product: series.product.clone(),
             selected: r.selection.chosen,
@@ -1637,6 +1714,7 @@ pub fn holdout_check_defaults(
             scale,
             ranges: r.ranges,
             pool_entry: r.pool_entry,
+            coverage80: coverage,
         });
     }
     Some((out, check))
@@ -1715,7 +1793,10 @@ pub fn holdout_run(
         let (Some(entry), Some(own)) = (r.pool_entry.take(), r.model_ranges.as_ref()) else {
             continue;
         };
+        let before = range_warnings(&r.product, r.coverage80, &r.ranges);
         recalibrate(&pool, &entry, own, &mut r.selected_ranges, &mut r.ranges);
+        let after = range_warnings(&r.product, r.coverage80, &r.ranges);
+        replace_warnings(&mut r.warnings, &before, after);
     }
     (results, choice)
 }
@@ -2180,5 +2261,43 @@ mod tests {
         assert!(r.selected_forecast.iter().all(|&f| f == s.values[47]));
         let free = holdout_check(&s, &candidates(), &settings, 12).unwrap();
         assert_ne!(free.selected, "naive");
+    }
+
+    #[test]
+    fn a_stop_is_warned_but_an_intermittent_rhythm_is_not() {
+        // A tester's phase-out product: ~790 a month, then 8 months of
+        // nothing, projected at 751.8 a month with no word of the stop.
+        // Six months is the project's own limit (WARN_STOPPED_MONTHS).
+        let flat = |v: f64| Projection {
+            model: "croston-sba".into(),
+            members: Vec::new(),
+            start: crate::calendar::YearMonth::new(2026, 12).unwrap(),
+            bridged: 0,
+            forecast: Forecast {
+                point: vec![v; 24],
+                intervals: Vec::new(),
+            },
+            amc_next: v,
+            amc_last: 0.0,
+            totals: Vec::new(),
+        };
+        let mut y = vec![790.0; 22];
+        y.extend([0.0; 8]);
+        let w = stopped_warning("Old syrup", &y, &flat(751.8)).unwrap();
+        assert!(
+            w.contains("last 8 months, yet the projection is 752 a month"),
+            "{w}"
+        );
+        // Projected at zero: the zero-projection warning's business.
+        assert!(stopped_warning("Old syrup", &y, &flat(0.0)).is_none());
+        // Five months: not yet.
+        assert!(stopped_warning("Old syrup", &y[..27], &flat(751.8)).is_none());
+        // Demand every eighth month: 7 months of nothing is its rhythm.
+        let lumpy: Vec<f64> = (0..40)
+            .map(|t| if t % 8 == 0 { 40.0 } else { 0.0 })
+            .collect();
+        assert!(stopped_warning("Rare", &lumpy, &flat(5.0)).is_none());
+        // Never consumed: nothing stopped.
+        assert!(stopped_warning("New", &[0.0; 30], &flat(1.0)).is_none());
     }
 }

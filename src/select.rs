@@ -136,7 +136,9 @@ pub struct Selection {
     /// Runner-up's score above the chosen one, in percent of the chosen
     /// (negative: the runner-up scored better but not clearly enough).
     pub margin_pct: Option<f64>,
-    /// Whether the product could be backtested at all.
+    /// Whether the product could be backtested at all: the backtest ran at
+    /// its origins (`chosen_scores` may still be `None` when the score is
+    /// undefined on the history; the reason says so).
     pub backtested: bool,
     /// Plain-words reason.
     pub reason: String,
@@ -201,11 +203,16 @@ fn origin_wins(bt: &Backtest, a: &str, b: &str, score: Score) -> (usize, usize) 
 /// The score a product is selected by: `settings.score`, except RMSSE for
 /// intermittent demand and WAPE instead of MAPE when many months are zero.
 /// Returns the score and a note for the reason.
+/// Whether the backtest ran: some candidate forecast at every origin.
+fn backtest_ran(bt: &Backtest) -> bool {
+    bt.runs.iter().any(|r| r.status == RunStatus::Complete)
+}
+
 /// Why no model has a backtest score: no origin fits in the history, or
 /// the backtest ran but the score is undefined on this history (a series
 /// that never changes gives MASE and RMSSE no scale to divide by).
 pub(crate) fn unscored_reason(bt: &Backtest, score: Score) -> String {
-    if bt.runs.iter().any(|r| r.status == RunStatus::Complete) {
+    if backtest_ran(bt) {
         format!(
             "no backtest score: the backtest ran at {} origins, but {} is undefined on this history (it does not change from month to month, so errors have no scale to be measured against)",
             bt.origins.len(),
@@ -293,7 +300,11 @@ pub fn select(
             chosen_scores: None,
             runner_up: None,
             margin_pct: None,
-            backtested: false,
+            // The backtest ran when some candidate forecast at every
+            // origin, even if no score is defined on this history (the
+            // reason says so; a tester saw "not backtested" beside "the
+            // backtest ran at 12 origins").
+            backtested: backtest_ran(bt),
             reason: format!(
                 "{}; the simplest applicable model is used",
                 unscored_reason(bt, score)

@@ -105,7 +105,7 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
             "Air short",
             &[
                 "range held only",
-                "too few backtest errors to widen it",
+                "could not be widened (too few backtest errors to calibrate on: 12, fewer than 24)",
                 "only 14 months of history (fewer than 24)",
             ],
         ),
@@ -161,6 +161,176 @@ fn each_suspect_forecast_is_warned_where_the_planner_looks() {
     assert!(
         !drop.contains("fewer than 24") && !drop.contains("projected at zero"),
         "{drop}"
+    );
+}
+
+/// Rows of `product` from 2024-06, one a month.
+fn rows_from_2024_06(product: &str, values: &[f64]) -> String {
+    let mut s = String::new();
+    for (k, v) in values.iter().enumerate() {
+        let t = 2024 * 12 + 5 + k as i64;
+        s.push_str(&format!("{product},{}-{:02},{v},0,1\n", t / 12, t % 12 + 1));
+    }
+    s
+}
+
+/// A tester's three series, 30 months each, forecast together (too few
+/// products for a pool, so each product's ranges rest on its own backtest):
+/// "HIV test", a step from about 500 to about 1,500 a month (a scale-up) 15
+/// months before the end; "Old syrup", about 790 a month, then nothing for
+/// the last 8 months; "Rare drug", 29 months of nothing and then 50.
+/// Returns the terminal text, `selection.csv` and `forecast.csv`.
+///
+/// The limits (a factor of at most ×5; 6 months without consumption) are
+/// the project's own (src/calibrate.rs `MAX_FACTOR`, src/pipeline.rs
+/// `WARN_STOPPED_MONTHS`); that a 95% range contains the 80% one is common
+/// practice.
+fn tester_series() -> (String, Vec<Row>, Vec<Row>) {
+    let step = [
+        484., 504., 507., 494., 502., 478., 478., 485., 509., 496., 491., 504., 498., 490., 515.,
+        1530., 1462., 1511., 1504., 1556., 1534., 1468., 1572., 1443., 1488., 1539., 1448., 1498.,
+        1431., 1525.,
+    ];
+    let mut phase = vec![
+        729., 801., 726., 789., 731., 735., 788., 852., 740., 756., 820., 872., 812., 783., 876.,
+        727., 857., 766., 743., 739., 769., 851.,
+    ];
+    phase.extend([0.0; 8]);
+    let mut single = vec![0.0; 29];
+    single.push(50.0);
+    let w = Workdir::new();
+    let mut s = String::from("product,month,consumed,stockout_days,reporting_rate\n");
+    s.push_str(&rows_from_2024_06("HIV test", &step));
+    s.push_str(&rows_from_2024_06("Old syrup", &phase));
+    s.push_str(&rows_from_2024_06("Rare drug", &single));
+    w.write("d.csv", s);
+    let o = w.run(&[
+        "forecast",
+        "d.csv",
+        "--out",
+        "o",
+        "--no-report",
+        "--no-workbook",
+    ]);
+    let t = text(&o);
+    assert!(o.status.success(), "{t}");
+    (
+        t,
+        w.read_csv_maps("o/selection.csv"),
+        w.read_csv_maps("o/forecast.csv"),
+    )
+}
+
+type Row = std::collections::BTreeMap<String, String>;
+
+fn product<'a>(rows: &'a [Row], p: &str) -> &'a Row {
+    rows.iter().find(|r| r["product"] == p).unwrap()
+}
+
+/// Month 1's forecast, 80% and 95% bounds.
+fn month1(fc: &[Row], p: &str) -> [f64; 5] {
+    let r = product(fc, p);
+    ["forecast", "lower_80", "upper_80", "lower_95", "upper_95"].map(|k| r[k].parse().unwrap())
+}
+
+/// The step: the tester saw a projection of 1,530 with an 80% range of
+/// 0–17,752, "calibrated on 120 backtest errors: 80% range ×63.45, 95% ×44.68
+/// the model's own", and no warning.
+#[test]
+fn a_break_in_the_history_widens_the_range_at_most_five_fold_and_is_warned() {
+    let (t, sel, fc) = tester_series();
+    let hiv = product(&sel, "HIV test");
+    assert!(hiv["ranges"].contains("capped at ×5"), "{}", hiv["ranges"]);
+    let [f, _, u80, _, _] = month1(&fc, "HIV test");
+    assert!(u80 < 3.0 * f, "80% upper {u80} against a projection of {f}");
+    for phrase in [
+        "the backtest missed by far more than the model expects",
+        "a break in the history",
+        "check it",
+    ] {
+        assert!(hiv["warnings"].contains(phrase), "{}", hiv["warnings"]);
+        assert!(t.contains(phrase), "{t}");
+    }
+    // Every month's 95% range contains its 80% range, strictly on a side
+    // where the 80% bound is neither the projection nor zero.
+    for r in &fc {
+        let [f, l80, u80, l95, u95] = ["forecast", "lower_80", "upper_80", "lower_95", "upper_95"]
+            .map(|k| r[k].parse::<f64>().unwrap());
+        assert!(l95 <= l80 && u95 >= u80, "{r:?}");
+        if u80 > f {
+            assert!(u95 > u80, "{r:?}");
+        }
+        if l80 > 0.0 && l80 < f {
+            assert!(l95 < l80, "{r:?}");
+        }
+    }
+}
+
+/// The stop: croston-sba projects 751.8 a month; the tester saw `ranges` say
+/// "fewer than 24 backtest errors to calibrate on" and a warning "too few
+/// backtest errors to widen it" beside a reason counting 144 forecasts, and
+/// no word that consumption had stopped.
+#[test]
+fn a_stop_in_consumption_is_warned_and_the_ranges_give_the_true_count() {
+    let (t, sel, _) = tester_series();
+    let syrup = product(&sel, "Old syrup");
+    assert!(
+        syrup["reason"].contains("144 forecasts"),
+        "{}",
+        syrup["reason"]
+    );
+    assert!(
+        !syrup["ranges"].contains("fewer than 24")
+            && syrup["ranges"].contains("of its 144 backtest forecasts"),
+        "{}",
+        syrup["ranges"]
+    );
+    let w = &syrup["warnings"];
+    assert!(!w.contains("too few backtest errors"), "{w}");
+    assert!(
+        w.contains("consumed nothing for its last 8 months, yet the projection is 752 a month")
+            && w.contains("phased out or stocked out"),
+        "{w}"
+    );
+    assert!(t.contains("consumed nothing for its last 8 months"), "{t}");
+    // Not said twice: no projected-at-zero or silence warning.
+    assert!(
+        !w.contains("projected at zero") && !w.contains("discontinued"),
+        "{w}"
+    );
+    // Neither the step nor the single demand is told consumption stopped.
+    for p in ["HIV test", "Rare drug"] {
+        assert!(!product(&sel, p)["warnings"].contains("consumed nothing"));
+    }
+}
+
+/// The single demand: the tester saw a month-1 80% range of 16.67–16.67
+/// ("the backtest forecasts were exact at the 80% level"), and `backtested`
+/// = no with "(not backtested)" on the terminal beside a reason saying "the
+/// backtest ran at 12 origins" and ranges "calibrated on 144 backtest
+/// errors".
+#[test]
+fn a_single_demand_keeps_a_range_with_width_and_says_it_was_backtested() {
+    let (t, sel, fc) = tester_series();
+    let rare = product(&sel, "Rare drug");
+    let [_, l80, u80, _, _] = month1(&fc, "Rare drug");
+    assert!(u80 > l80, "80% range {l80}–{u80}");
+    assert!(
+        rare["ranges"]
+            .starts_with("the model's own interval (only 1 of its 144 backtest forecasts")
+            && !rare["ranges"].contains("exact"),
+        "{}",
+        rare["ranges"]
+    );
+    assert!(
+        rare["reason"].contains("the backtest ran at 12 origins"),
+        "{}",
+        rare["reason"]
+    );
+    assert_eq!(rare["backtested"], "yes");
+    assert!(
+        t.contains("(no backtest score)") && !t.contains("(not backtested)"),
+        "{t}"
     );
 }
 

@@ -706,6 +706,8 @@ fn print_summary(results: &[ProductForecast], horizon_shown: bool) {
         }
         if !s.backtested {
             chosen.push_str(" (not backtested)");
+        } else if s.chosen_scores.is_none() {
+            chosen.push_str(" (no backtest score)");
         }
         println!(
             "{}  {:<34} {:>11} {:>8} {:>30}{}",
