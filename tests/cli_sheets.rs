@@ -285,7 +285,7 @@ fn a_named_sheet_is_read_and_an_unknown_one_refused() {
     );
     assert_eq!(o.status.code(), Some(1));
     assert!(
-        text(&o).contains("--sheet Data applies to workbooks"),
+        text(&o).contains("sheet Data (--sheet, or sheet in the [input] section of a --config file) applies to workbooks"),
         "{}",
         text(&o)
     );

@@ -68,7 +68,7 @@ fn refuse_sheet_for_csv(source: &str, options: &ReadOptions) -> Result<()> {
             line: 0,
             column: None,
             message: format!(
-                "--sheet {s} applies to workbooks ({}), and this file is read as a CSV",
+                "sheet {s} (--sheet, or sheet in the [input] section of a --config file) applies to workbooks ({}), and this file is read as a CSV: leave the sheet out",
                 WORKBOOK_EXTENSIONS.map(|e| format!(".{e}")).join(", ")
             ),
         }),
