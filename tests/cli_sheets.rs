@@ -456,6 +456,7 @@ fn a_tab_at_the_start_of_a_name_is_text_in_the_workbook() {
                 Some((3.0, 7.0)),
             )],
             bridged: 0,
+            units: String::new(),
         }],
         tables: vec![],
         parameters: vec![("input".into(), "=cmd|' /C calc'!A0".into())],
@@ -476,6 +477,40 @@ fn a_tab_at_the_start_of_a_name_is_text_in_the_workbook() {
         .unwrap()
         .cells()
         .all(|(_, _, x)| x.is_empty()));
+}
+
+/// The Forecast sheet names a product's unit on its forecast row (a tester
+/// found the unit only on the Annual totals sheet); a product without one
+/// keeps the plain label.
+#[test]
+fn the_forecast_sheet_names_each_products_unit() {
+    let one = |product: &str, units: &str| provisio::output::WorkbookForecast {
+        product: product.into(),
+        model: "naive".into(),
+        months: vec![(
+            provisio::calendar::YearMonth::new(2024, 1).unwrap(),
+            5.0,
+            Some((4.0, 6.0)),
+            Some((3.0, 7.0)),
+        )],
+        bridged: 0,
+        units: units.into(),
+    };
+    let content = provisio::output::WorkbookContent {
+        forecasts: vec![one("Malaria test", "test"), one("Other", "")],
+        tables: vec![],
+        parameters: vec![],
+        caution: "caution".into(),
+    };
+    let bytes = provisio::output::build_workbook(&content).unwrap();
+    let mut book = calamine::Xlsx::new(std::io::Cursor::new(bytes)).unwrap();
+    let f = book.worksheet_range("Forecast").unwrap();
+    assert_eq!(
+        f.get((3, 2)),
+        Some(&Data::String("forecast (tests)".into()))
+    );
+    assert_eq!(f.get((4, 2)), Some(&Data::String("80% low".into())));
+    assert_eq!(f.get((8, 2)), Some(&Data::String("forecast".into())));
 }
 
 /// Builds a small workbook with `fill` and returns its path.

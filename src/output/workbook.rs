@@ -27,6 +27,9 @@ pub struct WorkbookForecast {
     /// How many of the first months are bridged (forecast between the
     /// product's last month and the common projection start).
     pub bridged: usize,
+    /// The unit the product is counted in (`forecast.csv`'s `units`),
+    /// named on its forecast row; empty when none was configured.
+    pub units: String,
 }
 
 /// How a table column is written. Every kind but `Text` writes a value
@@ -199,7 +202,15 @@ pub fn build_workbook(content: &WorkbookContent) -> std::result::Result<Vec<u8>,
         for (k, label) in FORECAST_ROW_LABELS.iter().enumerate() {
             ws.write_string(row, 0, cell_text(&f.product))?;
             ws.write_string(row, 1, cell_text(&f.model))?;
-            if k == 0 {
+            if k == 0 && !f.units.is_empty() {
+                // The unit beside the quantities (a tester found it only
+                // on the Annual totals sheet).
+                let named = format!(
+                    "{label} ({})",
+                    crate::chart::units_plural(Some(f.units.as_str()))
+                );
+                ws.write_string_with_format(row, 2, cell_text(&named), &bold)?;
+            } else if k == 0 {
                 ws.write_string_with_format(row, 2, *label, &bold)?;
             } else {
                 ws.write_string_with_format(row, 2, *label, &range_label)?;

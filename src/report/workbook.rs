@@ -392,6 +392,7 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
     ];
     // Folders written before the common projection start have no column.
     let bridged = header.iter().position(|h| h == "bridged");
+    let units_col = header.iter().position(|h| h == "units");
     let mut forecasts: Vec<WorkbookForecast> = Vec::new();
     let mut index: HashMap<String, usize> = HashMap::new();
     for (i, r) in rows.iter().enumerate() {
@@ -415,6 +416,10 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                 model: get(2).to_string(),
                 months: Vec::new(),
                 bridged: 0,
+                units: units_col
+                    .and_then(|u| r.get(u))
+                    .map(|u| u.trim().to_string())
+                    .unwrap_or_default(),
             });
             forecasts.len() - 1
         });
@@ -476,6 +481,7 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                 .flatten();
             let product = f.product.clone();
             let bridged = f.bridged;
+            let units = f.units.clone();
             with.push(f);
             if let Some(months) = extra {
                 with.push(WorkbookForecast {
@@ -483,6 +489,7 @@ pub fn workbook_content(dir: &Path) -> Result<WorkbookContent> {
                     model: "adjusted (known changes)".into(),
                     months,
                     bridged,
+                    units: units.clone(),
                 });
             }
         }
