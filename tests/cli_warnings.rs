@@ -204,14 +204,7 @@ fn tester_series() -> (String, Vec<Row>, Vec<Row>) {
     s.push_str(&rows_from_2024_06("Old syrup", &phase));
     s.push_str(&rows_from_2024_06("Rare drug", &single));
     w.write("d.csv", s);
-    let o = w.run(&[
-        "forecast",
-        "d.csv",
-        "--out",
-        "o",
-        "--no-report",
-        "--no-workbook",
-    ]);
+    let o = forecast_d(&w, &["--out", "o"]);
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     (
@@ -345,14 +338,7 @@ fn the_summary_counts_the_products_projected() {
     s.push_str(&rows("Air one month", &a[..1]));
     s.push_str(&rows("Air thirty", &a[..30]));
     w.write("d.csv", s);
-    let o = w.run(&[
-        "forecast",
-        "d.csv",
-        "--out",
-        "o",
-        "--no-report",
-        "--no-workbook",
-    ]);
+    let o = forecast_d(&w, &["--out", "o"]);
     let t = text(&o);
     assert!(o.status.success(), "{t}");
     assert!(
@@ -363,33 +349,34 @@ fn the_summary_counts_the_products_projected() {
     );
     // In the JSON summary the product with no projection has no model (a
     // tester read "naive" there), and the run's own warnings have a key.
-    let o = w.run(&[
-        "--json",
-        "forecast",
-        "d.csv",
-        "--out",
-        "o2",
-        "--no-report",
-        "--no-workbook",
-    ]);
+    let o = forecast_d(&w, &["--out", "o2", "--json"]);
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
-    let one = v["products"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|p| p["product"] == "Air one month")
-        .unwrap();
+    let one = json_product(&v, "Air one month");
     assert!(one["model"].is_null(), "{one}");
     assert!(
         one["warnings"].to_string().contains("no projection"),
         "{one}"
     );
-    let thirty = v["products"]
+    let thirty = json_product(&v, "Air thirty");
+    assert!(thirty["model"].is_string(), "{thirty}");
+    assert!(v["warnings"].is_array(), "{v}");
+}
+
+/// `provisio forecast d.csv` in `w` with `args`, without the report and the
+/// workbook.
+fn forecast_d(w: &Workdir, args: &[&str]) -> std::process::Output {
+    let mut all = vec!["forecast", "d.csv"];
+    all.extend_from_slice(args);
+    all.extend_from_slice(&["--no-report", "--no-workbook"]);
+    w.run(&all)
+}
+
+/// One product's entry in a `--json` forecast summary.
+fn json_product<'a>(v: &'a serde_json::Value, product: &str) -> &'a serde_json::Value {
+    v["products"]
         .as_array()
         .unwrap()
         .iter()
-        .find(|p| p["product"] == "Air thirty")
-        .unwrap();
-    assert!(thirty["model"].is_string(), "{thirty}");
-    assert!(v["warnings"].is_array(), "{v}");
+        .find(|p| p["product"] == product)
+        .unwrap()
 }
