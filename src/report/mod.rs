@@ -1070,7 +1070,7 @@ fn summary(b: &mut String, run: &ForecastRun) {
     facts.push((
         "Ranges",
         escape(
-            "80% and 95%, calibrated on the backtest errors: each product's factor is the mean of its own and the one pooled over the run's products of its demand class; the 95% range is never narrower than the model's own (selection.csv, column ranges)",
+            &format!("80% and 95%, calibrated on the backtest errors: each product's factor is the mean of its own and the one pooled over the run's products of its demand class, at most ×{} the model's own range (more is warned as a likely break in the history); the 95% range is never narrower than the model's own (selection.csv, column ranges)", crate::calibrate::MAX_FACTOR),
         ),
     ));
     facts.push(("Horizon", escape(&format!("{} months", fs(&["horizon"])))));
